@@ -1,0 +1,151 @@
+//! Integer helpers shared by the fixed-point stages.
+//!
+//! Formats are written `Qm.n`: an integer holding a value times 2^n, with m
+//! integer bits. Every helper says how it rounds. None of them panics.
+//!
+//! ```
+//! use lc_core::fixed::{mul_u32_wide, round_shr_u64};
+//! assert_eq!(mul_u32_wide(u32::MAX, u32::MAX), 0xFFFF_FFFE_0000_0001);
+//! assert_eq!(round_shr_u64(5, 1), 3); // 2.5 rounds up (half away from zero)
+//! assert_eq!(round_shr_u64(u64::MAX, 64), 1);
+//! ```
+
+/// Full 64-bit product of two `u32`. Exact.
+///
+/// ARMv6-M (Cortex-M0/M0+) has only a 32 × 32 → 32-bit multiply, and the
+/// compiler's generic 64-bit multiply routine costs about 50 instructions
+/// there; four 16 × 16-bit partial products cost about 20. Elsewhere the
+/// native widening multiply is used (one `UMULL` on ARMv7-M). ARMv6-M is
+/// recognised as the ARM profile without compare-and-swap atomics.
+#[inline]
+pub fn mul_u32_wide(a: u32, b: u32) -> u64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        let (a0, a1) = (a & 0xFFFF, a >> 16);
+        let (b0, b1) = (b & 0xFFFF, b >> 16);
+        // Each partial product of two 16-bit halves fits in u32.
+        let p00 = a0 * b0;
+        let p01 = a0 * b1;
+        let p10 = a1 * b0;
+        let p11 = a1 * b1;
+        // Sum of three 16-bit quantities: at most 3 · (2^16 − 1) < 2^18.
+        let mid = (p00 >> 16) + (p01 & 0xFFFF) + (p10 & 0xFFFF);
+        let lo = (p00 & 0xFFFF) | (mid << 16);
+        let hi = p11 + (p01 >> 16) + (p10 >> 16) + (mid >> 16);
+        (u64::from(hi) << 32) | u64::from(lo)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        u64::from(a) * u64::from(b)
+    }
+}
+
+/// `x / 2^sh` rounded to nearest, ties away from zero. `sh` may be 0..=64
+/// and larger (the result is then 0). Exact otherwise; never overflows
+/// (`u64::MAX` shifted by 1 gives 2^63).
+#[inline]
+pub fn round_shr_u64(x: u64, sh: u32) -> u64 {
+    match sh {
+        0 => x,
+        1..=63 => {
+            let half_bit = (x >> (sh - 1)) & 1;
+            (x >> sh) + half_bit
+        }
+        64 => x >> 63,
+        _ => 0,
+    }
+}
+
+/// `x / 2^sh` rounded to nearest, ties away from zero, for `u128`. `sh`
+/// larger than 128 gives 0.
+#[inline]
+pub fn round_shr_u128(x: u128, sh: u32) -> u128 {
+    match sh {
+        0 => x,
+        1..=127 => ((x >> (sh - 1)) & 1) + (x >> sh),
+        128 => x >> 127,
+        _ => 0,
+    }
+}
+
+/// `n / d` rounded to nearest, ties away from zero, or `None` when `d` is
+/// zero. Never overflows: the rounding uses the remainder, not `n + d/2`.
+#[inline]
+pub fn round_div_u128(n: u128, d: u128) -> Option<u128> {
+    let q = n.checked_div(d)?;
+    let r = n % d;
+    // r < d, so d - r > 0; round up when r >= d - r, i.e. 2r >= d.
+    Some(if r >= d - r { q + 1 } else { q })
+}
+
+/// Number of significant bits of `x` (0 for 0, 64 for values ≥ 2^63).
+#[inline]
+pub fn bit_length_u128(x: u128) -> u32 {
+    128 - x.leading_zeros()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    #[test]
+    fn wide_multiply_corners() {
+        assert_eq!(mul_u32_wide(0, u32::MAX), 0);
+        assert_eq!(mul_u32_wide(1, u32::MAX), u64::from(u32::MAX));
+        assert_eq!(mul_u32_wide(0x1_0000, 0x1_0000), 1 << 32);
+        assert_eq!(mul_u32_wide(u32::MAX, u32::MAX), 0xFFFF_FFFE_0000_0001);
+    }
+
+    #[test]
+    fn rounding_shift_ties_and_limits() {
+        assert_eq!(round_shr_u64(3, 1), 2); // 1.5 -> 2
+        assert_eq!(round_shr_u64(2, 2), 1); // 0.5 -> 1
+        assert_eq!(round_shr_u64(1, 2), 0); // 0.25 -> 0
+        assert_eq!(round_shr_u64(u64::MAX, 1), 1 << 63);
+        assert_eq!(round_shr_u64(u64::MAX, 64), 1);
+        assert_eq!(round_shr_u64(u64::MAX, 65), 0);
+        assert_eq!(round_shr_u128(u128::MAX, 128), 1);
+        assert_eq!(round_shr_u128(7, 200), 0);
+    }
+
+    #[test]
+    fn rounding_division() {
+        assert_eq!(round_div_u128(7, 2), Some(4));
+        assert_eq!(round_div_u128(5, 3), Some(2));
+        assert_eq!(round_div_u128(4, 3), Some(1));
+        assert_eq!(round_div_u128(1, 0), None);
+        assert_eq!(round_div_u128(u128::MAX, u128::MAX), Some(1));
+        assert_eq!(round_div_u128(u128::MAX, 2), Some(1 << 127));
+    }
+
+    proptest! {
+        #[test]
+        fn wide_multiply_is_exact(a: u32, b: u32) {
+            prop_assert_eq!(u128::from(mul_u32_wide(a, b)), u128::from(a) * u128::from(b));
+        }
+
+        #[test]
+        fn rounding_shift_is_nearest(x: u64, sh in 0u32..70) {
+            // Exact rational comparison: |result·2^sh − x| ≤ 2^sh / 2.
+            let got = u128::from(round_shr_u64(x, sh));
+            let scaled = got << sh.min(64);
+            let err = scaled.abs_diff(u128::from(x));
+            if sh <= 64 {
+                prop_assert!(2 * err <= 1u128 << sh);
+            } else {
+                prop_assert_eq!(got, 0);
+            }
+        }
+
+        #[test]
+        fn rounding_division_is_nearest(n: u128, d in 1u128..) {
+            let q = round_div_u128(n, d).unwrap();
+            // |q·d − n| ≤ d/2, computed without overflow via the floor quotient.
+            let f = n / d;
+            prop_assert!(q == f || q == f + 1);
+            let r = n % d;
+            if q == f { prop_assert!(2 * r <= d) } else { prop_assert!(2 * (d - r) <= d) }
+        }
+    }
+}

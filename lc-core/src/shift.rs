@@ -1,0 +1,562 @@
+//! The shift of a reading against the unit's rest point: the per-reading
+//! hot path of the firmware.
+//!
+//! With period ratio p = ticks/cycles and the rest point p_rest (no target,
+//! reference temperature), the **shift** is
+//!
+//! s = (p / p_rest)² − 1 = Δ(L·C) / (L·C)_rest,
+//!
+//! because the period of the tank is 2π·√(L·C). A target that lowers L (a
+//! metal plate's eddy currents) gives s < 0; one that raises C (liquid
+//! around a probe) gives s > 0.
+//!
+//! ## Format, domain, rounding and bound
+//!
+//! - Output: [`Shift`], `i64` Q23.40 (LSB 2^-40 ≈ 9.1e-13), representable
+//!   from −1 up to 2^22.
+//! - Declared domain: reference 1–200 MHz, sensor 10 kHz–30 MHz, rest point
+//!   2^-8 ≤ p_rest < 2^20, the larger count at most 2^27 (134 217 728: a
+//!   1.3 s gate at 100 MHz), shift −0.9 ≤ s ≤ 7.
+//! - Bound against the exact value (and so against the `f64` twin):
+//!   |s_fixed − s| ≤ (1 + s) · 1.04 · 2^-30 + 2^-41. The counter's own
+//!   quantisation step at that reading is δs = 2·(1 + s)/n for one count of
+//!   the quantised count n, so inside the domain the error is at most
+//!   0.1 · δs / 1.6: the arithmetic never limits resolution. Outside the
+//!   domain (larger counts) the relative bound still holds; it is just no
+//!   longer below a tenth of a count.
+//! - Rounding: the rest point's reciprocal and the normalised ratio are
+//!   rounded to nearest; the one division (if any) truncates with at most
+//!   2^-36 relative error in the domain (2^-31 for any `u32` count); the
+//!   final shift is rounded to nearest, ties away from zero.
+//!
+//! ## Cost
+//!
+//! At construction the converter precomputes the rest point's reciprocal
+//! 1/p_rest (and 1/(p_rest · N) for a reciprocal gate of N sensor cycles) as
+//! a 32-bit mantissa with an exponent. Per reading:
+//!
+//! - cycles equal to the configured gate length N: r = ticks · m (one 32 ×
+//!   32-bit multiply), a normalisation, and r² (a second multiply). **No
+//!   division**, whether N is a power of two or not.
+//! - any other count pair (direct gating, logged data): the same plus one
+//!   64 ÷ 64-bit division by the cycle count.
+//!
+//! ```
+//! use lc_core::counting::{CountPair, Gating};
+//! use lc_core::shift::{RestPoint, Shift, ShiftConverter};
+//!
+//! let rest = RestPoint::from_counts(CountPair::new(1024, 16_384)).unwrap();
+//! let conv = ShiftConverter::new(rest, Gating::Reciprocal, Some(1024)).unwrap();
+//! // Period ratio 2 % above rest: s = 1.02² − 1 = 0.0404.
+//! let reading = conv.convert(CountPair::new(1024, 16_712)).unwrap();
+//! assert!((reading.shift().to_f64() - ((16_712.0f64 / 16_384.0).powi(2) - 1.0)).abs() < 1e-11);
+//! // One tick moves the shift by about 2·(1 + s)/16_712.
+//! let step = reading.quantisation_step().to_f64();
+//! assert!((step - 2.0 * 1.0404 / 16_712.0).abs() < 1e-6);
+//! ```
+
+use crate::counting::{CountPair, Gate, Gating};
+use crate::fixed::{mul_u32_wide, round_div_u128, round_shr_u64};
+use crate::ratio::{period_ratio, PeriodRatio};
+use core::fmt;
+
+/// Why a shift could not be computed or a converter not built.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ShiftError {
+    /// A count of the pair is zero.
+    ZeroCount,
+    /// The shift does not fit the Q23.40 format (s ≥ 2^22).
+    OutOfRange,
+    /// The rest point lies outside 2^-8 ≤ p_rest < 2^20.
+    BadRestPoint,
+}
+
+impl fmt::Display for ShiftError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            ShiftError::ZeroCount => "count is zero",
+            ShiftError::OutOfRange => "shift exceeds the fixed-point range",
+            ShiftError::BadRestPoint => "rest point outside 2^-8 to 2^20 ticks per cycle",
+        })
+    }
+}
+
+impl core::error::Error for ShiftError {}
+
+/// A shift s = Δ(L·C)/(L·C)_rest, `i64` Q23.40 (LSB 2^-40 ≈ 9.1e-13).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Shift(i64);
+
+impl Shift {
+    /// Fractional bits of the format.
+    pub const FRAC_BITS: u32 = 40;
+    /// One, as a raw value.
+    pub const ONE_RAW: i64 = 1 << 40;
+    /// Zero shift: the rest point.
+    pub const ZERO: Shift = Shift(0);
+
+    /// From the raw Q23.40 value.
+    #[inline]
+    pub const fn from_raw_q40(raw: i64) -> Self {
+        Self(raw)
+    }
+
+    /// The raw Q23.40 value.
+    #[inline]
+    pub const fn raw_q40(self) -> i64 {
+        self.0
+    }
+
+    /// The shift as `f64` (exact for |s| < 2^13).
+    #[inline]
+    pub fn to_f64(self) -> f64 {
+        self.0 as f64 / 1_099_511_627_776.0
+    }
+
+    /// Parts per million, rounded to nearest (diagnostics and logs).
+    #[inline]
+    pub fn to_ppm_f64(self) -> f64 {
+        self.to_f64() * 1e6
+    }
+
+    /// The nearest Q23.40 value to `s`, or `None` when `s` is not finite or
+    /// outside the representable range. Host-side helper.
+    pub fn from_f64(s: f64) -> Option<Self> {
+        let scaled = libm::round(s * 1_099_511_627_776.0);
+        if !(-9.223_372_036_854_775e18..9.223_372_036_854_775e18).contains(&scaled) {
+            return None;
+        }
+        Some(Self(scaled as i64))
+    }
+}
+
+/// The unit's rest point: its period ratio with no target at the reference
+/// temperature, 2^-8 ≤ p_rest < 2^20 (Q20.44 raw value in 2^36..2^64).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RestPoint(PeriodRatio);
+
+impl RestPoint {
+    /// A rest point from a period ratio, checked against the range.
+    pub const fn from_ratio(ratio: PeriodRatio) -> Result<Self, ShiftError> {
+        if ratio.raw_q44() < 1 << 36 {
+            return Err(ShiftError::BadRestPoint);
+        }
+        Ok(Self(ratio))
+    }
+
+    /// A rest point measured as one count pair.
+    pub fn from_counts(pair: CountPair) -> Result<Self, ShiftError> {
+        let ratio = period_ratio(pair).map_err(|_| ShiftError::BadRestPoint)?;
+        Self::from_ratio(ratio)
+    }
+
+    /// The rest point's period ratio.
+    #[inline]
+    pub const fn ratio(&self) -> PeriodRatio {
+        self.0
+    }
+
+    /// The rest point's period ratio as `f64`.
+    #[inline]
+    pub fn to_f64(&self) -> f64 {
+        self.0.to_f64()
+    }
+}
+
+/// A reciprocal 2^e / d as a 32-bit mantissa with its top bit set:
+/// returns (m, e) with m = round(2^e / d) and 2^31 ≤ m < 2^32, so the
+/// relative rounding error is at most 2^-32. `d` must be below 2^96.
+fn reciprocal_mantissa(d: u128) -> Option<(u32, u32)> {
+    if d == 0 || d >> 96 != 0 {
+        return None;
+    }
+    let bits = 128 - d.leading_zeros(); // 2^(bits-1) ≤ d < 2^bits
+    let mut e = bits + 31; // ≤ 127: 2^e / d lies in (2^31, 2^32]
+    let mut m = round_div_u128(1u128 << e, d)?;
+    if m >> 32 != 0 {
+        // d was a power of two (or rounded up to 2^32): halve the scale.
+        e -= 1;
+        m = round_div_u128(1u128 << e, d)?;
+    }
+    u32::try_from(m).ok().map(|m| (m, e))
+}
+
+/// Converts count pairs into shifts against one rest point.
+///
+/// Build it once (at calibration load); [`ShiftConverter::convert`] is the
+/// per-reading path. See the [module docs](self) for format, domain, bound
+/// and cost.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ShiftConverter {
+    rest: RestPoint,
+    gating: Gating,
+    /// 1/p_rest ≈ inv_mant · 2^-(inv_exp) · 2^44 … stored as the exponent
+    /// of r = ticks · inv_mant / cycles · 2^-inv_exp.
+    inv_mant: u32,
+    inv_exp: i32,
+    /// Configured gate length in sensor cycles, 0 when none.
+    gate_cycles: u32,
+    /// 1/(p_rest · N): r = ticks · gate_mant · 2^-gate_exp.
+    gate_mant: u32,
+    gate_exp: i32,
+}
+
+impl ShiftConverter {
+    /// A converter for `rest`, with readings gated by `gating`; for a
+    /// reciprocal gate, `gate_cycles` is its fixed number of sensor cycles
+    /// (pairs with exactly that many cycles take the division-free path).
+    pub fn new(
+        rest: RestPoint,
+        gating: Gating,
+        gate_cycles: Option<u32>,
+    ) -> Result<Self, ShiftError> {
+        let p = u128::from(rest.0.raw_q44());
+        let (inv_mant, e) = reciprocal_mantissa(p).ok_or(ShiftError::BadRestPoint)?;
+        let inv_exp = exp_i32(e)?;
+        let n = match (gating, gate_cycles) {
+            (Gating::Reciprocal, Some(n)) if n > 0 => n,
+            _ => 0,
+        };
+        let (gate_mant, gate_exp) = if n > 0 {
+            let (m, e) = reciprocal_mantissa(p * u128::from(n)).ok_or(ShiftError::BadRestPoint)?;
+            (m, exp_i32(e)?)
+        } else {
+            (0, 0)
+        };
+        Ok(Self {
+            rest,
+            gating,
+            inv_mant,
+            inv_exp,
+            gate_cycles: n,
+            gate_mant,
+            gate_exp,
+        })
+    }
+
+    /// A converter for readings from `gate`.
+    pub fn for_gate(rest: RestPoint, gate: Gate) -> Result<Self, ShiftError> {
+        Self::new(rest, gate.gating(), gate.cycles())
+    }
+
+    /// The rest point.
+    #[inline]
+    pub const fn rest(&self) -> RestPoint {
+        self.rest
+    }
+
+    /// The gating of the readings.
+    #[inline]
+    pub const fn gating(&self) -> Gating {
+        self.gating
+    }
+
+    /// The shift of one count pair.
+    pub fn convert(&self, pair: CountPair) -> Result<ShiftReading, ShiftError> {
+        let shift = self.shift(pair)?;
+        Ok(ShiftReading {
+            pair,
+            gating: self.gating,
+            shift,
+        })
+    }
+
+    /// The shift of one count pair, without the reading around it.
+    pub fn shift(&self, pair: CountPair) -> Result<Shift, ShiftError> {
+        let CountPair { cycles, ticks } = pair;
+        if cycles == 0 || ticks == 0 {
+            return Err(ShiftError::ZeroCount);
+        }
+        // r = p / p_rest = x · 2^-exp.
+        let (x, exp) = if cycles == self.gate_cycles {
+            (mul_u32_wide(ticks, self.gate_mant), self.gate_exp)
+        } else {
+            // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
+            let x = mul_u32_wide(ticks, self.inv_mant);
+            let z = x.leading_zeros();
+            // (x << z) ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
+            ((x << z) / u64::from(cycles), self.inv_exp + z as i32)
+        };
+        // Normalise x to a 32-bit mantissa y, rounded to nearest:
+        // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp).
+        let z = x.leading_zeros() as i32; // x > 0: z ≤ 63
+        let v = x << z;
+        let hi = (v >> 32) as u32; // top 32 bits; the cast keeps exactly them
+        let (y, z) = match hi.checked_add(((v >> 31) & 1) as u32) {
+            Some(y) => (y, z),
+            None => (1 << 31, z - 1),
+        };
+        // s + 1 = r² = y² · 2^(2·(32 − z − exp)); in Q.40: y² · 2^k.
+        let k = 2 * (32 - z - exp) + 40;
+        if k >= 0 {
+            // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
+            return Err(ShiftError::OutOfRange);
+        }
+        let u = round_shr_u64(mul_u32_wide(y, y), k.unsigned_abs());
+        let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
+        Ok(Shift(u - Shift::ONE_RAW))
+    }
+
+    /// `f64` twin of [`ShiftConverter::shift`]: (ticks / (cycles · p_rest))² − 1
+    /// with the same rest point.
+    #[inline]
+    pub fn shift_f64(&self, pair: CountPair) -> f64 {
+        shift_f64(pair, self.rest.to_f64())
+    }
+}
+
+fn exp_i32(e: u32) -> Result<i32, ShiftError> {
+    // e ≤ 127, and the Q20.44 scale of p_rest contributes 2^44.
+    i32::try_from(e)
+        .map(|e| e - 44)
+        .map_err(|_| ShiftError::BadRestPoint)
+}
+
+/// `f64` reference of the shift: (ticks / (cycles · p_rest))² − 1.
+#[inline]
+pub fn shift_f64(pair: CountPair, rest_ratio: f64) -> f64 {
+    let r = f64::from(pair.ticks) / (f64::from(pair.cycles) * rest_ratio);
+    r * r - 1.0
+}
+
+/// One reading's shift, with the count pair it came from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ShiftReading {
+    pair: CountPair,
+    gating: Gating,
+    shift: Shift,
+}
+
+impl ShiftReading {
+    /// The shift.
+    #[inline]
+    pub const fn shift(&self) -> Shift {
+        self.shift
+    }
+
+    /// The count pair.
+    #[inline]
+    pub const fn pair(&self) -> CountPair {
+        self.pair
+    }
+
+    /// The gating the pair came from.
+    #[inline]
+    pub const fn gating(&self) -> Gating {
+        self.gating
+    }
+
+    /// The count that carries the ±1 quantisation.
+    #[inline]
+    pub const fn quantised_count(&self) -> u32 {
+        self.gating.quantised_count(self.pair)
+    }
+
+    /// The counter's quantisation step at this reading: the change of the
+    /// shift for one count of the quantised count n, to first order
+    /// δs = 2·(1 + s)/n, rounded to nearest. Costs one division; not part of
+    /// the per-reading path.
+    pub fn quantisation_step(&self) -> Shift {
+        let n = u128::from(self.quantised_count());
+        // 1 + s ≥ 0 and < 2^63 for any valid reading.
+        let one_plus = u128::from(self.shift.0.saturating_add(Shift::ONE_RAW).unsigned_abs());
+        let step = round_div_u128(2 * one_plus, n).unwrap_or(0);
+        Shift(i64::try_from(step).unwrap_or(i64::MAX))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn rest(p: f64) -> RestPoint {
+        RestPoint::from_ratio(PeriodRatio::from_f64(p).unwrap()).unwrap()
+    }
+
+    #[test]
+    fn rest_point_range() {
+        assert_eq!(
+            RestPoint::from_ratio(PeriodRatio::from_raw_q44((1 << 36) - 1)),
+            Err(ShiftError::BadRestPoint)
+        );
+        assert!(RestPoint::from_ratio(PeriodRatio::from_raw_q44(1 << 36)).is_ok());
+        assert!(RestPoint::from_ratio(PeriodRatio::from_raw_q44(u64::MAX)).is_ok());
+        assert_eq!(
+            RestPoint::from_counts(CountPair::new(0, 10)),
+            Err(ShiftError::BadRestPoint)
+        );
+        assert_eq!(
+            RestPoint::from_counts(CountPair::new(1, u32::MAX)),
+            Err(ShiftError::BadRestPoint)
+        );
+    }
+
+    #[test]
+    fn reciprocal_mantissa_is_normalised_and_nearest() {
+        for d in [
+            1u128,
+            2,
+            3,
+            7,
+            1 << 36,
+            (1 << 64) - 1,
+            10 << 44,
+            (1 << 95) + 12345,
+        ] {
+            let (m, e) = reciprocal_mantissa(d).unwrap();
+            assert!(m >> 31 == 1, "d {d}");
+            // |m·d − 2^e| ≤ d/2
+            let err = (u128::from(m) * d).abs_diff(1u128 << e);
+            assert!(2 * err <= d, "d {d}");
+        }
+        assert_eq!(reciprocal_mantissa(0), None);
+        assert_eq!(reciprocal_mantissa(1 << 96), None);
+    }
+
+    #[test]
+    fn rest_gives_zero_and_known_shifts() {
+        let r = RestPoint::from_counts(CountPair::new(4096, 40_960)).unwrap();
+        for gate in [None, Some(4096), Some(4095)] {
+            let c = ShiftConverter::new(r, Gating::Reciprocal, gate).unwrap();
+            assert_eq!(c.shift(CountPair::new(4096, 40_960)), Ok(Shift::ZERO));
+            // Doubling the period ratio: s = 3 exactly.
+            assert_eq!(
+                c.shift(CountPair::new(4096, 81_920)).unwrap().raw_q40(),
+                3 << 40
+            );
+            // Halving it: s = −0.75 exactly.
+            assert_eq!(
+                c.shift(CountPair::new(4096, 20_480)).unwrap().raw_q40(),
+                -(3 << 38)
+            );
+        }
+    }
+
+    #[test]
+    fn edge_cases_are_typed_errors() {
+        let c = ShiftConverter::new(rest(10.0), Gating::Direct, None).unwrap();
+        assert_eq!(c.shift(CountPair::new(0, 5)), Err(ShiftError::ZeroCount));
+        assert_eq!(c.shift(CountPair::new(5, 0)), Err(ShiftError::ZeroCount));
+        // s ≈ (2^32/10)² far beyond 2^22.
+        assert_eq!(
+            c.shift(CountPair::new(1, u32::MAX)),
+            Err(ShiftError::OutOfRange)
+        );
+        // Tiny ratio: s → −1 without panic.
+        let s = c.shift(CountPair::new(u32::MAX, 1)).unwrap();
+        assert_eq!(s.raw_q40(), -Shift::ONE_RAW);
+        let s = c
+            .shift(CountPair::new(u32::MAX, u32::MAX))
+            .unwrap()
+            .to_f64();
+        assert!((s - (0.01 - 1.0)).abs() <= 0.01 * 1.04 * 2f64.powi(-30) + 2f64.powi(-41));
+        // Just below and above the format edge s = 2^22 − 1 → r² = 2^22.
+        let edge = ShiftConverter::new(rest(1.0), Gating::Direct, None).unwrap();
+        assert!(edge.shift(CountPair::new(1, 2047)).is_ok());
+        assert_eq!(
+            edge.shift(CountPair::new(1, 2048)),
+            Err(ShiftError::OutOfRange)
+        );
+    }
+
+    #[test]
+    fn quantisation_step_of_a_reading() {
+        let c = ShiftConverter::new(rest(10.0), Gating::Reciprocal, Some(1000)).unwrap();
+        let r = c.convert(CountPair::new(1000, 10_000)).unwrap();
+        assert_eq!(r.quantised_count(), 10_000);
+        // 2·(1 + 0)/10_000, rounded to the nearest 2^-40.
+        assert!((r.quantisation_step().to_f64() - 2e-4).abs() <= 2f64.powi(-41));
+        let d = ShiftConverter::new(rest(10.0), Gating::Direct, None).unwrap();
+        let r = d.convert(CountPair::new(1000, 10_000)).unwrap();
+        assert!((r.quantisation_step().to_f64() - 2e-3).abs() <= 2f64.powi(-41));
+    }
+
+    /// One point of the declared domain: a converter, a pair, and the gate.
+    #[derive(Debug, Clone)]
+    struct Case {
+        rest_ratio: f64,
+        pair: CountPair,
+        gate_cycles: Option<u32>,
+    }
+
+    const MAX_COUNT: u32 = 1 << 27;
+
+    fn domain() -> impl Strategy<Value = Case> {
+        (
+            1.0e6f64..=200.0e6,
+            1.0e4f64..=30.0e6,
+            -0.9f64..=7.0,
+            1u32..=MAX_COUNT,
+            any::<bool>(),
+            any::<bool>(),
+        )
+            .prop_filter_map(
+                "counts in domain",
+                |(f_ref, f_rest, s, n, ticks_larger, gated)| {
+                    let rest_ratio = PeriodRatio::from_f64(f_ref / f_rest)?.to_f64();
+                    let p = rest_ratio * libm::sqrt(1.0 + s);
+                    let (cycles, ticks) = if ticks_larger {
+                        (libm::round(f64::from(n) / p), f64::from(n))
+                    } else {
+                        (f64::from(n), libm::round(f64::from(n) * p))
+                    };
+                    if !(1.0..=f64::from(MAX_COUNT)).contains(&cycles)
+                        || !(1.0..=f64::from(MAX_COUNT)).contains(&ticks)
+                    {
+                        return None;
+                    }
+                    let pair = CountPair::new(cycles as u32, ticks as u32);
+                    let exact = shift_f64(pair, rest_ratio);
+                    if !(-0.9..=7.0).contains(&exact) {
+                        return None;
+                    }
+                    Some(Case {
+                        rest_ratio,
+                        pair,
+                        gate_cycles: gated.then_some(pair.cycles),
+                    })
+                },
+            )
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(50_000))]
+
+        /// Fixed shift vs its f64 twin over the declared domain, on both the
+        /// division-free (configured gate) and the division path: within the
+        /// stated bound, and within a tenth of the quantisation step.
+        #[test]
+        fn shift_within_a_tenth_of_a_step(case in domain()) {
+            let rest = RestPoint::from_ratio(PeriodRatio::from_f64(case.rest_ratio).unwrap()).unwrap();
+            let conv = ShiftConverter::new(rest, Gating::Reciprocal, case.gate_cycles).unwrap();
+            let fixed = conv.shift(case.pair).unwrap().to_f64();
+            let float = conv.shift_f64(case.pair);
+            let err = (fixed - float).abs();
+            let bound = (1.0 + float) * 1.04 * 2f64.powi(-30) + 2f64.powi(-41) + 1e-15;
+            prop_assert!(err <= bound, "err {err:e} bound {bound:e}");
+            let step = 2.0 * (1.0 + float) / f64::from(case.pair.max_count());
+            prop_assert!(err <= 0.1 * step, "err {err:e} step {step:e}");
+        }
+
+        /// Any pair and rest point: never a panic; any success is within the
+        /// relative bound that holds for every u32 count.
+        #[test]
+        fn shift_never_panics(rest_raw in (1u64 << 36).., cycles: u32, ticks: u32, gate: Option<u32>, direct: bool) {
+            let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(rest_raw)).unwrap();
+            let gating = if direct { Gating::Direct } else { Gating::Reciprocal };
+            let conv = ShiftConverter::new(rest, gating, gate).unwrap();
+            if let Ok(r) = conv.convert(CountPair::new(cycles, ticks)) {
+                let float = conv.shift_f64(r.pair());
+                let fixed = r.shift().to_f64();
+                prop_assert!((fixed - float).abs() <= (1.0 + float) * 2f64.powi(-29) + 2f64.powi(-40));
+                let _ = r.quantisation_step();
+            }
+        }
+    }
+}
