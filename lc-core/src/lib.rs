@@ -62,6 +62,6 @@
 pub mod counting;
 pub mod fixed;
 pub mod ratio;
-//TMP pub mod ringdown;
+pub mod ringdown;
 pub mod shift;
-//TMP pub mod tank;
+pub mod tank;

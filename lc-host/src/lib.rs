@@ -1,3 +1,25 @@
-//! # lc-host: PC side of the LC sensor toolkit
+//! # lc-host: the PC side of the LC sensor toolkit
+//!
+//! Engineers convert logged counts exactly as the firmware would: every
+//! number here comes from `lc-core`'s own code path, never a second
+//! implementation.
+//!
+//! - [`fieldlog`]: streaming reader of field logs (CSV), with errors that
+//!   name the file, line and field.
+//! - [`counts`]: count pairs to frequency, period ratio, shift and
+//!   quantisation step, with the fault window applied.
+//!
+//! ```
+//! use lc_host::counts::{CountsConfig, RowStatus};
+//! use lc_core::counting::CountPair;
+//!
+//! let cfg = CountsConfig::new(16_000_000, CountPair::new(4096, 19_275), Some(4096), None).unwrap();
+//! let row = cfg.convert(CountPair::new(4096, 19_180));
+//! assert_eq!(row.status, RowStatus::Ok);
+//! assert!(row.shift_ppm.unwrap() < 0.0); // a target lowered L·C
+//! ```
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
+
+pub mod counts;
+pub mod fieldlog;
