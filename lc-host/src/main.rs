@@ -38,8 +38,8 @@ enum Command {
     ///
     /// Example (the bundled demo log of a proximity sensor):
     ///
-    ///   lc-host counts examples/data/demo-counts.csv --reference-hz 16000000
-    ///   --rest 4096:8192 --gate-cycles 4096 --band 1000000:20000000
+    ///   lc-host counts examples/data/demo-counts.csv --reference-hz 48000000 \
+    ///     --rest 16384:139542 --gate-cycles 16384 --band 1000000:20000000
     #[command(verbatim_doc_comment)]
     Counts(CountsArgs),
 }
@@ -90,7 +90,7 @@ enum BadRow {
 fn parse_pair(s: &str) -> Result<CountPair, String> {
     let (c, t) = s
         .split_once(':')
-        .ok_or("expected CYCLES:TICKS, for example 4096:8192")?;
+        .ok_or("expected CYCLES:TICKS, for example 16384:139542")?;
     let c = c
         .trim()
         .parse()

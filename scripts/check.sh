@@ -1,0 +1,76 @@
+#!/usr/bin/env bash
+# The project's whole test suite: formatting, lints, docs, tests (host,
+# property, published checks, emulator), cross builds for Cortex-M0 and
+# Cortex-M4F with and without defmt, and the panic-freedom proof.
+#
+#   bash scripts/check.sh
+#
+# Needs: the Rust toolchain with rustfmt and clippy; for the cross builds the
+# targets thumbv6m-none-eabi and thumbv7em-none-eabihf; for the emulator
+# tests Debian's qemu-system-arm. Missing pieces are reported and skipped on
+# a developer machine; with CI=true they are failures.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+ci=${CI:-}
+skipped=()
+step() { printf '\n==> %s\n' "$*"; }
+missing() {
+    # $1 what, $2 how to install
+    if [ -n "$ci" ]; then
+        echo "error: $1 is missing (CI=true): $2" >&2
+        exit 1
+    fi
+    echo "skipped: $1 is missing; install with: $2" >&2
+    skipped+=("$1 ($2)")
+}
+
+targets=(thumbv6m-none-eabi thumbv7em-none-eabihf)
+have_targets=yes
+installed=$(rustup target list --installed 2>/dev/null || true)
+for t in "${targets[@]}"; do
+    grep -qx "$t" <<<"$installed" || have_targets=no
+done
+
+step "format"
+cargo fmt --all -- --check
+
+step "clippy (host, all targets)"
+cargo clippy --workspace --all-targets -- -D warnings
+
+step "rustdoc"
+RUSTDOCFLAGS="-D warnings" cargo doc --workspace --no-deps --quiet
+
+if [ "$have_targets" = yes ]; then
+    for t in "${targets[@]}"; do
+        for f in "" "--features defmt"; do
+            step "lc-core for $t ${f:-(no features)}"
+            # shellcheck disable=SC2086
+            cargo clippy -p lc-core --lib --target "$t" $f -- -D warnings
+            # shellcheck disable=SC2086
+            cargo build -p lc-core --release --target "$t" $f --quiet
+        done
+    done
+    step "firmware example lints"
+    for t in "${targets[@]}"; do
+        cargo clippy --manifest-path examples/firmware/Cargo.toml --target "$t" --quiet -- -D warnings
+    done
+else
+    missing "Cortex-M rust targets" "rustup target add ${targets[*]}"
+fi
+step "lc-core defmt feature on the host (library only)"
+cargo clippy -p lc-core --lib --features defmt -- -D warnings
+
+if ! command -v qemu-system-arm >/dev/null 2>&1; then
+    missing "qemu-system-arm (emulator tests)" "apt-get install qemu-system-arm"
+fi
+
+step "tests (unit, property, published checks, integration, emulator, doc)"
+cargo test --workspace
+
+if [ ${#skipped[@]} -gt 0 ]; then
+    printf '\nSKIPPED (not a failure on a developer machine):\n'
+    printf '  - %s\n' "${skipped[@]}"
+fi
+echo
+echo "check.sh: all steps passed"
