@@ -1,5 +1,8 @@
 //! Puts the memory layout of the emulated board that matches the target
 //! where cortex-m-rt's `link.x` finds it (as `memory.x` in `OUT_DIR`).
+//!
+//! `LC_FIRMWARE_STACK_BYTES=N` (used by `run.sh stack`) moves the stack to
+//! the bottom of RAM, N bytes deep, so that a deeper stack faults.
 
 use std::{env, fs, path::PathBuf};
 
@@ -14,9 +17,17 @@ fn main() {
              --target thumbv7em-none-eabihf (QEMU mps2-an386, Cortex-M4F)"
         ),
     };
+    let mut memory = fs::read_to_string(layout).expect("read the memory layout");
+    if let Ok(bytes) = env::var("LC_FIRMWARE_STACK_BYTES") {
+        let bytes: u32 = bytes
+            .parse()
+            .expect("LC_FIRMWARE_STACK_BYTES is a number of bytes");
+        memory.push_str(&format!("_stack_start = ORIGIN(RAM) + {bytes};\n"));
+    }
     let out = PathBuf::from(env::var_os("OUT_DIR").expect("cargo sets OUT_DIR"));
-    fs::copy(layout, out.join("memory.x")).expect("copy the memory layout");
+    fs::write(out.join("memory.x"), memory).expect("write memory.x");
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rerun-if-changed={layout}");
     println!("cargo:rerun-if-changed=build.rs");
+    println!("cargo:rerun-if-env-changed=LC_FIRMWARE_STACK_BYTES");
 }

@@ -60,6 +60,7 @@
 #![deny(missing_docs)]
 
 pub mod counting;
+pub mod curve;
 pub mod fixed;
 pub mod ratio;
 pub mod ringdown;

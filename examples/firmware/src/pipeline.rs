@@ -22,9 +22,7 @@
 use core::fmt::{self, Write};
 
 use lc_core::counting::capture::{self, CaptureError, Widener};
-use lc_core::counting::{
-    CountPair, FaultError, FaultWindow, Gate, GateError, Gating, WindowError,
-};
+use lc_core::counting::{CountPair, FaultError, FaultWindow, Gate, GateError, Gating, WindowError};
 use lc_core::ratio::{frequency, period_ratio, Frequency, PeriodRatio, RatioError};
 use lc_core::shift::{RestPoint, Shift, ShiftConverter, ShiftError, ShiftReading};
 
@@ -510,7 +508,12 @@ impl Fnv {
     }
 
     /// Tag 0 and the value, or tag 1 and the error's code.
-    fn result<T, E>(self, r: &Result<T, E>, ok: impl FnOnce(Self, &T) -> Self, code: impl FnOnce(&E) -> u8) -> Self {
+    fn result<T, E>(
+        self,
+        r: &Result<T, E>,
+        ok: impl FnOnce(Self, &T) -> Self,
+        code: impl FnOnce(&E) -> u8,
+    ) -> Self {
         match r {
             Ok(v) => ok(self.bytes(&[0]), v),
             Err(e) => self.bytes(&[1, code(e)]),

@@ -1,0 +1,164 @@
+#!/usr/bin/env bash
+# Build and run the lc-core firmware example on QEMU's emulated Cortex-M0
+# (microbit, thumbv6m-none-eabi) and Cortex-M4F (mps2-an386,
+# thumbv7em-none-eabihf). See docs/performance.md.
+#
+#   run.sh build               build every binary for both cores
+#   run.sh pipeline m0|m4f     print the pipeline table from the emulator
+#   run.sh cost m0|m4f         print instructions per reading
+#   run.sh panic-check         build the panic-never proof for both cores
+#                              (and run it, if QEMU is installed)
+#   run.sh footprint           flash and RAM of the pipeline binary
+#   run.sh stack               peak stack of the pipeline binary on the M0
+#
+# Builds go to ${CARGO_TARGET_DIR:-<repo>/target}/firmware, the directory
+# tests/emulator.rs uses too.
+set -euo pipefail
+
+here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
+root="$(cd "$here/../.." && pwd)"
+target_dir="${CARGO_TARGET_DIR:-$root/target}/firmware"
+cargo="${CARGO:-cargo}"
+timeout_s="${LC_FIRMWARE_TIMEOUT:-60}"
+
+# RUSTFLAGS from the environment would replace the `-Tlink.x` flags of
+# .cargo/config.toml and break the link.
+unset RUSTFLAGS CARGO_ENCODED_RUSTFLAGS CARGO_BUILD_RUSTFLAGS
+
+die() {
+    echo "run.sh: $*" >&2
+    exit 1
+}
+
+usage() {
+    sed -n '2,16p' "${BASH_SOURCE[0]}" | sed 's/^# \{0,1\}//'
+    exit 2
+}
+
+triple_of() {
+    case "$1" in
+    m0) echo thumbv6m-none-eabi ;;
+    m4f) echo thumbv7em-none-eabihf ;;
+    *) die "unknown core '$1': use m0 (Cortex-M0) or m4f (Cortex-M4F)" ;;
+    esac
+}
+
+qemu_args_of() {
+    case "$1" in
+    m0) echo "-machine microbit -cpu cortex-m0" ;;
+    m4f) echo "-machine mps2-an386 -cpu cortex-m4" ;;
+    esac
+}
+
+need_targets() {
+    command -v rustup >/dev/null 2>&1 || return 0
+    local installed missing=()
+    installed="$(rustup target list --installed)"
+    for t in "$@"; do
+        grep -qx "$t" <<<"$installed" || missing+=("$t")
+    done
+    if ((${#missing[@]})); then
+        die "Rust target(s) not installed: ${missing[*]}; install with: rustup target add ${missing[*]}"
+    fi
+}
+
+need_qemu() {
+    command -v qemu-system-arm >/dev/null 2>&1 ||
+        die "qemu-system-arm not found; install it with: apt-get install qemu-system-arm"
+}
+
+# build TRIPLE BIN [cargo args...]
+build() {
+    local triple="$1" bin="$2"
+    shift 2
+    need_targets "$triple"
+    (cd "$here" && CARGO_TARGET_DIR="$target_dir" "$cargo" build --release \
+        --target "$triple" --bin "$bin" "$@")
+}
+
+elf() {
+    echo "$target_dir/$1/release/$2"
+}
+
+# emulate CORE ELF: run under QEMU, one instruction per virtual nanosecond.
+emulate() {
+    need_qemu
+    local core="$1" image="$2"
+    # shellcheck disable=SC2046 # word splitting of the machine arguments is intended
+    timeout "$timeout_s" qemu-system-arm $(qemu_args_of "$core") \
+        -display none -monitor none -serial null \
+        -semihosting-config enable=on,target=native \
+        -icount shift=0 -kernel "$image" </dev/null
+}
+
+size_tool() {
+    local t
+    for t in arm-none-eabi-size llvm-size $(compgen -c llvm-size- | sort -rV) rust-size; do
+        if command -v "$t" >/dev/null 2>&1; then
+            echo "$t"
+            return
+        fi
+    done
+    die "no size tool found; install one with: apt-get install binutils-arm-none-eabi (or: apt-get install llvm)"
+}
+
+cmd="${1:-}"
+case "$cmd" in
+build)
+    for core in m0 m4f; do
+        triple="$(triple_of "$core")"
+        build "$triple" pipeline
+        build "$triple" cost
+        build "$triple" panic_proof --features panic-never
+    done
+    ;;
+pipeline | cost)
+    [[ $# -eq 2 ]] || usage
+    triple="$(triple_of "$2")"
+    build "$triple" "$cmd"
+    emulate "$2" "$(elf "$triple" "$cmd")"
+    ;;
+panic-check)
+    for core in m0 m4f; do
+        triple="$(triple_of "$core")"
+        build "$triple" panic_proof --features panic-never ||
+            die "panic-never build for $triple failed: a panic path is reachable (see the linker error above)"
+        echo "panic-never proof links for $triple"
+        if command -v qemu-system-arm >/dev/null 2>&1; then
+            emulate "$core" "$(elf "$triple" panic_proof)"
+        fi
+    done
+    ;;
+footprint)
+    tool="$(size_tool)"
+    for core in m0 m4f; do
+        triple="$(triple_of "$core")"
+        build "$triple" pipeline
+        echo "== pipeline, $triple ($tool)"
+        "$tool" "$(elf "$triple" pipeline)"
+        "$tool" -A "$(elf "$triple" pipeline)" | grep -E '^(section|\.vector_table|\.text|\.rodata|\.data|\.bss|\.uninit)'
+    done
+    ;;
+stack)
+    # Peak stack of the pipeline on the M0: the stack is moved to the
+    # bottom of RAM, just N bytes deep, where an overflow faults (the
+    # memory below 0x20000000 is unmapped on the microbit machine). The
+    # smallest N whose run still prints the full table is the peak, to
+    # 8 bytes (the stack's alignment).
+    triple=thumbv6m-none-eabi
+    build "$triple" pipeline
+    expected="$(emulate m0 "$(elf "$triple" pipeline)")"
+    low=0 high=16384
+    while ((high - low > 8)); do
+        mid=$(((low + high) / 2 / 8 * 8))
+        (cd "$here" && LC_FIRMWARE_STACK_BYTES=$mid CARGO_TARGET_DIR="$target_dir/stack" \
+            "$cargo" build -q --release --target "$triple" --bin pipeline)
+        got="$(timeout_s=5 emulate m0 "$target_dir/stack/$triple/release/pipeline" 2>/dev/null || true)"
+        if [[ "$got" == "$expected" ]]; then high=$mid; else low=$mid; fi
+    done
+    echo "pipeline peak stack on $triple: at most $high bytes (fails with $low)"
+    ;;
+*)
+    usage
+    ;;
+esac

@@ -1,0 +1,783 @@
+//! The curve: a monotone calibration table from shift to a physical value
+//! (gap, level, …), with linear or monotone cubic interpolation, evaluated
+//! in integer math.
+//!
+//! Nodes are (shift, value) pairs: shifts strictly increasing, values
+//! monotone (non-decreasing or non-increasing; flat segments allowed). The
+//! value is an `i32` in the reader's output units (the calibration image
+//! gives unit and scale). Outside the table the curve **clamps** to the end
+//! node and says so in [`CurveStatus`]; it never extrapolates silently.
+//!
+//! ## Interpolation
+//!
+//! - [`Interpolation::Linear`]: straight segments between nodes.
+//! - [`Interpolation::MonotoneCubic`]: cubic Hermite with the node
+//!   derivatives of Fritsch & Butland (1984), *SIAM J. Sci. Stat. Comput.*
+//!   5(2):300–304: weighted harmonic means at interior nodes and the
+//!   three-point shape-preserving end formula, the variant SciPy's
+//!   `PchipInterpolator` and MATLAB's `pchip` use (Moler, *Numerical
+//!   Computing with MATLAB*, 2004, §3.4). Not the original Fritsch–Carlson
+//!   (1980) step-5 variant; their values differ (REFERENCES.md §11). The
+//!   derivatives are computed on the host by [`pchip_derivatives`] and stored
+//!   with the nodes, so the firmware does no floating-point work.
+//!
+//! ## Fixed-point evaluation, rounding and bound
+//!
+//! Per segment of width w (in Q23.40 shift units) the converter precomputes
+//! a shift `sh` with 2^30 ≤ w·2^-sh < 2^31 and the slope's 31-bit mantissa
+//! (linear) or 1/w's mantissa (cubic). Per reading: one binary search
+//! (at most 6 comparisons for 64 nodes), then
+//!
+//! - linear: y = y0 + (d · k_m) · 2^-e with d = (s − x0)·2^-sh rounded: one
+//!   32 × 32 → 64-bit multiply;
+//! - cubic: t = d / w' in Q31 from the precomputed reciprocal, then the
+//!   Hermite form y0 + Δy·(3t² − 2t³) + D0·(t³ − 2t² + t) + D1·(t³ − t²)
+//!   with D = w·dy/ds, evaluated by Horner's rule on coefficients
+//!   precomputed in Q8 output units: four multiplies.
+//!
+//! No division per reading. The result is rounded to nearest. Bound against
+//! the `f64` twin of the same curve ([`Curve::eval_f64`]):
+//! |y_fixed − y| ≤ 0.5 + 2^-28·(|Δy| + |D0| + |D1|) output units, where the
+//! terms are the segment's. For any realistic table (|Δy| below 2^20 units
+//! per segment) that is 0.5 units plus less than 0.004: the rounding of the
+//! output itself. The input loses nothing finer than w·2^-31 of shift.
+//!
+//! ```
+//! use lc_core::curve::{Curve, CurveStatus, Interpolation, Node};
+//! use lc_core::shift::Shift;
+//! // Gap in micrometres against shift: the plate's pull on L fades with distance.
+//! let nodes = [
+//!     Node::new(Shift::from_f64(-0.30).unwrap(), 500),
+//!     Node::new(Shift::from_f64(-0.10).unwrap(), 2_000),
+//!     Node::new(Shift::from_f64(-0.02).unwrap(), 5_000),
+//! ];
+//! let curve = Curve::linear(&nodes).unwrap();
+//! let v = curve.eval(Shift::from_f64(-0.20).unwrap());
+//! assert_eq!((v.value, v.status), (1_250, CurveStatus::InRange));
+//! // Closer than the first node: clamped and reported.
+//! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
+//! ```
+
+use crate::fixed::{mul_u32_wide, round_div_u128, round_shr_u64};
+use crate::shift::Shift;
+use core::fmt;
+
+/// Most nodes a curve holds (fixed, so the firmware needs no heap).
+pub const MAX_NODES: usize = 64;
+
+/// One calibration node: a shift and the value at it.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Node {
+    /// Shift at the node.
+    pub shift: Shift,
+    /// Value at the node, in the reader's output units.
+    pub value: i32,
+}
+
+impl Node {
+    /// A node.
+    pub const fn new(shift: Shift, value: i32) -> Self {
+        Self { shift, value }
+    }
+}
+
+/// How to interpolate between nodes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Interpolation {
+    /// Straight segments.
+    Linear,
+    /// Cubic Hermite with Fritsch–Butland (1984) node derivatives.
+    MonotoneCubic,
+}
+
+/// Why a curve was refused. Each malformed table gets its own error.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum CurveError {
+    /// Fewer than two nodes.
+    TooFewNodes,
+    /// More than [`MAX_NODES`] nodes.
+    TooManyNodes,
+    /// Shifts not strictly increasing.
+    ShiftsNotIncreasing,
+    /// Values not monotone (they rise and fall).
+    NotMonotone,
+    /// A segment's value step is 2^30 units or more (linear), or its value
+    /// step or a tangent term w·dy/ds is 2^21 units or more (cubic): beyond
+    /// what the fixed-point path evaluates without overflow.
+    SegmentTooSteep,
+    /// Derivatives given do not match the nodes (count) or break
+    /// monotonicity (sign).
+    BadDerivatives,
+}
+
+impl fmt::Display for CurveError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            CurveError::TooFewNodes => "a curve needs at least two nodes",
+            CurveError::TooManyNodes => "a curve holds at most 64 nodes",
+            CurveError::ShiftsNotIncreasing => "curve shifts must be strictly increasing",
+            CurveError::NotMonotone => "curve values must be monotone",
+            CurveError::SegmentTooSteep => "a curve segment is too steep for the fixed-point path",
+            CurveError::BadDerivatives => "curve derivatives do not match the nodes",
+        })
+    }
+}
+
+impl core::error::Error for CurveError {}
+
+/// Where the input lay relative to the table.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum CurveStatus {
+    /// Inside the table (end nodes included).
+    InRange,
+    /// Below the first node's shift; the value is the first node's.
+    BelowRange,
+    /// Above the last node's shift; the value is the last node's.
+    AboveRange,
+}
+
+/// A curve's value and status.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct CurveValue {
+    /// Value in output units, rounded to nearest (clamped outside the table).
+    pub value: i32,
+    /// Where the input lay.
+    pub status: CurveStatus,
+}
+
+/// Precomputed per-segment constants.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct Segment {
+    /// d = (s − x0) · 2^-sh fits 31 bits.
+    sh: u8,
+    /// Linear: slope mantissa (signed, |k| < 2^31), value = d·k · 2^-k_exp.
+    /// Cubic: mantissa of 1/w' (t = d·k · 2^-k_exp in Q30).
+    k: i32,
+    k_exp: u8,
+    /// Cubic: y − y0 = t·(c1 + t·(c2 + t·c3)), output units in Q8, with
+    /// c1 = D0, c2 = 3Δy − 2D0 − D1, c3 = D0 + D1 − 2Δy and D = w·dy/ds.
+    c1_q8: i64,
+    c2_q8: i64,
+    c3_q8: i64,
+}
+
+/// A validated curve with its precomputed segment constants.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Curve {
+    len: u8,
+    interpolation: Interpolation,
+    x: [i64; MAX_NODES],
+    y: [i32; MAX_NODES],
+    seg: [Segment; MAX_NODES],
+}
+
+fn validate(nodes: &[Node]) -> Result<(), CurveError> {
+    if nodes.len() < 2 {
+        return Err(CurveError::TooFewNodes);
+    }
+    if nodes.len() > MAX_NODES {
+        return Err(CurveError::TooManyNodes);
+    }
+    let (mut up, mut down) = (false, false);
+    for w in nodes.windows(2) {
+        if w[1].shift <= w[0].shift {
+            return Err(CurveError::ShiftsNotIncreasing);
+        }
+        let dy = i64::from(w[1].value) - i64::from(w[0].value);
+        up |= dy > 0;
+        down |= dy < 0;
+        if dy.unsigned_abs() >= 1 << 30 {
+            return Err(CurveError::SegmentTooSteep);
+        }
+    }
+    if up && down {
+        return Err(CurveError::NotMonotone);
+    }
+    Ok(())
+}
+
+/// Shift that brings a positive width below 2^31 (and at or above 2^30).
+fn width_shift(w: u64) -> u8 {
+    let bits = 64 - w.leading_zeros();
+    // bits ≤ 64, so the result is at most 33.
+    bits.saturating_sub(31) as u8
+}
+
+/// (mantissa, exponent) with mantissa = round(num · 2^e / den), |mantissa|
+/// in [2^30, 2^31) unless num is 0; `den` > 0, |num| < 2^31.
+fn scaled_ratio(num: i64, den: u64) -> Option<(i32, u8)> {
+    if num == 0 {
+        return Some((0, 0));
+    }
+    let n = u128::from(num.unsigned_abs());
+    let d = u128::from(den);
+    // Find e so that n·2^e/d lands in [2^30, 2^31).
+    let mut e: u32 = 0;
+    let mut m = round_div_u128(n, d)?;
+    while m < 1 << 30 && e < 90 {
+        e += 1;
+        m = round_div_u128(n << e, d)?;
+    }
+    if m >= 1 << 31 {
+        // Rounding carried to 2^31: one bit less.
+        e = e.checked_sub(1)?;
+        m = round_div_u128(n << e, d)?;
+    }
+    let m = i32::try_from(m).ok()?;
+    let e = u8::try_from(e).ok()?;
+    Some((if num < 0 { -m } else { m }, e))
+}
+
+impl Curve {
+    fn build(nodes: &[Node], interpolation: Interpolation) -> Result<Self, CurveError> {
+        validate(nodes)?;
+        let mut c = Curve {
+            len: nodes.len() as u8, // ≤ 64 after validation
+            interpolation,
+            x: [0; MAX_NODES],
+            y: [0; MAX_NODES],
+            seg: [Segment::default(); MAX_NODES],
+        };
+        for (i, n) in nodes.iter().enumerate() {
+            c.x[i] = n.shift.raw_q40();
+            c.y[i] = n.value;
+        }
+        for i in 0..nodes.len() - 1 {
+            let w = c.x[i + 1].abs_diff(c.x[i]);
+            let sh = width_shift(w);
+            let w_red = round_shr_u64(w, u32::from(sh)).max(1);
+            let dy = i64::from(c.y[i + 1]) - i64::from(c.y[i]);
+            let (k, k_exp) = match interpolation {
+                Interpolation::Linear => scaled_ratio(dy, w_red),
+                // m = round(2^(30+e)/w'), so t = d·m·2^-e is d/w' in Q30.
+                Interpolation::MonotoneCubic => scaled_ratio(1 << 30, w_red),
+            }
+            .ok_or(CurveError::SegmentTooSteep)?;
+            c.seg[i] = Segment {
+                sh,
+                k,
+                k_exp,
+                c1_q8: 0,
+                c2_q8: 0,
+                c3_q8: 0,
+            };
+        }
+        Ok(c)
+    }
+
+    /// A curve with straight segments.
+    pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
+        Self::build(nodes, Interpolation::Linear)
+    }
+
+    /// A monotone cubic curve from nodes and their derivatives dy/ds in
+    /// output units per unit shift (from [`pchip_derivatives`] on the host,
+    /// stored in the calibration image as Q47.16: `derivatives_q16`).
+    pub fn monotone_cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
+        if derivatives_q16.len() != nodes.len() {
+            return Err(CurveError::BadDerivatives);
+        }
+        let mut c = Self::build(nodes, Interpolation::MonotoneCubic)?;
+        let rising = nodes.last().map(|l| l.value).unwrap_or(0)
+            >= nodes.first().map(|f| f.value).unwrap_or(0);
+        for &d in derivatives_q16 {
+            if (rising && d < 0) || (!rising && d > 0) {
+                return Err(CurveError::BadDerivatives);
+            }
+        }
+        for i in 0..nodes.len() - 1 {
+            let w = i128::from(c.x[i + 1]) - i128::from(c.x[i]);
+            // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
+            let term = |d: i64| -> Result<i64, CurveError> {
+                let r = (w * i128::from(d) + (1 << 47)) >> 48;
+                match i64::try_from(r) {
+                    Ok(v) if v.unsigned_abs() < 1 << 29 => Ok(v),
+                    _ => Err(CurveError::SegmentTooSteep),
+                }
+            };
+            let d0 = term(derivatives_q16[i])?;
+            let d1 = term(derivatives_q16[i + 1])?;
+            let dy = (i64::from(c.y[i + 1]) - i64::from(c.y[i])) << 8;
+            if dy.unsigned_abs() >= 1 << 29 {
+                return Err(CurveError::SegmentTooSteep);
+            }
+            let seg = &mut c.seg[i];
+            seg.c1_q8 = d0;
+            seg.c2_q8 = 3 * dy - 2 * d0 - d1;
+            seg.c3_q8 = d0 + d1 - 2 * dy;
+        }
+        Ok(c)
+    }
+
+    /// Number of nodes.
+    pub fn len(&self) -> usize {
+        usize::from(self.len)
+    }
+
+    /// Always false: a curve has at least two nodes.
+    pub fn is_empty(&self) -> bool {
+        self.len == 0
+    }
+
+    /// The interpolation in use.
+    pub fn interpolation(&self) -> Interpolation {
+        self.interpolation
+    }
+
+    /// Node `i`, if it exists.
+    pub fn node(&self, i: usize) -> Option<Node> {
+        if i < self.len() {
+            Some(Node::new(
+                Shift::from_raw_q40(*self.x.get(i)?),
+                *self.y.get(i)?,
+            ))
+        } else {
+            None
+        }
+    }
+
+    /// Index of the segment holding `s` (x[i] ≤ s < x[i+1]), clamped to the
+    /// table.
+    fn segment(&self, s: i64) -> usize {
+        let n = self.len();
+        let (mut lo, mut hi) = (0usize, n.saturating_sub(1));
+        // Invariant: x[lo] ≤ s < x[hi].
+        while hi - lo > 1 {
+            let mid = (lo + hi) / 2;
+            if self.x.get(mid).is_some_and(|&xm| xm <= s) {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        lo
+    }
+
+    /// The value at shift `s`, rounded to nearest; clamped with a status
+    /// outside the table. No division.
+    pub fn eval(&self, s: Shift) -> CurveValue {
+        let s = s.raw_q40();
+        let n = self.len();
+        let first = (self.x[0], self.y[0]);
+        let last_i = n.saturating_sub(1).min(MAX_NODES - 1);
+        let last = (self.x[last_i], self.y[last_i]);
+        if s < first.0 {
+            return CurveValue {
+                value: first.1,
+                status: CurveStatus::BelowRange,
+            };
+        }
+        if s > last.0 {
+            return CurveValue {
+                value: last.1,
+                status: CurveStatus::AboveRange,
+            };
+        }
+        if s == last.0 {
+            return CurveValue {
+                value: last.1,
+                status: CurveStatus::InRange,
+            };
+        }
+        let i = self.segment(s).min(MAX_NODES - 2);
+        let seg = self.seg[i];
+        let (x0, y0, y1) = (self.x[i], self.y[i], self.y[i + 1]);
+        // 0 ≤ s − x0 < w < 2^(31 + sh): d < 2^31 after the rounding shift
+        // (d = 2^31 only when s rounds up to x1, still exact below).
+        let d = round_shr_u64(s.abs_diff(x0), u32::from(seg.sh)).min((1 << 31) - 1) as u32;
+        let delta = match self.interpolation {
+            Interpolation::Linear => {
+                let p = mul_i32_u32(seg.k, d);
+                round_shr_i64(p, u32::from(seg.k_exp))
+            }
+            Interpolation::MonotoneCubic => {
+                // t = d/w' in Q30, 0 ≤ t ≤ 2^30.
+                let t = round_shr_u64(mul_u32_wide(seg.k.unsigned_abs(), d), u32::from(seg.k_exp))
+                    .min(1 << 30);
+                let t = t as i64; // ≤ 2^30
+                                  // Horner in Q8 output units. |c| < 2^29 · 6 and t ≤ 2^30 keep
+                                  // every product below 2^63 (validated at construction).
+                let acc = seg.c2_q8 + round_shr_i64(seg.c3_q8 * t, 30);
+                let acc = seg.c1_q8 + round_shr_i64(acc * t, 30);
+                round_shr_i64(acc * t, 38)
+            }
+        };
+        let v = i64::from(y0) + delta;
+        // Between two i32 node values for linear; the cubic is monotone and
+        // stays between them too, but clamp to the segment to be certain.
+        let (lo, hi) = if y0 <= y1 { (y0, y1) } else { (y1, y0) };
+        let v = v.clamp(i64::from(lo), i64::from(hi)) as i32; // clamped into i32 range
+        CurveValue {
+            value: v,
+            status: CurveStatus::InRange,
+        }
+    }
+
+    /// `f64` twin of [`Curve::eval`]: the same curve (same nodes, same
+    /// tangent terms) evaluated in `f64`, unrounded, clamped the same way.
+    pub fn eval_f64(&self, s: f64) -> f64 {
+        let n = self.len();
+        let xs = |i: usize| self.x[i] as f64 / 1_099_511_627_776.0;
+        let last_i = n.saturating_sub(1).min(MAX_NODES - 1);
+        if s <= xs(0) {
+            return f64::from(self.y[0]);
+        }
+        if s >= xs(last_i) {
+            return f64::from(self.y[last_i]);
+        }
+        let mut i = 0;
+        while i + 2 < n && xs(i + 1) <= s {
+            i += 1;
+        }
+        let (x0, x1) = (xs(i), xs(i + 1));
+        let (y0, y1) = (f64::from(self.y[i]), f64::from(self.y[i + 1]));
+        let _ = y1;
+        let t = (s - x0) / (x1 - x0);
+        match self.interpolation {
+            Interpolation::Linear => y0 + (y1 - y0) * t,
+            Interpolation::MonotoneCubic => {
+                let seg = self.seg[i];
+                let c = |q: i64| q as f64 / 256.0;
+                y0 + t * (c(seg.c1_q8) + t * (c(seg.c2_q8) + t * c(seg.c3_q8)))
+            }
+        }
+    }
+}
+
+/// Signed × unsigned 32-bit product, exact in `i64`.
+#[inline]
+fn mul_i32_u32(a: i32, b: u32) -> i64 {
+    let m = mul_u32_wide(a.unsigned_abs(), b);
+    // |a| ≤ 2^31 and b < 2^32: m < 2^63, fits i64.
+    let m = m as i64;
+    if a < 0 {
+        -m
+    } else {
+        m
+    }
+}
+
+/// `x / 2^sh` rounded to nearest, ties away from zero, for `i64`.
+#[inline]
+fn round_shr_i64(x: i64, sh: u32) -> i64 {
+    let r = round_shr_u64(x.unsigned_abs(), sh) as i64; // ≤ 2^63 / 2 for sh ≥ 1
+    if x < 0 {
+        -r
+    } else {
+        r
+    }
+}
+
+/// Node derivatives dy/ds of the monotone piecewise cubic (Fritsch &
+/// Butland 1984, as SciPy's `PchipInterpolator`): weighted harmonic means
+/// w1 = 2h_k + h_{k−1}, w2 = h_k + 2h_{k−1} at interior nodes, zero where the
+/// neighbouring secants differ in sign or either is zero, and the
+/// three-point shape-preserving formula at the ends (two nodes: the secant).
+/// `x` strictly increasing; returns `None` otherwise or when lengths differ
+/// or exceed [`MAX_NODES`]. Host and test helper (plain `f64`).
+pub fn pchip_derivatives(x: &[f64], y: &[f64]) -> Option<[f64; MAX_NODES]> {
+    let n = x.len();
+    if n != y.len() || !(2..=MAX_NODES).contains(&n) {
+        return None;
+    }
+    let mut h = [0.0; MAX_NODES];
+    let mut m = [0.0; MAX_NODES];
+    for k in 0..n - 1 {
+        h[k] = x[k + 1] - x[k];
+        if h[k].partial_cmp(&0.0) != Some(core::cmp::Ordering::Greater) {
+            return None;
+        }
+        m[k] = (y[k + 1] - y[k]) / h[k];
+    }
+    let mut d = [0.0; MAX_NODES];
+    if n == 2 {
+        d[0] = m[0];
+        d[1] = m[0];
+        return Some(d);
+    }
+    for k in 1..n - 1 {
+        if m[k - 1] * m[k] <= 0.0 {
+            d[k] = 0.0;
+        } else {
+            let w1 = 2.0 * h[k] + h[k - 1];
+            let w2 = h[k] + 2.0 * h[k - 1];
+            d[k] = (w1 + w2) / (w1 / m[k - 1] + w2 / m[k]);
+        }
+    }
+    // numpy's sign: −1, 0 or 1.
+    let sign = |v: f64| (v > 0.0) as i8 - (v < 0.0) as i8;
+    let edge = |h0: f64, h1: f64, m0: f64, m1: f64| {
+        let d = ((2.0 * h0 + h1) * m0 - h0 * m1) / (h0 + h1);
+        if sign(d) != sign(m0) {
+            return 0.0;
+        }
+        if sign(m0) != sign(m1) && d.abs() > 3.0 * m0.abs() {
+            return 3.0 * m0;
+        }
+        d
+    };
+    d[0] = edge(h[0], h[1], m[0], m[1]);
+    d[n - 1] = edge(h[n - 2], h[n - 3], m[n - 2], m[n - 3]);
+    Some(d)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn node(s: f64, v: i32) -> Node {
+        Node::new(Shift::from_f64(s).unwrap(), v)
+    }
+
+    fn pchip_curve(x: &[f64], y: &[i32]) -> Curve {
+        let yf: Vec<f64> = y.iter().map(|&v| f64::from(v)).collect();
+        let d = pchip_derivatives(x, &yf).unwrap();
+        let nodes: Vec<Node> = x.iter().zip(y).map(|(&s, &v)| node(s, v)).collect();
+        let dq: Vec<i64> = d[..x.len()]
+            .iter()
+            .map(|v| (v * 65_536.0).round() as i64)
+            .collect();
+        Curve::monotone_cubic(&nodes, &dq).unwrap()
+    }
+
+    /// REFERENCES.md §11, SciPy 1.17.1 `PchipInterpolator` [COMPUTED]; data
+    /// sets A, B and D of that table. Checked on the derivatives (1e-9) and,
+    /// through the f64 twin, on the interpolated values (1e-9 after scaling:
+    /// the nodes are scaled by 1000 so the integer values are exact).
+    #[test]
+    fn pchip_matches_published_scipy_values() {
+        // A: x=[0,1,2,3], y=[0,1,0,1]: d = [2, 0, 0, 2].
+        let d = pchip_derivatives(&[0.0, 1.0, 2.0, 3.0], &[0.0, 1.0, 0.0, 1.0]).unwrap();
+        assert_eq!(&d[..4], &[2.0, 0.0, 0.0, 2.0]);
+        // B: y = x² on 0..4: d = [0, 1.5, 3.75, 5.8333333333, 8].
+        let d = pchip_derivatives(&[0.0, 1.0, 2.0, 3.0, 4.0], &[0.0, 1.0, 4.0, 9.0, 16.0]).unwrap();
+        for (got, want) in d[..5].iter().zip([0.0, 1.5, 3.75, 5.833_333_333_3, 8.0]) {
+            assert!((got - want).abs() < 1e-9, "{got} {want}");
+        }
+        // D: non-uniform x=[1,2,4,5], y=[1,3,4,8]: d = [2.5, 0.857…, 0.972…, 5.1666…].
+        let d = pchip_derivatives(&[1.0, 2.0, 4.0, 5.0], &[1.0, 3.0, 4.0, 8.0]).unwrap();
+        for (got, want) in
+            d[..4]
+                .iter()
+                .zip([2.5, 0.857_142_857_1, 0.972_972_973_0, 5.166_666_666_7])
+        {
+            assert!((got - want).abs() < 1e-9, "{got} {want}");
+        }
+        // Values of B at 0.5, 1.5, 2.5, 3.5 and of D at 1.5, 3, 4.5, first by
+        // the cubic Hermite in f64 with these derivatives (1e-9), then by the
+        // fixed-point curve on the same data scaled to integer units (x/10,
+        // y·1e4): within half a unit plus the Q8 tangent rounding.
+        let hermite = |x: &[f64], y: &[f64], q: f64| {
+            let d = pchip_derivatives(x, y).unwrap();
+            let i = (0..x.len() - 1).find(|&i| q <= x[i + 1]).unwrap();
+            let h = x[i + 1] - x[i];
+            let t = (q - x[i]) / h;
+            let (t2, t3) = (t * t, t * t * t);
+            y[i] * (2.0 * t3 - 3.0 * t2 + 1.0)
+                + h * d[i] * (t3 - 2.0 * t2 + t)
+                + y[i + 1] * (3.0 * t2 - 2.0 * t3)
+                + h * d[i + 1] * (t3 - t2)
+        };
+        let (bx, by) = ([0.0, 1.0, 2.0, 3.0, 4.0], [0.0, 1.0, 4.0, 9.0, 16.0]);
+        let b_curve = pchip_curve(
+            &[0.0, 0.1, 0.2, 0.3, 0.4],
+            &[0, 10_000, 40_000, 90_000, 160_000],
+        );
+        for (q, want) in [
+            (0.5, 0.3125),
+            (1.5, 2.21875),
+            (2.5, 6.239_583_333_3),
+            (3.5, 12.229_166_666_7),
+        ] {
+            assert!((hermite(&bx, &by, q) - want).abs() < 1e-9, "B at {q}");
+            let fixed = f64::from(b_curve.eval(Shift::from_f64(q / 10.0).unwrap()).value);
+            assert!((fixed - want * 1e4).abs() <= 0.51, "B at {q}: {fixed}");
+        }
+        let (dx, dy) = ([1.0, 2.0, 4.0, 5.0], [1.0, 3.0, 4.0, 8.0]);
+        let d_curve = pchip_curve(&[0.1, 0.2, 0.4, 0.5], &[10_000, 30_000, 40_000, 80_000]);
+        for (q, want) in [
+            (1.5, 2.205_357_142_9),
+            (3.0, 3.471_042_471_0),
+            (4.5, 5.475_788_288_3),
+        ] {
+            assert!((hermite(&dx, &dy, q) - want).abs() < 1e-9, "D at {q}");
+            let fixed = f64::from(d_curve.eval(Shift::from_f64(q / 10.0).unwrap()).value);
+            assert!((fixed - want * 1e4).abs() <= 0.51, "D at {q}: {fixed}");
+        }
+        // A at 0.5, 1.5, 2.5: 0.75, 0.5, 0.25 (not monotone data: Hermite only).
+        for (q, want) in [(0.5, 0.75), (1.5, 0.5), (2.5, 0.25)] {
+            assert!((hermite(&[0.0, 1.0, 2.0, 3.0], &[0.0, 1.0, 0.0, 1.0], q) - want).abs() < 1e-9);
+        }
+    }
+
+    /// Data set C (a step): all derivatives zero, no overshoot (the natural
+    /// spline overshoots to 1.100); REFERENCES.md §11.
+    #[test]
+    fn pchip_does_not_overshoot_a_step() {
+        let x: Vec<f64> = (0..5).map(|i| f64::from(i) / 10.0).collect();
+        let c = pchip_curve(&x, &[0, 0, 1000, 1000, 1000]);
+        for (q, want) in [(0.05, 0), (0.15, 500), (0.25, 1000)] {
+            assert_eq!(c.eval(Shift::from_f64(q).unwrap()).value, want);
+        }
+        let mut s = 0.0;
+        while s < 0.4 {
+            let v = c.eval(Shift::from_f64(s).unwrap()).value;
+            assert!((0..=1000).contains(&v));
+            s += 0.001;
+        }
+    }
+
+    #[test]
+    fn malformed_tables_each_have_an_error() {
+        assert_eq!(Curve::linear(&[]), Err(CurveError::TooFewNodes));
+        assert_eq!(Curve::linear(&[node(0.0, 1)]), Err(CurveError::TooFewNodes));
+        let many: Vec<Node> = (0..65).map(|i| node(f64::from(i) * 0.01, i)).collect();
+        assert_eq!(Curve::linear(&many), Err(CurveError::TooManyNodes));
+        assert!(Curve::linear(&many[..64]).is_ok());
+        assert_eq!(
+            Curve::linear(&[node(0.1, 1), node(0.1, 2)]),
+            Err(CurveError::ShiftsNotIncreasing)
+        );
+        assert_eq!(
+            Curve::linear(&[node(0.2, 1), node(0.1, 2)]),
+            Err(CurveError::ShiftsNotIncreasing)
+        );
+        assert_eq!(
+            Curve::linear(&[node(0.0, 1), node(0.1, 3), node(0.2, 2)]),
+            Err(CurveError::NotMonotone)
+        );
+        assert_eq!(
+            Curve::linear(&[node(0.0, 0), node(0.1, 1 << 30)]),
+            Err(CurveError::SegmentTooSteep)
+        );
+        assert_eq!(
+            Curve::monotone_cubic(&[node(0.0, 0), node(0.1, 10)], &[1]),
+            Err(CurveError::BadDerivatives)
+        );
+        assert_eq!(
+            Curve::monotone_cubic(&[node(0.0, 0), node(0.1, 10)], &[1, -1]),
+            Err(CurveError::BadDerivatives)
+        );
+    }
+
+    #[test]
+    fn clamps_and_reports_outside_the_table() {
+        let c = Curve::linear(&[node(-0.3, 500), node(-0.02, 5000)]).unwrap();
+        let below = c.eval(Shift::from_raw_q40(i64::MIN));
+        assert_eq!((below.value, below.status), (500, CurveStatus::BelowRange));
+        let above = c.eval(Shift::from_raw_q40(i64::MAX));
+        assert_eq!((above.value, above.status), (5000, CurveStatus::AboveRange));
+        let edge = c.eval(Shift::from_f64(-0.3).unwrap());
+        assert_eq!((edge.value, edge.status), (500, CurveStatus::InRange));
+        let edge = c.eval(Shift::from_f64(-0.02).unwrap());
+        assert_eq!((edge.value, edge.status), (5000, CurveStatus::InRange));
+        // A flat segment gives its constant value.
+        let flat = Curve::linear(&[node(0.0, 7), node(0.5, 7), node(1.0, 9)]).unwrap();
+        assert_eq!(flat.eval(Shift::from_f64(0.25).unwrap()).value, 7);
+        // Falling values work too.
+        let falling = Curve::linear(&[node(0.0, 100), node(1.0, -100)]).unwrap();
+        assert_eq!(falling.eval(Shift::from_f64(0.75).unwrap()).value, -50);
+    }
+
+    /// A random monotone table in the domain: 2..=64 nodes, shifts in
+    /// [−0.9, 7], steps up to 2^20 output units.
+    fn table() -> impl Strategy<Value = (Vec<Node>, bool)> {
+        (2usize..=MAX_NODES, any::<bool>(), any::<u64>()).prop_map(|(n, rising, seed)| {
+            let mut st = seed | 1;
+            let mut next = move || {
+                st ^= st << 13;
+                st ^= st >> 7;
+                st ^= st << 17;
+                st
+            };
+            let mut xs: Vec<i64> = (0..n)
+                .map(|_| {
+                    Shift::from_f64(-0.9).unwrap().raw_q40()
+                        + (next() % (8_800_000_000_000u64)) as i64
+                })
+                .collect();
+            xs.sort_unstable();
+            xs.dedup();
+            let mut y = i64::from(next() as i32 / 4);
+            let nodes: Vec<Node> = xs
+                .iter()
+                .map(|&x| {
+                    let step = (next() % (1 << 18)) as i64 * if next() % 5 == 0 { 0 } else { 1 };
+                    y = if rising {
+                        (y + step).min(i32::MAX as i64)
+                    } else {
+                        (y - step).max(i32::MIN as i64)
+                    };
+                    Node::new(Shift::from_raw_q40(x), y as i32)
+                })
+                .collect();
+            (nodes, rising)
+        })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2000))]
+
+        /// Linear: within 0.5 unit + the stated segment term of the f64 twin.
+        #[test]
+        fn linear_within_bound((nodes, _) in table(), q in 0.0f64..1.0) {
+            prop_assume!(nodes.len() >= 2);
+            let Ok(c) = Curve::linear(&nodes) else { return Ok(()) };
+            let lo = nodes[0].shift.to_f64();
+            let hi = nodes[nodes.len() - 1].shift.to_f64();
+            let s = Shift::from_f64(lo + (hi - lo) * q).unwrap();
+            let fixed = f64::from(c.eval(s).value);
+            let float = c.eval_f64(s.to_f64());
+            prop_assert!((fixed - float).abs() <= 0.5 + 2f64.powi(-28) * f64::from(1u32 << 20) + 1e-6, "{fixed} {float}");
+        }
+
+        /// Cubic: within the bound; monotone on monotone data; passes
+        /// through the knots.
+        #[test]
+        fn cubic_within_bound_and_monotone((nodes, rising) in table(), qs in proptest::collection::vec(0.0f64..1.0, 1..20)) {
+            prop_assume!(nodes.len() >= 2);
+            let x: Vec<f64> = nodes.iter().map(|n| n.shift.to_f64()).collect();
+            let y: Vec<f64> = nodes.iter().map(|n| f64::from(n.value)).collect();
+            let d = pchip_derivatives(&x, &y).unwrap();
+            let dq: Vec<i64> = d[..x.len()].iter().map(|v| (v * 65_536.0).round() as i64).collect();
+            let Ok(c) = Curve::monotone_cubic(&nodes, &dq) else { return Ok(()) };
+            for n in &nodes {
+                prop_assert_eq!(c.eval(n.shift).value, n.value);
+            }
+            let (lo, hi) = (x[0], x[x.len() - 1]);
+            let mut qs = qs;
+            qs.sort_by(f64::total_cmp);
+            let mut prev: Option<i32> = None;
+            for q in qs {
+                let s = Shift::from_f64(lo + (hi - lo) * q).unwrap();
+                let v = c.eval(s).value;
+                let float = c.eval_f64(s.to_f64());
+                prop_assert!((f64::from(v) - float).abs() <= 0.5 + 2f64.powi(-28) * 3.0 * f64::from(1u32 << 20) + 1e-6, "{v} {float}");
+                if let Some(p) = prev {
+                    let ordered = if rising { v >= p } else { v <= p };
+                    prop_assert!(ordered, "not monotone: {} then {}", p, v);
+                }
+                prev = Some(v);
+            }
+        }
+
+        /// Arbitrary shifts never panic, and the status matches the table.
+        #[test]
+        fn any_shift_is_safe((nodes, _) in table(), raw: i64) {
+            prop_assume!(nodes.len() >= 2);
+            let Ok(c) = Curve::linear(&nodes) else { return Ok(()) };
+            let v = c.eval(Shift::from_raw_q40(raw));
+            let (first, last) = (nodes[0].shift.raw_q40(), nodes[nodes.len() - 1].shift.raw_q40());
+            let want = if raw < first { CurveStatus::BelowRange } else if raw > last { CurveStatus::AboveRange } else { CurveStatus::InRange };
+            prop_assert_eq!(v.status, want);
+        }
+    }
+}

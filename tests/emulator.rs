@@ -1,0 +1,302 @@
+//! The firmware example on emulated Cortex-M cores, against the host.
+//!
+//! Builds `examples/firmware` for the Cortex-M0 (`thumbv6m-none-eabi`, QEMU
+//! `microbit`) and the Cortex-M4F (`thumbv7em-none-eabihf`, QEMU
+//! `mps2-an386`), runs it under `qemu-system-arm` and checks:
+//!
+//! - the `pipeline` binary prints exactly what the very same source file
+//!   (`examples/firmware/src/pipeline.rs`, included below) prints on the
+//!   host, byte for byte: lc-core gives bit-identical results on all three;
+//! - the `panic_proof` binary links with `panic-never` as its panic handler
+//!   (the link fails if any panic path of lc-core's firmware path is
+//!   reachable), and its digest of every result equals the host's;
+//! - the `cost` binary runs to the end.
+//!
+//! Without `qemu-system-arm` or the two Rust targets the tests print why
+//! they were skipped and pass, unless the environment variable `CI` is set:
+//! then they fail, since CI must run them.
+
+#[path = "../examples/firmware/src/pipeline.rs"]
+mod pipeline;
+
+use std::env;
+use std::ffi::OsString;
+use std::io::Read;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Stdio};
+use std::thread;
+use std::time::{Duration, Instant};
+
+const QEMU: &str = "qemu-system-arm";
+const INSTALL_QEMU: &str = "apt-get install qemu-system-arm";
+/// An emulator run that takes longer than this is killed.
+const TIMEOUT: Duration = Duration::from_secs(60);
+
+/// An emulated core: its Rust target and QEMU machine.
+struct Core {
+    triple: &'static str,
+    qemu_machine: &'static [&'static str],
+}
+
+const M0: Core = Core {
+    triple: "thumbv6m-none-eabi",
+    qemu_machine: &["-machine", "microbit", "-cpu", "cortex-m0"],
+};
+
+const M4F: Core = Core {
+    triple: "thumbv7em-none-eabihf",
+    qemu_machine: &["-machine", "mps2-an386", "-cpu", "cortex-m4"],
+};
+
+fn firmware_dir() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/firmware")
+}
+
+/// `<target dir>/firmware`: beside this test's own build, but a directory
+/// of its own, so the two cargo processes never wait for each other's lock.
+fn firmware_target_dir() -> PathBuf {
+    let tmp = Path::new(env!("CARGO_TARGET_TMPDIR"));
+    tmp.parent().unwrap_or(tmp).join("firmware")
+}
+
+fn on_ci() -> bool {
+    env::var("CI").is_ok_and(|v| !v.is_empty() && v != "false" && v != "0")
+}
+
+/// `true` to go on. A missing prerequisite skips the test with a message,
+/// or fails it on CI.
+fn prerequisites(need_qemu: bool) -> bool {
+    let mut missing = Vec::new();
+    if need_qemu && Command::new(QEMU).arg("--version").output().is_err() {
+        missing.push(format!(
+            "{QEMU} is not installed (install with `{INSTALL_QEMU}`)"
+        ));
+    }
+    let absent: Vec<&str> = [M0.triple, M4F.triple]
+        .into_iter()
+        .filter(|t| !target_installed(t))
+        .collect();
+    if !absent.is_empty() {
+        missing.push(format!(
+            "Rust target(s) {} not installed (install with `rustup target add {}`)",
+            absent.join(", "),
+            absent.join(" ")
+        ));
+    }
+    if missing.is_empty() {
+        return true;
+    }
+    let reason = missing.join("; ");
+    if on_ci() {
+        panic!("CI is set, so the emulator tests must run: {reason}");
+    }
+    eprintln!("skipped: {reason}");
+    false
+}
+
+/// Whether the toolchain's sysroot holds the standard library for `triple`.
+fn target_installed(triple: &str) -> bool {
+    let rustc = env::var_os("RUSTC").unwrap_or_else(|| OsString::from("rustc"));
+    let Ok(out) = Command::new(rustc).args(["--print", "sysroot"]).output() else {
+        return false;
+    };
+    let sysroot = String::from_utf8_lossy(&out.stdout).trim().to_owned();
+    Path::new(&sysroot)
+        .join("lib/rustlib")
+        .join(triple)
+        .join("lib")
+        .is_dir()
+}
+
+/// Builds one firmware binary in release mode and returns the ELF's path.
+fn build(core: &Core, bin: &str, features: &[&str]) -> PathBuf {
+    let dir = firmware_dir();
+    let target_dir = firmware_target_dir();
+    let cargo = env::var_os("CARGO").unwrap_or_else(|| OsString::from("cargo"));
+    let mut cmd = Command::new(cargo);
+    // Cargo reads examples/firmware/.cargo/config.toml (the `-Tlink.x`
+    // linker flags) only when run from that directory. RUSTFLAGS from the
+    // environment would replace those flags, so they are dropped.
+    cmd.current_dir(&dir)
+        .env("CARGO_TARGET_DIR", &target_dir)
+        .env_remove("RUSTFLAGS")
+        .env_remove("CARGO_ENCODED_RUSTFLAGS")
+        .env_remove("CARGO_BUILD_RUSTFLAGS")
+        .arg("build")
+        .arg("--release")
+        .arg("--manifest-path")
+        .arg(dir.join("Cargo.toml"))
+        .args(["--target", core.triple, "--bin", bin]);
+    if !features.is_empty() {
+        cmd.args(["--features", &features.join(",")]);
+    }
+    let out = cmd
+        .output()
+        .unwrap_or_else(|e| panic!("cannot run cargo: {e}"));
+    assert!(
+        out.status.success(),
+        "building firmware `{bin}` for {} failed ({}):\n{}",
+        core.triple,
+        out.status,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    target_dir.join(core.triple).join("release").join(bin)
+}
+
+/// Runs an ELF on the emulated core and returns its semihosting output.
+/// Fails on a non-zero exit status (a panic exits with 1) or after
+/// `TIMEOUT`.
+fn emulate(core: &Core, elf: &Path) -> String {
+    let mut child = Command::new(QEMU)
+        .args(core.qemu_machine)
+        .args(["-display", "none", "-monitor", "none", "-serial", "null"])
+        .args(["-semihosting-config", "enable=on,target=native"])
+        .args(["-icount", "shift=0", "-kernel"])
+        .arg(elf)
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap_or_else(|e| panic!("cannot start {QEMU}: {e}"));
+    let drain = |mut pipe: Box<dyn Read + Send>| {
+        thread::spawn(move || {
+            let mut bytes = Vec::new();
+            let _ = pipe.read_to_end(&mut bytes);
+            bytes
+        })
+    };
+    let stdout = drain(Box::new(child.stdout.take().expect("piped stdout")));
+    let stderr = drain(Box::new(child.stderr.take().expect("piped stderr")));
+    let deadline = Instant::now() + TIMEOUT;
+    let status = loop {
+        if let Some(status) = child.try_wait().expect("wait for the emulator") {
+            break Some(status);
+        }
+        if Instant::now() >= deadline {
+            let _ = child.kill();
+            let _ = child.wait();
+            break None;
+        }
+        thread::sleep(Duration::from_millis(20));
+    };
+    let stdout = String::from_utf8_lossy(&stdout.join().expect("stdout reader")).into_owned();
+    let stderr = String::from_utf8_lossy(&stderr.join().expect("stderr reader")).into_owned();
+    let name = elf.display();
+    match status {
+        None => panic!(
+            "{name} on {} did not finish within {} s and was killed\nstdout:\n{stdout}\nstderr:\n{stderr}",
+            core.triple,
+            TIMEOUT.as_secs()
+        ),
+        Some(s) if !s.success() => panic!(
+            "{name} on {} exited with {s}\nstdout:\n{stdout}\nstderr:\n{stderr}",
+            core.triple
+        ),
+        Some(_) => stdout,
+    }
+}
+
+/// Equal texts, or a failure that names the first differing line.
+fn assert_same_text(expected: &str, got: &str, what: &str) {
+    if expected == got {
+        return;
+    }
+    let mut exp = expected.lines();
+    let mut act = got.lines();
+    for line in 1.. {
+        match (exp.next(), act.next()) {
+            (Some(e), Some(a)) if e == a => continue,
+            (None, None) => break,
+            (e, a) => panic!(
+                "{what} differs at line {line}:\n host:     {}\n emulated: {}",
+                e.unwrap_or("<end of output>"),
+                a.unwrap_or("<end of output>")
+            ),
+        }
+    }
+    panic!("{what} differs in line endings or trailing text");
+}
+
+fn host_pipeline() -> String {
+    let mut text = String::new();
+    pipeline::run(&mut text).expect("writing to a String cannot fail");
+    text
+}
+
+fn check_pipeline(core: &Core) {
+    if !prerequisites(true) {
+        return;
+    }
+    let elf = build(core, "pipeline", &[]);
+    let emulated = emulate(core, &elf);
+    assert_same_text(
+        &host_pipeline(),
+        &emulated,
+        &format!("pipeline output on {}", core.triple),
+    );
+}
+
+#[test]
+fn host_pipeline_has_one_line_per_case() {
+    let text = host_pipeline();
+    let lines = text.lines().count();
+    let cases = pipeline::UNITS.len()
+        + pipeline::ROWS.len()
+        + pipeline::CAPTURES.len()
+        + pipeline::WIDENERS.len();
+    // A header and an end marker around one line per case.
+    assert_eq!(lines, cases + 2, "{text}");
+    assert!(text.ends_with("# end\n"));
+}
+
+#[test]
+fn pipeline_on_cortex_m0_matches_host() {
+    check_pipeline(&M0);
+}
+
+#[test]
+fn pipeline_on_cortex_m4f_matches_host() {
+    check_pipeline(&M4F);
+}
+
+/// The panic-freedom proof: the build succeeding is the proof. The run then
+/// checks that the proof binary computed what the host computes.
+#[test]
+fn panic_never_proof_links_and_matches_host() {
+    if !prerequisites(false) {
+        return;
+    }
+    let expected = format!(
+        "digest {:08x}\n",
+        pipeline::digest(
+            &pipeline::UNITS,
+            &pipeline::ROWS,
+            &pipeline::CAPTURES,
+            &pipeline::WIDENERS,
+        )
+    );
+    let elfs = [&M0, &M4F].map(|core| (core, build(core, "panic_proof", &["panic-never"])));
+    if !prerequisites(true) {
+        return;
+    }
+    for (core, elf) in elfs {
+        assert_same_text(
+            &expected,
+            &emulate(core, &elf),
+            &format!("panic-proof digest on {}", core.triple),
+        );
+    }
+}
+
+#[test]
+fn cost_runs_on_both_cores() {
+    if !prerequisites(true) {
+        return;
+    }
+    for core in [&M0, &M4F] {
+        let out = emulate(core, &build(core, "cost", &[]));
+        assert!(out.contains("instructions per tick"), "{out}");
+        assert!(out.contains("fixed shift, configured gate"), "{out}");
+        assert!(out.ends_with("# end\n"), "{out}");
+    }
+}
