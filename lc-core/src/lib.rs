@@ -18,7 +18,11 @@
 //!    shift s = (p/p_rest)² − 1, the relative change of the L·C product. This
 //!    is the per-reading hot path: no division when the gate is a configured
 //!    number of sensor cycles, one division otherwise.
-//! 4. [`tank`] and [`ringdown`]: the LC tank laws in `f64` (resonance,
+//! 4. [`curve`]: shift to a physical value through a monotone calibration
+//!    table (linear or monotone cubic), clamped with a status outside it.
+//! 5. [`filter`] and [`detector`]: median and exponential moving average in
+//!    fixed point, and a hysteresis-and-debounce detector.
+//! 6. [`tank`] and [`ringdown`]: the LC tank laws in `f64` (resonance,
 //!    damping, losses, energy) and quality factor from a ring-down, for the
 //!    host and for design-time checks.
 //!
@@ -61,6 +65,8 @@
 
 pub mod counting;
 pub mod curve;
+pub mod detector;
+pub mod filter;
 pub mod fixed;
 pub mod ratio;
 pub mod ringdown;
