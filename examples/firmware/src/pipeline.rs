@@ -507,7 +507,8 @@ impl Fnv {
         self.bytes(&x.to_le_bytes())
     }
 
-    /// Tag 0 and the value, or tag 1 and the error's code.
+    /// Tag 0 and the value, or tag 1 and the error's code. The codes are
+    /// `as u8` casts of fieldless error enums: their discriminants, exact.
     fn result<T, E>(
         self,
         r: &Result<T, E>,

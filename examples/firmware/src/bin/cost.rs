@@ -31,7 +31,7 @@ use lc_firmware::pipeline::{Unit, UNITS};
 use lc_firmware::{exit, stdout};
 
 /// Readings per timed path.
-const ITERATIONS: u32 = 1024;
+const ITERATIONS: u32 = 4096;
 
 /// Measured ticks over unit A's 4096-cycle gate, from the pipeline table:
 /// rest, warm, shifts of about −0.01, −0.1, −0.3, −0.9 and +7, and one
@@ -42,7 +42,7 @@ const TICKS: [u32; 8] = [
 
 /// `asm::delay` iterations for the short and long calibration runs.
 const CAL_SHORT: u32 = 100_000;
-const CAL_LONG: u32 = 1_100_000;
+const CAL_LONG: u32 = 10_100_000;
 
 /// SysTick is a 24-bit down-counter.
 const SYST_MASK: u32 = 0x00FF_FFFF;
@@ -57,6 +57,7 @@ fn time<C>(ctx: &C, pairs: &[CountPair; 8], f: impl Fn(&C, CountPair)) -> u32 {
     let pairs = black_box(pairs);
     let start = SYST::get_current();
     for i in 0..ITERATIONS {
+        // `i & 7` < 8: the cast is exact and the index in bounds.
         let pair = black_box(pairs[(i & 7) as usize]);
         f(black_box(ctx), pair);
     }
@@ -86,6 +87,7 @@ struct FloatModel {
 }
 
 impl FloatModel {
+    // The casts round to the nearest f32 (exact for the counts used here).
     fn new(reference_hz: u32, gate_cycles: u32, rest: CountPair) -> Self {
         let reference_hz = reference_hz as f32;
         let gate = gate_cycles as f32;
@@ -117,19 +119,18 @@ struct Timing {
 
 /// Instructions per tick as a ratio, from the calibration.
 struct Scale {
-    instructions: u64,
-    ticks: u64,
+    instructions: i64,
+    ticks: i64,
 }
 
 impl Scale {
-    /// Instructions per reading, in tenths, for `ticks` over `ITERATIONS`
-    /// readings less the empty loop's `empty` ticks.
+    /// Instructions per reading, in tenths, rounded to nearest, for `ticks`
+    /// over `ITERATIONS` readings less the empty loop's `empty` ticks.
     fn tenths_per_reading(&self, ticks: u32, empty: u32) -> i64 {
         let net = i64::from(ticks) - i64::from(empty);
-        let num = net * 10 * self.instructions as i64;
-        let den = (self.ticks * u64::from(ITERATIONS)) as i64;
-        // Rounded to nearest.
-        (2 * num + den.signum() * den) / (2 * den)
+        let num = net * 10 * self.instructions;
+        let den = self.ticks * i64::from(ITERATIONS);
+        (2 * num + num.signum() * den) / (2 * den)
     }
 }
 
@@ -178,8 +179,8 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
     let short = time_delay(CAL_SHORT);
     let long = time_delay(CAL_LONG);
     let scale = Scale {
-        instructions: 2 * u64::from(CAL_LONG - CAL_SHORT),
-        ticks: u64::from(long - short),
+        instructions: 2 * i64::from(CAL_LONG - CAL_SHORT),
+        ticks: i64::from(long.wrapping_sub(short)).max(1),
     };
     writeln!(
         out,
