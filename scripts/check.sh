@@ -66,7 +66,10 @@ if ! command -v qemu-system-arm >/dev/null 2>&1; then
 fi
 
 step "tests (unit, property, published checks, integration, emulator, doc)"
-cargo test --workspace
+log=$(mktemp)
+trap 'rm -f "$log"' EXIT
+cargo test --workspace 2>&1 | tee "$log"
+totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
 
 if [ ${#skipped[@]} -gt 0 ]; then
     printf '\nSKIPPED (not a failure on a developer machine):\n'
@@ -74,3 +77,4 @@ if [ ${#skipped[@]} -gt 0 ]; then
 fi
 echo
 echo "check.sh: all steps passed"
+echo "tests: $totals"

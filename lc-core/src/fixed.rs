@@ -47,12 +47,34 @@ pub fn mul_u32_wide(a: u32, b: u32) -> u64 {
 pub fn round_shr_u64(x: u64, sh: u32) -> u64 {
     match sh {
         0 => x,
-        1..=63 => {
-            let half_bit = (x >> (sh - 1)) & 1;
-            (x >> sh) + half_bit
+        // One 64-bit shift instead of two (each is a library call on
+        // ARMv6-M): keep the half bit, then halve with rounding.
+        1..=64 => {
+            let t = shr_u64(x, sh - 1);
+            (t >> 1) + (t & 1)
         }
-        64 => x >> 63,
         _ => 0,
+    }
+}
+
+/// `x >> sh` for `sh` in 0..=63 (larger gives 0). On ARMv6-M it is done in
+/// 32-bit halves, inline, instead of the compiler's 64-bit shift library
+/// call; elsewhere it is the native shift. Exact.
+#[inline]
+pub fn shr_u64(x: u64, sh: u32) -> u64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
+        match sh {
+            0 => x,
+            1..=31 => (u64::from(hi >> sh) << 32) | u64::from((lo >> sh) | (hi << (32 - sh))),
+            32..=63 => u64::from(hi >> (sh - 32)),
+            _ => 0,
+        }
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        x.checked_shr(sh).unwrap_or(0)
     }
 }
 
@@ -123,6 +145,11 @@ mod tests {
         #[test]
         fn wide_multiply_is_exact(a: u32, b: u32) {
             prop_assert_eq!(u128::from(mul_u32_wide(a, b)), u128::from(a) * u128::from(b));
+        }
+
+        #[test]
+        fn shift_right_matches_native(x: u64, sh in 0u32..70) {
+            prop_assert_eq!(shr_u64(x, sh), x.checked_shr(sh).unwrap_or(0));
         }
 
         #[test]

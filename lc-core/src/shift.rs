@@ -283,10 +283,23 @@ impl ShiftConverter {
         };
         // Normalise x to a 32-bit mantissa y, rounded to nearest:
         // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp).
-        let z = x.leading_zeros() as i32; // x > 0: z ≤ 63
-        let v = x << z;
-        let hi = (v >> 32) as u32; // top 32 bits; the cast keeps exactly them
-        let (y, z) = match hi.checked_add(((v >> 31) & 1) as u32) {
+        // Done in 32-bit halves: ARMv6-M has no 64-bit shift or count of
+        // leading zeros, and each would be a library call.
+        let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
+        let (z, top, round) = if hi != 0 {
+            let z = hi.leading_zeros(); // 0..=31
+            let top = if z == 0 {
+                hi
+            } else {
+                (hi << z) | (lo >> (32 - z))
+            };
+            (z, top, (lo << z) >> 31)
+        } else {
+            // x > 0, so lo ≠ 0 here.
+            (32 + lo.leading_zeros(), lo << lo.leading_zeros(), 0)
+        };
+        let z = z as i32; // ≤ 63
+        let (y, z) = match top.checked_add(round) {
             Some(y) => (y, z),
             None => (1 << 31, z - 1),
         };
