@@ -385,16 +385,8 @@ pub fn ring_count(
 mod tests {
     use super::*;
     use crate::tank;
+    use crate::tank::tests::assert_rel;
     use proptest::prelude::*;
-
-    fn assert_rel(actual: f64, expected: f64, rel_tol: f64, what: &str) {
-        let err = (actual - expected).abs();
-        assert!(
-            err <= rel_tol * expected.abs(),
-            "{what}: got {actual}, expected {expected}, rel err {}",
-            err / expected.abs()
-        );
-    }
 
     // ---- Published checks, REFERENCES.md §1 ------------------------------
 

@@ -536,12 +536,12 @@ pub fn relative_frequency_change_exact(relative_lc_change: f64) -> f64 {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use proptest::prelude::*;
 
     /// |actual − expected| ≤ rel_tol·|expected|.
-    fn assert_rel(actual: f64, expected: f64, rel_tol: f64, what: &str) {
+    pub(crate) fn assert_rel(actual: f64, expected: f64, rel_tol: f64, what: &str) {
         let err = (actual - expected).abs();
         assert!(
             err <= rel_tol * expected.abs(),
