@@ -15,7 +15,7 @@
 //! prove ≤ 0.1 step against the `f64` twins.
 //!
 //! These two quantities are diagnostics and inputs to the host; each costs
-//! one 128-bit division. The per-reading firmware path is
+//! one long division of 96 by 32 bits, done as two 64 ÷ 32-bit steps. The per-reading firmware path is
 //! [`crate::shift::ShiftConverter`], which never forms them.
 //!
 //! ```
@@ -27,7 +27,7 @@
 //! ```
 
 use crate::counting::CountPair;
-use crate::fixed::round_div_u128;
+use crate::fixed::{mul_u32_wide, round_div_shl32};
 use core::fmt;
 
 /// Why a frequency or period ratio could not be formed.
@@ -140,12 +140,10 @@ pub fn frequency(pair: CountPair, reference_hz: u32) -> Result<Frequency, RatioE
     if pair.ticks == 0 {
         return Err(RatioError::ZeroCount);
     }
-    // f_ref · cycles < 2^64; shifted by 32: < 2^96, fits u128.
-    let num = (u128::from(reference_hz) * u128::from(pair.cycles)) << 32;
-    let q = round_div_u128(num, u128::from(pair.ticks)).ok_or(RatioError::ZeroCount)?;
-    u64::try_from(q)
+    // f_ref · cycles < 2^64 exactly; then · 2^32 / ticks in two steps.
+    round_div_shl32(mul_u32_wide(reference_hz, pair.cycles), pair.ticks)
         .map(Frequency)
-        .map_err(|_| RatioError::OutOfRange)
+        .ok_or(RatioError::OutOfRange)
 }
 
 /// Period ratio p = ticks / cycles, rounded to the nearest 2^-44.
@@ -153,11 +151,13 @@ pub fn frequency(pair: CountPair, reference_hz: u32) -> Result<Frequency, RatioE
 /// Exact rational, rounded once: |error| ≤ 2^-45 for every accepted input.
 /// Errors: `ZeroCount` when cycles is zero, `OutOfRange` when p ≥ 2^20.
 pub fn period_ratio(pair: CountPair) -> Result<PeriodRatio, RatioError> {
-    let num = u128::from(pair.ticks) << 44; // < 2^76
-    let q = round_div_u128(num, u128::from(pair.cycles)).ok_or(RatioError::ZeroCount)?;
-    u64::try_from(q)
+    if pair.cycles == 0 {
+        return Err(RatioError::ZeroCount);
+    }
+    // ticks · 2^12 < 2^44; then · 2^32 / cycles in two steps: · 2^44 in all.
+    round_div_shl32(u64::from(pair.ticks) << 12, pair.cycles)
         .map(PeriodRatio)
-        .map_err(|_| RatioError::OutOfRange)
+        .ok_or(RatioError::OutOfRange)
 }
 
 /// `f64` twin of [`frequency`]: f_ref · cycles / ticks in hertz. NaN or

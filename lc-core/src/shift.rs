@@ -203,6 +203,8 @@ pub struct ShiftConverter {
     /// 1/(p_rest · N): r = ticks · gate_mant · 2^-gate_exp.
     gate_mant: u32,
     gate_exp: i32,
+    /// gate_exp − 33 when in 1..=31 (the in-domain shortcut), else 0.
+    fast_c: u8,
 }
 
 impl ShiftConverter {
@@ -227,7 +229,12 @@ impl ShiftConverter {
         } else {
             (0, 0)
         };
+        let fast_c = match gate_exp - 33 {
+            c @ 1..=31 if n > 0 => c as u8, // 1..=31 fits u8
+            _ => 0,
+        };
         Ok(Self {
+            fast_c,
             rest,
             gating,
             inv_mant,
@@ -266,52 +273,73 @@ impl ShiftConverter {
     }
 
     /// The shift of one count pair, without the reading around it.
+    #[inline]
     pub fn shift(&self, pair: CountPair) -> Result<Shift, ShiftError> {
         let CountPair { cycles, ticks } = pair;
         if cycles == 0 || ticks == 0 {
             return Err(ShiftError::ZeroCount);
         }
         // r = p / p_rest = x · 2^-exp.
-        let (x, exp) = if cycles == self.gate_cycles {
-            (mul_u32_wide(ticks, self.gate_mant), self.gate_exp)
-        } else {
-            // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
-            let x = mul_u32_wide(ticks, self.inv_mant);
-            let z = x.leading_zeros();
-            // (x << z) ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
-            ((x << z) / u64::from(cycles), self.inv_exp + z as i32)
-        };
-        // Normalise x to a 32-bit mantissa y, rounded to nearest:
-        // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp).
-        // Done in 32-bit halves: ARMv6-M has no 64-bit shift or count of
-        // leading zeros, and each would be a library call.
-        let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
-        let (z, top, round) = if hi != 0 {
-            let z = hi.leading_zeros(); // 0..=31
-            let top = if z == 0 {
-                hi
-            } else {
-                (hi << z) | (lo >> (32 - z))
-            };
-            (z, top, (lo << z) >> 31)
-        } else {
-            // x > 0, so lo ≠ 0 here.
-            (32 + lo.leading_zeros(), lo << lo.leading_zeros(), 0)
-        };
-        let z = z as i32; // ≤ 63
-        let (y, z) = match top.checked_add(round) {
-            Some(y) => (y, z),
-            None => (1 << 31, z - 1),
-        };
-        // s + 1 = r² = y² · 2^(2·(32 − z − exp)); in Q.40: y² · 2^k.
-        let k = 2 * (32 - z - exp) + 40;
-        if k >= 0 {
-            // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
-            return Err(ShiftError::OutOfRange);
+        if cycles == self.gate_cycles {
+            let x = mul_u32_wide(ticks, self.gate_mant);
+            if let Some(s) = self.square_in_domain(x) {
+                return Ok(s);
+            }
+            return square_to_shift(x, self.gate_exp);
         }
-        let u = round_shr_u64(mul_u32_wide(y, y), k.unsigned_abs());
-        let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
-        Ok(Shift(u - Shift::ONE_RAW))
+        // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
+        let x = mul_u32_wide(ticks, self.inv_mant);
+        let z = x.leading_zeros();
+        // (x << z) ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
+        square_to_shift((x << z) / u64::from(cycles), self.inv_exp + z as i32)
+    }
+
+    /// The configured-gate path's shortcut for 1/4 ≤ r < 4 (the declared
+    /// shift domain and more): with x = r · 2^(c+33), the bits above 2^(c+31)
+    /// say where r's leading bit is, so the normalisation needs no count of
+    /// leading zeros. The result is bit-identical to [`square_to_shift`]:
+    /// it picks the same 32-bit mantissa and exponent. `None` outside that
+    /// range or when the gate's scale does not allow it.
+    #[inline]
+    fn square_in_domain(&self, x: u64) -> Option<Shift> {
+        /// Position of q's leading bit for q in 1..16 (the class of r).
+        const LEAD: [u8; 16] = [0xFF, 0, 1, 1, 2, 2, 2, 2, 3, 3, 3, 3, 3, 3, 3, 3];
+        let c = u32::from(self.fast_c);
+        if c == 0 {
+            return None;
+        }
+        // Everything in 32-bit words: the ARMv6-M instruction set has
+        // nothing wider. c ≤ 31: q = ⌊x / 2^(c+31)⌋ = ⌊4r⌋.
+        let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
+        let q = hi.wrapping_shr(c - 1);
+        let sh = u32::from(*LEAD.get(q as usize)?); // q < 16 or None; usize ≥ 32 bits
+        if sh > 3 {
+            return None;
+        }
+        // x ∈ [2^(c+31+sh), 2^(c+32+sh)): y = x >> a has exactly 32 bits,
+        // a = c + sh in 1..=34; round to nearest with the next bit down.
+        let a = c + sh;
+        let (y, half) = if a < 32 {
+            (hi.wrapping_shl(32 - a) | (lo >> a), (lo >> (a - 1)) & 1)
+        } else if a == 32 {
+            (hi, lo >> 31)
+        } else {
+            (hi >> (a - 32), (hi >> (a - 33)) & 1)
+        };
+        let (y, sh) = match y.checked_add(half) {
+            Some(y) => (y, sh),
+            None => (1 << 31, sh + 1), // rounded up to 2^32
+        };
+        // r = y · 2^(sh − 33), so r² in Q.40 is y² · 2^-b with b = 26 − 2·sh
+        // in 18..=26: a 46-bit result, rounded to nearest.
+        let sq = mul_u32_wide(y, y);
+        let (sq_hi, sq_lo) = ((sq >> 32) as u32, sq as u32); // exact halves
+        let b = 26 - 2 * sh;
+        let u_hi = sq_hi >> b;
+        let u_lo = (sq_hi << (32 - b)) | (sq_lo >> b);
+        let (u_lo, carry) = u_lo.overflowing_add((sq_lo >> (b - 1)) & 1);
+        let u = (i64::from(u_hi) << 32 | i64::from(u_lo)) + i64::from(carry);
+        Some(Shift(u - Shift::ONE_RAW))
     }
 
     /// `f64` twin of [`ShiftConverter::shift`]: (ticks / (cycles · p_rest))² − 1
@@ -320,6 +348,43 @@ impl ShiftConverter {
     pub fn shift_f64(&self, pair: CountPair) -> f64 {
         shift_f64(pair, self.rest.to_f64())
     }
+}
+
+/// s = r² − 1 from r = x · 2^-exp, x > 0: normalise x to a 32-bit mantissa
+/// y rounded to nearest, square it exactly, and round into Q23.40.
+#[inline(never)]
+fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
+    // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp). Done in 32-bit
+    // halves: ARMv6-M has no 64-bit shift or count of leading zeros, and
+    // each would be a library call.
+    let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
+    let (z, top, round) = if hi != 0 {
+        let z = hi.leading_zeros(); // 0..=31
+        let top = if z == 0 {
+            hi
+        } else {
+            (hi << z) | (lo >> (32 - z))
+        };
+        (z, top, (lo << z) >> 31)
+    } else if lo != 0 {
+        (32 + lo.leading_zeros(), lo << lo.leading_zeros(), 0)
+    } else {
+        return Err(ShiftError::ZeroCount);
+    };
+    let z = z as i32; // ≤ 63
+    let (y, z) = match top.checked_add(round) {
+        Some(y) => (y, z),
+        None => (1 << 31, z - 1),
+    };
+    // s + 1 = r² = y² · 2^(2·(32 − z − exp)); in Q.40: y² · 2^k.
+    let k = 2 * (32 - z - exp) + 40;
+    if k >= 0 {
+        // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
+        return Err(ShiftError::OutOfRange);
+    }
+    let u = round_shr_u64(mul_u32_wide(y, y), k.unsigned_abs());
+    let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
+    Ok(Shift(u - Shift::ONE_RAW))
 }
 
 fn exp_i32(e: u32) -> Result<i32, ShiftError> {
@@ -490,6 +555,52 @@ mod tests {
         assert!((r.quantisation_step().to_f64() - 2e-3).abs() <= 2f64.powi(-41));
     }
 
+    /// The shortcut at its class edges and rounding carries equals the
+    /// general normalisation, for gates whose scale c spans 1..=31.
+    #[test]
+    fn shortcut_edges_equal_general_path() {
+        let mut seen = [false; 32];
+        for k in 1..32u32 {
+            let rest_ticks = (1u32 << k) | (0x2545_F491 & ((1 << k) - 1));
+            for n in [1u32, 3, 4096] {
+                let Ok(rest) = RestPoint::from_counts(CountPair::new(n, rest_ticks)) else {
+                    continue;
+                };
+                let conv = ShiftConverter::new(rest, Gating::Reciprocal, Some(n)).unwrap();
+                let c = u32::from(conv.fast_c);
+                if c == 0 {
+                    continue;
+                }
+                seen[c as usize] = true;
+                for sh in 0..4u32 {
+                    let a = c + sh;
+                    if a + 32 > 64 {
+                        continue; // x < 2^64 never reaches this class
+                    }
+                    let lo_edge = 1u64 << (a + 31);
+                    let carry = (u64::from(u32::MAX) << a) | (1 << (a - 1));
+                    for x in [
+                        lo_edge,
+                        lo_edge - 1,
+                        lo_edge + 1,
+                        carry,
+                        carry - 1,
+                        (lo_edge << 1).wrapping_sub(1),
+                    ] {
+                        if let Some(s) = conv.square_in_domain(x) {
+                            assert_eq!(
+                                Ok(s),
+                                square_to_shift(x, conv.gate_exp),
+                                "c {c} sh {sh} x {x:#x}"
+                            );
+                        }
+                    }
+                }
+            }
+        }
+        assert!(seen[1..31].iter().all(|&v| v), "scales covered: {seen:?}");
+    }
+
     /// One point of the declared domain: a converter, a pair, and the gate.
     #[derive(Debug, Clone)]
     struct Case {
@@ -555,6 +666,33 @@ mod tests {
             prop_assert!(err <= bound, "err {err:e} bound {bound:e}");
             let step = 2.0 * (1.0 + float) / f64::from(case.pair.max_count());
             prop_assert!(err <= 0.1 * step, "err {err:e} step {step:e}");
+        }
+
+        /// The configured-gate shortcut is bit-identical to the general
+        /// normalisation wherever it applies, and it applies across the
+        /// declared domain.
+        #[test]
+        fn shortcut_equals_general_path(case in domain()) {
+            let rest = RestPoint::from_ratio(PeriodRatio::from_f64(case.rest_ratio).unwrap()).unwrap();
+            let conv = ShiftConverter::new(rest, Gating::Reciprocal, Some(case.pair.cycles)).unwrap();
+            let x = mul_u32_wide(case.pair.ticks, conv.gate_mant);
+            let fast = conv.square_in_domain(x);
+            if conv.fast_c != 0 {
+                prop_assert!(fast.is_some(), "in-domain reading missed the shortcut");
+            }
+            if let Some(s) = fast {
+                prop_assert_eq!(Ok(s), square_to_shift(x, conv.gate_exp));
+            }
+        }
+
+        #[test]
+        fn shortcut_equals_general_path_anywhere(rest_raw in (1u64 << 36).., n in 1u32.., ticks in 1u32..) {
+            let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(rest_raw)).unwrap();
+            let conv = ShiftConverter::new(rest, Gating::Reciprocal, Some(n)).unwrap();
+            let x = mul_u32_wide(ticks, conv.gate_mant);
+            if let Some(s) = conv.square_in_domain(x) {
+                prop_assert_eq!(Ok(s), square_to_shift(x, conv.gate_exp));
+            }
         }
 
         /// Any pair and rest point: never a panic; any success is within the
