@@ -58,8 +58,9 @@ if [ "$have_targets" = yes ]; then
 else
     missing "Cortex-M rust targets" "rustup target add ${targets[*]}"
 fi
-step "lc-core defmt feature on the host (library only)"
+step "lc-core defmt feature on the host (lints; unit tests still link)"
 cargo clippy -p lc-core --lib --features defmt -- -D warnings
+cargo test -p lc-core --lib --features defmt --quiet
 
 if ! command -v qemu-system-arm >/dev/null 2>&1; then
     missing "qemu-system-arm (emulator tests)" "apt-get install qemu-system-arm"
