@@ -22,7 +22,9 @@
 //!    table (linear or monotone cubic), clamped with a status outside it.
 //! 5. [`filter`] and [`detector`]: median and exponential moving average in
 //!    fixed point, and a hysteresis-and-debounce detector.
-//! 6. [`tank`] and [`ringdown`]: the LC tank laws in `f64` (resonance,
+//! 6. [`temperature`]: NTC thermistor (Beta and Steinhart–Hart) from an
+//!    ADC code to hundredths of a degree, for drift compensation.
+//! 7. [`tank`] and [`ringdown`]: the LC tank laws in `f64` (resonance,
 //!    damping, losses, energy) and quality factor from a ring-down, for the
 //!    host and for design-time checks.
 //!
@@ -72,3 +74,4 @@ pub mod ratio;
 pub mod ringdown;
 pub mod shift;
 pub mod tank;
+pub mod temperature;
