@@ -68,6 +68,7 @@
 pub mod counting;
 pub mod curve;
 pub mod detector;
+pub mod drift;
 pub mod filter;
 pub mod fixed;
 pub mod ratio;

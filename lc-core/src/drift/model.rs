@@ -1,0 +1,303 @@
+//! The per-unit temperature model.
+
+use crate::fixed::mul_u32_wide;
+use crate::shift::Shift;
+use crate::temperature::CentiCelsius;
+use core::fmt;
+
+/// Temperatures the model accepts, −100 °C ..= +300 °C: the range of the
+/// temperature converters ([`crate::temperature`]). Readings outside are
+/// clamped to it before compensation.
+pub const TEMPERATURE_DOMAIN: (CentiCelsius, CentiCelsius) =
+    (CentiCelsius(-10_000), CentiCelsius(30_000));
+
+/// Why a temperature model was refused.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum DriftError {
+    /// The reference temperature lies outside [`TEMPERATURE_DOMAIN`].
+    ReferenceOutOfRange,
+    /// The correction |g(ΔT)| reaches 1/2 somewhere in the temperature
+    /// domain: beyond the fixed-point path's range (and beyond any real
+    /// tank's drift).
+    CorrectionTooLarge,
+}
+
+impl fmt::Display for DriftError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            DriftError::ReferenceOutOfRange => "drift reference temperature outside -100..300 °C",
+            DriftError::CorrectionTooLarge => {
+                "drift coefficients give a correction of 50 % or more"
+            }
+        })
+    }
+}
+
+impl core::error::Error for DriftError {}
+
+/// Temperature compensation of the shift, fitted per unit:
+///
+/// 1 + s_c = (1 + s) · (1 + g(ΔT)),  g(ΔT) = b1·ΔT + b2·ΔT²,
+///
+/// with ΔT = T − T_ref in centi-kelvin. A drift that scales L·C (a
+/// capacitor's tempco) is multiplicative, so the correction multiplies:
+/// it stays right at any target distance, where an additive one would be
+/// off by s·g.
+///
+/// Coefficient formats (as stored in the calibration image): b1 is an `i32`
+/// in units of 2^-40 shift per centi-kelvin (±1.95e-3 per centi-kelvin),
+/// b2 an `i32` in units of 2^-56 per centi-kelvin² (±2.98e-8).
+///
+/// ## Rounding and bound
+///
+/// g is computed exactly in 64 bits and rounded to Q31 (|g| < 1/2 is
+/// checked at construction over the whole temperature domain, so nothing
+/// can overflow); 1 + s is rounded to Q29; their product is exact and
+/// rounded into Q.40. Against the `f64` twin with the same coefficients:
+/// |s_fixed − s| ≤ (1 + s)·2^-32 + |g|·2^-30 + 2^-40.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TemperatureModel {
+    reference: CentiCelsius,
+    b1: i32,
+    b2: i32,
+}
+
+/// Signed 32 × 32 → 64-bit product, exact.
+#[inline]
+fn mul_i32(a: i32, b: i32) -> i64 {
+    let m = mul_u32_wide(a.unsigned_abs(), b.unsigned_abs()) as i64; // ≤ 2^62: exact
+    if (a < 0) != (b < 0) {
+        -m
+    } else {
+        m
+    }
+}
+
+/// Arithmetic shift right with rounding to nearest (ties up), `sh` in 1..=63.
+#[inline]
+fn round_asr(x: i64, sh: u32) -> i64 {
+    (x >> (sh - 1)).wrapping_add(1) >> 1
+}
+
+impl TemperatureModel {
+    /// No compensation: g = 0 at every temperature.
+    pub const NONE: TemperatureModel = TemperatureModel {
+        reference: CentiCelsius(2_500),
+        b1: 0,
+        b2: 0,
+    };
+
+    /// A model with reference temperature `reference`, b1 in 2^-40 per
+    /// centi-kelvin and b2 in 2^-56 per centi-kelvin². Checked: the
+    /// reference lies in [`TEMPERATURE_DOMAIN`] and |g| < 1/2 across it.
+    pub fn new(reference: CentiCelsius, b1: i32, b2: i32) -> Result<Self, DriftError> {
+        let (lo, hi) = TEMPERATURE_DOMAIN;
+        if reference.0 < lo.0 || reference.0 > hi.0 {
+            return Err(DriftError::ReferenceOutOfRange);
+        }
+        let model = Self { reference, b1, b2 };
+        // g is a parabola in ΔT: its extremes over the domain lie at the
+        // ends or at the vertex −b1/(2·b2·2^-16).
+        let g_at = |t: i64| -> i128 {
+            let d = i128::from(t - i64::from(reference.0));
+            i128::from(b1) * d * (1 << 16) + i128::from(b2) * d * d
+        };
+        let mut worst = g_at(i64::from(lo.0)).abs().max(g_at(i64::from(hi.0)).abs());
+        if b2 != 0 {
+            // Vertex in centi-kelvin from the reference: ΔT* = −b1·2^16/(2·b2).
+            let v = -(i128::from(b1) << 16) / (2 * i128::from(b2));
+            let t = i128::from(reference.0) + v;
+            if (i128::from(lo.0)..=i128::from(hi.0)).contains(&t) {
+                let d = v;
+                worst = worst.max((i128::from(b1) * d * (1 << 16) + i128::from(b2) * d * d).abs());
+            }
+        }
+        // g in units of 2^-56: |g| < 1/2 ⇔ < 2^55.
+        if worst >= 1 << 55 {
+            return Err(DriftError::CorrectionTooLarge);
+        }
+        Ok(model)
+    }
+
+    /// From real coefficients: b1 per kelvin, b2 per kelvin² (host side;
+    /// rounded to the stored formats). `None` when out of range.
+    pub fn from_f64(reference_c: f64, b1_per_k: f64, b2_per_k2: f64) -> Option<Self> {
+        let reference = CentiCelsius::from_f64(reference_c)?;
+        let b1 = libm::round(b1_per_k / 100.0 * 1_099_511_627_776.0);
+        let b2 = libm::round(b2_per_k2 / 10_000.0 * 72_057_594_037_927_936.0);
+        let fits = |v: f64| (-2_147_483_648.0..=2_147_483_647.0).contains(&v);
+        if !fits(b1) || !fits(b2) {
+            return None;
+        }
+        Self::new(reference, b1 as i32, b2 as i32).ok()
+    }
+
+    /// Reference temperature.
+    pub const fn reference(&self) -> CentiCelsius {
+        self.reference
+    }
+
+    /// b1, in 2^-40 shift per centi-kelvin.
+    pub const fn b1_raw(&self) -> i32 {
+        self.b1
+    }
+
+    /// b2, in 2^-56 shift per centi-kelvin².
+    pub const fn b2_raw(&self) -> i32 {
+        self.b2
+    }
+
+    /// b1 per kelvin and b2 per kelvin², as `f64`.
+    pub fn coefficients_f64(&self) -> (f64, f64) {
+        (
+            f64::from(self.b1) * 100.0 / 1_099_511_627_776.0,
+            f64::from(self.b2) * 10_000.0 / 72_057_594_037_927_936.0,
+        )
+    }
+
+    fn delta(&self, t: CentiCelsius) -> i32 {
+        let (lo, hi) = TEMPERATURE_DOMAIN;
+        // Both in −10 000..=30 000: the difference fits easily.
+        t.0.clamp(lo.0, hi.0) - self.reference.0
+    }
+
+    /// g(ΔT) in units of 2^-56, exact (|g| < 2^55).
+    fn g_q56(&self, t: CentiCelsius) -> i64 {
+        let d = self.delta(t);
+        // |b2·ΔT| < 2^31·2^16 = 2^47; times ΔT: < 2^63.
+        let quad = mul_i32(self.b2, d).wrapping_mul(i64::from(d));
+        (mul_i32(self.b1, d) << 16).wrapping_add(quad)
+    }
+
+    /// The compensated shift at temperature `t` (clamped to
+    /// [`TEMPERATURE_DOMAIN`]).
+    pub fn compensate(&self, s: Shift, t: CentiCelsius) -> Shift {
+        if self.b1 == 0 && self.b2 == 0 {
+            return s;
+        }
+        // g in Q31: |g| < 1/2 → |g31| ≤ 2^30.
+        let g31 = round_asr(self.g_q56(t), 25) as i32; // |value| ≤ 2^30: exact
+                                                       // 1 + s in Q29, saturated to u32 (1 + s < 8 in any useful reading).
+        let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0);
+        let u29 = u32::try_from(round_asr(one_plus, 11)).unwrap_or(u32::MAX);
+        // Product Q60 → Q40.
+        let p = mul_i32_u32(g31, u29);
+        Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
+    }
+
+    /// `f64` twin of [`TemperatureModel::compensate`], same coefficients.
+    pub fn compensate_f64(&self, s: f64, t_c: f64) -> f64 {
+        let (lo, hi) = TEMPERATURE_DOMAIN;
+        let t = t_c.clamp(lo.to_f64(), hi.to_f64());
+        let d = (t - self.reference.to_f64()) * 100.0; // centi-kelvin
+        let g = f64::from(self.b1) * d / 1_099_511_627_776.0
+            + f64::from(self.b2) * d * d / 72_057_594_037_927_936.0;
+        (1.0 + s) * (1.0 + g) - 1.0
+    }
+}
+
+/// Signed × unsigned 32-bit product, exact in `i64`.
+#[inline]
+fn mul_i32_u32(a: i32, b: u32) -> i64 {
+    let m = mul_u32_wide(a.unsigned_abs(), b) as i64; // < 2^63: exact
+    if a < 0 {
+        -m
+    } else {
+        m
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    #[test]
+    fn none_is_the_identity() {
+        let s = Shift::from_f64(-0.123).unwrap();
+        assert_eq!(TemperatureModel::NONE.compensate(s, CentiCelsius(8_000)), s);
+    }
+
+    /// A C0G capacitor at its +30 ppm/K limit raises C by 30e-6 per kelvin
+    /// (EIA-198 class 1, REFERENCES.md §6: C0G = 0 ± 30 ppm/K). With L
+    /// fixed, 1 + s = 1 + 30e-6·ΔT; the model g = −30e-6·ΔT/(1 + 30e-6·ΔT)
+    /// to first order removes it: at +35 K the residual is the second-order
+    /// term only, (30e-6·35)² ≈ 1.1e-6.
+    #[test]
+    fn removes_a_capacitor_tempco() {
+        let m = TemperatureModel::from_f64(25.0, -30e-6, 0.0).unwrap();
+        let drift = 30e-6 * 35.0;
+        let s = Shift::from_f64(drift).unwrap();
+        let c = m.compensate(s, CentiCelsius(6_000)).to_f64();
+        // b1 is stored to 2^-40 per centi-kelvin: −30e-6/K becomes −329 853.5 →
+        // −329 854 units, 1.5e-6 relative, worth 1.6e-9 here.
+        assert!((c - (-drift * drift)).abs() < 3e-9, "{c}");
+        // With the second-order term fitted too, the residual vanishes to
+        // third order: g = −x + x² with x = 30e-6·ΔT.
+        let m2 = TemperatureModel::from_f64(25.0, -30e-6, 9e-10).unwrap();
+        let c2 = m2.compensate(s, CentiCelsius(6_000)).to_f64();
+        assert!(c2.abs() < 4e-9, "{c2}");
+    }
+
+    #[test]
+    fn construction_limits() {
+        assert_eq!(
+            TemperatureModel::new(CentiCelsius(-10_001), 0, 0),
+            Err(DriftError::ReferenceOutOfRange)
+        );
+        assert_eq!(
+            TemperatureModel::new(CentiCelsius(30_001), 0, 0),
+            Err(DriftError::ReferenceOutOfRange)
+        );
+        // b1 at its i32 limit: 1.95e-3 per centi-kelvin over 400 K is far
+        // beyond 1/2.
+        assert_eq!(
+            TemperatureModel::new(CentiCelsius(2_500), i32::MAX, 0),
+            Err(DriftError::CorrectionTooLarge)
+        );
+        // 1e-3 per kelvin over at most 275 K: 0.275 < 1/2.
+        assert!(TemperatureModel::from_f64(25.0, 1e-3, 0.0).is_some());
+        // b2 alone from a 100 °C reference: |ΔT| ≤ 200 K, so |g| < 1/2 needs
+        // |b2| < 0.5/200² = 1.25e-5 per kelvin².
+        assert!(TemperatureModel::from_f64(100.0, 0.0, -1.2e-5).is_some());
+        assert!(TemperatureModel::from_f64(100.0, 0.0, -1.3e-5).is_none());
+    }
+
+    fn model() -> impl Strategy<Value = TemperatureModel> {
+        (
+            -5_500i32..=15_500,
+            -200_000i32..=200_000,
+            -2_000_000i32..=2_000_000,
+        )
+            .prop_filter_map("in range", |(r, b1, b2)| {
+                TemperatureModel::new(CentiCelsius(r), b1, b2).ok()
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(20_000))]
+
+        /// Within the stated bound of the f64 twin over shifts −0.9…7 and
+        /// the whole temperature domain.
+        #[test]
+        fn within_bound(m in model(), s in -0.9f64..=7.0, t in -10_000i32..=30_000) {
+            let sq = Shift::from_f64(s).unwrap();
+            let fixed = m.compensate(sq, CentiCelsius(t)).to_f64();
+            let float = m.compensate_f64(sq.to_f64(), f64::from(t) / 100.0);
+            let g = (1.0 + float) / (1.0 + sq.to_f64()) - 1.0;
+            let bound = (1.0 + sq.to_f64()) * 2f64.powi(-32) + g.abs() * 2f64.powi(-30) + 2f64.powi(-40) + 1e-15;
+            prop_assert!((fixed - float).abs() <= bound, "{} vs {} bound {}", fixed, float, bound);
+        }
+
+        /// Arbitrary inputs never panic; any accepted model keeps |g| < 1/2.
+        #[test]
+        fn never_panics(r: i32, b1: i32, b2: i32, s: i64, t: i32) {
+            if let Ok(m) = TemperatureModel::new(CentiCelsius(r), b1, b2) {
+                let _ = m.compensate(Shift::from_raw_q40(s), CentiCelsius(t));
+                prop_assert!(m.g_q56(CentiCelsius(t)).unsigned_abs() < 1 << 55);
+            }
+        }
+    }
+}
