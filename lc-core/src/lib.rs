@@ -71,6 +71,7 @@ pub mod detector;
 pub mod drift;
 pub mod filter;
 pub mod fixed;
+pub mod image;
 pub mod ratio;
 pub mod ringdown;
 pub mod shift;
