@@ -128,6 +128,36 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
     }
 }
 
+/// The quotient a/b in Q.40, `round(a · 2^40 / b)` to within a relative
+/// 2^-31, or `None` when b is zero or the quotient does not fit an `i64`.
+/// One 64 ÷ 32-bit long division (two steps): b is first rounded to its top
+/// 32 bits (relative error ≤ 2^-32), then the division is exact and rounded
+/// to nearest.
+pub fn div_q40(a: i64, b: i64) -> Option<i64> {
+    if b == 0 {
+        return None;
+    }
+    let negative = (a < 0) != (b < 0);
+    let (ua, ub) = (a.unsigned_abs(), b.unsigned_abs());
+    // b ≈ b32 · 2^k with b32 < 2^32.
+    let bits = 64 - ub.leading_zeros();
+    let k = bits.saturating_sub(32);
+    let b32 = u32::try_from(round_shr_u64(ub, k)).unwrap_or(u32::MAX);
+    // a · 2^32 / b32 = (a/b) · 2^(32 + k); we want 2^40.
+    let q = round_div_shl32(ua, b32)?;
+    let q = if k <= 8 {
+        let up = 8 - k;
+        if q.leading_zeros() <= up {
+            return None;
+        }
+        q << up
+    } else {
+        round_shr_u64(q, k - 8)
+    };
+    let q = i64::try_from(q).ok()?;
+    Some(if negative { -q } else { q })
+}
+
 /// Number of significant bits of `x` (0 for 0, 64 for values ≥ 2^63).
 #[inline]
 pub fn bit_length_u128(x: u128) -> u32 {
@@ -190,6 +220,17 @@ mod tests {
                 prop_assert!(2 * err <= 1u128 << sh);
             } else {
                 prop_assert_eq!(got, 0);
+            }
+        }
+
+        #[test]
+        fn q40_division_within_its_bound(a: i64, b: i64) {
+            if let Some(q) = div_q40(a, b) {
+                let exact = (a as f64) / (b as f64) * 2f64.powi(40);
+                prop_assert!((q as f64 - exact).abs() <= exact.abs() * 2f64.powi(-31) + 1.0, "{} vs {}", q, exact);
+            } else {
+                let exact = (a as f64) / (b as f64) * 2f64.powi(40);
+                prop_assert!(b == 0 || exact.abs() >= 2f64.powi(62), "refused {} / {}", a, b);
             }
         }
 

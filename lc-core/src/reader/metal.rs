@@ -1,0 +1,163 @@
+//! Metal detection: baseline, detection, classification.
+
+use super::{Front, Input, Reader, ReaderError, Reading, Status};
+use crate::detector::{Detector, DetectorConfig, Polarity, Presence};
+use crate::filter::Ema;
+use crate::image::{Calibration, MetalParams};
+use crate::shift::Shift;
+
+/// What kind of metal a detection is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum MetalClass {
+    /// No target.
+    None = 0,
+    /// L rose: a ferromagnetic target (permeability).
+    Ferrous = 1,
+    /// L fell: a non-ferrous conductor (eddy currents).
+    NonFerrous = 2,
+}
+
+/// A metal detector on one coil.
+///
+/// - **Baseline**: an exponential average of the shift (weight 2^-k),
+///   learned while no target is present and frozen while one is; a target
+///   that stays present for `relearn_readings` readings becomes the new
+///   background (the baseline jumps to the current shift).
+/// - **Detection**: |shift − baseline| against the enter and leave
+///   thresholds with debounce ([`Detector`]).
+/// - **Classification**: the sign of shift − baseline when the target
+///   entered: L up (positive) is ferrous, L down non-ferrous.
+/// - **Ring-down**: when the calibration sets `ring_drop` and the unit
+///   reports ring counts, the count learned with the baseline minus the
+///   current count is the loss signal. Both metal classes add loss, so a
+///   reading counts towards detection only when its shift is beyond the
+///   threshold *and* the ring count has dropped by at least `ring_drop`: a
+///   shift without loss (drift, a dielectric, a hand) is not metal.
+///
+/// The reading's value is the [`MetalClass`] code, `secondary` the ring
+/// drop, `shift` the shift minus the baseline; the status is
+/// [`Status::NoTarget`] while nothing is present.
+#[derive(Clone, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct MetalReader {
+    front: Front,
+    params: MetalParams,
+    baseline: Ema<Shift>,
+    ring_baseline: Ema<i32>,
+    learned: bool,
+    detector: Detector<u64>,
+    class: MetalClass,
+    present_for: u32,
+}
+
+/// Parts per billion of shift to Q23.40, rounded (construction only).
+fn ppb_to_q40(ppb: u32) -> u64 {
+    // ppb · 2^40 / 1e9 < 2^32 · 2^40 / 2^29.9: fits u64.
+    let n = u128::from(ppb) << 40;
+    crate::fixed::round_div_u128(n, 1_000_000_000)
+        .and_then(|q| u64::try_from(q).ok())
+        .unwrap_or(u64::MAX)
+}
+
+impl MetalReader {
+    /// From a calibration with metal parameters.
+    pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
+        let params = cal.metal.ok_or(ReaderError::Incomplete)?;
+        let detector = Detector::new(DetectorConfig {
+            polarity: Polarity::Rising,
+            enter_threshold: ppb_to_q40(params.enter_ppb),
+            leave_threshold: ppb_to_q40(params.leave_ppb),
+            enter_samples: params.enter_samples,
+            leave_samples: params.leave_samples,
+        })
+        .map_err(|_| ReaderError::Metal)?;
+        let k = u32::from(params.baseline_k);
+        Ok(Self {
+            front: Front::new(cal, true)?,
+            params,
+            baseline: Ema::new(k).map_err(|_| ReaderError::Metal)?,
+            ring_baseline: Ema::new(k).map_err(|_| ReaderError::Metal)?,
+            learned: false,
+            detector,
+            class: MetalClass::None,
+            present_for: 0,
+        })
+    }
+
+    /// Whether a target is present.
+    pub fn presence(&self) -> Presence {
+        self.detector.presence()
+    }
+
+    /// One reading; updates the baseline and the detector.
+    pub fn read(&mut self, input: &Input) -> Reading {
+        let s = match self.front.shift(input) {
+            Ok(s) => s,
+            Err(f) => return Reading::fault(f),
+        };
+        if !self.learned {
+            self.baseline.update(s);
+            if let Some(rc) = input.ring_count {
+                self.ring_baseline.update(i32::from(rc));
+            }
+            self.learned = true;
+        }
+        let delta = s
+            .raw_q40()
+            .saturating_sub(self.baseline.value().map_or(0, Shift::raw_q40));
+        let ring_drop = match (input.ring_count, self.ring_baseline.value()) {
+            (Some(rc), Some(base)) => Some(base.saturating_sub(i32::from(rc))),
+            _ => None,
+        };
+        let lossy = self.params.ring_drop == 0
+            || ring_drop.is_some_and(|d| d >= i32::from(self.params.ring_drop));
+        let signal = if lossy { delta.unsigned_abs() } else { 0 };
+        let event = self.detector.update(signal);
+        let present = self.detector.presence() == Presence::Present;
+        if event.is_some() && present {
+            self.class = if delta > 0 {
+                MetalClass::Ferrous
+            } else {
+                MetalClass::NonFerrous
+            };
+        }
+        if present {
+            self.present_for = self.present_for.saturating_add(1);
+            if self.params.relearn_readings > 0 && self.present_for >= self.params.relearn_readings
+            {
+                // The target has become the background.
+                self.baseline.reset();
+                self.ring_baseline.reset();
+                self.learned = false;
+                self.detector.reset();
+                self.present_for = 0;
+                self.class = MetalClass::None;
+            }
+        } else {
+            self.present_for = 0;
+            self.class = MetalClass::None;
+            self.baseline.update(s);
+            if let Some(rc) = input.ring_count {
+                self.ring_baseline.update(i32::from(rc));
+            }
+        }
+        let status = if self.class == MetalClass::None {
+            Status::NoTarget
+        } else {
+            Status::Ok
+        };
+        Reading {
+            value: self.class as i32,
+            secondary: ring_drop,
+            shift: Shift::from_raw_q40(delta),
+            status,
+        }
+    }
+}
+
+impl From<MetalReader> for Reader {
+    fn from(r: MetalReader) -> Self {
+        Reader::Metal(r)
+    }
+}

@@ -1,0 +1,72 @@
+//! Inductive proximity: shift → gap.
+
+use super::{Front, Input, Reader, ReaderError, Reading, Status};
+use crate::curve::{Curve, CurveStatus};
+use crate::image::Calibration;
+
+/// Shift → gap through the unit's curve.
+///
+/// Beyond the farthest calibrated gap the status is [`Status::NoTarget`]
+/// (nothing within range), closer than the nearest it is
+/// [`Status::BelowRange`]; the value is clamped to the table's end.
+///
+/// End-to-end bound against [`ProximityReader::read_f64`] (same
+/// calibration): 0.5 output units (the rounding) + the curve's segment term
+/// + |dy/ds| times the shift and drift bounds (docs/numerics.md).
+#[derive(Clone, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ProximityReader {
+    front: Front,
+    curve: Curve,
+    far_is_high: bool,
+}
+
+impl ProximityReader {
+    /// From a calibration with a curve.
+    pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
+        let table = cal.curve.ok_or(ReaderError::Incomplete)?;
+        let curve = table.curve().map_err(ReaderError::Curve)?;
+        let nodes = table.nodes();
+        let far_is_high = match (nodes.first(), nodes.last()) {
+            (Some(a), Some(b)) => b.value >= a.value,
+            _ => return Err(ReaderError::Incomplete),
+        };
+        Ok(Self {
+            front: Front::new(cal, true)?,
+            curve,
+            far_is_high,
+        })
+    }
+
+    /// One reading.
+    pub fn read(&self, input: &Input) -> Reading {
+        let s = match self.front.shift(input) {
+            Ok(s) => s,
+            Err(f) => return Reading::fault(f),
+        };
+        let v = self.curve.eval(s);
+        let status = match (v.status, self.far_is_high) {
+            (CurveStatus::InRange, _) => Status::Ok,
+            (CurveStatus::AboveRange, true) | (CurveStatus::BelowRange, false) => Status::NoTarget,
+            _ => Status::BelowRange,
+        };
+        Reading {
+            value: v.value,
+            secondary: None,
+            shift: s,
+            status,
+        }
+    }
+
+    /// `f64` twin: the gap in output units, unrounded (assumes the fault
+    /// window passes).
+    pub fn read_f64(&self, input: &Input) -> f64 {
+        self.curve.eval_f64(self.front.shift_f64(input))
+    }
+}
+
+impl From<ProximityReader> for Reader {
+    fn from(r: ProximityReader) -> Self {
+        Reader::Proximity(r)
+    }
+}
