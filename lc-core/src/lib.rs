@@ -18,21 +18,19 @@
 //!    shift s = (p/p_rest)² − 1, the relative change of the L·C product. This
 //!    is the per-reading hot path: no division when the gate is a configured
 //!    number of sensor cycles, one division otherwise.
-//! 4. [`drift`]: temperature out of the shift, by a per-unit temperature
-//!    model or a companion channel (ratiometric).
+//! 4. [`temperature`] and [`drift`]: an NTC thermistor read to hundredths
+//!    of a degree, and temperature taken out of the shift by a per-unit
+//!    temperature model or a companion channel (ratiometric).
 //! 5. [`curve`]: shift to a physical value through a monotone calibration
 //!    table (linear or monotone cubic), clamped with a status outside it.
 //! 6. [`filter`] and [`detector`]: median and exponential moving average in
 //!    fixed point, and a hysteresis-and-debounce detector.
-//! 7. [`temperature`]: NTC thermistor (Beta and Steinhart–Hart) from an
-//!    ADC code to hundredths of a degree, for drift compensation.
-//! 9. [`tank`] and [`ringdown`]: the LC tank laws in `f64` (resonance,
-//!    damping, losses, energy) and quality factor from a ring-down, for the
-//!    host and for design-time checks.
+//! 7. [`reader`]: the stages composed per product (proximity, level, metal)
+//!    into a value with its status, built from a calibration [`image`].
 //!
-//! 8. [`reader`]: the stages composed per product (proximity, level, metal)
-//!    into a value with its status; [`image`] is the calibration image they
-//!    are built from.
+//! Beside the path: [`tank`] and [`ringdown`], the LC tank laws in `f64`
+//! (resonance, damping, losses, energy) and quality factor from a
+//! ring-down, for the host and for design-time checks.
 //!
 //! [`fixed`] holds the small integer helpers (widening multiply, rounding
 //! shifts) that the fixed-point stages share.
