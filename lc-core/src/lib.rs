@@ -28,6 +28,9 @@
 //! 7. [`reader`]: the stages composed per product (proximity, level, metal)
 //!    into a value with its status, built from a calibration [`image`].
 //!
+//! 8. [`scanner`]: several channels behind a multiplexer (embedded-hal
+//!    1.0): select, settle, count, check, round-robin.
+//!
 //! Beside the path: [`tank`] and [`ringdown`], the LC tank laws in `f64`
 //! (resonance, damping, losses, energy) and quality factor from a
 //! ring-down, for the host and for design-time checks.
@@ -79,6 +82,7 @@ pub mod image;
 pub mod ratio;
 pub mod reader;
 pub mod ringdown;
+pub mod scanner;
 pub mod shift;
 pub mod tank;
 pub mod temperature;
