@@ -6,9 +6,10 @@
 //! Celsius, decimal). Column order is free; unknown columns are ignored.
 //! Empty optional fields are allowed. Lines are counted from 1 (the header).
 
-use std::fmt;
+pub use crate::csvin::InputError as LogError;
+use crate::csvin::{CsvInput, Row};
 use std::io::Read;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 /// One parsed field-log row.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -27,52 +28,7 @@ pub struct FieldRow {
     pub temp_c: Option<f64>,
 }
 
-/// Where a field log went wrong: file, line, field and what to do.
-#[derive(Debug, thiserror::Error)]
-pub enum LogError {
-    /// The file could not be read.
-    #[error("{file}: cannot read: {source}")]
-    Io {
-        /// File name.
-        file: PathBuf,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// A required column is missing from the header.
-    #[error("{file}: line 1: header has no `{column}` column; a field log needs `cycles` and `ticks` (see docs/formats.md)")]
-    MissingColumn {
-        /// File name.
-        file: PathBuf,
-        /// The missing column.
-        column: &'static str,
-    },
-    /// A field does not parse.
-    #[error("{file}: line {line}: field `{field}`: {problem} (found {found:?})")]
-    BadField {
-        /// File name.
-        file: PathBuf,
-        /// Line number (header = 1).
-        line: u64,
-        /// Column name.
-        field: &'static str,
-        /// The text found.
-        found: String,
-        /// What is wrong and what is expected.
-        problem: &'static str,
-    },
-    /// The CSV structure is broken (for example an unterminated quote).
-    #[error("{file}: line {line}: malformed CSV: {message}")]
-    Csv {
-        /// File name.
-        file: PathBuf,
-        /// Line number.
-        line: u64,
-        /// The parser's message.
-        message: String,
-    },
-}
-
-#[derive(Clone, Copy)]
+#[derive(Clone, Copy, Debug)]
 struct Columns {
     time_s: Option<usize>,
     channel: Option<usize>,
@@ -83,120 +39,54 @@ struct Columns {
 
 /// Streaming reader of field-log rows; memory stays constant whatever the
 /// log's length.
+#[derive(Debug)]
 pub struct FieldLogReader<R: Read> {
-    file: PathBuf,
-    records: csv::StringRecordsIntoIter<R>,
+    input: CsvInput<R>,
     columns: Columns,
 }
 
-impl<R: Read> fmt::Debug for FieldLogReader<R> {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.debug_struct("FieldLogReader")
-            .field("file", &self.file)
-            .finish_non_exhaustive()
-    }
-}
+const HINT: &str = "a field log needs `cycles` and `ticks` (see docs/formats.md)";
 
 impl<R: Read> FieldLogReader<R> {
     /// Reads the header of `input`; `file` names it in messages (`-` for
     /// standard input).
     pub fn new(input: R, file: &Path) -> Result<Self, LogError> {
-        let mut reader = csv::ReaderBuilder::new()
-            .has_headers(true)
-            .trim(csv::Trim::All)
-            .flexible(true)
-            .comment(Some(b'#'))
-            .from_reader(input);
-        let file = file.to_path_buf();
-        let headers = reader.headers().map_err(|e| csv_error(&file, &e))?.clone();
-        let find = |name: &str| headers.iter().position(|h| h.eq_ignore_ascii_case(name));
-        let required = |name: &'static str| {
-            find(name).ok_or(LogError::MissingColumn {
-                file: file.clone(),
-                column: name,
-            })
-        };
+        let input = CsvInput::new(input, file)?;
         let columns = Columns {
-            time_s: find("time_s"),
-            channel: find("channel"),
-            cycles: required("cycles")?,
-            ticks: required("ticks")?,
-            temp_c: find("temp_c"),
+            time_s: input.column("time_s"),
+            channel: input.column("channel"),
+            cycles: input.require("cycles", HINT)?,
+            ticks: input.require("ticks", HINT)?,
+            temp_c: input.column("temp_c"),
         };
-        Ok(Self {
-            file,
-            records: reader.into_records(),
-            columns,
-        })
-    }
-
-    fn parse(&self, rec: &csv::StringRecord) -> Result<FieldRow, LogError> {
-        let line = rec.position().map_or(0, |p| p.line());
-        let c = self.columns;
-        let get = |i: usize| rec.get(i).unwrap_or("");
-        let bad = |field: &'static str, found: &str, problem: &'static str| LogError::BadField {
-            file: self.file.clone(),
-            line,
-            field,
-            found: found.to_string(),
-            problem,
-        };
-        let count = |i: usize, field: &'static str| {
-            let s = get(i);
-            s.parse::<u32>()
-                .map_err(|_| bad(field, s, "expected a whole count from 0 to 4294967295"))
-        };
-        let real = |i: Option<usize>, field: &'static str| -> Result<Option<f64>, LogError> {
-            match i.map(get) {
-                None | Some("") => Ok(None),
-                Some(s) => match s.parse::<f64>() {
-                    Ok(v) if v.is_finite() => Ok(Some(v)),
-                    _ => Err(bad(field, s, "expected a finite decimal number")),
-                },
-            }
-        };
-        let channel = match c.channel.map(get) {
-            None | Some("") => None,
-            Some(s) => Some(
-                s.parse::<u8>()
-                    .map_err(|_| bad("channel", s, "expected a channel number from 0 to 255"))?,
-            ),
-        };
-        Ok(FieldRow {
-            line,
-            time_s: real(c.time_s, "time_s")?,
-            channel,
-            cycles: count(c.cycles, "cycles")?,
-            ticks: count(c.ticks, "ticks")?,
-            temp_c: real(c.temp_c, "temp_c")?,
-        })
+        Ok(Self { input, columns })
     }
 }
 
-fn csv_error(file: &Path, e: &csv::Error) -> LogError {
-    let line = e.position().map_or(0, |p| p.line());
-    LogError::Csv {
-        file: file.to_path_buf(),
-        line,
-        message: e.to_string(),
-    }
+fn parse(row: &Row<'_>, c: Columns) -> Result<FieldRow, LogError> {
+    let channel = match c.channel.map(|i| row.text(i)) {
+        None | Some("") => None,
+        Some(s) => Some(
+            s.parse::<u8>()
+                .map_err(|_| row.error("channel", s, "expected a channel number from 0 to 255"))?,
+        ),
+    };
+    Ok(FieldRow {
+        line: row.line(),
+        time_s: row.real_opt(c.time_s, "time_s")?,
+        channel,
+        cycles: row.count(c.cycles, "cycles")?,
+        ticks: row.count(c.ticks, "ticks")?,
+        temp_c: row.real_opt(c.temp_c, "temp_c")?,
+    })
 }
 
 impl<R: Read> Iterator for FieldLogReader<R> {
     type Item = Result<FieldRow, LogError>;
 
     fn next(&mut self) -> Option<Self::Item> {
-        let rec = self.records.next()?;
-        Some(match rec {
-            Ok(rec) => self.parse(&rec),
-            Err(e) => match e.kind() {
-                csv::ErrorKind::Io(_) => Err(LogError::Io {
-                    file: self.file.clone(),
-                    source: std::io::Error::other(e.to_string()),
-                }),
-                _ => Err(csv_error(&self.file, &e)),
-            },
-        })
+        let columns = self.columns;
+        Some(self.input.next_row()?.and_then(|row| parse(&row, columns)))
     }
 }
 

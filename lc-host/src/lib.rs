@@ -22,4 +22,5 @@
 #![deny(missing_docs)]
 
 pub mod counts;
+pub mod csvin;
 pub mod fieldlog;

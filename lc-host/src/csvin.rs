@@ -1,0 +1,220 @@
+//! Shared CSV input: the reader settings of every file format we read, and
+//! errors that name the file, line and field and say what is expected.
+//!
+//! Formats (docs/formats.md): a header row; lines starting with `#` are
+//! comments; fields are trimmed; column names match without regard to case;
+//! columns may come in any order; unknown columns are ignored. Line numbers
+//! count every line of the file from 1.
+
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+/// Where an input file went wrong: file, line, field and what to do.
+#[derive(Debug, thiserror::Error)]
+pub enum InputError {
+    /// The file could not be read.
+    #[error("{file}: cannot read: {source}")]
+    Io {
+        /// File name.
+        file: PathBuf,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// A required column is missing from the header.
+    #[error("{file}: line 1: header has no `{column}` column; {hint}")]
+    MissingColumn {
+        /// File name.
+        file: PathBuf,
+        /// The missing column.
+        column: &'static str,
+        /// Which columns the format needs (and where it is documented).
+        hint: &'static str,
+    },
+    /// A field does not parse.
+    #[error("{file}: line {line}: field `{field}`: {problem} (found {found:?})")]
+    BadField {
+        /// File name.
+        file: PathBuf,
+        /// Line number (header = 1).
+        line: u64,
+        /// Column name.
+        field: &'static str,
+        /// The text found.
+        found: String,
+        /// What is wrong and what is expected.
+        problem: &'static str,
+    },
+    /// The CSV structure is broken (for example an unterminated quote).
+    #[error("{file}: line {line}: malformed CSV: {message}")]
+    Csv {
+        /// File name.
+        file: PathBuf,
+        /// Line number.
+        line: u64,
+        /// The parser's message.
+        message: String,
+    },
+}
+
+impl InputError {
+    /// The line the error refers to, when it refers to one.
+    pub fn line(&self) -> Option<u64> {
+        match self {
+            InputError::BadField { line, .. } | InputError::Csv { line, .. } => Some(*line),
+            _ => None,
+        }
+    }
+}
+
+/// A CSV file being read row by row, with its header resolved.
+pub struct CsvInput<R: Read> {
+    file: PathBuf,
+    headers: csv::StringRecord,
+    records: csv::StringRecordsIntoIter<R>,
+}
+
+impl<R: Read> std::fmt::Debug for CsvInput<R> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("CsvInput")
+            .field("file", &self.file)
+            .finish_non_exhaustive()
+    }
+}
+
+impl<R: Read> CsvInput<R> {
+    /// Reads the header of `input`; `file` names it in messages.
+    pub fn new(input: R, file: &Path) -> Result<Self, InputError> {
+        let mut reader = csv::ReaderBuilder::new()
+            .has_headers(true)
+            .trim(csv::Trim::All)
+            .flexible(true)
+            .comment(Some(b'#'))
+            .from_reader(input);
+        let file = file.to_path_buf();
+        let headers = reader.headers().map_err(|e| csv_error(&file, &e))?.clone();
+        Ok(Self {
+            file,
+            headers,
+            records: reader.into_records(),
+        })
+    }
+
+    /// The file name used in messages.
+    pub fn file(&self) -> &Path {
+        &self.file
+    }
+
+    /// Index of an optional column.
+    pub fn column(&self, name: &str) -> Option<usize> {
+        self.headers
+            .iter()
+            .position(|h| h.eq_ignore_ascii_case(name))
+    }
+
+    /// Index of a required column, or the error that explains the format.
+    pub fn require(&self, name: &'static str, hint: &'static str) -> Result<usize, InputError> {
+        self.column(name).ok_or_else(|| InputError::MissingColumn {
+            file: self.file.clone(),
+            column: name,
+            hint,
+        })
+    }
+
+    /// The next row, or `None` at the end of the file.
+    pub fn next_row(&mut self) -> Option<Result<Row<'_>, InputError>> {
+        let rec = self.records.next()?;
+        Some(match rec {
+            Ok(record) => Ok(Row {
+                file: &self.file,
+                line: record.position().map_or(0, |p| p.line()),
+                record,
+            }),
+            Err(e) => match e.kind() {
+                csv::ErrorKind::Io(_) => Err(InputError::Io {
+                    file: self.file.clone(),
+                    source: std::io::Error::other(e.to_string()),
+                }),
+                _ => Err(csv_error(&self.file, &e)),
+            },
+        })
+    }
+}
+
+/// One CSV row with typed, error-naming accessors.
+#[derive(Debug)]
+pub struct Row<'a> {
+    file: &'a Path,
+    line: u64,
+    record: csv::StringRecord,
+}
+
+impl Row<'_> {
+    /// The row's line number.
+    pub fn line(&self) -> u64 {
+        self.line
+    }
+
+    /// The text of column `i` ("" when the row is short).
+    pub fn text(&self, i: usize) -> &str {
+        self.record.get(i).unwrap_or("")
+    }
+
+    /// An error about `field` of this row.
+    pub fn error(&self, field: &'static str, found: &str, problem: &'static str) -> InputError {
+        InputError::BadField {
+            file: self.file.to_path_buf(),
+            line: self.line,
+            field,
+            found: found.to_string(),
+            problem,
+        }
+    }
+
+    /// A required `u32` count.
+    pub fn count(&self, i: usize, field: &'static str) -> Result<u32, InputError> {
+        let s = self.text(i);
+        s.parse()
+            .map_err(|_| self.error(field, s, "expected a whole count from 0 to 4294967295"))
+    }
+
+    /// An optional `u32` count (empty or absent column: `None`).
+    pub fn count_opt(
+        &self,
+        i: Option<usize>,
+        field: &'static str,
+    ) -> Result<Option<u32>, InputError> {
+        match i.map(|i| self.text(i)) {
+            None | Some("") => Ok(None),
+            Some(_) => i.map(|i| self.count(i, field)).transpose(),
+        }
+    }
+
+    /// A required finite decimal.
+    pub fn real(&self, i: usize, field: &'static str) -> Result<f64, InputError> {
+        let s = self.text(i);
+        match s.parse::<f64>() {
+            Ok(v) if v.is_finite() => Ok(v),
+            _ => Err(self.error(field, s, "expected a finite decimal number")),
+        }
+    }
+
+    /// An optional finite decimal.
+    pub fn real_opt(
+        &self,
+        i: Option<usize>,
+        field: &'static str,
+    ) -> Result<Option<f64>, InputError> {
+        match i.map(|i| self.text(i)) {
+            None | Some("") => Ok(None),
+            Some(_) => i.map(|i| self.real(i, field)).transpose(),
+        }
+    }
+}
+
+fn csv_error(file: &Path, e: &csv::Error) -> InputError {
+    InputError::Csv {
+        file: file.to_path_buf(),
+        line: e.position().map_or(0, |p| p.line()),
+        message: e.to_string(),
+    }
+}
