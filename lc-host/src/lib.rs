@@ -24,3 +24,4 @@
 pub mod counts;
 pub mod csvin;
 pub mod fieldlog;
+pub mod riglog;
