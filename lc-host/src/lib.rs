@@ -21,6 +21,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod calib;
 pub mod counts;
 pub mod csvin;
 pub mod fieldlog;

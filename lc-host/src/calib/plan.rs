@@ -1,0 +1,360 @@
+//! The calibration plan: what the product is and what a good unit looks
+//! like. A TOML file, documented in docs/calibration.md, with a commented
+//! example in `examples/data/demo-plan.toml`.
+
+use serde::Deserialize;
+use std::path::{Path, PathBuf};
+
+/// Which reader the calibrated units run.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Kind {
+    /// Inductive proximity.
+    Proximity,
+    /// Capacitive level.
+    Level,
+    /// Metal detection.
+    Metal,
+}
+
+/// The product and how to calibrate it.
+#[derive(Clone, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Product {
+    /// Reader kind.
+    pub kind: Kind,
+    /// Reference clock of the counter, Hz.
+    pub reference_hz: u32,
+    /// Reciprocal gate length in sensor cycles (0: none).
+    #[serde(default)]
+    pub gate_cycles: u32,
+    /// Plausible sensor band [min, max], Hz.
+    pub band_hz: [u32; 2],
+    /// Fewest sensor cycles per gate.
+    #[serde(default = "default_min_cycles")]
+    pub min_cycles: u32,
+    /// The rest point's and the drift model's reference temperature, °C.
+    #[serde(default = "default_reference_temp")]
+    pub reference_temp_c: f64,
+    /// Output resolution: one raw output unit in metres (1e-6: micrometres).
+    #[serde(default = "default_output_m")]
+    pub output_step_m: f64,
+    /// Curve nodes written into the image (2–64).
+    #[serde(default = "default_nodes")]
+    pub curve_nodes: usize,
+    /// Interior knots of the monotone fit.
+    #[serde(default = "default_knots")]
+    pub fit_knots: usize,
+}
+
+fn default_min_cycles() -> u32 {
+    64
+}
+fn default_reference_temp() -> f64 {
+    25.0
+}
+fn default_output_m() -> f64 {
+    1e-6
+}
+fn default_nodes() -> usize {
+    24
+}
+fn default_knots() -> usize {
+    6
+}
+
+/// Ring-down thresholds of the rig, as fractions of the first peak.
+#[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Ringdown {
+    /// Upper threshold.
+    pub upper: f64,
+    /// Lower threshold.
+    pub lower: f64,
+}
+
+/// Metal reader parameters written into the image.
+#[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Metal {
+    /// Enter threshold, ppm of shift.
+    pub enter_ppm: f64,
+    /// Leave threshold, ppm of shift.
+    pub leave_ppm: f64,
+    /// Readings beyond enter before "present".
+    pub enter_samples: u16,
+    /// Readings below leave before "absent".
+    pub leave_samples: u16,
+    /// Baseline EMA weight exponent (2^-k).
+    pub baseline_k: u8,
+    /// Ring-count drop that confirms a lossy target (0: none).
+    #[serde(default)]
+    pub ring_drop: u16,
+    /// Readings present before the baseline is re-learned (0: never).
+    #[serde(default)]
+    pub relearn_readings: u32,
+}
+
+/// A closed interval; either end may be omitted.
+#[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Range {
+    /// Lower limit.
+    pub min: Option<f64>,
+    /// Upper limit.
+    pub max: Option<f64>,
+}
+
+impl Range {
+    /// Whether v lies inside.
+    pub fn contains(&self, v: f64) -> bool {
+        self.min.is_none_or(|m| v >= m) && self.max.is_none_or(|m| v <= m)
+    }
+
+    /// "min … max" for messages.
+    pub fn describe(&self) -> String {
+        match (self.min, self.max) {
+            (Some(a), Some(b)) => format!("{a} … {b}"),
+            (Some(a), None) => format!("≥ {a}"),
+            (None, Some(b)) => format!("≤ {b}"),
+            (None, None) => "any".to_string(),
+        }
+    }
+}
+
+/// Sensitivity limit: |ds/dx| at a reference value.
+#[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Sensitivity {
+    /// Where, in millimetres of the reference value.
+    pub at_mm: f64,
+    /// Least |ds/dx|, shift per millimetre.
+    pub min_per_mm: f64,
+}
+
+/// Acceptance limits. Every limit is optional; a unit passes when every
+/// given limit holds.
+#[derive(Clone, Debug, Default, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Limits {
+    /// Rest frequency window, Hz.
+    pub rest_frequency_hz: Option<Range>,
+    /// Quality factor window (needs ring counts and `[ringdown]`).
+    pub q: Option<Range>,
+    /// Sensitivity at a reference value.
+    pub sensitivity: Option<Sensitivity>,
+    /// Largest |residual| at a rig point, output units (fixed-point path).
+    pub max_residual: Option<f64>,
+    /// Largest interpolation error of the written curve against the fit,
+    /// output units.
+    pub max_curve_error: Option<f64>,
+    /// First-order drift coefficient window, ppm per kelvin.
+    pub drift_ppm_per_k: Option<Range>,
+    /// Largest standard error of the drift coefficient, ppm per kelvin.
+    pub max_drift_sigma_ppm_per_k: Option<f64>,
+    /// Require the rig points' shifts to be monotone in the reference
+    /// value (beyond three quantisation steps of noise).
+    #[serde(default)]
+    pub monotonic: bool,
+    /// Fewest good rig steps.
+    pub min_steps: Option<usize>,
+    /// Most bad rows tolerated (default 0).
+    #[serde(default)]
+    pub max_bad_rows: usize,
+}
+
+/// The whole plan file.
+#[derive(Clone, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Plan {
+    /// The product.
+    pub product: Product,
+    /// Ring-down thresholds, when the rig records ring counts.
+    pub ringdown: Option<Ringdown>,
+    /// Metal parameters (metal kind).
+    pub metal: Option<Metal>,
+    /// Acceptance limits.
+    #[serde(default)]
+    pub limits: Limits,
+}
+
+/// Why a plan was refused.
+#[derive(Debug, thiserror::Error)]
+pub enum PlanError {
+    /// The file could not be read.
+    #[error("{file}: cannot read: {source}")]
+    Io {
+        /// File.
+        file: PathBuf,
+        /// Cause.
+        source: std::io::Error,
+    },
+    /// TOML syntax or an unknown / mistyped key (the message names it).
+    #[error("{file}: {message}")]
+    Syntax {
+        /// File.
+        file: PathBuf,
+        /// The parser's message, with line and column.
+        message: String,
+    },
+    /// A value is out of its range.
+    #[error("{file}: `{key}`: {problem}")]
+    Value {
+        /// File.
+        file: PathBuf,
+        /// The key.
+        key: &'static str,
+        /// What is wrong.
+        problem: String,
+    },
+}
+
+impl Plan {
+    /// Reads and checks a plan file.
+    pub fn load(path: &Path) -> Result<Self, PlanError> {
+        let text = std::fs::read_to_string(path).map_err(|source| PlanError::Io {
+            file: path.to_path_buf(),
+            source,
+        })?;
+        Self::parse(&text, path)
+    }
+
+    /// Parses and checks plan text; `file` names it in messages.
+    pub fn parse(text: &str, file: &Path) -> Result<Self, PlanError> {
+        let plan: Plan = toml::from_str(text).map_err(|e| PlanError::Syntax {
+            file: file.to_path_buf(),
+            message: e.to_string(),
+        })?;
+        let bad = |key: &'static str, problem: String| {
+            Err(PlanError::Value {
+                file: file.to_path_buf(),
+                key,
+                problem,
+            })
+        };
+        let p = &plan.product;
+        if p.reference_hz == 0 {
+            return bad("product.reference_hz", "must be at least 1 Hz".into());
+        }
+        if p.band_hz[0] > p.band_hz[1] {
+            return bad(
+                "product.band_hz",
+                format!(
+                    "lower edge {} Hz is above upper edge {} Hz",
+                    p.band_hz[0], p.band_hz[1]
+                ),
+            );
+        }
+        if !(2..=lc_core::curve::MAX_NODES).contains(&p.curve_nodes) {
+            return bad(
+                "product.curve_nodes",
+                format!("{} is outside 2 … 64", p.curve_nodes),
+            );
+        }
+        if !(1..=20).contains(&p.fit_knots) {
+            return bad(
+                "product.fit_knots",
+                format!("{} is outside 1 … 20", p.fit_knots),
+            );
+        }
+        if !(p.output_step_m > 0.0 && p.output_step_m <= 1.0) {
+            return bad(
+                "product.output_step_m",
+                format!("{} is not a positive step up to 1 m", p.output_step_m),
+            );
+        }
+        if !(-100.0..=300.0).contains(&p.reference_temp_c) {
+            return bad(
+                "product.reference_temp_c",
+                "must lie in -100 … 300 °C".into(),
+            );
+        }
+        if let Some(r) = plan.ringdown {
+            if !(r.upper > r.lower && r.lower > 0.0) {
+                return bad(
+                    "ringdown",
+                    format!("need upper > lower > 0, got {} and {}", r.upper, r.lower),
+                );
+            }
+        }
+        match (p.kind, &plan.metal) {
+            (Kind::Metal, None) => {
+                return bad("metal", "a metal product needs a [metal] table".into())
+            }
+            (Kind::Metal, Some(m)) if !(m.enter_ppm > m.leave_ppm && m.leave_ppm >= 0.0) => {
+                return bad(
+                    "metal.enter_ppm",
+                    "enter must exceed leave, and leave be 0 or more".into(),
+                )
+            }
+            (Kind::Metal, Some(m)) if !(1..=16).contains(&m.baseline_k) => {
+                return bad(
+                    "metal.baseline_k",
+                    format!("{} is outside 1 … 16", m.baseline_k),
+                )
+            }
+            (Kind::Metal, Some(m)) if m.enter_samples == 0 || m.leave_samples == 0 => {
+                return bad(
+                    "metal.enter_samples",
+                    "debounce counts must be at least 1".into(),
+                )
+            }
+            (Kind::Proximity | Kind::Level, Some(_)) => {
+                return bad("metal", "only a metal product takes a [metal] table".into())
+            }
+            _ => {}
+        }
+        Ok(plan)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const GOOD: &str = r#"
+[product]
+kind = "proximity"
+reference_hz = 48_000_000
+gate_cycles = 16_384
+band_hz = [1_000_000, 20_000_000]
+
+[limits]
+rest_frequency_hz = { min = 5.3e6, max = 5.95e6 }
+max_residual = 15.0
+monotonic = true
+"#;
+
+    #[test]
+    fn parses_with_defaults() {
+        let p = Plan::parse(GOOD, Path::new("plan.toml")).unwrap();
+        assert_eq!(p.product.kind, Kind::Proximity);
+        assert_eq!(p.product.curve_nodes, 24);
+        assert_eq!(p.product.reference_temp_c, 25.0);
+        assert!(p.limits.rest_frequency_hz.unwrap().contains(5.6e6));
+        assert!(!p.limits.rest_frequency_hz.unwrap().contains(6.0e6));
+        assert!(p.limits.monotonic);
+    }
+
+    #[test]
+    fn errors_name_the_key() {
+        let e = Plan::parse(
+            &GOOD.replace("band_hz = [1_000_000, 20_000_000]", "band_hz = [2, 1]"),
+            Path::new("p.toml"),
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("`product.band_hz`"), "{e}");
+        let e =
+            Plan::parse(&GOOD.replace("monotonic", "monotone"), Path::new("p.toml")).unwrap_err();
+        assert!(
+            e.to_string().contains("monotone") && e.to_string().contains("p.toml"),
+            "{e}"
+        );
+        let e = Plan::parse(
+            &GOOD.replace("\"proximity\"", "\"metal\""),
+            Path::new("p.toml"),
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("[metal]"), "{e}");
+    }
+}
