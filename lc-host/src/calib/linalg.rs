@@ -286,10 +286,10 @@ mod tests {
             let x = nnls(&a, &b).unwrap();
             let ax = a.mul_vec(&x);
             let res: Vec<f64> = b.iter().zip(&ax).map(|(p, q)| p - q).collect();
-            for c in 0..cols {
-                prop_assert!(x[c] >= 0.0);
+            for (c, &xc) in x.iter().enumerate() {
+                prop_assert!(xc >= 0.0);
                 let g: f64 = (0..rows).map(|r| a.get(r, c) * res[r]).sum();
-                if x[c] > 0.0 { prop_assert!(g.abs() < 1e-9, "g {}", g); } else { prop_assert!(g < 1e-9, "g {}", g); }
+                if xc > 0.0 { prop_assert!(g.abs() < 1e-9, "g {}", g); } else { prop_assert!(g < 1e-9, "g {}", g); }
             }
         }
     }
