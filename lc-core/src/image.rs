@@ -362,7 +362,9 @@ pub struct Calibration {
     pub output: OutputScale,
     /// Shift → value table (proximity, level).
     pub curve: Option<Table>,
-    /// Level → volume table and its scale (level only).
+    /// Level → volume table and its scale (level only). Its x axis is the
+    /// level in the curve's output units as `geometry::level_to_shift`
+    /// (level · 2^32 in the Q23.40 field).
     pub volume: Option<(Table, OutputScale)>,
     /// Metal parameters (metal only).
     pub metal: Option<MetalParams>,

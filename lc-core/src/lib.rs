@@ -26,7 +26,9 @@
 //! 6. [`filter`] and [`detector`]: median and exponential moving average in
 //!    fixed point, and a hysteresis-and-debounce detector.
 //! 7. [`reader`]: the stages composed per product (proximity, level, metal)
-//!    into a value with its status, built from a calibration [`image`].
+//!    into a value with its status, built from a calibration [`image`];
+//!    [`geometry`] turns a level into a volume (tank shapes, strapping
+//!    tables) and sizes level probes.
 //!
 //! 8. [`scanner`]: several channels behind a multiplexer (embedded-hal
 //!    1.0): select, settle, count, check, round-robin.
@@ -78,6 +80,7 @@ pub mod detector;
 pub mod drift;
 pub mod filter;
 pub mod fixed;
+pub mod geometry;
 pub mod image;
 pub mod ratio;
 pub mod reader;

@@ -5,6 +5,7 @@ use crate::counting::{FaultWindow, Gating};
 use crate::curve::{Curve, CurveStatus};
 use crate::drift::TemperatureModel;
 use crate::fixed::div_q40;
+use crate::geometry::VolumeTable;
 use crate::image::Calibration;
 use crate::shift::{Shift, ShiftConverter};
 
@@ -30,7 +31,7 @@ pub struct LevelReader {
     front: Front,
     reference: Option<(ShiftConverter, FaultWindow, TemperatureModel)>,
     curve: Curve,
-    volume: Option<Curve>,
+    volume: Option<VolumeTable>,
 }
 
 impl LevelReader {
@@ -43,7 +44,11 @@ impl LevelReader {
             .curve()
             .map_err(ReaderError::Curve)?;
         let volume = match cal.volume {
-            Some((t, _)) => Some(t.curve().map_err(ReaderError::Curve)?),
+            Some((t, _)) => Some(
+                t.curve()
+                    .and_then(VolumeTable::from_curve)
+                    .map_err(ReaderError::Curve)?,
+            ),
             None => None,
         };
         let gate = if cal.gate_cycles > 0 {
@@ -102,10 +107,7 @@ impl LevelReader {
             CurveStatus::BelowRange => Status::BelowRange,
             CurveStatus::AboveRange => Status::AboveRange,
         };
-        let secondary = self
-            .volume
-            .as_ref()
-            .map(|vol| vol.eval(Shift::from_raw_q40(i64::from(v.value))).value);
+        let secondary = self.volume.as_ref().map(|vol| vol.volume(v.value).value);
         Reading {
             value: v.value,
             secondary,
@@ -130,12 +132,7 @@ impl LevelReader {
             _ => s,
         };
         let level = self.curve.eval_f64(x);
-        // The volume table's x is the level in raw units, carried as a
-        // Q23.40 raw value: in f64 shift units that is level · 2^-40.
-        let volume = self
-            .volume
-            .as_ref()
-            .map(|v| v.eval_f64(level / 1_099_511_627_776.0));
+        let volume = self.volume.as_ref().map(|v| v.volume_f64(level));
         (level, volume)
     }
 }

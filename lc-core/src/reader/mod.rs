@@ -362,32 +362,26 @@ pub(crate) mod tests {
                 Some(RestPoint::from_counts(CountPair::new(16_384, 150_000)).unwrap());
         }
         if volume {
-            // A horizontal cylinder of 400 mm diameter and 1 m length,
-            // sampled as a monotone cubic strapping table in litres·1000:
-            // level 0 … 1000.0 mm here spans 2.5 diameters, so scale: the
-            // table maps 0.1 mm units to mL over 0…4000 (0…400 mm).
-            let r_m: f64 = 0.2;
-            let xs: Vec<f64> = (0..=16)
-                .map(|i| {
-                    4_000.0 * (1.0 - libm::cos(core::f64::consts::PI * f64::from(i) / 16.0)) / 2.0
-                })
-                .collect();
-            let vol = |h_m: f64| {
-                let a = r_m * r_m * libm::acos((r_m - h_m) / r_m)
-                    - (r_m - h_m) * libm::sqrt(2.0 * r_m * h_m - h_m * h_m);
-                a * 1.0 * 1e6 // m³ → mL
+            // The coolant tank of the demo scenario: a horizontal cylinder
+            // of 400 mm diameter, 1 m long; level in 0.1 mm, volume in mL.
+            let shape = crate::geometry::TankShape::HorizontalCylinder {
+                radius_m: 0.2,
+                length_m: 1.0,
             };
-            let ys: Vec<f64> = xs.iter().map(|&x| vol(x * 1e-4).round()).collect();
-            let xs_shift: Vec<f64> = xs
-                .iter()
-                .map(|&x| x.round() / 1_099_511_627_776.0)
+            let table = crate::geometry::VolumeTable::sample(
+                &shape,
+                1e4,
+                1e6,
+                32,
+                crate::curve::Interpolation::MonotoneCubic,
+            )
+            .unwrap();
+            let nodes: Vec<Node> = (0..table.len())
+                .map(|i| table.curve().node(i).unwrap())
                 .collect();
-            let d = pchip_derivatives(&xs_shift, &ys).unwrap();
-            let nodes: Vec<Node> = xs
-                .iter()
-                .zip(&ys)
-                .map(|(&x, &y)| Node::new(Shift::from_raw_q40(x.round() as i64), y as i32))
-                .collect();
+            let xs: Vec<f64> = nodes.iter().map(|n| n.shift.to_f64()).collect();
+            let ys: Vec<f64> = nodes.iter().map(|n| f64::from(n.value)).collect();
+            let d = pchip_derivatives(&xs, &ys).unwrap();
             let dq: Vec<i64> = d[..nodes.len()]
                 .iter()
                 .map(|v| (v * 65_536.0).round() as i64)
