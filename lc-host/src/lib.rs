@@ -26,3 +26,4 @@ pub mod counts;
 pub mod csvin;
 pub mod fieldlog;
 pub mod riglog;
+pub mod sim;

@@ -144,13 +144,22 @@ impl<R: Read> RigLogReader<R> {
 
 fn parse(row: &Row<'_>, c: Columns) -> Result<RigRow, InputError> {
     let serial = row.text(c.serial);
-    if serial.is_empty() || serial.len() > 16 || !serial.bytes().all(|b| (0x21..=0x7E).contains(&b)) {
-        return Err(row.error("serial", serial, "expected 1 to 16 printable characters without spaces"));
+    if serial.is_empty() || serial.len() > 16 || !serial.bytes().all(|b| (0x21..=0x7E).contains(&b))
+    {
+        return Err(row.error(
+            "serial",
+            serial,
+            "expected 1 to 16 printable characters without spaces",
+        ));
     }
     let step = row.count(c.step, "step")?;
     let temp_c = row.real(c.temp_c, "temp_c")?;
     if !(-100.0..=300.0).contains(&temp_c) {
-        return Err(row.error("temp_c", row.text(c.temp_c), "expected a temperature from -100 to 300 °C"));
+        return Err(row.error(
+            "temp_c",
+            row.text(c.temp_c),
+            "expected a temperature from -100 to 300 °C",
+        ));
     }
     let unit = row.text(c.target_unit);
     let scale = match unit {
@@ -164,21 +173,46 @@ fn parse(row: &Row<'_>, c: Columns) -> Result<RigRow, InputError> {
         _ => {
             let v = row.real(c.target, "target")?;
             if v < 0.0 {
-                return Err(row.error("target", row.text(c.target), "expected a distance or level of 0 or more, or none"));
+                return Err(row.error(
+                    "target",
+                    row.text(c.target),
+                    "expected a distance or level of 0 or more, or none",
+                ));
             }
             Some(v * scale)
         }
     };
     let pair = CountPair::new(row.count(c.cycles, "cycles")?, row.count(c.ticks, "ticks")?);
     let ring_count = match row.count_opt(c.ring_count, "ring_count")? {
-        Some(v) => Some(u16::try_from(v).map_err(|_| row.error("ring_count", row.text(c.ring_count.unwrap_or(0)), "expected a ring count from 0 to 65535"))?),
+        Some(v) => Some(u16::try_from(v).map_err(|_| {
+            row.error(
+                "ring_count",
+                row.text(c.ring_count.unwrap_or(0)),
+                "expected a ring count from 0 to 65535",
+            )
+        })?),
         None => None,
     };
-    let companion = match (row.count_opt(c.comp_cycles, "comp_cycles")?, row.count_opt(c.comp_ticks, "comp_ticks")?) {
+    let companion = match (
+        row.count_opt(c.comp_cycles, "comp_cycles")?,
+        row.count_opt(c.comp_ticks, "comp_ticks")?,
+    ) {
         (Some(cc), Some(ct)) => Some(CountPair::new(cc, ct)),
         (None, None) => None,
-        (Some(_), None) => return Err(row.error("comp_ticks", "", "comp_cycles is given, so comp_ticks is needed too")),
-        (None, Some(_)) => return Err(row.error("comp_cycles", "", "comp_ticks is given, so comp_cycles is needed too")),
+        (Some(_), None) => {
+            return Err(row.error(
+                "comp_ticks",
+                "",
+                "comp_cycles is given, so comp_ticks is needed too",
+            ))
+        }
+        (None, Some(_)) => {
+            return Err(row.error(
+                "comp_cycles",
+                "",
+                "comp_ticks is given, so comp_cycles is needed too",
+            ))
+        }
     };
     Ok(RigRow {
         line: row.line(),
@@ -220,7 +254,11 @@ impl<R: Read> Iterator for RigLogReader<R> {
             }
         }
         if !self.done.insert(unit.serial.clone()) {
-            let at = unit.rows.first().map(|r| r.line).or_else(|| unit.errors.first().and_then(InputError::line));
+            let at = unit
+                .rows
+                .first()
+                .map(|r| r.line)
+                .or_else(|| unit.errors.first().and_then(InputError::line));
             unit.errors.push(InputError::BadField {
                 file: self.input.file().to_path_buf(),
                 line: at.unwrap_or(0),
@@ -241,7 +279,9 @@ mod tests {
     const HEAD: &str = "serial,step,temp_c,target,target_unit,cycles,ticks,ring_count\n";
 
     fn units(text: &str) -> Vec<UnitLog> {
-        RigLogReader::new(text.as_bytes(), Path::new("rig.csv")).unwrap().collect()
+        RigLogReader::new(text.as_bytes(), Path::new("rig.csv"))
+            .unwrap()
+            .collect()
     }
 
     #[test]
@@ -251,7 +291,10 @@ mod tests {
         );
         let u = units(&text);
         assert_eq!(u.len(), 2);
-        assert_eq!((u[0].serial.as_str(), u[0].rows.len(), u[0].errors.len()), ("A1", 2, 0));
+        assert_eq!(
+            (u[0].serial.as_str(), u[0].rows.len(), u[0].errors.len()),
+            ("A1", 2, 0)
+        );
         assert_eq!(u[0].rows[0].target_m, None);
         assert_eq!(u[0].rows[0].ring_count, Some(20));
         assert!((u[0].rows[1].target_m.unwrap() - 5e-4).abs() < 1e-15);
@@ -269,20 +312,34 @@ mod tests {
         assert_eq!(u.len(), 4);
         let msgs: Vec<String> = u[0].errors.iter().map(ToString::to_string).collect();
         assert_eq!(msgs.len(), 2);
-        assert!(msgs[0].contains("rig.csv: line 3: field `target_unit`"), "{msgs:?}");
+        assert!(
+            msgs[0].contains("rig.csv: line 3: field `target_unit`"),
+            "{msgs:?}"
+        );
         assert!(msgs[1].contains("line 4: field `target`"), "{msgs:?}");
-        assert!(u[1].errors[0].to_string().contains("line 6: field `temp_c`"));
+        assert!(u[1].errors[0]
+            .to_string()
+            .contains("line 6: field `temp_c`"));
         assert!(u[2].errors[0].to_string().contains("line 7: field `ticks`"));
         // A1 again after other units: an error of its second block.
         assert_eq!(u[3].serial, "A1");
-        assert!(u[3].errors.iter().any(|e| e.to_string().contains("appeared earlier")), "{:?}", u[3].errors);
+        assert!(
+            u[3].errors
+                .iter()
+                .any(|e| e.to_string().contains("appeared earlier")),
+            "{:?}",
+            u[3].errors
+        );
     }
 
     #[test]
     fn companion_columns_go_together() {
         let text = "serial,step,temp_c,target,target_unit,cycles,ticks,comp_cycles,comp_ticks\nB,1,25,none,mm,16384,139542,16384,150000\nB,2,25,1,mm,16384,139000,16384,\n";
         let u = units(text);
-        assert_eq!(u[0].rows[0].companion, Some(CountPair::new(16_384, 150_000)));
+        assert_eq!(
+            u[0].rows[0].companion,
+            Some(CountPair::new(16_384, 150_000))
+        );
         assert!(u[0].errors[0].to_string().contains("comp_ticks"));
         let e = RigLogReader::new("serial,step\n".as_bytes(), Path::new("r.csv")).unwrap_err();
         assert!(e.to_string().contains("no `temp_c` column"), "{e}");

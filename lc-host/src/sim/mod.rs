@@ -1,0 +1,7 @@
+//! Simulation: rig logs and field logs from the project's own physics
+//! model, seeded and reproducible, for demos and tests.
+
+pub mod rig;
+mod rng;
+
+pub use rng::Rng;
