@@ -23,7 +23,7 @@ fn demo_log_converts_exactly_as_lc_core() {
     let mut ok = 0;
     for row in FieldLogReader::new(file, &path).expect("header") {
         let row = row.expect("demo rows parse");
-        let pair = CountPair::new(row.cycles, row.ticks);
+        let pair = row.pair().expect("the demo log has count pairs");
         let h = host.convert(pair);
         if h.status != RowStatus::Ok {
             continue;

@@ -163,6 +163,12 @@ pub enum RunError {
     /// A bad input row, with `--on-bad-row stop`.
     #[error(transparent)]
     Log(#[from] LogError),
+    /// `counts` needs count pairs; the log has frequencies.
+    #[error("line {line}: this log has frequencies, not count pairs; use `lc-host convert` with a calibration image")]
+    NeedsCounts {
+        /// Line.
+        line: u64,
+    },
     /// Writing the output failed.
     #[error("cannot write output: {0}")]
     Write(#[from] std::io::Error),
@@ -208,7 +214,10 @@ pub fn convert_log<R: Read, W: Write>(
             }
             Err(e) => return Err(e.into()),
         };
-        let c = cfg.convert(CountPair::new(row.cycles, row.ticks));
+        let Some(pair) = row.pair() else {
+            return Err(RunError::NeedsCounts { line: row.line });
+        };
+        let c = cfg.convert(pair);
         summary.rows += 1;
         if c.status == RowStatus::Ok {
             summary.ok += 1;
@@ -221,8 +230,8 @@ pub fn convert_log<R: Read, W: Write>(
             row.line,
             opt(row.time_s),
             opt(row.channel),
-            row.cycles,
-            row.ticks,
+            pair.cycles,
+            pair.ticks,
             c.status.name(),
             fixed(c.frequency_hz, 6),
             fixed(c.period_ratio, 12),

@@ -1,15 +1,28 @@
 //! Field logs: one CSV row per gate, as logged from a unit in the field.
 //!
-//! Format (docs/formats.md): a header row, then one row per reading.
-//! Required columns `cycles` and `ticks` (unsigned 32-bit counts); optional
-//! `time_s` (seconds, decimal), `channel` (0–255) and `temp_c` (degrees
-//! Celsius, decimal). Column order is free; unknown columns are ignored.
-//! Empty optional fields are allowed. Lines are counted from 1 (the header).
+//! Format (docs/formats.md): a header row, then one row per reading. Either
+//! the count pair, columns `cycles` and `ticks` (unsigned 32-bit counts),
+//! or a measured frequency, column `frequency_hz`. Optional: `time_s`
+//! (seconds), `channel` (0–255), `temp_c` (°C), `ring_count`, and the
+//! companion channel's `comp_cycles` and `comp_ticks`. Column order is
+//! free; unknown columns are ignored; empty optional fields are allowed.
+//! Lines are counted from 1 (the header).
 
 pub use crate::csvin::InputError as LogError;
 use crate::csvin::{CsvInput, Row};
+use lc_core::counting::CountPair;
 use std::io::Read;
 use std::path::Path;
+
+/// What a row measured.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Measurement {
+    /// A count pair.
+    Counts(CountPair),
+    /// A frequency in hertz (from another instrument or a log that kept
+    /// only frequencies).
+    FrequencyHz(f64),
+}
 
 /// One parsed field-log row.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -20,21 +33,41 @@ pub struct FieldRow {
     pub time_s: Option<f64>,
     /// Sensor channel, if logged.
     pub channel: Option<u8>,
-    /// Sensor cycles in the gate.
-    pub cycles: u32,
-    /// Reference ticks in the gate.
-    pub ticks: u32,
+    /// The measurement.
+    pub measurement: Measurement,
     /// Temperature in degrees Celsius, if logged.
     pub temp_c: Option<f64>,
+    /// Ring count, if logged.
+    pub ring_count: Option<u16>,
+    /// The companion channel's count pair, if logged.
+    pub companion: Option<CountPair>,
+}
+
+impl FieldRow {
+    /// The count pair, when the row logged one.
+    pub fn pair(&self) -> Option<CountPair> {
+        match self.measurement {
+            Measurement::Counts(p) => Some(p),
+            Measurement::FrequencyHz(_) => None,
+        }
+    }
+}
+
+#[derive(Clone, Copy, Debug)]
+enum Source {
+    Counts { cycles: usize, ticks: usize },
+    Frequency(usize),
 }
 
 #[derive(Clone, Copy, Debug)]
 struct Columns {
     time_s: Option<usize>,
     channel: Option<usize>,
-    cycles: usize,
-    ticks: usize,
+    source: Source,
     temp_c: Option<usize>,
+    ring_count: Option<usize>,
+    comp_cycles: Option<usize>,
+    comp_ticks: Option<usize>,
 }
 
 /// Streaming reader of field-log rows; memory stays constant whatever the
@@ -45,19 +78,29 @@ pub struct FieldLogReader<R: Read> {
     columns: Columns,
 }
 
-const HINT: &str = "a field log needs `cycles` and `ticks` (see docs/formats.md)";
+const HINT: &str =
+    "a field log needs `cycles` and `ticks`, or `frequency_hz` (see docs/formats.md)";
 
 impl<R: Read> FieldLogReader<R> {
     /// Reads the header of `input`; `file` names it in messages (`-` for
     /// standard input).
     pub fn new(input: R, file: &Path) -> Result<Self, LogError> {
         let input = CsvInput::new(input, file)?;
+        let source = match (input.column("frequency_hz"), input.column("cycles")) {
+            (Some(f), None) => Source::Frequency(f),
+            _ => Source::Counts {
+                cycles: input.require("cycles", HINT)?,
+                ticks: input.require("ticks", HINT)?,
+            },
+        };
         let columns = Columns {
             time_s: input.column("time_s"),
             channel: input.column("channel"),
-            cycles: input.require("cycles", HINT)?,
-            ticks: input.require("ticks", HINT)?,
+            source,
             temp_c: input.column("temp_c"),
+            ring_count: input.column("ring_count"),
+            comp_cycles: input.column("comp_cycles"),
+            comp_ticks: input.column("comp_ticks"),
         };
         Ok(Self { input, columns })
     }
@@ -71,13 +114,49 @@ fn parse(row: &Row<'_>, c: Columns) -> Result<FieldRow, LogError> {
                 .map_err(|_| row.error("channel", s, "expected a channel number from 0 to 255"))?,
         ),
     };
+    let measurement = match c.source {
+        Source::Counts { cycles, ticks } => Measurement::Counts(CountPair::new(
+            row.count(cycles, "cycles")?,
+            row.count(ticks, "ticks")?,
+        )),
+        Source::Frequency(i) => {
+            let f = row.real(i, "frequency_hz")?;
+            if f < 0.0 {
+                return Err(row.error(
+                    "frequency_hz",
+                    row.text(i),
+                    "expected a frequency of 0 Hz or more",
+                ));
+            }
+            Measurement::FrequencyHz(f)
+        }
+    };
+    let ring_count = match row.count_opt(c.ring_count, "ring_count")? {
+        Some(v) => Some(u16::try_from(v).map_err(|_| {
+            row.error(
+                "ring_count",
+                &v.to_string(),
+                "expected a ring count from 0 to 65535",
+            )
+        })?),
+        None => None,
+    };
+    let companion = match (
+        row.count_opt(c.comp_cycles, "comp_cycles")?,
+        row.count_opt(c.comp_ticks, "comp_ticks")?,
+    ) {
+        (Some(a), Some(b)) => Some(CountPair::new(a, b)),
+        (None, None) => None,
+        _ => return Err(row.error("comp_ticks", "", "comp_cycles and comp_ticks go together")),
+    };
     Ok(FieldRow {
         line: row.line(),
         time_s: row.real_opt(c.time_s, "time_s")?,
         channel,
-        cycles: row.count(c.cycles, "cycles")?,
-        ticks: row.count(c.ticks, "ticks")?,
+        measurement,
         temp_c: row.real_opt(c.temp_c, "temp_c")?,
+        ring_count,
+        companion,
     })
 }
 
@@ -103,7 +182,10 @@ mod tests {
     fn parses_rows_in_any_column_order() {
         let rows = read("ticks,cycles,time_s,temp_c\n19275,4096,0.5,25.0\n19180,4096,,\n").unwrap();
         let first = rows[0].as_ref().unwrap();
-        assert_eq!((first.line, first.cycles, first.ticks), (2, 4096, 19_275));
+        assert_eq!(
+            (first.line, first.pair()),
+            (2, Some(CountPair::new(4096, 19_275)))
+        );
         assert_eq!(
             (first.time_s, first.temp_c, first.channel),
             (Some(0.5), Some(25.0), None)
@@ -125,6 +207,16 @@ mod tests {
         assert!(e.contains("line 4: field `channel`"), "{e}");
         let e = read("cycles,count\n1,2\n").unwrap_err().to_string();
         assert!(e.contains("no `ticks` column"), "{e}");
+        let rows = read("time_s,frequency_hz\n0,5635789.8\n1,-3\n").unwrap();
+        assert_eq!(
+            rows[0].as_ref().unwrap().measurement,
+            Measurement::FrequencyHz(5_635_789.8)
+        );
+        assert!(rows[1]
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("field `frequency_hz`"));
     }
 
     proptest! {
@@ -154,7 +246,7 @@ mod tests {
             prop_assert_eq!(back.len(), rows.len());
             for ((c, t, ch, temp), r) in rows.iter().zip(back) {
                 let r = r.unwrap();
-                prop_assert_eq!((r.cycles, r.ticks, r.channel, r.temp_c), (*c, *t, Some(*ch), Some(*temp)));
+                prop_assert_eq!((r.pair(), r.channel, r.temp_c), (Some(CountPair::new(*c, *t)), Some(*ch), Some(*temp)));
             }
         }
     }
