@@ -2,7 +2,9 @@
 //! through `lc-core`'s own fixed-point path (the firmware's arithmetic),
 //! with the `f64` reference beside it on request.
 
-use crate::fieldlog::{FieldLogReader, FieldRow, LogError};
+use crate::fieldlog::FieldLogReader;
+use crate::stream::{fixed, opt, stream_log};
+pub use crate::stream::{OnBadRow, RunError, Summary};
 use lc_core::counting::{CountPair, FaultError, FaultWindow, Gating};
 use lc_core::ratio::{frequency, period_ratio};
 use lc_core::shift::{RestPoint, ShiftConverter, ShiftError};
@@ -133,58 +135,9 @@ impl CountsConfig {
     }
 }
 
-/// What to do with a row that does not parse.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum OnBadRow {
-    /// Stop at the first bad row with its error.
-    Stop,
-    /// Skip it, count it, and report it in the summary.
-    Skip,
-}
-
-/// Totals of one conversion run.
-#[derive(Clone, Debug, Default, PartialEq)]
-pub struct Summary {
-    /// Rows converted (any status).
-    pub rows: u64,
-    /// Rows with status `ok`.
-    pub ok: u64,
-    /// Rows rejected by the fault window or the shift range.
-    pub faults: u64,
-    /// Rows that did not parse and were skipped.
-    pub skipped: u64,
-    /// The first skipped row's message, for the summary line.
-    pub first_skip: Option<String>,
-}
-
-/// Errors of a conversion run.
-#[derive(Debug, thiserror::Error)]
-pub enum RunError {
-    /// A bad input row, with `--on-bad-row stop`.
-    #[error(transparent)]
-    Log(#[from] LogError),
-    /// `counts` needs count pairs; the log has frequencies.
-    #[error("line {line}: this log has frequencies, not count pairs; use `lc-host convert` with a calibration image")]
-    NeedsCounts {
-        /// Line.
-        line: u64,
-    },
-    /// Writing the output failed.
-    #[error("cannot write output: {0}")]
-    Write(#[from] std::io::Error),
-}
-
 /// The CSV header written by [`convert_log`].
 pub const OUTPUT_HEADER: &str =
     "line,time_s,channel,cycles,ticks,status,frequency_hz,period_ratio,shift_q40,shift_ppm,step_ppm";
-
-fn opt<T: std::fmt::Display>(v: Option<T>) -> String {
-    v.map_or_else(String::new, |v| v.to_string())
-}
-
-fn fixed(v: Option<f64>, decimals: usize) -> String {
-    v.map_or_else(String::new, |v| format!("{v:.decimals$}"))
-}
 
 /// Streams a field log through [`CountsConfig::convert`] into CSV. With
 /// `with_f64`, two columns more: the `f64` reference shift and the
@@ -192,38 +145,22 @@ fn fixed(v: Option<f64>, decimals: usize) -> String {
 /// number of input lines read so far, every 65 536 rows.
 pub fn convert_log<R: Read, W: Write>(
     reader: FieldLogReader<R>,
-    mut out: W,
+    out: W,
     cfg: &CountsConfig,
     on_bad_row: OnBadRow,
     with_f64: bool,
-    mut progress: impl FnMut(u64),
+    progress: impl FnMut(u64),
 ) -> Result<Summary, RunError> {
-    let mut summary = Summary::default();
-    write!(out, "{OUTPUT_HEADER}")?;
-    if with_f64 {
-        write!(out, ",shift_ppm_f64,diff_ppm")?;
-    }
-    writeln!(out)?;
-    for item in reader {
-        let row: FieldRow = match item {
-            Ok(r) => r,
-            Err(e) if on_bad_row == OnBadRow::Skip => {
-                summary.skipped += 1;
-                summary.first_skip.get_or_insert_with(|| e.to_string());
-                continue;
-            }
-            Err(e) => return Err(e.into()),
-        };
+    let header = if with_f64 {
+        format!("{OUTPUT_HEADER},shift_ppm_f64,diff_ppm")
+    } else {
+        OUTPUT_HEADER.to_string()
+    };
+    stream_log(reader, out, &header, on_bad_row, progress, |row, out| {
         let Some(pair) = row.pair() else {
             return Err(RunError::NeedsCounts { line: row.line });
         };
         let c = cfg.convert(pair);
-        summary.rows += 1;
-        if c.status == RowStatus::Ok {
-            summary.ok += 1;
-        } else {
-            summary.faults += 1;
-        }
         write!(
             out,
             "{},{},{},{},{},{},{},{},{},{},{}",
@@ -248,13 +185,8 @@ pub fn convert_log<R: Read, W: Write>(
                 opt(diff.map(|d| format!("{d:.3e}")))
             )?;
         }
-        writeln!(out)?;
-        if summary.rows % 65_536 == 0 {
-            progress(row.line);
-        }
-    }
-    out.flush()?;
-    Ok(summary)
+        Ok(c.status == RowStatus::Ok)
+    })
 }
 
 #[cfg(test)]

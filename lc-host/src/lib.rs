@@ -21,9 +21,12 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod atomic;
 pub mod calib;
+pub mod convert;
 pub mod counts;
 pub mod csvin;
 pub mod fieldlog;
 pub mod riglog;
 pub mod sim;
+pub mod stream;

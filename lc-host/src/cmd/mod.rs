@@ -1,0 +1,97 @@
+//! The subcommands, and what they share: inputs, outputs, progress.
+
+pub mod convert;
+pub mod counts;
+pub mod inspect;
+
+use anyhow::{Context, Result};
+use lc_host::atomic::write_atomically;
+use std::io::{BufReader, IsTerminal, Read, Write};
+use std::path::Path;
+
+/// Opens a file, or standard input for `-`.
+pub fn open_input(path: &Path, what: &str) -> Result<Box<dyn Read>> {
+    Ok(if path.as_os_str() == "-" {
+        Box::new(BufReader::with_capacity(1 << 16, std::io::stdin().lock()))
+    } else {
+        let f = std::fs::File::open(path)
+            .with_context(|| format!("cannot open {what} {}", path.display()))?;
+        Box::new(BufReader::with_capacity(1 << 16, f))
+    })
+}
+
+/// Runs `body` on the output: a file written atomically, or standard output
+/// when the path is absent or `-`.
+pub fn with_output<T>(
+    path: Option<&Path>,
+    body: impl FnOnce(&mut dyn Write) -> Result<T>,
+) -> Result<T> {
+    match path {
+        Some(p) if p.as_os_str() != "-" => write_atomically(p, |w| body(w).map_err(AnyError))
+            .map_err(|e| match e {
+                lc_host::atomic::AtomicError::Body(AnyError(inner)) => inner,
+                other => anyhow::Error::new(other),
+            }),
+        _ => {
+            let mut out = std::io::BufWriter::with_capacity(1 << 16, std::io::stdout().lock());
+            let v = body(&mut out)?;
+            out.flush()?;
+            Ok(v)
+        }
+    }
+}
+
+/// `anyhow::Error` as a `std::error::Error`, to pass through the atomic
+/// writer.
+#[derive(Debug)]
+pub struct AnyError(pub anyhow::Error);
+
+impl std::fmt::Display for AnyError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{:#}", self.0)
+    }
+}
+
+impl std::error::Error for AnyError {}
+
+/// A spinner with a rate on a terminal, hidden otherwise.
+pub fn spinner(template: &str) -> indicatif::ProgressBar {
+    if std::io::stderr().is_terminal() {
+        let b = indicatif::ProgressBar::new_spinner();
+        b.set_style(
+            indicatif::ProgressStyle::with_template(template)
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_spinner()),
+        );
+        b
+    } else {
+        indicatif::ProgressBar::hidden()
+    }
+}
+
+/// Parses `A:B` into two values.
+pub fn parse_pair<T: std::str::FromStr>(s: &str, example: &str) -> Result<(T, T), String> {
+    let (a, b) = s
+        .split_once(':')
+        .ok_or_else(|| format!("expected two values separated by ':', for example {example}"))?;
+    let a = a
+        .trim()
+        .parse()
+        .map_err(|_| format!("{a:?} is not a whole number"))?;
+    let b = b
+        .trim()
+        .parse()
+        .map_err(|_| format!("{b:?} is not a whole number"))?;
+    Ok((a, b))
+}
+
+/// Loads and validates a calibration image file.
+pub fn load_image(path: &Path) -> Result<lc_core::image::Calibration> {
+    let bytes = std::fs::read(path)
+        .with_context(|| format!("cannot read calibration image {}", path.display()))?;
+    lc_core::image::Calibration::parse(&bytes).map_err(|e| {
+        anyhow::anyhow!(
+            "{}: not a valid calibration image: {e} (format: docs/image-format.md; `lc-host units export` writes one from the database)",
+            path.display()
+        )
+    })
+}
