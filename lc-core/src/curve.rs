@@ -420,6 +420,31 @@ impl Curve {
         }
     }
 
+    /// The stated error bound of [`Curve::eval`] at `s` against
+    /// [`Curve::eval_f64`], in output units: 0.5 + 2^-28·(|Δy| + |D0| + |D1|)
+    /// with the terms of the segment holding `s` (0.5 outside the table,
+    /// where the value is a node's). Verification helper.
+    pub fn error_bound(&self, s: Shift) -> f64 {
+        let raw = s.raw_q40();
+        let last = self.len().saturating_sub(1).min(MAX_NODES - 1);
+        if raw <= self.x[0] || raw >= self.x[last] {
+            return 0.5;
+        }
+        let i = self.segment(raw).min(MAX_NODES - 2);
+        let dy = (f64::from(self.y[i + 1]) - f64::from(self.y[i])).abs();
+        let seg = self.seg[i];
+        // D0 = c1; D1 = c3 + 2Δy − D0 (all in Q8).
+        let d0 = seg.c1_q8 as f64 / 256.0;
+        let d1 = (seg.c3_q8 as f64 / 256.0)
+            + 2.0 * (f64::from(self.y[i + 1]) - f64::from(self.y[i]))
+            - d0;
+        let tangents = match self.interpolation {
+            Interpolation::Linear => 0.0,
+            Interpolation::MonotoneCubic => d0.abs() + d1.abs(),
+        };
+        0.5 + 3.725_290_298_461_914e-9 * (dy + tangents)
+    }
+
     /// `f64` twin of [`Curve::eval`]: the same curve (same nodes, same
     /// tangent terms) evaluated in `f64`, unrounded, clamped the same way.
     pub fn eval_f64(&self, s: f64) -> f64 {

@@ -394,6 +394,13 @@ fn exp_i32(e: u32) -> Result<i32, ShiftError> {
         .map_err(|_| ShiftError::BadRestPoint)
 }
 
+/// The shift stage's stated error bound at shift `s`, against the exact
+/// value: (1 + s)·1.04·2^-30 + 2^-41 (module docs). Host and verification
+/// helper.
+pub fn error_bound(s: f64) -> f64 {
+    (1.0 + s).abs() * 1.04 * 9.313_225_746_154_785e-10 + 4.547_473_508_864_641e-13
+}
+
 /// `f64` reference of the shift: (ticks / (cycles · p_rest))² − 1.
 #[inline]
 pub fn shift_f64(pair: CountPair, rest_ratio: f64) -> f64 {

@@ -22,6 +22,7 @@
 #![deny(missing_docs)]
 
 pub mod atomic;
+pub mod budget;
 pub mod calib;
 pub mod convert;
 pub mod counts;
@@ -29,4 +30,6 @@ pub mod csvin;
 pub mod fieldlog;
 pub mod riglog;
 pub mod sim;
+pub mod store;
 pub mod stream;
+pub mod verify;

@@ -28,6 +28,8 @@ enum Command {
     Counts(cmd::counts::Args),
     Convert(cmd::convert::Args),
     Inspect(cmd::inspect::Args),
+    Verify(cmd::verify::Args),
+    Budget(cmd::budget::Args),
 }
 
 fn main() -> ExitCode {
@@ -36,6 +38,8 @@ fn main() -> ExitCode {
         Command::Counts(a) => cmd::counts::run(a),
         Command::Convert(a) => cmd::convert::run(a),
         Command::Inspect(a) => cmd::inspect::run(a),
+        Command::Verify(a) => cmd::verify::run(a),
+        Command::Budget(a) => cmd::budget::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -187,6 +187,15 @@ impl TemperatureModel {
         Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
     }
 
+    /// The stage's stated error bound for input shift `s` at `t_c`:
+    /// (1 + s)·2^-32 + |g|·2^-30 + 2^-40 (type docs). Verification helper.
+    pub fn error_bound(&self, s: f64, t_c: f64) -> f64 {
+        let g = (1.0 + self.compensate_f64(s, t_c)) / (1.0 + s) - 1.0;
+        (1.0 + s).abs() * 2.328_306_436_538_696_3e-10
+            + g.abs() * 9.313_225_746_154_785e-10
+            + 9.094_947_017_729_282e-13
+    }
+
     /// `f64` twin of [`TemperatureModel::compensate`], same coefficients.
     pub fn compensate_f64(&self, s: f64, t_c: f64) -> f64 {
         let (lo, hi) = TEMPERATURE_DOMAIN;

@@ -2,7 +2,7 @@
 //! per passing unit, a unit record per attempt, and a lot report.
 //!
 //! - [`plan`]: the TOML calibration plan (product and acceptance limits);
-//! - [`unit`]: one unit's fit (rest point, drift model, monotone curve,
+//! - [`unit`](mod@unit): one unit's fit (rest point, drift model, monotone curve,
 //!   quality factor) and its residuals through lc-core's own reader;
 //! - [`accept`]: the limits, each failure a reason with value and limit;
 //! - [`monotone`] and [`linalg`]: the fitting machinery.

@@ -1,8 +1,10 @@
 //! The subcommands, and what they share: inputs, outputs, progress.
 
+pub mod budget;
 pub mod convert;
 pub mod counts;
 pub mod inspect;
+pub mod verify;
 
 use anyhow::{Context, Result};
 use lc_host::atomic::write_atomically;

@@ -1,0 +1,977 @@
+//! Unit records: every end-of-line calibration attempt in one SQLite file.
+//!
+//! One row per unit and attempt (DESIGN §6): the unit's serial and lot, the
+//! result with its reasons, the fitted parameters, the fit residuals, the raw
+//! rig points, and for a passing unit the calibration image with its CRC-32.
+//! The schema, the migration policy and example `sqlite3` queries are in
+//! docs/database.md.
+//!
+//! - [`Store::open`] creates or opens the file, switches it to write-ahead
+//!   logging, enables foreign keys and runs the schema migrations; a file
+//!   written by a newer lc-host is refused, never downgraded.
+//! - [`Store::record`] adds one attempt in one transaction: the unit's next
+//!   attempt number (1, 2, … per serial) is computed under the write lock, and
+//!   an earlier attempt is never changed. A process killed mid-lot leaves
+//!   only whole attempts.
+//! - [`Store::attempts`], [`Store::attempt`], [`Store::image`] and
+//!   [`Store::lots`] read it back.
+//!
+//! All values reach SQLite as bound parameters, never as SQL text, so any
+//! serial or lot name is stored exactly as given.
+//!
+//! ```
+//! use lc_host::store::{AttemptResult, Filter, NewAttempt, Store};
+//! use serde_json::json;
+//!
+//! # let dir = std::env::temp_dir().join(format!("lc-host-store-doc-{}", std::process::id()));
+//! # std::fs::create_dir_all(&dir).unwrap();
+//! let mut store = Store::open(dir.join("units.sqlite"))?;
+//! let failed = NewAttempt {
+//!     serial: "DEMO-01-0007".into(),
+//!     lot: "DEMO-01".into(),
+//!     result: AttemptResult::Fail,
+//!     reasons: vec!["rest point outside the acceptance window".into()],
+//!     params: json!({}),
+//!     residuals: json!([]),
+//!     rig_points: json!([]),
+//!     image: None,
+//!     image_crc: None,
+//! };
+//! assert_eq!(store.record(&failed)?.attempt, 1);
+//! // Re-calibrating the unit adds attempt 2; attempt 1 stays as it was.
+//! assert_eq!(store.record(&failed)?.attempt, 2);
+//! assert_eq!(store.attempts(&Filter::default().serial("DEMO-01-0007"))?.len(), 2);
+//! assert_eq!(store.lots()?[0].failed, 1);
+//! # drop(store);
+//! # std::fs::remove_dir_all(&dir).unwrap();
+//! # Ok::<(), lc_host::store::StoreError>(())
+//! ```
+
+use std::path::{Path, PathBuf};
+use std::time::{Duration, SystemTime};
+
+use rusqlite::{params, Connection, OpenFlags, OptionalExtension, Row, TransactionBehavior};
+use serde::Serialize;
+use serde_json::Value;
+
+mod schema;
+#[cfg(test)]
+mod tests;
+mod timestamp;
+
+pub use schema::SCHEMA_VERSION;
+
+/// How long a call waits for another process's write lock before it gives
+/// up with [`StoreError::Busy`]. One attempt's transaction holds the lock
+/// for milliseconds; five seconds covers a slow disk, and is short enough
+/// that a stuck writer is reported while the operator is still there.
+pub const BUSY_TIMEOUT: Duration = Duration::from_secs(5);
+
+/// The `tool_version` written with every attempt: this crate and version.
+pub const TOOL_VERSION: &str = concat!(env!("CARGO_PKG_NAME"), " ", env!("CARGO_PKG_VERSION"));
+
+/// Outcome of one calibration attempt.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum AttemptResult {
+    /// The unit met every acceptance limit; its calibration image is stored.
+    Pass,
+    /// The unit failed at least one limit; the reasons say which.
+    Fail,
+}
+
+impl AttemptResult {
+    /// The text stored in the `result` column: `pass` or `fail`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            AttemptResult::Pass => "pass",
+            AttemptResult::Fail => "fail",
+        }
+    }
+
+    fn parse(s: &str) -> Option<Self> {
+        match s {
+            "pass" => Some(AttemptResult::Pass),
+            "fail" => Some(AttemptResult::Fail),
+            _ => None,
+        }
+    }
+}
+
+impl std::fmt::Display for AttemptResult {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// One calibration attempt to record, as the calibration step produced it.
+///
+/// Rules, checked by [`Store::record`] before anything is written:
+/// - `serial` and `lot` are not empty, hold no control characters and no
+///   leading or trailing white space (`" A1"` and `"A1"` would otherwise be
+///   two units that print the same);
+/// - a failed attempt has at least one reason, no image and no CRC;
+/// - a passing attempt has an image and its CRC;
+/// - `image_crc` is the CRC-32/ISO-HDLC of the whole `image` blob, as
+///   [`lc_core::image::CRC32`] computes it;
+/// - `params` is a JSON object, `residuals` and `rig_points` JSON arrays.
+#[derive(Clone, Debug, PartialEq)]
+pub struct NewAttempt {
+    /// The unit's serial number.
+    pub serial: String,
+    /// The lot the unit is calibrated in.
+    pub lot: String,
+    /// Pass or fail.
+    pub result: AttemptResult,
+    /// Why the unit failed (or remarks on a pass), one sentence each.
+    pub reasons: Vec<String>,
+    /// Fitted parameters, a JSON object (keys and units are the fit's).
+    pub params: Value,
+    /// Fit residuals, a JSON array.
+    pub residuals: Value,
+    /// The raw rig rows of this unit, a JSON array.
+    pub rig_points: Value,
+    /// The calibration image bytes; `None` for a failed unit.
+    pub image: Option<Vec<u8>>,
+    /// CRC-32/ISO-HDLC of the whole `image`; `None` exactly when `image` is.
+    pub image_crc: Option<u32>,
+}
+
+/// One stored attempt, complete.
+#[derive(Clone, Debug, PartialEq)]
+pub struct AttemptRecord {
+    /// Row id: increases with every recorded attempt in this database.
+    pub id: i64,
+    /// The unit's serial number.
+    pub serial: String,
+    /// The lot of this attempt.
+    pub lot: String,
+    /// Attempt number of this serial: 1, 2, … in the order recorded.
+    pub attempt: u32,
+    /// When it was recorded: RFC 3339 UTC with milliseconds
+    /// (`2024-02-29T13:05:09.042Z`).
+    pub calibrated_at: String,
+    /// Pass or fail.
+    pub result: AttemptResult,
+    /// Reasons, as recorded.
+    pub reasons: Vec<String>,
+    /// Fitted parameters (JSON object).
+    pub params: Value,
+    /// Fit residuals (JSON array).
+    pub residuals: Value,
+    /// Raw rig rows (JSON array).
+    pub rig_points: Value,
+    /// Calibration image; `None` for a failed attempt.
+    pub image: Option<Vec<u8>>,
+    /// CRC-32/ISO-HDLC of the whole image; `None` when there is no image.
+    pub image_crc: Option<u32>,
+    /// The program that recorded it ([`TOOL_VERSION`] at the time).
+    pub tool_version: String,
+}
+
+/// One attempt in a listing: everything but the bulky JSON and the image.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize)]
+pub struct AttemptSummary {
+    /// Row id.
+    pub id: i64,
+    /// The unit's serial number.
+    pub serial: String,
+    /// The lot of this attempt.
+    pub lot: String,
+    /// Attempt number of this serial (1, 2, …).
+    pub attempt: u32,
+    /// When it was recorded (RFC 3339 UTC, milliseconds).
+    pub calibrated_at: String,
+    /// Pass or fail.
+    pub result: AttemptResult,
+    /// Reasons, as recorded.
+    pub reasons: Vec<String>,
+    /// Image length in bytes; `None` for a failed attempt.
+    pub image_len: Option<u64>,
+    /// CRC-32/ISO-HDLC of the whole image; `None` when there is no image.
+    pub image_crc: Option<u32>,
+    /// The program that recorded it.
+    pub tool_version: String,
+}
+
+/// Order of an attempt listing.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub enum Order {
+    /// Most recently recorded first (descending row id: the order of
+    /// recording, even if the clock was set back in between).
+    #[default]
+    NewestFirst,
+    /// By serial (byte order of the UTF-8 text), then attempt number.
+    BySerial,
+}
+
+/// Which attempts [`Store::attempts`] lists. Every set condition must hold;
+/// [`Filter::default`] lists every attempt, newest first.
+///
+/// ```
+/// use lc_host::store::{AttemptResult, Filter, Order};
+/// // The units of lot DEMO-01 whose latest attempt failed, by serial.
+/// let f = Filter::default()
+///     .lot("DEMO-01")
+///     .result(AttemptResult::Fail)
+///     .latest_only()
+///     .order(Order::BySerial);
+/// assert!(f.latest_only);
+/// ```
+#[derive(Clone, Debug, Default, PartialEq, Eq)]
+pub struct Filter {
+    /// Only attempts in this lot.
+    pub lot: Option<String>,
+    /// Only attempts of this serial.
+    pub serial: Option<String>,
+    /// Only attempts with this result.
+    pub result: Option<AttemptResult>,
+    /// Only the latest attempt of each serial (latest over all lots, then
+    /// the other conditions apply), i.e. each unit's current state.
+    pub latest_only: bool,
+    /// Order of the listing.
+    pub order: Order,
+}
+
+impl Filter {
+    /// Only attempts in `lot`.
+    pub fn lot(mut self, lot: impl Into<String>) -> Self {
+        self.lot = Some(lot.into());
+        self
+    }
+    /// Only attempts of `serial`.
+    pub fn serial(mut self, serial: impl Into<String>) -> Self {
+        self.serial = Some(serial.into());
+        self
+    }
+    /// Only attempts with `result`.
+    pub fn result(mut self, result: AttemptResult) -> Self {
+        self.result = Some(result);
+        self
+    }
+    /// Only the latest attempt of each serial.
+    pub fn latest_only(mut self) -> Self {
+        self.latest_only = true;
+        self
+    }
+    /// Sets the order.
+    pub fn order(mut self, order: Order) -> Self {
+        self.order = order;
+        self
+    }
+}
+
+/// Counts of one lot. A unit is a serial with at least one attempt in the
+/// lot; its outcome in the lot is that of its latest attempt in the lot.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct LotSummary {
+    /// Lot name.
+    pub lot: String,
+    /// When the lot's first attempt was recorded (RFC 3339 UTC).
+    pub created_at: String,
+    /// Units (distinct serials) with an attempt in this lot.
+    pub units: u64,
+    /// Units whose latest attempt in this lot passed.
+    pub passed: u64,
+    /// Units whose latest attempt in this lot failed (`units - passed`).
+    pub failed: u64,
+    /// Units whose first attempt in this lot passed.
+    pub first_pass: u64,
+    /// Attempts recorded in this lot (re-calibrations included).
+    pub attempts: u64,
+    /// `passed / units` as a fraction 0…1; `None` for a lot without units.
+    pub yield_fraction: Option<f64>,
+}
+
+/// What went wrong with the unit-record database, naming the file and
+/// saying what to do.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum StoreError {
+    /// The file cannot be opened or created.
+    #[error("cannot open database {path}: {source}; check that the folder exists and that you may write to it")]
+    Open {
+        /// Database file.
+        path: PathBuf,
+        /// SQLite's error.
+        source: rusqlite::Error,
+    },
+    /// The file exists but is not an SQLite database.
+    #[error("{path} is not an SQLite database (or it is damaged): give the path of an lc-host unit-record database, or a new file name to start one")]
+    NotADatabase {
+        /// Database file.
+        path: PathBuf,
+    },
+    /// An SQLite database that some other program made.
+    #[error("{path} is an SQLite database but not an lc-host unit-record database (it has tables and no schema version): choose another file name")]
+    ForeignDatabase {
+        /// Database file.
+        path: PathBuf,
+    },
+    /// Written by a newer lc-host: this build does not know its schema.
+    #[error("database {path} was written by a newer lc-host (schema {found}, this build knows {known}): upgrade lc-host")]
+    NewerSchema {
+        /// Database file.
+        path: PathBuf,
+        /// Schema version found in the file.
+        found: i64,
+        /// Newest schema version this build knows.
+        known: u32,
+    },
+    /// A migration failed; its transaction was rolled back.
+    #[error("database {path}: migration from schema {from} to {to} failed: {source}; the file was left at schema {from}: keep it, and report this error with a copy of the file")]
+    Migration {
+        /// Database file.
+        path: PathBuf,
+        /// Version before the failed migration (the file's version now).
+        from: u32,
+        /// Version the migration was to produce.
+        to: u32,
+        /// SQLite's error.
+        source: rusqlite::Error,
+    },
+    /// Write-ahead logging could not be switched on.
+    #[error("database {path}: cannot switch on write-ahead logging (journal mode is {mode:?}): keep the database on a local disk, not on a network share")]
+    NoWal {
+        /// Database file.
+        path: PathBuf,
+        /// The journal mode SQLite kept.
+        mode: String,
+    },
+    /// Another process held the write lock longer than [`BUSY_TIMEOUT`].
+    #[error("database {path} is locked by another process (waited {} s): close other programs writing to it (another lc-host, sqlite3) and retry", BUSY_TIMEOUT.as_secs())]
+    Busy {
+        /// Database file.
+        path: PathBuf,
+    },
+    /// The attempt breaks a rule of [`NewAttempt`]; nothing was written.
+    #[error("database {path}: attempt of serial {serial:?} not recorded: {problem}")]
+    InvalidAttempt {
+        /// Database file.
+        path: PathBuf,
+        /// The serial of the refused attempt.
+        serial: String,
+        /// The broken rule and what to fix.
+        problem: String,
+    },
+    /// A stored row does not decode: the file was edited or damaged.
+    #[error("database {path}: attempt row {id}, column `{column}`: {problem}; the file was changed outside lc-host or is damaged: run `sqlite3 {path} 'PRAGMA integrity_check'` and restore it from a backup")]
+    Corrupt {
+        /// Database file.
+        path: PathBuf,
+        /// Row id in `attempts`.
+        id: i64,
+        /// Column name.
+        column: &'static str,
+        /// What is wrong with the value.
+        problem: String,
+    },
+    /// Any other SQLite failure.
+    #[error("database {path}: {action} failed: {source}")]
+    Sqlite {
+        /// Database file.
+        path: PathBuf,
+        /// What the store was doing.
+        action: &'static str,
+        /// SQLite's error.
+        source: rusqlite::Error,
+    },
+}
+
+impl StoreError {
+    /// Classifies an SQLite error: busy, not a database, or other.
+    fn from_sqlite(path: &Path, action: &'static str, source: rusqlite::Error) -> Self {
+        use rusqlite::ErrorCode::{DatabaseBusy, DatabaseLocked, NotADatabase};
+        let path = path.to_path_buf();
+        match source.sqlite_error_code() {
+            Some(DatabaseBusy | DatabaseLocked) => StoreError::Busy { path },
+            Some(NotADatabase) => StoreError::NotADatabase { path },
+            _ => StoreError::Sqlite {
+                path,
+                action,
+                source,
+            },
+        }
+    }
+}
+
+/// The unit-record database: one open SQLite connection.
+///
+/// Several `Store`s (threads or processes) may use one file: reads never
+/// block, and writers take turns, each waiting up to [`BUSY_TIMEOUT`].
+#[derive(Debug)]
+pub struct Store {
+    conn: Connection,
+    path: PathBuf,
+}
+
+const INSERT_LOT: &str =
+    "INSERT INTO lots (lot, created_at) VALUES (?1, ?2) ON CONFLICT (lot) DO NOTHING";
+const NEXT_ATTEMPT: &str = "SELECT COALESCE(MAX(attempt), 0) + 1 FROM attempts WHERE serial = ?1";
+const INSERT_ATTEMPT: &str = "INSERT INTO attempts
+    (serial, lot, attempt, calibrated_at, result, reasons, params, residuals,
+     rig_points, image, image_crc, tool_version)
+    VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12)";
+const RECORD_COLUMNS: &str = "id, serial, lot, attempt, calibrated_at, result, reasons, \
+     params, residuals, rig_points, image, image_crc, tool_version";
+const SUMMARY_COLUMNS: &str =
+    "id, serial, lot, attempt, calibrated_at, result, reasons, length(image), image_crc, tool_version";
+/// Selects one attempt of a serial: the given number, or the latest (NULL).
+const WHERE_ONE: &str = "WHERE serial = ?1 AND attempt = COALESCE(?2, \
+     (SELECT MAX(attempt) FROM attempts WHERE serial = ?1))";
+const LOTS: &str = "
+WITH units AS (
+    SELECT lot, serial, count(*) AS n, MIN(attempt) AS first, MAX(attempt) AS last
+    FROM attempts GROUP BY lot, serial
+), outcomes AS (
+    SELECT u.lot, u.n,
+           (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.last) = 'pass' AS passed,
+           (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.first) = 'pass' AS first_pass
+    FROM units u
+)
+SELECT l.lot, l.created_at, count(o.lot), COALESCE(SUM(o.passed), 0),
+       COALESCE(SUM(o.first_pass), 0), COALESCE(SUM(o.n), 0),
+       CASE WHEN count(o.lot) > 0 THEN CAST(SUM(o.passed) AS REAL) / count(o.lot) END
+FROM lots l LEFT JOIN outcomes o ON o.lot = l.lot
+GROUP BY l.lot
+ORDER BY l.created_at, l.lot";
+
+impl Store {
+    /// Opens the unit-record database at `path`, creating it if missing:
+    /// write-ahead logging with `synchronous = NORMAL`, foreign keys on,
+    /// and the schema migrated to [`SCHEMA_VERSION`].
+    ///
+    /// # Errors
+    /// [`StoreError::Open`] when the file cannot be opened or created,
+    /// [`StoreError::NotADatabase`] / [`StoreError::ForeignDatabase`] for a
+    /// file that is not ours, [`StoreError::NewerSchema`] for a file written
+    /// by a newer lc-host, [`StoreError::NoWal`], [`StoreError::Migration`]
+    /// and [`StoreError::Busy`].
+    pub fn open(path: impl AsRef<Path>) -> Result<Store, StoreError> {
+        let path = path.as_ref().to_path_buf();
+        // No URI interpretation: a path is a path.
+        let flags = OpenFlags::SQLITE_OPEN_READ_WRITE
+            | OpenFlags::SQLITE_OPEN_CREATE
+            | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+        let mut conn =
+            Connection::open_with_flags(&path, flags).map_err(|source| StoreError::Open {
+                path: path.clone(),
+                source,
+            })?;
+        let err = |action| {
+            let path = &path;
+            move |e| StoreError::from_sqlite(path, action, e)
+        };
+        conn.busy_timeout(BUSY_TIMEOUT)
+            .map_err(err("setting the busy timeout"))?;
+        let mode: String = conn
+            .pragma_update_and_check(None, "journal_mode", "WAL", |r| r.get(0))
+            .map_err(err("switching on write-ahead logging"))?;
+        if !mode.eq_ignore_ascii_case("wal") {
+            return Err(StoreError::NoWal { path, mode });
+        }
+        // With WAL, NORMAL never corrupts the file; a power cut (not a
+        // process crash) may lose the last commits (docs/database.md).
+        conn.pragma_update(None, "synchronous", "NORMAL")
+            .map_err(err("setting synchronous = NORMAL"))?;
+        conn.pragma_update(None, "foreign_keys", true)
+            .map_err(err("switching on foreign keys"))?;
+        schema::migrate(&mut conn, &path, schema::MIGRATIONS)?;
+        Ok(Store { conn, path })
+    }
+
+    /// The database file this store was opened on.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    fn err(&self, action: &'static str) -> impl Fn(rusqlite::Error) -> StoreError + '_ {
+        move |e| StoreError::from_sqlite(&self.path, action, e)
+    }
+
+    fn invalid(&self, a: &NewAttempt, problem: impl Into<String>) -> StoreError {
+        StoreError::InvalidAttempt {
+            path: self.path.clone(),
+            serial: a.serial.clone(),
+            problem: problem.into(),
+        }
+    }
+
+    /// Checks the rules of [`NewAttempt`]; returns the JSON texts of
+    /// reasons, params, residuals and rig points.
+    fn check(&self, a: &NewAttempt) -> Result<[String; 4], StoreError> {
+        check_name("serial", &a.serial).map_err(|p| self.invalid(a, p))?;
+        check_name("lot", &a.lot).map_err(|p| self.invalid(a, p))?;
+        match (a.result, &a.image, a.image_crc) {
+            (AttemptResult::Fail, None, None) if a.reasons.is_empty() => {
+                return Err(self.invalid(
+                    a,
+                    "a failed attempt needs at least one reason: say which limit it broke",
+                ));
+            }
+            (AttemptResult::Fail, None, None) => {}
+            (AttemptResult::Fail, _, _) => {
+                return Err(self.invalid(
+                    a,
+                    "a failed attempt has no calibration image: pass image and image_crc as None",
+                ));
+            }
+            (AttemptResult::Pass, Some(image), Some(crc)) => {
+                let actual = lc_core::image::CRC32.checksum(image);
+                if actual != crc {
+                    return Err(self.invalid(
+                        a,
+                        format!(
+                            "image_crc is 0x{crc:08X} but the CRC-32/ISO-HDLC of the {}-byte image is 0x{actual:08X}: pass lc_core::image::CRC32.checksum(&image), the CRC over every byte of the image (not the image's own CRC field)",
+                            image.len()
+                        ),
+                    ));
+                }
+            }
+            (AttemptResult::Pass, _, _) => {
+                return Err(self.invalid(
+                    a,
+                    "a passing attempt needs its calibration image and the image's CRC-32",
+                ));
+            }
+        }
+        if !a.params.is_object() {
+            return Err(self.invalid(a, "params must be a JSON object (name → fitted value)"));
+        }
+        for (name, v) in [("residuals", &a.residuals), ("rig_points", &a.rig_points)] {
+            if !v.is_array() {
+                return Err(self.invalid(a, format!("{name} must be a JSON array")));
+            }
+        }
+        let json = |r: serde_json::Result<String>| {
+            r.map_err(|e| self.invalid(a, format!("cannot write JSON: {e}")))
+        };
+        Ok([
+            json(serde_json::to_string(&a.reasons))?,
+            json(serde_json::to_string(&a.params))?,
+            json(serde_json::to_string(&a.residuals))?,
+            json(serde_json::to_string(&a.rig_points))?,
+        ])
+    }
+
+    /// Records one calibration attempt in one transaction: creates the lot
+    /// if it is new, numbers the attempt (the serial's highest attempt + 1,
+    /// read under the write lock) and inserts it. Earlier attempts are never
+    /// changed. Returns the stored record.
+    ///
+    /// # Errors
+    /// [`StoreError::InvalidAttempt`] when `a` breaks a rule of
+    /// [`NewAttempt`] (nothing is written), [`StoreError::Busy`] when
+    /// another writer holds the lock longer than [`BUSY_TIMEOUT`], other
+    /// variants for SQLite failures; after any error nothing was written.
+    pub fn record(&mut self, a: &NewAttempt) -> Result<AttemptRecord, StoreError> {
+        let [reasons, params, residuals, rig_points] = self.check(a)?;
+        let path = &self.path;
+        let err = |action| move |e| StoreError::from_sqlite(path, action, e);
+        let tx = self
+            .conn
+            .transaction_with_behavior(TransactionBehavior::Immediate)
+            .map_err(err("locking the database"))?;
+        // Under the write lock, so time stamps follow the attempt order.
+        let calibrated_at = timestamp::rfc3339_utc(SystemTime::now());
+        tx.prepare_cached(INSERT_LOT)
+            .and_then(|mut s| s.execute(params![a.lot, calibrated_at]))
+            .map_err(err("adding the lot"))?;
+        let next: i64 = tx
+            .prepare_cached(NEXT_ATTEMPT)
+            .and_then(|mut s| s.query_row([&a.serial], |r| r.get(0)))
+            .map_err(err("numbering the attempt"))?;
+        let attempt = u32::try_from(next).map_err(|_| StoreError::InvalidAttempt {
+            path: path.clone(),
+            serial: a.serial.clone(),
+            problem: format!(
+                "attempt number {next} is out of range: this serial has too many attempts"
+            ),
+        })?;
+        tx.prepare_cached(INSERT_ATTEMPT)
+            .and_then(|mut s| {
+                s.execute(params![
+                    a.serial,
+                    a.lot,
+                    attempt,
+                    calibrated_at,
+                    a.result.as_str(),
+                    reasons,
+                    params,
+                    residuals,
+                    rig_points,
+                    a.image,
+                    a.image_crc,
+                    TOOL_VERSION,
+                ])
+            })
+            .map_err(err("inserting the attempt"))?;
+        let id = tx.last_insert_rowid();
+        tx.commit().map_err(err("committing the attempt"))?;
+        Ok(AttemptRecord {
+            id,
+            serial: a.serial.clone(),
+            lot: a.lot.clone(),
+            attempt,
+            calibrated_at,
+            result: a.result,
+            reasons: a.reasons.clone(),
+            params: a.params.clone(),
+            residuals: a.residuals.clone(),
+            rig_points: a.rig_points.clone(),
+            image: a.image.clone(),
+            image_crc: a.image_crc,
+            tool_version: TOOL_VERSION.to_owned(),
+        })
+    }
+
+    /// Lists attempts matching `filter`, in `filter.order`, without their
+    /// JSON payloads and images (see [`Store::attempt`] for those).
+    ///
+    /// # Errors
+    /// SQLite failures, and [`StoreError::Corrupt`] for a row that does not
+    /// decode.
+    pub fn attempts(&self, filter: &Filter) -> Result<Vec<AttemptSummary>, StoreError> {
+        let mut sql = format!("SELECT {SUMMARY_COLUMNS} FROM attempts WHERE 1");
+        let mut args: Vec<&str> = Vec::new();
+        // Only fixed SQL fragments are appended; values go in `args`.
+        if let Some(lot) = &filter.lot {
+            args.push(lot);
+            sql.push_str(&format!(" AND lot = ?{}", args.len()));
+        }
+        if let Some(serial) = &filter.serial {
+            args.push(serial);
+            sql.push_str(&format!(" AND serial = ?{}", args.len()));
+        }
+        if let Some(result) = filter.result {
+            args.push(result.as_str());
+            sql.push_str(&format!(" AND result = ?{}", args.len()));
+        }
+        if filter.latest_only {
+            sql.push_str(
+                " AND attempt = (SELECT MAX(attempt) FROM attempts AS later WHERE later.serial = attempts.serial)",
+            );
+        }
+        sql.push_str(match filter.order {
+            Order::NewestFirst => " ORDER BY id DESC",
+            Order::BySerial => " ORDER BY serial, attempt",
+        });
+        let mut stmt = self
+            .conn
+            .prepare_cached(&sql)
+            .map_err(self.err("listing attempts"))?;
+        let rows = stmt
+            .query_map(rusqlite::params_from_iter(args), RawSummary::from_row)
+            .map_err(self.err("listing attempts"))?;
+        let mut out = Vec::new();
+        for raw in rows {
+            out.push(
+                raw.map_err(self.err("reading an attempt"))?
+                    .decode(&self.path)?,
+            );
+        }
+        Ok(out)
+    }
+
+    /// One attempt of `serial`, complete: number `attempt`, or the latest
+    /// when `attempt` is `None`. `Ok(None)` when there is no such attempt.
+    ///
+    /// # Errors
+    /// SQLite failures, and [`StoreError::Corrupt`] for a row that does not
+    /// decode or whose image does not match its CRC.
+    pub fn attempt(
+        &self,
+        serial: &str,
+        attempt: Option<u32>,
+    ) -> Result<Option<AttemptRecord>, StoreError> {
+        let sql = format!("SELECT {RECORD_COLUMNS} FROM attempts {WHERE_ONE}");
+        let raw = self
+            .conn
+            .prepare_cached(&sql)
+            .and_then(|mut s| {
+                s.query_row(params![serial, attempt], RawRecord::from_row)
+                    .optional()
+            })
+            .map_err(self.err("reading an attempt"))?;
+        raw.map(|r| r.decode(&self.path)).transpose()
+    }
+
+    /// The calibration image of one attempt of `serial` (number `attempt`,
+    /// or the latest when `None`), checked against its stored CRC.
+    /// `Ok(None)` when there is no such attempt or it failed (a failed
+    /// attempt has no image: the latest attempt of a unit that failed its
+    /// re-calibration has none, even if an earlier one passed).
+    ///
+    /// # Errors
+    /// SQLite failures, and [`StoreError::Corrupt`] when the image does not
+    /// match its CRC.
+    pub fn image(&self, serial: &str, attempt: Option<u32>) -> Result<Option<Vec<u8>>, StoreError> {
+        let sql = format!("SELECT id, image, image_crc FROM attempts {WHERE_ONE}");
+        let row: Option<(i64, Option<Vec<u8>>, Option<i64>)> = self
+            .conn
+            .prepare_cached(&sql)
+            .and_then(|mut s| {
+                s.query_row(params![serial, attempt], |r| {
+                    Ok((r.get(0)?, r.get(1)?, r.get(2)?))
+                })
+                .optional()
+            })
+            .map_err(self.err("reading an image"))?;
+        let Some((id, image, crc)) = row else {
+            return Ok(None);
+        };
+        let crc = decode_crc(&self.path, id, crc)?;
+        check_image(&self.path, id, image.as_deref(), crc)?;
+        Ok(image)
+    }
+
+    /// Every lot with its counts, oldest lot first (by `created_at`, then
+    /// name).
+    ///
+    /// # Errors
+    /// SQLite failures, and [`StoreError::Corrupt`] for counts that do not
+    /// decode.
+    pub fn lots(&self) -> Result<Vec<LotSummary>, StoreError> {
+        let mut stmt = self
+            .conn
+            .prepare_cached(LOTS)
+            .map_err(self.err("counting lots"))?;
+        let rows = stmt
+            .query_map([], |r| {
+                Ok((
+                    r.get::<_, String>(0)?,
+                    r.get::<_, String>(1)?,
+                    [r.get::<_, i64>(2)?, r.get(3)?, r.get(4)?, r.get(5)?],
+                    r.get::<_, Option<f64>>(6)?,
+                ))
+            })
+            .map_err(self.err("counting lots"))?;
+        let mut out = Vec::new();
+        for row in rows {
+            let (lot, created_at, counts, yield_fraction) =
+                row.map_err(self.err("counting lots"))?;
+            let [units, passed, first_pass, attempts] =
+                counts.map(|n| u64::try_from(n).unwrap_or(0));
+            out.push(LotSummary {
+                lot,
+                created_at,
+                units,
+                passed,
+                failed: units.saturating_sub(passed),
+                first_pass,
+                attempts,
+                yield_fraction,
+            });
+        }
+        Ok(out)
+    }
+}
+
+/// Checks a serial or lot name; returns the problem and its fix.
+fn check_name(what: &str, s: &str) -> Result<(), String> {
+    if s.is_empty() {
+        return Err(format!(
+            "the {what} is empty: give the {what} as printed on the unit or traveller"
+        ));
+    }
+    if s.chars().any(char::is_control) {
+        return Err(format!(
+            "the {what} {s:?} contains a control character: remove it"
+        ));
+    }
+    if s.trim() != s {
+        return Err(format!(
+            "the {what} {s:?} starts or ends with white space: trim it"
+        ));
+    }
+    Ok(())
+}
+
+fn decode_crc(path: &Path, id: i64, crc: Option<i64>) -> Result<Option<u32>, StoreError> {
+    crc.map(|c| {
+        u32::try_from(c).map_err(|_| StoreError::Corrupt {
+            path: path.to_path_buf(),
+            id,
+            column: "image_crc",
+            problem: format!("{c} is not a CRC-32"),
+        })
+    })
+    .transpose()
+}
+
+fn check_image(
+    path: &Path,
+    id: i64,
+    image: Option<&[u8]>,
+    crc: Option<u32>,
+) -> Result<(), StoreError> {
+    let corrupt = |problem: String| StoreError::Corrupt {
+        path: path.to_path_buf(),
+        id,
+        column: "image",
+        problem,
+    };
+    match (image, crc) {
+        (Some(image), Some(crc)) => {
+            let actual = lc_core::image::CRC32.checksum(image);
+            if actual == crc {
+                Ok(())
+            } else {
+                Err(corrupt(format!(
+                    "the image's CRC-32 is 0x{actual:08X}, the stored image_crc 0x{crc:08X}"
+                )))
+            }
+        }
+        (None, None) => Ok(()),
+        _ => Err(corrupt(
+            "image and image_crc are not both present or both absent".into(),
+        )),
+    }
+}
+
+/// The columns of one row as SQLite returns them, decoded afterwards so a
+/// bad value becomes [`StoreError::Corrupt`] with the row and column.
+struct RawCommon {
+    id: i64,
+    serial: String,
+    lot: String,
+    attempt: i64,
+    calibrated_at: String,
+    result: String,
+    reasons: String,
+}
+
+impl RawCommon {
+    fn from_row(r: &Row<'_>) -> rusqlite::Result<Self> {
+        Ok(RawCommon {
+            id: r.get(0)?,
+            serial: r.get(1)?,
+            lot: r.get(2)?,
+            attempt: r.get(3)?,
+            calibrated_at: r.get(4)?,
+            result: r.get(5)?,
+            reasons: r.get(6)?,
+        })
+    }
+
+    fn corrupt(&self, path: &Path, column: &'static str, problem: impl Into<String>) -> StoreError {
+        StoreError::Corrupt {
+            path: path.to_path_buf(),
+            id: self.id,
+            column,
+            problem: problem.into(),
+        }
+    }
+
+    fn attempt(&self, path: &Path) -> Result<u32, StoreError> {
+        u32::try_from(self.attempt)
+            .ok()
+            .filter(|&n| n >= 1)
+            .ok_or_else(|| {
+                self.corrupt(
+                    path,
+                    "attempt",
+                    format!("{} is not an attempt number", self.attempt),
+                )
+            })
+    }
+
+    fn result(&self, path: &Path) -> Result<AttemptResult, StoreError> {
+        AttemptResult::parse(&self.result).ok_or_else(|| {
+            self.corrupt(
+                path,
+                "result",
+                format!("{:?} is neither pass nor fail", self.result),
+            )
+        })
+    }
+
+    fn json<T: serde::de::DeserializeOwned>(
+        &self,
+        path: &Path,
+        column: &'static str,
+        text: &str,
+    ) -> Result<T, StoreError> {
+        serde_json::from_str(text)
+            .map_err(|e| self.corrupt(path, column, format!("not the expected JSON: {e}")))
+    }
+}
+
+struct RawSummary {
+    common: RawCommon,
+    image_len: Option<i64>,
+    image_crc: Option<i64>,
+    tool_version: String,
+}
+
+impl RawSummary {
+    fn from_row(r: &Row<'_>) -> rusqlite::Result<Self> {
+        Ok(RawSummary {
+            common: RawCommon::from_row(r)?,
+            image_len: r.get(7)?,
+            image_crc: r.get(8)?,
+            tool_version: r.get(9)?,
+        })
+    }
+
+    fn decode(self, path: &Path) -> Result<AttemptSummary, StoreError> {
+        let c = &self.common;
+        Ok(AttemptSummary {
+            attempt: c.attempt(path)?,
+            result: c.result(path)?,
+            reasons: c.json(path, "reasons", &c.reasons)?,
+            image_len: self.image_len.and_then(|n| u64::try_from(n).ok()),
+            image_crc: decode_crc(path, c.id, self.image_crc)?,
+            tool_version: self.tool_version,
+            id: c.id,
+            serial: self.common.serial,
+            lot: self.common.lot,
+            calibrated_at: self.common.calibrated_at,
+        })
+    }
+}
+
+struct RawRecord {
+    common: RawCommon,
+    params: String,
+    residuals: String,
+    rig_points: String,
+    image: Option<Vec<u8>>,
+    image_crc: Option<i64>,
+    tool_version: String,
+}
+
+impl RawRecord {
+    fn from_row(r: &Row<'_>) -> rusqlite::Result<Self> {
+        Ok(RawRecord {
+            common: RawCommon::from_row(r)?,
+            params: r.get(7)?,
+            residuals: r.get(8)?,
+            rig_points: r.get(9)?,
+            image: r.get(10)?,
+            image_crc: r.get(11)?,
+            tool_version: r.get(12)?,
+        })
+    }
+
+    fn decode(self, path: &Path) -> Result<AttemptRecord, StoreError> {
+        let c = &self.common;
+        let image_crc = decode_crc(path, c.id, self.image_crc)?;
+        check_image(path, c.id, self.image.as_deref(), image_crc)?;
+        Ok(AttemptRecord {
+            attempt: c.attempt(path)?,
+            result: c.result(path)?,
+            reasons: c.json(path, "reasons", &c.reasons)?,
+            params: c.json(path, "params", &self.params)?,
+            residuals: c.json(path, "residuals", &self.residuals)?,
+            rig_points: c.json(path, "rig_points", &self.rig_points)?,
+            image: self.image,
+            image_crc,
+            tool_version: self.tool_version,
+            id: c.id,
+            serial: self.common.serial,
+            lot: self.common.lot,
+            calibrated_at: self.common.calibrated_at,
+        })
+    }
+}
