@@ -8,6 +8,14 @@
 //!   name the file, line and field.
 //! - [`counts`]: count pairs to frequency, period ratio, shift and
 //!   quantisation step, with the fault window applied.
+//! - [`convert`]: field logs to readings through a unit's calibration
+//!   image, with lc-core's reader; [`verify`]: that path against its `f64`
+//!   twin over the image's whole domain; [`budget`]: what a readout set-up
+//!   resolves and what temperature costs.
+//! - [`riglog`], [`calib`], [`store`]: end-of-line calibration from rig logs
+//!   to calibration images and unit records (SQLite).
+//! - [`sim`]: simulated rig and field logs; [`svg`]: plots for reports;
+//!   [`stream`], [`csvin`], [`atomic`]: streaming CSV in, atomic files out.
 //!
 //! ```
 //! use lc_host::counts::{CountsConfig, RowStatus};
@@ -32,4 +40,5 @@ pub mod riglog;
 pub mod sim;
 pub mod store;
 pub mod stream;
+pub mod svg;
 pub mod verify;
