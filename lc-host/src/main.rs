@@ -25,9 +25,12 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    Simulate(cmd::simulate::Args),
+    Calibrate(cmd::calibrate::Args),
+    Inspect(cmd::inspect::Args),
+    Units(cmd::units::Args),
     Counts(cmd::counts::Args),
     Convert(cmd::convert::Args),
-    Inspect(cmd::inspect::Args),
     Verify(cmd::verify::Args),
     Budget(cmd::budget::Args),
 }
@@ -35,6 +38,9 @@ enum Command {
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
+        Command::Simulate(a) => cmd::simulate::run(a),
+        Command::Calibrate(a) => cmd::calibrate::run(a),
+        Command::Units(a) => cmd::units::run(a),
         Command::Counts(a) => cmd::counts::run(a),
         Command::Convert(a) => cmd::convert::run(a),
         Command::Inspect(a) => cmd::inspect::run(a),

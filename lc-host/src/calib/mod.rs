@@ -9,8 +9,10 @@
 
 pub mod accept;
 pub mod linalg;
+pub mod lot;
 pub mod monotone;
 pub mod plan;
+pub mod report;
 pub mod unit;
 
 #[cfg(test)]

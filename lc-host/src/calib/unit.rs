@@ -53,6 +53,8 @@ pub struct Residual {
     pub residual_fixed: f64,
     /// value_f64 − target.
     pub residual_f64: f64,
+    /// The drift-compensated shift the firmware path formed, ppm.
+    pub shift_ppm: f64,
 }
 
 /// Everything fitted for one unit.
@@ -582,6 +584,7 @@ fn residuals(cal: &Calibration, rows: &[RigRow], step: f64) -> Vec<Residual> {
                 value_fixed: fixed.value,
                 residual_fixed: f64::from(fixed.value) - target,
                 residual_f64: value_f64 - target,
+                shift_ppm: fixed.shift.to_ppm_f64(),
             })
         })
         .collect()

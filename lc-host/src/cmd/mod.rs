@@ -1,9 +1,12 @@
 //! The subcommands, and what they share: inputs, outputs, progress.
 
 pub mod budget;
+pub mod calibrate;
 pub mod convert;
 pub mod counts;
 pub mod inspect;
+pub mod simulate;
+pub mod units;
 pub mod verify;
 
 use anyhow::{Context, Result};

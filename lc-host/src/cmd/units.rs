@@ -1,0 +1,191 @@
+//! `lc-host units`: list, show and export unit records.
+
+use anyhow::{bail, Context, Result};
+use lc_host::atomic::write_bytes;
+use lc_host::store::{AttemptResult, Filter, Order, Store};
+use std::path::PathBuf;
+
+/// List, show and export unit records from the calibration database
+///
+/// Every calibration attempt of every unit is a record: result, reasons, fitted parameters,
+/// residuals, raw rig points and, for a pass, the calibration image (docs/database.md).
+///
+/// Examples:
+///
+///   lc-host units list --lot DEMO-01 --failed
+///   lc-host units show DEMO-01-0005
+///   lc-host units export DEMO-01-0007 -o DEMO-01-0007.lcim
+#[derive(clap::Args)]
+#[command(verbatim_doc_comment)]
+pub struct Args {
+    /// Unit-record database
+    #[arg(long, default_value = "units.db", global = true)]
+    db: PathBuf,
+    #[command(subcommand)]
+    action: Action,
+}
+
+#[derive(clap::Subcommand)]
+enum Action {
+    /// One line per attempt (latest attempt of each unit with --latest), or per lot with --lots
+    List {
+        /// Only this lot
+        #[arg(long)]
+        lot: Option<String>,
+        /// Only passed attempts
+        #[arg(long, conflicts_with = "failed")]
+        passed: bool,
+        /// Only failed attempts
+        #[arg(long)]
+        failed: bool,
+        /// Only each unit's latest attempt
+        #[arg(long)]
+        latest: bool,
+        /// Lot summaries instead of attempts
+        #[arg(long)]
+        lots: bool,
+        /// JSON instead of a table
+        #[arg(long)]
+        json: bool,
+    },
+    /// One attempt in full (the latest unless --attempt)
+    Show {
+        /// Unit serial
+        serial: String,
+        /// Attempt number
+        #[arg(long)]
+        attempt: Option<u32>,
+    },
+    /// Write the calibration image of an attempt to a file
+    Export {
+        /// Unit serial
+        serial: String,
+        /// Attempt number (default: the latest)
+        #[arg(long)]
+        attempt: Option<u32>,
+        /// Output file
+        #[arg(short, long)]
+        output: PathBuf,
+    },
+}
+
+pub fn run(a: Args) -> Result<()> {
+    if !a.db.exists() {
+        bail!(
+            "{}: no unit-record database here; give --db, or run lc-host calibrate first",
+            a.db.display()
+        );
+    }
+    let store = Store::open(&a.db)?;
+    match a.action {
+        Action::List {
+            lot,
+            passed,
+            failed,
+            latest,
+            lots,
+            json,
+        } => {
+            if lots {
+                let l = store.lots()?;
+                if json {
+                    let v: Vec<_> = l.iter().map(|s| serde_json::json!({"lot": s.lot, "units": s.units, "passed": s.passed, "failed": s.failed, "attempts": s.attempts, "yield": s.yield_fraction})).collect();
+                    println!("{}", serde_json::to_string_pretty(&v)?);
+                } else {
+                    println!(
+                        "{:<16} {:>7} {:>7} {:>7} {:>9} {:>8}",
+                        "lot", "units", "passed", "failed", "attempts", "yield"
+                    );
+                    for s in l {
+                        println!(
+                            "{:<16} {:>7} {:>7} {:>7} {:>9} {:>7.1}%",
+                            s.lot,
+                            s.units,
+                            s.passed,
+                            s.failed,
+                            s.attempts,
+                            100.0 * s.yield_fraction.unwrap_or(0.0)
+                        );
+                    }
+                }
+                return Ok(());
+            }
+            let mut f = Filter::default().order(Order::BySerial);
+            if let Some(l) = lot {
+                f = f.lot(l);
+            }
+            if passed {
+                f = f.result(AttemptResult::Pass);
+            }
+            if failed {
+                f = f.result(AttemptResult::Fail);
+            }
+            if latest {
+                f = f.latest_only();
+            }
+            let rows = store.attempts(&f)?;
+            if json {
+                let v: Vec<_> = rows.iter().map(|r| serde_json::json!({"serial": r.serial, "lot": r.lot, "attempt": r.attempt, "calibrated_at": r.calibrated_at, "result": r.result.as_str(), "reasons": r.reasons})).collect();
+                println!("{}", serde_json::to_string_pretty(&v)?);
+            } else {
+                println!(
+                    "{:<18} {:<12} {:>7} {:<22} {:<6} first reason",
+                    "serial", "lot", "attempt", "calibrated at", "result"
+                );
+                for r in &rows {
+                    println!(
+                        "{:<18} {:<12} {:>7} {:<22} {:<6} {}",
+                        r.serial,
+                        r.lot,
+                        r.attempt,
+                        r.calibrated_at,
+                        r.result.as_str(),
+                        r.reasons.first().map_or("", String::as_str)
+                    );
+                }
+                eprintln!("{} attempts", rows.len());
+            }
+        }
+        Action::Show { serial, attempt } => {
+            let Some(r) = store.attempt(&serial, attempt)? else {
+                bail!(
+                    "{}: no record of unit {serial}{}",
+                    a.db.display(),
+                    attempt.map_or(String::new(), |n| format!(" attempt {n}"))
+                );
+            };
+            let v = serde_json::json!({
+                "serial": r.serial, "lot": r.lot, "attempt": r.attempt, "calibrated_at": r.calibrated_at,
+                "result": r.result.as_str(), "reasons": r.reasons, "params": r.params, "residuals": r.residuals,
+                "rig_points": r.rig_points, "image_bytes": r.image.as_ref().map(Vec::len), "tool_version": r.tool_version,
+            });
+            println!("{}", serde_json::to_string_pretty(&v)?);
+        }
+        Action::Export {
+            serial,
+            attempt,
+            output,
+        } => {
+            let Some(r) = store.attempt(&serial, attempt)? else {
+                bail!("{}: no record of unit {serial}", a.db.display());
+            };
+            let Some(image) = r.image else {
+                bail!(
+                    "unit {serial} attempt {} failed calibration ({}): it has no image",
+                    r.attempt,
+                    r.reasons.first().map_or("", String::as_str)
+                );
+            };
+            lc_core::image::Calibration::parse(&image)
+                .context("the stored image does not parse")?;
+            write_bytes(&output, &image)?;
+            eprintln!(
+                "wrote {} ({} bytes, unit {serial} attempt {})",
+                output.display(),
+                image.len(),
+                r.attempt
+            );
+        }
+    }
+    Ok(())
+}
