@@ -137,7 +137,7 @@ pub fn write_unit_plot(
     .line("curve written to the image", curve)
     .points("rig steps (compensated)", rig)
     .residuals(
-        Quantity::new("residual", &unit_label(plan.product.output_step_m)),
+        Quantity::new("residual", unit_label(plan.product.output_step_m)),
         res,
         plan.limits.max_residual,
     );
