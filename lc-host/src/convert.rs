@@ -2,7 +2,7 @@
 //! the firmware computes them: every row goes through lc-core's `Reader`.
 
 use crate::fieldlog::{FieldLogReader, FieldRow, Measurement};
-use crate::stream::{fixed, opt, stream_log, OnBadRow, RunError, Summary};
+use crate::stream::{fixed, opt, stream_log, OnBadRow, RowClass, RunError, Summary};
 use lc_core::counting::{CountPair, FaultError};
 use lc_core::image::Calibration;
 use lc_core::reader::{
@@ -193,7 +193,11 @@ pub fn convert_log<R: Read, W: Write>(
             write!(out, ",{},{}", fixed(c.value_f64, 4), fixed(diff, 4))?;
         }
         observe(&c);
-        Ok(r.status == Status::Ok)
+        Ok(match r.status {
+            Status::Ok => RowClass::Ok,
+            Status::SensorFault(_) => RowClass::Fault,
+            _ => RowClass::OutOfRange,
+        })
     })
 }
 

@@ -3,7 +3,7 @@
 //! with the `f64` reference beside it on request.
 
 use crate::fieldlog::FieldLogReader;
-use crate::stream::{fixed, opt, stream_log};
+use crate::stream::{fixed, opt, stream_log, RowClass};
 pub use crate::stream::{OnBadRow, RunError, Summary};
 use lc_core::counting::{CountPair, FaultError, FaultWindow, Gating};
 use lc_core::ratio::{frequency, period_ratio};
@@ -185,7 +185,11 @@ pub fn convert_log<R: Read, W: Write>(
                 opt(diff.map(|d| format!("{d:.3e}")))
             )?;
         }
-        Ok(c.status == RowStatus::Ok)
+        Ok(match c.status {
+            RowStatus::Ok => RowClass::Ok,
+            RowStatus::Fault(_) => RowClass::Fault,
+            RowStatus::Shift(_) => RowClass::OutOfRange,
+        })
     })
 }
 

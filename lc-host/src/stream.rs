@@ -20,7 +20,9 @@ pub struct Summary {
     pub rows: u64,
     /// Rows with status `ok`.
     pub ok: u64,
-    /// Rows with another status (faults, out of range).
+    /// Rows with a value outside the calibrated range, or no target.
+    pub out_of_range: u64,
+    /// Rows without a value: sensor faults.
     pub faults: u64,
     /// Rows that did not parse and were skipped.
     pub skipped: u64,
@@ -55,9 +57,20 @@ pub fn fixed(v: Option<f64>, decimals: usize) -> String {
     v.map_or_else(String::new, |v| format!("{v:.decimals$}"))
 }
 
+/// How a converted row came out.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum RowClass {
+    /// A good value.
+    Ok,
+    /// A value, clamped to the calibrated range, or no target.
+    OutOfRange,
+    /// No value: a sensor fault.
+    Fault,
+}
+
 /// Streams `reader` into `out`: writes `header`, then for each row calls
 /// `row_fn`, which writes the row's fields (without the newline) and says
-/// whether the row's status is `ok`. `progress` gets the input line every
+/// how the row came out. `progress` gets the input line every
 /// 65 536 rows. Bad rows stop or are skipped as `on_bad_row` says.
 pub fn stream_log<R: Read, W: Write>(
     reader: FieldLogReader<R>,
@@ -65,7 +78,7 @@ pub fn stream_log<R: Read, W: Write>(
     header: &str,
     on_bad_row: OnBadRow,
     mut progress: impl FnMut(u64),
-    mut row_fn: impl FnMut(&FieldRow, &mut W) -> Result<bool, RunError>,
+    mut row_fn: impl FnMut(&FieldRow, &mut W) -> Result<RowClass, RunError>,
 ) -> Result<Summary, RunError> {
     let mut summary = Summary::default();
     writeln!(out, "{header}")?;
@@ -79,13 +92,13 @@ pub fn stream_log<R: Read, W: Write>(
             }
             Err(e) => return Err(e.into()),
         };
-        let ok = row_fn(&row, &mut out)?;
+        let class = row_fn(&row, &mut out)?;
         writeln!(out)?;
         summary.rows += 1;
-        if ok {
-            summary.ok += 1;
-        } else {
-            summary.faults += 1;
+        match class {
+            RowClass::Ok => summary.ok += 1,
+            RowClass::OutOfRange => summary.out_of_range += 1,
+            RowClass::Fault => summary.faults += 1,
         }
         if summary.rows % 65_536 == 0 {
             progress(row.line);

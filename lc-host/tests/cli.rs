@@ -47,7 +47,8 @@ fn converts_the_demo_log() {
     );
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert!(
-        stderr.contains("201 rows: 199 ok, 2 faults, 0 skipped"),
+        stderr
+            .contains("201 rows: 199 ok, 0 out of range or no target, 2 sensor faults, 0 skipped"),
         "{stderr}"
     );
     let text = std::fs::read_to_string(&out).expect("output");
@@ -100,7 +101,8 @@ fn a_bad_row_names_file_line_and_field_and_leaves_no_output() {
     assert!(run.status.success());
     let stderr = String::from_utf8_lossy(&run.stderr);
     assert!(
-        stderr.contains("1 rows: 1 ok, 0 faults, 1 skipped") && stderr.contains("line 3"),
+        stderr.contains("1 rows: 1 ok, 0 out of range or no target, 0 sensor faults, 1 skipped")
+            && stderr.contains("line 3"),
         "{stderr}"
     );
     std::fs::remove_dir_all(dir).ok();

@@ -77,8 +77,8 @@ impl From<BadRow> for OnBadRow {
 /// Prints the run's totals and fails when nothing could be read.
 pub fn report(summary: &lc_host::stream::Summary, input: &std::path::Path) -> Result<()> {
     eprintln!(
-        "{} rows: {} ok, {} faults, {} skipped",
-        summary.rows, summary.ok, summary.faults, summary.skipped
+        "{} rows: {} ok, {} out of range or no target, {} sensor faults, {} skipped",
+        summary.rows, summary.ok, summary.out_of_range, summary.faults, summary.skipped
     );
     if let Some(first) = &summary.first_skip {
         eprintln!("first skipped row: {first}");
