@@ -37,10 +37,12 @@
 //!
 //! No division per reading. The result is rounded to nearest. Bound against
 //! the `f64` twin of the same curve ([`Curve::eval_f64`]):
-//! |y_fixed − y| ≤ 0.5 + 2^-28·(|Δy| + |D0| + |D1|) output units, where the
-//! terms are the segment's. For any realistic table (|Δy| below 2^20 units
-//! per segment) that is 0.5 units plus less than 0.004: the rounding of the
-//! output itself. The input loses nothing finer than w·2^-31 of shift.
+//! |y_fixed − y| ≤ 0.5 + 2^-28·|Δy| (linear) or
+//! 0.5 + 3·2^-9 + 2^-28·(|Δy| + |D0| + |D1|) (cubic: each of the three
+//! Horner steps rounds a Q8 value) output units, where the terms are the
+//! segment's. For any realistic table (|Δy| below 2^20 units per segment)
+//! that is the output's own rounding, 0.5 units, plus at most 0.006 (cubic)
+//! or 0.004 (linear). The input loses nothing finer than w·2^-31 of shift.
 //!
 //! ```
 //! use lc_core::curve::{Curve, CurveStatus, Interpolation, Node};
@@ -421,9 +423,10 @@ impl Curve {
     }
 
     /// The stated error bound of [`Curve::eval`] at `s` against
-    /// [`Curve::eval_f64`], in output units: 0.5 + 2^-28·(|Δy| + |D0| + |D1|)
-    /// with the terms of the segment holding `s` (0.5 outside the table,
-    /// where the value is a node's). Verification helper.
+    /// [`Curve::eval_f64`], in output units: 0.5 + 2^-28·|Δy| (linear), or
+    /// 0.5 + 3·2^-9 + 2^-28·(|Δy| + |D0| + |D1|) (cubic), with the terms of
+    /// the segment holding `s` (0.5 outside the table, where the value is a
+    /// node's). Verification helper.
     pub fn error_bound(&self, s: Shift) -> f64 {
         let raw = s.raw_q40();
         let last = self.len().saturating_sub(1).min(MAX_NODES - 1);
@@ -438,11 +441,12 @@ impl Curve {
         let d1 = (seg.c3_q8 as f64 / 256.0)
             + 2.0 * (f64::from(self.y[i + 1]) - f64::from(self.y[i]))
             - d0;
-        let tangents = match self.interpolation {
-            Interpolation::Linear => 0.0,
-            Interpolation::MonotoneCubic => d0.abs() + d1.abs(),
+        // Cubic: three Horner steps each round a Q8 value (≤ 2^-9 each).
+        let (tangents, horner) = match self.interpolation {
+            Interpolation::Linear => (0.0, 0.0),
+            Interpolation::MonotoneCubic => (d0.abs() + d1.abs(), 3.0 / 512.0),
         };
-        0.5 + 3.725_290_298_461_914e-9 * (dy + tangents)
+        0.5 + horner + 3.725_290_298_461_914e-9 * (dy + tangents)
     }
 
     /// `f64` twin of [`Curve::eval`]: the same curve (same nodes, same
