@@ -219,10 +219,17 @@ pub fn budget(b: &BudgetInput, curve: Option<&Curve>) -> BudgetReport {
         .map(|cv| {
             (0..cv.len())
                 .filter_map(|i| cv.node(i))
-                .map(|n| {
+                .enumerate()
+                .map(|(i, n)| {
                     let s = n.shift.to_f64();
                     let h = 1e-7;
-                    let slope = ((cv.eval_f64(s + h) - cv.eval_f64(s - h)) / (2.0 * h)).abs();
+                    // One-sided at the ends: beyond them the curve is clamped.
+                    let (a, b) = match i {
+                        0 => (s, s + h),
+                        i if i + 1 == cv.len() => (s - h, s),
+                        _ => (s - h, s + h),
+                    };
+                    let slope = ((cv.eval_f64(b) - cv.eval_f64(a)) / (b - a)).abs();
                     // One count at this shift: ticks scale with √(1 + s).
                     let ds = shift_step * (1.0 + s) / (1.0 + s).sqrt();
                     NodeBudget {

@@ -35,6 +35,7 @@ pub mod calib;
 pub mod convert;
 pub mod counts;
 pub mod csvin;
+pub mod demo;
 pub mod fieldlog;
 pub mod riglog;
 pub mod sim;

@@ -25,6 +25,7 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    Demo(cmd::demo::Args),
     Simulate(cmd::simulate::Args),
     Calibrate(cmd::calibrate::Args),
     Inspect(cmd::inspect::Args),
@@ -38,6 +39,7 @@ enum Command {
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
+        Command::Demo(a) => cmd::demo::run(a),
         Command::Simulate(a) => cmd::simulate::run(a),
         Command::Calibrate(a) => cmd::calibrate::run(a),
         Command::Units(a) => cmd::units::run(a),

@@ -36,10 +36,12 @@ pub fn judge(fit: &UnitFit, unit: &UnitLog, plan: &Plan) -> Vec<String> {
     }
     if let Some(r) = l.rest_frequency_hz {
         if !r.contains(fit.rest_frequency_hz) {
+            let lim = |v: Option<f64>| v.map_or("…".to_string(), |v| si(v, "Hz"));
             out.push(format!(
-                "rest frequency {} outside {} Hz",
+                "rest frequency {} outside {} … {}",
                 si(fit.rest_frequency_hz, "Hz"),
-                r.describe()
+                lim(r.min),
+                lim(r.max)
             ));
         }
     }

@@ -4,6 +4,7 @@ pub mod budget;
 pub mod calibrate;
 pub mod convert;
 pub mod counts;
+pub mod demo;
 pub mod inspect;
 pub mod simulate;
 pub mod units;

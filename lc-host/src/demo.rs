@@ -1,0 +1,219 @@
+//! The demo scenario (DESIGN.md §8) end to end, in one folder: a lot of 24
+//! proximity units simulated, calibrated and reported; one unit's image
+//! inspected; that unit logged on a warming press, converted exactly as its
+//! firmware would, verified and budgeted. Everything comes from the
+//! project's own simulator; nothing is downloaded.
+
+use crate::budget::{budget, class1_tempco_ppm_per_k, to_text as budget_text, BudgetInput, Gating};
+use crate::calib::lot::calibrate_lot;
+use crate::calib::plan::Plan;
+use crate::calib::report::{write_lot_plots, write_unit_plot};
+use crate::convert::{convert_log, Converter};
+use crate::fieldlog::FieldLogReader;
+use crate::riglog::RigLogReader;
+use crate::sim::field::{write_field_log, Fault, FaultKind, FieldSpec};
+use crate::sim::rig::{units, write_rig_log, LotSpec};
+use crate::store::Store;
+use crate::stream::OnBadRow;
+use crate::svg::{Quantity, TracePlot};
+use crate::verify::{to_text as verify_text, verify, Firmware, VerifyOptions};
+use anyhow::{Context, Result};
+use std::io::Write;
+use std::path::Path;
+
+/// The demo's calibration plan (the same as examples/data/demo-plan.toml).
+pub const PLAN: &str = include_str!("../../examples/data/demo-plan.toml");
+
+/// Runs the demo into `out`, narrating on `say`.
+pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
+    std::fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
+    let plan = Plan::parse(PLAN, Path::new("demo-plan.toml"))?;
+    writeln!(
+        say,
+        "LC sensor toolkit demo: lot DEMO-01 of 24 proximity sensors (simulated), in {}",
+        out.display()
+    )?;
+    writeln!(say, "Not a safety-rated component: readings that protect people or machines need a safety function built to the applicable standards.\n")?;
+
+    // 1. Simulate the lot's rig log.
+    let mut spec = LotSpec::demo("DEMO-01", 24, 1);
+    spec.bad_capacitor_every = 12;
+    let rig = out.join("rig.csv");
+    crate::atomic::write_atomically(&rig, |w| write_rig_log(&spec, w))?;
+    writeln!(
+        say,
+        "1. Rig log: each unit stepped through a plate 0.5 → 8 mm at 25 °C and 60 °C: {}",
+        rig.display()
+    )?;
+    writeln!(say, "   (unit DEMO-01-0012 and DEMO-01-0024 got a cracked capacitor, to show the acceptance limits at work)")?;
+
+    // 2. Calibrate.
+    let db = out.join("units.db");
+    let _ = std::fs::remove_file(&db);
+    let _ = std::fs::remove_file(out.join("units.db-wal"));
+    let _ = std::fs::remove_file(out.join("units.db-shm"));
+    let mut store = Store::open(&db)?;
+    let images = out.join("images");
+    std::fs::create_dir_all(&images)?;
+    let report_dir = out.join("report");
+    let reader = RigLogReader::new(std::fs::File::open(&rig)?, &rig)?;
+    let mut plotted = 0;
+    let lot = calibrate_lot(reader, "DEMO-01", &plan, &mut store, Some(&images), |o| {
+        if plotted < 24 && write_unit_plot(&report_dir.join("units"), o, &plan).is_ok() {
+            plotted += 1;
+        }
+    })?;
+    write_lot_plots(&report_dir, &lot, &plan)?;
+    writeln!(
+        say,
+        "2. Calibrated: {} of {} units pass (yield {:.0} %); images in {}, records in {}, plots in {}",
+        lot.passed,
+        lot.units,
+        lot.yield_fraction * 100.0,
+        images.display(),
+        db.display(),
+        report_dir.display()
+    )?;
+    for u in lot.units_list.iter().filter(|u| !u.passed) {
+        writeln!(
+            say,
+            "   {} fails: {}",
+            u.serial,
+            u.reasons.first().map_or("", String::as_str)
+        )?;
+    }
+    if let (Some(lo), Some(hi)) = (lot.rest_frequency_hz.min, lot.rest_frequency_hz.max) {
+        writeln!(
+            say,
+            "   rest frequencies {:.4} … {:.4} MHz; largest residual through the firmware path {:.0} µm",
+            lo / 1e6,
+            hi / 1e6,
+            lot.max_residual.max.unwrap_or(f64::NAN)
+        )?;
+    }
+
+    // 3. Inspect one image.
+    let image_path = images.join("DEMO-01-0007.lcim");
+    let bytes = std::fs::read(&image_path)?;
+    let cal = lc_core::image::Calibration::parse(&bytes)
+        .map_err(|e| anyhow::anyhow!("{}: {e}", image_path.display()))?;
+    let (b1, _) = cal.drift.coefficients_f64();
+    writeln!(
+        say,
+        "3. Image of DEMO-01-0007: {} bytes, CRC valid; rest {:.1} Hz, drift {:+.2} ppm/K, {} curve nodes",
+        bytes.len(),
+        f64::from(cal.reference_hz) / cal.rest.to_f64(),
+        b1 * 1e6,
+        cal.curve.map_or(0, |t| t.nodes().len())
+    )?;
+
+    // 4. Field log: two hours on a press that warms by 20 °C.
+    let unit = units(&LotSpec::demo("DEMO-01", 7, 1))
+        .pop()
+        .context("demo unit")?;
+    let mut field = FieldSpec::demo(unit, 8);
+    field.faults = vec![
+        Fault {
+            kind: FaultKind::OpenCoil,
+            at_s: 1_800.0,
+            duration_s: 2.0,
+        },
+        Fault {
+            kind: FaultKind::Dropouts,
+            at_s: 3_600.0,
+            duration_s: 60.0,
+        },
+        Fault {
+            kind: FaultKind::StuckCounter,
+            at_s: 5_400.0,
+            duration_s: 1.0,
+        },
+    ];
+    let field_path = out.join("field.csv");
+    let rows = crate::atomic::write_atomically(&field_path, |w| write_field_log(&field, w))?;
+    writeln!(say, "4. Field log: {rows} readings over 2 h on a press warming 25 → 45 °C, with an open coil, dropouts and a stuck counter injected: {}", field_path.display())?;
+
+    // 5. Convert exactly as the firmware does.
+    let mut conv = Converter::new(cal).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let readings = out.join("readings.csv");
+    let mut trace: Vec<(f64, f64)> = Vec::new();
+    let mut faults = Vec::new();
+    let mut worst_diff: f64 = 0.0;
+    let reader = FieldLogReader::new(std::fs::File::open(&field_path)?, &field_path)?;
+    let summary = crate::atomic::write_atomically(&readings, |w| {
+        convert_log(
+            reader,
+            w,
+            &mut conv,
+            OnBadRow::Stop,
+            true,
+            |_| {},
+            |c| {
+                let t = c.time_s.unwrap_or(0.0);
+                if matches!(c.reading.status, lc_core::reader::Status::SensorFault(_)) {
+                    faults.push(t);
+                } else if t < 60.0 {
+                    trace.push((t, f64::from(c.reading.value)));
+                }
+                if let Some(v) = c.value_f64 {
+                    worst_diff = worst_diff.max((f64::from(c.reading.value) - v).abs());
+                }
+            },
+        )
+    })?;
+    let plot = TracePlot::new(
+        "DEMO-01-0007 on the press: the first minute",
+        Quantity::new("gap", "µm"),
+        "firmware reading",
+        trace,
+    );
+    crate::atomic::write_bytes(&report_dir.join("trace.svg"), plot.render().as_bytes())?;
+    writeln!(
+        say,
+        "5. Converted with the firmware's own arithmetic: {} ok, {} out of range or no target, {} sensor faults flagged; fixed vs f64 at most {:.3} µm: {}",
+        summary.ok,
+        summary.out_of_range,
+        summary.faults,
+        worst_diff,
+        readings.display()
+    )?;
+
+    // 6. Verify the image's fixed-point path.
+    let opts = VerifyOptions {
+        random_points: 1_000_000,
+        ..VerifyOptions::default()
+    };
+    let report = verify(&cal, &opts, &Firmware, &|_| {})?;
+    writeln!(say, "6. Verified the image over its whole domain (grid plus 10^6 random points; `lc-host verify` runs 10^7):")?;
+    for line in verify_text(&report).lines() {
+        writeln!(say, "   {line}")?;
+    }
+
+    // 7. Budget the readout.
+    let tempco = class1_tempco_ppm_per_k("C0G").context("C0G")?;
+    let input = BudgetInput {
+        reference_hz: 48e6,
+        reference_ppm: 20.0,
+        gating: Gating::Reciprocal,
+        gate: 16_384.0,
+        inductance_h: (7.25e-6, 0.015),
+        capacitance_f: (100e-12, 0.01),
+        parasitic_f: 10e-12,
+        capacitor_tempco_ppm: tempco,
+        inductance_tempco_ppm: 25.0,
+        temperature_c: (-20.0, 85.0, 25.0),
+        calibration_temps_c: vec![25.0, 60.0],
+        target_resolution: None,
+    };
+    let curve = cal.curve.and_then(|t| t.curve().ok());
+    let b = budget(&input, curve.as_ref());
+    writeln!(
+        say,
+        "7. Readout budget of the demo sensor (48 MHz reference, 16 384-cycle gate, C0G):"
+    )?;
+    for line in budget_text(&b, "µm").lines() {
+        writeln!(say, "   {line}")?;
+    }
+    writeln!(say, "\nDone. Open {} in a browser for the lot's histograms, each unit's curve and the press trace.", report_dir.display())?;
+    Ok(())
+}
