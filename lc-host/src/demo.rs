@@ -24,6 +24,9 @@ use std::path::Path;
 /// The demo's calibration plan (the same as examples/data/demo-plan.toml).
 pub const PLAN: &str = include_str!("../../examples/data/demo-plan.toml");
 
+/// The level scenario's plan (examples/data/demo-level-plan.toml).
+pub const LEVEL_PLAN: &str = include_str!("../../examples/data/demo-level-plan.toml");
+
 /// Runs the demo into `out`, narrating on `say`.
 pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     std::fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
@@ -213,6 +216,59 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     )?;
     for line in budget_text(&b, "µm").lines() {
         writeln!(say, "   {line}")?;
+    }
+    // 8. The second scenario: the coolant tank's level probes.
+    let level_plan = Plan::parse(LEVEL_PLAN, Path::new("demo-level-plan.toml"))?;
+    let level_rig = out.join("level-rig.csv");
+    crate::atomic::write_atomically(&level_rig, |w| {
+        crate::sim::level::write_level_rig_log("TANK-01", 8, 1, w)
+    })?;
+    let reader = RigLogReader::new(std::fs::File::open(&level_rig)?, &level_rig)?;
+    let level_lot = calibrate_lot(
+        reader,
+        "TANK-01",
+        &level_plan,
+        &mut store,
+        Some(&images),
+        |_| {},
+    )?;
+    writeln!(
+        say,
+        "8. Coolant tank (horizontal cylinder, 400 mm): {} of {} level probes calibrated at 25 °C and 50 °C, each with its reference electrode and the tank's volume table",
+        level_lot.passed, level_lot.units
+    )?;
+    let unit = crate::sim::level::level_units("TANK-01", 3, 1)
+        .pop()
+        .context("level unit")?;
+    let level_image = std::fs::read(images.join("TANK-01-0003.lcim"))?;
+    let level_cal = lc_core::image::Calibration::parse(&level_image)
+        .map_err(|e| anyhow::anyhow!("level image: {e}"))?;
+    let mut level_reader = lc_core::reader::Reader::from_calibration(&level_cal)
+        .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let g = crate::sim::level::LevelGeometry::DEMO;
+    let truth_l = |h: f64| {
+        lc_core::geometry::horizontal_cylinder_volume_m3(g.diameter_m / 2.0, g.length_m, h) * 1e3
+    };
+    for (h, t) in [(0.1, 20.0), (0.2, 45.0), (0.35, 70.0)] {
+        let (fp, fr) = unit.frequencies(h, t, &g);
+        let pair =
+            |f: f64| lc_core::counting::CountPair::new(4096, (4096.0 * 48e6 / f).round() as u32);
+        let r = level_reader.read(&lc_core::reader::Input {
+            pair: pair(fp),
+            companion: Some(pair(fr)),
+            temperature: lc_core::temperature::CentiCelsius::from_f64(t),
+            ring_count: None,
+        });
+        writeln!(
+            say,
+            "   TANK-01-0003 at {:.0} mm, {t:.0} °C (water εr {:.1}): reads {:.1} mm, {:.2} L (true {:.2} L), {}",
+            h * 1e3,
+            crate::sim::level::water_permittivity(t),
+            f64::from(r.value) / 10.0,
+            f64::from(r.secondary.unwrap_or(0)) / 1e3,
+            truth_l(h),
+            crate::convert::status_name(r.status)
+        )?;
     }
     writeln!(say, "\nDone. Open {} in a browser for the lot's histograms, each unit's curve and the press trace.", report_dir.display())?;
     Ok(())

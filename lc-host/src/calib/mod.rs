@@ -89,4 +89,27 @@ mod tests {
         }
         assert_eq!(passed, 4);
     }
+
+    /// The coolant-tank level lot: the reference electrode cancels the
+    /// water's permittivity drift (78.3 at 25 °C, 69.9 at 50 °C), so the
+    /// level reads within a millimetre at both rig temperatures, and the
+    /// image carries the tank's volume table.
+    #[test]
+    fn simulated_level_lot_calibrates() {
+        let path =
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/data/demo-level-plan.toml");
+        let plan = Plan::load(&path).unwrap();
+        let mut log = Vec::new();
+        crate::sim::level::write_level_rig_log("L", 4, 3, &mut log).unwrap();
+        for unit in RigLogReader::new(log.as_slice(), Path::new("rig.csv")).unwrap() {
+            let (fit, mut reasons) = fit_unit(&unit, &plan).unwrap();
+            reasons.extend(judge(&fit, &unit, &plan));
+            assert!(reasons.is_empty(), "{}: {reasons:?}", unit.serial);
+            assert!(fit.max_residual().unwrap() <= 10.0);
+            assert!(fit.residuals.iter().any(|r| r.temp_c > 45.0));
+            let cal = fit.calibration.unwrap();
+            let (table, scale) = cal.volume.unwrap();
+            assert_eq!((table.nodes().len(), scale.decimal_exponent), (32, -3));
+        }
+    }
 }

@@ -95,6 +95,70 @@ pub struct Metal {
     pub relearn_readings: u32,
 }
 
+/// The tank a level product measures, for its level → volume table.
+#[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Tank {
+    /// horizontal_cylinder, vertical_cylinder or rectangular.
+    pub shape: TankKind,
+    /// Diameter, m (cylinders).
+    pub diameter_m: Option<f64>,
+    /// Length, m (horizontal cylinder).
+    pub length_m: Option<f64>,
+    /// Height, m (vertical cylinder, rectangular).
+    pub height_m: Option<f64>,
+    /// Base area, m² (rectangular).
+    pub base_area_m2: Option<f64>,
+    /// One raw volume unit, m³ (1e-6: millilitres).
+    #[serde(default = "default_volume_step")]
+    pub volume_step_m3: f64,
+    /// Table nodes (2–64).
+    #[serde(default = "default_nodes")]
+    pub nodes: usize,
+}
+
+fn default_volume_step() -> f64 {
+    1e-6
+}
+
+/// Tank shapes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TankKind {
+    /// A cylinder lying on its side.
+    HorizontalCylinder,
+    /// An upright cylinder.
+    VerticalCylinder,
+    /// Any constant cross-section.
+    Rectangular,
+}
+
+impl Tank {
+    /// The geometry, or what is missing.
+    pub fn shape(&self) -> Result<lc_core::geometry::TankShape, String> {
+        use lc_core::geometry::TankShape;
+        let need = |v: Option<f64>, key: &str| {
+            v.filter(|x| *x > 0.0).ok_or(format!(
+                "tank.{key} must be given and positive for this shape"
+            ))
+        };
+        Ok(match self.shape {
+            TankKind::HorizontalCylinder => TankShape::HorizontalCylinder {
+                radius_m: need(self.diameter_m, "diameter_m")? / 2.0,
+                length_m: need(self.length_m, "length_m")?,
+            },
+            TankKind::VerticalCylinder => TankShape::VerticalCylinder {
+                radius_m: need(self.diameter_m, "diameter_m")? / 2.0,
+                height_m: need(self.height_m, "height_m")?,
+            },
+            TankKind::Rectangular => TankShape::Rectangular {
+                base_area_m2: need(self.base_area_m2, "base_area_m2")?,
+                height_m: need(self.height_m, "height_m")?,
+            },
+        })
+    }
+}
+
 /// A closed interval; either end may be omitted.
 #[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -173,6 +237,8 @@ pub struct Plan {
     pub ringdown: Option<Ringdown>,
     /// Metal parameters (metal kind).
     pub metal: Option<Metal>,
+    /// The tank (level kind, optional): adds a volume table to the image.
+    pub tank: Option<Tank>,
     /// Acceptance limits.
     #[serde(default)]
     pub limits: Limits,
@@ -303,6 +369,20 @@ impl Plan {
                 return bad("metal", "only a metal product takes a [metal] table".into())
             }
             _ => {}
+        }
+        if let Some(t) = &plan.tank {
+            if p.kind != Kind::Level {
+                return bad("tank", "only a level product takes a [tank] table".into());
+            }
+            if let Err(e) = t.shape() {
+                return bad("tank", e);
+            }
+            if !(2..=lc_core::curve::MAX_NODES).contains(&t.nodes) || !(t.volume_step_m3 > 0.0) {
+                return bad(
+                    "tank.nodes",
+                    "nodes must be 2 … 64 and volume_step_m3 positive".into(),
+                );
+            }
         }
         Ok(plan)
     }

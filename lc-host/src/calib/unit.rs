@@ -222,10 +222,12 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
         None
     };
     // Front shift of every row, as the firmware will form it: ratiometric
-    // with a companion, plain otherwise.
+    // with a companion coil (proximity, metal), plain otherwise; a level
+    // product's companion is its reference electrode, used below.
+    let ratiometric = companion_rest_ratio.is_some() && p.kind != Kind::Level;
     let shift_of = |r: &RigRow| -> f64 {
-        match (companion_rest_ratio, r.companion) {
-            (Some(cr), Some(c)) => {
+        match (ratiometric, companion_rest_ratio, r.companion) {
+            (true, Some(cr), Some(c)) => {
                 let q = (ratio(r.pair) / ratio(c)) / (rest_ratio / cr);
                 q * q - 1.0
             }
@@ -241,8 +243,11 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
     // whose target was also measured at the reference temperature.
     let mut dts = Vec::new();
     let mut gs = Vec::new();
+    // A level probe's shift with liquid moves with the liquid's
+    // permittivity, not with the tank's L·C: its drift model comes from the
+    // empty steps alone (the reference electrode handles the liquid).
     for (i, r) in rows.iter().enumerate() {
-        if in_ref(i) {
+        if in_ref(i) || (p.kind == Kind::Level && r.target_m.is_some()) {
             continue;
         }
         let same = rows
@@ -290,6 +295,22 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
         .zip(&s)
         .map(|(r, &si)| (1.0 + si) * (1.0 + g(r.temp_c - t_ref)) - 1.0)
         .collect();
+    // The curve's input per row: the compensated shift, or for a level
+    // product with a reference electrode the ratio of probe and reference
+    // shifts (both compensated), as the level reader forms it.
+    let reference = |r: &RigRow| -> Option<f64> {
+        let (cr, c) = (companion_rest_ratio?, r.companion?);
+        let q = ratio(c) / cr;
+        Some((q * q) * (1.0 + g(r.temp_c - t_ref)) - 1.0)
+    };
+    let curve_x: Vec<Option<f64>> = rows
+        .iter()
+        .zip(&s_comp)
+        .map(|(r, &sc)| match (p.kind, companion_rest_ratio) {
+            (Kind::Level, Some(_)) => reference(r).filter(|sr| *sr > 1e-4).map(|sr| sc / sr),
+            _ => Some(sc),
+        })
+        .collect();
 
     // Quality factor from the ring count at rest.
     let q = match (
@@ -315,7 +336,7 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
     let points: Vec<(f64, f64, usize)> = rows
         .iter()
         .enumerate()
-        .filter_map(|(i, r)| r.target_m.map(|x| (x, s_comp[i], i)))
+        .filter_map(|(i, r)| Some((r.target_m?, curve_x[i]?, i)))
         .collect();
     let mut nodes = Vec::new();
     let mut table = None;
@@ -336,7 +357,8 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
                 }
             )),
             Some(fit) => {
-                monotone_violations = count_violations(&rows, &s_comp, &fit, in_ref);
+                let xs_or_nan: Vec<f64> = curve_x.iter().map(|v| v.unwrap_or(f64::NAN)).collect();
+                monotone_violations = count_violations(&rows, &xs_or_nan, &fit, in_ref);
                 let (lo, hi) = fit.range();
                 let mut pts: Vec<(f64, f64)> = (0..p.curve_nodes)
                     .map(|k| {
@@ -428,7 +450,7 @@ fn count_violations(
 ) -> usize {
     let mut by_target: Vec<(f64, f64, f64)> = Vec::new(); // (x, mean s, quantisation step)
     for (i, r) in rows.iter().enumerate() {
-        if let (Some(x), true) = (r.target_m, in_ref(i)) {
+        if let (Some(x), true, false) = (r.target_m, in_ref(i), s[i].is_nan()) {
             let q = 2.0 * (1.0 + s[i]) / f64::from(r.pair.ticks.max(1));
             match by_target
                 .iter_mut()
@@ -512,6 +534,16 @@ fn build_calibration(
     if kind != ReaderKind::Metal && table.is_none() {
         return None;
     }
+    let volume = match (&plan.tank, kind) {
+        (Some(t), ReaderKind::Level) => match volume_table(t, p.output_step_m) {
+            Ok(v) => Some(v),
+            Err(e) => {
+                reasons.push(format!("volume table: {e}"));
+                return None;
+            }
+        },
+        _ => None,
+    };
     let cal = Calibration {
         kind,
         serial,
@@ -538,7 +570,7 @@ fn build_calibration(
         } else {
             table
         },
-        volume: None,
+        volume,
         metal,
     };
     // The image must encode and parse back: the firmware will see exactly it.
@@ -550,6 +582,48 @@ fn build_calibration(
             None
         }
     }
+}
+
+/// The level → volume table of a plan's tank, for the image.
+fn volume_table(
+    tank: &super::plan::Tank,
+    output_step_m: f64,
+) -> Result<(Table, OutputScale), String> {
+    use lc_core::curve::Interpolation;
+    use lc_core::geometry::VolumeTable;
+    let shape = tank.shape()?;
+    let vt = VolumeTable::sample(
+        &shape,
+        1.0 / output_step_m,
+        1.0 / tank.volume_step_m3,
+        tank.nodes,
+        Interpolation::MonotoneCubic,
+    )
+    .map_err(|e| e.to_string())?;
+    let nodes: Vec<Node> = (0..vt.len()).filter_map(|i| vt.curve().node(i)).collect();
+    let xs: Vec<f64> = nodes.iter().map(|n| n.shift.to_f64()).collect();
+    let ys: Vec<f64> = nodes.iter().map(|n| f64::from(n.value)).collect();
+    let d = pchip_derivatives(&xs, &ys).ok_or("too few nodes")?;
+    let dq: Vec<i64> = d[..nodes.len()]
+        .iter()
+        .map(|v| (v * 65_536.0).round() as i64)
+        .collect();
+    let table = Table::cubic(&nodes, &dq).map_err(|e| e.to_string())?;
+    // Litres: one raw unit = volume_step_m3 · 1000 L.
+    let exponent = (tank.volume_step_m3 * 1e3).log10().round();
+    if (10f64.powf(exponent) - tank.volume_step_m3 * 1e3).abs() > 1e-9 * tank.volume_step_m3 * 1e3 {
+        return Err(format!(
+            "volume step {} m³ is not a power of ten of a litre",
+            tank.volume_step_m3
+        ));
+    }
+    Ok((
+        table,
+        OutputScale {
+            unit: OutputUnit::Litre,
+            decimal_exponent: exponent as i8,
+        },
+    ))
 }
 
 fn residuals(cal: &Calibration, rows: &[RigRow], step: f64) -> Vec<Residual> {

@@ -48,6 +48,21 @@ enum What {
         #[arg(short, long)]
         output: Option<PathBuf>,
     },
+    /// A rig log of a lot of capacitive level probes (the coolant tank)
+    LevelRig {
+        /// Lot name
+        #[arg(long, default_value = "TANK-01")]
+        lot: String,
+        /// Units in the lot
+        #[arg(long, default_value_t = 8)]
+        units: usize,
+        /// Seed
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Output file (standard output when absent or `-`)
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+    },
     /// A field log of one unit of a simulated lot on a machine
     ///
     /// The unit is the same simulated unit as in `simulate rig` with the same lot, seed and
@@ -120,6 +135,18 @@ pub fn run(a: Args) -> Result<()> {
             spec.bad_capacitor_every = bad_every;
             spec.corrupt_row_every = corrupt_every;
             with_output(output.as_deref(), |w| Ok(write_rig_log(&spec, w)?))?;
+        }
+        What::LevelRig {
+            lot,
+            units,
+            seed,
+            output,
+        } => {
+            with_output(output.as_deref(), |w| {
+                Ok(lc_host::sim::level::write_level_rig_log(
+                    &lot, units, seed, w,
+                )?)
+            })?;
         }
         What::Field {
             lot,

@@ -2,6 +2,7 @@
 //! model, seeded and reproducible, for demos and tests.
 
 pub mod field;
+pub mod level;
 pub mod rig;
 mod rng;
 
