@@ -377,7 +377,9 @@ impl Plan {
             if let Err(e) = t.shape() {
                 return bad("tank", e);
             }
-            if !(2..=lc_core::curve::MAX_NODES).contains(&t.nodes) || !(t.volume_step_m3 > 0.0) {
+            if !(2..=lc_core::curve::MAX_NODES).contains(&t.nodes)
+                || t.volume_step_m3.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
+            {
                 return bad(
                     "tank.nodes",
                     "nodes must be 2 … 64 and volume_step_m3 positive".into(),
