@@ -294,8 +294,21 @@ impl Curve {
                 return Err(CurveError::BadDerivatives);
             }
         }
-        for i in 0..nodes.len() - 1 {
-            let w = i128::from(c.x[i + 1]) - i128::from(c.x[i]);
+        // Checked accesses throughout: no bounds-check panic survives on
+        // the firmware path (the panic-never build proves it).
+        let n = nodes.len().min(MAX_NODES);
+        for i in 0..n.saturating_sub(1) {
+            let (Some(&x0), Some(&x1), Some(&y0), Some(&y1), Some(&dd0), Some(&dd1)) = (
+                c.x.get(i),
+                c.x.get(i + 1),
+                c.y.get(i),
+                c.y.get(i + 1),
+                derivatives_q16.get(i),
+                derivatives_q16.get(i + 1),
+            ) else {
+                return Err(CurveError::BadDerivatives);
+            };
+            let w = i128::from(x1) - i128::from(x0);
             // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
             let term = |d: i64| -> Result<i64, CurveError> {
                 let r = (w * i128::from(d) + (1 << 47)) >> 48;
@@ -304,13 +317,15 @@ impl Curve {
                     _ => Err(CurveError::SegmentTooSteep),
                 }
             };
-            let d0 = term(derivatives_q16[i])?;
-            let d1 = term(derivatives_q16[i + 1])?;
-            let dy = (i64::from(c.y[i + 1]) - i64::from(c.y[i])) << 8;
+            let d0 = term(dd0)?;
+            let d1 = term(dd1)?;
+            let dy = (i64::from(y1) - i64::from(y0)) << 8;
             if dy.unsigned_abs() >= 1 << 29 {
                 return Err(CurveError::SegmentTooSteep);
             }
-            let seg = &mut c.seg[i];
+            let Some(seg) = c.seg.get_mut(i) else {
+                return Err(CurveError::TooManyNodes);
+            };
             seg.c1_q8 = d0;
             seg.c2_q8 = 3 * dy - 2 * d0 - d1;
             seg.c3_q8 = d0 + d1 - 2 * dy;
