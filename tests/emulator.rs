@@ -4,13 +4,16 @@
 //! `microbit`) and the Cortex-M4F (`thumbv7em-none-eabihf`, QEMU
 //! `mps2-an386`), runs it under `qemu-system-arm` and checks:
 //!
-//! - the `pipeline` binary prints exactly what the very same source file
-//!   (`examples/firmware/src/pipeline.rs`, included below) prints on the
-//!   host, byte for byte: lc-core gives bit-identical results on all three;
+//! - the `pipeline` binary prints exactly what the very same source files
+//!   (`examples/firmware/src/pipeline.rs`, the stage table, and
+//!   `examples/firmware/src/readout.rs`, calibration image bytes to
+//!   readings; both included below) print on the host, byte for byte:
+//!   lc-core gives bit-identical results on all three;
 //! - the `panic_proof` binary links with `panic-never` as its panic handler
 //!   (the link fails if any panic path of lc-core's firmware path is
-//!   reachable), and its digest of every result equals the host's;
-//! - the `cost` binary runs to the end.
+//!   reachable), and its digests of every result equal the host's;
+//! - the `cost` binary runs to the end, and its `f32` versions of the
+//!   readers agree with the fixed readers.
 //!
 //! Without `qemu-system-arm` or the two Rust targets the tests print why
 //! they were skipped and pass, unless the environment variable `CI` is set:
@@ -18,6 +21,8 @@
 
 #[path = "../examples/firmware/src/pipeline.rs"]
 mod pipeline;
+#[path = "../examples/firmware/src/readout.rs"]
+mod readout;
 
 use std::env;
 use std::ffi::OsString;
@@ -38,9 +43,18 @@ struct Core {
     qemu_machine: &'static [&'static str],
 }
 
+/// The microbit's SRAM is enlarged from 16 KiB to 64 KiB: the readout needs
+/// about 39 KiB of stack on the M0 (examples/firmware/memory/microbit.x).
 const M0: Core = Core {
     triple: "thumbv6m-none-eabi",
-    qemu_machine: &["-machine", "microbit", "-cpu", "cortex-m0"],
+    qemu_machine: &[
+        "-machine",
+        "microbit",
+        "-cpu",
+        "cortex-m0",
+        "-global",
+        "nrf51-soc.sram-size=65536",
+    ],
 };
 
 const M4F: Core = Core {
@@ -220,6 +234,7 @@ fn assert_same_text(expected: &str, got: &str, what: &str) {
 fn host_pipeline() -> String {
     let mut text = String::new();
     pipeline::run(&mut text).expect("writing to a String cannot fail");
+    readout::run(&mut text).expect("writing to a String cannot fail");
     text
 }
 
@@ -244,9 +259,61 @@ fn host_pipeline_has_one_line_per_case() {
         + pipeline::ROWS.len()
         + pipeline::CAPTURES.len()
         + pipeline::WIDENERS.len();
-    // A header and an end marker around one line per case.
-    assert_eq!(lines, cases + 2, "{text}");
-    assert!(text.ends_with("# end\n"));
+    // The readout: the board, one line per image, row and malformed image.
+    let readout_cases = 1 + readout::IMAGES.len() + readout::ROWS.len() + readout::MALFORMED.len();
+    // A header and an end marker around each table.
+    assert_eq!(lines, cases + 2 + readout_cases + 2, "{text}");
+    assert!(text.contains("\n# end\n# lc-core readout"), "{text}");
+    assert!(text.ends_with("# end readout\n"));
+}
+
+/// The readout reaches every status it is meant to show: each malformed
+/// image is refused with its own error (one is accepted as stored in a
+/// flash page), and every unit gives readings.
+#[test]
+fn host_readout_covers_its_cases() {
+    let mut text = String::new();
+    readout::run(&mut text).unwrap();
+    for needle in [
+        "board ntc=ok chain=ok",
+        "-> reader=Proximity",
+        "-> reader=Level",
+        "-> reader=Metal",
+        "error=Truncated",
+        "error=BadMagic",
+        "error=UnknownVersion",
+        "error=LengthMismatch",
+        "error=BadCrc",
+        "error=OutOfRange(ReaderKind)",
+        "error=BadCurve(NotMonotone)",
+        "error=BadWindow(EmptyBand)",
+        "error=BadDrift(CorrectionTooLarge)",
+        "error=BadVolume(BadDerivatives)",
+        "error=OutOfRange(Reserved)",
+        "same_as_base=true",
+        "status=Ok",
+        "status=NoTarget",
+        "status=BelowRange",
+        "status=AboveRange",
+        "status=SensorFault(Counts(NoOscillation))",
+        "status=SensorFault(Counts(NoReference))",
+        "status=SensorFault(Counts(FrequencyTooHigh))",
+        "status=SensorFault(Counts(FrequencyTooLow))",
+        "status=SensorFault(Counts(TooFewCycles))",
+        "status=SensorFault(Companion(None))",
+        "status=SensorFault(Companion(Some(NoOscillation)))",
+        "status=SensorFault(Companion(Some(FrequencyTooLow)))",
+        "status=SensorFault(Reference)",
+        "t=SensorShorted",
+        "t=SensorOpen",
+        "t=CodeOutOfRange",
+        "t=OutOfRange",
+        "event=Entered",
+        "event=Left",
+    ] {
+        assert!(text.contains(needle), "missing `{needle}` in:\n{text}");
+    }
+    assert!(!text.contains("no reader"), "{text}");
 }
 
 #[test]
@@ -267,12 +334,18 @@ fn panic_never_proof_links_and_matches_host() {
         return;
     }
     let expected = format!(
-        "digest {:08x}\n",
+        "digest {:08x}\nreadout {:08x}\n",
         pipeline::digest(
             &pipeline::UNITS,
             &pipeline::ROWS,
             &pipeline::CAPTURES,
             &pipeline::WIDENERS,
+        ),
+        readout::digest(
+            &readout::BOARD,
+            &readout::IMAGES,
+            &readout::MALFORMED,
+            readout::ROWS
         )
     );
     let elfs = [&M0, &M4F].map(|core| (core, build(core, "panic_proof", &["panic-never"])));
@@ -297,6 +370,14 @@ fn cost_runs_on_both_cores() {
         let out = emulate(core, &build(core, "cost", &[]));
         assert!(out.contains("instructions per tick"), "{out}");
         assert!(out.contains("fixed shift, configured gate"), "{out}");
+        assert!(out.contains("fixed proximity: pair + T -> gap"), "{out}");
+        assert!(
+            out.contains("f32 level: 2 pairs + T -> level, volume"),
+            "{out}"
+        );
+        // The f32 versions compute what the fixed readers compute.
+        assert!(out.contains("max |gap difference| 0 um"), "{out}");
+        assert!(out.contains("0 class mismatches"), "{out}");
         assert!(out.ends_with("# end\n"), "{out}");
     }
 }

@@ -1,5 +1,6 @@
-//! Support for the firmware example binaries: the shared pipeline table and
-//! formatter, host output over semihosting, exit, and the panic handler.
+//! Support for the firmware example binaries: the shared stage table
+//! ([`pipeline`]) and the whole readout from calibration image to reading
+//! ([`readout`]), host output over semihosting, exit, and the panic handler.
 //!
 //! Runs on QEMU's `microbit` (Cortex-M0, `thumbv6m-none-eabi`) and
 //! `mps2-an386` (Cortex-M4F, `thumbv7em-none-eabihf`) machines; see
@@ -9,6 +10,7 @@
 #![deny(missing_docs)]
 
 pub mod pipeline;
+pub mod readout;
 
 use cortex_m_semihosting::{debug, hio};
 

@@ -11,11 +11,16 @@
 //! cycle counts: QEMU charges every instruction the same, whatever the
 //! core's pipeline, multiplier or memory would take.
 //!
-//! Each path runs `ITERATIONS` times over eight pairs of unit A of the
-//! pipeline table (4096-cycle reciprocal gate, 16 MHz reference). Inputs
-//! and context pass through `black_box` on every iteration, as a reading
-//! from a timer and a calibration in RAM would, and results go out through
-//! `black_box`; the same loop with no work (the empty loop) is subtracted.
+//! The stage paths run `ITERATIONS` times over eight pairs of unit A of the
+//! pipeline table (4096-cycle reciprocal gate, 16 MHz reference). The full
+//! readings run `ITERATIONS` times over eight inputs of the readout's units
+//! (`readout.rs`), with readers built at run time from the committed
+//! calibration images, against `f32` versions of the same pipelines
+//! (`cost/float.rs`); loading (parse, reader construction) runs
+//! `LOAD_ITERATIONS` times. Inputs and context pass through `black_box` on
+//! every iteration, as a reading from a timer and a calibration in RAM
+//! would, and results go out through `black_box`; the same loop with no
+//! work (the empty loop) is subtracted.
 #![no_std]
 #![no_main]
 
@@ -25,13 +30,29 @@ use core::hint::black_box;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
 use cortex_m_rt::entry;
 use lc_core::counting::{CountPair, FaultWindow};
+use lc_core::curve::Curve;
+use lc_core::drift::TemperatureModel;
+use lc_core::image::Calibration;
 use lc_core::ratio::{frequency, period_ratio};
-use lc_core::shift::ShiftConverter;
+use lc_core::reader::{Input, Reader};
+use lc_core::shift::{Shift, ShiftConverter};
+use lc_core::temperature::{CentiCelsius, NtcBeta};
 use lc_firmware::pipeline::{Unit, UNITS};
+use lc_firmware::readout::{self, BOARD, IMAGES, LEVEL, METAL, PROXIMITY, PROXIMITY_TC};
 use lc_firmware::{exit, stdout};
+
+#[path = "cost/cases.rs"]
+mod cases;
+#[path = "cost/float.rs"]
+mod float;
+use cases::PROXIMITY_CASES;
+use float::{FloatLevel, FloatMetal, FloatNtc, FloatProximity};
 
 /// Readings per timed path.
 const ITERATIONS: u32 = 4096;
+
+/// Calls per timed loading path (parse, reader construction).
+const LOAD_ITERATIONS: u32 = 64;
 
 /// Measured ticks over unit A's 4096-cycle gate, from the pipeline table:
 /// rest, warm, shifts of about −0.01, −0.1, −0.3, −0.9 and +7, and one
@@ -127,9 +148,14 @@ impl Scale {
     /// Instructions per reading, in tenths, rounded to nearest, for `ticks`
     /// over `ITERATIONS` readings less the empty loop's `empty` ticks.
     fn tenths_per_reading(&self, ticks: u32, empty: u32) -> i64 {
+        self.tenths_per_call(ticks, empty, ITERATIONS)
+    }
+
+    /// As [`Scale::tenths_per_reading`], over `iterations` calls.
+    fn tenths_per_call(&self, ticks: u32, empty: u32, iterations: u32) -> i64 {
         let net = i64::from(ticks) - i64::from(empty);
         let num = net * 10 * self.instructions;
-        let den = self.ticks * i64::from(ITERATIONS);
+        let den = self.ticks * i64::from(iterations);
         (2 * num + num.signum() * den) / (2 * den)
     }
 }
@@ -148,10 +174,18 @@ impl fmt::Display for Tenths {
 }
 
 /// A short text built in place.
-#[derive(Default)]
 struct Text {
-    bytes: [u8; 24],
+    bytes: [u8; 48],
     len: usize,
+}
+
+impl Default for Text {
+    fn default() -> Self {
+        Self {
+            bytes: [0; 48],
+            len: 0,
+        }
+    }
 }
 
 impl Text {
@@ -195,44 +229,55 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
         scale.instructions / scale.ticks,
         (scale.instructions % scale.ticks) * 1000 / scale.ticks,
     )?;
+    stages(out, ctx, &pairs, &scale)?;
+    full_readings(out, &scale)?;
+    writeln!(out, "# end")
+}
 
-    let empty = time(ctx, &pairs, |_, pair| {
+/// The stage table: one stage of the shift path per row.
+fn stages(
+    out: &mut impl Write,
+    ctx: &Context,
+    pairs: &[CountPair; 8],
+    scale: &Scale,
+) -> fmt::Result {
+    let empty = time(ctx, pairs, |_, pair| {
         black_box(pair);
     });
     let timings = [
         Timing {
             label: "fixed shift, configured gate",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let _ = black_box(c.gated.shift(pair));
             }),
         },
         Timing {
             label: "fixed shift, division path",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let _ = black_box(c.general.shift(pair));
             }),
         },
         Timing {
             label: "fixed frequency",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let _ = black_box(frequency(pair, c.reference_hz));
             }),
         },
         Timing {
             label: "fixed period ratio",
-            ticks: time(ctx, &pairs, |_, pair| {
+            ticks: time(ctx, pairs, |_, pair| {
                 let _ = black_box(period_ratio(pair));
             }),
         },
         Timing {
             label: "fixed fault window",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let _ = black_box(c.window.check(pair));
             }),
         },
         Timing {
             label: "f32 f, p, s with division",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let m = &c.float;
                 let (cycles, ticks) = (pair.cycles as f32, pair.ticks as f32);
                 let f = m.reference_hz * cycles / ticks;
@@ -243,7 +288,7 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
         },
         Timing {
             label: "f32 f, p, s with 1/N",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let m = &c.float;
                 let ticks = pair.ticks as f32;
                 let f = m.reference_times_gate / ticks;
@@ -254,14 +299,14 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
         },
         Timing {
             label: "f32 s only, division",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let r = pair.ticks as f32 / pair.cycles as f32 * c.float.inv_rest;
                 black_box(r * r - 1.0);
             }),
         },
         Timing {
             label: "f32 s only, 1/(p_rest N)",
-            ticks: time(ctx, &pairs, |c, pair| {
+            ticks: time(ctx, pairs, |c, pair| {
                 let r = pair.ticks as f32 * c.float.inv_rest_gate;
                 black_box(r * r - 1.0);
             }),
@@ -283,7 +328,319 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
             Tenths(scale.tenths_per_reading(t.ticks, empty))
         )?;
     }
-    writeln!(out, "# end")
+    Ok(())
+}
+
+/// SysTick ticks for `iterations` calls of `f` on the cases in turn, with
+/// a mutable context (a reader keeps state).
+#[inline(never)]
+fn time_cases<C, T>(
+    ctx: &mut C,
+    cases: &[T; 8],
+    iterations: u32,
+    mut f: impl FnMut(&mut C, &T),
+) -> u32 {
+    let cases = black_box(cases);
+    let start = SYST::get_current();
+    for i in 0..iterations {
+        // `i & 7` < 8: the cast is exact and the index in bounds.
+        let case = black_box(&cases[(i & 7) as usize]);
+        f(black_box(&mut *ctx), case);
+    }
+    ticks_between(start, SYST::get_current())
+}
+
+/// A reader from a committed image, the image hidden from the optimizer.
+fn reader(unit: usize) -> Option<(Calibration, Reader)> {
+    let bytes = black_box(IMAGES.get(unit)?.bytes);
+    let cal = Calibration::parse(bytes).ok()?;
+    let reader = Reader::from_calibration(&cal).ok()?;
+    Some((cal, reader))
+}
+
+/// A row of the full-reading table.
+fn row(out: &mut impl Write, label: &str, ticks: u32, tenths: i64) -> fmt::Result {
+    writeln!(out, "{label:<46} {ticks:>9} {:>14}", Tenths(tenths))
+}
+
+/// The full readings: fixed readers against their `f32` versions, and
+/// loading.
+fn full_readings(out: &mut impl Write, scale: &Scale) -> fmt::Result {
+    let Ok(ntc) = black_box(BOARD).ntc() else {
+        return writeln!(out, "board NTC refused");
+    };
+    let b = black_box(BOARD);
+    let float_ntc = FloatNtc::new(b.ntc_r25_ohm, b.ntc_beta_k, b.series_ohm, b.adc_bits);
+    let temperature = |code: u32| ntc.convert(code).ok();
+
+    writeln!(
+        out,
+        "# full readings: readers from the committed images, {ITERATIONS} readings per path, \
+         empty loop subtracted"
+    )?;
+    let mut nothing = ();
+    let empty = time_cases(&mut nothing, &[0u8; 8], ITERATIONS, |_, c| {
+        black_box(c);
+    });
+    writeln!(
+        out,
+        "empty loop: {empty} ticks, {} instructions per iteration",
+        Tenths(scale.tenths_per_reading(empty, 0))
+    )?;
+    writeln!(out, "{:<46} {:>9} {:>14}", "path", "ticks", "instr/reading")?;
+    let per = |ticks| scale.tenths_per_reading(ticks, empty);
+
+    proximity(out, &ntc, &float_ntc, &temperature, &per)?;
+    level(out, &ntc, &float_ntc, &temperature, &per)?;
+    metal(out, &per)?;
+    parts(out, &ntc, &float_ntc, &per)?;
+    loading(out, scale)
+}
+
+/// The proximity reader (the fitted demo unit) against its `f32` version.
+#[inline(never)]
+fn proximity(
+    out: &mut impl Write,
+    ntc: &NtcBeta,
+    float_ntc: &FloatNtc,
+    temperature: &impl Fn(u32) -> Option<CentiCelsius>,
+    per: &impl Fn(u32) -> i64,
+) -> fmt::Result {
+    let Some((cal, mut reader)) = reader(PROXIMITY_TC) else {
+        return writeln!(out, "proximity image refused");
+    };
+    let Some(float) = FloatProximity::new(&cal) else {
+        return writeln!(out, "proximity f32 model refused");
+    };
+    let cases = cases::proximity(temperature, |code| float_ntc.convert(code));
+    // The f32 version computes the same gaps.
+    let mut worst = 0;
+    for c in &cases {
+        let fixed = reader.read(&c.input).value;
+        let (f, _) = float.read(c.input.pair, c.t_c);
+        worst = worst.max((fixed - f).abs());
+    }
+    writeln!(
+        out,
+        "# check: proximity f32 vs fixed, max |gap difference| {worst} um"
+    )?;
+    let ctx = &mut (reader, float, *ntc, *float_ntc);
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.0.read(&x.input));
+    });
+    row(out, "fixed proximity: pair + T -> gap", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        let input = Input {
+            temperature: c.2.convert(x.code).ok(),
+            ..x.input
+        };
+        black_box(c.0.read(&input));
+    });
+    row(out, "fixed proximity: pair + NTC code -> gap", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.0.read(&Input::counts(x.input.pair)));
+    });
+    row(
+        out,
+        "fixed proximity: pair -> gap (no temperature)",
+        t,
+        per(t),
+    )?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.1.read(x.input.pair, x.t_c));
+    });
+    row(out, "f32 proximity: pair + T -> gap", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.1.read(x.input.pair, c.3.convert(x.code)));
+    });
+    row(
+        out,
+        "f32 proximity: pair + NTC code (logf) -> gap",
+        t,
+        per(t),
+    )
+}
+
+/// The level reader against its `f32` version.
+#[inline(never)]
+fn level(
+    out: &mut impl Write,
+    ntc: &NtcBeta,
+    float_ntc: &FloatNtc,
+    temperature: &impl Fn(u32) -> Option<CentiCelsius>,
+    per: &impl Fn(u32) -> i64,
+) -> fmt::Result {
+    let Some((cal, mut reader)) = reader(LEVEL) else {
+        return writeln!(out, "level image refused");
+    };
+    let Some(float) = FloatLevel::new(&cal) else {
+        return writeln!(out, "level f32 model refused");
+    };
+    let cases = cases::level(temperature, |code| float_ntc.convert(code));
+    let (mut worst_level, mut worst_volume) = (0, 0);
+    for c in &cases {
+        let fixed = reader.read(&c.input);
+        let reference = c.input.companion.unwrap_or_default();
+        let (l, v, _) = float.read(c.input.pair, reference, c.t_c);
+        worst_level = worst_level.max((fixed.value - l).abs());
+        worst_volume = worst_volume.max((fixed.secondary.unwrap_or(0) - v).abs());
+    }
+    writeln!(
+        out,
+        "# check: level f32 vs fixed, max |level difference| {worst_level} x 0.1 mm, \
+         max |volume difference| {worst_volume} mL"
+    )?;
+    let ctx = &mut (reader, float, *ntc, *float_ntc);
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.0.read(&x.input));
+    });
+    row(out, "fixed level: 2 pairs + T -> level, volume", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        let input = Input {
+            temperature: c.2.convert(x.code).ok(),
+            ..x.input
+        };
+        black_box(c.0.read(&input));
+    });
+    row(
+        out,
+        "fixed level: 2 pairs + NTC code -> level, volume",
+        t,
+        per(t),
+    )?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        let reference = x.input.companion.unwrap_or_default();
+        black_box(c.1.read(x.input.pair, reference, x.t_c));
+    });
+    row(out, "f32 level: 2 pairs + T -> level, volume", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        let reference = x.input.companion.unwrap_or_default();
+        black_box(c.1.read(x.input.pair, reference, c.3.convert(x.code)));
+    });
+    row(
+        out,
+        "f32 level: 2 pairs + NTC code (logf) -> ...",
+        t,
+        per(t),
+    )
+}
+
+/// The metal reader against its `f32` version.
+#[inline(never)]
+fn metal(out: &mut impl Write, per: &impl Fn(u32) -> i64) -> fmt::Result {
+    let Some((cal, reader)) = reader(METAL) else {
+        return writeln!(out, "metal image refused");
+    };
+    let Some(float) = FloatMetal::new(&cal) else {
+        return writeln!(out, "metal f32 model refused");
+    };
+    let cases = cases::metal();
+    // Two passes on fresh copies: the classes agree.
+    let (mut fixed, mut f32_metal) = (reader.clone(), float);
+    let mut mismatches = 0;
+    for c in cases.iter().chain(&cases) {
+        let a = fixed.read(&c.input).value;
+        let (b, _) = f32_metal.read(c.input.pair, c.input.ring_count.unwrap_or(0));
+        mismatches += u32::from(a != b);
+    }
+    writeln!(
+        out,
+        "# check: metal f32 vs fixed, {mismatches} class mismatches in 16 readings"
+    )?;
+    let ctx = &mut (reader, float);
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.0.read(&x.input));
+    });
+    row(out, "fixed metal: pair + ring count -> class", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.1.read(x.input.pair, x.input.ring_count.unwrap_or(0)));
+    });
+    row(out, "f32 metal: pair + ring count -> class", t, per(t))
+}
+
+/// Single stages of the readers, to see where the instructions go.
+#[inline(never)]
+fn parts(
+    out: &mut impl Write,
+    ntc: &NtcBeta,
+    float_ntc: &FloatNtc,
+    per: &impl Fn(u32) -> i64,
+) -> fmt::Result {
+    let Some((cal, _)) = reader(PROXIMITY_TC) else {
+        return writeln!(out, "proximity image refused");
+    };
+    let Some(Ok(curve)) = cal.curve.map(|t| t.curve()) else {
+        return writeln!(out, "proximity curve refused");
+    };
+    let Ok(chain) = BOARD.chain() else {
+        return writeln!(out, "filter chain refused");
+    };
+    let cases = PROXIMITY_CASES.map(|(ticks, code)| (ticks, code));
+    let shift_of = |ticks: u32| {
+        // Shifts across the curve: −(ticks offset) in 2^-20 steps; only the
+        // cost matters here.
+        Shift::from_raw_q40(-(i64::from(ticks) << 20))
+    };
+    let ctx: &mut (NtcBeta, FloatNtc, TemperatureModel, Curve, readout::Chain) =
+        &mut (*ntc, *float_ntc, cal.drift, curve, chain);
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        let _ = black_box(c.0.convert(x.1));
+    });
+    row(out, "fixed NTC Beta: code -> 0.01 degC", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.1.convert(x.1));
+    });
+    row(out, "f32 NTC Beta: code -> degC (logf)", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.2.compensate(shift_of(x.0), CentiCelsius(x.1 as i32)));
+    });
+    row(out, "fixed drift model: compensate", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.3.eval(shift_of(x.0)));
+    });
+    row(out, "fixed curve: 5 linear nodes", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        // Gap-like values in micrometres from the case.
+        black_box(c.4.update((x.0 & 8_191) as i32));
+    });
+    row(out, "fixed median 3 + EMA + detector", t, per(t))
+}
+
+/// Loading: parse an image, build its reader.
+#[inline(never)]
+fn loading(out: &mut impl Write, scale: &Scale) -> fmt::Result {
+    let mut nothing = ();
+    let empty = time_cases(&mut nothing, &[0u8; 8], LOAD_ITERATIONS, |_, c| {
+        black_box(c);
+    });
+    let per = |ticks| scale.tenths_per_call(ticks, empty, LOAD_ITERATIONS);
+    writeln!(
+        out,
+        "# loading: {LOAD_ITERATIONS} calls per path, instructions per call"
+    )?;
+    for unit in [PROXIMITY, LEVEL, METAL] {
+        let Some(image) = IMAGES.get(unit) else {
+            continue;
+        };
+        let images = [image.bytes; 8];
+        let t = time_cases(&mut nothing, &images, LOAD_ITERATIONS, |_, bytes| {
+            let _ = black_box(Calibration::parse(bytes));
+        });
+        let mut label = Text::default();
+        write!(label, "Calibration::parse {}", image.name)?;
+        row(out, label.as_str(), t, per(t))?;
+        let Ok(cal) = Calibration::parse(image.bytes) else {
+            continue;
+        };
+        let cals = [(); 8].map(|()| &cal);
+        let t = time_cases(&mut nothing, &cals, LOAD_ITERATIONS, |_, cal| {
+            let _ = black_box(Reader::from_calibration(cal));
+        });
+        let mut label = Text::default();
+        write!(label, "Reader::from_calibration {}", image.name)?;
+        row(out, label.as_str(), t, per(t))?;
+    }
+    Ok(())
 }
 
 #[entry]

@@ -11,17 +11,27 @@
 //!   `span`;
 //! - `frequency`, `period_ratio`;
 //! - `RestPoint::from_counts`, `ShiftConverter::new` / `for_gate` /
-//!   `convert` / `shift`, `ShiftReading::quantisation_step`.
+//!   `convert` / `shift`, `ShiftReading::quantisation_step`;
+//! - the whole readout (`readout::digest`): `Calibration::parse` on image
+//!   bytes and on edited copies (truncated, bad magic, bad CRC, field
+//!   errors, a flash page), `Reader::from_calibration` and `Reader::read`
+//!   for the proximity, level and metal readers (fault window, shift,
+//!   companion and reference electrode, drift model, curve and volume
+//!   table, baseline, detector, ring-down), `Divider::new`, `NtcBeta::new` /
+//!   `convert`, `Median::push`, `Ema::new` / `update`, `Detector::new` /
+//!   `update`, and the CRC-32.
 //!
-//! Every result feeds `pipeline::digest`, which is printed as hex over
-//! semihosting without `core::fmt` (its formatting machinery has panic
-//! paths of its own); `tests/emulator.rs` compares it with the host's.
+//! Every result feeds `pipeline::digest` and `readout::digest`, which are
+//! printed as hex over semihosting without `core::fmt` (its formatting
+//! machinery has panic paths of its own); `tests/emulator.rs` compares them
+//! with the host's.
 #![no_std]
 #![no_main]
 
 use core::hint::black_box;
 use cortex_m_rt::entry;
 use lc_firmware::pipeline::{self, CAPTURES, ROWS, UNITS, WIDENERS};
+use lc_firmware::readout::{self, BOARD, IMAGES, MALFORMED};
 use lc_firmware::{exit, stdout};
 use panic_never as _;
 
@@ -33,17 +43,37 @@ fn main() -> ! {
         black_box(&CAPTURES[..]),
         black_box(&WIDENERS[..]),
     );
-    let mut line = *b"digest 00000000\n";
-    let hex = b"0123456789abcdef";
-    for (i, slot) in line[7..15].iter_mut().enumerate() {
-        // A nibble (< 16) indexes the 16 digits: the cast is exact and the
-        // index in bounds, so no panic path.
-        let nibble = (digest >> (28 - 4 * i)) & 0xF;
-        *slot = hex[nibble as usize];
-    }
+    let readout = readout::digest(
+        black_box(&BOARD),
+        black_box(&IMAGES[..]),
+        black_box(&MALFORMED[..]),
+        black_box(readout::ROWS),
+    );
     let ok = match stdout() {
-        Some(mut out) => out.write_all(&line).is_ok(),
+        Some(mut out) => {
+            out.write_all(&hex_line(*b"digest 00000000\n", digest))
+                .is_ok()
+                && out
+                    .write_all(&hex_line(*b"readout 00000000\n", readout))
+                    .is_ok()
+        }
         None => false,
     };
     exit(ok)
+}
+
+/// `line` with its eight digits before the newline replaced by `value` in
+/// hex.
+fn hex_line<const N: usize>(mut line: [u8; N], value: u32) -> [u8; N] {
+    let hex = b"0123456789abcdef";
+    let digits = N.saturating_sub(9)..N.saturating_sub(1);
+    if let Some(slots) = line.get_mut(digits) {
+        for (i, slot) in slots.iter_mut().enumerate() {
+            // A nibble (< 16) indexes the 16 digits: the cast is exact and
+            // the index in bounds, so no panic path.
+            let nibble = (value >> (28 - 4 * (i & 7))) & 0xF;
+            *slot = hex[nibble as usize];
+        }
+    }
+    line
 }
