@@ -5,5 +5,6 @@ pub mod field;
 pub mod level;
 pub mod rig;
 mod rng;
+pub mod tank;
 
 pub use rng::Rng;
