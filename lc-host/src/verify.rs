@@ -42,7 +42,7 @@ pub trait FixedPath: Sync {
         curve.eval(s)
     }
     /// End to end.
-    fn read(&self, reader: &EndToEnd, input: &Input) -> Reading {
+    fn read(&self, reader: &mut EndToEnd, input: &Input) -> Reading {
         reader.read(input)
     }
 }
@@ -56,7 +56,7 @@ impl FixedPath for Firmware {}
 /// The reader whose end-to-end path is verified. (The variants differ in
 /// size; there is one per verification.)
 #[allow(clippy::large_enum_variant)]
-#[derive(Debug)]
+#[derive(Clone, Debug)]
 pub enum EndToEnd {
     /// Proximity.
     Proximity(ProximityReader),
@@ -66,7 +66,7 @@ pub enum EndToEnd {
 
 impl EndToEnd {
     /// One fixed-point reading.
-    pub fn read(&self, input: &Input) -> Reading {
+    pub fn read(&mut self, input: &Input) -> Reading {
         match self {
             EndToEnd::Proximity(r) => r.read(input),
             EndToEnd::Level(r) => r.read(input),
@@ -272,6 +272,9 @@ pub fn verify(
     };
 
     let worker = |w: u64| -> [StageStats; 4] {
+        // Each worker reads through its own reader (readers cache the
+        // drift correction of the last temperature).
+        let mut reader = reader.clone();
         let mut st = [
             StageStats::new("shift", "shift"),
             StageStats::new("drift", "shift"),
@@ -330,7 +333,7 @@ pub fn verify(
                 temperature: Some(t),
                 ..Input::counts(pair)
             };
-            let r = path.read(&reader, &input);
+            let r = path.read(&mut reader, &input);
             if matches!(r.status, Status::SensorFault(_)) {
                 continue;
             }
@@ -430,7 +433,7 @@ mod tests {
                 v.value += 1;
                 v
             }
-            fn read(&self, reader: &EndToEnd, input: &Input) -> Reading {
+            fn read(&self, reader: &mut EndToEnd, input: &Input) -> Reading {
                 let mut r = reader.read(input);
                 r.value += 1;
                 r

@@ -123,6 +123,43 @@ impl FaultWindow {
         self.min_cycles
     }
 
+    /// For readings of exactly `cycles` sensor cycles (a configured
+    /// reciprocal gate), the band of reference ticks the window accepts,
+    /// inclusive: with it, a reading is checked by two comparisons
+    /// ([`FaultWindow::check_ticks`]). `None` when no tick count passes.
+    pub fn ticks_band(&self, cycles: u32) -> Option<(u32, u32)> {
+        if cycles == 0 || cycles < self.min_cycles || self.max_hz == 0 {
+            return None;
+        }
+        let scaled = mul_u32_wide(self.reference_hz, cycles);
+        // f ≤ max ⇔ ticks ≥ f_ref·cycles/max; f ≥ min ⇔ ticks ≤ f_ref·cycles/min.
+        let lo = scaled.div_ceil(u64::from(self.max_hz)).max(1);
+        let hi = match scaled.checked_div(u64::from(self.min_hz)) {
+            Some(h) => h,
+            None => u64::MAX,
+        };
+        let lo = u32::try_from(lo).ok()?;
+        let hi = u32::try_from(hi).unwrap_or(u32::MAX);
+        (lo <= hi).then_some((lo, hi))
+    }
+
+    /// [`FaultWindow::check`] with a precomputed [`FaultWindow::ticks_band`]
+    /// for `gate_cycles`: pairs of exactly that many cycles inside the band
+    /// pass with two comparisons, any other pair gets the full check.
+    /// Accepts and rejects exactly what `check` does.
+    #[inline]
+    pub fn check_ticks(
+        &self,
+        pair: CountPair,
+        gate_cycles: u32,
+        band: (u32, u32),
+    ) -> Result<CountPair, FaultError> {
+        if pair.cycles == gate_cycles && pair.ticks >= band.0 && pair.ticks <= band.1 {
+            return Ok(pair);
+        }
+        self.check(pair)
+    }
+
     /// The pair itself when it is plausible; the first failed check
     /// otherwise, in the order of the [`FaultError`] variants.
     pub fn check(&self, pair: CountPair) -> Result<CountPair, FaultError> {
@@ -218,6 +255,19 @@ mod tests {
     }
 
     proptest! {
+        /// The precomputed tick band accepts exactly what the full check
+        /// accepts, for pairs of the gate's cycle count.
+        #[test]
+        fn tick_band_equals_the_full_check(f_ref in 1u32.., lo in 0u32..50_000_000, span in 0u32..50_000_000, min_cycles in 0u32..5000, cycles in 1u32..100_000, ticks: u32) {
+            let w = FaultWindow::new(f_ref, lo, lo.saturating_add(span), min_cycles).unwrap();
+            let pair = CountPair::new(cycles, ticks);
+            let full = w.check(pair);
+            match w.ticks_band(cycles) {
+                Some(band) => prop_assert_eq!(w.check_ticks(pair, cycles, band), full),
+                None => prop_assert!(full.is_err()),
+            }
+        }
+
         /// The integer check agrees with exact rational arithmetic for every
         /// pair: accepted exactly when the frequency lies in the band.
         #[test]

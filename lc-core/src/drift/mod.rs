@@ -17,4 +17,4 @@ mod companion;
 mod model;
 
 pub use companion::{Companion, CompanionError};
-pub use model::{DriftError, TemperatureModel, TEMPERATURE_DOMAIN};
+pub use model::{DriftError, DriftFactor, TemperatureModel, TEMPERATURE_DOMAIN};

@@ -171,20 +171,23 @@ impl TemperatureModel {
         (mul_i32(self.b1, d) << 16).wrapping_add(quad)
     }
 
-    /// The compensated shift at temperature `t` (clamped to
-    /// [`TEMPERATURE_DOMAIN`]).
-    pub fn compensate(&self, s: Shift, t: CentiCelsius) -> Shift {
+    /// The correction at temperature `t` (clamped to
+    /// [`TEMPERATURE_DOMAIN`]), computed once to apply to many shifts: the
+    /// temperature changes far more slowly than readings come.
+    pub fn factor(&self, t: CentiCelsius) -> DriftFactor {
         if self.b1 == 0 && self.b2 == 0 {
-            return s;
+            return DriftFactor::NONE;
         }
         // g in Q31: |g| < 1/2 → |g31| ≤ 2^30.
-        let g31 = round_asr(self.g_q56(t), 25) as i32; // |value| ≤ 2^30: exact
-                                                       // 1 + s in Q29, saturated to u32 (1 + s < 8 in any useful reading).
-        let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0);
-        let u29 = u32::try_from(round_asr(one_plus, 11)).unwrap_or(u32::MAX);
-        // Product Q60 → Q40.
-        let p = mul_i32_u32(g31, u29);
-        Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
+        DriftFactor {
+            g31: round_asr(self.g_q56(t), 25) as i32, // |value| ≤ 2^30: exact
+        }
+    }
+
+    /// The compensated shift at temperature `t` (clamped to
+    /// [`TEMPERATURE_DOMAIN`]): `self.factor(t).apply(s)`.
+    pub fn compensate(&self, s: Shift, t: CentiCelsius) -> Shift {
+        self.factor(t).apply(s)
     }
 
     /// The stage's stated error bound for input shift `s` at `t_c`:
@@ -204,6 +207,33 @@ impl TemperatureModel {
         let g = f64::from(self.b1) * d / 1_099_511_627_776.0
             + f64::from(self.b2) * d * d / 72_057_594_037_927_936.0;
         (1.0 + s) * (1.0 + g) - 1.0
+    }
+}
+
+/// A temperature model's correction g at one temperature, Q31
+/// ([`TemperatureModel::factor`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct DriftFactor {
+    g31: i32,
+}
+
+impl DriftFactor {
+    /// No correction.
+    pub const NONE: DriftFactor = DriftFactor { g31: 0 };
+
+    /// The compensated shift: s + (1 + s)·g, with 1 + s rounded to Q29 and
+    /// the product rounded into Q.40 (bound in [`TemperatureModel`]'s docs).
+    pub fn apply(self, s: Shift) -> Shift {
+        if self.g31 == 0 {
+            return s;
+        }
+        // 1 + s in Q29, saturated to u32 (1 + s < 8 in any useful reading).
+        let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0);
+        let u29 = u32::try_from(round_asr(one_plus, 11)).unwrap_or(u32::MAX);
+        // Product Q60 → Q40.
+        let p = mul_i32_u32(self.g31, u29);
+        Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
     }
 }
 

@@ -72,7 +72,7 @@ impl LevelReader {
         })
     }
 
-    fn curve_input(&self, input: &Input) -> Result<Shift, SensorFault> {
+    fn curve_input(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let s = self.front.shift(input)?;
         let Some((conv, window, drift)) = &self.reference else {
             return Ok(s);
@@ -96,7 +96,7 @@ impl LevelReader {
 
     /// One reading: the level, and the volume as `secondary` when the
     /// calibration has a volume table.
-    pub fn read(&self, input: &Input) -> Reading {
+    pub fn read(&mut self, input: &Input) -> Reading {
         let x = match self.curve_input(input) {
             Ok(x) => x,
             Err(f) => return Reading::fault(f),

@@ -44,7 +44,7 @@ pub use proximity::ProximityReader;
 
 use crate::counting::{CountPair, FaultError, FaultWindow};
 use crate::curve::CurveError;
-use crate::drift::{Companion, CompanionError, TemperatureModel};
+use crate::drift::{Companion, CompanionError, DriftFactor, TemperatureModel};
 use crate::image::{Calibration, ReaderKind};
 use crate::shift::{Shift, ShiftConverter, ShiftError};
 use crate::temperature::CentiCelsius;
@@ -177,6 +177,11 @@ pub(crate) struct Front {
     converter: ShiftConverter,
     companion: Option<Companion>,
     drift: TemperatureModel,
+    /// The gate and its accepted tick band, for the two-comparison check.
+    gate_band: Option<(u32, (u32, u32))>,
+    /// The drift correction at the last temperature seen: temperature
+    /// moves far more slowly than readings come.
+    drift_cache: Option<(CentiCelsius, DriftFactor)>,
 }
 
 impl Front {
@@ -192,23 +197,46 @@ impl Front {
             (Some(c), true) => Some(Companion::new(cal.rest, c).map_err(ReaderError::Shift)?),
             _ => None,
         };
+        let gate_band = gate.and_then(|g| cal.window.ticks_band(g).map(|b| (g, b)));
         Ok(Self {
             window: cal.window,
             converter,
             companion,
             drift: cal.drift,
+            gate_band,
+            drift_cache: None,
         })
+    }
+
+    /// The fault window's check, through the precomputed band when the
+    /// pair has the gate's cycle count.
+    fn check(&self, pair: CountPair) -> Result<CountPair, FaultError> {
+        match self.gate_band {
+            Some((gate, band)) => self.window.check_ticks(pair, gate, band),
+            None => self.window.check(pair),
+        }
+    }
+
+    /// The drift correction at `t`, from the cache when `t` is unchanged.
+    pub(crate) fn factor(&mut self, t: CentiCelsius) -> DriftFactor {
+        match self.drift_cache {
+            Some((last, f)) if last == t => f,
+            _ => {
+                let f = self.drift.factor(t);
+                self.drift_cache = Some((t, f));
+                f
+            }
+        }
     }
 
     /// The drift-compensated shift of the sensor channel (ratiometric when
     /// a companion coil is configured).
-    pub(crate) fn shift(&self, input: &Input) -> Result<Shift, SensorFault> {
-        let pair = self.window.check(input.pair).map_err(SensorFault::Counts)?;
+    pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
+        let pair = self.check(input.pair).map_err(SensorFault::Counts)?;
         let s = match self.companion {
             Some(c) => {
                 let comp = input.companion.ok_or(SensorFault::Companion(None))?;
                 let comp = self
-                    .window
                     .check(comp)
                     .map_err(|e| SensorFault::Companion(Some(e)))?;
                 c.shift(pair, comp).map_err(SensorFault::Ratio)?
@@ -216,7 +244,7 @@ impl Front {
             None => self.converter.shift(pair).map_err(SensorFault::Shift)?,
         };
         Ok(match input.temperature {
-            Some(t) => self.drift.compensate(s, t),
+            Some(t) => self.factor(t).apply(s),
             None => s,
         })
     }
@@ -548,7 +576,7 @@ pub(crate) mod tests {
         fn proximity_end_to_end_bound(s in -0.32f64..-0.03, t in -4_000i32..12_000, with_t: bool) {
             let mut cal = demo_proximity().unwrap();
             cal.drift = crate::drift::TemperatureModel::from_f64(25.0, -3e-5, 2e-8).unwrap();
-            let r = ProximityReader::new(&cal).unwrap();
+            let mut r = ProximityReader::new(&cal).unwrap();
             let input = Input {
                 temperature: with_t.then_some(CentiCelsius(t)),
                 ..Input::counts(pair_for(s))

@@ -39,7 +39,7 @@ impl ProximityReader {
     }
 
     /// One reading.
-    pub fn read(&self, input: &Input) -> Reading {
+    pub fn read(&mut self, input: &Input) -> Reading {
         let s = match self.front.shift(input) {
             Ok(s) => s,
             Err(f) => return Reading::fault(f),
