@@ -134,7 +134,9 @@ impl FaultWindow {
         let scaled = mul_u32_wide(self.reference_hz, cycles);
         // f ≤ max ⇔ ticks ≥ f_ref·cycles/max; f ≥ min ⇔ ticks ≤ f_ref·cycles/min.
         let lo = scaled.div_ceil(u64::from(self.max_hz)).max(1);
-        let hi = scaled.checked_div(u64::from(self.min_hz)).unwrap_or(u64::MAX);
+        let hi = scaled
+            .checked_div(u64::from(self.min_hz))
+            .unwrap_or(u64::MAX);
         let lo = u32::try_from(lo).ok()?;
         let hi = u32::try_from(hi).unwrap_or(u32::MAX);
         (lo <= hi).then_some((lo, hi))
