@@ -211,6 +211,48 @@ impl Row<'_> {
     }
 }
 
+impl Row<'_> {
+    /// An optional ring count (0–65 535).
+    pub fn ring_count_opt(&self, i: Option<usize>) -> Result<Option<u16>, InputError> {
+        match self.count_opt(i, "ring_count")? {
+            Some(v) => u16::try_from(v).map(Some).map_err(|_| {
+                self.error(
+                    "ring_count",
+                    &v.to_string(),
+                    "expected a ring count from 0 to 65535",
+                )
+            }),
+            None => Ok(None),
+        }
+    }
+
+    /// The companion channel's optional count pair: both columns or
+    /// neither.
+    pub fn companion_opt(
+        &self,
+        cycles: Option<usize>,
+        ticks: Option<usize>,
+    ) -> Result<Option<lc_core::counting::CountPair>, InputError> {
+        match (
+            self.count_opt(cycles, "comp_cycles")?,
+            self.count_opt(ticks, "comp_ticks")?,
+        ) {
+            (Some(c), Some(t)) => Ok(Some(lc_core::counting::CountPair::new(c, t))),
+            (None, None) => Ok(None),
+            (Some(_), None) => Err(self.error(
+                "comp_ticks",
+                "",
+                "comp_cycles is given, so comp_ticks is needed too",
+            )),
+            (None, Some(_)) => Err(self.error(
+                "comp_cycles",
+                "",
+                "comp_ticks is given, so comp_cycles is needed too",
+            )),
+        }
+    }
+}
+
 fn csv_error(file: &Path, e: &csv::Error) -> InputError {
     InputError::Csv {
         file: file.to_path_buf(),

@@ -131,24 +131,8 @@ fn parse(row: &Row<'_>, c: Columns) -> Result<FieldRow, LogError> {
             Measurement::FrequencyHz(f)
         }
     };
-    let ring_count = match row.count_opt(c.ring_count, "ring_count")? {
-        Some(v) => Some(u16::try_from(v).map_err(|_| {
-            row.error(
-                "ring_count",
-                &v.to_string(),
-                "expected a ring count from 0 to 65535",
-            )
-        })?),
-        None => None,
-    };
-    let companion = match (
-        row.count_opt(c.comp_cycles, "comp_cycles")?,
-        row.count_opt(c.comp_ticks, "comp_ticks")?,
-    ) {
-        (Some(a), Some(b)) => Some(CountPair::new(a, b)),
-        (None, None) => None,
-        _ => return Err(row.error("comp_ticks", "", "comp_cycles and comp_ticks go together")),
-    };
+    let ring_count = row.ring_count_opt(c.ring_count)?;
+    let companion = row.companion_opt(c.comp_cycles, c.comp_ticks)?;
     Ok(FieldRow {
         line: row.line(),
         time_s: row.real_opt(c.time_s, "time_s")?,

@@ -183,37 +183,8 @@ fn parse(row: &Row<'_>, c: Columns) -> Result<RigRow, InputError> {
         }
     };
     let pair = CountPair::new(row.count(c.cycles, "cycles")?, row.count(c.ticks, "ticks")?);
-    let ring_count = match row.count_opt(c.ring_count, "ring_count")? {
-        Some(v) => Some(u16::try_from(v).map_err(|_| {
-            row.error(
-                "ring_count",
-                row.text(c.ring_count.unwrap_or(0)),
-                "expected a ring count from 0 to 65535",
-            )
-        })?),
-        None => None,
-    };
-    let companion = match (
-        row.count_opt(c.comp_cycles, "comp_cycles")?,
-        row.count_opt(c.comp_ticks, "comp_ticks")?,
-    ) {
-        (Some(cc), Some(ct)) => Some(CountPair::new(cc, ct)),
-        (None, None) => None,
-        (Some(_), None) => {
-            return Err(row.error(
-                "comp_ticks",
-                "",
-                "comp_cycles is given, so comp_ticks is needed too",
-            ))
-        }
-        (None, Some(_)) => {
-            return Err(row.error(
-                "comp_cycles",
-                "",
-                "comp_ticks is given, so comp_cycles is needed too",
-            ))
-        }
-    };
+    let ring_count = row.ring_count_opt(c.ring_count)?;
+    let companion = row.companion_opt(c.comp_cycles, c.comp_ticks)?;
     Ok(RigRow {
         line: row.line(),
         step,
