@@ -14,6 +14,8 @@
 //!   resolves and what temperature costs.
 //! - [`riglog`], [`calib`], [`store`]: end-of-line calibration from rig logs
 //!   to calibration images and unit records (SQLite).
+//! - [`coil`]: coil design: inductance (Mohan, Wheeler, Maxwell loops),
+//!   resistance and Q, the tank capacitor, the pull of a metal target.
 //! - [`sim`]: simulated rig and field logs; [`svg`]: plots for reports;
 //!   [`stream`], [`csvin`], [`atomic`]: streaming CSV in, atomic files out.
 //!
@@ -32,6 +34,7 @@
 pub mod atomic;
 pub mod budget;
 pub mod calib;
+pub mod coil;
 pub mod convert;
 pub mod counts;
 pub mod csvin;

@@ -34,6 +34,7 @@ enum Command {
     Convert(cmd::convert::Args),
     Verify(cmd::verify::Args),
     Budget(cmd::budget::Args),
+    Coil(cmd::coil::Args),
 }
 
 fn main() -> ExitCode {
@@ -48,6 +49,7 @@ fn main() -> ExitCode {
         Command::Inspect(a) => cmd::inspect::run(a),
         Command::Verify(a) => cmd::verify::run(a),
         Command::Budget(a) => cmd::budget::run(a),
+        Command::Coil(a) => cmd::coil::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

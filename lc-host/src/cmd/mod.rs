@@ -2,6 +2,7 @@
 
 pub mod budget;
 pub mod calibrate;
+pub mod coil;
 pub mod convert;
 pub mod counts;
 pub mod demo;
