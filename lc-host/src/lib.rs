@@ -40,6 +40,7 @@ pub mod counts;
 pub mod csvin;
 pub mod demo;
 pub mod fieldlog;
+pub mod liquid;
 pub mod riglog;
 pub mod sim;
 pub mod store;

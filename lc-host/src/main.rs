@@ -35,6 +35,7 @@ enum Command {
     Verify(cmd::verify::Args),
     Budget(cmd::budget::Args),
     Coil(cmd::coil::Args),
+    Probe(cmd::probe::Args),
 }
 
 fn main() -> ExitCode {
@@ -50,6 +51,7 @@ fn main() -> ExitCode {
         Command::Verify(a) => cmd::verify::run(a),
         Command::Budget(a) => cmd::budget::run(a),
         Command::Coil(a) => cmd::coil::run(a),
+        Command::Probe(a) => cmd::probe::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

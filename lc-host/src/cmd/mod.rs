@@ -7,6 +7,7 @@ pub mod convert;
 pub mod counts;
 pub mod demo;
 pub mod inspect;
+pub mod probe;
 pub mod simulate;
 pub mod units;
 pub mod verify;

@@ -1,0 +1,124 @@
+//! Relative permittivity of liquids, for level probes.
+//!
+//! - Water: Malmberg & Maryott, "Dielectric constant of water from 0° to
+//!   100 °C", J. Res. NBS 56(1):1–8, 1956: ε = 87.740 − 0.40008·t +
+//!   9.398e-4·t² − 1.410e-6·t³, t in °C, 0–100 °C (REFERENCES.md §7
+//!   [CONFIRMED-2nd]).
+//! - Other liquids: the CRC Handbook table "Permittivity (Dielectric
+//!   Constant) of Liquids" (CRC 95th ed., 2014, as shipped in the `chemicals`
+//!   data; REFERENCES.md §7 [CONFIRMED]), single values at 20 °C (toluene at
+//!   23.2 °C); no temperature model, so the value is returned for any
+//!   temperature and the caller is told so.
+
+/// A liquid's permittivity at a temperature, and where the value comes from.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+pub struct Permittivity {
+    /// Relative permittivity εr.
+    pub value: f64,
+    /// Whether the value follows the temperature (water) or is the table's
+    /// single value.
+    pub temperature_model: bool,
+    /// The source.
+    pub source: &'static str,
+}
+
+/// CRC Handbook values at 20 °C (REFERENCES.md §7 [CONFIRMED]).
+const CRC: [(&str, f64); 15] = [
+    ("ethanol", 25.3),
+    ("methanol", 33.0),
+    ("2-propanol", 20.18),
+    ("acetone", 21.01),
+    ("glycerol", 46.53),
+    ("ethylene-glycol", 41.4),
+    ("benzene", 2.2825),
+    ("toluene", 2.379),
+    ("cyclohexane", 2.0243),
+    ("n-hexane", 1.8865),
+    ("n-heptane", 1.9209),
+    ("n-octane", 1.948),
+    ("n-decane", 1.9853),
+    ("n-dodecane", 2.012),
+    ("n-hexadecane", 2.046),
+];
+
+/// The names this module knows.
+pub fn names() -> impl Iterator<Item = &'static str> {
+    std::iter::once("water").chain(CRC.iter().map(|(n, _)| *n))
+}
+
+/// Water by Malmberg & Maryott (1956), 0–100 °C (clamped).
+pub fn water(t_c: f64) -> f64 {
+    let t = t_c.clamp(0.0, 100.0);
+    87.740 - 0.40008 * t + 9.398e-4 * t * t - 1.410e-6 * t * t * t
+}
+
+/// The permittivity of a named liquid at `t_c`, or `None` for an unknown
+/// name.
+pub fn permittivity(name: &str, t_c: f64) -> Option<Permittivity> {
+    let key = name.trim().to_ascii_lowercase();
+    if key == "water" {
+        return Some(Permittivity {
+            value: water(t_c),
+            temperature_model: true,
+            source: "Malmberg & Maryott 1956",
+        });
+    }
+    CRC.iter()
+        .find(|(n, _)| *n == key)
+        .map(|&(_, value)| Permittivity {
+            value,
+            temperature_model: false,
+            source: "CRC Handbook, 95th ed. (2014), at 20 °C",
+        })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// REFERENCES.md §7: Malmberg & Maryott [COMPUTED from the confirmed
+    /// formula]: 87.740 at 0 °C, 80.103 at 20 °C, 78.303 at 25 °C (the
+    /// paper's abstract: 78.30), 55.720 at 100 °C.
+    #[test]
+    fn water_published_values() {
+        for (t, e) in [
+            (0.0, 87.740),
+            (20.0, 80.103),
+            (25.0, 78.303),
+            (100.0, 55.720),
+        ] {
+            assert!((water(t) - e).abs() < 5e-4, "{t}: {}", water(t));
+        }
+        // The same formula as the level simulator.
+        assert_eq!(water(42.0), crate::sim::level::water_permittivity(42.0));
+    }
+
+    /// CRC values (REFERENCES.md §7 [CONFIRMED]); hexadecane is the
+    /// citable diesel surrogate.
+    #[test]
+    fn crc_values() {
+        assert_eq!(permittivity("Ethanol", 20.0).unwrap().value, 25.3);
+        assert_eq!(permittivity("n-hexadecane", 20.0).unwrap().value, 2.046);
+        assert!(!permittivity("glycerol", 60.0).unwrap().temperature_model);
+        assert!(permittivity("mercury", 20.0).is_none());
+        assert_eq!(names().count(), 16);
+    }
+
+    /// REFERENCES.md §7 7d: a level sensor of two capacitors in parallel
+    /// (H = 1 m, a = 5 mm, b = 20 mm): with εr = 2.046 (hexadecane), C at
+    /// h = 0 / 0.25 / 0.5 / 1 m is 40.130 / 50.624 / 61.119 / 82.107 pF
+    /// [COMPUTED].
+    #[test]
+    fn probe_with_a_crc_liquid() {
+        let probe = lc_core::geometry::CoaxialProbe {
+            length_m: 1.0,
+            inner_radius_m: 0.005,
+            outer_radius_m: 0.02,
+        };
+        let eps = permittivity("n-hexadecane", 20.0).unwrap().value;
+        for (h, c_pf) in [(0.0, 40.130), (0.25, 50.624), (0.5, 61.119), (1.0, 82.107)] {
+            let c = probe.immersed_capacitance_f(h, eps, 1.0) * 1e12;
+            assert!((c - c_pf).abs() < 5e-3, "{h}: {c}");
+        }
+    }
+}
