@@ -3,7 +3,12 @@
 //! Each unit's tank has its own coil inductance, capacitor and parasitic
 //! capacitance (manufacturing spread), its own temperature coefficients and
 //! its own coupling to the target. A metal plate at gap d lowers the coil's
-//! inductance by the demo coupling model L(d) = L∞ · (1 − k · e^(−d/λ)).
+//! inductance by the image method (`crate::coil::target`): the demo coil
+//! (20 mm square spiral, 11 turns per layer, two layers 1.6 mm apart) as
+//! Maxwell loops, the aluminium plate as a perfect mirror half a skin depth
+//! below its surface, so L(d) = L∞ · (1 − k·c(d + e)) with c the image
+//! method's fractional pull, and k (about 1) and e (a mounting offset) the
+//! unit's spread.
 //! The rig steps the plate through its positions at each temperature; the
 //! counter quantises to whole ticks with a little jitter.
 
@@ -11,6 +16,7 @@ use super::Rng;
 use lc_core::ringdown::expected_ring_count;
 use lc_core::tank::resonant_frequency_with_parasitic_hz;
 use std::io::Write;
+use std::sync::OnceLock;
 
 /// What to simulate.
 #[derive(Clone, Debug, PartialEq)]
@@ -31,9 +37,9 @@ pub struct LotSpec {
     pub capacitance_spread: f64,
     /// Parasitic capacitance (nominal), F, and its standard deviation.
     pub parasitic_f: (f64, f64),
-    /// Coupling strength k (mean, standard deviation).
+    /// Coupling scale k of the image-method pull (mean, standard deviation).
     pub coupling: (f64, f64),
-    /// Coupling length λ in metres (mean, standard deviation).
+    /// Mounting offset e of the coil behind its face, metres (mean, sd).
     pub coupling_length_m: (f64, f64),
     /// Capacitor temperature coefficient, per kelvin (mean, standard
     /// deviation); class-1 C0G is 0 ± 30 ppm/K.
@@ -75,8 +81,8 @@ impl LotSpec {
             capacitance_f: 100e-12,
             capacitance_spread: 0.005,
             parasitic_f: (10e-12, 1e-12),
-            coupling: (0.45, 0.01),
-            coupling_length_m: (2.5e-3, 0.05e-3),
+            coupling: (1.0, 0.02),
+            coupling_length_m: (0.0, 20e-6),
             capacitor_tempco: (0.0, 10e-6),
             inductance_tempco: (25e-6, 5e-6),
             quality: (40.0, 3.0),
@@ -105,9 +111,9 @@ pub struct UnitModel {
     pub capacitance_f: f64,
     /// Parasitic capacitance, F.
     pub parasitic_f: f64,
-    /// Coupling k.
+    /// Coupling scale k.
     pub coupling: f64,
-    /// Coupling length, m.
+    /// Mounting offset e, m.
     pub coupling_length_m: f64,
     /// Capacitor tempco, /K.
     pub capacitor_tempco: f64,
@@ -121,11 +127,54 @@ impl UnitModel {
     /// Resonant frequency at gap `gap_m` (`None`: no target) and temperature.
     pub fn frequency_hz(&self, gap_m: Option<f64>, temp_c: f64) -> f64 {
         let dt = temp_c - 25.0;
-        let coupling = gap_m.map_or(0.0, |d| self.coupling * (-d / self.coupling_length_m).exp());
+        let coupling = gap_m.map_or(0.0, |d| {
+            self.coupling * demo_coupling(d + self.coupling_length_m)
+        });
         let l = self.inductance_h * (1.0 - coupling) * (1.0 + self.inductance_tempco * dt);
         let c = self.capacitance_f * (1.0 + self.capacitor_tempco * dt);
         resonant_frequency_with_parasitic_hz(l, c, self.parasitic_f)
     }
+}
+
+/// The demo coil's fractional inductance change next to an aluminium
+/// plate, −ΔL/L∞ at gap d, by the image method: a table on log-spaced gaps
+/// from 50 µm to 50 mm, computed once.
+fn coupling_table() -> &'static [(f64, f64)] {
+    static TABLE: OnceLock<Vec<(f64, f64)>> = OnceLock::new();
+    TABLE.get_or_init(|| {
+        use crate::coil::spiral::{Shape, Spiral};
+        use crate::coil::target::{good_conductor_change_h, Plate};
+        let coil = Spiral::new(Shape::Square, 11, 20e-3, 0.3e-3, 0.3e-3)
+            .and_then(|s| s.filament_coil(2, 1.6e-3, 35e-6));
+        let Ok(coil) = coil else { return Vec::new() };
+        let l_inf = coil.inductance_h();
+        let delta = Plate::aluminium().skin_depth_m(5.6e6);
+        (0..=120)
+            .map(|i| {
+                let d = 50e-6 * 1000f64.powf(f64::from(i) / 120.0);
+                (d, -good_conductor_change_h(&coil, d, delta) / l_inf)
+            })
+            .collect()
+    })
+}
+
+/// −ΔL/L∞ of the demo coil at gap `gap_m` (log-linear interpolation in the
+/// table; clamped at its ends).
+pub fn demo_coupling(gap_m: f64) -> f64 {
+    let t = coupling_table();
+    let (Some(first), Some(last)) = (t.first(), t.last()) else {
+        return 0.0;
+    };
+    if gap_m <= first.0 {
+        return first.1;
+    }
+    if gap_m >= last.0 {
+        return last.1;
+    }
+    let i = t.partition_point(|p| p.0 <= gap_m).clamp(1, t.len() - 1);
+    let (a, b) = (t[i - 1], t[i]);
+    let w = (gap_m.ln() - a.0.ln()) / (b.0.ln() - a.0.ln());
+    (a.1.ln() + w * (b.1.ln() - a.1.ln())).exp()
 }
 
 /// The units of a lot, drawn from the spec.
@@ -176,8 +225,9 @@ pub fn write_rig_log(spec: &LotSpec, mut out: impl Write) -> std::io::Result<()>
                     + rng.normal(0.0, spec.jitter_ticks))
                 .round();
                 // Eddy currents add loss near the plate: Q falls with coupling.
-                let coupling =
-                    gap.map_or(0.0, |d| unit.coupling * (-d / unit.coupling_length_m).exp());
+                let coupling = gap.map_or(0.0, |d| {
+                    unit.coupling * demo_coupling(d + unit.coupling_length_m)
+                });
                 let q = unit.quality * (1.0 - 1.5 * coupling).max(0.2);
                 let ring = expected_ring_count(q, spec.ring_thresholds.0, spec.ring_thresholds.1)
                     .map_or(0.0, f64::round);
