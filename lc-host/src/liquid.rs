@@ -3,10 +3,10 @@
 //! - Water: Malmberg & Maryott, "Dielectric constant of water from 0° to
 //!   100 °C", J. Res. NBS 56(1):1–8, 1956: ε = 87.740 − 0.40008·t +
 //!   9.398e-4·t² − 1.410e-6·t³, t in °C, 0–100 °C (REFERENCES.md §7
-//!   [CONFIRMED-2nd]).
+//!   \[CONFIRMED-2nd\]).
 //! - Other liquids: the CRC Handbook table "Permittivity (Dielectric
 //!   Constant) of Liquids" (CRC 95th ed., 2014, as shipped in the `chemicals`
-//!   data; REFERENCES.md §7 [CONFIRMED]), single values at 20 °C (toluene at
+//!   data; REFERENCES.md §7 \[CONFIRMED\]), single values at 20 °C (toluene at
 //!   23.2 °C); no temperature model, so the value is returned for any
 //!   temperature and the caller is told so.
 
