@@ -251,27 +251,41 @@ impl Curve {
             c.x[i] = n.shift.raw_q40();
             c.y[i] = n.value;
         }
-        for i in 0..nodes.len() - 1 {
-            let w = c.x[i + 1].abs_diff(c.x[i]);
-            let sh = width_shift(w);
-            let w_red = round_shr_u64(w, u32::from(sh)).max(1);
-            let dy = i64::from(c.y[i + 1]) - i64::from(c.y[i]);
-            let (k, k_exp) = match interpolation {
-                Interpolation::Linear => scaled_ratio(dy, w_red),
-                // m = round(2^(30+e)/w'), so t = d·m·2^-e is d/w' in Q30.
-                Interpolation::MonotoneCubic => scaled_ratio(1 << 30, w_red),
+        for (slot, pair) in c.seg.iter_mut().zip(nodes.windows(2)) {
+            if let [a, b] = pair {
+                *slot = segment_of(*a, *b, interpolation)?;
             }
-            .ok_or(CurveError::SegmentTooSteep)?;
-            c.seg[i] = Segment {
-                sh,
-                k,
-                k_exp,
-                c1_q8: 0,
-                c2_q8: 0,
-                c3_q8: 0,
-            };
         }
         Ok(c)
+    }
+
+    /// Whether [`Curve::linear`] (`derivatives_q16` `None`) or
+    /// [`Curve::monotone_cubic`] would accept these nodes, with the same
+    /// error, without building the curve: a curve is 2.8 KB, and the image
+    /// parser checks tables it does not keep.
+    pub fn check(nodes: &[Node], derivatives_q16: Option<&[i64]>) -> Result<(), CurveError> {
+        if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
+            return Err(CurveError::BadDerivatives);
+        }
+        validate(nodes)?;
+        let interpolation = match derivatives_q16 {
+            Some(_) => Interpolation::MonotoneCubic,
+            None => Interpolation::Linear,
+        };
+        for pair in nodes.windows(2) {
+            if let [a, b] = pair {
+                segment_of(*a, *b, interpolation)?;
+            }
+        }
+        if let Some(ders) = derivatives_q16 {
+            check_derivative_signs(nodes, ders)?;
+            for (pair, d) in nodes.windows(2).zip(ders.windows(2)) {
+                if let ([a, b], [d0, d1]) = (pair, d) {
+                    cubic_terms(*a, *b, *d0, *d1)?;
+                }
+            }
+        }
+        Ok(())
     }
 
     /// A curve with straight segments.
@@ -287,48 +301,21 @@ impl Curve {
             return Err(CurveError::BadDerivatives);
         }
         let mut c = Self::build(nodes, Interpolation::MonotoneCubic)?;
-        let rising = nodes.last().map(|l| l.value).unwrap_or(0)
-            >= nodes.first().map(|f| f.value).unwrap_or(0);
-        for &d in derivatives_q16 {
-            if (rising && d < 0) || (!rising && d > 0) {
-                return Err(CurveError::BadDerivatives);
-            }
-        }
+        check_derivative_signs(nodes, derivatives_q16)?;
         // Checked accesses throughout: no bounds-check panic survives on
         // the firmware path (the panic-never build proves it).
-        let n = nodes.len().min(MAX_NODES);
-        for i in 0..n.saturating_sub(1) {
-            let (Some(&x0), Some(&x1), Some(&y0), Some(&y1), Some(&dd0), Some(&dd1)) = (
-                c.x.get(i),
-                c.x.get(i + 1),
-                c.y.get(i),
-                c.y.get(i + 1),
-                derivatives_q16.get(i),
-                derivatives_q16.get(i + 1),
-            ) else {
-                return Err(CurveError::BadDerivatives);
-            };
-            let w = i128::from(x1) - i128::from(x0);
-            // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
-            let term = |d: i64| -> Result<i64, CurveError> {
-                let r = (w * i128::from(d) + (1 << 47)) >> 48;
-                match i64::try_from(r) {
-                    Ok(v) if v.unsigned_abs() < 1 << 29 => Ok(v),
-                    _ => Err(CurveError::SegmentTooSteep),
-                }
-            };
-            let d0 = term(dd0)?;
-            let d1 = term(dd1)?;
-            let dy = (i64::from(y1) - i64::from(y0)) << 8;
-            if dy.unsigned_abs() >= 1 << 29 {
-                return Err(CurveError::SegmentTooSteep);
+        for ((slot, pair), d) in c
+            .seg
+            .iter_mut()
+            .zip(nodes.windows(2))
+            .zip(derivatives_q16.windows(2))
+        {
+            if let ([a, b], [d0, d1]) = (pair, d) {
+                let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
+                slot.c1_q8 = c1;
+                slot.c2_q8 = c2;
+                slot.c3_q8 = c3;
             }
-            let Some(seg) = c.seg.get_mut(i) else {
-                return Err(CurveError::TooManyNodes);
-            };
-            seg.c1_q8 = d0;
-            seg.c2_q8 = 3 * dy - 2 * d0 - d1;
-            seg.c3_q8 = d0 + d1 - 2 * dy;
         }
         Ok(c)
     }
@@ -493,6 +480,63 @@ impl Curve {
             }
         }
     }
+}
+
+/// One segment's constants (module docs): the width shift and the slope's
+/// (linear) or 1/w's (cubic) mantissa.
+fn segment_of(a: Node, b: Node, interpolation: Interpolation) -> Result<Segment, CurveError> {
+    let w = b.shift.raw_q40().abs_diff(a.shift.raw_q40());
+    let sh = width_shift(w);
+    let w_red = round_shr_u64(w, u32::from(sh)).max(1);
+    let dy = i64::from(b.value) - i64::from(a.value);
+    let (k, k_exp) = match interpolation {
+        Interpolation::Linear => scaled_ratio(dy, w_red),
+        // m = round(2^(30+e)/w'), so t = d·m·2^-e is d/w' in Q30.
+        Interpolation::MonotoneCubic => scaled_ratio(1 << 30, w_red),
+    }
+    .ok_or(CurveError::SegmentTooSteep)?;
+    Ok(Segment {
+        sh,
+        k,
+        k_exp,
+        c1_q8: 0,
+        c2_q8: 0,
+        c3_q8: 0,
+    })
+}
+
+/// Derivatives must have the sign of the table's direction.
+fn check_derivative_signs(nodes: &[Node], derivatives_q16: &[i64]) -> Result<(), CurveError> {
+    let rising =
+        nodes.last().map(|l| l.value).unwrap_or(0) >= nodes.first().map(|f| f.value).unwrap_or(0);
+    if derivatives_q16
+        .iter()
+        .any(|&d| (rising && d < 0) || (!rising && d > 0))
+    {
+        return Err(CurveError::BadDerivatives);
+    }
+    Ok(())
+}
+
+/// A cubic segment's Horner coefficients (c1, c2, c3) in Q8 output units
+/// from its end nodes and their derivatives dy/ds in Q47.16.
+fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i64, i64, i64), CurveError> {
+    let w = i128::from(b.shift.raw_q40()) - i128::from(a.shift.raw_q40());
+    // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
+    let term = |d: i64| -> Result<i64, CurveError> {
+        let r = (w * i128::from(d) + (1 << 47)) >> 48;
+        match i64::try_from(r) {
+            Ok(v) if v.unsigned_abs() < 1 << 29 => Ok(v),
+            _ => Err(CurveError::SegmentTooSteep),
+        }
+    };
+    let d0 = term(d0_q16)?;
+    let d1 = term(d1_q16)?;
+    let dy = (i64::from(b.value) - i64::from(a.value)) << 8;
+    if dy.unsigned_abs() >= 1 << 29 {
+        return Err(CurveError::SegmentTooSteep);
+    }
+    Ok((d0, 3 * dy - 2 * d0 - d1, d0 + d1 - 2 * dy))
 }
 
 /// Signed × unsigned 32-bit product, exact in `i64`.
@@ -810,6 +854,18 @@ mod tests {
                     prop_assert!(ordered, "not monotone: {} then {}", p, v);
                 }
                 prev = Some(v);
+            }
+        }
+
+        /// `check` accepts and refuses exactly what the constructors do.
+        #[test]
+        fn check_agrees_with_the_constructors(xs in proptest::collection::vec(any::<i64>(), 0..8), ys in proptest::collection::vec(any::<i32>(), 0..8), ds in proptest::collection::vec(any::<i64>(), 0..8), (nodes, _) in table()) {
+            let random: Vec<Node> = xs.iter().zip(&ys).map(|(&x, &y)| Node::new(Shift::from_raw_q40(x), y)).collect();
+            for n in [&random, &nodes] {
+                prop_assert_eq!(Curve::check(n, None), Curve::linear(n).map(|_| ()));
+                prop_assert_eq!(Curve::check(n, Some(&ds)), Curve::monotone_cubic(n, &ds).map(|_| ()));
+                let zeros = vec![0i64; n.len()];
+                prop_assert_eq!(Curve::check(n, Some(&zeros)), Curve::monotone_cubic(n, &zeros).map(|_| ()));
             }
         }
 

@@ -236,14 +236,14 @@ pub struct Table {
 impl Table {
     /// A linear table from nodes (validated).
     pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
-        Curve::linear(nodes)?;
+        Curve::check(nodes, None)?;
         Ok(Self::fill(nodes, None))
     }
 
     /// A monotone cubic table from nodes and their derivatives dy/ds in
     /// Q47.16 (validated).
     pub fn cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
-        Curve::monotone_cubic(nodes, derivatives_q16)?;
+        Curve::check(nodes, Some(derivatives_q16))?;
         Ok(Self::fill(nodes, Some(derivatives_q16)))
     }
 
