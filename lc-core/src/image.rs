@@ -642,6 +642,12 @@ impl Calibration {
         })
     }
 
+    /// The configured reciprocal gate length in sensor cycles, `None` when
+    /// the image has none (stored as 0).
+    pub fn gate(&self) -> Option<u32> {
+        (self.gate_cycles > 0).then_some(self.gate_cycles)
+    }
+
     /// Length of this calibration's image in bytes.
     pub fn encoded_len(&self) -> usize {
         HEADER_LEN

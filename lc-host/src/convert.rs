@@ -67,11 +67,7 @@ impl Converter {
             reader: Reader::from_calibration(&calibration)?,
             proximity: ProximityReader::new(&calibration).ok(),
             level: LevelReader::new(&calibration).ok(),
-            frequency_gate: if calibration.gate_cycles > 0 {
-                calibration.gate_cycles
-            } else {
-                16_384
-            },
+            frequency_gate: calibration.gate().unwrap_or(16_384),
             calibration,
         })
     }

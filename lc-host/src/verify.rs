@@ -228,11 +228,7 @@ pub fn verify(
         }
         lc_core::image::ReaderKind::Metal => return Err(VerifyError::NoCurve),
     };
-    let gate = if cal.gate_cycles > 0 {
-        cal.gate_cycles
-    } else {
-        16_384
-    };
+    let gate = cal.gate().unwrap_or(16_384);
     let conv = ShiftConverter::new(cal.rest, Gating::Reciprocal, Some(gate))
         .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Shift(e)))?;
     let nodes = table.nodes();

@@ -51,11 +51,7 @@ impl LevelReader {
             ),
             None => None,
         };
-        let gate = if cal.gate_cycles > 0 {
-            Some(cal.gate_cycles)
-        } else {
-            None
-        };
+        let gate = cal.gate();
         let reference = match cal.companion_rest {
             Some(rest) => Some((
                 ShiftConverter::new(rest, Gating::Reciprocal, gate).map_err(ReaderError::Shift)?,

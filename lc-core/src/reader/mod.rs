@@ -186,11 +186,7 @@ pub(crate) struct Front {
 
 impl Front {
     pub(crate) fn new(cal: &Calibration, companion_is_ratio: bool) -> Result<Self, ReaderError> {
-        let gate = if cal.gate_cycles > 0 {
-            Some(cal.gate_cycles)
-        } else {
-            None
-        };
+        let gate = cal.gate();
         let converter = ShiftConverter::new(cal.rest, crate::counting::Gating::Reciprocal, gate)
             .map_err(ReaderError::Shift)?;
         let companion = match (cal.companion_rest, companion_is_ratio) {

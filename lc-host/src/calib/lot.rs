@@ -128,8 +128,10 @@ pub enum LotError {
     Input(#[from] crate::csvin::InputError),
 }
 
-fn file_name(serial: &str) -> String {
-    let clean: String = serial
+/// A serial as a file-name stem: letters, digits, `-`, `_` and `.` kept,
+/// anything else `_` (serials may hold any printable character).
+pub fn file_stem(serial: &str) -> String {
+    serial
         .chars()
         .map(|c| {
             if c.is_ascii_alphanumeric() || "-_.".contains(c) {
@@ -138,8 +140,7 @@ fn file_name(serial: &str) -> String {
                 '_'
             }
         })
-        .collect();
-    format!("{clean}.lcim")
+        .collect()
 }
 
 /// The record of one unit: parameters, residuals and raw rig points.
@@ -243,7 +244,7 @@ pub fn calibrate_unit(
     };
     let mut image_path = None;
     if let (Some(dir), Some(bytes), Ok(_)) = (images, &image, &recorded) {
-        let path = dir.join(file_name(&unit.serial));
+        let path = dir.join(format!("{}.lcim", file_stem(&unit.serial)));
         match write_bytes(&path, bytes) {
             Ok(()) => image_path = Some(path),
             Err(e) => reasons.push(format!(

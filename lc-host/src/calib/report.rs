@@ -141,18 +141,7 @@ pub fn write_unit_plot(
         res,
         plan.limits.max_residual,
     );
-    let name: String = out
-        .serial
-        .chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() || "-_.".contains(c) {
-                c
-            } else {
-                '_'
-            }
-        })
-        .collect();
-    let path = dir.join(format!("{name}.svg"));
+    let path = dir.join(format!("{}.svg", super::lot::file_stem(&out.serial)));
     write_bytes(&path, plot.render().as_bytes()).map_err(std::io::Error::other)?;
     Ok(Some(path))
 }
