@@ -152,21 +152,25 @@ pub struct CurveValue {
     pub status: CurveStatus,
 }
 
-/// Precomputed per-segment constants.
+/// Precomputed per-segment constants (20 bytes: a curve of 64 nodes is
+/// about 2 KB).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 struct Segment {
     /// d = (s − x0) · 2^-sh fits 31 bits.
     sh: u8,
-    /// Linear: slope mantissa (signed, |k| < 2^31), value = d·k · 2^-k_exp.
-    /// Cubic: mantissa of 1/w' (t = d·k · 2^-k_exp in Q30).
-    k: i32,
+    /// Linear: value = d·k · 2^-k_exp. Cubic: t = d·k · 2^-k_exp in Q30.
     k_exp: u8,
+    /// Linear: slope mantissa (signed, |k| < 2^31). Cubic: mantissa of 1/w'.
+    k: i32,
     /// Cubic: y − y0 = t·(c1 + t·(c2 + t·c3)), output units in Q8, with
     /// c1 = D0, c2 = 3Δy − 2D0 − D1, c3 = D0 + D1 − 2Δy and D = w·dy/ds.
-    c1_q8: i64,
-    c2_q8: i64,
-    c3_q8: i64,
+    /// With |Δy|, |D| < 2^29 in Q8 and D0, D1, Δy of one sign (checked at
+    /// construction), |c2| < 3·2^29 and |c3| < 2^30 fit `i32`, and so do
+    /// the Horner accumulators (module docs).
+    c1_q8: i32,
+    c2_q8: i32,
+    c3_q8: i32,
 }
 
 /// A validated curve with its precomputed segment constants.
@@ -365,61 +369,77 @@ impl Curve {
     }
 
     /// The value at shift `s`, rounded to nearest; clamped with a status
-    /// outside the table. No division.
+    /// outside the table. No division, and on a 32-bit core no 64-bit
+    /// library call: the segment's offset, the products and the rounding
+    /// shifts are done in 32-bit words (`shr_to_u32`, `mul_u32_wide`).
     pub fn eval(&self, s: Shift) -> CurveValue {
         let s = s.raw_q40();
-        let n = self.len();
-        let first = (self.x[0], self.y[0]);
-        let last_i = n.saturating_sub(1).min(MAX_NODES - 1);
-        let last = (self.x[last_i], self.y[last_i]);
-        if s < first.0 {
+        let last_i = self.len().saturating_sub(1).min(MAX_NODES - 1);
+        let (x_first, x_last) = (self.x[0], self.x[last_i]);
+        if s < x_first {
             return CurveValue {
-                value: first.1,
+                value: self.y[0],
                 status: CurveStatus::BelowRange,
             };
         }
-        if s > last.0 {
+        if s >= x_last {
             return CurveValue {
-                value: last.1,
-                status: CurveStatus::AboveRange,
-            };
-        }
-        if s == last.0 {
-            return CurveValue {
-                value: last.1,
-                status: CurveStatus::InRange,
+                value: self.y[last_i],
+                status: if s == x_last {
+                    CurveStatus::InRange
+                } else {
+                    CurveStatus::AboveRange
+                },
             };
         }
         let i = self.segment(s).min(MAX_NODES - 2);
-        let seg = self.seg[i];
-        let (x0, y0, y1) = (self.x[i], self.y[i], self.y[i + 1]);
-        // 0 ≤ s − x0 < w < 2^(31 + sh): d < 2^31 after the rounding shift
-        // (d = 2^31 only when s rounds up to x1, still exact below).
-        let d = round_shr_u64(s.abs_diff(x0), u32::from(seg.sh)).min((1 << 31) - 1) as u32;
-        let delta = match self.interpolation {
+        let seg = &self.seg[i];
+        let (y0, y1) = (self.y[i], self.y[i + 1]);
+        // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
+        // (s − x0)·2^-sh rounded, below 2^31 (d = 2^31 only when s rounds up
+        // to x1: held at 2^31 − 1, still exact below).
+        let u = s.wrapping_sub(self.x[i]) as u64; // < w: exact
+        let d = round_shr_to_u32(u, seg.sh).min((1 << 31) - 1);
+        let rising = y1 >= y0;
+        // |y1 − y0| < 2^30 (validated): exact in u32.
+        let span = y1.abs_diff(y0);
+        let step: u32 = match self.interpolation {
             Interpolation::Linear => {
-                let p = mul_i32_u32(seg.k, d);
-                round_shr_i64(p, u32::from(seg.k_exp))
+                // |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30: fits after the shift.
+                round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
             }
             Interpolation::MonotoneCubic => {
                 // t = d/w' in Q30, 0 ≤ t ≤ 2^30.
-                let t = round_shr_u64(mul_u32_wide(seg.k.unsigned_abs(), d), u32::from(seg.k_exp))
-                    .min(1 << 30);
-                let t = t as i64; // ≤ 2^30
-                                  // Horner in Q8 output units. |c| < 2^29 · 6 and t ≤ 2^30 keep
-                                  // every product below 2^63 (validated at construction).
-                let acc = seg.c2_q8 + round_shr_i64(seg.c3_q8 * t, 30);
-                let acc = seg.c1_q8 + round_shr_i64(acc * t, 30);
-                round_shr_i64(acc * t, 38)
+                let t =
+                    round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp).min(1 << 30);
+                // Horner in Q8 output units; every accumulator fits i32
+                // (Segment docs) and each product is exact.
+                let acc = seg
+                    .c2_q8
+                    .wrapping_add(round_shr_i64(mul_i32_u32(seg.c3_q8, t), 30) as i32);
+                let acc = seg
+                    .c1_q8
+                    .wrapping_add(round_shr_i64(mul_i32_u32(acc, t), 30) as i32);
+                let v = round_shr_i64(mul_i32_u32(acc, t), 38);
+                // The step's sign is the table's direction (a monotone
+                // cubic stays between y0 and y1); the other sign clamps
+                // to y0.
+                if rising {
+                    u32::try_from(v).unwrap_or(0)
+                } else {
+                    u32::try_from(v.wrapping_neg()).unwrap_or(0)
+                }
             }
         };
-        let v = i64::from(y0) + delta;
-        // Between two i32 node values for linear; the cubic is monotone and
-        // stays between them too, but clamp to the segment to be certain.
-        let (lo, hi) = if y0 <= y1 { (y0, y1) } else { (y1, y0) };
-        let v = v.clamp(i64::from(lo), i64::from(hi)) as i32; // clamped into i32 range
+        // Stay within the segment: y0 + step lies between y0 and y1.
+        let step = step.min(span);
+        let value = if rising {
+            y0.wrapping_add_unsigned(step)
+        } else {
+            y0.wrapping_sub_unsigned(step)
+        };
         CurveValue {
-            value: v,
+            value,
             status: CurveStatus::InRange,
         }
     }
@@ -439,8 +459,8 @@ impl Curve {
         let dy = (f64::from(self.y[i + 1]) - f64::from(self.y[i])).abs();
         let seg = self.seg[i];
         // D0 = c1; D1 = c3 + 2Δy − D0 (all in Q8).
-        let d0 = seg.c1_q8 as f64 / 256.0;
-        let d1 = (seg.c3_q8 as f64 / 256.0)
+        let d0 = f64::from(seg.c1_q8) / 256.0;
+        let d1 = (f64::from(seg.c3_q8) / 256.0)
             + 2.0 * (f64::from(self.y[i + 1]) - f64::from(self.y[i]))
             - d0;
         // Cubic: three Horner steps each round a Q8 value (≤ 2^-9 each).
@@ -475,7 +495,7 @@ impl Curve {
             Interpolation::Linear => y0 + (y1 - y0) * t,
             Interpolation::MonotoneCubic => {
                 let seg = self.seg[i];
-                let c = |q: i64| q as f64 / 256.0;
+                let c = |q: i32| f64::from(q) / 256.0;
                 y0 + t * (c(seg.c1_q8) + t * (c(seg.c2_q8) + t * c(seg.c3_q8)))
             }
         }
@@ -519,8 +539,10 @@ fn check_derivative_signs(nodes: &[Node], derivatives_q16: &[i64]) -> Result<(),
 }
 
 /// A cubic segment's Horner coefficients (c1, c2, c3) in Q8 output units
-/// from its end nodes and their derivatives dy/ds in Q47.16.
-fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i64, i64, i64), CurveError> {
+/// from its end nodes and their derivatives dy/ds in Q47.16. The
+/// derivatives' signs are checked first ([`check_derivative_signs`]), so
+/// the coefficients fit `i32` ([`Segment`]); `SegmentTooSteep` if not.
+fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i32, i32, i32), CurveError> {
     let w = i128::from(b.shift.raw_q40()) - i128::from(a.shift.raw_q40());
     // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
     let term = |d: i64| -> Result<i64, CurveError> {
@@ -536,7 +558,26 @@ fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i64, i64, 
     if dy.unsigned_abs() >= 1 << 29 {
         return Err(CurveError::SegmentTooSteep);
     }
-    Ok((d0, 3 * dy - 2 * d0 - d1, d0 + d1 - 2 * dy))
+    let fit = |v: i64| i32::try_from(v).map_err(|_| CurveError::SegmentTooSteep);
+    Ok((fit(d0)?, fit(3 * dy - 2 * d0 - d1)?, fit(d0 + d1 - 2 * dy)?))
+}
+
+/// `x / 2^sh` rounded to nearest, ties away from zero, as a `u32`, for a
+/// result known to be below 2^32 (`sh` in 0..=95; larger gives 0). On a
+/// 32-bit core the shift is done on the two words, never as a 64-bit
+/// library call. Exact under that condition; wraps (no panic) otherwise.
+#[inline]
+fn round_shr_to_u32(x: u64, sh: u8) -> u32 {
+    let (hi, lo) = ((x >> 32) as u32, x as u32);
+    // t = x >> (sh − 1): the result with its half bit.
+    let t = match sh {
+        0 => return lo,
+        1 => lo,
+        2..=32 => (lo >> (sh - 1)) | (hi << (33 - sh)),
+        33..=64 => hi >> (sh - 33),
+        _ => 0,
+    };
+    (t >> 1) + (t & 1)
 }
 
 /// Signed × unsigned 32-bit product, exact in `i64`.
@@ -811,6 +852,100 @@ mod tests {
         })
     }
 
+    /// The evaluation as first written: `i64` throughout (64-bit shifts,
+    /// `i64` products). [`Curve::eval`] now works in 32-bit words on a
+    /// 32-bit core; the property test below holds it bit-identical to this.
+    fn eval_reference(c: &Curve, s: Shift) -> CurveValue {
+        let s = s.raw_q40();
+        let n = c.len();
+        let last_i = n - 1;
+        if s < c.x[0] {
+            return CurveValue {
+                value: c.y[0],
+                status: CurveStatus::BelowRange,
+            };
+        }
+        if s > c.x[last_i] {
+            return CurveValue {
+                value: c.y[last_i],
+                status: CurveStatus::AboveRange,
+            };
+        }
+        if s == c.x[last_i] {
+            return CurveValue {
+                value: c.y[last_i],
+                status: CurveStatus::InRange,
+            };
+        }
+        let i = c.segment(s);
+        let seg = c.seg[i];
+        let (x0, y0, y1) = (c.x[i], c.y[i], c.y[i + 1]);
+        let d = round_shr_u64(s.abs_diff(x0), u32::from(seg.sh)).min((1 << 31) - 1) as u32;
+        let delta = match c.interpolation {
+            Interpolation::Linear => round_shr_i64(mul_i32_u32(seg.k, d), u32::from(seg.k_exp)),
+            Interpolation::MonotoneCubic => {
+                let t = round_shr_u64(mul_u32_wide(seg.k.unsigned_abs(), d), u32::from(seg.k_exp))
+                    .min(1 << 30) as i64;
+                let acc = i64::from(seg.c2_q8) + round_shr_i64(i64::from(seg.c3_q8) * t, 30);
+                let acc = i64::from(seg.c1_q8) + round_shr_i64(acc * t, 30);
+                round_shr_i64(acc * t, 38)
+            }
+        };
+        let (lo, hi) = if y0 <= y1 { (y0, y1) } else { (y1, y0) };
+        CurveValue {
+            value: (i64::from(y0) + delta).clamp(i64::from(lo), i64::from(hi)) as i32,
+            status: CurveStatus::InRange,
+        }
+    }
+
+    /// Tables at the edges of the fixed-point path: widths from one raw
+    /// unit (sh = 0, small exponents) to 2^46, value steps up to 2^30 − 1
+    /// (linear) or 2^21 − 1 (cubic), flat segments, either direction.
+    fn edge_table() -> impl Strategy<Value = (Vec<Node>, Option<Vec<i64>>)> {
+        (
+            proptest::collection::vec(
+                (
+                    0u32..47,
+                    any::<u64>(),
+                    0u32..31,
+                    any::<u32>(),
+                    any::<bool>(),
+                ),
+                1..8,
+            ),
+            any::<i32>(),
+            any::<bool>(),
+            any::<bool>(),
+        )
+            .prop_map(|(steps, y_start, rising, cubic)| {
+                let mut x = Shift::from_f64(-0.9).unwrap().raw_q40();
+                let mut y = i64::from(y_start);
+                let max_bits = if cubic { 21 } else { 30 };
+                let mut nodes = vec![Node::new(Shift::from_raw_q40(x), y_start)];
+                for (w_bits, w, dy_bits, dy, flat) in steps {
+                    x += 1 + (w % (1u64 << w_bits)) as i64;
+                    let dy = if flat {
+                        0
+                    } else {
+                        i64::from(dy % (1u32 << dy_bits.min(max_bits)))
+                    };
+                    y = if rising { y + dy } else { y - dy }
+                        .clamp(i64::from(i32::MIN), i64::from(i32::MAX));
+                    nodes.push(Node::new(Shift::from_raw_q40(x), y as i32));
+                }
+                let ders = cubic.then(|| {
+                    let xf: Vec<f64> = nodes.iter().map(|n| n.shift.raw_q40() as f64).collect();
+                    let yf: Vec<f64> = nodes.iter().map(|n| f64::from(n.value)).collect();
+                    // dy/ds in Q16 per unit shift (2^40 raw units).
+                    pchip_derivatives(&xf, &yf).unwrap()[..nodes.len()]
+                        .iter()
+                        .map(|d| (d * 65_536.0 * 1_099_511_627_776.0).round() as i64)
+                        .collect()
+                });
+                (nodes, ders)
+            })
+    }
+
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(2000))]
 
@@ -870,6 +1005,24 @@ mod tests {
         }
 
         /// Arbitrary shifts never panic, and the status matches the table.
+        #[test]
+        fn eval_in_words_equals_the_i64_evaluation((nodes, ders) in edge_table(), qs in proptest::collection::vec((0.0f64..=1.0, any::<i64>(), -3i64..3), 1..16)) {
+            let built = match &ders {
+                Some(d) => Curve::monotone_cubic(&nodes, d),
+                None => Curve::linear(&nodes),
+            };
+            let Ok(c) = built else { return Ok(()) };
+            for (q, raw, nudge) in qs {
+                // Inside a segment, at and beside nodes, and anywhere.
+                let (lo, hi) = (nodes[0].shift.raw_q40(), nodes[nodes.len() - 1].shift.raw_q40());
+                let inside = lo + ((hi - lo) as f64 * q) as i64;
+                let near = nodes[(raw.unsigned_abs() % nodes.len() as u64) as usize].shift.raw_q40() + nudge;
+                for s in [inside, near, raw] {
+                    let s = Shift::from_raw_q40(s);
+                    prop_assert_eq!(c.eval(s), eval_reference(&c, s), "at {:?}", s);
+                }
+            }
+        }
         #[test]
         fn any_shift_is_safe((nodes, _) in table(), raw: i64) {
             prop_assume!(nodes.len() >= 2);
