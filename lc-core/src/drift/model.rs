@@ -166,8 +166,11 @@ impl TemperatureModel {
     /// g(ΔT) in units of 2^-56, exact (|g| < 2^55).
     fn g_q56(&self, t: CentiCelsius) -> i64 {
         let d = self.delta(t);
-        // |b2·ΔT| < 2^31·2^16 = 2^47; times ΔT: < 2^63.
-        let quad = mul_i32(self.b2, d).wrapping_mul(i64::from(d));
+        // |ΔT| ≤ 40 000 centi-kelvin, so ΔT² < 2^31 and both products are
+        // 32 × 32 → 64-bit: |b2·ΔT²| < 2^62, |b1·ΔT·2^16| < 2^63. Their sum
+        // is g itself (< 2^55), exact in wrapping arithmetic.
+        let d2 = d.unsigned_abs().wrapping_mul(d.unsigned_abs());
+        let quad = mul_i32_u32(self.b2, d2);
         (mul_i32(self.b1, d) << 16).wrapping_add(quad)
     }
 
@@ -228,9 +231,18 @@ impl DriftFactor {
         if self.g31 == 0 {
             return s;
         }
-        // 1 + s in Q29, saturated to u32 (1 + s < 8 in any useful reading).
-        let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0);
-        let u29 = u32::try_from(round_asr(one_plus, 11)).unwrap_or(u32::MAX);
+        // 1 + s in Q29, saturated to u32 (1 + s < 8 in any useful reading):
+        // round(x·2^-11) = ⌊x·2^-11⌋ + bit 10 of x, taken from the 32-bit
+        // words of x (no 64-bit shift on a 32-bit core).
+        let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0) as u64;
+        let (hi, lo) = ((one_plus >> 32) as u32, one_plus as u32);
+        let u29 = if hi >= 1 << 11 {
+            u32::MAX
+        } else {
+            ((lo >> 11) | (hi << 21))
+                .checked_add((lo >> 10) & 1)
+                .unwrap_or(u32::MAX)
+        };
         // Product Q60 → Q40.
         let p = mul_i32_u32(self.g31, u29);
         Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
@@ -328,6 +340,29 @@ mod tests {
             let g = (1.0 + float) / (1.0 + sq.to_f64()) - 1.0;
             let bound = (1.0 + sq.to_f64()) * 2f64.powi(-32) + g.abs() * 2f64.powi(-30) + 2f64.powi(-40) + 1e-15;
             prop_assert!((fixed - float).abs() <= bound, "{} vs {} bound {}", fixed, float, bound);
+        }
+
+        /// The 32-bit-word arithmetic of `factor` and `apply` equals the
+        /// same formulas in `i128`: g = b1·ΔT·2^16 + b2·ΔT², rounded to Q31;
+        /// 1 + s rounded to Q29 and saturated; the product rounded to Q40.
+        #[test]
+        fn words_equal_the_i128_formulas(r in -10_000i32..=30_000, b1 in -(1i32 << 22)..(1 << 22), b2 in -(1i32 << 25)..(1 << 25), s in prop_oneof![any::<i64>(), -(1i64 << 41)..(1i64 << 44)], t in -12_000i32..32_000) {
+            // These ranges keep |g| < 1/2 (accepted) for all but the
+            // largest b2 at the far ends of the domain.
+            let Ok(m) = TemperatureModel::new(CentiCelsius(r), b1, b2) else { return Ok(()) };
+            let round = |x: i128, sh: u32| ((x >> (sh - 1)) + 1) >> 1;
+            let d = i128::from(m.delta(CentiCelsius(t)));
+            let g31 = round(i128::from(b1) * d * 65_536 + i128::from(b2) * d * d, 25);
+            let f = m.factor(CentiCelsius(t));
+            prop_assert_eq!(i128::from(f.g31), if b1 == 0 && b2 == 0 { 0 } else { g31 });
+            let one_plus = (i128::from(s) + (1 << 40)).clamp(0, i128::from(i64::MAX));
+            let u29 = round(one_plus, 11).min(i128::from(u32::MAX));
+            let want = if f.g31 == 0 {
+                i128::from(s)
+            } else {
+                (i128::from(s) + round(i128::from(f.g31) * u29, 20)).clamp(i128::from(i64::MIN), i128::from(i64::MAX))
+            };
+            prop_assert_eq!(i128::from(f.apply(Shift::from_raw_q40(s)).raw_q40()), want);
         }
 
         /// Arbitrary inputs never panic; any accepted model keeps |g| < 1/2.
