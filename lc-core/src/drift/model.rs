@@ -227,6 +227,7 @@ impl DriftFactor {
 
     /// The compensated shift: s + (1 + s)·g, with 1 + s rounded to Q29 and
     /// the product rounded into Q.40 (bound in [`TemperatureModel`]'s docs).
+    #[inline]
     pub fn apply(self, s: Shift) -> Shift {
         if self.g31 == 0 {
             return s;

@@ -226,7 +226,9 @@ impl Front {
     }
 
     /// The drift-compensated shift of the sensor channel (ratiometric when
-    /// a companion coil is configured).
+    /// a companion coil is configured). Inlined into each reader's `read`,
+    /// so the result stays in registers on the per-reading path.
+    #[inline(always)]
     pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let pair = self.check(input.pair).map_err(SensorFault::Counts)?;
         let s = match self.companion {
