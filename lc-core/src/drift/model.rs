@@ -64,15 +64,46 @@ pub struct TemperatureModel {
     b2: i32,
 }
 
-/// Signed 32 × 32 → 64-bit product, exact.
+/// `a · b` for |b| < 2^16 (a temperature difference in centi-kelvin),
+/// exact in `i64`.
 #[inline]
-fn mul_i32(a: i32, b: i32) -> i64 {
-    let m = mul_u32_wide(a.unsigned_abs(), b.unsigned_abs()) as i64; // ≤ 2^62: exact
+fn mul_i32_u16(a: i32, b: i32) -> i64 {
+    let m = mul_u48_u16(u64::from(a.unsigned_abs()), b.unsigned_abs()) as i64; // < 2^47
     if (a < 0) != (b < 0) {
         -m
     } else {
         m
     }
+}
+
+/// `a · b` for a < 2^48 and b < 2^16, exact: three 16 × 16 → 32-bit
+/// partial products on ARMv6-M (no long multiply, [`mul_u48_u16_parts`]),
+/// the native multiply elsewhere. Wraps (no panic) outside that range.
+#[inline]
+fn mul_u48_u16(a: u64, b: u32) -> u64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_u48_u16_parts(a, b)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        a.wrapping_mul(u64::from(b))
+    }
+}
+
+/// The ARMv6-M form of [`mul_u48_u16`], compiled everywhere so host tests
+/// hold it equal to the native product.
+#[inline]
+#[cfg_attr(
+    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
+    allow(dead_code)
+)]
+fn mul_u48_u16_parts(a: u64, b: u32) -> u64 {
+    let (hi, lo) = ((a >> 32) as u32, a as u32);
+    let p0 = u64::from((lo & 0xFFFF).wrapping_mul(b));
+    let p1 = u64::from((lo >> 16).wrapping_mul(b));
+    let p2 = u64::from(hi.wrapping_mul(b));
+    (p2 << 32).wrapping_add(p1 << 16).wrapping_add(p0)
 }
 
 /// Arithmetic shift right with rounding to nearest (ties up), `sh` in 1..=63.
@@ -166,12 +197,16 @@ impl TemperatureModel {
     /// g(ΔT) in units of 2^-56, exact (|g| < 2^55).
     fn g_q56(&self, t: CentiCelsius) -> i64 {
         let d = self.delta(t);
-        // |ΔT| ≤ 40 000 centi-kelvin, so ΔT² < 2^31 and both products are
-        // 32 × 32 → 64-bit: |b2·ΔT²| < 2^62, |b1·ΔT·2^16| < 2^63. Their sum
-        // is g itself (< 2^55), exact in wrapping arithmetic.
-        let d2 = d.unsigned_abs().wrapping_mul(d.unsigned_abs());
-        let quad = mul_i32_u32(self.b2, d2);
-        (mul_i32(self.b1, d) << 16).wrapping_add(quad)
+        // Horner: g = ΔT·(b1·2^16 + b2·ΔT). |ΔT| ≤ 40 000 < 2^16, so the
+        // inner term is below 2^48 and each product is a handful of
+        // 16 × 16-bit multiplies on a core without a long multiply.
+        let inner = (i64::from(self.b1) << 16) + mul_i32_u16(self.b2, d);
+        let m = mul_u48_u16(inner.unsigned_abs(), d.unsigned_abs()) as i64; // = |g| < 2^55
+        if (inner < 0) != (d < 0) {
+            -m
+        } else {
+            m
+        }
     }
 
     /// The correction at temperature `t` (clamped to
@@ -341,6 +376,12 @@ mod tests {
             let g = (1.0 + float) / (1.0 + sq.to_f64()) - 1.0;
             let bound = (1.0 + sq.to_f64()) * 2f64.powi(-32) + g.abs() * 2f64.powi(-30) + 2f64.powi(-40) + 1e-15;
             prop_assert!((fixed - float).abs() <= bound, "{} vs {} bound {}", fixed, float, bound);
+        }
+
+        /// The ARMv6-M partial products equal the native product in range.
+        #[test]
+        fn partial_products_equal_the_product(a in 0u64..(1 << 48), b in 0u32..(1 << 16)) {
+            prop_assert_eq!(mul_u48_u16_parts(a, b), a * u64::from(b));
         }
 
         /// The 32-bit-word arithmetic of `factor` and `apply` equals the
