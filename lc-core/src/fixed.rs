@@ -128,11 +128,45 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
     }
 }
 
+/// Whether this is ARMv6-M (Cortex-M0/M0+): no divide, no count of leading
+/// zeros, only a 32 × 32 → 32-bit multiply.
+const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+
+/// Leading zeros of a `u64`. On ARMv6-M a five-step binary search on the
+/// words ([`leading_zeros_words`]) replaces the library's count, a call of
+/// about 50 instructions per word there.
+#[inline]
+fn leading_zeros_u64(x: u64) -> u32 {
+    if ARMV6M {
+        leading_zeros_words(x)
+    } else {
+        x.leading_zeros()
+    }
+}
+
+/// [`leading_zeros_u64`] by binary search in 32-bit words (compiled
+/// everywhere so host tests hold it equal to `u64::leading_zeros`).
+#[inline]
+fn leading_zeros_words(x: u64) -> u32 {
+    let (hi, lo) = ((x >> 32) as u32, x as u32);
+    let (mut v, mut z) = if hi != 0 { (hi, 0) } else { (lo, 32) };
+    if v == 0 {
+        return 64;
+    }
+    for step in [16u32, 8, 4, 2, 1] {
+        if v >> (32 - step) == 0 {
+            v <<= step;
+            z += step;
+        }
+    }
+    z
+}
+
 /// `x` as a 32-bit mantissa with its top bit set, rounded to nearest, and
 /// the exponent e with x ≈ m · 2^e. `x` must not be 0.
 fn mantissa32(x: u64) -> (u32, i32) {
-    let z = x.leading_zeros(); // x > 0: z ≤ 63
-    let v = x << z;
+    let z = leading_zeros_u64(x); // x > 0: z ≤ 63
+    let v = shl_u64(x, z);
     let top = (v >> 32) as u32; // the top half: exact
     let e = 32 - z as i32; // z ≤ 63
     match top.checked_add(((v >> 31) & 1) as u32) {
@@ -141,11 +175,63 @@ fn mantissa32(x: u64) -> (u32, i32) {
     }
 }
 
+/// `x << sh` for `sh` in 0..=63, in 32-bit words on ARMv6-M (no library
+/// call). Bits shifted out are lost.
+#[inline]
+fn shl_u64(x: u64, sh: u32) -> u64 {
+    if ARMV6M {
+        let (hi, lo) = ((x >> 32) as u32, x as u32);
+        match sh {
+            0 => x,
+            1..=31 => (u64::from((hi << sh) | (lo >> (32 - sh))) << 32) | u64::from(lo << sh),
+            32..=63 => u64::from(lo << (sh - 32)) << 32,
+            _ => 0,
+        }
+    } else {
+        x.checked_shl(sh).unwrap_or(0)
+    }
+}
+
+/// Quotient and remainder of `a · 2^32 / b` for normalised `a`, `b` (top
+/// bit set): the quotient lies in (2^31, 2^33). Exact. On ARMv6-M, which
+/// has no divide instruction, 33 restoring steps in 32-bit words
+/// ([`div_normalised_steps`]) replace the library's 64 ÷ 64-bit division.
+#[inline]
+fn div_normalised(a: u32, b: u32) -> (u64, u32) {
+    if ARMV6M {
+        div_normalised_steps(a, b)
+    } else {
+        let n = u64::from(a) << 32;
+        let d = u64::from(b.max(1));
+        (n / d, (n % d) as u32) // remainder < d < 2^32
+    }
+}
+
+/// [`div_normalised`] by restoring division, one quotient bit per step
+/// (compiled everywhere so host tests hold it equal to the division).
+#[inline]
+fn div_normalised_steps(a: u32, b: u32) -> (u64, u32) {
+    // The top quotient bit: a/b < 2 for normalised operands.
+    let (top, mut r) = if a >= b { (1u64, a - b) } else { (0, a) };
+    let mut q: u32 = 0;
+    for _ in 0..32 {
+        // r < b: 2r < 2^33; its carry out of 32 bits means 2r ≥ b.
+        // Branch-free: the step's bit selects the subtraction by a mask.
+        let carry = r >> 31;
+        r <<= 1;
+        let bit = carry | u32::from(r >= b);
+        r = r.wrapping_sub(b & bit.wrapping_neg());
+        q = (q << 1) | bit;
+    }
+    ((top << 32) | u64::from(q), r)
+}
+
 /// The quotient a/b in Q.40, `round(a · 2^40 / b)` to within a relative
 /// 3·2^-32 (< 2^-31), or `None` when b is zero or the quotient does not fit
-/// an `i64`. One 64 ÷ 64-bit division: both operands are first rounded to
-/// 32-bit mantissas (relative error ≤ 2^-32 each), then the mantissas are
-/// divided once and the quotient rounded to nearest (≤ 2^-32).
+/// an `i64`. One division: both operands are first rounded to 32-bit
+/// mantissas (relative error ≤ 2^-32 each), then the mantissas are
+/// divided once ([`div_normalised`]) and the quotient rounded to nearest
+/// (≤ 2^-32).
 pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
         return None;
@@ -157,20 +243,16 @@ pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     let (ma, ea) = mantissa32(a.unsigned_abs());
     let (mb, eb) = mantissa32(b.unsigned_abs());
     // ma·2^32/mb lies in (2^31, 2^33): the one division.
-    let n = u64::from(ma) << 32;
-    let d = u64::from(mb);
-    // mb ≥ 2^31, so the checked forms never fail; they keep the firmware
-    // free of a division-by-zero panic branch.
-    let (q, r) = (n.checked_div(d)?, n.checked_rem(d)?);
-    let q = if r >= d - r { q + 1 } else { q };
+    let (q, r) = div_normalised(ma, mb);
+    let q = if r >= mb - r { q + 1 } else { q };
     // a/b ≈ q · 2^(ea − eb − 32); in Q.40: q · 2^(ea − eb + 8).
     let sh = ea - eb + 8;
     let q = if sh >= 0 {
         let sh = sh.unsigned_abs();
-        if sh >= 64 || q.leading_zeros() <= sh {
+        if sh >= 64 || leading_zeros_u64(q) <= sh {
             return None;
         }
-        q << sh
+        shl_u64(q, sh)
     } else {
         round_shr_u64(q, sh.unsigned_abs())
     };
@@ -188,6 +270,38 @@ pub fn bit_length_u128(x: u128) -> u32 {
 mod tests {
     use super::*;
     use proptest::prelude::*;
+
+    proptest! {
+        /// The ARMv6-M forms (restoring division, binary-search count of
+        /// leading zeros, shifts in words) equal the native operations.
+        #[test]
+        fn armv6m_forms_equal_the_native_operations(a in (1u32 << 31).., b in (1u32 << 31).., x: u64, sh in 0u32..64) {
+            let n = u64::from(a) << 32;
+            prop_assert_eq!(div_normalised_steps(a, b), (n / u64::from(b), (n % u64::from(b)) as u32));
+            prop_assert_eq!(leading_zeros_words(x), x.leading_zeros());
+            prop_assert_eq!(leading_zeros_words(x >> sh), (x >> sh).leading_zeros());
+            prop_assert_eq!(shl_u64(x, sh), x << sh);
+        }
+    }
+
+    #[test]
+    fn armv6m_forms_at_the_edges() {
+        for (a, b) in [
+            (1u32 << 31, 1u32 << 31),
+            (u32::MAX, 1 << 31),
+            (1 << 31, u32::MAX),
+            (u32::MAX, u32::MAX),
+        ] {
+            let n = u64::from(a) << 32;
+            assert_eq!(
+                div_normalised_steps(a, b),
+                (n / u64::from(b), (n % u64::from(b)) as u32)
+            );
+        }
+        for x in [0u64, 1, 1 << 31, 1 << 32, 1 << 63, u64::MAX] {
+            assert_eq!(leading_zeros_words(x), x.leading_zeros());
+        }
+    }
 
     #[test]
     fn wide_multiply_corners() {
