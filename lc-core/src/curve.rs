@@ -392,9 +392,20 @@ impl Curve {
                 },
             };
         }
-        let i = self.segment(s).min(MAX_NODES - 2);
+        // x[0] ≤ s < x[last]: the segment is the last i < last with
+        // x[i] ≤ s. Halving search with a fixed trip count per table size
+        // (3 steps for 5 nodes), indices masked into the arrays.
+        let (mut i, mut len) = (0usize, last_i);
+        while len > 1 {
+            let half = len / 2;
+            if self.x[(i + half) & (MAX_NODES - 1)] <= s {
+                i += half;
+            }
+            len -= half;
+        }
+        let i = i & (MAX_NODES - 1);
         let seg = &self.seg[i];
-        let (y0, y1) = (self.y[i], self.y[i + 1]);
+        let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
         // (s − x0)·2^-sh rounded, below 2^31 (d = 2^31 only when s rounds up
         // to x1: held at 2^31 − 1, still exact below).
