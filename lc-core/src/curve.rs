@@ -242,30 +242,77 @@ fn scaled_ratio(num: i64, den: u64) -> Option<(i32, u8)> {
 }
 
 impl Curve {
-    fn build(nodes: &[Node], interpolation: Interpolation) -> Result<Self, CurveError> {
-        validate(nodes)?;
-        let mut c = Curve {
-            len: nodes.len() as u8, // ≤ 64 after validation
-            interpolation,
-            x: [0; MAX_NODES],
-            y: [0; MAX_NODES],
-            seg: [Segment::default(); MAX_NODES],
-        };
-        for (i, n) in nodes.iter().enumerate() {
-            c.x[i] = n.shift.raw_q40();
-            c.y[i] = n.value;
+    /// An empty curve (no nodes) for a reader to rebuild in place
+    /// ([`Curve::rebuild`]): never handed out as a value.
+    pub(crate) const PLACEHOLDER: Curve = Curve {
+        len: 0,
+        interpolation: Interpolation::Linear,
+        x: [0; MAX_NODES],
+        y: [0; MAX_NODES],
+        seg: [Segment {
+            sh: 0,
+            k_exp: 0,
+            k: 0,
+            c1_q8: 0,
+            c2_q8: 0,
+            c3_q8: 0,
+        }; MAX_NODES],
+    };
+
+    /// Builds the curve of these nodes (linear when `derivatives_q16` is
+    /// `None`) in place, with the same acceptance and errors as
+    /// [`Curve::linear`] and [`Curve::monotone_cubic`]. The firmware
+    /// builds its readers' curves this way: no 2 KB temporary on the stack.
+    /// On an error the curve is left empty.
+    pub(crate) fn rebuild(
+        &mut self,
+        nodes: &[Node],
+        derivatives_q16: Option<&[i64]>,
+    ) -> Result<(), CurveError> {
+        self.len = 0;
+        if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
+            return Err(CurveError::BadDerivatives);
         }
-        for (slot, pair) in c.seg.iter_mut().zip(nodes.windows(2)) {
+        validate(nodes)?;
+        let interpolation = match derivatives_q16 {
+            Some(_) => Interpolation::MonotoneCubic,
+            None => Interpolation::Linear,
+        };
+        self.interpolation = interpolation;
+        for ((x, y), n) in self.x.iter_mut().zip(self.y.iter_mut()).zip(nodes) {
+            *x = n.shift.raw_q40();
+            *y = n.value;
+        }
+        for (slot, pair) in self.seg.iter_mut().zip(nodes.windows(2)) {
             if let [a, b] = pair {
                 *slot = segment_of(*a, *b, interpolation)?;
             }
         }
-        Ok(c)
+        if let Some(ders) = derivatives_q16 {
+            check_derivative_signs(nodes, ders)?;
+            // Checked accesses throughout: no bounds-check panic survives
+            // on the firmware path (the panic-never build proves it).
+            for ((slot, pair), d) in self
+                .seg
+                .iter_mut()
+                .zip(nodes.windows(2))
+                .zip(ders.windows(2))
+            {
+                if let ([a, b], [d0, d1]) = (pair, d) {
+                    let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
+                    slot.c1_q8 = c1;
+                    slot.c2_q8 = c2;
+                    slot.c3_q8 = c3;
+                }
+            }
+        }
+        self.len = nodes.len() as u8; // ≤ 64 after validation
+        Ok(())
     }
 
     /// Whether [`Curve::linear`] (`derivatives_q16` `None`) or
     /// [`Curve::monotone_cubic`] would accept these nodes, with the same
-    /// error, without building the curve: a curve is 2.8 KB, and the image
+    /// error, without building the curve: a curve is about 2 KB, and the image
     /// parser checks tables it does not keep.
     pub fn check(nodes: &[Node], derivatives_q16: Option<&[i64]>) -> Result<(), CurveError> {
         if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
@@ -294,33 +341,17 @@ impl Curve {
 
     /// A curve with straight segments.
     pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
-        Self::build(nodes, Interpolation::Linear)
+        let mut c = Self::PLACEHOLDER;
+        c.rebuild(nodes, None)?;
+        Ok(c)
     }
 
     /// A monotone cubic curve from nodes and their derivatives dy/ds in
     /// output units per unit shift (from [`pchip_derivatives`] on the host,
     /// stored in the calibration image as Q47.16: `derivatives_q16`).
     pub fn monotone_cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
-        if derivatives_q16.len() != nodes.len() {
-            return Err(CurveError::BadDerivatives);
-        }
-        let mut c = Self::build(nodes, Interpolation::MonotoneCubic)?;
-        check_derivative_signs(nodes, derivatives_q16)?;
-        // Checked accesses throughout: no bounds-check panic survives on
-        // the firmware path (the panic-never build proves it).
-        for ((slot, pair), d) in c
-            .seg
-            .iter_mut()
-            .zip(nodes.windows(2))
-            .zip(derivatives_q16.windows(2))
-        {
-            if let ([a, b], [d0, d1]) = (pair, d) {
-                let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
-                slot.c1_q8 = c1;
-                slot.c2_q8 = c2;
-                slot.c3_q8 = c3;
-            }
-        }
+        let mut c = Self::PLACEHOLDER;
+        c.rebuild(nodes, Some(derivatives_q16))?;
         Ok(c)
     }
 

@@ -678,9 +678,27 @@ impl VolumeTable {
     /// values are volumes: for a curve loaded from a calibration image.
     /// Refuses a falling curve ([`CurveError::NotMonotone`]).
     pub fn from_curve(curve: Curve) -> Result<Self, CurveError> {
+        Self::check_rising(&curve)?;
+        Ok(Self { curve })
+    }
+
+    /// A volume table without nodes, for a reader to fill in place
+    /// ([`VolumeTable::rebuild`]): never handed out as a value.
+    pub(crate) const PLACEHOLDER: VolumeTable = VolumeTable {
+        curve: Curve::PLACEHOLDER,
+    };
+
+    /// [`VolumeTable::from_curve`] of a calibration table's curve, built in
+    /// place (no 2 KB temporary on the stack).
+    pub(crate) fn rebuild(&mut self, table: &crate::image::Table) -> Result<(), CurveError> {
+        table.build_curve(&mut self.curve)?;
+        Self::check_rising(&self.curve)
+    }
+
+    fn check_rising(curve: &Curve) -> Result<(), CurveError> {
         let last = curve.len().saturating_sub(1);
         match (curve.node(0), curve.node(last)) {
-            (Some(first), Some(last)) if first.value <= last.value => Ok(Self { curve }),
+            (Some(first), Some(last)) if first.value <= last.value => Ok(()),
             (Some(_), Some(_)) => Err(CurveError::NotMonotone),
             _ => Err(CurveError::TooFewNodes),
         }

@@ -247,6 +247,52 @@ impl Table {
         Ok(Self::fill(nodes, Some(derivatives_q16)))
     }
 
+    /// A table without nodes, for the parser to fill in place
+    /// ([`Table::read_into`]): never handed out as a value.
+    const PLACEHOLDER: Table = Table {
+        len: 0,
+        cubic: false,
+        nodes: [Node::new(Shift::ZERO, 0); MAX_NODES],
+        derivatives_q16: [0; MAX_NODES],
+    };
+
+    /// Reads `n` nodes (and their derivatives when `cubic`) at `at` into
+    /// this table, in place (no 1.5 KB temporary on the parser's stack),
+    /// and validates them as [`Table::linear`] and [`Table::cubic`] do.
+    /// `Ok(None)` when the bytes end early.
+    fn read_into(
+        &mut self,
+        r: &Reader<'_>,
+        at: usize,
+        n: usize,
+        cubic: bool,
+    ) -> Result<Option<()>, CurveError> {
+        self.len = 0;
+        self.cubic = cubic;
+        if n > MAX_NODES {
+            return Err(CurveError::TooManyNodes);
+        }
+        for (i, slot) in self.nodes.iter_mut().enumerate().take(n) {
+            let p = at + i * NODE_LEN;
+            let (Some(x), Some(y)) = (r.i64(p), r.i32(p + 8)) else {
+                return Ok(None);
+            };
+            *slot = Node::new(Shift::from_raw_q40(x), y);
+        }
+        if cubic {
+            let base = at + n * NODE_LEN;
+            for (i, slot) in self.derivatives_q16.iter_mut().enumerate().take(n) {
+                let Some(d) = r.i64(base + i * DERIVATIVE_LEN) else {
+                    return Ok(None);
+                };
+                *slot = d;
+            }
+        }
+        self.len = n as u8; // ≤ 64
+        Curve::check(self.nodes(), cubic.then(|| self.derivatives_q16()))?;
+        Ok(Some(()))
+    }
+
     fn fill(nodes: &[Node], derivatives: Option<&[i64]>) -> Self {
         let mut t = Table {
             len: 0,
@@ -289,11 +335,14 @@ impl Table {
 
     /// The curve this table describes.
     pub fn curve(&self) -> Result<Curve, CurveError> {
-        if self.cubic {
-            Curve::monotone_cubic(self.nodes(), self.derivatives_q16())
-        } else {
-            Curve::linear(self.nodes())
-        }
+        let mut c = Curve::PLACEHOLDER;
+        self.build_curve(&mut c)?;
+        Ok(c)
+    }
+
+    /// [`Table::curve`] built in place (readers: no temporary curve).
+    pub(crate) fn build_curve(&self, curve: &mut Curve) -> Result<(), CurveError> {
+        curve.rebuild(self.nodes(), self.cubic.then(|| self.derivatives_q16()))
     }
 }
 
@@ -439,41 +488,6 @@ fn scale_from(unit: u8, exp: u8) -> Option<OutputScale> {
     })
 }
 
-fn read_table(
-    r: &Reader<'_>,
-    at: usize,
-    n: usize,
-    cubic: bool,
-) -> Option<([Node; MAX_NODES], [i64; MAX_NODES])> {
-    let mut nodes = [Node::default(); MAX_NODES];
-    let mut ders = [0i64; MAX_NODES];
-    for (i, slot) in nodes.iter_mut().enumerate().take(n) {
-        let p = at + i * NODE_LEN;
-        *slot = Node::new(Shift::from_raw_q40(r.i64(p)?), r.i32(p + 8)?);
-    }
-    if cubic {
-        let base = at + n * NODE_LEN;
-        for (i, slot) in ders.iter_mut().enumerate().take(n) {
-            *slot = r.i64(base + i * DERIVATIVE_LEN)?;
-        }
-    }
-    Some((nodes, ders))
-}
-
-fn table_from(
-    nodes: &[Node; MAX_NODES],
-    ders: &[i64; MAX_NODES],
-    n: usize,
-    cubic: bool,
-) -> Result<Table, CurveError> {
-    let nodes = nodes.get(..n).ok_or(CurveError::TooManyNodes)?;
-    if cubic {
-        Table::cubic(nodes, ders.get(..n).ok_or(CurveError::TooManyNodes)?)
-    } else {
-        Table::linear(nodes)
-    }
-}
-
 impl Calibration {
     /// Parses and validates an image. `bytes` may be longer than the image
     /// (a flash page): the header's length field decides.
@@ -561,32 +575,53 @@ impl Calibration {
         let volume_unit = (t(r.u8(78))?, t(r.u8(79))?);
         let metal_raw = r.bytes::<24>(80).ok_or(Truncated)?;
 
-        // Tables and kind-specific parts.
-        let tables_at = HEADER_LEN;
-        let (nodes, ders) =
-            read_table(&r, tables_at, curve_n, flags & FLAG_CUBIC != 0).ok_or(Truncated)?;
-        let curve = match (kind, curve_n) {
-            (ReaderKind::Metal, 0) => None,
-            (ReaderKind::Metal, _) => return Err(OutOfRange(Field::CurveNodes)),
-            _ => Some(
-                table_from(&nodes, &ders, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?,
-            ),
+        // Tables and kind-specific parts, read into the calibration in
+        // place: a table is 1.5 KB, and the firmware's stack should hold
+        // each once.
+        let mut cal = Calibration {
+            kind,
+            serial,
+            reference_hz,
+            gate_cycles,
+            window,
+            rest,
+            companion_rest,
+            drift,
+            output,
+            curve: None,
+            volume: None,
+            metal: None,
         };
+        let tables_at = HEADER_LEN;
+        match (kind, curve_n) {
+            (ReaderKind::Metal, 0) => {}
+            (ReaderKind::Metal, _) => return Err(OutOfRange(Field::CurveNodes)),
+            _ => {
+                cal.curve
+                    .insert(Table::PLACEHOLDER)
+                    .read_into(&r, tables_at, curve_n, flags & FLAG_CUBIC != 0)
+                    .map_err(BadCurve)?
+                    .ok_or(Truncated)?;
+            }
+        }
         if kind == ReaderKind::Metal && flags & FLAG_CUBIC != 0 {
             return Err(OutOfRange(Field::Flags));
         }
         let volume_at = tables_at + table_len(curve_n, flags & FLAG_CUBIC != 0);
-        let volume = if flags & FLAG_VOLUME != 0 {
+        if flags & FLAG_VOLUME != 0 {
             if kind != ReaderKind::Level {
                 return Err(OutOfRange(Field::Flags));
             }
-            let (vn, vd) = read_table(&r, volume_at, volume_n, flags & FLAG_VOLUME_CUBIC != 0)
+            let (table, _) = cal.volume.insert((Table::PLACEHOLDER, output));
+            table
+                .read_into(&r, volume_at, volume_n, flags & FLAG_VOLUME_CUBIC != 0)
+                .map_err(BadVolume)?
                 .ok_or(Truncated)?;
-            let table = table_from(&vn, &vd, volume_n, flags & FLAG_VOLUME_CUBIC != 0)
-                .map_err(BadVolume)?;
             let scale =
                 scale_from(volume_unit.0, volume_unit.1).ok_or(OutOfRange(Field::VolumeOutput))?;
-            Some((table, scale))
+            if let Some((_, s)) = cal.volume.as_mut() {
+                *s = scale;
+            }
         } else {
             if volume_n != 0 || flags & FLAG_VOLUME_CUBIC != 0 {
                 return Err(OutOfRange(Field::VolumeNodes));
@@ -594,8 +629,7 @@ impl Calibration {
             if volume_unit != (0, 0) {
                 return Err(OutOfRange(Field::VolumeOutput));
             }
-            None
-        };
+        }
         let metal = if kind == ReaderKind::Metal {
             let m = Reader(&metal_raw);
             let p = MetalParams {
@@ -626,20 +660,8 @@ impl Calibration {
             }
             None
         };
-        Ok(Calibration {
-            kind,
-            serial,
-            reference_hz,
-            gate_cycles,
-            window,
-            rest,
-            companion_rest,
-            drift,
-            output,
-            curve,
-            volume,
-            metal,
-        })
+        cal.metal = metal;
+        Ok(cal)
     }
 
     /// The configured reciprocal gate length in sensor cycles, `None` when

@@ -275,9 +275,7 @@ impl DriftFactor {
         let u29 = if hi >= 1 << 11 {
             u32::MAX
         } else {
-            ((lo >> 11) | (hi << 21))
-                .checked_add((lo >> 10) & 1)
-                .unwrap_or(u32::MAX)
+            ((lo >> 11) | (hi << 21)).saturating_add((lo >> 10) & 1)
         };
         // Product Q60 → Q40.
         let p = mul_i32_u32(self.g31, u29);

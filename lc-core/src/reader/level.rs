@@ -9,6 +9,9 @@ use crate::geometry::VolumeTable;
 use crate::image::Calibration;
 use crate::shift::{Shift, ShiftConverter};
 
+/// The reference electrode's converter, fault window and temperature model.
+pub(super) type Reference = (ShiftConverter, FaultWindow, TemperatureModel);
+
 /// Level from a capacitive probe in parallel with the tank capacitor.
 ///
 /// - Without a reference electrode the curve maps the probe's shift to the
@@ -29,7 +32,7 @@ use crate::shift::{Shift, ShiftConverter};
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LevelReader {
     front: Front,
-    reference: Option<(ShiftConverter, FaultWindow, TemperatureModel)>,
+    reference: Option<Reference>,
     curve: Curve,
     volume: Option<VolumeTable>,
 }
@@ -38,19 +41,25 @@ impl LevelReader {
     /// From a calibration with a curve (and optionally a reference
     /// electrode and a volume table).
     pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
-        let curve = cal
-            .curve
-            .ok_or(ReaderError::Incomplete)?
-            .curve()
-            .map_err(ReaderError::Curve)?;
-        let volume = match cal.volume {
-            Some((t, _)) => Some(
-                t.curve()
-                    .and_then(VolumeTable::from_curve)
-                    .map_err(ReaderError::Curve)?,
-            ),
-            None => None,
-        };
+        let mut r = Self::unfilled(cal)?;
+        r.fill(cal)?;
+        Ok(r)
+    }
+
+    /// The reader with its curves still empty: [`Reader::from_calibration`]
+    /// builds it inside the enum and then fills the curves in place, so no
+    /// 2 KB temporaries land on the stack.
+    #[inline(always)]
+    pub(super) fn unfilled(cal: &Calibration) -> Result<Self, ReaderError> {
+        let (front, reference) = Self::parts(cal)?;
+        Ok(Self::from_parts(front, reference))
+    }
+
+    /// What the reader needs besides its curves (small values only).
+    pub(super) fn parts(cal: &Calibration) -> Result<(Front, Option<Reference>), ReaderError> {
+        if cal.curve.is_none() {
+            return Err(ReaderError::Incomplete);
+        }
         let gate = cal.gate();
         let reference = match cal.companion_rest {
             Some(rest) => Some((
@@ -60,12 +69,31 @@ impl LevelReader {
             )),
             None => None,
         };
-        Ok(Self {
-            front: Front::new(cal, false)?,
+        Ok((Front::new(cal, false)?, reference))
+    }
+
+    /// The reader from its parts, its curves empty until [`Self::fill`].
+    #[inline(always)]
+    pub(super) fn from_parts(front: Front, reference: Option<Reference>) -> Self {
+        Self {
+            front,
             reference,
-            curve,
-            volume,
-        })
+            curve: Curve::PLACEHOLDER,
+            volume: None,
+        }
+    }
+
+    /// Builds the level curve and the volume table of `cal` in place.
+    pub(super) fn fill(&mut self, cal: &Calibration) -> Result<(), ReaderError> {
+        let table = cal.curve.as_ref().ok_or(ReaderError::Incomplete)?;
+        table
+            .build_curve(&mut self.curve)
+            .map_err(ReaderError::Curve)?;
+        if let Some((t, _)) = &cal.volume {
+            let volume = self.volume.insert(VolumeTable::PLACEHOLDER);
+            volume.rebuild(t).map_err(ReaderError::Curve)?;
+        }
+        Ok(())
     }
 
     fn curve_input(&mut self, input: &Input) -> Result<Shift, SensorFault> {

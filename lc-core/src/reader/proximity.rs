@@ -24,18 +24,47 @@ pub struct ProximityReader {
 impl ProximityReader {
     /// From a calibration with a curve.
     pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
-        let table = cal.curve.ok_or(ReaderError::Incomplete)?;
-        let curve = table.curve().map_err(ReaderError::Curve)?;
+        let mut r = Self::unfilled(cal)?;
+        r.fill(cal)?;
+        Ok(r)
+    }
+
+    /// The reader with its curve still empty: [`Reader::from_calibration`]
+    /// builds it inside the enum and then fills the curve in place, so no
+    /// 2 KB temporary lands on the stack.
+    #[inline(always)]
+    pub(super) fn unfilled(cal: &Calibration) -> Result<Self, ReaderError> {
+        let (front, far_is_high) = Self::parts(cal)?;
+        Ok(Self::from_parts(front, far_is_high))
+    }
+
+    /// What the reader needs besides its curve (small values only).
+    pub(super) fn parts(cal: &Calibration) -> Result<(Front, bool), ReaderError> {
+        let table = cal.curve.as_ref().ok_or(ReaderError::Incomplete)?;
         let nodes = table.nodes();
         let far_is_high = match (nodes.first(), nodes.last()) {
             (Some(a), Some(b)) => b.value >= a.value,
             _ => return Err(ReaderError::Incomplete),
         };
-        Ok(Self {
-            front: Front::new(cal, true)?,
-            curve,
+        Ok((Front::new(cal, true)?, far_is_high))
+    }
+
+    /// The reader from its parts, its curve empty until [`Self::fill`].
+    #[inline(always)]
+    pub(super) fn from_parts(front: Front, far_is_high: bool) -> Self {
+        Self {
+            front,
+            curve: Curve::PLACEHOLDER,
             far_is_high,
-        })
+        }
+    }
+
+    /// Builds the curve of `cal` in place.
+    pub(super) fn fill(&mut self, cal: &Calibration) -> Result<(), ReaderError> {
+        let table = cal.curve.as_ref().ok_or(ReaderError::Incomplete)?;
+        table
+            .build_curve(&mut self.curve)
+            .map_err(ReaderError::Curve)
     }
 
     /// One reading.
