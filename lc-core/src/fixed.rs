@@ -229,9 +229,9 @@ fn div_normalised_steps(a: u32, b: u32) -> (u64, u32) {
 /// The quotient a/b in Q.40, `round(a · 2^40 / b)` to within a relative
 /// 3·2^-32 (< 2^-31), or `None` when b is zero or the quotient does not fit
 /// an `i64`. One division: both operands are first rounded to 32-bit
-/// mantissas (relative error ≤ 2^-32 each), then the mantissas are
-/// divided once ([`div_normalised`]) and the quotient rounded to nearest
-/// (≤ 2^-32).
+/// mantissas (relative error ≤ 2^-32 each), then the mantissas are divided
+/// once (on ARMv6-M by restoring division in 32-bit words) and the
+/// quotient rounded to nearest (≤ 2^-32).
 pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
         return None;

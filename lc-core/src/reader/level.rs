@@ -41,21 +41,16 @@ impl LevelReader {
     /// From a calibration with a curve (and optionally a reference
     /// electrode and a volume table).
     pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
-        let mut r = Self::unfilled(cal)?;
+        let (front, reference) = Self::parts(cal)?;
+        let mut r = Self::from_parts(front, reference);
         r.fill(cal)?;
         Ok(r)
     }
 
-    /// The reader with its curves still empty: [`Reader::from_calibration`]
-    /// builds it inside the enum and then fills the curves in place, so no
-    /// 2 KB temporaries land on the stack.
-    #[inline(always)]
-    pub(super) fn unfilled(cal: &Calibration) -> Result<Self, ReaderError> {
-        let (front, reference) = Self::parts(cal)?;
-        Ok(Self::from_parts(front, reference))
-    }
-
-    /// What the reader needs besides its curves (small values only).
+    /// What the reader needs besides its curves (small values only):
+    /// [`Reader::from_calibration`] builds the reader inside the enum from
+    /// these and then fills the curves in place, so no 2 KB temporaries
+    /// land on the stack.
     pub(super) fn parts(cal: &Calibration) -> Result<(Front, Option<Reference>), ReaderError> {
         if cal.curve.is_none() {
             return Err(ReaderError::Incomplete);

@@ -278,12 +278,28 @@ pub enum Reader {
 
 impl Reader {
     /// The reader a calibration describes.
+    ///
+    /// The reader is built inside the enum from small parts, and its
+    /// curves are then filled in place: a level reader is 4 KB, and the
+    /// firmware's stack should hold one of it, not several temporaries.
     pub fn from_calibration(cal: &Calibration) -> Result<Self, ReaderError> {
-        Ok(match cal.kind {
-            ReaderKind::Proximity => Reader::Proximity(ProximityReader::new(cal)?),
-            ReaderKind::Level => Reader::Level(LevelReader::new(cal)?),
+        let mut reader = match cal.kind {
+            ReaderKind::Proximity => {
+                let (front, far_is_high) = ProximityReader::parts(cal)?;
+                Reader::Proximity(ProximityReader::from_parts(front, far_is_high))
+            }
+            ReaderKind::Level => {
+                let (front, reference) = LevelReader::parts(cal)?;
+                Reader::Level(LevelReader::from_parts(front, reference))
+            }
             ReaderKind::Metal => Reader::Metal(MetalReader::new(cal)?),
-        })
+        };
+        match &mut reader {
+            Reader::Proximity(r) => r.fill(cal)?,
+            Reader::Level(r) => r.fill(cal)?,
+            Reader::Metal(_) => {}
+        }
+        Ok(reader)
     }
 
     /// One reading.

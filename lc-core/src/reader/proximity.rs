@@ -24,21 +24,16 @@ pub struct ProximityReader {
 impl ProximityReader {
     /// From a calibration with a curve.
     pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
-        let mut r = Self::unfilled(cal)?;
+        let (front, far_is_high) = Self::parts(cal)?;
+        let mut r = Self::from_parts(front, far_is_high);
         r.fill(cal)?;
         Ok(r)
     }
 
-    /// The reader with its curve still empty: [`Reader::from_calibration`]
-    /// builds it inside the enum and then fills the curve in place, so no
-    /// 2 KB temporary lands on the stack.
-    #[inline(always)]
-    pub(super) fn unfilled(cal: &Calibration) -> Result<Self, ReaderError> {
-        let (front, far_is_high) = Self::parts(cal)?;
-        Ok(Self::from_parts(front, far_is_high))
-    }
-
-    /// What the reader needs besides its curve (small values only).
+    /// What the reader needs besides its curve (small values only):
+    /// [`Reader::from_calibration`] builds the reader inside the enum from
+    /// these and then fills the curve in place, so no 2 KB temporary lands
+    /// on the stack.
     pub(super) fn parts(cal: &Calibration) -> Result<(Front, bool), ReaderError> {
         let table = cal.curve.as_ref().ok_or(ReaderError::Incomplete)?;
         let nodes = table.nodes();
