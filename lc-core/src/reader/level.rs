@@ -1,16 +1,12 @@
 //! Capacitive level: shift (or the probe / reference ratio) → level → volume.
 
 use super::{Front, Input, Reader, ReaderError, Reading, SensorFault, Status};
-use crate::counting::{FaultWindow, Gating};
+use crate::counting::Gating;
 use crate::curve::{Curve, CurveStatus};
-use crate::drift::TemperatureModel;
 use crate::fixed::div_q40;
 use crate::geometry::VolumeTable;
 use crate::image::Calibration;
 use crate::shift::{Shift, ShiftConverter};
-
-/// The reference electrode's converter, fault window and temperature model.
-pub(super) type Reference = (ShiftConverter, FaultWindow, TemperatureModel);
 
 /// Level from a capacitive probe in parallel with the tank capacitor.
 ///
@@ -32,7 +28,9 @@ pub(super) type Reference = (ShiftConverter, FaultWindow, TemperatureModel);
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LevelReader {
     front: Front,
-    reference: Option<Reference>,
+    /// The reference electrode's converter (its fault window and
+    /// temperature model are the probe's).
+    reference: Option<ShiftConverter>,
     curve: Curve,
     volume: Option<VolumeTable>,
 }
@@ -51,17 +49,15 @@ impl LevelReader {
     /// [`Reader::from_calibration`] builds the reader inside the enum from
     /// these and then fills the curves in place, so no 2 KB temporaries
     /// land on the stack.
-    pub(super) fn parts(cal: &Calibration) -> Result<(Front, Option<Reference>), ReaderError> {
+    pub(super) fn parts(cal: &Calibration) -> Result<(Front, Option<ShiftConverter>), ReaderError> {
         if cal.curve.is_none() {
             return Err(ReaderError::Incomplete);
         }
         let gate = cal.gate();
         let reference = match cal.companion_rest {
-            Some(rest) => Some((
+            Some(rest) => Some(
                 ShiftConverter::new(rest, Gating::Reciprocal, gate).map_err(ReaderError::Shift)?,
-                cal.window,
-                cal.drift,
-            )),
+            ),
             None => None,
         };
         Ok((Front::new(cal, false)?, reference))
@@ -69,7 +65,7 @@ impl LevelReader {
 
     /// The reader from its parts, its curves empty until [`Self::fill`].
     #[inline(always)]
-    pub(super) fn from_parts(front: Front, reference: Option<Reference>) -> Self {
+    pub(super) fn from_parts(front: Front, reference: Option<ShiftConverter>) -> Self {
         Self {
             front,
             reference,
@@ -93,16 +89,20 @@ impl LevelReader {
 
     fn curve_input(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let s = self.front.shift(input)?;
-        let Some((conv, window, drift)) = &self.reference else {
+        let Some(conv) = &self.reference else {
             return Ok(s);
         };
+        // The reference electrode shares the probe's fault window, gate and
+        // temperature model: its check goes through the same tick band, and
+        // its drift correction is the one the probe just used.
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
-        let pair = window
+        let pair = self
+            .front
             .check(pair)
             .map_err(|e| SensorFault::Companion(Some(e)))?;
         let r = conv.shift(pair).map_err(SensorFault::Shift)?;
         let r = match input.temperature {
-            Some(t) => drift.compensate(r, t),
+            Some(t) => self.front.factor(t).apply(r),
             None => r,
         };
         if r.raw_q40() <= 0 {
@@ -140,10 +140,10 @@ impl LevelReader {
     pub fn read_f64(&self, input: &Input) -> (f64, Option<f64>) {
         let s = self.front.shift_f64(input);
         let x = match (&self.reference, input.companion) {
-            (Some((conv, _, drift)), Some(pair)) => {
+            (Some(conv), Some(pair)) => {
                 let r = conv.shift_f64(pair);
                 let r = match input.temperature {
-                    Some(t) => drift.compensate_f64(r, t.to_f64()),
+                    Some(t) => self.front.drift.compensate_f64(r, t.to_f64()),
                     None => r,
                 };
                 s / r
