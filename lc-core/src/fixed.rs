@@ -194,12 +194,13 @@ fn shl_u64(x: u64, sh: u32) -> u64 {
 
 /// Quotient and remainder of `a · 2^32 / b` for normalised `a`, `b` (top
 /// bit set): the quotient lies in (2^31, 2^33). Exact. On ARMv6-M, which
-/// has no divide instruction, 33 restoring steps in 32-bit words
-/// ([`div_normalised_steps`]) replace the library's 64 ÷ 64-bit division.
+/// has no divide instruction, a reciprocal by Newton steps and a corrected
+/// estimate ([`div_normalised_newton`]) replace the library's 64 ÷ 64-bit
+/// division.
 #[inline]
 fn div_normalised(a: u32, b: u32) -> (u64, u32) {
     if ARMV6M {
-        div_normalised_steps(a, b)
+        div_normalised_newton(a, b)
     } else {
         let n = u64::from(a) << 32;
         let d = u64::from(b.max(1));
@@ -207,9 +208,67 @@ fn div_normalised(a: u32, b: u32) -> (u64, u32) {
     }
 }
 
-/// [`div_normalised`] by restoring division, one quotient bit per step
-/// (compiled everywhere so host tests hold it equal to the division).
+/// 2^40/(256 + i + 1/2) rounded, for i in 0..256: the reciprocal of a
+/// normalised divisor from its top 9 bits, to about 2^-9 (the seed of
+/// [`div_normalised_newton`]). 512 bytes of flash.
+const RECIPROCAL_SEED: [u16; 256] = {
+    let mut t = [0u16; 256];
+    let mut i = 0;
+    while i < 256 {
+        // 2^25/(513 + 2i) lies in (32 799, 65 409): fits u16.
+        let d = 513 + 2 * i as u64;
+        t[i] = ((((1u64 << 25) << 1) / d + 1) >> 1) as u16;
+        i += 1;
+    }
+    t
+};
+
+/// [`div_normalised`] with multiplies only (ARMv6-M has no divide but a
+/// 32-bit multiply): a reciprocal v ≈ 2^63/b from [`RECIPROCAL_SEED`] and
+/// two Newton steps v += v·(2^63 − b·v)/2^63, the quotient estimate
+/// a·v·2^-31, and the exact remainder a·2^32 − q·b to correct it (a few
+/// steps at most). Exact; compiled everywhere so host tests hold it equal
+/// to the division.
 #[inline]
+fn div_normalised_newton(a: u32, b: u32) -> (u64, u32) {
+    let b = b | (1 << 31); // normalised by contract; keeps the seed's index in range
+    let mut v = u32::from(RECIPROCAL_SEED[((b >> 23) & 0xFF) as usize]) << 16;
+    for _ in 0..2 {
+        // e = 2^63 − b·v, |e| < 2^56: its top bits times v.
+        let e = (1u64 << 63).wrapping_sub(mul_u32_wide(b, v)) as i64;
+        let e31 = (e >> 31) as i32; // |e| < 2^56: fits after the shift
+        let corr = (mul_u32_wide(v, e31.unsigned_abs()) >> 32) as u32;
+        v = if e31 < 0 {
+            v.wrapping_sub(corr)
+        } else {
+            v.saturating_add(corr)
+        };
+    }
+    // q ≈ a·2^32/b = a·v·2^-31, within a few units.
+    let mut q = mul_u32_wide(a, v) >> 31;
+    let n = u64::from(a) << 32;
+    let qb =
+        mul_u32_wide(q as u32, b).wrapping_add(u64::from(((q >> 32) as u32).wrapping_mul(b)) << 32);
+    // |r| is a few times b: exact in wrapping i64 arithmetic.
+    let mut r = n.wrapping_sub(qb) as i64;
+    let b64 = i64::from(b);
+    for _ in 0..64 {
+        if r < 0 {
+            q = q.wrapping_sub(1);
+            r += b64;
+        } else if r >= b64 {
+            q = q.wrapping_add(1);
+            r -= b64;
+        } else {
+            break;
+        }
+    }
+    (q, r as u32) // 0 ≤ r < b after the correction
+}
+
+/// [`div_normalised`] by restoring division, one quotient bit per step:
+/// the plain method, kept as a second reference for the tests.
+#[cfg(test)]
 fn div_normalised_steps(a: u32, b: u32) -> (u64, u32) {
     // The top quotient bit: a/b < 2 for normalised operands.
     let (top, mut r) = if a >= b { (1u64, a - b) } else { (0, a) };
@@ -230,7 +289,7 @@ fn div_normalised_steps(a: u32, b: u32) -> (u64, u32) {
 /// 3·2^-32 (< 2^-31), or `None` when b is zero or the quotient does not fit
 /// an `i64`. One division: both operands are first rounded to 32-bit
 /// mantissas (relative error ≤ 2^-32 each), then the mantissas are divided
-/// once (on ARMv6-M by restoring division in 32-bit words) and the
+/// once (exactly; on ARMv6-M by multiplies, without a divide) and the
 /// quotient rounded to nearest (≤ 2^-32).
 pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
@@ -278,6 +337,7 @@ mod tests {
         fn armv6m_forms_equal_the_native_operations(a in (1u32 << 31).., b in (1u32 << 31).., x: u64, sh in 0u32..64) {
             let n = u64::from(a) << 32;
             prop_assert_eq!(div_normalised_steps(a, b), (n / u64::from(b), (n % u64::from(b)) as u32));
+            prop_assert_eq!(div_normalised_newton(a, b), (n / u64::from(b), (n % u64::from(b)) as u32));
             prop_assert_eq!(leading_zeros_words(x), x.leading_zeros());
             prop_assert_eq!(leading_zeros_words(x >> sh), (x >> sh).leading_zeros());
             prop_assert_eq!(shl_u64(x, sh), x << sh);
@@ -297,6 +357,17 @@ mod tests {
                 div_normalised_steps(a, b),
                 (n / u64::from(b), (n % u64::from(b)) as u32)
             );
+        }
+        // Both ends of every seed interval, with the smallest and largest
+        // dividends: the Newton steps and the correction always land.
+        for i in 0u32..256 {
+            for b in [(1 << 31) | (i << 23), (1 << 31) | (i << 23) | 0x7F_FFFF] {
+                for a in [1u32 << 31, b, b.wrapping_sub(1) | (1 << 31), u32::MAX] {
+                    let n = u64::from(a) << 32;
+                    let want = (n / u64::from(b), (n % u64::from(b)) as u32);
+                    assert_eq!(div_normalised_newton(a, b), want, "{a} / {b}");
+                }
+            }
         }
         for x in [0u64, 1, 1 << 31, 1 << 32, 1 << 63, u64::MAX] {
             assert_eq!(leading_zeros_words(x), x.leading_zeros());
