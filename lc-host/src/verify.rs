@@ -12,7 +12,7 @@
 //! | shift | `ShiftConverter::shift` | `shift_f64` | `shift::error_bound` |
 //! | drift | `TemperatureModel::compensate` | `compensate_f64` | `TemperatureModel::error_bound` |
 //! | curve | `Curve::eval` | `Curve::eval_f64` | `Curve::error_bound` |
-//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds) |
+//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's: slope · ((e_s + \|q\|·e_r)/\|r\| + \|q\|·3·2^-32) |
 //!
 //! Errors are also reported relative to the counter's quantisation step at
 //! each point (one tick: δs = 2·(1 + s)/ticks; in output units times the
@@ -165,9 +165,16 @@ pub struct VerifyReport {
 }
 
 impl VerifyReport {
-    /// Whether every stage stayed within its stated bound.
+    /// Whether every stage compared readings and stayed within its stated
+    /// bound.
     pub fn passed(&self) -> bool {
-        self.stages.iter().all(|s| s.violations == 0)
+        self.complete() && self.stages.iter().all(|s| s.violations == 0)
+    }
+
+    /// Whether every stage compared at least one reading (a stage whose
+    /// readings all faulted verifies nothing).
+    pub fn complete(&self) -> bool {
+        self.stages.iter().all(|s| s.points > 0)
     }
 }
 
@@ -231,6 +238,23 @@ pub fn verify(
     let gate = cal.gate().unwrap_or(16_384);
     let conv = ShiftConverter::new(cal.rest, Gating::Reciprocal, Some(gate))
         .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Shift(e)))?;
+    // A level probe with a reference electrode reads q = s_probe / s_reference.
+    // End to end, the reference electrode is held at a shift of 1 (its pair
+    // for (p/p_rest)² = 2), so q sweeps the curve as the probe's shift does.
+    let reference = match (cal.kind, cal.companion_rest) {
+        (lc_core::image::ReaderKind::Level, Some(rest)) => {
+            let rc = ShiftConverter::new(rest, Gating::Reciprocal, Some(gate))
+                .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Shift(e)))?;
+            let ticks = (f64::from(gate) * rest.to_f64() * std::f64::consts::SQRT_2).round();
+            if !(1.0..=f64::from(u32::MAX)).contains(&ticks) {
+                return Err(VerifyError::Reader(lc_core::reader::ReaderError::Shift(
+                    lc_core::shift::ShiftError::OutOfRange,
+                )));
+            }
+            Some((rc, CountPair::new(gate, ticks as u32)))
+        }
+        _ => None,
+    };
     let nodes = table.nodes();
     let (s_lo, s_hi) = (
         nodes[0].shift.to_f64(),
@@ -327,6 +351,7 @@ pub fn verify(
             // End to end.
             let input = Input {
                 temperature: Some(t),
+                companion: reference.map(|(_, pair)| pair),
                 ..Input::counts(pair)
             };
             let r = path.read(&mut reader, &input);
@@ -334,9 +359,29 @@ pub fn verify(
                 continue;
             }
             let e_ref = reader.read_f64(&input);
-            let bound = curve.error_bound(d_fix)
-                + slope.abs() * (shift_bound(s_ref) + cal.drift.error_bound(s_ref, t.to_f64()));
-            st[3].add(f64::from(r.value) - e_ref, step_y, bound, at);
+            let e_s = shift_bound(s_ref) + cal.drift.error_bound(s_ref, t.to_f64());
+            let (bound, step_e) = match &reference {
+                None => (curve.error_bound(d_fix) + slope.abs() * e_s, step_y),
+                Some((rc, ref_pair)) => {
+                    // q = s_c / r_c, each compensated; to first order
+                    // |Δq| ≤ (e_s + |q|·e_r)/|r_c| + |q|·3·2^-32 (the
+                    // division's own bound), with a margin for the second
+                    // order.
+                    let r_raw = rc.shift_f64(*ref_pair);
+                    let r_c = cal.drift.compensate_f64(r_raw, t.to_f64());
+                    let e_r = shift_bound(r_raw) + cal.drift.error_bound(r_raw, t.to_f64());
+                    let q = r.shift.to_f64();
+                    let slope_q = (curve.eval_f64(q + h) - curve.eval_f64(q - h)) / (2.0 * h);
+                    let e_q = ((e_s + q.abs() * e_r) / r_c.abs()
+                        + q.abs() * 6.984_919_309_616_089e-10)
+                        * (1.0 + 1e-6);
+                    (
+                        curve.error_bound(r.shift) + slope_q.abs() * e_q,
+                        slope_q.abs() * step_s / r_c.abs(),
+                    )
+                }
+            };
+            st[3].add(f64::from(r.value) - e_ref, step_e, bound, at);
         }
         st
     };
@@ -375,6 +420,13 @@ pub fn to_text(r: &VerifyReport) -> String {
         "stage", "max error", "rms error", "max/step", "max/bound", "beyond", "worst at"
     );
     for st in &r.stages {
+        if st.points == 0 {
+            s += &format!(
+                "{:<11} no readings compared: every reading faulted or left the domain\n",
+                st.stage
+            );
+            continue;
+        }
         s += &format!(
             "{:<11} {:>12.3e} {:>12.3e} {:>11.2e} {:>10.3} {:>10}  {}  [{}]\n",
             st.stage,
@@ -389,6 +441,8 @@ pub fn to_text(r: &VerifyReport) -> String {
     }
     s += if r.passed() {
         "every stage within its stated bound\n"
+    } else if !r.complete() {
+        "NOT VERIFIED: a stage compared no readings\n"
     } else {
         "BOUND EXCEEDED\n"
     };
@@ -417,6 +471,29 @@ mod tests {
         assert!(r.passed(), "{}", to_text(&r));
         assert_eq!(r.readings, 51_800);
         assert!(r.stages[0].max_error_per_step < 0.1, "{}", to_text(&r));
+    }
+
+    /// A level image with a reference electrode is verified end to end
+    /// too: the reference electrode's pair goes with every reading.
+    #[test]
+    fn a_level_probe_with_a_reference_electrode_is_verified_end_to_end() {
+        let bytes = include_bytes!("../../examples/firmware/data/demo-level.lcim");
+        let cal = Calibration::parse(bytes).unwrap();
+        assert!(cal.companion_rest.is_some());
+        let r = verify(&cal, &small(), &Firmware, &|_| {}).unwrap();
+        assert!(r.passed(), "{}", to_text(&r));
+        assert!(r.stages[3].points > 40_000, "{}", to_text(&r));
+        // And an error there is caught.
+        struct OffByOne;
+        impl FixedPath for OffByOne {
+            fn read(&self, reader: &mut EndToEnd, input: &Input) -> Reading {
+                let mut r = reader.read(input);
+                r.value += 1;
+                r
+            }
+        }
+        let r = verify(&cal, &small(), &OffByOne, &|_| {}).unwrap();
+        assert!(r.stages[3].violations > 0, "{}", to_text(&r));
     }
 
     /// A fixed path with an injected error is caught.

@@ -12,8 +12,9 @@ use std::path::PathBuf;
 /// readings by default, on all cores, through the firmware's fixed-point path and its f64
 /// twin: the shift, the drift model, the curve and the whole reading. Prints maximum and
 /// RMS error in output units, relative to the counter's quantisation step and to the
-/// bound lc-core documents, and where the worst case occurs. Exits with 1 when any stage
-/// exceeds its bound.
+/// bound lc-core documents, and where the worst case occurs. A level image with a reference
+/// electrode is read end to end with the reference held at a shift of 1. Exits with 1 when
+/// any stage exceeds its bound or compares no readings.
 ///
 /// Example:
 ///
@@ -68,6 +69,12 @@ pub fn run(a: Args) -> Result<()> {
         println!("{}", serde_json::to_string_pretty(&report)?);
     } else {
         print!("{}", to_text(&report));
+    }
+    if !report.complete() {
+        bail!(
+            "{}: a stage compared no readings (every reading faulted); check the image's fault window and rest points with `lc-host inspect`",
+            a.image.display()
+        );
     }
     if !report.passed() {
         bail!(
