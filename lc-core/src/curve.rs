@@ -245,6 +245,49 @@ fn scaled_ratio(num: i64, den: u64) -> Option<(i32, u8)> {
     Some((if num < 0 { -m } else { m }, e))
 }
 
+/// Validates a table, in the one order every constructor and
+/// [`Curve::check`] report errors in (derivative count, nodes, each
+/// segment's scale, derivative signs, cubic terms), and writes each
+/// segment's constants into `out` when given. Returns the interpolation.
+fn segments(
+    nodes: &[Node],
+    derivatives_q16: Option<&[i64]>,
+    mut out: Option<&mut [Segment; MAX_NODES]>,
+) -> Result<Interpolation, CurveError> {
+    if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
+        return Err(CurveError::BadDerivatives);
+    }
+    validate(nodes)?;
+    let interpolation = match derivatives_q16 {
+        Some(_) => Interpolation::MonotoneCubic,
+        None => Interpolation::Linear,
+    };
+    // Checked accesses throughout: no bounds-check panic survives on the
+    // firmware path (the panic-never build proves it).
+    for (i, pair) in nodes.windows(2).enumerate() {
+        if let [a, b] = pair {
+            let seg = segment_of(*a, *b, interpolation)?;
+            if let Some(slot) = out.as_deref_mut().and_then(|o| o.get_mut(i)) {
+                *slot = seg;
+            }
+        }
+    }
+    if let Some(ders) = derivatives_q16 {
+        check_derivative_signs(nodes, ders)?;
+        for (i, (pair, d)) in nodes.windows(2).zip(ders.windows(2)).enumerate() {
+            if let ([a, b], [d0, d1]) = (pair, d) {
+                let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
+                if let Some(slot) = out.as_deref_mut().and_then(|o| o.get_mut(i)) {
+                    slot.c1_q8 = c1;
+                    slot.c2_q8 = c2;
+                    slot.c3_q8 = c3;
+                }
+            }
+        }
+    }
+    Ok(interpolation)
+}
+
 impl Curve {
     /// An empty curve (no nodes) for a reader to rebuild in place
     /// ([`Curve::rebuild`]): never handed out as a value.
@@ -274,41 +317,10 @@ impl Curve {
         derivatives_q16: Option<&[i64]>,
     ) -> Result<(), CurveError> {
         self.len = 0;
-        if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
-            return Err(CurveError::BadDerivatives);
-        }
-        validate(nodes)?;
-        let interpolation = match derivatives_q16 {
-            Some(_) => Interpolation::MonotoneCubic,
-            None => Interpolation::Linear,
-        };
-        self.interpolation = interpolation;
+        self.interpolation = segments(nodes, derivatives_q16, Some(&mut self.seg))?;
         for ((x, y), n) in self.x.iter_mut().zip(self.y.iter_mut()).zip(nodes) {
             *x = n.shift.raw_q40();
             *y = n.value;
-        }
-        for (slot, pair) in self.seg.iter_mut().zip(nodes.windows(2)) {
-            if let [a, b] = pair {
-                *slot = segment_of(*a, *b, interpolation)?;
-            }
-        }
-        if let Some(ders) = derivatives_q16 {
-            check_derivative_signs(nodes, ders)?;
-            // Checked accesses throughout: no bounds-check panic survives
-            // on the firmware path (the panic-never build proves it).
-            for ((slot, pair), d) in self
-                .seg
-                .iter_mut()
-                .zip(nodes.windows(2))
-                .zip(ders.windows(2))
-            {
-                if let ([a, b], [d0, d1]) = (pair, d) {
-                    let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
-                    slot.c1_q8 = c1;
-                    slot.c2_q8 = c2;
-                    slot.c3_q8 = c3;
-                }
-            }
         }
         self.len = nodes.len() as u8; // ≤ 64 after validation
         Ok(())
@@ -319,28 +331,7 @@ impl Curve {
     /// error, without building the curve: a curve is about 2 KB, and the image
     /// parser checks tables it does not keep.
     pub fn check(nodes: &[Node], derivatives_q16: Option<&[i64]>) -> Result<(), CurveError> {
-        if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
-            return Err(CurveError::BadDerivatives);
-        }
-        validate(nodes)?;
-        let interpolation = match derivatives_q16 {
-            Some(_) => Interpolation::MonotoneCubic,
-            None => Interpolation::Linear,
-        };
-        for pair in nodes.windows(2) {
-            if let [a, b] = pair {
-                segment_of(*a, *b, interpolation)?;
-            }
-        }
-        if let Some(ders) = derivatives_q16 {
-            check_derivative_signs(nodes, ders)?;
-            for (pair, d) in nodes.windows(2).zip(ders.windows(2)) {
-                if let ([a, b], [d0, d1]) = (pair, d) {
-                    cubic_terms(*a, *b, *d0, *d1)?;
-                }
-            }
-        }
-        Ok(())
+        segments(nodes, derivatives_q16, None).map(|_| ())
     }
 
     /// A curve with straight segments.
@@ -386,21 +377,21 @@ impl Curve {
         }
     }
 
-    /// Index of the segment holding `s` (x[i] ≤ s < x[i+1]), clamped to the
-    /// table.
+    /// Index of the segment holding `s` (x[i] ≤ s < x[i+1]) for
+    /// x[0] ≤ s < x[last] (clamped into the table otherwise). Halving
+    /// search with a fixed trip count per table size (3 steps for 5 nodes),
+    /// indices masked into the arrays, so no bounds branch.
+    #[inline(always)]
     fn segment(&self, s: i64) -> usize {
-        let n = self.len();
-        let (mut lo, mut hi) = (0usize, n.saturating_sub(1));
-        // Invariant: x[lo] ≤ s < x[hi].
-        while hi - lo > 1 {
-            let mid = (lo + hi) / 2;
-            if self.x.get(mid).is_some_and(|&xm| xm <= s) {
-                lo = mid;
-            } else {
-                hi = mid;
+        let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
+        while len > 1 {
+            let half = len / 2;
+            if self.x[(i + half) & (MAX_NODES - 1)] <= s {
+                i += half;
             }
+            len -= half;
         }
-        lo
+        i & (MAX_NODES - 1)
     }
 
     /// The value at shift `s`, rounded to nearest; clamped with a status
@@ -431,18 +422,8 @@ impl Curve {
                 },
             };
         }
-        // x[0] ≤ s < x[last]: the segment is the last i < last with
-        // x[i] ≤ s. Halving search with a fixed trip count per table size
-        // (3 steps for 5 nodes), indices masked into the arrays.
-        let (mut i, mut len) = (0usize, last_i);
-        while len > 1 {
-            let half = len / 2;
-            if self.x[(i + half) & (MAX_NODES - 1)] <= s {
-                i += half;
-            }
-            len -= half;
-        }
-        let i = i & (MAX_NODES - 1);
+        // x[0] ≤ s < x[last].
+        let i = self.segment(s);
         let seg = &self.seg[i];
         let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
@@ -927,7 +908,8 @@ mod tests {
                 status: CurveStatus::InRange,
             };
         }
-        let i = c.segment(s);
+        // A plain scan, independent of `Curve::segment`'s halving search.
+        let i = (0..last_i).rev().find(|&i| c.x[i] <= s).unwrap();
         let seg = c.seg[i];
         let (x0, y0, y1) = (c.x[i], c.y[i], c.y[i + 1]);
         let d = round_shr_u64(s.abs_diff(x0), u32::from(seg.sh)).min((1 << 31) - 1) as u32;
