@@ -132,6 +132,30 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
 /// zeros, only a 32 × 32 → 32-bit multiply.
 const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
+/// `a · b` for a < 2^48 and b < 2^16, exact: on ARMv6-M three
+/// 16 × 16 → 32-bit partial products ([`mul_u48_u16_parts`]) instead of
+/// the compiler's 64-bit multiply routine, the native multiply elsewhere.
+/// Wraps (no panic) outside that range.
+#[inline]
+pub(crate) fn mul_u48_u16(a: u64, b: u32) -> u64 {
+    if ARMV6M {
+        mul_u48_u16_parts(a, b)
+    } else {
+        a.wrapping_mul(u64::from(b))
+    }
+}
+
+/// [`mul_u48_u16`] by partial products (compiled everywhere so host tests
+/// hold it equal to the native product).
+#[inline]
+fn mul_u48_u16_parts(a: u64, b: u32) -> u64 {
+    let (hi, lo) = ((a >> 32) as u32, a as u32);
+    let p0 = u64::from((lo & 0xFFFF).wrapping_mul(b));
+    let p1 = u64::from((lo >> 16).wrapping_mul(b));
+    let p2 = u64::from(hi.wrapping_mul(b));
+    (p2 << 32).wrapping_add(p1 << 16).wrapping_add(p0)
+}
+
 /// Leading zeros of a `u64`. On ARMv6-M a five-step binary search on the
 /// words ([`leading_zeros_words`]) replaces the library's count, a call of
 /// about 50 instructions per word there.
@@ -341,6 +365,12 @@ mod tests {
             prop_assert_eq!(leading_zeros_words(x), x.leading_zeros());
             prop_assert_eq!(leading_zeros_words(x >> sh), (x >> sh).leading_zeros());
             prop_assert_eq!(shl_u64(x, sh), x << sh);
+        }
+
+        /// The ARMv6-M partial products equal the native product in range.
+        #[test]
+        fn partial_products_equal_the_product(a in 0u64..(1 << 48), b in 0u32..(1 << 16)) {
+            prop_assert_eq!(mul_u48_u16_parts(a, b), a * u64::from(b));
         }
     }
 

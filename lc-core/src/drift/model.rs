@@ -1,6 +1,6 @@
 //! The per-unit temperature model.
 
-use crate::fixed::mul_u32_wide;
+use crate::fixed::{mul_u32_wide, mul_u48_u16};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -74,36 +74,6 @@ fn mul_i32_u16(a: i32, b: i32) -> i64 {
     } else {
         m
     }
-}
-
-/// `a · b` for a < 2^48 and b < 2^16, exact: three 16 × 16 → 32-bit
-/// partial products on ARMv6-M (no long multiply, [`mul_u48_u16_parts`]),
-/// the native multiply elsewhere. Wraps (no panic) outside that range.
-#[inline]
-fn mul_u48_u16(a: u64, b: u32) -> u64 {
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
-    {
-        mul_u48_u16_parts(a, b)
-    }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
-    {
-        a.wrapping_mul(u64::from(b))
-    }
-}
-
-/// The ARMv6-M form of [`mul_u48_u16`], compiled everywhere so host tests
-/// hold it equal to the native product.
-#[inline]
-#[cfg_attr(
-    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
-    allow(dead_code)
-)]
-fn mul_u48_u16_parts(a: u64, b: u32) -> u64 {
-    let (hi, lo) = ((a >> 32) as u32, a as u32);
-    let p0 = u64::from((lo & 0xFFFF).wrapping_mul(b));
-    let p1 = u64::from((lo >> 16).wrapping_mul(b));
-    let p2 = u64::from(hi.wrapping_mul(b));
-    (p2 << 32).wrapping_add(p1 << 16).wrapping_add(p0)
 }
 
 /// Arithmetic shift right with rounding to nearest (ties up), `sh` in 1..=63.
@@ -374,12 +344,6 @@ mod tests {
             let g = (1.0 + float) / (1.0 + sq.to_f64()) - 1.0;
             let bound = (1.0 + sq.to_f64()) * 2f64.powi(-32) + g.abs() * 2f64.powi(-30) + 2f64.powi(-40) + 1e-15;
             prop_assert!((fixed - float).abs() <= bound, "{} vs {} bound {}", fixed, float, bound);
-        }
-
-        /// The ARMv6-M partial products equal the native product in range.
-        #[test]
-        fn partial_products_equal_the_product(a in 0u64..(1 << 48), b in 0u32..(1 << 16)) {
-            prop_assert_eq!(mul_u48_u16_parts(a, b), a * u64::from(b));
         }
 
         /// The 32-bit-word arithmetic of `factor` and `apply` equals the
