@@ -215,6 +215,17 @@ pub enum VerifyError {
     Reader(lc_core::reader::ReaderError),
 }
 
+/// The count pair over a gate of `gate` cycles of a channel with rest
+/// ratio `p_rest` at shift `s`: ticks = gate · p_rest · √(1 + s), rounded;
+/// `None` when that is not a positive `u32`.
+fn pair_at(gate: u32, p_rest: f64, s: f64) -> Option<CountPair> {
+    let ticks = (f64::from(gate) * p_rest * (1.0 + s).sqrt()).round();
+    // In range and integral: the cast is exact.
+    (1.0..=f64::from(u32::MAX))
+        .contains(&ticks)
+        .then(|| CountPair::new(gate, ticks as u32))
+}
+
 /// Sweeps the calibration's domain through `path` and its f64 twins.
 pub fn verify(
     cal: &Calibration,
@@ -245,13 +256,10 @@ pub fn verify(
         (lc_core::image::ReaderKind::Level, Some(rest)) => {
             let rc = ShiftConverter::new(rest, Gating::Reciprocal, Some(gate))
                 .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Shift(e)))?;
-            let ticks = (f64::from(gate) * rest.to_f64() * std::f64::consts::SQRT_2).round();
-            if !(1.0..=f64::from(u32::MAX)).contains(&ticks) {
-                return Err(VerifyError::Reader(lc_core::reader::ReaderError::Shift(
-                    lc_core::shift::ShiftError::OutOfRange,
-                )));
-            }
-            Some((rc, CountPair::new(gate, ticks as u32)))
+            let pair = pair_at(gate, rest.to_f64(), 1.0).ok_or(VerifyError::Reader(
+                lc_core::reader::ReaderError::Shift(lc_core::shift::ShiftError::OutOfRange),
+            ))?;
+            Some((rc, pair))
         }
         _ => None,
     };
@@ -310,11 +318,9 @@ pub fn verify(
             if local % 65_536 == 0 {
                 progress(done.fetch_add(65_536, std::sync::atomic::Ordering::Relaxed) + 65_536);
             }
-            let ticks = (f64::from(gate) * p_rest * (1.0 + s_target).sqrt()).round();
-            if !(1.0..=f64::from(u32::MAX)).contains(&ticks) {
+            let Some(pair) = pair_at(gate, p_rest, s_target) else {
                 continue;
-            }
-            let pair = CountPair::new(gate, ticks as u32);
+            };
             let Some(t) = CentiCelsius::from_f64(temp_c) else {
                 continue;
             };
@@ -324,7 +330,7 @@ pub fn verify(
                 continue;
             };
             let s_ref = conv.shift_f64(pair);
-            let step_s = 2.0 * (1.0 + s_ref) / ticks;
+            let step_s = 2.0 * (1.0 + s_ref) / f64::from(pair.ticks);
             st[0].add(s_fix.to_f64() - s_ref, step_s, shift_bound(s_ref), at);
             // Drift, fed the fixed shift.
             let d_fix = path.drift(&cal.drift, s_fix, t);
