@@ -96,11 +96,10 @@ impl LevelReader {
         // temperature model: its check goes through the same tick band, and
         // its drift correction is the one the probe just used.
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
-        let pair = self
-            .front
+        self.front
             .check(pair)
             .map_err(|e| SensorFault::Companion(Some(e)))?;
-        let r = conv.shift(pair).map_err(SensorFault::Shift)?;
+        let r = conv.shift_inline(pair).map_err(SensorFault::Shift)?;
         let r = match input.temperature {
             Some(t) => self.front.factor(t).apply(r),
             None => r,
@@ -115,6 +114,7 @@ impl LevelReader {
 
     /// One reading: the level, and the volume as `secondary` when the
     /// calibration has a volume table.
+    #[inline(never)]
     pub fn read(&mut self, input: &Input) -> Reading {
         let x = match self.curve_input(input) {
             Ok(x) => x,

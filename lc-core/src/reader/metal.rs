@@ -91,6 +91,7 @@ impl MetalReader {
     }
 
     /// One reading; updates the baseline and the detector.
+    #[inline(never)]
     pub fn read(&mut self, input: &Input) -> Reading {
         let s = match self.front.shift(input) {
             Ok(s) => s,

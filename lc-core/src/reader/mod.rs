@@ -206,10 +206,11 @@ impl Front {
 
     /// The fault window's check, through the precomputed band when the
     /// pair has the gate's cycle count.
-    fn check(&self, pair: CountPair) -> Result<CountPair, FaultError> {
+    #[inline(always)]
+    fn check(&self, pair: CountPair) -> Result<(), FaultError> {
         match self.gate_band {
             Some((gate, band)) => self.window.check_ticks(pair, gate, band),
-            None => self.window.check(pair),
+            None => self.window.check(pair).map(|_| ()),
         }
     }
 
@@ -230,16 +231,19 @@ impl Front {
     /// so the result stays in registers on the per-reading path.
     #[inline(always)]
     pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
-        let pair = self.check(input.pair).map_err(SensorFault::Counts)?;
+        let pair = input.pair;
+        self.check(pair).map_err(SensorFault::Counts)?;
         let s = match self.companion {
             Some(c) => {
                 let comp = input.companion.ok_or(SensorFault::Companion(None))?;
-                let comp = self
-                    .check(comp)
+                self.check(comp)
                     .map_err(|e| SensorFault::Companion(Some(e)))?;
                 c.shift(pair, comp).map_err(SensorFault::Ratio)?
             }
-            None => self.converter.shift(pair).map_err(SensorFault::Shift)?,
+            None => self
+                .converter
+                .shift_inline(pair)
+                .map_err(SensorFault::Shift)?,
         };
         Ok(match input.temperature {
             Some(t) => self.factor(t).apply(s),

@@ -63,6 +63,7 @@ impl ProximityReader {
     }
 
     /// One reading.
+    #[inline(never)]
     pub fn read(&mut self, input: &Input) -> Reading {
         let s = match self.front.shift(input) {
             Ok(s) => s,
