@@ -40,6 +40,19 @@ pub fn mul_u32_wide(a: u32, b: u32) -> u64 {
     }
 }
 
+/// Full 64-bit product of an `i32` and a `u32`. Exact.
+///
+/// From the unsigned product of a's two's-complement bits and b: a negative
+/// a reads as a + 2^32 there, so b is taken off the high word. One product
+/// and one subtraction, no negation of the operand or the 64-bit result.
+#[inline]
+pub fn mul_i32_u32_wide(a: i32, b: u32) -> i64 {
+    let p = mul_u32_wide(a as u32, b);
+    let (hi, lo) = ((p >> 32) as u32, p as u32); // exact halves
+    let hi = if a < 0 { hi.wrapping_sub(b) } else { hi };
+    ((u64::from(hi) << 32) | u64::from(lo)) as i64
+}
+
 /// `x / 2^sh` rounded to nearest, ties away from zero. `sh` may be 0..=64
 /// and larger (the result is then 0). Exact otherwise; never overflows
 /// (`u64::MAX` shifted by 1 gives 2^63).
@@ -404,8 +417,20 @@ mod tests {
         }
     }
 
+    proptest! {
+        /// The signed × unsigned product from the unsigned one equals the
+        /// product in `i64`.
+        #[test]
+        fn signed_wide_product_equals_the_product(a: i32, b: u32) {
+            prop_assert_eq!(mul_i32_u32_wide(a, b), i64::from(a) * i64::from(b));
+        }
+    }
+
     #[test]
     fn wide_multiply_corners() {
+        for (a, b) in [(i32::MIN, u32::MAX), (i32::MIN, 0), (-1, u32::MAX), (i32::MAX, u32::MAX), (-1, 1)] {
+            assert_eq!(mul_i32_u32_wide(a, b), i64::from(a) * i64::from(b), "{a} * {b}");
+        }
         assert_eq!(mul_u32_wide(0, u32::MAX), 0);
         assert_eq!(mul_u32_wide(1, u32::MAX), u64::from(u32::MAX));
         assert_eq!(mul_u32_wide(0x1_0000, 0x1_0000), 1 << 32);

@@ -1,6 +1,6 @@
 //! The per-unit temperature model.
 
-use crate::fixed::{mul_u32_wide, mul_u48_u16};
+use crate::fixed::{mul_i32_u32_wide, mul_u48_u16};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -232,14 +232,40 @@ impl DriftFactor {
 
     /// The compensated shift: s + (1 + s)·g, with 1 + s rounded to Q29 and
     /// the product rounded into Q.40 (bound in [`TemperatureModel`]'s docs).
+    ///
+    /// 1 + s is taken as 0 below 0 and saturated at 2^32 − 1 in Q29 (1 + s
+    /// near 8, beyond any useful reading), and the sum saturates in `i64`.
+    /// Readings have 0 ≤ 1 + s < 8, and there none of that can happen: the
+    /// high word of s alone says so, and the arithmetic is plain.
     #[inline]
     pub fn apply(self, s: Shift) -> Shift {
         if self.g31 == 0 {
             return s;
         }
-        // 1 + s in Q29, saturated to u32 (1 + s < 8 in any useful reading):
-        // round(x·2^-11) = ⌊x·2^-11⌋ + bit 10 of x, taken from the 32-bit
-        // words of x (no 64-bit shift on a 32-bit core).
+        let raw = s.raw_q40();
+        let hi = (raw >> 32) as i32;
+        // −2^40 ≤ s < 7·2^40 in Q.40, that is 0 ≤ 1 + s < 8: the high word
+        // of s in −256..1792.
+        if !(-256..1792).contains(&hi) {
+            return self.apply_saturated(s);
+        }
+        // 1 + s in Q29: round(x·2^-11) = ⌊x·2^-11⌋ + bit 10 of x, from the
+        // 32-bit words of x = s + 2^40 (high word hi + 256 < 2^11).
+        let lo = raw as u32;
+        let x_hi = (hi + 256) as u32;
+        let u29 = ((lo >> 11) | (x_hi << 21)).saturating_add((lo >> 10) & 1);
+        // Product Q60 → Q40: |g31·u29| < 2^62, its rounded part below 2^42,
+        // and s below 2^43: the sum cannot overflow.
+        let p = mul_i32_u32_wide(self.g31, u29);
+        Shift::from_raw_q40(raw.wrapping_add(round_asr(p, 20)))
+    }
+
+    /// [`DriftFactor::apply`] for any shift, with the saturations spelled
+    /// out: 1 + s clamped to 0..=i64::MAX before its rounding to Q29, Q29
+    /// saturated to `u32`, and the sum saturated in `i64`.
+    #[cold]
+    #[inline(never)]
+    fn apply_saturated(self, s: Shift) -> Shift {
         let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0) as u64;
         let (hi, lo) = ((one_plus >> 32) as u32, one_plus as u32);
         let u29 = if hi >= 1 << 11 {
@@ -247,20 +273,8 @@ impl DriftFactor {
         } else {
             ((lo >> 11) | (hi << 21)).saturating_add((lo >> 10) & 1)
         };
-        // Product Q60 → Q40.
-        let p = mul_i32_u32(self.g31, u29);
+        let p = mul_i32_u32_wide(self.g31, u29);
         Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
-    }
-}
-
-/// Signed × unsigned 32-bit product, exact in `i64`.
-#[inline]
-fn mul_i32_u32(a: i32, b: u32) -> i64 {
-    let m = mul_u32_wide(a.unsigned_abs(), b) as i64; // < 2^63: exact
-    if a < 0 {
-        -m
-    } else {
-        m
     }
 }
 
@@ -268,6 +282,48 @@ fn mul_i32_u32(a: i32, b: u32) -> i64 {
 mod tests {
     use super::*;
     use proptest::prelude::*;
+
+    /// `DriftFactor::apply` as the formula in `i128`: 1 + s clamped to
+    /// 0..=i64::MAX, rounded to Q29 and saturated at u32::MAX, times g31,
+    /// rounded to Q40, added to s and clamped to `i64`.
+    fn apply_i128(g31: i32, s: i64) -> i128 {
+        let round = |x: i128, sh: u32| ((x >> (sh - 1)) + 1) >> 1;
+        let one_plus = (i128::from(s) + (1 << 40)).clamp(0, i128::from(i64::MAX));
+        let u29 = round(one_plus, 11).min(i128::from(u32::MAX));
+        if g31 == 0 {
+            i128::from(s)
+        } else {
+            (i128::from(s) + round(i128::from(g31) * u29, 20))
+                .clamp(i128::from(i64::MIN), i128::from(i64::MAX))
+        }
+    }
+
+    /// Both sides of every edge of `apply`'s plain range (0 ≤ 1 + s < 8)
+    /// and the ends of `i64`, with the largest corrections either way.
+    #[test]
+    fn apply_at_the_edges_of_its_plain_range() {
+        let one = 1i64 << 40;
+        let edges = [
+            i64::MIN,
+            -one - 1,
+            -one,
+            -one + (1 << 32) - 1,
+            -1,
+            0,
+            7 * one - (1 << 10) - 1,
+            7 * one - 1,
+            7 * one,
+            8 * one,
+            i64::MAX - (1 << 42),
+            i64::MAX,
+        ];
+        for g31 in [1 << 30, -(1 << 30), 1, -1, 12_345] {
+            for s in edges {
+                let got = DriftFactor { g31 }.apply(Shift::from_raw_q40(s)).raw_q40();
+                assert_eq!(i128::from(got), apply_i128(g31, s), "g31 {g31}, s {s}");
+            }
+        }
+    }
 
     #[test]
     fn none_is_the_identity() {
@@ -359,14 +415,7 @@ mod tests {
             let g31 = round(i128::from(b1) * d * 65_536 + i128::from(b2) * d * d, 25);
             let f = m.factor(CentiCelsius(t));
             prop_assert_eq!(i128::from(f.g31), if b1 == 0 && b2 == 0 { 0 } else { g31 });
-            let one_plus = (i128::from(s) + (1 << 40)).clamp(0, i128::from(i64::MAX));
-            let u29 = round(one_plus, 11).min(i128::from(u32::MAX));
-            let want = if f.g31 == 0 {
-                i128::from(s)
-            } else {
-                (i128::from(s) + round(i128::from(f.g31) * u29, 20)).clamp(i128::from(i64::MIN), i128::from(i64::MAX))
-            };
-            prop_assert_eq!(i128::from(f.apply(Shift::from_raw_q40(s)).raw_q40()), want);
+            prop_assert_eq!(i128::from(f.apply(Shift::from_raw_q40(s)).raw_q40()), apply_i128(f.g31, s));
         }
 
         /// Arbitrary inputs never panic; any accepted model keeps |g| < 1/2.
