@@ -179,6 +179,10 @@ struct Segment {
 pub struct Curve {
     len: u8,
     interpolation: Interpolation,
+    /// The table's direction (last value ≥ first): every non-flat segment
+    /// goes this way (validated monotone), and on a flat one the step is 0
+    /// either way.
+    rising: bool,
     x: [i64; MAX_NODES],
     y: [i32; MAX_NODES],
     seg: [Segment; MAX_NODES],
@@ -294,6 +298,7 @@ impl Curve {
     pub(crate) const PLACEHOLDER: Curve = Curve {
         len: 0,
         interpolation: Interpolation::Linear,
+        rising: true,
         x: [0; MAX_NODES],
         y: [0; MAX_NODES],
         seg: [Segment {
@@ -322,6 +327,10 @@ impl Curve {
             *x = n.shift.raw_q40();
             *y = n.value;
         }
+        self.rising = match (nodes.first(), nodes.last()) {
+            (Some(a), Some(b)) => b.value >= a.value,
+            _ => true,
+        };
         self.len = nodes.len() as u8; // ≤ 64 after validation
         Ok(())
     }
@@ -431,7 +440,7 @@ impl Curve {
         // to x1: held at 2^31 − 1, still exact below).
         let u = s.wrapping_sub(self.x[i]) as u64; // < w: exact
         let d = round_shr_to_u32(u, seg.sh).min((1 << 31) - 1);
-        let rising = y1 >= y0;
+        let rising = self.rising;
         // |y1 − y0| < 2^30 (validated): exact in u32.
         let span = y1.abs_diff(y0);
         let step: u32 = match self.interpolation {
@@ -593,20 +602,26 @@ fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i32, i32, 
     Ok((fit(d0)?, fit(3 * dy - 2 * d0 - d1)?, fit(d0 + d1 - 2 * dy)?))
 }
 
-/// `x / 2^sh` rounded to nearest, ties away from zero, as a `u32`, for a
-/// result known to be below 2^32 (`sh` in 0..=95; larger gives 0). On a
-/// 32-bit core the shift is done on the two words, never as a 64-bit
-/// library call. Exact under that condition; wraps (no panic) otherwise.
+/// `x / 2^sh` rounded to nearest, ties away from zero, as a `u32`, for
+/// `x / 2^(sh − 1)` known to be below 2^32 (so a result below 2^31; `sh` in
+/// 0..=95, larger gives 0). On a 32-bit core the shift is done on the two
+/// words, never as a 64-bit library call, and the common shifts, 1..=32,
+/// take one test. Exact under that condition; wraps (no panic) otherwise.
 #[inline]
 fn round_shr_to_u32(x: u64, sh: u8) -> u32 {
     let (hi, lo) = ((x >> 32) as u32, x as u32);
+    let sh = u32::from(sh);
     // t = x >> (sh − 1): the result with its half bit.
-    let t = match sh {
-        0 => return lo,
-        1 => lo,
-        2..=32 => (lo >> (sh - 1)) | (hi << (33 - sh)),
-        33..=64 => hi >> (sh - 33),
-        _ => 0,
+    let t = if sh.wrapping_sub(1) < 32 {
+        // sh in 1..=32. At sh = 1, hi is 0 (t = x < 2^32), and the
+        // wrapping shift by 32 leaves it 0.
+        (lo >> (sh - 1)) | hi.wrapping_shl(33 - sh)
+    } else if sh == 0 {
+        return lo;
+    } else if sh <= 64 {
+        hi >> (sh - 33)
+    } else {
+        0
     };
     (t >> 1) + (t & 1)
 }
@@ -996,6 +1011,27 @@ mod tests {
                 });
                 (nodes, ders)
             })
+    }
+
+    proptest! {
+        /// The word-wise rounding shift equals the 64-bit one wherever its
+        /// condition holds (x / 2^(sh − 1) below 2^32).
+        #[test]
+        fn word_rounding_shift_equals_the_64_bit_one(x: u64, sh in 0u8..=96) {
+            let fits = match sh {
+                0 => x < 1 << 32,
+                _ => u32::from(sh) > 64 || x >> (sh - 1) < 1 << 32,
+            };
+            if fits {
+                prop_assert_eq!(u64::from(round_shr_to_u32(x, sh)), round_shr_u64(x, u32::from(sh)));
+            }
+        }
+
+        #[test]
+        fn word_rounding_shift_in_range(t in 0u64..(1 << 32), sh in 1u8..=64) {
+            let x = t << (sh - 1);
+            prop_assert_eq!(u64::from(round_shr_to_u32(x, sh)), round_shr_u64(x, u32::from(sh)));
+        }
     }
 
     proptest! {
