@@ -145,30 +145,6 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
 /// zeros, only a 32 × 32 → 32-bit multiply.
 const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
-/// `a · b` for a < 2^48 and b < 2^16, exact: on ARMv6-M three
-/// 16 × 16 → 32-bit partial products ([`mul_u48_u16_parts`]) instead of
-/// the compiler's 64-bit multiply routine, the native multiply elsewhere.
-/// Wraps (no panic) outside that range.
-#[inline]
-pub(crate) fn mul_u48_u16(a: u64, b: u32) -> u64 {
-    if ARMV6M {
-        mul_u48_u16_parts(a, b)
-    } else {
-        a.wrapping_mul(u64::from(b))
-    }
-}
-
-/// [`mul_u48_u16`] by partial products (compiled everywhere so host tests
-/// hold it equal to the native product).
-#[inline]
-fn mul_u48_u16_parts(a: u64, b: u32) -> u64 {
-    let (hi, lo) = ((a >> 32) as u32, a as u32);
-    let p0 = u64::from((lo & 0xFFFF).wrapping_mul(b));
-    let p1 = u64::from((lo >> 16).wrapping_mul(b));
-    let p2 = u64::from(hi.wrapping_mul(b));
-    (p2 << 32).wrapping_add(p1 << 16).wrapping_add(p0)
-}
-
 /// Leading zeros of a `u64`. On ARMv6-M a five-step binary search on the
 /// words ([`leading_zeros_words`]) replaces the library's count, a call of
 /// about 50 instructions per word there.
@@ -380,11 +356,6 @@ mod tests {
             prop_assert_eq!(shl_u64(x, sh), x << sh);
         }
 
-        /// The ARMv6-M partial products equal the native product in range.
-        #[test]
-        fn partial_products_equal_the_product(a in 0u64..(1 << 48), b in 0u32..(1 << 16)) {
-            prop_assert_eq!(mul_u48_u16_parts(a, b), a * u64::from(b));
-        }
     }
 
     #[test]
@@ -428,8 +399,18 @@ mod tests {
 
     #[test]
     fn wide_multiply_corners() {
-        for (a, b) in [(i32::MIN, u32::MAX), (i32::MIN, 0), (-1, u32::MAX), (i32::MAX, u32::MAX), (-1, 1)] {
-            assert_eq!(mul_i32_u32_wide(a, b), i64::from(a) * i64::from(b), "{a} * {b}");
+        for (a, b) in [
+            (i32::MIN, u32::MAX),
+            (i32::MIN, 0),
+            (-1, u32::MAX),
+            (i32::MAX, u32::MAX),
+            (-1, 1),
+        ] {
+            assert_eq!(
+                mul_i32_u32_wide(a, b),
+                i64::from(a) * i64::from(b),
+                "{a} * {b}"
+            );
         }
         assert_eq!(mul_u32_wide(0, u32::MAX), 0);
         assert_eq!(mul_u32_wide(1, u32::MAX), u64::from(u32::MAX));

@@ -1,6 +1,6 @@
 //! The per-unit temperature model.
 
-use crate::fixed::{mul_i32_u32_wide, mul_u48_u16};
+use crate::fixed::mul_i32_u32_wide;
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -62,18 +62,6 @@ pub struct TemperatureModel {
     reference: CentiCelsius,
     b1: i32,
     b2: i32,
-}
-
-/// `a · b` for |b| < 2^16 (a temperature difference in centi-kelvin),
-/// exact in `i64`.
-#[inline]
-fn mul_i32_u16(a: i32, b: i32) -> i64 {
-    let m = mul_u48_u16(u64::from(a.unsigned_abs()), b.unsigned_abs()) as i64; // < 2^47
-    if (a < 0) != (b < 0) {
-        -m
-    } else {
-        m
-    }
 }
 
 /// Arithmetic shift right with rounding to nearest (ties up), `sh` in 1..=63.
@@ -164,19 +152,47 @@ impl TemperatureModel {
         t.0.clamp(lo.0, hi.0) - self.reference.0
     }
 
-    /// g(ΔT) in units of 2^-56, exact (|g| < 2^55).
+    /// g(ΔT) in units of 2^-56, exact (|g| < 2^55): the formula in `i64`,
+    /// the reference for [`TemperatureModel::g31`].
+    #[cfg(test)]
     fn g_q56(&self, t: CentiCelsius) -> i64 {
+        let d = i64::from(self.delta(t));
+        (i64::from(self.b1) << 16) * d + i64::from(self.b2) * d * d
+    }
+
+    /// g(ΔT) rounded to Q31 (ties up), computed exactly in 32-bit words.
+    ///
+    /// With e = |ΔT| < 2^16 and σ its sign, g = ΔT·(b1·2^16 + b2·ΔT) =
+    /// e·J with J = σ·b1·2^16 + b2·e. b2·e comes from b2's 16-bit halves:
+    /// (b2 >> 16)·e fits `i32` and (b2 & 0xFFFF)·e fits `u32`. e·J comes
+    /// from J's words: e times the low word in two 16 × 16-bit products,
+    /// e times the high word modulo 2^32, which is exact for the high word
+    /// of g because |g| < 2^55 (checked at construction). No operand or
+    /// product is negated, and on a Cortex-M0 it is five multiplies.
+    fn g31(&self, t: CentiCelsius) -> i32 {
         let d = self.delta(t);
-        // Horner: g = ΔT·(b1·2^16 + b2·ΔT). |ΔT| ≤ 40 000 < 2^16, so the
-        // inner term is below 2^48 and each product is a handful of
-        // 16 × 16-bit multiplies on a core without a long multiply.
-        let inner = (i64::from(self.b1) << 16) + mul_i32_u16(self.b2, d);
-        let m = mul_u48_u16(inner.unsigned_abs(), d.unsigned_abs()) as i64; // = |g| < 2^55
-        if (inner < 0) != (d < 0) {
-            -m
+        let e = d.unsigned_abs(); // ≤ 40 000 < 2^16
+                                  // J = (σ·b1 + (b2 >> 16)·e)·2^16 + (b2 & 0xFFFF)·e, |J| < 2^48.
+        let b1 = if d < 0 {
+            -i64::from(self.b1)
         } else {
-            m
-        }
+            i64::from(self.b1)
+        };
+        let ph = (self.b2 >> 16).wrapping_mul(e as i32); // |·| < 2^15·2^16: exact
+        let pl = (self.b2 as u32 & 0xFFFF).wrapping_mul(e); // < 2^32: exact
+        let j = ((b1 + i64::from(ph)) << 16).wrapping_add(i64::from(pl));
+        let (j_hi, j_lo) = ((j >> 32) as i32, j as u32);
+        // e·j_lo = p1·2^16 + p0, below 2^48.
+        let p0 = (j_lo & 0xFFFF).wrapping_mul(e);
+        let p1 = (j_lo >> 16).wrapping_mul(e);
+        let (g_lo, carry) = p0.overflowing_add(p1 << 16);
+        let g_hi = (e as i32)
+            .wrapping_mul(j_hi)
+            .wrapping_add((p1 >> 16) as i32)
+            .wrapping_add(i32::from(carry));
+        // g·2^-24 fits i32 (|g| < 2^55); halve it rounding ties up.
+        let x = (g_hi << 8) | (g_lo >> 24) as i32;
+        (x >> 1) + (x & 1)
     }
 
     /// The correction at temperature `t` (clamped to
@@ -187,9 +203,7 @@ impl TemperatureModel {
             return DriftFactor::NONE;
         }
         // g in Q31: |g| < 1/2 → |g31| ≤ 2^30.
-        DriftFactor {
-            g31: round_asr(self.g_q56(t), 25) as i32, // |value| ≤ 2^30: exact
-        }
+        DriftFactor { g31: self.g31(t) }
     }
 
     /// The compensated shift at temperature `t` (clamped to
@@ -416,6 +430,16 @@ mod tests {
             let f = m.factor(CentiCelsius(t));
             prop_assert_eq!(i128::from(f.g31), if b1 == 0 && b2 == 0 { 0 } else { g31 });
             prop_assert_eq!(i128::from(f.apply(Shift::from_raw_q40(s)).raw_q40()), apply_i128(f.g31, s));
+        }
+
+        /// g31 from 32-bit words equals g rounded from the exact `i64`
+        /// formula, up to the largest accepted coefficients, with the
+        /// reference at either end of the domain (|ΔT| up to 40 000).
+        #[test]
+        fn g31_equals_the_rounded_exact_g(r in prop_oneof![Just(-10_000i32), Just(30_000), -10_000i32..=30_000], b1 in -(1i32 << 24)..(1 << 24), b2 in -(1i32 << 25)..(1 << 25), t in -12_000i32..32_000) {
+            let Ok(m) = TemperatureModel::new(CentiCelsius(r), b1, b2) else { return Ok(()) };
+            let t = CentiCelsius(t);
+            prop_assert_eq!(i64::from(m.g31(t)), round_asr(m.g_q56(t), 25));
         }
 
         /// Arbitrary inputs never panic; any accepted model keeps |g| < 1/2.
