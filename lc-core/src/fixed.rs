@@ -157,9 +157,39 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
 /// zeros, only a 32 × 32 → 32-bit multiply.
 const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
-/// Leading zeros of a `u64`. On ARMv6-M a five-step binary search on the
-/// words ([`leading_zeros_words`]) replaces the library's count, a call of
-/// about 50 instructions per word there.
+/// Leading zeros of a `u32`. ARMv6-M has no count-leading-zeros
+/// instruction; there a five-step binary search inline
+/// ([`leading_zeros_steps`]) replaces the library's count, a call of about
+/// 30 instructions.
+#[inline]
+pub(crate) fn leading_zeros_u32(x: u32) -> u32 {
+    if ARMV6M {
+        leading_zeros_steps(x)
+    } else {
+        x.leading_zeros()
+    }
+}
+
+/// [`leading_zeros_u32`] by binary search (compiled everywhere so host tests
+/// hold it equal to `u32::leading_zeros`).
+#[inline]
+fn leading_zeros_steps(x: u32) -> u32 {
+    if x == 0 {
+        return 32;
+    }
+    let (mut v, mut z) = (x, 0);
+    for step in [16u32, 8, 4, 2, 1] {
+        if v >> (32 - step) == 0 {
+            v <<= step;
+            z += step;
+        }
+    }
+    z
+}
+
+/// Leading zeros of a `u64`. On ARMv6-M a binary search on the words
+/// ([`leading_zeros_words`]) replaces the library's count, a call of about
+/// 50 instructions per word there.
 #[inline]
 fn leading_zeros_u64(x: u64) -> u32 {
     if ARMV6M {
@@ -174,17 +204,11 @@ fn leading_zeros_u64(x: u64) -> u32 {
 #[inline]
 fn leading_zeros_words(x: u64) -> u32 {
     let (hi, lo) = ((x >> 32) as u32, x as u32);
-    let (mut v, mut z) = if hi != 0 { (hi, 0) } else { (lo, 32) };
-    if v == 0 {
-        return 64;
+    if hi != 0 {
+        leading_zeros_steps(hi)
+    } else {
+        32 + leading_zeros_steps(lo)
     }
-    for step in [16u32, 8, 4, 2, 1] {
-        if v >> (32 - step) == 0 {
-            v <<= step;
-            z += step;
-        }
-    }
-    z
 }
 
 /// `x` as a 32-bit mantissa with its top bit set, rounded to nearest, and
@@ -365,6 +389,7 @@ mod tests {
             prop_assert_eq!(div_normalised_newton(a, b), (n / u64::from(b), (n % u64::from(b)) as u32));
             prop_assert_eq!(leading_zeros_words(x), x.leading_zeros());
             prop_assert_eq!(leading_zeros_words(x >> sh), (x >> sh).leading_zeros());
+            prop_assert_eq!(leading_zeros_steps((x >> sh) as u32), ((x >> sh) as u32).leading_zeros());
             prop_assert_eq!(shl_u64(x, sh), x << sh);
         }
 
@@ -397,6 +422,7 @@ mod tests {
         }
         for x in [0u64, 1, 1 << 31, 1 << 32, 1 << 63, u64::MAX] {
             assert_eq!(leading_zeros_words(x), x.leading_zeros());
+            assert_eq!(leading_zeros_steps(x as u32), (x as u32).leading_zeros());
         }
     }
 

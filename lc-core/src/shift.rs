@@ -56,7 +56,7 @@
 //! ```
 
 use crate::counting::{CountPair, Gate, Gating};
-use crate::fixed::{mul_u32_wide, round_div_u128, round_shr_u64};
+use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_div_u128, round_shr_u64};
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
 
@@ -375,7 +375,7 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
     // each would be a library call.
     let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
     let (z, top, round) = if hi != 0 {
-        let z = hi.leading_zeros(); // 0..=31
+        let z = leading_zeros_u32(hi); // 0..=31
         let top = if z == 0 {
             hi
         } else {
@@ -383,7 +383,7 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
         };
         (z, top, (lo << z) >> 31)
     } else if lo != 0 {
-        (32 + lo.leading_zeros(), lo << lo.leading_zeros(), 0)
+        (32 + leading_zeros_u32(lo), lo << leading_zeros_u32(lo), 0)
     } else {
         return Err(ShiftError::ZeroCount);
     };

@@ -1,6 +1,6 @@
 //! Natural logarithm of an integer in fixed point ([`ln_q37`]).
 
-use crate::fixed::{mul_u32_wide, round_shr_u64};
+use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_shr_u64};
 use core::num::NonZeroU32;
 
 /// Fractional bits of the logarithm's fixed-point format (Q.37).
@@ -58,7 +58,7 @@ const THIRD_Q32: u32 = 0x5555_5555;
 /// (0 ≤ ln m < ln 2 + 2^-32).
 #[inline]
 fn ln_parts(x: NonZeroU32) -> (u32, u64) {
-    let z = x.leading_zeros(); // x ≥ 1: z ≤ 31
+    let z = leading_zeros_u32(x.get()); // x ≥ 1: z ≤ 31
     let k = 31 - z;
     let m = x.get() << z; // Q1.31, top bit set
                           // The six bits after the leading one: m lies in [(64 + j)·2^25, (65 + j)·2^25).

@@ -5,7 +5,7 @@ use super::divider::Divider;
 use super::ln::{ln_q37, ln_ratio_q37};
 use super::model::{Beta, SteinhartHart, ZERO_C_K};
 use super::{CentiCelsius, ConfigError, TemperatureError};
-use crate::fixed::{mul_u32_wide, round_shr_u64, shr_u64};
+use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_shr_u64, shr_u64};
 use core::num::NonZeroU64;
 
 /// 1/298.15 K in Q.60: round(2^60 · 100/29815).
@@ -39,7 +39,7 @@ const FINE_BITS: u32 = 16;
 fn normalise(v: u64) -> (u32, u32) {
     let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
     let (z, top, round) = if hi != 0 {
-        let z = hi.leading_zeros(); // 0..=31
+        let z = leading_zeros_u32(hi); // 0..=31
         let top = if z == 0 {
             hi
         } else {
@@ -47,7 +47,7 @@ fn normalise(v: u64) -> (u32, u32) {
         };
         (z, top, (lo << z) >> 31)
     } else if lo != 0 {
-        let z = lo.leading_zeros();
+        let z = leading_zeros_u32(lo);
         (32 + z, lo << z, 0)
     } else {
         return (0, 32);
