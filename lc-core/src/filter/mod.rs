@@ -123,8 +123,43 @@ fn asr_i64_halves(x: i64, k: u32) -> i64 {
     (i64::from(new_hi) << 32) | i64::from(new_lo)
 }
 
+/// `x >> k` for an `i128` (arithmetic, rounds toward −∞), `k` in 1..=31.
+#[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+#[inline]
+fn asr_i128(x: i128, k: u32) -> i128 {
+    x >> k
+}
+
+/// `x >> k` for an `i128` in 32-bit words on ARMv6-M. The compiler's own
+/// variable 128-bit shift there goes through the stack: it stores the four
+/// words and loads them back from an offset picked by k.
+#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+#[inline]
+fn asr_i128(x: i128, k: u32) -> i128 {
+    asr_i128_words(x, k)
+}
+
+/// `x >> k` (arithmetic, rounds toward −∞) for `k` in 1..=31, word by word:
+/// each word takes its own bits shifted down and the next word's low bits
+/// shifted up. Exact; the caller guarantees the range of `k`.
+#[cfg_attr(
+    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
+    allow(dead_code)
+)]
+#[inline]
+fn asr_i128_words(x: i128, k: u32) -> i128 {
+    let w = |i: u32| (x >> (32 * i)) as u32; // exact words, constant shifts
+    let (w0, w1, w2, w3) = (w(0), w(1), w(2), w(3));
+    // 32 − k is in 1..=31: every shift is in range.
+    let n0 = (w0 >> k) | (w1 << (32 - k));
+    let n1 = (w1 >> k) | (w2 << (32 - k));
+    let n2 = (w2 >> k) | (w3 << (32 - k));
+    let n3 = (w3 as i32) >> k;
+    (i128::from(n3) << 96) | (i128::from(n2) << 64) | (i128::from(n1) << 32) | i128::from(n0)
+}
+
 mod private {
-    use super::{asr_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
+    use super::{asr_i128, asr_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
 
     /// `defmt::Format` when the feature is on, nothing otherwise, so the
     /// filters can derive `defmt::Format` over their accumulator.
@@ -203,7 +238,8 @@ mod private {
         #[inline]
         fn ema_step(acc: i128, x: i64, k: u32) -> i128 {
             let d = x.ema_init() - acc;
-            acc + ((d + (1 << (k - 1))) >> k)
+            // 2^(k−1) ≤ 2^15 as a 32-bit shift, then a word-wise shift.
+            acc + asr_i128(d + i128::from(1i32 << (k - 1)), k)
         }
         #[inline]
         fn ema_output(acc: i128) -> i64 {
@@ -258,16 +294,20 @@ mod tests {
         ] {
             for k in 1..=31 {
                 assert_eq!(asr_i64_halves(x, k), x >> k, "x {x} k {k}");
+                let y = i128::from(x) << 40;
+                assert_eq!(asr_i128_words(y, k), y >> k, "y {y} k {k}");
             }
         }
     }
 
     proptest! {
-        /// The ARMv6-M shift in halves equals the native shift.
+        /// The ARMv6-M shifts in halves and words equal the native shifts.
         #[test]
-        fn asr_halves_is_exact(x: i64, k in 1u32..=31) {
+        fn asr_halves_is_exact(x: i64, y: i128, k in 1u32..=31) {
             prop_assert_eq!(asr_i64_halves(x, k), x >> k);
             prop_assert_eq!(asr_i64(x, k), x >> k);
+            prop_assert_eq!(asr_i128_words(y, k), y >> k);
+            prop_assert_eq!(asr_i128(y, k), y >> k);
         }
     }
 }
