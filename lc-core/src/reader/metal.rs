@@ -45,6 +45,11 @@ pub struct MetalReader {
     params: MetalParams,
     baseline: Ema<Shift>,
     ring_baseline: Ema<i32>,
+    /// The two baselines' current outputs (`baseline.value()`, 0 before
+    /// the first sample, and `ring_baseline.value()`), kept as they change:
+    /// each output is a rounding of a wide state, wanted on every reading.
+    base: i64,
+    ring_base: Option<i32>,
     learned: bool,
     detector: Detector<u64>,
     class: MetalClass,
@@ -78,6 +83,8 @@ impl MetalReader {
             params,
             baseline: Ema::new(k).map_err(|_| ReaderError::Metal)?,
             ring_baseline: Ema::new(k).map_err(|_| ReaderError::Metal)?,
+            base: 0,
+            ring_base: None,
             learned: false,
             detector,
             class: MetalClass::None,
@@ -98,16 +105,11 @@ impl MetalReader {
             Err(f) => return Reading::fault(f),
         };
         if !self.learned {
-            self.baseline.update(s);
-            if let Some(rc) = input.ring_count {
-                self.ring_baseline.update(i32::from(rc));
-            }
+            self.learn(s, input.ring_count);
             self.learned = true;
         }
-        let delta = s
-            .raw_q40()
-            .saturating_sub(self.baseline.value().map_or(0, Shift::raw_q40));
-        let ring_drop = match (input.ring_count, self.ring_baseline.value()) {
+        let delta = s.raw_q40().saturating_sub(self.base);
+        let ring_drop = match (input.ring_count, self.ring_base) {
             (Some(rc), Some(base)) => Some(base.saturating_sub(i32::from(rc))),
             _ => None,
         };
@@ -130,6 +132,8 @@ impl MetalReader {
                 // The target has become the background.
                 self.baseline.reset();
                 self.ring_baseline.reset();
+                self.base = 0;
+                self.ring_base = None;
                 self.learned = false;
                 self.detector.reset();
                 self.present_for = 0;
@@ -138,10 +142,7 @@ impl MetalReader {
         } else {
             self.present_for = 0;
             self.class = MetalClass::None;
-            self.baseline.update(s);
-            if let Some(rc) = input.ring_count {
-                self.ring_baseline.update(i32::from(rc));
-            }
+            self.learn(s, input.ring_count);
         }
         let status = if self.class == MetalClass::None {
             Status::NoTarget
@@ -153,6 +154,18 @@ impl MetalReader {
             secondary: ring_drop,
             shift: Shift::from_raw_q40(delta),
             status,
+        }
+    }
+}
+
+impl MetalReader {
+    /// Feeds the baselines (the ring count's when the unit reports one)
+    /// and keeps their outputs.
+    #[inline(always)]
+    fn learn(&mut self, s: Shift, ring_count: Option<u16>) {
+        self.base = self.baseline.update(s).raw_q40();
+        if let Some(rc) = ring_count {
+            self.ring_base = Some(self.ring_baseline.update(i32::from(rc)));
         }
     }
 }
