@@ -123,43 +123,55 @@ fn asr_i64_halves(x: i64, k: u32) -> i64 {
     (i64::from(new_hi) << 32) | i64::from(new_lo)
 }
 
-/// `x >> k` for an `i128` (arithmetic, rounds toward −∞), `k` in 1..=31.
+/// One EMA step of an `i64` sample on its 128-bit state: the native
+/// 128-bit arithmetic.
 #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
 #[inline]
-fn asr_i128(x: i128, k: u32) -> i128 {
-    x >> k
+fn ema_step_i64(acc: i128, x: i64, k: u32) -> i128 {
+    let d = (i128::from(x) << EMA_FRAC_BITS) - acc;
+    acc + ((d + (1 << (k - 1))) >> k)
 }
 
-/// `x >> k` for an `i128` in 32-bit words on ARMv6-M. The compiler's own
-/// variable 128-bit shift there goes through the stack: it stores the four
-/// words and loads them back from an offset picked by k.
+/// One EMA step of an `i64` sample on ARMv6-M: in 96-bit words
+/// ([`ema_step_i64_words`]) instead of the compiler's 128-bit arithmetic,
+/// whose variable shift goes through the stack there.
 #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
 #[inline]
-fn asr_i128(x: i128, k: u32) -> i128 {
-    asr_i128_words(x, k)
+fn ema_step_i64(acc: i128, x: i64, k: u32) -> i128 {
+    ema_step_i64_words(acc, x, k)
 }
 
-/// `x >> k` (arithmetic, rounds toward −∞) for `k` in 1..=31, word by word:
-/// each word takes its own bits shifted down and the next word's low bits
-/// shifted up. Exact; the caller guarantees the range of `k`.
+/// acc + round((x·2^31 − acc)·2^-k), ties toward +∞, for k in 1..=31 and
+/// |acc| ≤ 2^94 (the hull invariant: acc lies between inputs times 2^31),
+/// with every value held as an `i64` high part and a `u32` low word.
+/// Exact: x·2^31 and acc fit 96 bits, their difference d lies strictly
+/// within ±2^95 (so its high part fits `i64`), and so do d + 2^(k−1), its
+/// shift and the new state. Compiled everywhere so host tests hold it
+/// equal to the 128-bit formula.
 #[cfg_attr(
     not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
     allow(dead_code)
 )]
 #[inline]
-fn asr_i128_words(x: i128, k: u32) -> i128 {
-    let w = |i: u32| (x >> (32 * i)) as u32; // exact words, constant shifts
-    let (w0, w1, w2, w3) = (w(0), w(1), w(2), w(3));
-    // 32 − k is in 1..=31: every shift is in range.
-    let n0 = (w0 >> k) | (w1 << (32 - k));
-    let n1 = (w1 >> k) | (w2 << (32 - k));
-    let n2 = (w2 >> k) | (w3 << (32 - k));
-    let n3 = (w3 as i32) >> k;
-    (i128::from(n3) << 96) | (i128::from(n2) << 64) | (i128::from(n1) << 32) | i128::from(n0)
+fn ema_step_i64_words(acc: i128, x: i64, k: u32) -> i128 {
+    // acc = a_hi·2^32 + a_lo and x·2^31 = (x >> 1)·2^32 + (x & 1)·2^31.
+    let (a_hi, a_lo) = ((acc >> 32) as i64, acc as u32);
+    let (x_hi, x_lo) = (x >> 1, (x as u32 & 1) << 31);
+    let (d_lo, borrow) = x_lo.overflowing_sub(a_lo);
+    let d_hi = x_hi.wrapping_sub(a_hi).wrapping_sub(i64::from(borrow));
+    // + 2^(k−1), k − 1 ≤ 30.
+    let (e_lo, carry) = d_lo.overflowing_add(1 << (k - 1));
+    let e_hi = d_hi.wrapping_add(i64::from(carry));
+    // >> k: 32 − k is in 1..=31.
+    let s_lo = (e_lo >> k) | ((e_hi as u32) << (32 - k));
+    let s_hi = asr_i64(e_hi, k);
+    let (r_lo, c) = a_lo.overflowing_add(s_lo);
+    let r_hi = a_hi.wrapping_add(s_hi).wrapping_add(i64::from(c));
+    (i128::from(r_hi) << 32) | i128::from(r_lo)
 }
 
 mod private {
-    use super::{asr_i128, asr_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
+    use super::{asr_i64, ema_step_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
 
     /// `defmt::Format` when the feature is on, nothing otherwise, so the
     /// filters can derive `defmt::Format` over their accumulator.
@@ -237,9 +249,7 @@ mod private {
         }
         #[inline]
         fn ema_step(acc: i128, x: i64, k: u32) -> i128 {
-            let d = x.ema_init() - acc;
-            // 2^(k−1) ≤ 2^15 as a 32-bit shift, then a word-wise shift.
-            acc + asr_i128(d + i128::from(1i32 << (k - 1)), k)
+            ema_step_i64(acc, x, k)
         }
         #[inline]
         fn ema_output(acc: i128) -> i64 {
@@ -294,20 +304,35 @@ mod tests {
         ] {
             for k in 1..=31 {
                 assert_eq!(asr_i64_halves(x, k), x >> k, "x {x} k {k}");
-                let y = i128::from(x) << 40;
-                assert_eq!(asr_i128_words(y, k), y >> k, "y {y} k {k}");
+                // The hull's corners: the state at either extreme input.
+                for acc in [
+                    i128::from(i64::MIN) << 31,
+                    i128::from(i64::MAX) << 31,
+                    0,
+                    -1,
+                ] {
+                    let want = acc + ((((i128::from(x) << 31) - acc) + (1 << (k - 1))) >> k);
+                    assert_eq!(ema_step_i64_words(acc, x, k), want, "acc {acc} x {x} k {k}");
+                }
             }
         }
     }
 
     proptest! {
-        /// The ARMv6-M shifts in halves and words equal the native shifts.
+        /// The ARMv6-M shift in halves equals the native shift.
         #[test]
-        fn asr_halves_is_exact(x: i64, y: i128, k in 1u32..=31) {
+        fn asr_halves_is_exact(x: i64, k in 1u32..=31) {
             prop_assert_eq!(asr_i64_halves(x, k), x >> k);
             prop_assert_eq!(asr_i64(x, k), x >> k);
-            prop_assert_eq!(asr_i128_words(y, k), y >> k);
-            prop_assert_eq!(asr_i128(y, k), y >> k);
+        }
+
+        /// The EMA step of an `i64` sample in 96-bit words equals the
+        /// 128-bit formula over the whole hull (|acc| ≤ 2^94, any x).
+        #[test]
+        fn ema_step_in_words_is_exact(acc in -(1i128 << 94)..=(1i128 << 94), x: i64, k in 1u32..=31) {
+            let want = acc + ((((i128::from(x) << EMA_FRAC_BITS) - acc) + (1 << (k - 1))) >> k);
+            prop_assert_eq!(ema_step_i64_words(acc, x, k), want);
+            prop_assert_eq!(ema_step_i64(acc, x, k), want);
         }
     }
 }
