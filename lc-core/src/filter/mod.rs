@@ -170,8 +170,45 @@ fn ema_step_i64_words(acc: i128, x: i64, k: u32) -> i128 {
     (i128::from(r_hi) << 32) | i128::from(r_lo)
 }
 
+/// round(acc·2^-31), ties toward +∞, saturated to `i64`: the native
+/// 128-bit arithmetic.
+#[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+#[inline]
+fn ema_output_i64(acc: i128) -> i64 {
+    let y = (acc + (1 << (EMA_FRAC_BITS - 1))) >> EMA_FRAC_BITS;
+    i64::try_from(y).unwrap_or(if y < 0 { i64::MIN } else { i64::MAX })
+}
+
+/// [`ema_output_i64`] on ARMv6-M, in words ([`ema_output_i64_words`]).
+#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+#[inline]
+fn ema_output_i64(acc: i128) -> i64 {
+    ema_output_i64_words(acc)
+}
+
+/// round(acc·2^-31), ties toward +∞, saturated to `i64`, for −2^95 < acc <
+/// 2^95 − 2^30 (the hull: |acc| ≤ 2^94), from an `i64` high part and a
+/// `u32` low word:
+/// y = 2·hi + bit 31 of lo after adding 2^30. Compiled everywhere so host
+/// tests hold it equal to the 128-bit formula.
+#[cfg_attr(
+    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
+    allow(dead_code)
+)]
+#[inline]
+fn ema_output_i64_words(acc: i128) -> i64 {
+    let (hi, lo) = ((acc >> 32) as i64, acc as u32);
+    let (lo, carry) = lo.overflowing_add(1 << (EMA_FRAC_BITS - 1));
+    let hi = hi.wrapping_add(i64::from(carry)); // below 2^63 in the domain: exact
+    match hi.checked_mul(2) {
+        Some(twice) => twice | i64::from(lo >> 31),
+        None if hi < 0 => i64::MIN,
+        None => i64::MAX,
+    }
+}
+
 mod private {
-    use super::{asr_i64, ema_step_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
+    use super::{asr_i64, ema_output_i64, ema_step_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
 
     /// `defmt::Format` when the feature is on, nothing otherwise, so the
     /// filters can derive `defmt::Format` over their accumulator.
@@ -253,9 +290,8 @@ mod private {
         }
         #[inline]
         fn ema_output(acc: i128) -> i64 {
-            let y = (acc + (1 << (EMA_FRAC_BITS - 1))) >> EMA_FRAC_BITS;
-            // In range by the hull invariant; saturate rather than wrap.
-            i64::try_from(y).unwrap_or(if y < 0 { i64::MIN } else { i64::MAX })
+            // In range by the hull invariant; saturates rather than wraps.
+            ema_output_i64(acc)
         }
         #[inline]
         fn ema_acc_f64(acc: i128) -> f64 {
@@ -289,6 +325,34 @@ mod private {
 mod tests {
     use super::*;
     use proptest::prelude::*;
+
+    /// The output formula in 128 bits, saturated: the reference.
+    fn output_i128(acc: i128) -> i64 {
+        let y = (acc + (1 << 30)) >> 31;
+        i64::try_from(y).unwrap_or(if y < 0 { i64::MIN } else { i64::MAX })
+    }
+
+    /// The output in words at the hull's ends and either side of where it
+    /// saturates.
+    #[test]
+    fn ema_output_in_words_corners() {
+        let top = i128::from(i64::MAX) << 31;
+        let bottom = i128::from(i64::MIN) << 31;
+        for acc in [
+            bottom,
+            bottom - (1 << 30),
+            bottom - (1 << 30) - 1,
+            top,
+            top + (1 << 30) - 1,
+            top + (1 << 30),
+            (1i128 << 95) - (1 << 30) - 1,
+            -(1i128 << 95) + 1,
+            0,
+            -1,
+        ] {
+            assert_eq!(ema_output_i64_words(acc), output_i128(acc), "acc {acc}");
+        }
+    }
 
     #[test]
     fn asr_halves_corners() {
@@ -333,6 +397,14 @@ mod tests {
             let want = acc + ((((i128::from(x) << EMA_FRAC_BITS) - acc) + (1 << (k - 1))) >> k);
             prop_assert_eq!(ema_step_i64_words(acc, x, k), want);
             prop_assert_eq!(ema_step_i64(acc, x, k), want);
+        }
+
+        /// The output in words equals the 128-bit formula, saturation
+        /// included, over its domain (twice the hull and more).
+        #[test]
+        fn ema_output_in_words_is_exact(acc in -(1i128 << 95) + 1..(1i128 << 95) - (1 << 30)) {
+            prop_assert_eq!(ema_output_i64_words(acc), output_i128(acc));
+            prop_assert_eq!(ema_output_i64(acc), output_i128(acc));
         }
     }
 }
