@@ -14,7 +14,7 @@
 ///
 /// ARMv6-M (Cortex-M0/M0+) has only a 32 × 32 → 32-bit multiply, and the
 /// compiler's generic 64-bit multiply routine costs about 40 instructions
-/// there; four 16 × 16-bit partial products ([`mul_u32_wide_parts`]) cost
+/// there; four 16 × 16-bit partial products (`mul_u32_wide_parts`) cost
 /// about 20. Elsewhere the native widening multiply is used (one `UMULL` on
 /// ARMv7-M). ARMv6-M is recognised as the ARM profile without
 /// compare-and-swap atomics.

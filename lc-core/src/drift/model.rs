@@ -51,10 +51,11 @@ impl core::error::Error for DriftError {}
 ///
 /// ## Rounding and bound
 ///
-/// g is computed exactly in 64 bits and rounded to Q31 (|g| < 1/2 is
-/// checked at construction over the whole temperature domain, so nothing
-/// can overflow); 1 + s is rounded to Q29; their product is exact and
-/// rounded into Q.40. Against the `f64` twin with the same coefficients:
+/// g is computed exactly (in 32-bit words, with five 32-bit multiplies) and
+/// rounded to Q31 (|g| < 1/2 is checked at construction over the whole
+/// temperature domain, so nothing can overflow); 1 + s is rounded to Q29;
+/// their product is exact and rounded into Q.40. Against the `f64` twin
+/// with the same coefficients:
 /// |s_fixed − s| ≤ (1 + s)·2^-32 + |g|·2^-30 + 2^-40.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]

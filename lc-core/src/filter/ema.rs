@@ -80,8 +80,11 @@ const K_MAX: u32 = 16;
 /// no division: about 70 Thumb instructions of straight-line code for
 /// [`Ema::update`] (read from the generated code at `opt-level = "s"`; use
 /// the emulator for cycle counts). `i64` and
-/// [`Shift`](crate::shift::Shift) samples use 128-bit arithmetic, about three
-/// times the code; convert to an `i32` output value first where possible.
+/// [`Shift`](crate::shift::Shift) samples keep a 128-bit state; on a
+/// Cortex-M0 its step and output are done on an `i64` high part and a
+/// `u32` low word (the state fits 96 bits), not by the compiler's 128-bit
+/// arithmetic, whose variable shift goes through the stack there. Convert
+/// to an `i32` output value first where possible.
 ///
 /// ```
 /// use lc_core::filter::{Ema, EmaF64};
