@@ -298,7 +298,9 @@ impl Curve {
     pub(crate) const PLACEHOLDER: Curve = Curve {
         len: 0,
         interpolation: Interpolation::Linear,
-        rising: true,
+        // All zeros: the firmware then clears the curve in place instead of
+        // copying a 2 KB constant from flash.
+        rising: false,
         x: [0; MAX_NODES],
         y: [0; MAX_NODES],
         seg: [Segment {
