@@ -97,6 +97,16 @@ impl MetalReader {
         self.detector.presence()
     }
 
+    /// Feeds the baselines (the ring count's when the unit reports one)
+    /// and keeps their outputs.
+    #[inline(always)]
+    fn learn(&mut self, s: Shift, ring_count: Option<u16>) {
+        self.base = self.baseline.update(s).raw_q40();
+        if let Some(rc) = ring_count {
+            self.ring_base = Some(self.ring_baseline.update(i32::from(rc)));
+        }
+    }
+
     /// One reading; updates the baseline and the detector.
     #[inline(never)]
     pub fn read(&mut self, input: &Input) -> Reading {
@@ -154,18 +164,6 @@ impl MetalReader {
             secondary: ring_drop,
             shift: Shift::from_raw_q40(delta),
             status,
-        }
-    }
-}
-
-impl MetalReader {
-    /// Feeds the baselines (the ring count's when the unit reports one)
-    /// and keeps their outputs.
-    #[inline(always)]
-    fn learn(&mut self, s: Shift, ring_count: Option<u16>) {
-        self.base = self.baseline.update(s).raw_q40();
-        if let Some(rc) = ring_count {
-            self.ring_base = Some(self.ring_baseline.update(i32::from(rc)));
         }
     }
 }
