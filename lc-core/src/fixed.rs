@@ -155,7 +155,7 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
 
 /// Whether this is ARMv6-M (Cortex-M0/M0+): no divide, no count of leading
 /// zeros, only a 32 × 32 → 32-bit multiply.
-const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+pub(crate) const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
 /// Leading zeros of a `u32`. ARMv6-M has no count-leading-zeros
 /// instruction; there a five-step binary search inline

@@ -45,6 +45,7 @@ mod median;
 pub use ema::{Ema, EmaError, EmaF64};
 pub use median::Median;
 
+use crate::fixed::ARMV6M;
 use crate::shift::Shift;
 use core::fmt::Debug;
 use core::hash::Hash;
@@ -87,30 +88,24 @@ impl Sample for Shift {
 /// Fractional bits the [`Ema`] state carries below the input's LSB.
 pub(crate) const EMA_FRAC_BITS: u32 = 31;
 
-/// ARMv6-M (Cortex-M0/M0+): no 64-bit shift instruction, and the compiler
-/// calls a runtime routine (`__aeabi_lasr`) for a variable 64-bit shift.
-/// Recognised, as in [`crate::fixed::mul_u32_wide`], as the ARM profile
-/// without compare-and-swap atomics.
-#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+/// `x >> k`: arithmetic shift right (rounds toward −∞), `k` in 1..=31. On
+/// ARMv6-M (`fixed::ARMV6M`), which has no 64-bit shift and where the compiler
+/// calls a runtime routine (`__aeabi_lasr`) for a variable one, in 32-bit
+/// halves ([`asr_i64_halves`]).
 #[inline]
 fn asr_i64(x: i64, k: u32) -> i64 {
-    asr_i64_halves(x, k)
-}
-
-/// `x >> k`: arithmetic shift right (rounds toward −∞), `k` in 1..=31.
-#[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
-#[inline]
-fn asr_i64(x: i64, k: u32) -> i64 {
-    x >> k
+    if ARMV6M {
+        asr_i64_halves(x, k)
+    } else {
+        x >> k
+    }
 }
 
 /// `x >> k` (arithmetic, rounds toward −∞) for `k` in 1..=31, in 32-bit
-/// halves: three shifts, a subtraction and an OR inline, instead of a call. Exact; the
-/// caller guarantees the range of `k` (the EMA's k is in 1..=16).
-#[cfg_attr(
-    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
-    allow(dead_code)
-)]
+/// halves: three shifts, a subtraction and an OR inline, instead of a call.
+/// Exact; the caller guarantees the range of `k` (the EMA's k is in
+/// 1..=16). Compiled everywhere so host tests hold it equal to the native
+/// shift.
 #[inline]
 fn asr_i64_halves(x: i64, k: u32) -> i64 {
     let [b0, b1, b2, b3, b4, b5, b6, b7] = x.to_le_bytes();
@@ -124,21 +119,16 @@ fn asr_i64_halves(x: i64, k: u32) -> i64 {
 }
 
 /// One EMA step of an `i64` sample on its 128-bit state: the native
-/// 128-bit arithmetic.
-#[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+/// 128-bit arithmetic, or on ARMv6-M 96-bit words ([`ema_step_i64_words`]),
+/// since the compiler's variable 128-bit shift goes through the stack there.
 #[inline]
 fn ema_step_i64(acc: i128, x: i64, k: u32) -> i128 {
-    let d = (i128::from(x) << EMA_FRAC_BITS) - acc;
-    acc + ((d + (1 << (k - 1))) >> k)
-}
-
-/// One EMA step of an `i64` sample on ARMv6-M: in 96-bit words
-/// ([`ema_step_i64_words`]) instead of the compiler's 128-bit arithmetic,
-/// whose variable shift goes through the stack there.
-#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
-#[inline]
-fn ema_step_i64(acc: i128, x: i64, k: u32) -> i128 {
-    ema_step_i64_words(acc, x, k)
+    if ARMV6M {
+        ema_step_i64_words(acc, x, k)
+    } else {
+        let d = (i128::from(x) << EMA_FRAC_BITS) - acc;
+        acc + ((d + (1 << (k - 1))) >> k)
+    }
 }
 
 /// acc + round((x·2^31 − acc)·2^-k), ties toward +∞, for k in 1..=31 and
@@ -148,10 +138,6 @@ fn ema_step_i64(acc: i128, x: i64, k: u32) -> i128 {
 /// within ±2^95 (so its high part fits `i64`), and so do d + 2^(k−1), its
 /// shift and the new state. Compiled everywhere so host tests hold it
 /// equal to the 128-bit formula.
-#[cfg_attr(
-    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
-    allow(dead_code)
-)]
 #[inline]
 fn ema_step_i64_words(acc: i128, x: i64, k: u32) -> i128 {
     // acc = a_hi·2^32 + a_lo and x·2^31 = (x >> 1)·2^32 + (x & 1)·2^31.
@@ -171,19 +157,15 @@ fn ema_step_i64_words(acc: i128, x: i64, k: u32) -> i128 {
 }
 
 /// round(acc·2^-31), ties toward +∞, saturated to `i64`: the native
-/// 128-bit arithmetic.
-#[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+/// 128-bit arithmetic, or on ARMv6-M words ([`ema_output_i64_words`]).
 #[inline]
 fn ema_output_i64(acc: i128) -> i64 {
-    let y = (acc + (1 << (EMA_FRAC_BITS - 1))) >> EMA_FRAC_BITS;
-    i64::try_from(y).unwrap_or(if y < 0 { i64::MIN } else { i64::MAX })
-}
-
-/// [`ema_output_i64`] on ARMv6-M, in words ([`ema_output_i64_words`]).
-#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
-#[inline]
-fn ema_output_i64(acc: i128) -> i64 {
-    ema_output_i64_words(acc)
+    if ARMV6M {
+        ema_output_i64_words(acc)
+    } else {
+        let y = (acc + (1 << (EMA_FRAC_BITS - 1))) >> EMA_FRAC_BITS;
+        i64::try_from(y).unwrap_or(if y < 0 { i64::MIN } else { i64::MAX })
+    }
 }
 
 /// round(acc·2^-31), ties toward +∞, saturated to `i64`, for −2^95 < acc <
@@ -191,10 +173,6 @@ fn ema_output_i64(acc: i128) -> i64 {
 /// `u32` low word:
 /// y = 2·hi + bit 31 of lo after adding 2^30. Compiled everywhere so host
 /// tests hold it equal to the 128-bit formula.
-#[cfg_attr(
-    not(any(test, all(target_arch = "arm", not(target_has_atomic = "32")))),
-    allow(dead_code)
-)]
 #[inline]
 fn ema_output_i64_words(acc: i128) -> i64 {
     let (hi, lo) = ((acc >> 32) as i64, acc as u32);
