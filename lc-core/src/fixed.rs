@@ -83,23 +83,27 @@ pub fn round_shr_u64(x: u64, sh: u32) -> u64 {
 }
 
 /// `x >> sh` for `sh` in 0..=63 (larger gives 0). On ARMv6-M it is done in
-/// 32-bit halves, inline, instead of the compiler's 64-bit shift library
-/// call; elsewhere it is the native shift. Exact.
+/// 32-bit halves, inline ([`shr_u64_words`]), instead of the compiler's
+/// 64-bit shift library call; elsewhere it is the native shift. Exact.
 #[inline]
 pub fn shr_u64(x: u64, sh: u32) -> u64 {
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
-    {
-        let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
-        match sh {
-            0 => x,
-            1..=31 => (u64::from(hi >> sh) << 32) | u64::from((lo >> sh) | (hi << (32 - sh))),
-            32..=63 => u64::from(hi >> (sh - 32)),
-            _ => 0,
-        }
-    }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
-    {
+    if ARMV6M {
+        shr_u64_words(x, sh)
+    } else {
         x.checked_shr(sh).unwrap_or(0)
+    }
+}
+
+/// [`shr_u64`] in 32-bit halves (compiled everywhere so host tests hold it
+/// equal to the native shift).
+#[inline]
+fn shr_u64_words(x: u64, sh: u32) -> u64 {
+    let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
+    match sh {
+        0 => x,
+        1..=31 => (u64::from(hi >> sh) << 32) | u64::from((lo >> sh) | (hi << (32 - sh))),
+        32..=63 => u64::from(hi >> (sh - 32)),
+        _ => 0,
     }
 }
 
@@ -391,6 +395,7 @@ mod tests {
             prop_assert_eq!(leading_zeros_words(x >> sh), (x >> sh).leading_zeros());
             prop_assert_eq!(leading_zeros_steps((x >> sh) as u32), ((x >> sh) as u32).leading_zeros());
             prop_assert_eq!(shl_u64(x, sh), x << sh);
+            prop_assert_eq!(shr_u64_words(x, sh), x >> sh);
         }
 
     }
@@ -422,6 +427,8 @@ mod tests {
         }
         for x in [0u64, 1, 1 << 31, 1 << 32, 1 << 63, u64::MAX] {
             assert_eq!(leading_zeros_words(x), x.leading_zeros());
+            assert_eq!(shr_u64_words(x, 64), 0);
+            assert_eq!(shr_u64_words(x, 63), x >> 63);
             assert_eq!(leading_zeros_steps(x as u32), (x as u32).leading_zeros());
         }
     }
