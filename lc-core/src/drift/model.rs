@@ -173,7 +173,8 @@ impl TemperatureModel {
     fn g31(&self, t: CentiCelsius) -> i32 {
         let d = self.delta(t);
         let e = d.unsigned_abs(); // ≤ 40 000 < 2^16
-                                  // J = (σ·b1 + (b2 >> 16)·e)·2^16 + (b2 & 0xFFFF)·e, |J| < 2^48.
+
+        // J = (σ·b1 + (b2 >> 16)·e)·2^16 + (b2 & 0xFFFF)·e, |J| < 2^48.
         let b1 = if d < 0 {
             -i64::from(self.b1)
         } else {
