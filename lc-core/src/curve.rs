@@ -376,6 +376,12 @@ impl Curve {
         self.interpolation
     }
 
+    /// Whether the values rise along the table (last ≥ first).
+    #[inline]
+    pub fn is_rising(&self) -> bool {
+        self.rising
+    }
+
     /// Node `i`, if it exists.
     pub fn node(&self, i: usize) -> Option<Node> {
         if i < self.len() {

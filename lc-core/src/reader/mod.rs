@@ -289,8 +289,7 @@ impl Reader {
     pub fn from_calibration(cal: &Calibration) -> Result<Self, ReaderError> {
         let mut reader = match cal.kind {
             ReaderKind::Proximity => {
-                let (front, far_is_high) = ProximityReader::parts(cal)?;
-                Reader::Proximity(ProximityReader::from_parts(front, far_is_high))
+                Reader::Proximity(ProximityReader::from_parts(ProximityReader::parts(cal)?))
             }
             ReaderKind::Level => {
                 let (front, reference) = LevelReader::parts(cal)?;

@@ -18,14 +18,12 @@ use crate::image::Calibration;
 pub struct ProximityReader {
     front: Front,
     curve: Curve,
-    far_is_high: bool,
 }
 
 impl ProximityReader {
     /// From a calibration with a curve.
     pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
-        let (front, far_is_high) = Self::parts(cal)?;
-        let mut r = Self::from_parts(front, far_is_high);
+        let mut r = Self::from_parts(Self::parts(cal)?);
         r.fill(cal)?;
         Ok(r)
     }
@@ -34,23 +32,20 @@ impl ProximityReader {
     /// [`Reader::from_calibration`] builds the reader inside the enum from
     /// these and then fills the curve in place, so no 2 KB temporary lands
     /// on the stack.
-    pub(super) fn parts(cal: &Calibration) -> Result<(Front, bool), ReaderError> {
+    pub(super) fn parts(cal: &Calibration) -> Result<Front, ReaderError> {
         let table = cal.curve.as_ref().ok_or(ReaderError::Incomplete)?;
-        let nodes = table.nodes();
-        let far_is_high = match (nodes.first(), nodes.last()) {
-            (Some(a), Some(b)) => b.value >= a.value,
-            _ => return Err(ReaderError::Incomplete),
-        };
-        Ok((Front::new(cal, true)?, far_is_high))
+        if table.nodes().is_empty() {
+            return Err(ReaderError::Incomplete);
+        }
+        Front::new(cal, true)
     }
 
     /// The reader from its parts, its curve empty until [`Self::fill`].
     #[inline(always)]
-    pub(super) fn from_parts(front: Front, far_is_high: bool) -> Self {
+    pub(super) fn from_parts(front: Front) -> Self {
         Self {
             front,
             curve: Curve::PLACEHOLDER,
-            far_is_high,
         }
     }
 
@@ -70,7 +65,8 @@ impl ProximityReader {
             Err(f) => return Reading::fault(f),
         };
         let v = self.curve.eval(s);
-        let status = match (v.status, self.far_is_high) {
+        // The far end of the table is the high one when the values rise.
+        let status = match (v.status, self.curve.is_rising()) {
             (CurveStatus::InRange, _) => Status::Ok,
             (CurveStatus::AboveRange, true) | (CurveStatus::BelowRange, false) => Status::NoTarget,
             _ => Status::BelowRange,
