@@ -696,11 +696,12 @@ impl VolumeTable {
     }
 
     fn check_rising(curve: &Curve) -> Result<(), CurveError> {
-        let last = curve.len().saturating_sub(1);
-        match (curve.node(0), curve.node(last)) {
-            (Some(first), Some(last)) if first.value <= last.value => Ok(()),
-            (Some(_), Some(_)) => Err(CurveError::NotMonotone),
-            _ => Err(CurveError::TooFewNodes),
+        if curve.is_empty() {
+            Err(CurveError::TooFewNodes)
+        } else if curve.is_rising() {
+            Ok(())
+        } else {
+            Err(CurveError::NotMonotone)
         }
     }
 
