@@ -83,7 +83,7 @@ pub fn round_shr_u64(x: u64, sh: u32) -> u64 {
 }
 
 /// `x >> sh` for `sh` in 0..=63 (larger gives 0). On ARMv6-M it is done in
-/// 32-bit halves, inline ([`shr_u64_words`]), instead of the compiler's
+/// 32-bit halves, inline (`shr_u64_words`), instead of the compiler's
 /// 64-bit shift library call; elsewhere it is the native shift. Exact.
 #[inline]
 pub fn shr_u64(x: u64, sh: u32) -> u64 {
