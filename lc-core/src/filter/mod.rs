@@ -11,8 +11,8 @@
 //!   needs nothing of `T` but `Copy + Ord + Default` and works for any
 //!   ordered type.
 //! - [`Ema<T>`]: y ← y + (x − y)·2^-k, k in 1..=16, with a shift and no
-//!   multiply. Generic over the [`Sample`] types `i32` (the fast path on a
-//!   Cortex-M0: 64-bit state), `i64` and [`Shift`] (128-bit state). Each
+//!   multiply. Generic over the [`Sample`] types `u16` (ring counts, 32-bit
+//!   state), `i32` and [`Shift`] (64-bit state) and `i64` (128-bit state). Each
 //!   fixed-point step is rounded to nearest, and the error bound against
 //!   the exact recursion is stated and proven by property tests; [`EmaF64`]
 //!   is its `f64` twin.
@@ -51,10 +51,12 @@ use core::fmt::Debug;
 use core::hash::Hash;
 
 /// The integer reading types the fixed-point filters ([`Ema`]) work on:
-/// `i32` (output values in integer units), `i64` and [`Shift`] (Q23.40).
+/// `u16` (ring counts), `i32` (output values in integer units), `i64` and
+/// [`Shift`] (Q23.40).
 ///
-/// The trait is sealed: each type brings its own accumulator (64-bit for
-/// `i32`, 128-bit for `i64`) whose overflow analysis lives in this crate.
+/// The trait is sealed: each type brings its own accumulator (32-bit for
+/// `u16`, 64-bit for `i32` and [`Shift`], 128-bit for `i64`) whose overflow
+/// analysis lives in this crate.
 /// Values are handled in units of the type's least significant bit (LSB):
 /// one micrometre for an `i32` in micrometres, 2^-40 for a [`Shift`].
 pub trait Sample: private::Sealed + Copy + Ord + Default + Debug {
@@ -64,6 +66,13 @@ pub trait Sample: private::Sealed + Copy + Ord + Default + Debug {
 }
 
 impl Sample for i32 {
+    #[inline]
+    fn to_lsb_f64(self) -> f64 {
+        f64::from(self)
+    }
+}
+
+impl Sample for u16 {
     #[inline]
     fn to_lsb_f64(self) -> f64 {
         f64::from(self)
@@ -186,7 +195,10 @@ fn ema_output_i64_words(acc: i128) -> i64 {
 }
 
 mod private {
-    use super::{asr_i64, ema_output_i64, ema_step_i64, Debug, Hash, Shift, EMA_FRAC_BITS};
+    use super::{
+        asr_i64, ema_output_i64, ema_step_i64, shift_domain, Debug, Hash, Shift, EMA_FRAC_BITS,
+        SHIFT_EMA_FRAC_BITS, U16_EMA_FRAC_BITS,
+    };
 
     /// `defmt::Format` when the feature is on, nothing otherwise, so the
     /// filters can derive `defmt::Format` over their accumulator.
@@ -202,15 +214,17 @@ mod private {
 
     /// Accumulator arithmetic of the exponential moving average, per type.
     ///
-    /// The accumulator holds a value times 2^`EMA_FRAC_BITS`. Invariant the
+    /// The accumulator holds a value times 2^F (`FRAC_BITS`). Invariant the
     /// overflow analysis rests on: every accumulator value the EMA ever
-    /// holds lies between the smallest and the largest input times
-    /// 2^`EMA_FRAC_BITS` (each step moves it towards the input and never
-    /// past it), and `k` is in 1..=16.
+    /// holds lies between the smallest and the largest input (as
+    /// `ema_init` takes it) times 2^F (each step moves it towards the input
+    /// and never past it), and `k` is in 1..=16.
     pub trait Sealed: Sized {
         /// The accumulator: wide enough for any input times 2^F and for
         /// the difference of two such values.
         type Acc: Copy + Debug + PartialEq + Eq + Hash + MaybeFormat;
+        /// F, the fractional bits of the accumulator below the input's LSB.
+        const FRAC_BITS: u32;
         /// x · 2^F, exact.
         fn ema_init(self) -> Self::Acc;
         /// acc + round((x · 2^F − acc) · 2^-k), ties toward +∞.
@@ -221,7 +235,7 @@ mod private {
         fn ema_acc_f64(acc: Self::Acc) -> f64;
     }
 
-    /// 2^F as `f64`.
+    /// 2^F as `f64` for F = 31.
     const ACC_SCALE: f64 = (1u64 << EMA_FRAC_BITS) as f64;
 
     // i32 in an i64 accumulator, F = 31. With every input and the
@@ -231,6 +245,7 @@ mod private {
     // accumulator lies between acc and x · 2^31; acc + 2^30 < 2^62.
     impl Sealed for i32 {
         type Acc = i64;
+        const FRAC_BITS: u32 = EMA_FRAC_BITS;
         #[inline]
         fn ema_init(self) -> i64 {
             i64::from(self) << EMA_FRAC_BITS
@@ -258,6 +273,7 @@ mod private {
     // magnitude; nothing comes near the i128 limits.
     impl Sealed for i64 {
         type Acc = i128;
+        const FRAC_BITS: u32 = EMA_FRAC_BITS;
         #[inline]
         fn ema_init(self) -> i128 {
             i128::from(self) << EMA_FRAC_BITS
@@ -278,25 +294,89 @@ mod private {
         }
     }
 
-    impl Sealed for Shift {
-        type Acc = i128;
+    // u16 in a u32 accumulator, F = 16: x · 2^16 ≤ 2^32 − 2^16, and so is
+    // every accumulator value (the hull invariant); e = |x · 2^16 − acc|
+    // ≤ 2^32 − 2^16, so e + 2^15 cannot overflow; acc + 2^15 < 2^32. The
+    // step rounds ties toward the input (the state then stops only within
+    // less than half an LSB of a constant input, even at k = 16).
+    impl Sealed for u16 {
+        type Acc = u32;
+        const FRAC_BITS: u32 = U16_EMA_FRAC_BITS;
         #[inline]
-        fn ema_init(self) -> i128 {
-            self.raw_q40().ema_init()
+        fn ema_init(self) -> u32 {
+            u32::from(self) << U16_EMA_FRAC_BITS
         }
         #[inline]
-        fn ema_step(acc: i128, x: Shift, k: u32) -> i128 {
-            i64::ema_step(acc, x.raw_q40(), k)
+        fn ema_step(acc: u32, x: u16, k: u32) -> u32 {
+            let xs = x.ema_init();
+            let half = 1u32 << (k - 1);
+            if xs >= acc {
+                acc + ((xs - acc + half) >> k)
+            } else {
+                acc - ((acc - xs + half) >> k)
+            }
         }
         #[inline]
-        fn ema_output(acc: i128) -> Shift {
-            Shift::from_raw_q40(i64::ema_output(acc))
+        fn ema_output(acc: u32) -> u16 {
+            // ≤ (2^32 − 2^16 + 2^15) >> 16 = 2^16 − 1: always a u16.
+            ((acc + (1 << (U16_EMA_FRAC_BITS - 1))) >> U16_EMA_FRAC_BITS) as u16
         }
         #[inline]
-        fn ema_acc_f64(acc: i128) -> f64 {
-            i64::ema_acc_f64(acc)
+        fn ema_acc_f64(acc: u32) -> f64 {
+            // Exact: acc < 2^32.
+            f64::from(acc) / f64::from(1u32 << U16_EMA_FRAC_BITS)
         }
     }
+
+    // Shift in an i64 accumulator, F = 17, inputs clamped to −32 ≤ s < 32
+    // (|raw| ≤ 2^45): |x · 2^17| ≤ 2^62; d = x · 2^17 − acc lies within
+    // ±(2^63 − 2^17), so d + 2^15 cannot overflow; acc + 2^16 < 2^63.
+    impl Sealed for Shift {
+        type Acc = i64;
+        const FRAC_BITS: u32 = SHIFT_EMA_FRAC_BITS;
+        #[inline]
+        fn ema_init(self) -> i64 {
+            shift_domain(self.raw_q40()) << SHIFT_EMA_FRAC_BITS
+        }
+        #[inline]
+        fn ema_step(acc: i64, x: Shift, k: u32) -> i64 {
+            let d = x.ema_init() - acc;
+            acc + asr_i64(d + i64::from(1i32 << (k - 1)), k)
+        }
+        #[inline]
+        fn ema_output(acc: i64) -> Shift {
+            Shift::from_raw_q40((acc + (1 << (SHIFT_EMA_FRAC_BITS - 1))) >> SHIFT_EMA_FRAC_BITS)
+        }
+        #[inline]
+        fn ema_acc_f64(acc: i64) -> f64 {
+            acc as f64 / (1u64 << SHIFT_EMA_FRAC_BITS) as f64
+        }
+    }
+}
+
+/// Fractional bits of the [`Ema`] state of `u16` samples.
+pub(crate) const U16_EMA_FRAC_BITS: u32 = 16;
+
+/// Fractional bits of the [`Ema`] state of [`Shift`] samples.
+pub(crate) const SHIFT_EMA_FRAC_BITS: u32 = 17;
+
+/// A raw Q40 shift clamped to the [`Ema`]'s domain for [`Shift`] samples,
+/// −32 ≤ s < 32 (|raw| ≤ 2^45). Idempotent.
+#[inline]
+pub(crate) fn shift_domain(raw: i64) -> i64 {
+    let hi = (raw >> 32) as i32;
+    if (hi >> 13) == (hi >> 31) {
+        raw
+    } else {
+        shift_domain_saturated(hi)
+    }
+}
+
+/// [`shift_domain`] outside the domain: −2^45 below, 2^45 − 1 above.
+#[cold]
+#[inline(never)]
+fn shift_domain_saturated(hi: i32) -> i64 {
+    i64::from(hi >> 31) ^ ((1 << 45) - 1)
 }
 
 #[cfg(test)]

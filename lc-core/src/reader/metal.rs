@@ -2,7 +2,7 @@
 
 use super::{Front, Input, Reader, ReaderError, Reading, Status};
 use crate::detector::{Detector, DetectorConfig, Polarity, Presence};
-use crate::filter::Ema;
+use crate::filter::{shift_domain, Ema};
 use crate::image::{Calibration, MetalParams};
 use crate::shift::Shift;
 
@@ -20,17 +20,20 @@ pub enum MetalClass {
 
 /// A metal detector on one coil.
 ///
-/// - **Baseline**: an exponential average of the shift (weight 2^-k),
-///   learned while no target is present and frozen while one is; a target
-///   that stays present for `relearn_readings` readings becomes the new
-///   background (the baseline jumps to the current shift).
+/// - **Baseline**: an exponential average of the shift (weight 2^-k,
+///   [`Ema<Shift>`](Ema): 17 fraction bits below the shift's LSB, shifts
+///   clamped to −32 ≤ s < 32, far beyond any reading), learned while no
+///   target is present and frozen while one is; a target that stays
+///   present for `relearn_readings` readings becomes the new background
+///   (the baseline jumps to the current shift).
 /// - **Detection**: |shift − baseline| against the enter and leave
 ///   thresholds with debounce ([`Detector`]).
 /// - **Classification**: the sign of shift − baseline when the target
 ///   entered: L up (positive) is ferrous, L down non-ferrous.
 /// - **Ring-down**: when the calibration sets `ring_drop` and the unit
 ///   reports ring counts, the count learned with the baseline minus the
-///   current count is the loss signal. Both metal classes add loss, so a
+///   current count is the loss signal (the ring count's own average,
+///   [`Ema<u16>`](Ema)). Both metal classes add loss, so a
 ///   reading counts towards detection only when its shift is beyond the
 ///   threshold *and* the ring count has dropped by at least `ring_drop`: a
 ///   shift without loss (drift, a dielectric, a hand) is not metal.
@@ -44,12 +47,12 @@ pub struct MetalReader {
     front: Front,
     params: MetalParams,
     baseline: Ema<Shift>,
-    ring_baseline: Ema<i32>,
+    ring_baseline: Ema<u16>,
     /// The two baselines' current outputs (`baseline.value()`, 0 before
     /// the first sample, and `ring_baseline.value()`), kept as they change:
     /// each output is a rounding of a wide state, wanted on every reading.
     base: i64,
-    ring_base: Option<i32>,
+    ring_base: Option<u16>,
     learned: bool,
     detector: Detector<u64>,
     class: MetalClass,
@@ -103,7 +106,7 @@ impl MetalReader {
     fn learn(&mut self, s: Shift, ring_count: Option<u16>) {
         self.base = self.baseline.update(s).raw_q40();
         if let Some(rc) = ring_count {
-            self.ring_base = Some(self.ring_baseline.update(i32::from(rc)));
+            self.ring_base = Some(self.ring_baseline.update(rc));
         }
     }
 
@@ -111,16 +114,19 @@ impl MetalReader {
     #[inline(never)]
     pub fn read(&mut self, input: &Input) -> Reading {
         let s = match self.front.shift(input) {
-            Ok(s) => s,
+            // In the baseline's domain (|s| < 32, far beyond any reading),
+            // so that the difference below is exact.
+            Ok(s) => Shift::from_raw_q40(shift_domain(s.raw_q40())),
             Err(f) => return Reading::fault(f),
         };
         if !self.learned {
             self.learn(s, input.ring_count);
             self.learned = true;
         }
-        let delta = s.raw_q40().saturating_sub(self.base);
+        // Both within ±2^45: exact.
+        let delta = s.raw_q40() - self.base;
         let ring_drop = match (input.ring_count, self.ring_base) {
-            (Some(rc), Some(base)) => Some(base.saturating_sub(i32::from(rc))),
+            (Some(rc), Some(base)) => Some(i32::from(base) - i32::from(rc)),
             _ => None,
         };
         let lossy = self.params.ring_drop == 0
