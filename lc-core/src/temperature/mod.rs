@@ -33,7 +33,8 @@
 //!   1/T and its terms Q.60 (`i64`); the factor t multiplying L (1/B, or
 //!   B + C·L² with L² as a rounded 32-bit mantissa) as a rounded 32-bit
 //!   mantissa; 1/T as a rounded 32-bit mantissa before the reciprocal; the
-//!   quotient in centi-kelvin with 16 fractional bits, rounded to nearest;
+//!   quotient in centi-kelvin with 16 fractional bits (within a relative
+//!   1.25·2^-30, then rounded to nearest);
 //!   then the reading, rounded to nearest (ties upward).
 //! - Declared domain: −55 °C ..= +155 °C; ADC 10 ..= 16 bits; R25 100 Ω ..=
 //!   1 MΩ; B 2000 ..= 6000 K (Steinhart–Hart: B from 1/6000 to 1/2000 K⁻¹,
@@ -42,24 +43,26 @@
 //! - Bound against the `f64` twin (`convert_f64`), before the final
 //!   rounding, for any accepted configuration:
 //!
-//!   |ΔT| ≤ T²·(U′·ε_L + (|1/T − A| + 2·|C·L³|)·2^-32) + T·2^-32 + 7.6·10⁻⁸ K
+//!   |ΔT| ≤ T²·(U′·ε_L + (|1/T − A| + 2·|C·L³|)·2^-32) + T·(2^-32 + 1.25·2^-30) + 7.6·10⁻⁸ K
 //!
 //!   with U′ = d(1/T)/dL = B + 3·C·L² (1/B for Beta), A = 1/T25 for Beta,
-//!   and ε_L = 22·2^-32 ≈ 5.1·10⁻⁹ the error of L (6·2^-32 from the four
-//!   logarithms, 16·2^-32 from rounding L to Q5.27). Inside the declared
-//!   domain this is at most **1.25·10⁻⁶ K** (Beta: 6.9·10⁻⁷ K). The reading
-//!   adds its rounding: it is within **0.005 °C + 1.25·10⁻⁶ K** of the twin.
+//!   and ε_L = 23·2^-32 ≈ 5.4·10⁻⁹ the error of L (6.6·2^-32 from the four
+//!   logarithms, 16·2^-32 from rounding L to Q5.27). T·2^-32 is the
+//!   rounding of 1/T to a 32-bit mantissa, T·1.25·2^-30 the reciprocal's
+//!   (a chord of a 129-entry table and one Newton step, not corrected to
+//!   the exact quotient). Inside the declared domain this is at most
+//!   **1.75·10⁻⁶ K** (Beta: 1.21·10⁻⁶ K). The reading adds its rounding: it
+//!   is within **0.005 °C + 1.75·10⁻⁶ K** of the twin.
 //! - Against the crate's bar (docs/numerics.md), with the ADC's own step
 //!   in place of the counter's (one tenth of the step at that reading,
 //!   δT = T²·U′·N/(c·(N − c)) ≥ T²·U′·4/N, or one output LSB where that is
-//!   finer): the reading is within half an LSB plus 1.25 µK, so the bar
+//!   finer): the reading is within half an LSB plus 1.75 µK, so the bar
 //!   holds everywhere. The unrounded result alone is within a tenth of a
-//!   step up to 20 bits: over 2·10⁶ sampled points the bound formula
-//!   reaches 3.7·10⁻⁴ of a step at 16 bits and 6·10⁻³ at 20 bits. At 24 bits
-//!   the measured worst case is 0.06 of a step but the formula reaches
-//!   about 0.1, so 24 bits is not claimed.
+//!   step up to 20 bits: over 2·10⁶ sampled points the largest error is
+//!   3.9·10⁻⁴ of a step at 16 bits and 5.9·10⁻³ at 20 bits. At 24 bits it
+//!   reaches 0.10 of a step, so 24 bits is not claimed.
 //! - The property tests in `ntc.rs` assert the bound formula on every case,
-//!   1.25·10⁻⁶ K and a tenth of a step over the declared domain, the
+//!   1.75·10⁻⁶ K and a tenth of a step over the declared domain, the
 //!   formula and a tenth of a step for 8 ..= 20 bits and −100 ..= +300 °C,
 //!   and the formula for any accepted Steinhart–Hart coefficients.
 //!
@@ -68,23 +71,24 @@
 //!
 //! | range | law | max \|ΔT\| before rounding | max \|ΔT\| / ADC step | max reading error |
 //! |---|---|---|---|---|
-//! | declared domain (10–16 bits) | Beta | 4.7·10⁻⁷ K | 2.4·10⁻⁴ (at 16 bits) | 0.005 °C + 1.9·10⁻⁷ K |
-//! | declared domain (10–16 bits) | Steinhart–Hart | 7.5·10⁻⁷ K | 2.3·10⁻⁴ (at 16 bits) | 0.005 °C + 3.5·10⁻⁷ K |
-//! | 20 bits, −100 ..= +300 °C | either | 1.14·10⁻⁶ K | 3.6·10⁻³ | 0.005 °C + 2.9·10⁻⁷ K |
-//! | 24 bits, −55 ..= +155 °C | either | 7.4·10⁻⁷ K | 0.058 | 0.005 °C + 2.3·10⁻⁷ K |
+//! | declared domain (10–16 bits) | Beta | 5.8·10⁻⁷ K | 3.9·10⁻⁴ (at 16 bits) | 0.005 °C + 2.0·10⁻⁷ K |
+//! | declared domain (10–16 bits) | Steinhart–Hart | 8.8·10⁻⁷ K | 3.6·10⁻⁴ (at 16 bits) | 0.005 °C + 3.5·10⁻⁷ K |
+//! | 20 bits, −100 ..= +300 °C | either | 1.38·10⁻⁶ K | 5.9·10⁻³ | 0.005 °C + 5.1·10⁻⁷ K |
+//! | 24 bits, −55 ..= +155 °C | either | 8.9·10⁻⁷ K | 0.10 | 0.005 °C + 3.0·10⁻⁷ K |
 //!
 //! ## Cost per reading
 //!
-//! **No division.** Two integer logarithms sharing one k·ln 2 product (nine
-//! 32 × 32 → 64-bit products, two leading-zero counts), the law (Beta: one
-//! product; Steinhart–Hart with C ≠ 0: three, and two normalisations), a
-//! normalisation of 1/T and the reciprocal (six products: two Newton steps
-//! from a 128-entry `u16` seed table, the quotient estimate and its
-//! remainder). All products use [`crate::fixed::mul_u32_wide`]: 16 for
-//! Beta, 18 for Steinhart–Hart. The constants (ln(R_s/R25) or ln R_s, 1/B,
+//! **No division.** Two integer logarithms sharing one k·ln 2 from a table
+//! (six 32 × 32 → 64-bit products, two 16 × 16-bit ones, two leading-zero
+//! counts), the law (Beta: one product; Steinhart–Hart with C ≠ 0: three,
+//! and two normalisations), a normalisation of 1/T and the reciprocal
+//! (three products: a chord between two table nodes, one Newton step, the
+//! quotient). The wide products use [`crate::fixed::mul_u32_wide`]: 10 for
+//! Beta, 12 for Steinhart–Hart. The constants (ln(R_s/R25) or ln R_s, 1/B,
 //! the coefficients in fixed point) are computed once, at construction.
-//! Tables: 64 × 2 `u32` for the logarithm, 128 `u16` for the reciprocal
-//! (768 bytes).
+//! Tables: 64 × 2 `u32` and 32 `u64` for the logarithm, 129 `u32` for the
+//! reciprocal (1 284 bytes). On a Cortex-M0 a Beta conversion costs 634
+//! instructions (docs/performance.md).
 //!
 //! ## Example
 //!

@@ -5,7 +5,7 @@ use super::divider::Divider;
 use super::ln::{ln_q37, ln_ratio_q37};
 use super::model::{Beta, SteinhartHart, ZERO_C_K};
 use super::{CentiCelsius, ConfigError, TemperatureError};
-use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_shr_u64, shr_u64};
+use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_shr_u64};
 use core::num::NonZeroU64;
 
 /// 1/298.15 K in Q.60: round(2^60 · 100/29815).
@@ -62,23 +62,44 @@ fn normalise(v: u64) -> (u32, u32) {
     }
 }
 
-/// Seeds for Y ≈ 2^63/m: 2^16 / (1 + (i + 0.5)/128) rounded to nearest,
-/// for the 128 intervals m in [(256 + 2i)·2^23, (258 + 2i)·2^23). Relative
-/// error of the seed at most 1/257 + 2^-16 < 2^-7.9.
-const RECIPROCAL_SEED: [u16; 128] = reciprocal_seed();
+/// Nodes of Y ≈ 2^63/m for m = (128 + i)·2^24: round(2^32 · 128/(128 + i)),
+/// i in 0..=128 (2^32 at i = 0 held at 2^32 − 1). A chord between two
+/// neighbours is within 2^-16 (relative) of 2^63/m between them.
+const RECIPROCAL_NODES: [u32; 129] = reciprocal_nodes();
 
-const fn reciprocal_seed() -> [u16; 128] {
-    let mut table = [0u16; 128];
+const fn reciprocal_nodes() -> [u32; 129] {
+    let mut table = [0u32; 129];
     let mut i = 0;
-    while i < 128 {
-        // 2^47 / ((257 + 2i)·2^23) = 2^24 / (257 + 2i); i < 128, so the
-        // index cast is exact, and the result lies in (32_767, 65_282): the
-        // u16 cast is exact too.
-        let d = 257 + 2 * (i as u32);
-        table[i] = (((1u32 << 24) + d / 2) / d) as u16;
+    while i < 129 {
+        // 2^39 / (128 + i) rounded to nearest; i ≤ 128, so the index cast
+        // is exact and the value at most 2^32 (held at 2^32 − 1).
+        let d = 128 + i as u64;
+        let v = ((1u64 << 39) + d / 2) / d;
+        table[i] = if v > u32::MAX as u64 {
+            u32::MAX
+        } else {
+            v as u32
+        };
         i += 1;
     }
     table
+}
+
+/// Y ≈ 2^63/m for m ≥ 2^31 (so 2^31 < Y < 2^32), within a relative
+/// 1.25·2^-30: the chord between the two [`RECIPROCAL_NODES`] around m
+/// (relative error at most 2^-16 + 2^-22), then one Newton step
+/// ([`reciprocal_step`]: the error squared plus 2 units).
+#[inline]
+fn reciprocal(m: u32) -> u32 {
+    // Bits 24..30 pick the chord (masked to 7 bits: i + 1 ≤ 128 is in
+    // bounds), bits 8..23 the place on it.
+    let i = ((m >> 24) & 127) as usize;
+    let f = (m >> 8) & 0xFFFF;
+    let (a, b) = (RECIPROCAL_NODES[i], RECIPROCAL_NODES[i + 1]);
+    // a − b < 2^32/129 < 2^25: (a − b) >> 9 < 2^16, times f < 2^16 fits
+    // u32; dropping the low 9 bits costs under 2^9 units (2^-22).
+    let y0 = a - ((((a - b) >> 9) * f) >> 7);
+    reciprocal_step(m, y0)
 }
 
 /// One Newton step for Y ≈ 2^63/m (m ≥ 2^31, Y ≥ 2^31): with
@@ -103,51 +124,17 @@ fn reciprocal_step(m: u32, y: u32) -> u32 {
     }
 }
 
-/// round(100 · 2^sh / m), ties up, for m ≥ 2^31 and 32 ≤ sh ≤ 57, or
-/// `None` outside those or when the quotient is not below 2^32 − 8. No division: a seed from
-/// [`RECIPROCAL_SEED`] and two Newton steps give Y ≈ 2^63/m within about
-/// 3 units (relative (2^-7.9)^4 plus rounding); the quotient estimate
-/// (100·Y) >> (63 − sh) is then within 6 of the truth, and the exact
-/// remainder 100·2^sh − q·m corrects it to the floor. The result is
-/// therefore exactly that of the division (the tests compare the two;
-/// measured over 2·10^6 divisors: Y within 2 units, the estimate within 5).
-/// Cost: six 32 × 32 → 64-bit products.
+/// 100 · 2^sh / m rounded to nearest, within 1.25·2^-30 of it (relative)
+/// plus half a unit, for m ≥ 2^31 and 32 ≤ sh ≤ 57; `None` outside those.
+/// No division: (100 · Y) · 2^-(63 − sh) with Y ≈ 2^63/m from
+/// [`reciprocal`]. Cost: three 32 × 32 → 64-bit products.
 #[inline]
 fn quotient_nearest(m: u32, sh: u32) -> Option<u64> {
     if m < 1 << 31 || !(32..=57).contains(&sh) {
         return None;
     }
-    // m ≥ 2^31: bits 24..30 pick the interval; masked to 7 bits, the
-    // cast is exact and the index in bounds.
-    let seed = RECIPROCAL_SEED[((m >> 24) & 127) as usize];
-    let y = reciprocal_step(m, reciprocal_step(m, u32::from(seed) << 16));
-    // 100 · 2^sh with sh − 32 ≤ 25: 100 << 25 < 2^32, then a whole-word
-    // shift (no 64-bit variable shift on ARMv6-M).
-    let n = u64::from(100u32 << (sh - 32)) << 32;
-    let mut q = u32::try_from(shr_u64(mul_u32_wide(y, 100), 63 - sh)).ok()?;
-    let mut p = mul_u32_wide(q, m);
-    // Estimate too high: step down until q·m ≤ n.
-    for _ in 0..8 {
-        if p <= n {
-            break;
-        }
-        q = q.checked_sub(1)?;
-        p = p.checked_sub(u64::from(m))?;
-    }
-    let mut rem = n.checked_sub(p)?;
-    // Estimate too low: step up until the remainder is below m.
-    for _ in 0..8 {
-        if rem < u64::from(m) {
-            break;
-        }
-        q = q.checked_add(1)?;
-        rem -= u64::from(m);
-    }
-    if rem >= u64::from(m) || q > u32::MAX - 8 {
-        return None;
-    }
-    // rem < m < 2^32: 2·rem does not overflow.
-    Some(u64::from(q) + u64::from(2 * rem >= u64::from(m)))
+    // 100·Y < 2^39; the shift 63 − sh is in 6..=31.
+    Some(round_shr_u64(mul_u32_wide(reciprocal(m), 100), 63 - sh))
 }
 
 /// The cubic term's coefficient C = ±mant · 2^(−shift − 38), 2^31 ≤ mant <
@@ -335,8 +322,8 @@ impl NtcBeta {
     /// [`TemperatureError::SensorShorted`]), a code beyond the ADC's range
     /// ([`TemperatureError::CodeOutOfRange`]), a temperature outside
     /// [`MIN_READING`] ..= [`MAX_READING`] ([`TemperatureError::OutOfRange`]).
-    /// Cost: two integer logarithms, seven more 32 × 32 → 64-bit products
-    /// (one for the law, six for the reciprocal), no division.
+    /// Cost: two integer logarithms, four more 32 × 32 → 64-bit products
+    /// (one for the law, three for the reciprocal), no division.
     #[inline]
     pub fn convert(&self, code: u32) -> Result<CentiCelsius, TemperatureError> {
         self.law.convert(code)
@@ -446,8 +433,8 @@ impl NtcSteinhartHart {
     }
 
     /// The reading for one ADC code, rounded to the nearest 0.01 °C. Errors
-    /// as [`NtcBeta::convert`]. Cost: two integer logarithms, nine more
-    /// 32 × 32 → 64-bit products (three for the law, six for the
+    /// as [`NtcBeta::convert`]. Cost: two integer logarithms, six more
+    /// 32 × 32 → 64-bit products (three for the law, three for the
     /// reciprocal), no division.
     #[inline]
     pub fn convert(&self, code: u32) -> Result<CentiCelsius, TemperatureError> {
@@ -525,33 +512,54 @@ mod tests {
         assert_eq!(normalise(0x1_FFFF_FFFF), (1 << 31, 30));
     }
 
-    /// The division-free quotient is the division, rounded to nearest.
-    fn quotient_by_division(m: u32, sh: u32) -> Option<u64> {
-        let n = 100u64 << sh;
-        let d = u64::from(m);
-        let q = n / d + u64::from(2 * (n % d) >= d);
-        (n / d < u64::from(u32::MAX - 8)).then_some(q)
+    /// The quotient's stated bound against the exact 100 · 2^sh / m:
+    /// 1.25·2^-30 of it plus half a unit, checked in exact integers
+    /// (|q·m − 100·2^sh| ≤ 1.25·2^-30 · 100·2^sh + m/2).
+    fn quotient_within_bound(m: u32, sh: u32) -> bool {
+        let Some(q) = quotient_nearest(m, sh) else {
+            return false;
+        };
+        let n = 100u128 << sh;
+        let err = (u128::from(q) * u128::from(m)).abs_diff(n);
+        // 1.25·2^-30 · n = 5·n / 2^32; both sides times 2^32.
+        (err << 32) <= 5 * n + (u128::from(m) << 31)
+    }
+
+    /// The seed's chords: every node as stated, and the chord through
+    /// neighbouring nodes within 2^-16 of 2^63/m at the worst place of
+    /// each interval (its start, where the curvature is largest, sampled
+    /// densely).
+    #[test]
+    fn reciprocal_nodes_and_chords() {
+        for (i, &v) in RECIPROCAL_NODES.iter().enumerate() {
+            let exact = 2f64.powi(39) / (128.0 + i as f64);
+            assert!((f64::from(v) - exact).abs() <= 1.0, "node {i}");
+        }
+        let mut worst = 0.0f64;
+        for m in ((1u64 << 31)..(1u64 << 32)).step_by(4099) {
+            let m = m as u32;
+            let y = reciprocal(m);
+            let exact = 2f64.powi(63) / f64::from(m);
+            worst = worst.max((f64::from(y) - exact).abs() / exact);
+        }
+        assert!(
+            worst <= 1.25 * 2f64.powi(-30),
+            "worst {}·2^-30",
+            worst * 2f64.powi(30)
+        );
     }
 
     #[test]
     fn quotient_edges() {
         for sh in 32..=57 {
             for m in [1 << 31, (1 << 31) + 1, 3 << 30, u32::MAX - 1, u32::MAX] {
-                assert_eq!(
-                    quotient_nearest(m, sh),
-                    quotient_by_division(m, sh),
-                    "m {m} sh {sh}"
-                );
+                assert!(quotient_within_bound(m, sh), "m {m} sh {sh}");
             }
-            // Every seed interval, at both ends.
+            // Every chord, at both ends and in its middle.
             for i in 0..128u32 {
                 let lo = (1 << 31) + (i << 24);
-                for m in [lo, lo + ((1 << 24) - 1)] {
-                    assert_eq!(
-                        quotient_nearest(m, sh),
-                        quotient_by_division(m, sh),
-                        "m {m} sh {sh}"
-                    );
+                for m in [lo, lo + (1 << 23), lo + ((1 << 24) - 1)] {
+                    assert!(quotient_within_bound(m, sh), "m {m} sh {sh}");
                 }
             }
         }
@@ -770,8 +778,8 @@ mod tests {
 
     /// The analytic bound of the module docs for the unrounded result, from
     /// the law's own (rounded) constants and the twin's temperature:
-    /// T²·(U'·ε_L + (|L·t| + 2·|C·L³|)·2^-32) + T·2^-32 + 2^-17 cK, with
-    /// ε_L = 22 · 2^-32 and U' = b + 3·C·L².
+    /// T²·(U'·ε_L + (|L·t| + 2·|C·L³|)·2^-32) + T·(2^-32 + 1.25·2^-30)
+    /// + 2^-17 cK, with ε_L = 23 · 2^-32 and U' = b + 3·C·L².
     fn analytic_bound_k(law: &Law, code: u32, twin_c: f64) -> f64 {
         let p32 = 2f64.powi(-32);
         let t = twin_c + ZERO_C_K;
@@ -788,21 +796,21 @@ mod tests {
         });
         let slope = b + 3.0 * c * l * l;
         let lt = (l * (b + c * l * l)).abs();
-        t * t * (slope * 22.0 * p32 + (lt + 2.0 * (c * l * l * l).abs()) * p32)
-            + t * p32
+        t * t * (slope * 23.0 * p32 + (lt + 2.0 * (c * l * l * l).abs()) * p32)
+            + t * (p32 + 1.25 * 2f64.powi(-30))
             + 0.01 * 2f64.powi(-17)
             + 1e-11
     }
 
     /// The bound of the module docs inside the declared domain, before the
-    /// final rounding (the analytic bound's largest value there is
-    /// 1.22e-6 K, for Steinhart–Hart with C = 5e-7 at 155 °C).
-    const FINE_BOUND_K: f64 = 1.25e-6;
+    /// final rounding (the analytic bound's largest value over the sweep's
+    /// 2·10⁶ points there is 1.741e-6 K, Steinhart–Hart).
+    const FINE_BOUND_K: f64 = 1.75e-6;
 
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(20_000))]
 
-        /// Declared domain, Beta: the unrounded result within 1.6e-6 K and
+        /// Declared domain, Beta: the unrounded result within 1.75e-6 K and
         /// a tenth of the ADC step of the f64 twin; the reading within half
         /// an output LSB plus that.
         #[test]
@@ -837,7 +845,7 @@ mod tests {
         }
 
         /// Beyond the declared domain: 8 to 24 bits, −100 to +300 °C. The
-        /// analytic bound holds (at most 2e-6 K here), and up to 20 bits so
+        /// analytic bound holds (at most 2.7e-6 K here), and up to 20 bits so
         /// does a tenth of the step (24 bits: measured 0.06 of a step, the
         /// analytic bound reaches about 0.1).
         #[test]
@@ -914,11 +922,11 @@ mod tests {
             }
         }
 
-        /// The division-free quotient equals the rounded division for every
+        /// The division-free quotient is within its stated bound for every
         /// divisor and every shift the converter uses (and beyond).
         #[test]
-        fn quotient_is_the_division(m in (1u32 << 31).., sh in 32u32..=57) {
-            prop_assert_eq!(quotient_nearest(m, sh), quotient_by_division(m, sh));
+        fn quotient_is_within_its_bound(m in (1u32 << 31).., sh in 32u32..=57) {
+            prop_assert!(quotient_within_bound(m, sh), "m {} sh {}", m, sh);
         }
 
         /// Monotone: a higher NTC resistance never reads warmer. Low side,
