@@ -215,16 +215,35 @@ fn leading_zeros_words(x: u64) -> u32 {
     }
 }
 
-/// `x` as a 32-bit mantissa with its top bit set, rounded to nearest, and
-/// the exponent e with x ≈ m · 2^e. `x` must not be 0.
-fn mantissa32(x: u64) -> (u32, i32) {
-    let z = leading_zeros_u64(x); // x > 0: z ≤ 63
-    let v = shl_u64(x, z);
-    let top = (v >> 32) as u32; // the top half: exact
-    let e = 32 - z as i32; // z ≤ 63
-    match top.checked_add(((v >> 31) & 1) as u32) {
-        Some(m) => (m, e),
-        None => (1 << 31, e + 1), // rounded up to 2^32
+/// `v` as a 32-bit mantissa m (2^31 ≤ m < 2^32), rounded to nearest, and z
+/// with v ≈ m · 2^(32 − z); (0, 32) for v = 0. Relative error ≤ 2^-32.
+/// Done in 32-bit halves: ARMv6-M has no 64-bit shift or count of leading
+/// zeros, and each would be a library call. The level ratio ([`div_q40`])
+/// and the NTC conversion use it.
+#[inline]
+pub(crate) fn normalise(v: u64) -> (u32, u32) {
+    let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
+    let (z, top, round) = if hi != 0 {
+        let z = leading_zeros_u32(hi); // 0..=31
+        let top = if z == 0 {
+            hi
+        } else {
+            (hi << z) | (lo >> (32 - z))
+        };
+        (z, top, (lo << z) >> 31)
+    } else if lo != 0 {
+        let z = leading_zeros_u32(lo);
+        (32 + z, lo << z, 0)
+    } else {
+        return (0, 32);
+    };
+    match top.checked_add(round) {
+        Some(m) => (m, z),
+        // Rounded up to 2^32: 2^31 at the next exponent. z ≥ 1 here, since
+        // with z = 0 the value would need 64 bits and a set rounding bit,
+        // which only v ≥ 2^64 − 2^31 has; those are not passed (|values|
+        // < 2^61), and `saturating_sub` keeps even them panic-free.
+        None => (1 << 31, z.saturating_sub(1)),
     }
 }
 
@@ -245,105 +264,80 @@ fn shl_u64(x: u64, sh: u32) -> u64 {
     }
 }
 
-/// Quotient and remainder of `a · 2^32 / b` for normalised `a`, `b` (top
-/// bit set): the quotient lies in (2^31, 2^33). Exact. On ARMv6-M, which
-/// has no divide instruction, a reciprocal by Newton steps and a corrected
-/// estimate ([`div_normalised_newton`]) replace the library's 64 ÷ 64-bit
-/// division.
-#[inline]
-fn div_normalised(a: u32, b: u32) -> (u64, u32) {
-    if ARMV6M {
-        div_normalised_newton(a, b)
-    } else {
-        let n = u64::from(a) << 32;
-        let d = u64::from(b.max(1));
-        (n / d, (n % d) as u32) // remainder < d < 2^32
-    }
-}
-
-/// 2^40/(256 + i + 1/2) rounded, for i in 0..256: the reciprocal of a
-/// normalised divisor from its top 9 bits, to about 2^-9 (the seed of
-/// [`div_normalised_newton`]). 512 bytes of flash.
-const RECIPROCAL_SEED: [u16; 256] = {
-    let mut t = [0u16; 256];
+/// Nodes of Y ≈ 2^63/m for m = (128 + i)·2^24: round(2^32 · 128/(128 + i)),
+/// i in 0..=128 (2^32 at i = 0 held at 2^32 − 1). A chord between two
+/// neighbours is within 2^-16 (relative) of 2^63/m between them. 516 bytes
+/// of flash.
+const RECIPROCAL_NODES: [u32; 129] = {
+    let mut table = [0u32; 129];
     let mut i = 0;
-    while i < 256 {
-        // 2^25/(513 + 2i) lies in (32 799, 65 409): fits u16.
-        let d = 513 + 2 * i as u64;
-        t[i] = ((((1u64 << 25) << 1) / d + 1) >> 1) as u16;
+    while i < 129 {
+        // 2^39 / (128 + i) rounded to nearest; i ≤ 128, so the index cast
+        // is exact and the value at most 2^32 (held at 2^32 − 1).
+        let d = 128 + i as u64;
+        let v = ((1u64 << 39) + d / 2) / d;
+        table[i] = if v > u32::MAX as u64 {
+            u32::MAX
+        } else {
+            v as u32
+        };
         i += 1;
     }
-    t
+    table
 };
 
-/// [`div_normalised`] with multiplies only (ARMv6-M has no divide but a
-/// 32-bit multiply): a reciprocal v ≈ 2^63/b from [`RECIPROCAL_SEED`] and
-/// two Newton steps v += v·(2^63 − b·v)/2^63, the quotient estimate
-/// a·v·2^-31, and the exact remainder a·2^32 − q·b to correct it (a few
-/// steps at most). Exact; compiled everywhere so host tests hold it equal
-/// to the division.
+/// One Newton step for Y ≈ 2^63/m (m ≥ 2^31, Y ≥ 2^31): with
+/// Y = (2^63/m)(1 − ε), Y' = Y + Y·ε from the exact residual 2^63 − m·Y.
+/// The new relative error is ε² plus at most 2 units of Y (the residual's
+/// low 31 bits and the product's low 32 bits are dropped). Y saturates at
+/// 2^32 − 1 (1 unit below 2^63/2^31).
 #[inline]
-fn div_normalised_newton(a: u32, b: u32) -> (u64, u32) {
-    let b = b | (1 << 31); // normalised by contract; keeps the seed's index in range
-    let mut v = u32::from(RECIPROCAL_SEED[((b >> 23) & 0xFF) as usize]) << 16;
-    for _ in 0..2 {
-        // e = 2^63 − b·v, |e| < 2^56: its top bits times v.
-        let e = (1u64 << 63).wrapping_sub(mul_u32_wide(b, v)) as i64;
-        let e31 = (e >> 31) as i32; // |e| < 2^56: fits after the shift
-        let corr = (mul_u32_wide(v, e31.unsigned_abs()) >> 32) as u32;
-        v = if e31 < 0 {
-            v.wrapping_sub(corr)
-        } else {
-            v.saturating_add(corr)
-        };
+fn reciprocal_step(m: u32, y: u32) -> u32 {
+    const ONE: u64 = 1 << 63;
+    let p = mul_u32_wide(m, y); // ≥ 2^62, < 2^64
+    if p <= ONE {
+        // ONE − p ≤ 2^62: the shifted residual is below 2^31, the cast exact.
+        let d = ((ONE - p) >> 31) as u32;
+        // y·d < 2^64: the top half fits u32, the cast is exact.
+        y.saturating_add((mul_u32_wide(y, d) >> 32) as u32)
+    } else {
+        // p − ONE < 2^63: the shifted residual is below 2^32, the cast exact.
+        let d = ((p - ONE) >> 31) as u32;
+        // y·d/2^32 < y: no underflow.
+        y - (mul_u32_wide(y, d) >> 32) as u32
     }
-    // q ≈ a·2^32/b = a·v·2^-31, within a few units.
-    let mut q = mul_u32_wide(a, v) >> 31;
-    let n = u64::from(a) << 32;
-    let qb =
-        mul_u32_wide(q as u32, b).wrapping_add(u64::from(((q >> 32) as u32).wrapping_mul(b)) << 32);
-    // |r| is a few times b: exact in wrapping i64 arithmetic.
-    let mut r = n.wrapping_sub(qb) as i64;
-    let b64 = i64::from(b);
-    for _ in 0..64 {
-        if r < 0 {
-            q = q.wrapping_sub(1);
-            r += b64;
-        } else if r >= b64 {
-            q = q.wrapping_add(1);
-            r -= b64;
-        } else {
-            break;
-        }
-    }
-    (q, r as u32) // 0 ≤ r < b after the correction
 }
 
-/// [`div_normalised`] by restoring division, one quotient bit per step:
-/// the plain method, kept as a second reference for the tests.
-#[cfg(test)]
-fn div_normalised_steps(a: u32, b: u32) -> (u64, u32) {
-    // The top quotient bit: a/b < 2 for normalised operands.
-    let (top, mut r) = if a >= b { (1u64, a - b) } else { (0, a) };
-    let mut q: u32 = 0;
-    for _ in 0..32 {
-        // r < b: 2r < 2^33; its carry out of 32 bits means 2r ≥ b.
-        // Branch-free: the step's bit selects the subtraction by a mask.
-        let carry = r >> 31;
-        r <<= 1;
-        let bit = carry | u32::from(r >= b);
-        r = r.wrapping_sub(b & bit.wrapping_neg());
-        q = (q << 1) | bit;
-    }
-    ((top << 32) | u64::from(q), r)
+/// Y ≈ 2^63/m for a normalised m (top bit set; so 2^31 < Y < 2^32),
+/// within a relative 1.25·2^-30 (measured 0.74·2^-30): the chord between
+/// the two [`RECIPROCAL_NODES`] around m (relative error at most 2^-16 +
+/// 2^-22), then one Newton step ([`reciprocal_step`]: the error squared
+/// plus 2 units). No division: three multiplies (two of them 32 × 32 →
+/// 64-bit), about 80 instructions on a Cortex-M0. The level ratio
+/// ([`div_q40`]) and the NTC's temperature from 1/T use it.
+#[inline]
+pub(crate) fn reciprocal_q63(m: u32) -> u32 {
+    let m = m | (1 << 31); // normalised by contract; keeps Y in range
+                           // Bits 24..30 pick the chord (masked to 7 bits: i + 1 ≤ 128 is in
+                           // bounds), bits 8..23 the place on it.
+    let i = ((m >> 24) & 127) as usize;
+    let f = (m >> 8) & 0xFFFF;
+    let (a, b) = (RECIPROCAL_NODES[i], RECIPROCAL_NODES[i + 1]);
+    // a − b < 2^32/129 < 2^25: (a − b) >> 9 < 2^16, times f < 2^16 fits
+    // u32; dropping the low 9 bits costs under 2^9 units (2^-22).
+    let y0 = a - ((((a - b) >> 9) * f) >> 7);
+    reciprocal_step(m, y0)
 }
 
-/// The quotient a/b in Q.40, `round(a · 2^40 / b)` to within a relative
-/// 3·2^-32 (< 2^-31), or `None` when b is zero or the quotient does not fit
-/// an `i64`. One division: both operands are first rounded to 32-bit
-/// mantissas (relative error ≤ 2^-32 each), then the mantissas are divided
-/// once (exactly; on ARMv6-M by multiplies, without a divide) and the
-/// quotient rounded to nearest (≤ 2^-32).
+/// The quotient a/b in Q.40, a · 2^40 / b to within a relative 2^-29
+/// plus half a unit, or `None` when b is zero or the quotient does not fit
+/// an `i64`. No division: both operands are rounded to 32-bit mantissas
+/// (relative error ≤ 2^-32 each), the divisor's reciprocal comes from
+/// a table chord and one Newton step (≤ 1.25·2^-30; the same reciprocal
+/// as the NTC conversion's), their product is rounded to Q.40
+/// (≤ 2^-32 relative, or half a unit): 7·2^-32 in all, stated as 2^-29.
+/// For the level reader's ratio of two shifts, far finer than `f32` (2^-24)
+/// and than the counts behind the shifts.
 pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
         return None;
@@ -352,21 +346,21 @@ pub fn div_q40(a: i64, b: i64) -> Option<i64> {
         return Some(0);
     }
     let negative = (a < 0) != (b < 0);
-    let (ma, ea) = mantissa32(a.unsigned_abs());
-    let (mb, eb) = mantissa32(b.unsigned_abs());
-    // ma·2^32/mb lies in (2^31, 2^33): the one division.
-    let (q, r) = div_normalised(ma, mb);
-    let q = if r >= mb - r { q + 1 } else { q };
-    // a/b ≈ q · 2^(ea − eb − 32); in Q.40: q · 2^(ea − eb + 8).
-    let sh = ea - eb + 8;
+    // |a|, |b| ≤ 2^63: a ≈ ma · 2^(32 − za), b ≈ mb · 2^(32 − zb).
+    let (ma, za) = normalise(a.unsigned_abs());
+    let (mb, zb) = normalise(b.unsigned_abs());
+    // ma·Y ≈ ma·2^63/mb lies in [2^62, 2^64).
+    let p = mul_u32_wide(ma, reciprocal_q63(mb));
+    // a/b ≈ p · 2^(zb − za − 63); in Q.40: p · 2^(zb − za − 23). z ≤ 63.
+    let sh = zb as i32 - za as i32 - 23;
     let q = if sh >= 0 {
         let sh = sh.unsigned_abs();
-        if sh >= 64 || leading_zeros_u64(q) <= sh {
+        if sh >= 64 || leading_zeros_u64(p) <= sh {
             return None;
         }
-        shl_u64(q, sh)
+        shl_u64(p, sh)
     } else {
-        round_shr_u64(q, sh.unsigned_abs())
+        round_shr_u64(p, sh.unsigned_abs())
     };
     let q = i64::try_from(q).ok()?;
     Some(if negative { -q } else { q })
@@ -384,13 +378,10 @@ mod tests {
     use proptest::prelude::*;
 
     proptest! {
-        /// The ARMv6-M forms (restoring division, binary-search count of
-        /// leading zeros, shifts in words) equal the native operations.
+        /// The ARMv6-M forms (binary-search count of leading zeros, shifts
+        /// in words) equal the native operations.
         #[test]
-        fn armv6m_forms_equal_the_native_operations(a in (1u32 << 31).., b in (1u32 << 31).., x: u64, sh in 0u32..64) {
-            let n = u64::from(a) << 32;
-            prop_assert_eq!(div_normalised_steps(a, b), (n / u64::from(b), (n % u64::from(b)) as u32));
-            prop_assert_eq!(div_normalised_newton(a, b), (n / u64::from(b), (n % u64::from(b)) as u32));
+        fn armv6m_forms_equal_the_native_operations(x: u64, sh in 0u32..64) {
             prop_assert_eq!(leading_zeros_words(x), x.leading_zeros());
             prop_assert_eq!(leading_zeros_words(x >> sh), (x >> sh).leading_zeros());
             prop_assert_eq!(leading_zeros_steps((x >> sh) as u32), ((x >> sh) as u32).leading_zeros());
@@ -398,33 +389,57 @@ mod tests {
             prop_assert_eq!(shr_u64_words(x, sh), x >> sh);
         }
 
+        /// The reciprocal within its stated 1.25·2^-30 for any normalised
+        /// m, checked in exact integers: |Y·m − 2^63| ≤ 1.25·2^-30 · 2^63.
+        #[test]
+        fn reciprocal_within_its_bound(m in (1u32 << 31)..) {
+            let err = (u128::from(reciprocal_q63(m)) * u128::from(m)).abs_diff(1 << 63);
+            prop_assert!(err <= 5 << 31, "m {} err {}", m, err);
+        }
+    }
+
+    /// The chords' nodes as stated, and the reciprocal within its bound at
+    /// both ends and the middle of every chord and on a dense sweep (the
+    /// worst relative error seen is 0.74·2^-30).
+    #[test]
+    fn reciprocal_nodes_and_chords() {
+        for (i, &v) in RECIPROCAL_NODES.iter().enumerate() {
+            let exact = 2f64.powi(39) / (128.0 + i as f64);
+            assert!((f64::from(v) - exact).abs() <= 1.0, "node {i}");
+        }
+        let mut ms: Vec<u32> = (0u32..128)
+            .flat_map(|i| {
+                let lo = (1 << 31) + (i << 24);
+                [lo, lo + 1, lo + (1 << 23), lo + ((1 << 24) - 1)]
+            })
+            .collect();
+        ms.extend(((1u64 << 31)..(1u64 << 32)).step_by(4099).map(|m| m as u32));
+        let worst = ms
+            .iter()
+            .map(|&m| {
+                let exact = 2f64.powi(63) / f64::from(m);
+                (f64::from(reciprocal_q63(m)) - exact).abs() / exact
+            })
+            .fold(0.0, f64::max);
+        assert!(
+            worst <= 0.75 * 2f64.powi(-30),
+            "worst {}·2^-30",
+            worst * 2f64.powi(30)
+        );
+    }
+
+    #[test]
+    fn normalised_mantissas() {
+        assert_eq!(normalise(0), (0, 32));
+        assert_eq!(normalise(1), (1 << 31, 63));
+        assert_eq!(normalise(u64::MAX >> 1), (1 << 31, 0));
+        assert_eq!(normalise(3 << 40), (3 << 30, 22));
+        assert_eq!(normalise(0xFFFF_FFFF_7FFF_FFFF), (u32::MAX, 0));
+        assert_eq!(normalise(0x1_FFFF_FFFF), (1 << 31, 30));
     }
 
     #[test]
     fn armv6m_forms_at_the_edges() {
-        for (a, b) in [
-            (1u32 << 31, 1u32 << 31),
-            (u32::MAX, 1 << 31),
-            (1 << 31, u32::MAX),
-            (u32::MAX, u32::MAX),
-        ] {
-            let n = u64::from(a) << 32;
-            assert_eq!(
-                div_normalised_steps(a, b),
-                (n / u64::from(b), (n % u64::from(b)) as u32)
-            );
-        }
-        // Both ends of every seed interval, with the smallest and largest
-        // dividends: the Newton steps and the correction always land.
-        for i in 0u32..256 {
-            for b in [(1 << 31) | (i << 23), (1 << 31) | (i << 23) | 0x7F_FFFF] {
-                for a in [1u32 << 31, b, b.wrapping_sub(1) | (1 << 31), u32::MAX] {
-                    let n = u64::from(a) << 32;
-                    let want = (n / u64::from(b), (n % u64::from(b)) as u32);
-                    assert_eq!(div_normalised_newton(a, b), want, "{a} / {b}");
-                }
-            }
-        }
         for x in [0u64, 1, 1 << 31, 1 << 32, 1 << 63, u64::MAX] {
             assert_eq!(leading_zeros_words(x), x.leading_zeros());
             assert_eq!(shr_u64_words(x, 64), 0);
@@ -526,7 +541,7 @@ mod tests {
         fn q40_division_within_its_bound(a: i64, b: i64) {
             if let Some(q) = div_q40(a, b) {
                 let exact = (a as f64) / (b as f64) * 2f64.powi(40);
-                prop_assert!((q as f64 - exact).abs() <= exact.abs() * 3.0 * 2f64.powi(-32) + 1.0, "{} vs {}", q, exact);
+                prop_assert!((q as f64 - exact).abs() <= exact.abs() * 2f64.powi(-29) + 1.0, "{} vs {}", q, exact);
             } else {
                 let exact = (a as f64) / (b as f64) * 2f64.powi(40);
                 prop_assert!(b == 0 || exact.abs() >= 2f64.powi(62), "refused {} / {}", a, b);

@@ -372,7 +372,9 @@ impl ShiftConverter {
 fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
     // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp). Done in 32-bit
     // halves: ARMv6-M has no 64-bit shift or count of leading zeros, and
-    // each would be a library call.
+    // each would be a library call. `fixed::normalise` does the same for
+    // values below 2^64 − 2^31; x may reach 2^64 − 1, where the rounding
+    // carries to z = −1, so the shift keeps its own form.
     let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
     let (z, top, round) = if hi != 0 {
         let z = leading_zeros_u32(hi); // 0..=31

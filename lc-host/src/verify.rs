@@ -12,7 +12,7 @@
 //! | shift | `ShiftConverter::shift` | `shift_f64` | `shift::error_bound` |
 //! | drift | `TemperatureModel::compensate` | `compensate_f64` | `TemperatureModel::error_bound` |
 //! | curve | `Curve::eval` | `Curve::eval_f64` | `Curve::error_bound` |
-//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's: slope · ((e_s + \|q\|·e_r)/\|r\| + \|q\|·3·2^-32) |
+//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's: slope · ((e_s + \|q\|·e_r)/\|r\| + \|q\|·2^-29) |
 //!
 //! Errors are also reported relative to the counter's quantisation step at
 //! each point (one tick: δs = 2·(1 + s)/ticks; in output units times the
@@ -370,7 +370,7 @@ pub fn verify(
                 None => (curve.error_bound(d_fix) + slope.abs() * e_s, step_y),
                 Some((rc, ref_pair)) => {
                     // q = s_c / r_c, each compensated; to first order
-                    // |Δq| ≤ (e_s + |q|·e_r)/|r_c| + |q|·3·2^-32 (the
+                    // |Δq| ≤ (e_s + |q|·e_r)/|r_c| + |q|·2^-29 (the
                     // division's own bound), with a margin for the second
                     // order.
                     let r_raw = rc.shift_f64(*ref_pair);
@@ -379,7 +379,7 @@ pub fn verify(
                     let q = r.shift.to_f64();
                     let slope_q = (curve.eval_f64(q + h) - curve.eval_f64(q - h)) / (2.0 * h);
                     let e_q = ((e_s + q.abs() * e_r) / r_c.abs()
-                        + q.abs() * 6.984_919_309_616_089e-10)
+                        + q.abs() * 1.862_645_149_230_957e-9)
                         * (1.0 + 1e-6);
                     (
                         curve.error_bound(r.shift) + slope_q.abs() * e_q,

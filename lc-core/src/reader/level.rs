@@ -17,7 +17,8 @@ use crate::shift::{Shift, ShiftConverter};
 ///   q = s_probe / s_reference to the level. Both shifts grow in proportion
 ///   to the liquid's permittivity minus one, so q, and the level, do not
 ///   move when the permittivity drifts with temperature or composition.
-///   One division per reading (`fixed::div_q40`, relative error ≤ 3·2^-32).
+///   One division per reading (`fixed::div_q40`: a reciprocal and a
+///   product, relative error ≤ 2^-29).
 ///   The temperature model, when given a temperature, applies to both.
 /// - With a volume table, the level is also turned into a volume (vertical
 ///   tank: linear; horizontal cylinder or strapping table: the table).

@@ -15,9 +15,9 @@
 //!    - [`NtcSteinhartHart`]: 1/T = A + B·ln R + C·(ln R)³ (Steinhart &
 //!      Hart, *Deep-Sea Research* 15(4):497–503, 1968).
 //! 4. T = 1/(1/T), straight into centi-kelvin, without a division: a
-//!    reciprocal seed table and two Newton steps, then an exact remainder
-//!    correction, so the quotient is bit for bit the rounded division;
-//!    then rounded to 0.01 °C.
+//!    reciprocal from the chord between two nodes of a 129-entry table
+//!    and one Newton step, within a relative 1.25·2^-30 (the same
+//!    reciprocal as the level reader's ratio); then rounded to 0.01 °C.
 //!
 //! [`Beta`], [`SteinhartHart`] and [`steinhart_hart_fit`] are the same laws
 //! in `f64`, forward (R from T, for the host simulator) and inverse (the

@@ -5,7 +5,7 @@ use super::divider::Divider;
 use super::ln::{ln_q37, ln_ratio_q37};
 use super::model::{Beta, SteinhartHart, ZERO_C_K};
 use super::{CentiCelsius, ConfigError, TemperatureError};
-use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_shr_u64};
+use crate::fixed::{mul_u32_wide, normalise, reciprocal_q63, round_shr_u64};
 use core::num::NonZeroU64;
 
 /// 1/298.15 K in Q.60: round(2^60 · 100/29815).
@@ -31,110 +31,18 @@ const ZERO_C_CENTI_K: i32 = 27_315;
 /// rounding.
 const FINE_BITS: u32 = 16;
 
-/// `v` as a 32-bit mantissa m (2^31 ≤ m < 2^32), rounded to nearest, and z
-/// with v ≈ m · 2^(32 − z); (0, 32) for v = 0. Relative error ≤ 2^-32.
-/// Done in 32-bit halves: ARMv6-M has no 64-bit shift or count of leading
-/// zeros, and each would be a library call.
-#[inline]
-fn normalise(v: u64) -> (u32, u32) {
-    let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
-    let (z, top, round) = if hi != 0 {
-        let z = leading_zeros_u32(hi); // 0..=31
-        let top = if z == 0 {
-            hi
-        } else {
-            (hi << z) | (lo >> (32 - z))
-        };
-        (z, top, (lo << z) >> 31)
-    } else if lo != 0 {
-        let z = leading_zeros_u32(lo);
-        (32 + z, lo << z, 0)
-    } else {
-        return (0, 32);
-    };
-    match top.checked_add(round) {
-        Some(m) => (m, z),
-        // Rounded up to 2^32: 2^31 at the next exponent. z ≥ 1 here, since
-        // with z = 0 the value would need 64 bits and a set rounding bit,
-        // which only v ≥ 2^64 − 2^31 has; those are not passed (|values|
-        // < 2^61), and `saturating_sub` keeps even them panic-free.
-        None => (1 << 31, z.saturating_sub(1)),
-    }
-}
-
-/// Nodes of Y ≈ 2^63/m for m = (128 + i)·2^24: round(2^32 · 128/(128 + i)),
-/// i in 0..=128 (2^32 at i = 0 held at 2^32 − 1). A chord between two
-/// neighbours is within 2^-16 (relative) of 2^63/m between them.
-const RECIPROCAL_NODES: [u32; 129] = reciprocal_nodes();
-
-const fn reciprocal_nodes() -> [u32; 129] {
-    let mut table = [0u32; 129];
-    let mut i = 0;
-    while i < 129 {
-        // 2^39 / (128 + i) rounded to nearest; i ≤ 128, so the index cast
-        // is exact and the value at most 2^32 (held at 2^32 − 1).
-        let d = 128 + i as u64;
-        let v = ((1u64 << 39) + d / 2) / d;
-        table[i] = if v > u32::MAX as u64 {
-            u32::MAX
-        } else {
-            v as u32
-        };
-        i += 1;
-    }
-    table
-}
-
-/// Y ≈ 2^63/m for m ≥ 2^31 (so 2^31 < Y < 2^32), within a relative
-/// 1.25·2^-30: the chord between the two [`RECIPROCAL_NODES`] around m
-/// (relative error at most 2^-16 + 2^-22), then one Newton step
-/// ([`reciprocal_step`]: the error squared plus 2 units).
-#[inline]
-fn reciprocal(m: u32) -> u32 {
-    // Bits 24..30 pick the chord (masked to 7 bits: i + 1 ≤ 128 is in
-    // bounds), bits 8..23 the place on it.
-    let i = ((m >> 24) & 127) as usize;
-    let f = (m >> 8) & 0xFFFF;
-    let (a, b) = (RECIPROCAL_NODES[i], RECIPROCAL_NODES[i + 1]);
-    // a − b < 2^32/129 < 2^25: (a − b) >> 9 < 2^16, times f < 2^16 fits
-    // u32; dropping the low 9 bits costs under 2^9 units (2^-22).
-    let y0 = a - ((((a - b) >> 9) * f) >> 7);
-    reciprocal_step(m, y0)
-}
-
-/// One Newton step for Y ≈ 2^63/m (m ≥ 2^31, Y ≥ 2^31): with
-/// Y = (2^63/m)(1 − ε), Y' = Y + Y·ε from the exact residual 2^63 − m·Y.
-/// The new relative error is ε² plus at most 2 units of Y (the residual's
-/// low 31 bits and the product's low 32 bits are dropped). Y saturates at
-/// 2^32 − 1 (1 unit below 2^63/2^31).
-#[inline]
-fn reciprocal_step(m: u32, y: u32) -> u32 {
-    const ONE: u64 = 1 << 63;
-    let p = mul_u32_wide(m, y); // ≥ 2^62, < 2^64
-    if p <= ONE {
-        // ONE − p ≤ 2^62: the shifted residual is below 2^31, the cast exact.
-        let d = ((ONE - p) >> 31) as u32;
-        // y·d < 2^64: the top half fits u32, the cast is exact.
-        y.saturating_add((mul_u32_wide(y, d) >> 32) as u32)
-    } else {
-        // p − ONE < 2^63: the shifted residual is below 2^32, the cast exact.
-        let d = ((p - ONE) >> 31) as u32;
-        // y·d/2^32 < y: no underflow.
-        y - (mul_u32_wide(y, d) >> 32) as u32
-    }
-}
-
 /// 100 · 2^sh / m rounded to nearest, within 1.25·2^-30 of it (relative)
 /// plus half a unit, for m ≥ 2^31 and 32 ≤ sh ≤ 57; `None` outside those.
 /// No division: (100 · Y) · 2^-(63 − sh) with Y ≈ 2^63/m from
-/// [`reciprocal`]. Cost: three 32 × 32 → 64-bit products.
+/// [`reciprocal_q63`] (a chord of a 129-entry table and one Newton step).
+/// Cost: three 32 × 32 → 64-bit products.
 #[inline]
 fn quotient_nearest(m: u32, sh: u32) -> Option<u64> {
     if m < 1 << 31 || !(32..=57).contains(&sh) {
         return None;
     }
     // 100·Y < 2^39; the shift 63 − sh is in 6..=31.
-    Some(round_shr_u64(mul_u32_wide(reciprocal(m), 100), 63 - sh))
+    Some(round_shr_u64(mul_u32_wide(reciprocal_q63(m), 100), 63 - sh))
 }
 
 /// The cubic term's coefficient C = ±mant · 2^(−shift − 38), 2^31 ≤ mant <
@@ -504,12 +412,6 @@ mod tests {
         );
         assert!((Q60 / U_MIN_Q60 as f64 - 573.15).abs() < 1e-9);
         assert!((Q60 / U_MAX_Q60 as f64 - 173.15).abs() < 1e-9);
-        assert_eq!(normalise(0), (0, 32));
-        assert_eq!(normalise(1), (1 << 31, 63));
-        assert_eq!(normalise(u64::MAX >> 1), (1 << 31, 0));
-        assert_eq!(normalise(3 << 40), (3 << 30, 22));
-        assert_eq!(normalise(0xFFFF_FFFF_7FFF_FFFF), (u32::MAX, 0));
-        assert_eq!(normalise(0x1_FFFF_FFFF), (1 << 31, 30));
     }
 
     /// The quotient's stated bound against the exact 100 · 2^sh / m:
@@ -523,30 +425,6 @@ mod tests {
         let err = (u128::from(q) * u128::from(m)).abs_diff(n);
         // 1.25·2^-30 · n = 5·n / 2^32; both sides times 2^32.
         (err << 32) <= 5 * n + (u128::from(m) << 31)
-    }
-
-    /// The seed's chords: every node as stated, and the chord through
-    /// neighbouring nodes within 2^-16 of 2^63/m at the worst place of
-    /// each interval (its start, where the curvature is largest, sampled
-    /// densely).
-    #[test]
-    fn reciprocal_nodes_and_chords() {
-        for (i, &v) in RECIPROCAL_NODES.iter().enumerate() {
-            let exact = 2f64.powi(39) / (128.0 + i as f64);
-            assert!((f64::from(v) - exact).abs() <= 1.0, "node {i}");
-        }
-        let mut worst = 0.0f64;
-        for m in ((1u64 << 31)..(1u64 << 32)).step_by(4099) {
-            let m = m as u32;
-            let y = reciprocal(m);
-            let exact = 2f64.powi(63) / f64::from(m);
-            worst = worst.max((f64::from(y) - exact).abs() / exact);
-        }
-        assert!(
-            worst <= 1.25 * 2f64.powi(-30),
-            "worst {}·2^-30",
-            worst * 2f64.powi(30)
-        );
     }
 
     #[test]
