@@ -646,7 +646,7 @@ mod tests {
                 prop_assert!(!(1..=16).contains(&k));
                 return Ok(());
             };
-            let mut hull = |lo: &mut i64, hi: &mut i64, x: i64, y: i64| {
+            let hull = |lo: &mut i64, hi: &mut i64, x: i64, y: i64| {
                 *lo = (*lo).min(x);
                 *hi = (*hi).max(x);
                 *lo <= y && y <= *hi
