@@ -227,7 +227,8 @@ mod private {
         const FRAC_BITS: u32;
         /// x · 2^F, exact.
         fn ema_init(self) -> Self::Acc;
-        /// acc + round((x · 2^F − acc) · 2^-k), ties toward +∞.
+        /// acc + round((x · 2^F − acc) · 2^-k), ties toward +∞ (`u16`:
+        /// toward the input).
         fn ema_step(acc: Self::Acc, x: Self, k: u32) -> Self::Acc;
         /// round(acc · 2^-F), ties toward +∞.
         fn ema_output(acc: Self::Acc) -> Self;
