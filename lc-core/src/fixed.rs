@@ -217,33 +217,45 @@ fn leading_zeros_words(x: u64) -> u32 {
 
 /// `v` as a 32-bit mantissa m (2^31 ≤ m < 2^32), rounded to nearest, and z
 /// with v ≈ m · 2^(32 − z); (0, 32) for v = 0. Relative error ≤ 2^-32.
-/// Done in 32-bit halves: ARMv6-M has no 64-bit shift or count of leading
-/// zeros, and each would be a library call. The level ratio ([`div_q40`])
-/// and the NTC conversion use it.
+/// Done in 32-bit halves ([`normalise_parts`]): ARMv6-M has no 64-bit shift
+/// or count of leading zeros, and each would be a library call. The level
+/// ratio ([`div_q40`]) and the NTC conversion use it.
 #[inline]
 pub(crate) fn normalise(v: u64) -> (u32, u32) {
-    let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
-    let (z, top, round) = if hi != 0 {
-        let z = leading_zeros_u32(hi); // 0..=31
-        let top = if z == 0 {
-            hi
-        } else {
-            (hi << z) | (lo >> (32 - z))
-        };
-        (z, top, (lo << z) >> 31)
-    } else if lo != 0 {
-        let z = leading_zeros_u32(lo);
-        (32 + z, lo << z, 0)
-    } else {
+    let Some((z, top, round)) = normalise_parts(v) else {
         return (0, 32);
     };
     match top.checked_add(round) {
         Some(m) => (m, z),
         // Rounded up to 2^32: 2^31 at the next exponent. z ≥ 1 here, since
         // with z = 0 the value would need 64 bits and a set rounding bit,
-        // which only v ≥ 2^64 − 2^31 has; those are not passed (|values|
-        // < 2^61), and `saturating_sub` keeps even them panic-free.
+        // which only v ≥ 2^64 − 2^31 has; the callers pass at most 2^63,
+        // and `saturating_sub` keeps even larger values panic-free (the
+        // shift, which can reach 2^64 − 1, takes the parts instead).
         None => (1 << 31, z.saturating_sub(1)),
+    }
+}
+
+/// The steps of [`normalise`] before its rounding: for v ≠ 0, the leading
+/// zeros z (0..=63), the top 32 bits from the leading one (`top`, its top
+/// bit set) and the next bit (`round`, 0 or 1); `None` for v = 0. The
+/// caller adds `round` to `top` and, on a carry out, takes 2^31 at z − 1.
+#[inline]
+pub(crate) fn normalise_parts(v: u64) -> Option<(u32, u32, u32)> {
+    let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
+    if hi != 0 {
+        let z = leading_zeros_u32(hi); // 0..=31
+        let top = if z == 0 {
+            hi
+        } else {
+            (hi << z) | (lo >> (32 - z))
+        };
+        Some((z, top, (lo << z) >> 31))
+    } else if lo != 0 {
+        let z = leading_zeros_u32(lo);
+        Some((32 + z, lo << z, 0))
+    } else {
+        None
     }
 }
 

@@ -56,7 +56,7 @@
 //! ```
 
 use crate::counting::{CountPair, Gate, Gating};
-use crate::fixed::{leading_zeros_u32, mul_u32_wide, round_div_u128, round_shr_u64};
+use crate::fixed::{mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64};
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
 
@@ -370,23 +370,10 @@ impl ShiftConverter {
 /// y rounded to nearest, square it exactly, and round into Q23.40.
 #[inline(never)]
 fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
-    // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp). Done in 32-bit
-    // halves: ARMv6-M has no 64-bit shift or count of leading zeros, and
-    // each would be a library call. `fixed::normalise` does the same for
-    // values below 2^64 − 2^31; x may reach 2^64 − 1, where the rounding
-    // carries to z = −1, so the shift keeps its own form.
-    let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
-    let (z, top, round) = if hi != 0 {
-        let z = leading_zeros_u32(hi); // 0..=31
-        let top = if z == 0 {
-            hi
-        } else {
-            (hi << z) | (lo >> (32 - z))
-        };
-        (z, top, (lo << z) >> 31)
-    } else if lo != 0 {
-        (32 + leading_zeros_u32(lo), lo << leading_zeros_u32(lo), 0)
-    } else {
+    // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp): the steps of
+    // `fixed::normalise`, with the rounding's carry taken here, since x
+    // may reach 2^64 − 1 and the carry then gives z = −1.
+    let Some((z, top, round)) = normalise_parts(x) else {
         return Err(ShiftError::ZeroCount);
     };
     let z = z as i32; // ≤ 63
