@@ -65,6 +65,14 @@ pub struct TemperatureModel {
     b2: i32,
 }
 
+/// round(x · 2^-11) for x = hi·2^32 + lo with hi < 2^11 (a non-negative
+/// Q.40 value to Q29): ⌊x·2^-11⌋ + bit 10 of x, from the 32-bit words (no
+/// 64-bit shift on a 32-bit core). Saturates at `u32::MAX`.
+#[inline]
+fn q29_from_words(hi: u32, lo: u32) -> u32 {
+    ((lo >> 11) | (hi << 21)).saturating_add((lo >> 10) & 1)
+}
+
 /// Arithmetic shift right with rounding to nearest (ties up), `sh` in 1..=63.
 #[inline]
 fn round_asr(x: i64, sh: u32) -> i64 {
@@ -265,11 +273,9 @@ impl DriftFactor {
         if !(-256..1792).contains(&hi) {
             return self.apply_saturated(s);
         }
-        // 1 + s in Q29: round(x·2^-11) = ⌊x·2^-11⌋ + bit 10 of x, from the
-        // 32-bit words of x = s + 2^40 (high word hi + 256 < 2^11).
-        let lo = raw as u32;
-        let x_hi = (hi + 256) as u32;
-        let u29 = ((lo >> 11) | (x_hi << 21)).saturating_add((lo >> 10) & 1);
+        // 1 + s in Q29 from the words of x = s + 2^40 (high word
+        // hi + 256 < 2^11).
+        let u29 = q29_from_words((hi + 256) as u32, raw as u32);
         // Product Q60 → Q40: |g31·u29| < 2^62, its rounded part below 2^42,
         // and s below 2^43: the sum cannot overflow.
         let p = mul_i32_u32_wide(self.g31, u29);
@@ -287,7 +293,7 @@ impl DriftFactor {
         let u29 = if hi >= 1 << 11 {
             u32::MAX
         } else {
-            ((lo >> 11) | (hi << 21)).saturating_add((lo >> 10) & 1)
+            q29_from_words(hi, lo)
         };
         let p = mul_i32_u32_wide(self.g31, u29);
         Shift::from_raw_q40(s.raw_q40().saturating_add(round_asr(p, 20)))
