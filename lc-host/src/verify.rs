@@ -12,7 +12,7 @@
 //! | shift | `ShiftConverter::shift` | `shift_f64` | `shift::error_bound` |
 //! | drift | `TemperatureModel::compensate` | `compensate_f64` | `TemperatureModel::error_bound` |
 //! | curve | `Curve::eval` | `Curve::eval_f64` | `Curve::error_bound` |
-//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's: slope · ((e_s + \|q\|·e_r)/\|r\| + \|q\|·2^-29) |
+//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's, q = (s − h)/(r − h) with the drift model's offset h: slope · ((1 + g)·(e_s + \|q\|·e_r + \|1 − q\|·e_h)/\|r_c\| + \|q\|·2^-29) |
 //!
 //! Errors are also reported relative to the counter's quantisation step at
 //! each point (one tick: δs = 2·(1 + s)/ticks; in output units times the
@@ -369,16 +369,22 @@ pub fn verify(
             let (bound, step_e) = match &reference {
                 None => (curve.error_bound(d_fix) + slope.abs() * e_s, step_y),
                 Some((rc, ref_pair)) => {
-                    // q = s_c / r_c, each compensated; to first order
-                    // |Δq| ≤ (e_s + |q|·e_r)/|r_c| + |q|·2^-29 (the
-                    // division's own bound), with a margin for the second
-                    // order.
+                    // q = (s − h)/(r − h), h = 1/(1 + g) − 1 the drift
+                    // model's offset form, equal to s_c / r_c with
+                    // r − h = r_c/(1 + g). To first order
+                    // |Δq| ≤ (1 + g)·(e_s + |q|·e_r + |1 − q|·e_h)/|r_c|
+                    // + |q|·2^-29 (the division's own bound), with a
+                    // margin for the second order.
                     let r_raw = rc.shift_f64(*ref_pair);
-                    let r_c = cal.drift.compensate_f64(r_raw, t.to_f64());
-                    let e_r = shift_bound(r_raw) + cal.drift.error_bound(r_raw, t.to_f64());
+                    let t_c = t.to_f64();
+                    let r_c = cal.drift.compensate_f64(r_raw, t_c);
+                    let one_plus_g = 1.0 + cal.drift.compensate_f64(0.0, t_c);
+                    let (e_s, e_r) = (shift_bound(s_ref), shift_bound(r_raw));
+                    let e_h = cal.drift.offset_error_bound(t_c);
                     let q = r.shift.to_f64();
                     let slope_q = (curve.eval_f64(q + h) - curve.eval_f64(q - h)) / (2.0 * h);
-                    let e_q = ((e_s + q.abs() * e_r) / r_c.abs()
+                    let e_q = (one_plus_g * (e_s + q.abs() * e_r + (1.0 - q).abs() * e_h)
+                        / r_c.abs()
                         + q.abs() * 1.862_645_149_230_957e-9)
                         * (1.0 + 1e-6);
                     (

@@ -1,6 +1,6 @@
 //! The per-unit temperature model.
 
-use crate::fixed::mul_i32_u32_wide;
+use crate::fixed::{mul_i32_u32_wide, reciprocal_q63};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -231,6 +231,17 @@ impl TemperatureModel {
             + 9.094_947_017_729_282e-13
     }
 
+    /// The stated error bound of the offset h at `t_c`
+    /// ([`DriftFactor::offset`]): 2^-32/(1 + g)² + 1.25·2^-30·|h| + 2^-41.
+    /// Verification helper.
+    pub fn offset_error_bound(&self, t_c: f64) -> f64 {
+        let one_plus_g = 1.0 + self.compensate_f64(0.0, t_c);
+        let h = 1.0 / one_plus_g - 1.0;
+        2.328_306_436_538_696_3e-10 / (one_plus_g * one_plus_g)
+            + 1.25 * 9.313_225_746_154_785e-10 * h.abs()
+            + 4.547_473_508_864_641e-13
+    }
+
     /// `f64` twin of [`TemperatureModel::compensate`], same coefficients.
     pub fn compensate_f64(&self, s: f64, t_c: f64) -> f64 {
         let (lo, hi) = TEMPERATURE_DOMAIN;
@@ -282,6 +293,36 @@ impl DriftFactor {
         Shift::from_raw_q40(raw.wrapping_add(round_asr(p, 20)))
     }
 
+    /// The correction in offset form: h = 1/(1 + g) − 1, in Q.40, so that
+    /// (1 + s)(1 + g) − 1 = (1 + g)·(s − h).
+    ///
+    /// In a ratio of two compensated shifts (the level probe over its
+    /// reference electrode) the factor 1 + g cancels:
+    /// ((1 + s)(1 + g) − 1) / ((1 + r)(1 + g) − 1) = (s − h)/(r − h), so a
+    /// reader computes h once per temperature and then subtracts it from
+    /// both shifts instead of compensating each.
+    ///
+    /// h = −g·(1/(1 + g)), with the reciprocal from a table chord and one
+    /// Newton step (relative error ≤ 1.25·2^-30) and the product rounded
+    /// into Q.40. Against h of the exact g (g is held rounded to Q31):
+    /// |h_fixed − h| ≤ 2^-32/(1 + g)² + 1.25·2^-30·|h| + 2^-41
+    /// ([`TemperatureModel::offset_error_bound`]). |g| < 1/2 gives
+    /// −1/3 < h < 1.
+    pub fn offset(self) -> Shift {
+        if self.g31 == 0 {
+            return Shift::ZERO;
+        }
+        // 1 + g in Q31: 2^30 ≤ m0 ≤ 1.5·2^31 (|g31| ≤ 2^30). Normalised to
+        // m = m0·2^e with its top bit set.
+        let m0 = (self.g31 as u32).wrapping_add(1 << 31);
+        let (m, e) = if m0 < 1 << 31 { (m0 << 1, 1) } else { (m0, 0) };
+        // Y ≈ 2^63/m, so 1/(1 + g) = 2^31/m0 = Y·2^(e − 32), and
+        // h = −g31·2^-31·Y·2^(e − 32) = −g31·Y·2^(e − 63): in Q.40,
+        // −g31·Y·2^(e − 23). |g31·Y| < 2^30·2^32 fits i64.
+        let p = mul_i32_u32_wide(self.g31, reciprocal_q63(m));
+        Shift::from_raw_q40(-round_asr(p, 23 - e))
+    }
+
     /// [`DriftFactor::apply`] for any shift, with the saturations spelled
     /// out: 1 + s clamped to 0..=i64::MAX before its rounding to Q29, Q29
     /// saturated to `u32`, and the sum saturated in `i64`.
@@ -317,6 +358,20 @@ mod tests {
         } else {
             (i128::from(s) + round(i128::from(g31) * u29, 20))
                 .clamp(i128::from(i64::MIN), i128::from(i64::MAX))
+        }
+    }
+
+    /// The offset at the largest corrections either way (g = ±1/2, where
+    /// 1 + g needs normalising or not), at none, and at the smallest.
+    #[test]
+    fn offset_at_the_ends_of_its_range() {
+        for g31 in [-(1 << 30), -(1 << 30) + 1, -1, 0, 1, (1 << 30) - 1, 1 << 30] {
+            let g = f64::from(g31) * 2f64.powi(-31);
+            let exact = 1.0 / (1.0 + g) - 1.0;
+            let h = DriftFactor { g31 }.offset().to_f64();
+            // g31 is exact here, so only the reciprocal and the rounding.
+            let bound = 1.25 * 2f64.powi(-30) * exact.abs() + 2f64.powi(-41);
+            assert!((h - exact).abs() <= bound, "g31 {g31}: {h} vs {exact}");
         }
     }
 
@@ -411,6 +466,23 @@ mod tests {
 
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(20_000))]
+
+        /// The offset form within its stated bound of 1/(1 + g) − 1 for
+        /// the exact g, over the whole temperature domain; and the factor
+        /// form of the same correction, (1 + g)·(s − h), agrees with the
+        /// compensated shift.
+        #[test]
+        fn offset_within_bound(m in model(), s in -0.9f64..=7.0, t in -10_000i32..=30_000) {
+            let t_c = f64::from(t) / 100.0;
+            let h = m.factor(CentiCelsius(t)).offset().to_f64();
+            let one_plus_g = 1.0 + m.compensate_f64(0.0, t_c);
+            let exact = 1.0 / one_plus_g - 1.0;
+            let bound = m.offset_error_bound(t_c);
+            prop_assert!((h - exact).abs() <= bound, "{} vs {} bound {}", h, exact, bound);
+            prop_assert!(bound <= 2f64.powi(-29), "{}", bound);
+            let compensated = m.compensate_f64(s, t_c);
+            prop_assert!((one_plus_g * (s - h) - compensated).abs() <= 2.0 * bound + 1e-14);
+        }
 
         /// Within the stated bound of the f64 twin over shifts −0.9…7 and
         /// the whole temperature domain.

@@ -7,6 +7,7 @@ use crate::fixed::div_q40;
 use crate::geometry::VolumeTable;
 use crate::image::Calibration;
 use crate::shift::{Shift, ShiftConverter};
+use crate::temperature::CentiCelsius;
 
 /// Level from a capacitive probe in parallel with the tank capacitor.
 ///
@@ -19,7 +20,11 @@ use crate::shift::{Shift, ShiftConverter};
 ///   move when the permittivity drifts with temperature or composition.
 ///   One division per reading (`fixed::div_q40`: a reciprocal and a
 ///   product, relative error ≤ 2^-29).
-///   The temperature model, when given a temperature, applies to both.
+///   The temperature model, when given a temperature, applies to both, in
+///   its offset form: the ratio of the compensated shifts is
+///   (s − h)/(r − h) with h = 1/(1 + g) − 1 computed once per temperature
+///   ([`DriftFactor::offset`](crate::drift::DriftFactor::offset)), so a
+///   reading subtracts h from each shift instead of compensating each.
 /// - With a volume table, the level is also turned into a volume (vertical
 ///   tank: linear; horizontal cylinder or strapping table: the table).
 ///
@@ -34,6 +39,10 @@ pub struct LevelReader {
     reference: Option<ShiftConverter>,
     curve: Curve,
     volume: Option<VolumeTable>,
+    /// The drift model's offset form at the last temperature seen (ratio
+    /// path): h = 1/(1 + g) − 1
+    /// ([`DriftFactor::offset`](crate::drift::DriftFactor::offset)).
+    offset_cache: Option<(CentiCelsius, i64)>,
 }
 
 impl LevelReader {
@@ -72,6 +81,7 @@ impl LevelReader {
             reference,
             curve: Curve::PLACEHOLDER,
             volume: None,
+            offset_cache: None,
         }
     }
 
@@ -88,27 +98,46 @@ impl LevelReader {
         Ok(())
     }
 
+    /// The drift model's offset at `t` (Q.40), from the cache when `t` is
+    /// unchanged.
+    fn offset(&mut self, t: CentiCelsius) -> i64 {
+        match self.offset_cache {
+            Some((last, h)) if last == t => h,
+            _ => {
+                let h = self.front.drift.factor(t).offset().raw_q40();
+                self.offset_cache = Some((t, h));
+                h
+            }
+        }
+    }
+
     fn curve_input(&mut self, input: &Input) -> Result<Shift, SensorFault> {
-        let s = self.front.shift(input)?;
         let Some(conv) = &self.reference else {
-            return Ok(s);
+            return self.front.shift(input);
         };
         // The reference electrode shares the probe's fault window, gate and
-        // temperature model: its check goes through the same tick band, and
-        // its drift correction is the one the probe just used.
+        // temperature model: its check goes through the same tick band.
+        let s = self.front.raw_shift(input.pair)?;
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
         self.front
             .check(pair)
             .map_err(|e| SensorFault::Companion(Some(e)))?;
         let r = conv.shift_inline(pair).map_err(SensorFault::Shift)?;
-        let r = match input.temperature {
-            Some(t) => self.front.factor(t).apply(r),
-            None => r,
+        // Both compensated: ((1+s)(1+g) − 1)/((1+r)(1+g) − 1) = (s − h)/(r − h)
+        // with h = 1/(1 + g) − 1 (`DriftFactor::offset`). Shifts lie below
+        // 2^62 (Q.40 of r² < 2^22) and |h| ≤ 2^40: no overflow.
+        let (s, r) = (s.raw_q40(), r.raw_q40());
+        let (s, r) = match input.temperature {
+            Some(t) => {
+                let h = self.offset(t);
+                (s.wrapping_sub(h), r.wrapping_sub(h))
+            }
+            None => (s, r),
         };
-        if r.raw_q40() <= 0 {
+        if r <= 0 {
             return Err(SensorFault::Reference);
         }
-        div_q40(s.raw_q40(), r.raw_q40())
+        div_q40(s, r)
             .map(Shift::from_raw_q40)
             .ok_or(SensorFault::Reference)
     }

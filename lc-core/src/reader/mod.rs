@@ -214,6 +214,16 @@ impl Front {
         }
     }
 
+    /// The sensor channel's shift, through the fault window, without the
+    /// drift model (for a reader without a companion coil).
+    #[inline(always)]
+    pub(crate) fn raw_shift(&self, pair: CountPair) -> Result<Shift, SensorFault> {
+        self.check(pair).map_err(SensorFault::Counts)?;
+        self.converter
+            .shift_inline(pair)
+            .map_err(SensorFault::Shift)
+    }
+
     /// The drift correction at `t`, from the cache when `t` is unchanged.
     pub(crate) fn factor(&mut self, t: CentiCelsius) -> DriftFactor {
         match self.drift_cache {
@@ -271,6 +281,10 @@ impl Front {
 #[allow(clippy::large_enum_variant)]
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+// An explicit tag: `read`'s dispatch is one byte compare, whatever niche
+// the readers' fields would offer (measured: 4 instructions per reading on
+// a Cortex-M0 against the niche of the level reader's caches).
+#[repr(u8)]
 pub enum Reader {
     /// Proximity.
     Proximity(ProximityReader),
