@@ -36,7 +36,7 @@ pub fn mul_u32_wide(a: u32, b: u32) -> u64 {
 /// callers, and on ARMv6-M that is a call of `__aeabi_lmul`; in this form
 /// it stays inline (measured: no `__aeabi_lmul` left on the readers' and
 /// the NTC conversion's paths).
-#[inline]
+#[inline(always)]
 fn mul_u32_wide_parts(a: u32, b: u32) -> u64 {
     let (a0, a1) = (a & 0xFFFF, a >> 16);
     let (b0, b1) = (b & 0xFFFF, b >> 16);
