@@ -276,80 +276,75 @@ fn shl_u64(x: u64, sh: u32) -> u64 {
     }
 }
 
-/// Nodes of Y ≈ 2^63/m for m = (128 + i)·2^24: round(2^32 · 128/(128 + i)),
-/// i in 0..=128 (2^32 at i = 0 held at 2^32 − 1). A chord between two
-/// neighbours is within 2^-16 (relative) of 2^63/m between them. 516 bytes
-/// of flash.
-const RECIPROCAL_NODES: [u32; 129] = {
-    let mut table = [0u32; 129];
-    let mut i = 0;
-    while i < 129 {
-        // 2^39 / (128 + i) rounded to nearest; i ≤ 128, so the index cast
-        // is exact and the value at most 2^32 (held at 2^32 − 1).
-        let d = 128 + i as u64;
-        let v = ((1u64 << 39) + d / 2) / d;
-        table[i] = if v > u32::MAX as u64 {
-            u32::MAX
-        } else {
-            v as u32
-        };
-        i += 1;
+/// Nodes of Y ≈ 2^63/m for m = (256 + j)·2^23: N_j = round(2^40/(256 + j))
+/// for j in −1..=257, stored at index j + 1 less 2^30 (N_j lies between
+/// 2^40/513 and 2^40/255, so N_j − 2^30 fits `u32`). 1 036 bytes of flash.
+const RECIPROCAL_NODES: [u32; 259] = {
+    let mut table = [0u32; 259];
+    let mut k = 0;
+    while k < 259 {
+        // d = 256 + j = 255 + k in 255..=513; the rounded quotient lies in
+        // (2^31, 2^32 + 2^24), so less 2^30 it fits u32.
+        let d = 255 + k as u64;
+        let v = ((1u64 << 40) + d / 2) / d;
+        table[k] = (v - (1 << 30)) as u32;
+        k += 1;
     }
     table
 };
 
-/// One Newton step for Y ≈ 2^63/m (m ≥ 2^31, Y ≥ 2^31): with
-/// Y = (2^63/m)(1 − ε), Y' = Y + Y·ε from the exact residual 2^63 − m·Y.
-/// The new relative error is ε² plus at most 2 units of Y (the residual's
-/// low 31 bits and the product's low 32 bits are dropped). Y saturates at
-/// 2^32 − 1 (1 unit below 2^63/2^31).
-#[inline]
-fn reciprocal_step(m: u32, y: u32) -> u32 {
-    const ONE: u64 = 1 << 63;
-    let p = mul_u32_wide(m, y); // ≥ 2^62, < 2^64
-    if p <= ONE {
-        // ONE − p ≤ 2^62: the shifted residual is below 2^31, the cast exact.
-        let d = ((ONE - p) >> 31) as u32;
-        // y·d < 2^64: the top half fits u32, the cast is exact.
-        y.saturating_add((mul_u32_wide(y, d) >> 32) as u32)
-    } else {
-        // p − ONE < 2^63: the shifted residual is below 2^32, the cast exact.
-        let d = ((p - ONE) >> 31) as u32;
-        // y·d/2^32 < y: no underflow.
-        y - (mul_u32_wide(y, d) >> 32) as u32
-    }
-}
-
-/// Y ≈ 2^63/m for a normalised m (top bit set; so 2^31 < Y < 2^32),
-/// within a relative 1.25·2^-30 (measured 0.74·2^-30): the chord between
-/// the two [`RECIPROCAL_NODES`] around m (relative error at most 2^-16 +
-/// 2^-22), then one Newton step ([`reciprocal_step`]: the error squared
-/// plus 2 units). No division: three multiplies (two of them 32 × 32 →
-/// 64-bit), about 80 instructions on a Cortex-M0. The level ratio
-/// ([`div_q40`]) and the NTC's temperature from 1/T use it.
+/// Y ≈ 2^63/m for a normalised m (top bit set; then 2^31 ≤ Y < 2^32),
+/// within a relative 2^-28 (worst seen 0.958·2^-28, `reciprocal_sweep`):
+/// Bessel's central-difference interpolation formula to second
+/// differences between the two [`RECIPROCAL_NODES`] around m, 256
+/// intervals, m's low 23 bits the place u in the interval. Its leading
+/// remainder term, u(u − 1)(u − 1/2)/6 times the third difference (from
+/// memory: the formula's textbook remainder), is at most 0.008 of
+/// 1.5·2^-22 relative, 2^-28.4; the integer truncations add under 3 units
+/// (2^-30.4). No division and no 32 × 32 → 64-bit
+/// product: five 16 × 16-bit multiplies, about 40 instructions on a
+/// Cortex-M0. The level ratio ([`div_q40`]), the drift model's offset
+/// form and the NTC's temperature from 1/T use it.
 #[inline]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
-    let m = m | (1 << 31); // normalised by contract; keeps Y in range
-                           // Bits 24..30 pick the chord (masked to 7 bits: i + 1 ≤ 128 is in
-                           // bounds), bits 8..23 the place on it.
-    let i = ((m >> 24) & 127) as usize;
-    let f = (m >> 8) & 0xFFFF;
-    let (a, b) = (RECIPROCAL_NODES[i], RECIPROCAL_NODES[i + 1]);
-    // a − b < 2^32/129 < 2^25: (a − b) >> 9 < 2^16, times f < 2^16 fits
-    // u32; dropping the low 9 bits costs under 2^9 units (2^-22).
-    let y0 = a - ((((a - b) >> 9) * f) >> 7);
-    reciprocal_step(m, y0)
+    let m = m | (1 << 31); // normalised by contract
+                           // Bits 23..30 pick the interval j, bits 0..22 the place u = f/2^23.
+    let j = ((m >> 23) & 255) as usize;
+    let f = m & 0x7F_FFFF;
+    // Nodes j − 1, j, j + 1, j + 2 at indices j..=j + 3 ≤ 258: in bounds.
+    let (z, a, b, c) = (
+        RECIPROCAL_NODES[j],
+        RECIPROCAL_NODES[j + 1],
+        RECIPROCAL_NODES[j + 2],
+        RECIPROCAL_NODES[j + 3],
+    );
+    // The first difference, below 2^24, and the sum of the two second
+    // differences around the interval, below 2^18 (1/x is convex, so both
+    // are positive).
+    let d1 = a - b;
+    let d2 = (z - a) - (b - c);
+    // u·d1 = d1·f/2^23 from 16 × 16-bit products (each below 2^32; the
+    // truncations cost under 2 units).
+    let (fh, fl) = (f >> 7, f & 127);
+    let linear = (d1 >> 16) * fh + (((((d1 & 0xFFFF) * fh) >> 1) + ((d1 * fl) >> 8)) >> 15);
+    // u(1 − u)/2 · d2/2: u(1 − u) in Q16 is at most 2^14, times d2 < 2^18.
+    let w = (fh * (0x1_0000 - fh)) >> 16;
+    let quadratic = (w * d2) >> 18;
+    // a − linear − quadratic ≥ 2^30 − 1 (the sweep); Y = 2^32 (m = 2^31)
+    // is held at 2^32 − 1.
+    (a - linear - quadratic).saturating_add(1 << 30)
 }
 
-/// The quotient a/b in Q.40, a · 2^40 / b to within a relative 2^-29
+/// The quotient a/b in Q.40, a · 2^40 / b to within a relative 2^-27
 /// plus half a unit, or `None` when b is zero or the quotient does not fit
 /// an `i64`. No division: both operands are rounded to 32-bit mantissas
 /// (relative error ≤ 2^-32 each), the divisor's reciprocal comes from
-/// a table chord and one Newton step (≤ 1.25·2^-30; the same reciprocal
-/// as the NTC conversion's), their product is rounded to Q.40
-/// (≤ 2^-32 relative, or half a unit): 7·2^-32 in all, stated as 2^-29.
-/// For the level reader's ratio of two shifts, far finer than `f32` (2^-24)
-/// and than the counts behind the shifts.
+/// interpolation in a table ([`reciprocal_q63`], ≤ 2^-28; the same
+/// reciprocal as the NTC conversion's), their product is rounded to Q.40
+/// (≤ 2^-32 relative, or half a unit): 2^-28 + 3·2^-32 in all, stated as
+/// 2^-27. For the level reader's ratio of two shifts, finer than `f32`
+/// (2^-24) and than the counts behind the shifts (a count in 550 000 is
+/// 2^-19).
 pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
         return None;
@@ -401,42 +396,42 @@ mod tests {
             prop_assert_eq!(shr_u64_words(x, sh), x >> sh);
         }
 
-        /// The reciprocal within its stated 1.25·2^-30 for any normalised
-        /// m, checked in exact integers: |Y·m − 2^63| ≤ 1.25·2^-30 · 2^63.
+        /// The reciprocal within its stated 2^-28 for any normalised m,
+        /// checked in exact integers: |Y·m − 2^63| ≤ 2^-28 · 2^63.
         #[test]
         fn reciprocal_within_its_bound(m in (1u32 << 31)..) {
             let err = (u128::from(reciprocal_q63(m)) * u128::from(m)).abs_diff(1 << 63);
-            prop_assert!(err <= 5 << 31, "m {} err {}", m, err);
+            prop_assert!(err <= 1 << 35, "m {} err {}", m, err);
         }
     }
 
-    /// The chords' nodes as stated, and the reciprocal within its bound at
-    /// both ends and the middle of every chord and on a dense sweep (the
-    /// worst relative error seen is 0.74·2^-30).
+    /// The nodes as stated, and the reciprocal within its bound at both
+    /// ends and the middle of every interval and on a sweep of every 61st
+    /// mantissa (2^25.1 of them, 0.958·2^-28 the worst relative error
+    /// seen), checked in exact integers.
     #[test]
-    fn reciprocal_nodes_and_chords() {
-        for (i, &v) in RECIPROCAL_NODES.iter().enumerate() {
-            let exact = 2f64.powi(39) / (128.0 + i as f64);
-            assert!((f64::from(v) - exact).abs() <= 1.0, "node {i}");
+    fn reciprocal_sweep() {
+        for (k, &v) in RECIPROCAL_NODES.iter().enumerate() {
+            let exact = 2f64.powi(40) / (255.0 + k as f64) - 2f64.powi(30);
+            assert!((f64::from(v) - exact).abs() <= 0.5, "node {k}");
         }
-        let mut ms: Vec<u32> = (0u32..128)
-            .flat_map(|i| {
-                let lo = (1 << 31) + (i << 24);
-                [lo, lo + 1, lo + (1 << 23), lo + ((1 << 24) - 1)]
+        let mut ms: Vec<u32> = (0u32..256)
+            .flat_map(|j| {
+                let lo = (1 << 31) + (j << 23);
+                [lo, lo + 1, lo + (1 << 22), lo + ((1 << 23) - 1)]
             })
             .collect();
-        ms.extend(((1u64 << 31)..(1u64 << 32)).step_by(4099).map(|m| m as u32));
+        ms.extend(((1u64 << 31)..(1u64 << 32)).step_by(61).map(|m| m as u32));
         let worst = ms
             .iter()
-            .map(|&m| {
-                let exact = 2f64.powi(63) / f64::from(m);
-                (f64::from(reciprocal_q63(m)) - exact).abs() / exact
-            })
-            .fold(0.0, f64::max);
+            .map(|&m| (u128::from(reciprocal_q63(m)) * u128::from(m)).abs_diff(1 << 63))
+            .max()
+            .unwrap_or(0);
+        // 0.96·2^-28 · 2^63.
         assert!(
-            worst <= 0.75 * 2f64.powi(-30),
-            "worst {}·2^-30",
-            worst * 2f64.powi(30)
+            worst <= (1 << 35) / 100 * 96,
+            "worst {}·2^-28",
+            worst as f64 / 2f64.powi(35)
         );
     }
 
@@ -553,7 +548,7 @@ mod tests {
         fn q40_division_within_its_bound(a: i64, b: i64) {
             if let Some(q) = div_q40(a, b) {
                 let exact = (a as f64) / (b as f64) * 2f64.powi(40);
-                prop_assert!((q as f64 - exact).abs() <= exact.abs() * 2f64.powi(-29) + 1.0, "{} vs {}", q, exact);
+                prop_assert!((q as f64 - exact).abs() <= exact.abs() * 2f64.powi(-27) + 1.0, "{} vs {}", q, exact);
             } else {
                 let exact = (a as f64) / (b as f64) * 2f64.powi(40);
                 prop_assert!(b == 0 || exact.abs() >= 2f64.powi(62), "refused {} / {}", a, b);

@@ -12,7 +12,7 @@
 //! | shift | `ShiftConverter::shift` | `shift_f64` | `shift::error_bound` |
 //! | drift | `TemperatureModel::compensate` | `compensate_f64` | `TemperatureModel::error_bound` |
 //! | curve | `Curve::eval` | `Curve::eval_f64` | `Curve::error_bound` |
-//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's, q = (s − h)/(r − h) with the drift model's offset h: slope · ((1 + g)·(e_s + \|q\|·e_r + \|1 − q\|·e_h)/\|r_c\| + \|q\|·2^-29) |
+//! | end to end | `ProximityReader` / `LevelReader::read` | `read_f64` | curve bound + slope · (shift + drift bounds); with a reference electrode (held at a shift of 1) the ratio's, q = (s − h)/(r − h) with the drift model's offset h: slope · ((1 + g)·(e_s + \|q\|·e_r + \|1 − q\|·e_h)/\|r_c\| + \|q\|·2^-27) |
 //!
 //! Errors are also reported relative to the counter's quantisation step at
 //! each point (one tick: δs = 2·(1 + s)/ticks; in output units times the
@@ -373,7 +373,7 @@ pub fn verify(
                     // model's offset form, equal to s_c / r_c with
                     // r − h = r_c/(1 + g). To first order
                     // |Δq| ≤ (1 + g)·(e_s + |q|·e_r + |1 − q|·e_h)/|r_c|
-                    // + |q|·2^-29 (the division's own bound), with a
+                    // + |q|·2^-27 (the division's own bound), with a
                     // margin for the second order.
                     let r_raw = rc.shift_f64(*ref_pair);
                     let t_c = t.to_f64();
@@ -385,7 +385,7 @@ pub fn verify(
                     let slope_q = (curve.eval_f64(q + h) - curve.eval_f64(q - h)) / (2.0 * h);
                     let e_q = (one_plus_g * (e_s + q.abs() * e_r + (1.0 - q).abs() * e_h)
                         / r_c.abs()
-                        + q.abs() * 1.862_645_149_230_957e-9)
+                        + q.abs() * 7.450_580_596_923_828e-9)
                         * (1.0 + 1e-6);
                     (
                         curve.error_bound(r.shift) + slope_q.abs() * e_q,

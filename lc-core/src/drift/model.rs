@@ -232,13 +232,13 @@ impl TemperatureModel {
     }
 
     /// The stated error bound of the offset h at `t_c`
-    /// ([`DriftFactor::offset`]): 2^-32/(1 + g)² + 1.25·2^-30·|h| + 2^-41.
+    /// ([`DriftFactor::offset`]): 2^-32/(1 + g)² + 2^-28·|h| + 2^-41.
     /// Verification helper.
     pub fn offset_error_bound(&self, t_c: f64) -> f64 {
         let one_plus_g = 1.0 + self.compensate_f64(0.0, t_c);
         let h = 1.0 / one_plus_g - 1.0;
         2.328_306_436_538_696_3e-10 / (one_plus_g * one_plus_g)
-            + 1.25 * 9.313_225_746_154_785e-10 * h.abs()
+            + 3.725_290_298_461_914e-9 * h.abs()
             + 4.547_473_508_864_641e-13
     }
 
@@ -302,10 +302,10 @@ impl DriftFactor {
     /// reader computes h once per temperature and then subtracts it from
     /// both shifts instead of compensating each.
     ///
-    /// h = −g·(1/(1 + g)), with the reciprocal from a table chord and one
-    /// Newton step (relative error ≤ 1.25·2^-30) and the product rounded
-    /// into Q.40. Against h of the exact g (g is held rounded to Q31):
-    /// |h_fixed − h| ≤ 2^-32/(1 + g)² + 1.25·2^-30·|h| + 2^-41
+    /// h = −g·(1/(1 + g)), with the reciprocal interpolated in a table
+    /// (relative error ≤ 2^-28, `fixed::reciprocal_q63`) and the product
+    /// rounded into Q.40. Against h of the exact g (g is held rounded to
+    /// Q31): |h_fixed − h| ≤ 2^-32/(1 + g)² + 2^-28·|h| + 2^-41
     /// ([`TemperatureModel::offset_error_bound`]). |g| < 1/2 gives
     /// −1/3 < h < 1.
     pub fn offset(self) -> Shift {
@@ -370,7 +370,7 @@ mod tests {
             let exact = 1.0 / (1.0 + g) - 1.0;
             let h = DriftFactor { g31 }.offset().to_f64();
             // g31 is exact here, so only the reciprocal and the rounding.
-            let bound = 1.25 * 2f64.powi(-30) * exact.abs() + 2f64.powi(-41);
+            let bound = 2f64.powi(-28) * exact.abs() + 2f64.powi(-41);
             assert!((h - exact).abs() <= bound, "g31 {g31}: {h} vs {exact}");
         }
     }
@@ -479,7 +479,7 @@ mod tests {
             let exact = 1.0 / one_plus_g - 1.0;
             let bound = m.offset_error_bound(t_c);
             prop_assert!((h - exact).abs() <= bound, "{} vs {} bound {}", h, exact, bound);
-            prop_assert!(bound <= 2f64.powi(-29), "{}", bound);
+            prop_assert!(bound <= 2f64.powi(-27), "{}", bound);
             let compensated = m.compensate_f64(s, t_c);
             prop_assert!((one_plus_g * (s - h) - compensated).abs() <= 2.0 * bound + 1e-14);
         }

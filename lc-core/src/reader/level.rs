@@ -19,7 +19,7 @@ use crate::temperature::CentiCelsius;
 ///   to the liquid's permittivity minus one, so q, and the level, do not
 ///   move when the permittivity drifts with temperature or composition.
 ///   One division per reading (`fixed::div_q40`: a reciprocal and a
-///   product, relative error ≤ 2^-29).
+///   product, relative error ≤ 2^-27).
 ///   The temperature model, when given a temperature, applies to both, in
 ///   its offset form: the ratio of the compensated shifts is
 ///   (s − h)/(r − h) with h = 1/(1 + g) − 1 computed once per temperature

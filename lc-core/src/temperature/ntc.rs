@@ -31,11 +31,12 @@ const ZERO_C_CENTI_K: i32 = 27_315;
 /// rounding.
 const FINE_BITS: u32 = 16;
 
-/// 100 · 2^sh / m rounded to nearest, within 1.25·2^-30 of it (relative)
-/// plus half a unit, for m ≥ 2^31 and 32 ≤ sh ≤ 57; `None` outside those.
+/// 100 · 2^sh / m rounded to nearest, within 2^-28 of it (relative) plus
+/// half a unit, for m ≥ 2^31 and 32 ≤ sh ≤ 57; `None` outside those.
 /// No division: (100 · Y) · 2^-(63 − sh) with Y ≈ 2^63/m from
-/// [`reciprocal_q63`] (a chord of a 129-entry table and one Newton step).
-/// Cost: three 32 × 32 → 64-bit products.
+/// [`reciprocal_q63`] (second-order interpolation in a 259-entry table).
+/// Cost: one 32 × 32 → 64-bit product besides the reciprocal's five
+/// 16 × 16-bit ones.
 #[inline]
 fn quotient_nearest(m: u32, sh: u32) -> Option<u64> {
     if m < 1 << 31 || !(32..=57).contains(&sh) {
@@ -415,16 +416,16 @@ mod tests {
     }
 
     /// The quotient's stated bound against the exact 100 · 2^sh / m:
-    /// 1.25·2^-30 of it plus half a unit, checked in exact integers
-    /// (|q·m − 100·2^sh| ≤ 1.25·2^-30 · 100·2^sh + m/2).
+    /// 2^-28 of it plus half a unit, checked in exact integers
+    /// (|q·m − 100·2^sh| ≤ 2^-28 · 100·2^sh + m/2).
     fn quotient_within_bound(m: u32, sh: u32) -> bool {
         let Some(q) = quotient_nearest(m, sh) else {
             return false;
         };
         let n = 100u128 << sh;
         let err = (u128::from(q) * u128::from(m)).abs_diff(n);
-        // 1.25·2^-30 · n = 5·n / 2^32; both sides times 2^32.
-        (err << 32) <= 5 * n + (u128::from(m) << 31)
+        // 2^-28 · n = 16·n / 2^32; both sides times 2^32.
+        (err << 32) <= 16 * n + (u128::from(m) << 31)
     }
 
     #[test]
@@ -433,10 +434,11 @@ mod tests {
             for m in [1 << 31, (1 << 31) + 1, 3 << 30, u32::MAX - 1, u32::MAX] {
                 assert!(quotient_within_bound(m, sh), "m {m} sh {sh}");
             }
-            // Every chord, at both ends and in its middle.
-            for i in 0..128u32 {
-                let lo = (1 << 31) + (i << 24);
-                for m in [lo, lo + (1 << 23), lo + ((1 << 24) - 1)] {
+            // Every interval of the reciprocal's table, at both ends and
+            // in its middle.
+            for i in 0..256u32 {
+                let lo = (1 << 31) + (i << 23);
+                for m in [lo, lo + (1 << 22), lo + ((1 << 23) - 1)] {
                     assert!(quotient_within_bound(m, sh), "m {m} sh {sh}");
                 }
             }
@@ -656,7 +658,7 @@ mod tests {
 
     /// The analytic bound of the module docs for the unrounded result, from
     /// the law's own (rounded) constants and the twin's temperature:
-    /// T²·(U'·ε_L + (|L·t| + 2·|C·L³|)·2^-32) + T·(2^-32 + 1.25·2^-30)
+    /// T²·(U'·ε_L + (|L·t| + 2·|C·L³|)·2^-32) + T·(2^-32 + 2^-28)
     /// + 2^-17 cK, with ε_L = 23 · 2^-32 and U' = b + 3·C·L².
     fn analytic_bound_k(law: &Law, code: u32, twin_c: f64) -> f64 {
         let p32 = 2f64.powi(-32);
@@ -675,20 +677,20 @@ mod tests {
         let slope = b + 3.0 * c * l * l;
         let lt = (l * (b + c * l * l)).abs();
         t * t * (slope * 23.0 * p32 + (lt + 2.0 * (c * l * l * l).abs()) * p32)
-            + t * (p32 + 1.25 * 2f64.powi(-30))
+            + t * (p32 + 2f64.powi(-28))
             + 0.01 * 2f64.powi(-17)
             + 1e-11
     }
 
     /// The bound of the module docs inside the declared domain, before the
     /// final rounding (the analytic bound's largest value over the sweep's
-    /// 2·10⁶ points there is 1.741e-6 K, Steinhart–Hart).
-    const FINE_BOUND_K: f64 = 1.75e-6;
+    /// 2·10⁶ points there is 2.825e-6 K, Steinhart–Hart).
+    const FINE_BOUND_K: f64 = 2.85e-6;
 
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(20_000))]
 
-        /// Declared domain, Beta: the unrounded result within 1.75e-6 K and
+        /// Declared domain, Beta: the unrounded result within 2.85e-6 K and
         /// a tenth of the ADC step of the f64 twin; the reading within half
         /// an output LSB plus that.
         #[test]
