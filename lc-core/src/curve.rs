@@ -455,6 +455,68 @@ impl Curve {
         // to x1: held at 2^31 − 1, still exact below).
         let u = s.wrapping_sub(self.x[i]) as u64; // < w: exact
         let d = round_shr_to_u32(u, seg.sh).min((1 << 31) - 1);
+        self.in_segment(seg, y0, y1, d)
+    }
+
+    /// [`Curve::eval`] at the whole level `v`, that is at
+    /// `geometry::level_to_shift(v)` = v·2^32 on the axis, for a curve on
+    /// whole levels ([`Curve::on_whole_levels`]): the same value and
+    /// status, bit for bit, with the search and the offset in 32-bit words
+    /// (a node's level is its high word, and the offset's d is
+    /// r·2^(32 − sh), exact, for r whole levels).
+    #[inline(always)]
+    pub(crate) fn eval_whole(&self, v: i32) -> CurveValue {
+        let level = |i: usize| (self.x[i & (MAX_NODES - 1)] >> 32) as i32; // exact
+        let last_i = self.len().saturating_sub(1).min(MAX_NODES - 1);
+        let (first, last) = (level(0), level(last_i));
+        if v < first {
+            return CurveValue {
+                value: self.y[0],
+                status: CurveStatus::BelowRange,
+            };
+        }
+        if v >= last {
+            return CurveValue {
+                value: self.y[last_i],
+                status: if v == last {
+                    CurveStatus::InRange
+                } else {
+                    CurveStatus::AboveRange
+                },
+            };
+        }
+        // The halving search of `segment`, on the nodes' levels.
+        let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
+        while len > 1 {
+            let half = len / 2;
+            if level(i + half) <= v {
+                i += half;
+            }
+            len -= half;
+        }
+        let i = i & (MAX_NODES - 1);
+        let seg = &self.seg[i];
+        let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
+        // 0 ≤ r < the segment's width in levels < 2^(sh − 1), sh ≤ 32.
+        let r = v.wrapping_sub(level(i)) as u32;
+        let d = r << (32 - u32::from(seg.sh).min(32));
+        self.in_segment(seg, y0, y1, d)
+    }
+
+    /// Whether every node lies on a whole level (low word of x zero) and
+    /// every segment's width shift is at most 32, so that
+    /// [`Curve::eval_whole`] may stand in for [`Curve::eval`] (a volume
+    /// table's curve from strapping rows or a sampled shape always does).
+    pub(crate) fn on_whole_levels(&self) -> bool {
+        let n = self.len().saturating_sub(1);
+        self.x.iter().take(self.len()).all(|&x| x as u32 == 0)
+            && self.seg.iter().take(n).all(|s| (1..=32).contains(&s.sh))
+    }
+
+    /// The value in the segment `seg` from y0 to y1 at d = (s − x0)·2^-sh
+    /// rounded, d < 2^31: the interpolation, held between y0 and y1.
+    #[inline(always)]
+    fn in_segment(&self, seg: &Segment, y0: i32, y1: i32, d: u32) -> CurveValue {
         let rising = self.rising;
         // |y1 − y0| < 2^30 (validated): exact in u32.
         let span = y1.abs_diff(y0);
@@ -978,10 +1040,17 @@ mod tests {
     /// unit (sh = 0, small exponents) to 2^46, value steps up to 2^30 − 1
     /// (linear) or 2^21 − 1 (cubic), flat segments, either direction.
     fn edge_table() -> impl Strategy<Value = (Vec<Node>, Option<Vec<i64>>)> {
+        stepped_table(false)
+    }
+
+    /// [`edge_table`]'s tables, or with `whole` tables on whole levels (x
+    /// a multiple of 2^32, from level −2^24 up, steps of 1 to 2^26
+    /// levels), as a volume table's.
+    fn stepped_table(whole: bool) -> impl Strategy<Value = (Vec<Node>, Option<Vec<i64>>)> {
         (
             proptest::collection::vec(
                 (
-                    0u32..47,
+                    0u32..if whole { 27 } else { 47 },
                     any::<u64>(),
                     0u32..31,
                     any::<u32>(),
@@ -992,14 +1061,19 @@ mod tests {
             any::<i32>(),
             any::<bool>(),
             any::<bool>(),
+            -(1i64 << 24)..(1 << 24),
         )
-            .prop_map(|(steps, y_start, rising, cubic)| {
-                let mut x = Shift::from_f64(-0.9).unwrap().raw_q40();
+            .prop_map(move |(steps, y_start, rising, cubic, level0)| {
+                let (mut x, unit) = if whole {
+                    (level0 << 32, 32)
+                } else {
+                    (Shift::from_f64(-0.9).unwrap().raw_q40(), 0)
+                };
                 let mut y = i64::from(y_start);
                 let max_bits = if cubic { 21 } else { 30 };
                 let mut nodes = vec![Node::new(Shift::from_raw_q40(x), y_start)];
                 for (w_bits, w, dy_bits, dy, flat) in steps {
-                    x += 1 + (w % (1u64 << w_bits)) as i64;
+                    x += (1 + (w % (1u64 << w_bits)) as i64) << unit;
                     let dy = if flat {
                         0
                     } else {
@@ -1128,6 +1202,34 @@ mod tests {
                 }
             }
         }
+        /// On a curve on whole levels, the 32-bit evaluation equals the
+        /// general one at every level in and beside the table; a node off
+        /// a whole level takes the table off the 32-bit path.
+        #[test]
+        fn whole_level_evaluation_equals_the_general_one((nodes, ders) in stepped_table(true), qs in proptest::collection::vec((0.0f64..=1.0, any::<i32>(), -3i32..3), 1..16)) {
+            let built = match &ders {
+                Some(d) => Curve::monotone_cubic(&nodes, d),
+                None => Curve::linear(&nodes),
+            };
+            let Ok(c) = built else { return Ok(()) };
+            prop_assert!(c.on_whole_levels());
+            let level = |n: &Node| (n.shift.raw_q40() >> 32) as i32;
+            let (lo, hi) = (level(&nodes[0]), level(&nodes[nodes.len() - 1]));
+            for (q, raw, nudge) in qs {
+                let inside = lo + (f64::from(hi - lo) * q) as i32;
+                let near = level(&nodes[(raw.unsigned_abs() as usize) % nodes.len()]) + nudge;
+                for v in [inside, near, raw, lo - 1, hi, hi + 1] {
+                    prop_assert_eq!(c.eval_whole(v), c.eval(Shift::from_raw_q40(i64::from(v) << 32)), "at {}", v);
+                }
+            }
+            let mut off = nodes.clone();
+            let k = off.len() - 1;
+            off[k] = Node::new(Shift::from_raw_q40(off[k].shift.raw_q40() + 1), off[k].value);
+            if let Ok(c) = Curve::linear(&off) {
+                prop_assert!(!c.on_whole_levels());
+            }
+        }
+
         #[test]
         fn any_shift_is_safe((nodes, _) in table(), raw: i64) {
             prop_assume!(nodes.len() >= 2);

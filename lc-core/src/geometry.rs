@@ -634,6 +634,9 @@ pub fn horizontal_cylinder_table_bound(nodes: usize, top_level: i32) -> f64 {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct VolumeTable {
+    /// Every node on a whole level ([`Curve::on_whole_levels`]): then
+    /// [`volume`](Self::volume) searches and interpolates in 32-bit words.
+    whole: bool,
     curve: Curve,
 }
 
@@ -679,20 +682,32 @@ impl VolumeTable {
     /// Refuses a falling curve ([`CurveError::NotMonotone`]).
     pub fn from_curve(curve: Curve) -> Result<Self, CurveError> {
         Self::check_rising(&curve)?;
-        Ok(Self { curve })
+        Ok(Self::of(curve))
     }
 
     /// A volume table without nodes, for a reader to fill in place
     /// ([`VolumeTable::rebuild`]): never handed out as a value.
     pub(crate) const PLACEHOLDER: VolumeTable = VolumeTable {
+        whole: false,
         curve: Curve::PLACEHOLDER,
     };
 
     /// [`VolumeTable::from_curve`] of a calibration table's curve, built in
     /// place (no 2 KB temporary on the stack).
     pub(crate) fn rebuild(&mut self, table: &crate::image::Table) -> Result<(), CurveError> {
+        self.whole = false;
         table.build_curve(&mut self.curve)?;
-        Self::check_rising(&self.curve)
+        Self::check_rising(&self.curve)?;
+        self.whole = self.curve.on_whole_levels();
+        Ok(())
+    }
+
+    /// The table of a checked curve.
+    fn of(curve: Curve) -> Self {
+        Self {
+            whole: curve.on_whole_levels(),
+            curve,
+        }
     }
 
     fn check_rising(curve: &Curve) -> Result<(), CurveError> {
@@ -744,7 +759,7 @@ impl VolumeTable {
                 Curve::monotone_cubic(nodes, d.get(..points.len()).unwrap_or(&[]))?
             }
         };
-        Ok(Self { curve })
+        Ok(Self::of(curve))
     }
 
     /// Sample a tank shape into a table of at most `nodes` nodes (2 to
@@ -854,7 +869,11 @@ impl VolumeTable {
     /// saying so. The firmware path: one [`Curve::eval`], no division.
     #[inline]
     pub fn volume(&self, level: i32) -> CurveValue {
-        self.curve.eval(level_to_shift(level))
+        if self.whole {
+            self.curve.eval_whole(level)
+        } else {
+            self.curve.eval(level_to_shift(level))
+        }
     }
 
     /// `f64` twin of [`volume`](Self::volume): the same curve evaluated in
@@ -1462,6 +1481,11 @@ mod tests {
             let t = VolumeTable::from_strapping(&rows, interp).unwrap();
             assert_eq!(t.len(), 5);
             assert!(!t.is_empty());
+            // Rows on whole levels: the 32-bit path, equal to the general.
+            assert!(t.whole);
+            for level in -1..=2_001 {
+                assert_eq!(t.volume(level), t.curve().eval(level_to_shift(level)));
+            }
             for r in rows {
                 assert_eq!(t.volume(r.level).value, r.volume);
             }
