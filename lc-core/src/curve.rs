@@ -30,19 +30,25 @@
 //!
 //! - linear: y = y0 + (d · k_m) · 2^-e with d = (s − x0)·2^-sh rounded: one
 //!   32 × 32 → 64-bit multiply;
-//! - cubic: t = d / w' in Q31 from the precomputed reciprocal, then the
+//! - cubic: t = d / w' in Q16 from the precomputed reciprocal, then the
 //!   Hermite form y0 + Δy·(3t² − 2t³) + D0·(t³ − 2t² + t) + D1·(t³ − t²)
 //!   with D = w·dy/ds, evaluated by Horner's rule on coefficients
-//!   precomputed in Q8 output units: four multiplies.
+//!   precomputed in Q8 output units: one 32 × 32 → 64-bit multiply for t
+//!   and three Horner steps of two 32-bit multiplies each.
 //!
 //! No division per reading. The result is rounded to nearest. Bound against
 //! the `f64` twin of the same curve ([`Curve::eval_f64`]):
 //! |y_fixed − y| ≤ 0.5 + 2^-28·|Δy| (linear) or
-//! 0.5 + 3·2^-9 + 2^-28·(|Δy| + |D0| + |D1|) (cubic: each of the three
-//! Horner steps rounds a Q8 value) output units, where the terms are the
-//! segment's. For any realistic table (|Δy| below 2^20 units per segment)
-//! that is the output's own rounding, 0.5 units, plus at most 0.006 (cubic)
-//! or 0.004 (linear). The input loses nothing finer than w·2^-31 of shift.
+//! 0.5 + 3·2^-9 + 2^-16·(|Δy| + |D0| + |D1|) (cubic) output units, where the
+//! terms are the segment's. In the cubic, each of the three Horner
+//! products rounds to a Q8 value (2^-9 each), and t to 16 bits moves the
+//! value by at most 2^-17·max|dy/dt| ≤ 2^-17·(|D0| + |D1| + 1.5·|Δy|) (the
+//! Hermite basis' derivatives are at most 1, 1 and 1.5 on [0, 1]). For a
+//! linear table that is the output's own rounding, 0.5 units, plus at most
+//! 0.004 for |Δy| below 2^20 units per segment; for a cubic one, 2^-16 of
+//! its segments' steps and end slopes: 0.76 mL on the demo tank's 17-row
+//! table of 125.7 L (its interpolation bound against the tank is 20 mL).
+//! The input loses nothing finer than w·2^-31 of shift.
 //!
 //! ```
 //! use lc_core::curve::{Curve, CurveStatus, Interpolation, Node};
@@ -159,7 +165,8 @@ pub struct CurveValue {
 struct Segment {
     /// d = (s − x0) · 2^-sh fits 31 bits.
     sh: u8,
-    /// Linear: value = d·k · 2^-k_exp. Cubic: t = d·k · 2^-k_exp in Q30.
+    /// Linear: value = d·k · 2^-k_exp. Cubic: t = d·k · 2^-k_exp in Q30
+    /// (taken to Q16 per reading).
     k_exp: u8,
     /// Linear: slope mantissa (signed, |k| < 2^31). Cubic: mantissa of 1/w'.
     k: i32,
@@ -526,14 +533,18 @@ impl Curve {
                 round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
             }
             Interpolation::MonotoneCubic => {
-                // t = d/w' in Q30, 0 ≤ t ≤ 2^30.
-                let t =
-                    round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp).min(1 << 30);
-                // Horner in Q8 output units; every accumulator fits i32
-                // (Segment docs) and each product is exact.
-                let acc = seg.c2_q8.wrapping_add(mul_round_shr(seg.c3_q8, t, 30));
-                let acc = seg.c1_q8.wrapping_add(mul_round_shr(acc, t, 30));
-                let v = mul_round_shr(acc, t, 38);
+                // t = d/w' in Q16, 0 ≤ t ≤ 2^16.
+                let t = round_shr_to_u32(
+                    mul_u32_wide(seg.k.unsigned_abs(), d),
+                    seg.k_exp.saturating_add(14),
+                )
+                .min(1 << 16);
+                // Horner in Q8 output units, each product rounded to Q8;
+                // every accumulator fits i32 (Segment docs).
+                let acc = seg.c2_q8.wrapping_add(mul_q16(seg.c3_q8, t));
+                let acc = seg.c1_q8.wrapping_add(mul_q16(acc, t));
+                // Q8 to whole units, rounded to nearest (ties up).
+                let v = mul_q16(acc, t).wrapping_add(128) >> 8;
                 // The step's sign is the table's direction (a monotone
                 // cubic stays between y0 and y1); the other sign clamps
                 // to y0.
@@ -559,7 +570,7 @@ impl Curve {
 
     /// The stated error bound of [`Curve::eval`] at `s` against
     /// [`Curve::eval_f64`], in output units: 0.5 + 2^-28·|Δy| (linear), or
-    /// 0.5 + 3·2^-9 + 2^-28·(|Δy| + |D0| + |D1|) (cubic), with the terms of
+    /// 0.5 + 3·2^-9 + 2^-16·(|Δy| + |D0| + |D1|) (cubic), with the terms of
     /// the segment holding `s` (0.5 outside the table, where the value is a
     /// node's). Verification helper.
     pub fn error_bound(&self, s: Shift) -> f64 {
@@ -576,12 +587,14 @@ impl Curve {
         let d1 = (f64::from(seg.c3_q8) / 256.0)
             + 2.0 * (f64::from(self.y[i + 1]) - f64::from(self.y[i]))
             - d0;
-        // Cubic: three Horner steps each round a Q8 value (≤ 2^-9 each).
-        let (tangents, horner) = match self.interpolation {
-            Interpolation::Linear => (0.0, 0.0),
-            Interpolation::MonotoneCubic => (d0.abs() + d1.abs(), 3.0 / 512.0),
-        };
-        0.5 + horner + 3.725_290_298_461_914e-9 * (dy + tangents)
+        // Cubic: three Horner steps each round a Q8 value (≤ 2^-9 each),
+        // and t is held to 16 bits.
+        match self.interpolation {
+            Interpolation::Linear => 0.5 + 3.725_290_298_461_914e-9 * dy,
+            Interpolation::MonotoneCubic => {
+                0.5 + 3.0 / 512.0 + 1.525_878_906_25e-5 * (dy + d0.abs() + d1.abs())
+            }
+        }
     }
 
     /// `f64` twin of [`Curve::eval`]: the same curve (same nodes, same
@@ -699,20 +712,16 @@ fn round_shr_to_u32(x: u64, sh: u8) -> u32 {
     (t >> 1) + (t & 1)
 }
 
-/// c·t·2^-sh rounded to nearest, ties away from zero (the sign of c on
-/// the rounded magnitude), for a product whose rounded magnitude is below
-/// 2^31: the Horner steps of the cubic (|c| < 2^31, t ≤ 2^30, sh ≥ 30).
-/// The magnitude's product and rounding in 32-bit words, no 64-bit
-/// negation: on a Cortex-M0 about half the instructions of rounding the
-/// signed 64-bit product (`round_shr_i64(mul_i32_u32(c, t), sh)`, equal).
+/// c·t·2^-16 rounded to nearest (ties up) for t ≤ 2^16: the Horner steps
+/// of the cubic. From c's 16-bit halves, two 32-bit products (c's high
+/// half times t is exact in i32 for |c| < 2^31, its low half times t
+/// below 2^32): on a Cortex-M0 about a third of a 32 × 32 → 64-bit
+/// product's instructions.
 #[inline(always)]
-fn mul_round_shr(c: i32, t: u32, sh: u8) -> i32 {
-    let m = round_shr_to_u32(mul_u32_wide(c.unsigned_abs(), t), sh) as i32;
-    if c < 0 {
-        m.wrapping_neg()
-    } else {
-        m
-    }
+fn mul_q16(c: i32, t: u32) -> i32 {
+    let high = (c >> 16).wrapping_mul(t as i32);
+    let low = ((c as u32 & 0xFFFF) * t + 0x8000) >> 16; // < 2^16 + 1
+    high.wrapping_add(low as i32)
 }
 
 /// Signed × unsigned 32-bit product, exact in `i64` (the tests'
@@ -1022,11 +1031,16 @@ mod tests {
         let delta = match c.interpolation {
             Interpolation::Linear => round_shr_i64(mul_i32_u32(seg.k, d), u32::from(seg.k_exp)),
             Interpolation::MonotoneCubic => {
-                let t = round_shr_u64(mul_u32_wide(seg.k.unsigned_abs(), d), u32::from(seg.k_exp))
-                    .min(1 << 30) as i64;
-                let acc = i64::from(seg.c2_q8) + round_shr_i64(i64::from(seg.c3_q8) * t, 30);
-                let acc = i64::from(seg.c1_q8) + round_shr_i64(acc * t, 30);
-                round_shr_i64(acc * t, 38)
+                let t = round_shr_u64(
+                    mul_u32_wide(seg.k.unsigned_abs(), d),
+                    u32::from(seg.k_exp) + 14,
+                )
+                .min(1 << 16) as i64;
+                // Each product rounded to Q8 (floor of x + 1/2), then to units.
+                let q8 = |c: i64| (c * t + (1 << 15)) >> 16;
+                let acc = i64::from(seg.c2_q8) + q8(i64::from(seg.c3_q8));
+                let acc = i64::from(seg.c1_q8) + q8(acc);
+                (q8(acc) + 128) >> 8
             }
         };
         let (lo, hi) = if y0 <= y1 { (y0, y1) } else { (y1, y0) };
@@ -1154,7 +1168,7 @@ mod tests {
                 let s = Shift::from_f64(lo + (hi - lo) * q).unwrap();
                 let v = c.eval(s).value;
                 let float = c.eval_f64(s.to_f64());
-                prop_assert!((f64::from(v) - float).abs() <= 0.5 + 2f64.powi(-28) * 3.0 * f64::from(1u32 << 20) + 1e-6, "{v} {float}");
+                prop_assert!((f64::from(v) - float).abs() <= c.error_bound(s) + 1e-6, "{v} {float}");
                 if let Some(p) = prev {
                     let ordered = if rising { v >= p } else { v <= p };
                     prop_assert!(ordered, "not monotone: {} then {}", p, v);
