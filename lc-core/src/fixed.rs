@@ -361,13 +361,26 @@ pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
         return None;
     }
-    if a == 0 {
-        return Some(0);
-    }
-    let negative = (a < 0) != (b < 0);
-    // |a|, |b| ≤ 2^63: a ≈ ma · 2^(32 − za), b ≈ mb · 2^(32 − zb).
-    let (ma, za) = normalise(a.unsigned_abs());
-    let (mb, zb) = normalise(b.unsigned_abs());
+    let q = quotient_q40(a.unsigned_abs(), b.unsigned_abs())?;
+    Some(if (a < 0) != (b < 0) { -q } else { q })
+}
+
+/// [`div_q40`] for a positive divisor (the level reader's reference shift,
+/// checked positive first), without the divisor's sign and zero tests.
+#[inline]
+pub(crate) fn div_q40_by_positive(a: i64, b: u64) -> Option<i64> {
+    let q = quotient_q40(a.unsigned_abs(), b | u64::from(b == 0))?;
+    Some(if a < 0 { -q } else { q })
+}
+
+/// |a|·2^40/|b| for b ≠ 0, as [`div_q40`] states it; `None` when it does
+/// not fit an `i64`.
+#[inline(always)]
+fn quotient_q40(a: u64, b: u64) -> Option<i64> {
+    // a, b ≤ 2^63: a ≈ ma · 2^(32 − za), b ≈ mb · 2^(32 − zb); a = 0 gives
+    // ma = 0 and so q = 0.
+    let (ma, za) = normalise(a);
+    let (mb, zb) = normalise(b);
     // ma·Y ≈ ma·2^63/mb lies in [2^62, 2^64).
     let p = mul_u32_wide(ma, reciprocal_q63(mb));
     // a/b ≈ p · 2^(zb − za − 63); in Q.40: p · 2^(zb − za − 23). z ≤ 63.
@@ -381,8 +394,7 @@ pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     } else {
         round_shr_u64(p, sh.unsigned_abs())
     };
-    let q = i64::try_from(q).ok()?;
-    Some(if negative { -q } else { q })
+    i64::try_from(q).ok()
 }
 
 /// Number of significant bits of `x` (0 for 0, 64 for values ≥ 2^63).

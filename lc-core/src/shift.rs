@@ -310,6 +310,19 @@ impl ShiftConverter {
         self.shift(pair)
     }
 
+    /// [`ShiftConverter::shift_inline`] of `ticks` over the configured gate
+    /// (the caller has compared the cycles with it), equal to
+    /// `shift(CountPair::new(gate, ticks))`. Without a configured gate it
+    /// is that call.
+    #[inline(always)]
+    pub(crate) fn shift_at_gate(&self, ticks: u32) -> Result<Shift, ShiftError> {
+        // ticks = 0 gives x = 0, which `square_in_domain` refuses.
+        if let Some(s) = self.square_in_domain(mul_u32_wide(ticks, self.gate_mant)) {
+            return Ok(s);
+        }
+        self.shift(CountPair::new(self.gate_cycles, ticks))
+    }
+
     /// The configured-gate path's shortcut for 1/4 ≤ r < 4 (the declared
     /// shift domain and more): with x = r · 2^(c+33), the bits above 2^(c+31)
     /// say where r's leading bit is, so the normalisation needs no count of

@@ -318,9 +318,10 @@ impl DriftFactor {
         let (m, e) = if m0 < 1 << 31 { (m0 << 1, 1) } else { (m0, 0) };
         // Y ≈ 2^63/m, so 1/(1 + g) = 2^31/m0 = Y·2^(e − 32), and
         // h = −g31·2^-31·Y·2^(e − 32) = −g31·Y·2^(e − 63): in Q.40,
-        // −g31·Y·2^(e − 23). |g31·Y| < 2^30·2^32 fits i64.
-        let p = mul_i32_u32_wide(self.g31, reciprocal_q63(m));
-        Shift::from_raw_q40(-round_asr(p, 23 - e))
+        // −(g31·2^e)·Y·2^-23. e = 1 only for g < 0, where g31·2 ≥ −2^31
+        // fits i32; |g31·2^e·Y| < 2^31·2^32 fits i64.
+        let p = mul_i32_u32_wide(self.g31 << e, reciprocal_q63(m));
+        Shift::from_raw_q40(-round_asr(p, 23))
     }
 
     /// [`DriftFactor::apply`] for any shift, with the saturations spelled

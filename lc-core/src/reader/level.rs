@@ -3,7 +3,7 @@
 use super::{Front, Input, Reader, ReaderError, Reading, SensorFault, Status};
 use crate::counting::Gating;
 use crate::curve::{Curve, CurveStatus};
-use crate::fixed::div_q40;
+use crate::fixed::div_q40_by_positive;
 use crate::geometry::VolumeTable;
 use crate::image::Calibration;
 use crate::shift::{Shift, ShiftConverter};
@@ -18,7 +18,7 @@ use crate::temperature::CentiCelsius;
 ///   q = s_probe / s_reference to the level. Both shifts grow in proportion
 ///   to the liquid's permittivity minus one, so q, and the level, do not
 ///   move when the permittivity drifts with temperature or composition.
-///   One division per reading (`fixed::div_q40`: a reciprocal and a
+///   One division per reading (`fixed::div_q40`'s: a reciprocal and a
 ///   product, relative error ≤ 2^-27).
 ///   The temperature model, when given a temperature, applies to both, in
 ///   its offset form: the ratio of the compensated shifts is
@@ -99,16 +99,21 @@ impl LevelReader {
     }
 
     /// The drift model's offset at `t` (Q.40), from the cache when `t` is
-    /// unchanged.
+    /// unchanged (that check inlined into the reading).
+    #[inline(always)]
     fn offset(&mut self, t: CentiCelsius) -> i64 {
         match self.offset_cache {
             Some((last, h)) if last == t => h,
-            _ => {
-                let h = self.front.drift.factor(t).offset().raw_q40();
-                self.offset_cache = Some((t, h));
-                h
-            }
+            _ => self.new_offset(t),
         }
+    }
+
+    /// The offset at a new temperature, cached.
+    #[inline(never)]
+    fn new_offset(&mut self, t: CentiCelsius) -> i64 {
+        let h = self.front.drift.factor(t).offset().raw_q40();
+        self.offset_cache = Some((t, h));
+        h
     }
 
     fn curve_input(&mut self, input: &Input) -> Result<Shift, SensorFault> {
@@ -119,10 +124,9 @@ impl LevelReader {
         // temperature model: its check goes through the same tick band.
         let s = self.front.raw_shift(input.pair)?;
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
-        self.front
-            .check(pair)
-            .map_err(|e| SensorFault::Companion(Some(e)))?;
-        let r = conv.shift_inline(pair).map_err(SensorFault::Shift)?;
+        let r = self
+            .front
+            .checked_shift(conv, pair, |e| SensorFault::Companion(Some(e)))?;
         // Both compensated: ((1+s)(1+g) − 1)/((1+r)(1+g) − 1) = (s − h)/(r − h)
         // with h = 1/(1 + g) − 1 (`DriftFactor::offset`). Shifts lie below
         // 2^62 (Q.40 of r² < 2^22) and |h| ≤ 2^40: no overflow.
@@ -137,7 +141,7 @@ impl LevelReader {
         if r <= 0 {
             return Err(SensorFault::Reference);
         }
-        div_q40(s, r)
+        div_q40_by_positive(s, r.unsigned_abs())
             .map(Shift::from_raw_q40)
             .ok_or(SensorFault::Reference)
     }

@@ -214,14 +214,33 @@ impl Front {
         }
     }
 
+    /// The shift of `pair` by `conv` (a converter of this front's gate)
+    /// through the fault window, `window` naming a window fault: a pair of
+    /// the gate's cycles inside its tick band takes two comparisons and
+    /// the converter's gate path with nothing checked twice; any other
+    /// pair the full check and the general path. Same results as the
+    /// check and [`ShiftConverter::shift`].
+    #[inline(always)]
+    pub(crate) fn checked_shift(
+        &self,
+        conv: &ShiftConverter,
+        pair: CountPair,
+        window: impl FnOnce(FaultError) -> SensorFault,
+    ) -> Result<Shift, SensorFault> {
+        if let Some((gate, (lo, hi))) = self.gate_band {
+            if pair.cycles == gate && pair.ticks >= lo && pair.ticks <= hi {
+                return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
+            }
+        }
+        self.window.check(pair).map_err(window)?;
+        conv.shift_inline(pair).map_err(SensorFault::Shift)
+    }
+
     /// The sensor channel's shift, through the fault window, without the
     /// drift model (for a reader without a companion coil).
     #[inline(always)]
     pub(crate) fn raw_shift(&self, pair: CountPair) -> Result<Shift, SensorFault> {
-        self.check(pair).map_err(SensorFault::Counts)?;
-        self.converter
-            .shift_inline(pair)
-            .map_err(SensorFault::Shift)
+        self.checked_shift(&self.converter, pair, SensorFault::Counts)
     }
 
     /// The drift correction at `t`, from the cache when `t` is unchanged.
@@ -242,18 +261,15 @@ impl Front {
     #[inline(always)]
     pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let pair = input.pair;
-        self.check(pair).map_err(SensorFault::Counts)?;
         let s = match self.companion {
             Some(c) => {
+                self.check(pair).map_err(SensorFault::Counts)?;
                 let comp = input.companion.ok_or(SensorFault::Companion(None))?;
                 self.check(comp)
                     .map_err(|e| SensorFault::Companion(Some(e)))?;
                 c.shift(pair, comp).map_err(SensorFault::Ratio)?
             }
-            None => self
-                .converter
-                .shift_inline(pair)
-                .map_err(SensorFault::Shift)?,
+            None => self.raw_shift(pair)?,
         };
         Ok(match input.temperature {
             Some(t) => self.factor(t).apply(s),
