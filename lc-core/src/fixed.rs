@@ -351,7 +351,7 @@ pub(crate) fn reciprocal_q63(m: u32) -> u32 {
 /// plus half a unit, or `None` when b is zero or the quotient does not fit
 /// an `i64`. No division: both operands are rounded to 32-bit mantissas
 /// (relative error ≤ 2^-32 each), the divisor's reciprocal comes from
-/// interpolation in a table ([`reciprocal_q63`], ≤ 2^-28; the same
+/// interpolation in a table (`reciprocal_q63`, ≤ 2^-28; the same
 /// reciprocal as the NTC conversion's), their product is rounded to Q.40
 /// (≤ 2^-32 relative, or half a unit): 2^-28 + 3·2^-32 in all, stated as
 /// 2^-27. For the level reader's ratio of two shifts, finer than `f32`

@@ -15,9 +15,9 @@
 //!    - [`NtcSteinhartHart`]: 1/T = A + B·ln R + C·(ln R)³ (Steinhart &
 //!      Hart, *Deep-Sea Research* 15(4):497–503, 1968).
 //! 4. T = 1/(1/T), straight into centi-kelvin, without a division: a
-//!    reciprocal from the chord between two nodes of a 129-entry table
-//!    and one Newton step, within a relative 1.25·2^-30 (the same
-//!    reciprocal as the level reader's ratio); then rounded to 0.01 °C.
+//!    reciprocal interpolated in a 259-entry table (Bessel's formula to
+//!    second differences), within a relative 2^-28 (the same reciprocal
+//!    as the level reader's ratio); then rounded to 0.01 °C.
 //!
 //! [`Beta`], [`SteinhartHart`] and [`steinhart_hart_fit`] are the same laws
 //! in `f64`, forward (R from T, for the host simulator) and inverse (the
@@ -34,7 +34,7 @@
 //!   B + C·L² with L² as a rounded 32-bit mantissa) as a rounded 32-bit
 //!   mantissa; 1/T as a rounded 32-bit mantissa before the reciprocal; the
 //!   quotient in centi-kelvin with 16 fractional bits (within a relative
-//!   1.25·2^-30, then rounded to nearest);
+//!   2^-28, then rounded to nearest);
 //!   then the reading, rounded to nearest (ties upward).
 //! - Declared domain: −55 °C ..= +155 °C; ADC 10 ..= 16 bits; R25 100 Ω ..=
 //!   1 MΩ; B 2000 ..= 6000 K (Steinhart–Hart: B from 1/6000 to 1/2000 K⁻¹,
@@ -43,26 +43,26 @@
 //! - Bound against the `f64` twin (`convert_f64`), before the final
 //!   rounding, for any accepted configuration:
 //!
-//!   |ΔT| ≤ T²·(U′·ε_L + (|1/T − A| + 2·|C·L³|)·2^-32) + T·(2^-32 + 1.25·2^-30) + 7.6·10⁻⁸ K
+//!   |ΔT| ≤ T²·(U′·ε_L + (|1/T − A| + 2·|C·L³|)·2^-32) + T·(2^-32 + 2^-28) + 7.6·10⁻⁸ K
 //!
 //!   with U′ = d(1/T)/dL = B + 3·C·L² (1/B for Beta), A = 1/T25 for Beta,
 //!   and ε_L = 23·2^-32 ≈ 5.4·10⁻⁹ the error of L (6.6·2^-32 from the four
 //!   logarithms, 16·2^-32 from rounding L to Q5.27). T·2^-32 is the
-//!   rounding of 1/T to a 32-bit mantissa, T·1.25·2^-30 the reciprocal's
-//!   (a chord of a 129-entry table and one Newton step, not corrected to
-//!   the exact quotient). Inside the declared domain this is at most
-//!   **1.75·10⁻⁶ K** (Beta: 1.21·10⁻⁶ K). The reading adds its rounding: it
-//!   is within **0.005 °C + 1.75·10⁻⁶ K** of the twin.
+//!   rounding of 1/T to a 32-bit mantissa, T·2^-28 the reciprocal's
+//!   (interpolated in a table, not corrected to the exact quotient).
+//!   Inside the declared domain this is at most **2.83·10⁻⁶ K** (Beta:
+//!   2.31·10⁻⁶ K), stated as 2.85·10⁻⁶ K. The reading adds its rounding: it
+//!   is within **0.005 °C + 2.85·10⁻⁶ K** of the twin.
 //! - Against the crate's bar (docs/numerics.md), with the ADC's own step
 //!   in place of the counter's (one tenth of the step at that reading,
 //!   δT = T²·U′·N/(c·(N − c)) ≥ T²·U′·4/N, or one output LSB where that is
-//!   finer): the reading is within half an LSB plus 1.75 µK, so the bar
+//!   finer): the reading is within half an LSB plus 2.85 µK, so the bar
 //!   holds everywhere. The unrounded result alone is within a tenth of a
 //!   step up to 20 bits: over 2·10⁶ sampled points the largest error is
-//!   3.9·10⁻⁴ of a step at 16 bits and 5.9·10⁻³ at 20 bits. At 24 bits it
-//!   reaches 0.10 of a step, so 24 bits is not claimed.
+//!   1.4·10⁻³ of a step at 16 bits and 2.1·10⁻² at 20 bits. At 24 bits it
+//!   reaches 0.33 of a step, so 24 bits is not claimed.
 //! - The property tests in `ntc.rs` assert the bound formula on every case,
-//!   1.75·10⁻⁶ K and a tenth of a step over the declared domain, the
+//!   2.85·10⁻⁶ K and a tenth of a step over the declared domain, the
 //!   formula and a tenth of a step for 8 ..= 20 bits and −100 ..= +300 °C,
 //!   and the formula for any accepted Steinhart–Hart coefficients.
 //!
@@ -71,23 +71,24 @@
 //!
 //! | range | law | max \|ΔT\| before rounding | max \|ΔT\| / ADC step | max reading error |
 //! |---|---|---|---|---|
-//! | declared domain (10–16 bits) | Beta | 5.8·10⁻⁷ K | 3.9·10⁻⁴ (at 16 bits) | 0.005 °C + 2.0·10⁻⁷ K |
-//! | declared domain (10–16 bits) | Steinhart–Hart | 8.8·10⁻⁷ K | 3.6·10⁻⁴ (at 16 bits) | 0.005 °C + 3.5·10⁻⁷ K |
-//! | 20 bits, −100 ..= +300 °C | either | 1.38·10⁻⁶ K | 5.9·10⁻³ | 0.005 °C + 5.1·10⁻⁷ K |
-//! | 24 bits, −55 ..= +155 °C | either | 8.9·10⁻⁷ K | 0.10 | 0.005 °C + 3.0·10⁻⁷ K |
+//! | declared domain (10–16 bits) | Beta | 1.33·10⁻⁶ K | 1.3·10⁻³ (at 16 bits) | 0.005 °C + 8.7·10⁻⁷ K |
+//! | declared domain (10–16 bits) | Steinhart–Hart | 1.49·10⁻⁶ K | 1.4·10⁻³ (at 16 bits) | 0.005 °C + 7.7·10⁻⁷ K |
+//! | 20 bits, −100 ..= +300 °C | either | 2.30·10⁻⁶ K | 2.1·10⁻² | 0.005 °C + 1.5·10⁻⁶ K |
+//! | 24 bits, −55 ..= +155 °C | either | 1.46·10⁻⁶ K | 0.33 | 0.005 °C + 7.6·10⁻⁷ K |
 //!
 //! ## Cost per reading
 //!
 //! **No division.** Two integer logarithms sharing one k·ln 2 from a table
 //! (six 32 × 32 → 64-bit products, two 16 × 16-bit ones, two leading-zero
 //! counts), the law (Beta: one product; Steinhart–Hart with C ≠ 0: three,
-//! and two normalisations), a normalisation of 1/T and the reciprocal
-//! (three products: a chord between two table nodes, one Newton step, the
-//! quotient). The wide products use [`crate::fixed::mul_u32_wide`]: 10 for
-//! Beta, 12 for Steinhart–Hart. The constants (ln(R_s/R25) or ln R_s, 1/B,
-//! the coefficients in fixed point) are computed once, at construction.
-//! Tables: 64 × 2 `u32` and 32 `u64` for the logarithm, 129 `u32` for the
-//! reciprocal (1 284 bytes). On a Cortex-M0 a Beta conversion costs 634
+//! and two normalisations), a normalisation of 1/T, the reciprocal (five
+//! 16 × 16-bit products) and the quotient (one product). The wide products
+//! use [`crate::fixed::mul_u32_wide`]: 8 for Beta, 10 for Steinhart–Hart.
+//! The constants (ln(R_s/R25) or ln R_s, 1/B, the coefficients in fixed
+//! point) are computed once, at construction. Tables: 64 × 2 `u32` and
+//! 32 `u64` for the logarithm, 259 `u32` for the reciprocal (1 804 bytes),
+//! and the 256-byte table of leading zeros shared with the other
+//! normalisations. On a Cortex-M0 a Beta conversion costs 559.5
 //! instructions (docs/performance.md).
 //!
 //! ## Example
