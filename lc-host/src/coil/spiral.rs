@@ -659,9 +659,13 @@ mod tests {
         }
 
         /// Filament model vs current sheet for random circular spirals (the
-        /// circle needs no equivalence): within 5 % over a fill ratio of
-        /// 0.2–0.8, w/s from 0.5 to 2 and 4–30 turns (measured: 0.968 to
-        /// 1.042; the extremes at few, widely spaced turns).
+        /// circle needs no equivalence), over a fill ratio of 0.2–0.8, w/s
+        /// from 0.5 to 2 and 4–30 turns: within 8 %, and within 4 % from
+        /// eight turns on. Measured on a grid of the domain (10 outer
+        /// diameters, every turn count, 16 w/s, 25 fill ratios): 0.961 to
+        /// 1.071, and 0.967 to 1.032 from eight turns; the extremes at four
+        /// widely spaced turns near full fill, where a sheet smears the
+        /// few currents most.
         #[test]
         fn filament_vs_current_sheet_circular(
             d_out_mm in 5.0f64..50.0,
@@ -679,7 +683,8 @@ mod tests {
             let sp = Spiral::new(Shape::Circular, n, d_out, w, s).unwrap();
             let fil = sp.filament_coil(1, 0.0, 35e-6).unwrap().inductance_h();
             let cs = current_sheet_h(&sp);
-            prop_assert!((fil / cs - 1.0).abs() < 0.05, "ratio {}", fil / cs);
+            let tolerance = if n >= 8 { 0.04 } else { 0.08 };
+            prop_assert!((fil / cs - 1.0).abs() < tolerance, "ratio {}", fil / cs);
         }
     }
 }
