@@ -414,15 +414,48 @@ impl Curve {
     /// indices masked into the arrays, so no bounds branch.
     #[inline(always)]
     fn segment(&self, s: i64) -> usize {
+        self.segment_by(s, |i| self.x[i])
+    }
+
+    /// [`Curve::segment`] of `v` on the nodes' keys `key(i)` (x[i], or a
+    /// node's level), `key` called with indices within the arrays.
+    #[inline(always)]
+    fn segment_by<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> usize {
         let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
         while len > 1 {
             let half = len / 2;
-            if self.x[(i + half) & (MAX_NODES - 1)] <= s {
+            if key((i + half) & (MAX_NODES - 1)) <= v {
                 i += half;
             }
             len -= half;
         }
         i & (MAX_NODES - 1)
+    }
+
+    /// The value of `v` outside the table on the nodes' keys `key(i)`, or
+    /// at its last node: the first node's below it, the last node's at or
+    /// above it, with the status; `None` inside.
+    #[inline(always)]
+    fn outside<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> Option<CurveValue> {
+        let last_i = self.len().saturating_sub(1).min(MAX_NODES - 1);
+        if v < key(0) {
+            return Some(CurveValue {
+                value: self.y[0],
+                status: CurveStatus::BelowRange,
+            });
+        }
+        let last = key(last_i);
+        if v >= last {
+            return Some(CurveValue {
+                value: self.y[last_i],
+                status: if v == last {
+                    CurveStatus::InRange
+                } else {
+                    CurveStatus::AboveRange
+                },
+            });
+        }
+        None
     }
 
     /// The value at shift `s`, rounded to nearest; clamped with a status
@@ -435,26 +468,11 @@ impl Curve {
     #[inline(always)]
     pub fn eval(&self, s: Shift) -> CurveValue {
         let s = s.raw_q40();
-        let last_i = self.len().saturating_sub(1).min(MAX_NODES - 1);
-        let (x_first, x_last) = (self.x[0], self.x[last_i]);
-        if s < x_first {
-            return CurveValue {
-                value: self.y[0],
-                status: CurveStatus::BelowRange,
-            };
-        }
-        if s >= x_last {
-            return CurveValue {
-                value: self.y[last_i],
-                status: if s == x_last {
-                    CurveStatus::InRange
-                } else {
-                    CurveStatus::AboveRange
-                },
-            };
+        if let Some(end) = self.outside(s, |i| self.x[i]) {
+            return end;
         }
         // x[0] ≤ s < x[last].
-        let i = self.segment(s);
+        let i = self.segment_by(s, |i| self.x[i]);
         let seg = &self.seg[i];
         let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
@@ -473,35 +491,11 @@ impl Curve {
     /// r·2^(32 − sh), exact, for r whole levels).
     #[inline(always)]
     pub(crate) fn eval_whole(&self, v: i32) -> CurveValue {
-        let level = |i: usize| (self.x[i & (MAX_NODES - 1)] >> 32) as i32; // exact
-        let last_i = self.len().saturating_sub(1).min(MAX_NODES - 1);
-        let (first, last) = (level(0), level(last_i));
-        if v < first {
-            return CurveValue {
-                value: self.y[0],
-                status: CurveStatus::BelowRange,
-            };
+        let level = |i: usize| (self.x[i] >> 32) as i32; // exact
+        if let Some(end) = self.outside(v, level) {
+            return end;
         }
-        if v >= last {
-            return CurveValue {
-                value: self.y[last_i],
-                status: if v == last {
-                    CurveStatus::InRange
-                } else {
-                    CurveStatus::AboveRange
-                },
-            };
-        }
-        // The halving search of `segment`, on the nodes' levels.
-        let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
-        while len > 1 {
-            let half = len / 2;
-            if level(i + half) <= v {
-                i += half;
-            }
-            len -= half;
-        }
-        let i = i & (MAX_NODES - 1);
+        let i = self.segment_by(v, level);
         let seg = &self.seg[i];
         let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
         // 0 ≤ r < the segment's width in levels < 2^(sh − 1), sh ≤ 32.
