@@ -95,14 +95,20 @@
 //! n and span: about 1 % of the volume of one level unit at mid-depth, so it
 //! only shows when the span is short. The last covers the rounding of the
 //! node volumes, its effect on the derivatives, and of the output: measured
-//! at most 1.41 units in a development sweep of 40 000 random tables. For
+//! at most 1.41 units in a development sweep of 40 000 random tables. The
+//! cubic's 16-bit Hermite parameter adds at most 2^-16 of a segment's step
+//! and end slopes ([`Curve::error_bound`]; about 1.4e-6·V_full in the
+//! widest, mid-depth segment of 64 nodes), which the first term's margin
+//! takes where segments are wide: the property test holds the whole bound
+//! over 5 000 random tables per run (100 000 in a development run), and
+//! the dense grid below is measured with it. For
 //! the tank of REFERENCES.md §12 case 12c (R = 1 m, L = 4 m), level in
 //! 0.1 mm (top = 20 000), volume in mL (V_full = 12 566 371 mL), measured at
 //! every one of the 20 001 levels (test `published_tank_table_dense_grid`):
 //!
 //! | nodes | measured max error | stated bound |
 //! |---|---|---|
-//! | 16 | 2162 mL (1.72e-4 of full) | 2467 mL |
+//! | 16 | 2165 mL (1.72e-4 of full) | 2467 mL |
 //! | 32 | 262 mL (2.08e-5) | 288 mL |
 //! | 64 | 33.6 mL (2.67e-6) | 42.7 mL |
 //!
