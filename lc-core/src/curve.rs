@@ -46,8 +46,10 @@
 //! Hermite basis' derivatives are at most 1, 1 and 1.5 on [0, 1]). For a
 //! linear table that is the output's own rounding, 0.5 units, plus at most
 //! 0.004 for |Δy| below 2^20 units per segment; for a cubic one, 2^-16 of
-//! its segments' steps and end slopes: 0.76 mL on the demo tank's 17-row
+//! its segments' steps and end slopes: 0.70 mL on the demo tank's 17-row
 //! table of 125.7 L (its interpolation bound against the tank is 20 mL).
+//! The bound assumes a monotone segment: construction refuses tangent
+//! terms beyond three times the segment's step (Fritsch–Carlson).
 //! The input loses nothing finer than w·2^-31 of shift.
 //!
 //! ```
@@ -117,7 +119,9 @@ pub enum CurveError {
     /// what the fixed-point path evaluates without overflow.
     SegmentTooSteep,
     /// Derivatives given do not match the nodes (count) or break
-    /// monotonicity (sign).
+    /// monotonicity: a sign against the table's direction, or a tangent
+    /// term w·dy/ds beyond three times the segment's step (Fritsch &
+    /// Carlson's limit, which `pchip_derivatives` always keeps).
     BadDerivatives,
 }
 
@@ -678,6 +682,16 @@ fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i32, i32, 
     if dy.unsigned_abs() >= 1 << 29 {
         return Err(CurveError::SegmentTooSteep);
     }
+    // Fritsch & Carlson (SIAM J. Numer. Anal. 17(2), 1980): with both
+    // tangents between 0 and 3 steps the cubic is monotone, so it stays
+    // between y0 and y1 and the stated bound holds without clamping. Two
+    // Q8 units of slack for the rounding of stored derivatives;
+    // Fritsch–Butland tangents are at most 3 (inside) and 2 (at the ends)
+    // steps of either neighbouring segment.
+    let limit = 3 * dy.unsigned_abs() + 2;
+    if d0.unsigned_abs() > limit || d1.unsigned_abs() > limit {
+        return Err(CurveError::BadDerivatives);
+    }
     let fit = |v: i64| i32::try_from(v).map_err(|_| CurveError::SegmentTooSteep);
     Ok((fit(d0)?, fit(3 * dy - 2 * d0 - d1)?, fit(d0 + d1 - 2 * dy)?))
 }
@@ -933,6 +947,19 @@ mod tests {
         );
         assert_eq!(
             Curve::monotone_cubic(&[node(0.0, 0), node(0.1, 10)], &[1, -1]),
+            Err(CurveError::BadDerivatives)
+        );
+        // Tangents up to three steps pass, beyond them the cubic would
+        // overshoot its segment: refused. dy/ds of 300 per unit shift over
+        // a 0.1-wide segment of step 10 is a tangent term of 30 units.
+        let q16 = |d: f64| (d * 65_536.0).round() as i64;
+        assert!(Curve::monotone_cubic(&[node(0.0, 0), node(0.1, 10)], &[q16(300.0), 0]).is_ok());
+        assert_eq!(
+            Curve::monotone_cubic(&[node(0.0, 0), node(0.1, 10)], &[q16(310.0), 0]),
+            Err(CurveError::BadDerivatives)
+        );
+        assert_eq!(
+            Curve::monotone_cubic(&[node(0.0, 0), node(0.1, 10)], &[0, q16(310.0)]),
             Err(CurveError::BadDerivatives)
         );
     }
