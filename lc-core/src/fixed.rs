@@ -162,8 +162,8 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
 pub(crate) const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
 /// Leading zeros of a `u32`. ARMv6-M has no count-leading-zeros
-/// instruction; there a five-step binary search inline
-/// ([`leading_zeros_steps`]) replaces the library's count, a call of about
+/// instruction; there two halving steps and a 256-byte table inline
+/// ([`leading_zeros_steps`]) replace the library's count, a call of about
 /// 30 instructions.
 #[inline]
 pub(crate) fn leading_zeros_u32(x: u32) -> u32 {
@@ -306,16 +306,19 @@ const RECIPROCAL_NODES: [u32; 259] = {
 };
 
 /// Y ≈ 2^63/m for a normalised m (top bit set; then 2^31 ≤ Y < 2^32),
-/// within a relative 2^-28 (worst seen 0.958·2^-28, `reciprocal_sweep`):
-/// Bessel's central-difference interpolation formula to second
-/// differences between the two [`RECIPROCAL_NODES`] around m, 256
-/// intervals, m's low 23 bits the place u in the interval. Its leading
-/// remainder term, u(u − 1)(u − 1/2)/6 times the third difference (from
-/// memory: the formula's textbook remainder), is at most 0.008 of
-/// 1.5·2^-22 relative, 2^-28.4; the integer truncations add under 3 units
-/// (2^-30.4). No division and no 32 × 32 → 64-bit
-/// product: five 16 × 16-bit multiplies, about 40 instructions on a
-/// Cortex-M0. The level ratio ([`div_q40`]), the drift model's offset
+/// within a relative 2^-28: the worst over every normalised m is
+/// 0.95875·2^-28, at m = 0x8018_1079 (`reciprocal_exhaustive`, an
+/// ignored test of about 12 s in release; `reciprocal_sweep` runs a
+/// sixty-first of it on every test run). The method: Bessel's
+/// central-difference interpolation formula to second differences between
+/// the two [`RECIPROCAL_NODES`] around m, 256 intervals, m's low 23 bits
+/// the place u in the interval. Its leading remainder term,
+/// u(u − 1)(u − 1/2)/6 times the third difference (from memory: the
+/// formula's textbook remainder), is at most about 2^-28.4 relative near
+/// m = 2^31; the nodes' rounding and the integer truncations add a few
+/// units. No division and no 32 × 32 → 64-bit product: five multiplies
+/// of at most 16 × 16 bits' worth (24 × 7 and 14 × 18 among them), each
+/// below 2^32, about 40 instructions on a Cortex-M0. The level ratio ([`div_q40`]), the drift model's offset
 /// form and the NTC's temperature from 1/T use it.
 #[inline]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
@@ -459,6 +462,27 @@ mod tests {
         );
     }
 
+    /// Every normalised mantissa: the reciprocal within its stated 2^-28
+    /// (worst 0.95875·2^-28 at m = 0x8018_1079). About 12 s in release:
+    /// `cargo test --release -p lc-core reciprocal_exhaustive -- --ignored`.
+    #[test]
+    #[ignore]
+    fn reciprocal_exhaustive() {
+        let (mut worst, mut at) = (0u128, 0u32);
+        for m in (1u32 << 31)..=u32::MAX {
+            let err = (u128::from(reciprocal_q63(m)) * u128::from(m)).abs_diff(1 << 63);
+            if err > worst {
+                (worst, at) = (err, m);
+            }
+        }
+        assert!(
+            worst <= 1 << 35,
+            "{}·2^-28 at {at:#x}",
+            worst as f64 / 2f64.powi(35)
+        );
+        assert_eq!(at, 0x8018_1079);
+    }
+
     #[test]
     fn normalised_mantissas() {
         assert_eq!(normalise(0), (0, 32));
@@ -566,6 +590,14 @@ mod tests {
             } else {
                 prop_assert_eq!(got, 0);
             }
+        }
+
+        /// The positive-divisor form equals the general division.
+        #[test]
+        fn division_by_a_positive_divisor_is_the_division(a: i64, b in 1i64.., small in 1i64..1 << 20) {
+            prop_assert_eq!(div_q40_by_positive(a, b.unsigned_abs()), div_q40(a, b));
+            prop_assert_eq!(div_q40_by_positive(a, small.unsigned_abs()), div_q40(a, small));
+            prop_assert_eq!(div_q40_by_positive(a >> 20, b.unsigned_abs()), div_q40(a >> 20, b));
         }
 
         #[test]

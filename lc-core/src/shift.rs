@@ -310,10 +310,11 @@ impl ShiftConverter {
         self.shift(pair)
     }
 
-    /// [`ShiftConverter::shift_inline`] of `ticks` over the configured gate
-    /// (the caller has compared the cycles with it), equal to
-    /// `shift(CountPair::new(gate, ticks))`. Without a configured gate it
-    /// is that call.
+    /// [`ShiftConverter::shift_inline`] of `ticks` over the configured gate,
+    /// equal to `shift(CountPair::new(gate, ticks))`. Precondition: the
+    /// converter has a configured gate and the caller has compared the
+    /// pair's cycles with it (`Front::checked_shift`, through the gate's
+    /// tick band); without a gate it returns `ZeroCount`.
     #[inline(always)]
     pub(crate) fn shift_at_gate(&self, ticks: u32) -> Result<Shift, ShiftError> {
         // ticks = 0 gives x = 0, which `square_in_domain` refuses.

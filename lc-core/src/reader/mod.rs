@@ -639,6 +639,32 @@ pub(crate) mod tests {
             prop_assert!((f64::from(fixed.value) - float).abs() <= bound, "{} vs {} (bound {})", fixed.value, float, bound);
         }
 
+        /// The fault window and the shift through the tick band's shortcut
+        /// equal the full check followed by the general shift, errors
+        /// included: pairs at the gate in and around the band, any pair.
+        #[test]
+        fn checked_shift_equals_check_then_shift(ticks: u32, near in 0u32..400_000, cycles: u32, level: bool) {
+            let cal = if level { level_cal(true, false) } else { demo_proximity().unwrap() };
+            let front = Front::new(&cal, false).unwrap();
+            let gate = cal.gate().unwrap();
+            let (lo, hi) = front.gate_band.unwrap().1;
+            let pairs = [
+                CountPair::new(gate, ticks),
+                CountPair::new(gate, lo.saturating_sub(200_000).saturating_add(near)),
+                CountPair::new(gate, hi.saturating_sub(200_000).saturating_add(near)),
+                CountPair::new(cycles, ticks),
+            ];
+            for pair in pairs {
+                let fast = front.checked_shift(&front.converter, pair, SensorFault::Counts);
+                let slow = front
+                    .window
+                    .check(pair)
+                    .map_err(SensorFault::Counts)
+                    .and_then(|_| front.converter.shift(pair).map_err(SensorFault::Shift));
+                prop_assert_eq!(fast, slow, "{:?}", pair);
+            }
+        }
+
         /// Arbitrary inputs never panic any reader.
         #[test]
         fn readers_never_panic(cycles: u32, ticks: u32, comp: Option<(u32, u32)>, t: Option<i32>, ring: Option<u16>, which in 0usize..4) {
