@@ -156,10 +156,19 @@ impl FaultWindow {
         gate_cycles: u32,
         band: (u32, u32),
     ) -> Result<(), FaultError> {
-        if pair.cycles == gate_cycles && pair.ticks >= band.0 && pair.ticks <= band.1 {
+        if Self::in_band(pair, gate_cycles, band) {
             return Ok(());
         }
         self.check(pair).map(|_| ())
+    }
+
+    /// [`FaultWindow::check_ticks`]'s two comparisons: whether `pair` has
+    /// exactly `gate_cycles` and its ticks inside `band`
+    /// ([`FaultWindow::ticks_band`] of that gate), so that the window
+    /// passes it. `false` says nothing: the pair needs the full check.
+    #[inline(always)]
+    pub fn in_band(pair: CountPair, gate_cycles: u32, band: (u32, u32)) -> bool {
+        pair.cycles == gate_cycles && pair.ticks >= band.0 && pair.ticks <= band.1
     }
 
     /// The pair itself when it is plausible; the first failed check

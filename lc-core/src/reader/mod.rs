@@ -227,8 +227,8 @@ impl Front {
         pair: CountPair,
         window: impl FnOnce(FaultError) -> SensorFault,
     ) -> Result<Shift, SensorFault> {
-        if let Some((gate, (lo, hi))) = self.gate_band {
-            if pair.cycles == gate && pair.ticks >= lo && pair.ticks <= hi {
+        if let Some((gate, band)) = self.gate_band {
+            if FaultWindow::in_band(pair, gate, band) {
                 return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
             }
         }
