@@ -318,12 +318,14 @@ const RECIPROCAL_NODES: [u32; 259] = {
 /// m = 2^31; the nodes' rounding and the integer truncations add a few
 /// units. No division and no 32 × 32 → 64-bit product: five multiplies
 /// of at most 16 × 16 bits' worth (24 × 7 and 14 × 18 among them), each
-/// below 2^32, about 40 instructions on a Cortex-M0. The level ratio ([`div_q40`]), the drift model's offset
-/// form and the NTC's temperature from 1/T use it.
+/// below 2^32, about 40 instructions on a Cortex-M0. The level ratio
+/// ([`div_q40`]), the drift model's offset form and the NTC's temperature
+/// from 1/T use it.
 #[inline]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
-    let m = m | (1 << 31); // normalised by contract
-                           // Bits 23..30 pick the interval j, bits 0..22 the place u = f/2^23.
+    // Normalised by contract. Bits 23..30 pick the interval j, bits 0..22
+    // the place u = f/2^23.
+    let m = m | (1 << 31);
     let j = ((m >> 23) & 255) as usize;
     let f = m & 0x7F_FFFF;
     // Nodes j − 1, j, j + 1, j + 2 at indices j..=j + 3 ≤ 258: in bounds.
@@ -364,19 +366,20 @@ pub fn div_q40(a: i64, b: i64) -> Option<i64> {
     if b == 0 {
         return None;
     }
-    let q = quotient_q40(a.unsigned_abs(), b.unsigned_abs())?;
-    Some(if (a < 0) != (b < 0) { -q } else { q })
+    let q = div_q40_by_positive(a, b.unsigned_abs())?;
+    Some(if b < 0 { -q } else { q })
 }
 
 /// [`div_q40`] for a positive divisor (the level reader's reference shift,
-/// checked positive first), without the divisor's sign and zero tests.
+/// checked positive first), without the divisor's sign and zero tests; a
+/// zero `b` divides by 1.
 #[inline]
 pub(crate) fn div_q40_by_positive(a: i64, b: u64) -> Option<i64> {
     let q = quotient_q40(a.unsigned_abs(), b | u64::from(b == 0))?;
     Some(if a < 0 { -q } else { q })
 }
 
-/// |a|·2^40/|b| for b ≠ 0, as [`div_q40`] states it; `None` when it does
+/// |a|·2^40/b for b ≠ 0, as [`div_q40`] states it; `None` when it does
 /// not fit an `i64`.
 #[inline(always)]
 fn quotient_q40(a: u64, b: u64) -> Option<i64> {
