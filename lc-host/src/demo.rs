@@ -1,8 +1,8 @@
-//! The demo scenario (DESIGN.md §8) end to end, in one folder: a lot of 24
-//! proximity units simulated, calibrated and reported; one unit's image
-//! inspected; that unit logged on a warming press, converted exactly as its
-//! firmware would, verified and budgeted. Everything comes from the
-//! project's own simulator; nothing is downloaded.
+//! The demo scenario (docs/references.md, Demo scenario) end to end, in one
+//! folder: a lot of 24 proximity units simulated, calibrated and reported; one
+//! unit's image inspected; that unit logged on a warming press, converted
+//! exactly as its firmware would, verified and budgeted. Everything comes from
+//! the project's own simulator; nothing is downloaded.
 
 use crate::budget::{budget, class1_tempco_ppm_per_k, to_text as budget_text, BudgetInput, Gating};
 use crate::calib::lot::calibrate_lot;

@@ -2,13 +2,13 @@
 //!
 //! - Water: Malmberg & Maryott, "Dielectric constant of water from 0° to
 //!   100 °C", J. Res. NBS 56(1):1–8, 1956: ε = 87.740 − 0.40008·t +
-//!   9.398e-4·t² − 1.410e-6·t³, t in °C, 0–100 °C (REFERENCES.md §7
-//!   \[CONFIRMED-2nd\]).
+//!   9.398e-4·t² − 1.410e-6·t³, t in °C, 0–100 °C (docs/references.md,
+//!   Malmberg & Maryott 1956; published, quoted).
 //! - Other liquids: the CRC Handbook table "Permittivity (Dielectric
 //!   Constant) of Liquids" (CRC 95th ed., 2014, as shipped in the `chemicals`
-//!   data; REFERENCES.md §7 \[CONFIRMED\]), single values at 20 °C (toluene at
-//!   23.2 °C); no temperature model, so the value is returned for any
-//!   temperature and the caller is told so.
+//!   data; docs/references.md, Water and liquids; published), single values at
+//!   20 °C (toluene at 23.2 °C); no temperature model, so the value is returned
+//!   for any temperature and the caller is told so.
 
 /// A liquid's permittivity at a temperature, and where the value comes from.
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
@@ -22,7 +22,8 @@ pub struct Permittivity {
     pub source: &'static str,
 }
 
-/// CRC Handbook values at 20 °C (REFERENCES.md §7 [CONFIRMED]).
+/// CRC Handbook values at 20 °C (docs/references.md, Water and liquids;
+/// published).
 const CRC: [(&str, f64); 15] = [
     ("ethanol", 25.3),
     ("methanol", 33.0),
@@ -76,9 +77,9 @@ pub fn permittivity(name: &str, t_c: f64) -> Option<Permittivity> {
 mod tests {
     use super::*;
 
-    /// REFERENCES.md §7: Malmberg & Maryott [COMPUTED from the confirmed
-    /// formula]: 87.740 at 0 °C, 80.103 at 20 °C, 78.303 at 25 °C (the
-    /// paper's abstract: 78.30), 55.720 at 100 °C.
+    /// docs/references.md, Water and liquids: Malmberg & Maryott, computed
+    /// from the published polynomial: 87.740 at 0 °C, 80.103 at 20 °C, 78.303
+    /// at 25 °C (the paper's abstract: 78.30), 55.720 at 100 °C.
     #[test]
     fn water_published_values() {
         for (t, e) in [
@@ -93,8 +94,8 @@ mod tests {
         assert_eq!(water(42.0), crate::sim::level::water_permittivity(42.0));
     }
 
-    /// CRC values (REFERENCES.md §7 [CONFIRMED]); hexadecane is the
-    /// citable diesel surrogate.
+    /// CRC values (docs/references.md, Water and liquids; published);
+    /// hexadecane is the citable diesel surrogate.
     #[test]
     fn crc_values() {
         assert_eq!(permittivity("Ethanol", 20.0).unwrap().value, 25.3);
@@ -104,10 +105,10 @@ mod tests {
         assert_eq!(names().count(), 16);
     }
 
-    /// REFERENCES.md §7 7d: a level sensor of two capacitors in parallel
-    /// (H = 1 m, a = 5 mm, b = 20 mm): with εr = 2.046 (hexadecane), C at
-    /// h = 0 / 0.25 / 0.5 / 1 m is 40.130 / 50.624 / 61.119 / 82.107 pF
-    /// [COMPUTED].
+    /// docs/references.md, Coaxial capacitor cases, 7d: a level sensor of two
+    /// capacitors in parallel (H = 1 m, a = 5 mm, b = 20 mm): with εr = 2.046
+    /// (hexadecane), C at h = 0 / 0.25 / 0.5 / 1 m is 40.130 / 50.624 / 61.119
+    /// / 82.107 pF (computed).
     #[test]
     fn probe_with_a_crc_liquid() {
         let probe = lc_core::geometry::CoaxialProbe {

@@ -15,7 +15,7 @@ use std::path::PathBuf;
 /// Seeded: the same seed gives the same log. Faults on request: cracked capacitors
 /// (--bad-every) and corrupted rows (--corrupt-every), to see the acceptance work.
 ///
-/// Example (the demo lot of DESIGN §8):
+/// Example (the demo lot, docs/references.md, Demo scenario):
 ///
 ///   lc-host simulate rig --lot DEMO-01 --units 24 --seed 1 -o rig.csv
 #[derive(clap::Args)]

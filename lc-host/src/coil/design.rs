@@ -892,7 +892,7 @@ mod tests {
     #[test]
     fn demo_coil_report() {
         let r = design(&demo_input()).unwrap();
-        // About 7.25 µH (DESIGN.md §8 demo coil).
+        // About 7.25 µH (docs/references.md, Demo scenario).
         assert!(
             (r.design_inductance_h - 7.25e-6).abs() < 0.1e-6,
             "{}",
