@@ -565,9 +565,18 @@ pub(crate) mod tests {
 
     #[test]
     fn case_1a_undamped_f0_10mh_1uf() {
-        // docs/references.md, LC tank cases, 1a: f0 = 1591.549 Hz, 1e-6 rel.
-        // Computed, "classic textbook value". Checks the undamped f0.
-        assert_rel(resonant_frequency_hz(10e-3, 1e-6), 1591.549, 1e-6, "f0");
+        // docs/references.md, LC tank cases, 1a: f0 = 1591.549 Hz, the
+        // classic textbook value (computed, not read in a source). Checked by
+        // two laws that share nothing with the code's 1/(2π√(LC)): √(LC) =
+        // 10⁻⁴ s exactly, so f0 = 10⁴/(2π) Hz; and at f0 the reactances
+        // cancel, 2πf0·L = 1/(2πf0·C), the definition of series resonance.
+        let (l_h, c_f) = (10e-3, 1e-6);
+        let f0 = resonant_frequency_hz(l_h, c_f);
+        assert_printed(f0, 1591.549, 0.0, 0.0005, "f0");
+        assert_rel(f0, 1e4 / (2.0 * PI), 2e-15, "f0 = 10⁴/(2π)");
+        let x_l = 2.0 * PI * f0 * l_h;
+        let x_c = 1.0 / (2.0 * PI * f0 * c_f);
+        assert_rel(x_l, x_c, 2e-15, "X_L = X_C at f0");
     }
 
     #[test]
