@@ -9,6 +9,7 @@
 //! s = Δ(L·C)/(L·C) by δs = 2·δf/f·(1 + s) (to first order), and
 //! ΔL/L = ΔC/C = −2·Δf/f.
 
+use crate::quantity::eng;
 use lc_core::curve::Curve;
 use lc_core::tank::resonant_frequency_with_parasitic_hz;
 
@@ -264,26 +265,6 @@ pub fn budget(b: &BudgetInput, curve: Option<&Curve>) -> BudgetReport {
         gate_for_target,
         nodes,
     }
-}
-
-fn eng(v: f64, unit: &str) -> String {
-    let a = v.abs();
-    let (x, p) = if a == 0.0 {
-        (v, "")
-    } else if a >= 1e6 {
-        (v / 1e6, "M")
-    } else if a >= 1e3 {
-        (v / 1e3, "k")
-    } else if a >= 1.0 {
-        (v, "")
-    } else if a >= 1e-3 {
-        (v * 1e3, "m")
-    } else if a >= 1e-6 {
-        (v * 1e6, "µ")
-    } else {
-        (v * 1e9, "n")
-    };
-    format!("{x:.4} {p}{unit}")
 }
 
 /// The budget as a text table.

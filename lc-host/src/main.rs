@@ -36,6 +36,9 @@ enum Command {
     Budget(cmd::budget::Args),
     Coil(cmd::coil::Args),
     Probe(cmd::probe::Args),
+    Loops(cmd::loops::Args),
+    Ntc(cmd::ntc::Args),
+    Volume(cmd::volume::Args),
 }
 
 fn main() -> ExitCode {
@@ -52,6 +55,9 @@ fn main() -> ExitCode {
         Command::Budget(a) => cmd::budget::run(a),
         Command::Coil(a) => cmd::coil::run(a),
         Command::Probe(a) => cmd::probe::run(a),
+        Command::Loops(a) => cmd::loops::run(a),
+        Command::Ntc(a) => cmd::ntc::run(a),
+        Command::Volume(a) => cmd::volume::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

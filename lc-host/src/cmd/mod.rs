@@ -7,15 +7,43 @@ pub mod convert;
 pub mod counts;
 pub mod demo;
 pub mod inspect;
+pub mod loops;
+pub mod ntc;
 pub mod probe;
 pub mod simulate;
 pub mod units;
 pub mod verify;
+pub mod volume;
 
 use anyhow::{Context, Result};
 use lc_host::atomic::write_atomically;
 use std::io::{BufReader, IsTerminal, Read, Write};
 use std::path::Path;
+
+/// A quantity with an optional SI prefix and unit (`48M`, `100pF`, `4.7k`):
+/// the library's one parser, for clap.
+pub fn si(s: &str) -> Result<f64, String> {
+    lc_host::quantity::parse_si(s).map_err(|e| e.to_string())
+}
+
+/// A length with a unit (`20mm`, `300um`, `0.5in`), for clap.
+pub fn length(s: &str) -> Result<f64, String> {
+    lc_host::quantity::parse_length(s).map_err(|e| e.to_string())
+}
+
+/// A radius from `--radius` or, halved, from `--diameter` (exactly one of
+/// them; clap's groups enforce it), positive.
+pub fn radius_or_diameter(radius: Option<f64>, diameter: Option<f64>, what: &str) -> Result<f64> {
+    let r = match (radius, diameter) {
+        (Some(r), None) => r,
+        (None, Some(d)) => d / 2.0,
+        _ => anyhow::bail!("give the {what} as a radius or as a diameter, not both"),
+    };
+    if !(r.is_finite() && r > 0.0) {
+        anyhow::bail!("the {what} must be above zero");
+    }
+    Ok(r)
+}
 
 /// Opens a file, or standard input for `-`.
 pub fn open_input(path: &Path, what: &str) -> Result<Box<dyn Read>> {
