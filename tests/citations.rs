@@ -214,9 +214,12 @@ fn check_file(
             }
             let end = bytes.get(j).map(|b| b.0).unwrap_or(line.len());
             let word = trim_path(&line[start..end]);
-            // A glob, a placeholder or a path built in code is not a mention.
+            // A glob, a placeholder or a path built in code (`$dir/x.md`,
+            // `{dir}/x.md`) is not a mention.
             let next = line[end..].chars().next();
-            let built = matches!(next, Some('*' | '{' | '<' | '$'));
+            let prev = line[..start].chars().next_back();
+            let built = matches!(next, Some('*' | '{' | '<' | '$'))
+                || matches!(prev, Some('$' | '}' | '{'));
             if !built && !word.is_empty() {
                 if ROOTS.iter().any(|r| word.starts_with(r)) {
                     if !exists(root, file, word) {
@@ -328,6 +331,7 @@ fn the_checker_catches_each_kind_of_bad_citation() {
         ),
         ("/// docs/references.md, Monotone\n/// splines.", 1),
         ("// examples/firmware/data/*.lcim", 0),
+        ("cat \"$work/cost.md\"", 0),
     ];
     for (text, expected) in cases {
         let mut f = Findings::default();

@@ -1,6 +1,6 @@
-//! The design commands (`loops`, `ntc`, `volume`) against the check values
-//! of docs/references.md, run through the binary with `--json`; and a plan
-//! whose `[tank]` is a strapping table.
+//! The design commands (`loops`, `ntc`, `volume`), run through the binary
+//! with `--json`, against the check values in docs/references.md; and a
+//! plan whose `[tank]` is a strapping table.
 
 use lc_host::calib::plan::Plan;
 use lc_host::calib::unit::fit_unit;
