@@ -23,6 +23,15 @@ pub enum Gating {
     Direct,
 }
 
+impl std::fmt::Display for Gating {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Gating::Reciprocal => "reciprocal",
+            Gating::Direct => "direct",
+        })
+    }
+}
+
 /// The temperature coefficient of an EIA class-1 ceramic capacitor code
 /// (EIA-198; docs/references.md, EIA-198; published, quoted): (nominal,
 /// tolerance) in ppm/K. `None` for an unknown code. Digits 4, 5 and 9 follow
@@ -283,7 +292,7 @@ pub fn to_text(r: &BudgetReport, unit: &str) -> String {
     row(
         "gating",
         format!(
-            "{:?}: {:.0} cycles, {:.0} ticks, {}",
+            "{}: {:.0} cycles, {:.0} ticks, {}",
             r.gating,
             r.cycles,
             r.ticks,

@@ -47,19 +47,35 @@ pub fn names() -> impl Iterator<Item = &'static str> {
     std::iter::once("water").chain(CRC.iter().map(|(n, _)| *n))
 }
 
-/// Water by Malmberg & Maryott (1956), 0–100 °C (clamped).
-pub fn water(t_c: f64) -> f64 {
-    let t = t_c.clamp(0.0, 100.0);
-    87.740 - 0.40008 * t + 9.398e-4 * t * t - 1.410e-6 * t * t * t
+/// Why a liquid's permittivity is not given.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+pub enum LiquidError {
+    /// A name this module does not know.
+    #[error("liquid {0:?}: unknown; `lc-host probe --liquid list` shows the known names")]
+    Unknown(String),
+    /// Water outside the range of its formula.
+    #[error("water at {0} °C: Malmberg & Maryott's formula holds from 0 to 100 °C only; give a liquid temperature in that range")]
+    WaterOutOfRange(f64),
 }
 
-/// The permittivity of a named liquid at `t_c`, or `None` for an unknown
-/// name.
-pub fn permittivity(name: &str, t_c: f64) -> Option<Permittivity> {
+/// Water by Malmberg & Maryott (1956), for 0–100 °C; outside that range
+/// (or NaN) an error, not an extrapolation.
+pub fn water(t_c: f64) -> Result<f64, LiquidError> {
+    if !(0.0..=100.0).contains(&t_c) {
+        return Err(LiquidError::WaterOutOfRange(t_c));
+    }
+    let t = t_c;
+    Ok(87.740 - 0.40008 * t + 9.398e-4 * t * t - 1.410e-6 * t * t * t)
+}
+
+/// The permittivity of a named liquid at `t_c`: water by its formula (an
+/// error outside 0–100 °C), the others by their single CRC value (flagged
+/// by `temperature_model: false`).
+pub fn permittivity(name: &str, t_c: f64) -> Result<Permittivity, LiquidError> {
     let key = name.trim().to_ascii_lowercase();
     if key == "water" {
-        return Some(Permittivity {
-            value: water(t_c),
+        return Ok(Permittivity {
+            value: water(t_c)?,
             temperature_model: true,
             source: "Malmberg & Maryott 1956",
         });
@@ -71,6 +87,7 @@ pub fn permittivity(name: &str, t_c: f64) -> Option<Permittivity> {
             temperature_model: false,
             source: "CRC Handbook, 95th ed. (2014), at 20 °C",
         })
+        .ok_or_else(|| LiquidError::Unknown(name.to_string()))
 }
 
 #[cfg(test)]
@@ -88,10 +105,22 @@ mod tests {
             (25.0, 78.303),
             (100.0, 55.720),
         ] {
-            assert!((water(t) - e).abs() < 5e-4, "{t}: {}", water(t));
+            let w = water(t).unwrap();
+            assert!((w - e).abs() < 5e-4, "{t}: {w}");
         }
         // The same formula as the level simulator.
-        assert_eq!(water(42.0), crate::sim::level::water_permittivity(42.0));
+        assert_eq!(water(42.0), Ok(crate::sim::level::water_permittivity(42.0)));
+    }
+
+    /// Outside 0–100 °C the formula does not hold: an error naming the
+    /// range, never the value at the nearest end.
+    #[test]
+    fn water_outside_its_range_is_an_error() {
+        for t in [-10.0, -0.001, 100.5, f64::NAN] {
+            let e = permittivity("water", t).unwrap_err();
+            assert!(e.to_string().contains("0 to 100 °C"), "{e}");
+        }
+        assert!(permittivity("water", 0.0).is_ok() && permittivity("water", 100.0).is_ok());
     }
 
     /// CRC values (docs/references.md, Water and liquids; published);
@@ -101,7 +130,10 @@ mod tests {
         assert_eq!(permittivity("Ethanol", 20.0).unwrap().value, 25.3);
         assert_eq!(permittivity("n-hexadecane", 20.0).unwrap().value, 2.046);
         assert!(!permittivity("glycerol", 60.0).unwrap().temperature_model);
-        assert!(permittivity("mercury", 20.0).is_none());
+        assert_eq!(
+            permittivity("mercury", 20.0),
+            Err(LiquidError::Unknown("mercury".into()))
+        );
         assert_eq!(names().count(), 16);
     }
 
