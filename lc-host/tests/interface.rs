@@ -220,6 +220,20 @@ fn no_debug_output_reaches_a_user() {
     );
 }
 
+/// `inspect` names the reader kind as a word in text and JSON.
+#[test]
+fn inspect_names_the_reader_kind_in_words() {
+    let t = ok(&["inspect", "examples/firmware/data/demo-level.lcim"]);
+    assert!(t.contains("reader        level"), "{t}");
+    assert!(!t.contains("Level\n"), "{t}");
+    let j = ok(&[
+        "inspect",
+        "examples/firmware/data/demo-metal.lcim",
+        "--json",
+    ]);
+    assert!(j.contains("\"kind\": \"metal\""), "{j}");
+}
+
 /// Out-of-domain design inputs: water outside 0–100 °C is an error, a CRC
 /// liquid far from 20 °C a warning; a level outside a tank an error.
 #[test]
