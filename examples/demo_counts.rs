@@ -1,13 +1,14 @@
 //! Writes the bundled demo field log `examples/data/demo-counts.csv`.
 //!
-//! Demo scenario (invented, DESIGN.md §8): a proximity sensor with a 20 mm
-//! two-layer PCB spiral (about 7.25 µH) and a 100 pF class-1 capacitor plus
-//! 10 pF of parasitics, counted with a 48 MHz reference over reciprocal
-//! gates of 16 384 sensor cycles. An aluminium ram plate travels from 8 mm
-//! to 0.5 mm and back. The eddy-current coupling is the simple demo model
-//! L(d) = L∞ · (1 − 0.45 · e^(−d / 2.5 mm)); the project's full physics
-//! simulator replaces it. One dropout (oscillator stalled) and one reading
-//! with a stuck reference counter are included so the fault window shows.
+//! Demo scenario (invented; docs/references.md, Demo scenario): a proximity
+//! sensor with a 20 mm two-layer PCB spiral (about 7.25 µH) and a 100 pF
+//! class-1 capacitor plus 10 pF of parasitics, counted with a 48 MHz reference
+//! over reciprocal gates of 16 384 sensor cycles. An aluminium ram plate
+//! travels from 8 mm to 0.5 mm and back. The eddy-current coupling is the
+//! simple demo model L(d) = L∞ · (1 − 0.45 · e^(−d / 2.5 mm)); the project's
+//! full physics simulator replaces it. One dropout (oscillator stalled) and one
+//! reading with a stuck reference counter are included so the fault window
+//! shows.
 //!
 //! `cargo run --example demo_counts > examples/data/demo-counts.csv`; the
 //! rest point for `lc-host counts` is printed on standard error.

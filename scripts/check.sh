@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The project's whole test suite: formatting, lints, docs, tests (host,
 # property, published checks, emulator), cross builds for Cortex-M0 and
-# Cortex-M4F with and without defmt, and the panic-freedom proof.
+# Cortex-M4F with and without defmt, the panic-freedom proof, and that the
+# measured figures of docs/performance.md are current.
 #
 #   bash scripts/check.sh
 #
@@ -71,6 +72,13 @@ log=$(mktemp)
 trap 'rm -f "$log"' EXIT
 cargo test --workspace 2>&1 | tee "$log"
 totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
+
+if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then
+    step "docs/performance.md is current (scripts/perf-figures.sh --check)"
+    bash scripts/perf-figures.sh --check
+else
+    missing "measured figures check (targets and qemu-system-arm)" "rustup target add ${targets[*]}; apt-get install qemu-system-arm"
+fi
 
 if [ ${#skipped[@]} -gt 0 ]; then
     printf '\nSKIPPED (not a failure on a developer machine):\n'

@@ -12,7 +12,8 @@
 //! LC_WRITE_IMAGES=1 cargo test --test firmware_images
 //! ```
 //!
-//! The units belong to the demo scenario (invented; DESIGN.md §8):
+//! The units belong to the demo scenario (invented; docs/references.md, Demo
+//! scenario):
 //!
 //! - `demo-proximity`: [`demo_proximity`], the 20 mm PCB coil with 100 pF
 //!   at a 48 MHz reference and a 16 384-cycle gate (rest 16384:139542),

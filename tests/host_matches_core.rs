@@ -1,6 +1,8 @@
 //! Cross-crate: lc-host's conversion of the bundled demo log is lc-core's
-//! firmware path, value for value, and within a tenth of a count of the
-//! f64 reference.
+//! firmware path, value for value (the same Q23.40 shift as an lc-core
+//! converter with the same configured gate, for every row), and both that
+//! and lc-core's division path are within a tenth of a count of the f64
+//! reference.
 
 use lc_core::counting::{CountPair, Gating};
 use lc_core::shift::{RestPoint, ShiftConverter};
@@ -20,6 +22,13 @@ fn demo_log_converts_exactly_as_lc_core() {
         None,
     )
     .unwrap();
+    // The firmware's own configuration: the same configured gate.
+    let firmware = ShiftConverter::new(
+        RestPoint::from_counts(rest).unwrap(),
+        Gating::Reciprocal,
+        Some(16_384),
+    )
+    .unwrap();
     let mut ok = 0;
     for row in FieldLogReader::new(file, &path).expect("header") {
         let row = row.expect("demo rows parse");
@@ -32,6 +41,8 @@ fn demo_log_converts_exactly_as_lc_core() {
         // The division path and the configured-gate path agree within the
         // bound, and both within a tenth of a count of f64.
         let fixed = h.shift_q40.expect("ok rows carry a shift");
+        let same = firmware.shift(pair).expect("in range").raw_q40();
+        assert_eq!(fixed, same, "line {}: host and lc-core differ", row.line);
         let general = core.shift(pair).expect("in range").raw_q40();
         let f64_ref = core.shift_f64(pair);
         let step = 2.0 * (1.0 + f64_ref) / f64::from(pair.ticks);

@@ -36,7 +36,7 @@ measure() { # label, command...
     echo "$secs"  > "$work/$label.secs"
 }
 
-measure lc-host "$bin" convert --image "$image" --input "$work/field.csv" -o "$work/out-rust.csv"
+measure lc-host "$bin" convert "$work/field.csv" --image "$image" -o "$work/out-rust.csv"
 measure pandas python3 "$here/pandas_convert.py" "$work/image.json" "$work/field.csv" "$work/out-pandas.csv"
 ratio=$(echo "$(cat "$work/pandas.secs") / $(cat "$work/lc-host.secs")" | bc -l)
 printf 'lc-host is %.2f times faster than the pandas script\n' "$ratio"

@@ -32,13 +32,15 @@
 //!
 //! - Horizontal cylinder (circular segment): A(h) = R²·acos((R − h)/R) −
 //!   (R − h)·√(2Rh − h²), V = A·L for 0 ≤ h ≤ 2R (CRC Concise Encyclopedia
-//!   of Mathematics, "Cylindrical segment" [CONFIRMED-2nd]; REFERENCES.md
-//!   §12). Upright cylinder V = πR²h and prism V = A·h: standard.
-//! - Coaxial capacitor C = 2π·ε0·εr·ℓ / ln(b/a) (standard [CONFIRMED-2nd],
-//!   REFERENCES.md §7); the partially immersed probe as two such capacitors
-//!   in parallel, C(h) = C′_gas·(H − h) + C′_liquid·h (REFERENCES.md §7,
-//!   case 7d). ε0 = 8.8541878128×10⁻¹² F/m (CODATA 2018, the value the
-//!   reference list uses throughout): [`VACUUM_PERMITTIVITY_F_PER_M`].
+//!   of Mathematics, "Cylindrical segment"; published, quoted;
+//!   docs/references.md, Horizontal tank cases). Upright cylinder V = πR²h and
+//!   prism V = A·h: standard.
+//! - Coaxial capacitor C = 2π·ε0·εr·ℓ / ln(b/a) (standard, published, quoted;
+//!   docs/references.md, Coaxial capacitor cases); the partially immersed probe
+//!   as two such capacitors in parallel, C(h) = C′_gas·(H − h) + C′_liquid·h
+//!   (docs/references.md, Coaxial capacitor cases, case 7d). ε0 =
+//!   8.8541878128×10⁻¹² F/m (CODATA 2018, the value the reference list uses
+//!   throughout): [`VACUUM_PERMITTIVITY_F_PER_M`].
 //!
 //! # Level → volume table on the firmware
 //!
@@ -102,9 +104,10 @@
 //! takes where segments are wide: the property test holds the whole bound
 //! over 5 000 random tables per run (100 000 in a development run), and
 //! the dense grid below is measured with it. For
-//! the tank of REFERENCES.md §12 case 12c (R = 1 m, L = 4 m), level in
-//! 0.1 mm (top = 20 000), volume in mL (V_full = 12 566 371 mL), measured at
-//! every one of the 20 001 levels (test `published_tank_table_dense_grid`):
+//! the tank of docs/references.md, Horizontal tank cases, 12c (R = 1 m, L = 4
+//! m), level in 0.1 mm (top = 20 000), volume in mL (V_full = 12 566 371 mL),
+//! measured at every one of the 20 001 levels (test
+//! `published_tank_table_dense_grid`):
 //!
 //! | nodes | measured max error | stated bound |
 //! |---|---|---|
@@ -149,7 +152,7 @@ use core::f64::consts::PI;
 use core::fmt;
 
 /// Vacuum permittivity ε0 = 8.8541878128×10⁻¹² F/m (CODATA 2018; the value
-/// REFERENCES.md uses for every check).
+/// every check uses: docs/references.md, How sure each value is).
 pub const VACUUM_PERMITTIVITY_F_PER_M: f64 = 8.854_187_812_8e-12;
 
 /// `x` limited to `lo..=hi`; NaN stays NaN. Unlike `f64::clamp` it never
@@ -170,8 +173,9 @@ fn clamp_f64(x: f64, lo: f64, hi: f64) -> f64 {
 
 /// Volume of an upright cylinder filled to `level_m`: V = π·R²·h, in m³.
 ///
-/// Standard (REFERENCES.md §12: "a vertical tank is V = πR²h"). The level is
-/// clamped below at 0 (there is no top here: the caller knows the height).
+/// Standard (docs/references.md, Horizontal tank cases: "a vertical tank is V =
+/// πR²h"). The level is clamped below at 0 (there is no top here: the caller
+/// knows the height).
 pub fn vertical_cylinder_volume_m3(radius_m: f64, level_m: f64) -> f64 {
     PI * radius_m * radius_m * clamp_f64(level_m, 0.0, f64::INFINITY)
 }
@@ -210,9 +214,9 @@ fn theta_minus_sin(theta: f64) -> f64 {
 /// Fill fraction V/V_full of a horizontal cylinder filled to the depth
 /// fraction `depth_fraction` = h/(2R), clamped to 0…1 (NaN gives NaN).
 ///
-/// The circular-segment formula of REFERENCES.md §12, A(h) = R²·acos((R −
-/// h)/R) − (R − h)·√(2Rh − h²), evaluated in the equivalent form A =
-/// (R²/2)·(θ − sin θ) with θ = 2·acos(1 − h/R) = 4·asin(√(h/2R)), for
+/// The circular-segment formula of docs/references.md, Horizontal tank cases,
+/// A(h) = R²·acos((R − h)/R) − (R − h)·√(2Rh − h²), evaluated in the equivalent
+/// form A = (R²/2)·(θ − sin θ) with θ = 2·acos(1 − h/R) = 4·asin(√(h/2R)), for
 /// h ≤ R, and A(h) = πR² − A(2R − h) above. The literal form loses relative
 /// precision near the bottom (both of its terms grow as √h and cancel to
 /// h^1.5); this one keeps it at every depth. Independent of R and L.
@@ -287,7 +291,7 @@ fn lower_depth_fraction(q: f64) -> f64 {
 /// Cross-section A(h) of the liquid in a horizontal cylinder of radius
 /// `radius_m` filled to `level_m` (a circular segment), in m²:
 /// A(h) = R²·acos((R − h)/R) − (R − h)·√(2Rh − h²) for 0 ≤ h ≤ 2R
-/// (REFERENCES.md §12; evaluated as in
+/// (docs/references.md, Horizontal tank cases; evaluated as in
 /// [`horizontal_cylinder_fill_fraction`]). The level is clamped to 0…2R.
 pub fn circular_segment_area_m2(radius_m: f64, level_m: f64) -> f64 {
     PI * radius_m * radius_m * horizontal_cylinder_fill_fraction(level_m / (2.0 * radius_m))
@@ -436,8 +440,9 @@ impl TankShape {
 
 /// Capacitance per unit length of a coaxial capacitor, inner radius a, outer
 /// radius b, filled with a dielectric of relative permittivity εr:
-/// C′ = 2π·ε0·εr / ln(b/a), in F/m. Standard [CONFIRMED-2nd]
-/// (REFERENCES.md §7), with ε0 = [`VACUUM_PERMITTIVITY_F_PER_M`].
+/// C′ = 2π·ε0·εr / ln(b/a), in F/m. Standard (published, quoted)
+/// (docs/references.md, Coaxial capacitor cases), with ε0 =
+/// [`VACUUM_PERMITTIVITY_F_PER_M`].
 pub fn coaxial_capacitance_per_metre_f_per_m(
     inner_radius_m: f64,
     outer_radius_m: f64,
@@ -448,7 +453,7 @@ pub fn coaxial_capacitance_per_metre_f_per_m(
 }
 
 /// Capacitance of a coaxial capacitor of length ℓ: C = 2π·ε0·εr·ℓ / ln(b/a),
-/// in F (REFERENCES.md §7; end effects neglected).
+/// in F (docs/references.md, Coaxial capacitor cases; end effects neglected).
 pub fn coaxial_capacitance_f(
     length_m: f64,
     inner_radius_m: f64,
@@ -490,9 +495,9 @@ impl CoaxialProbe {
 
     /// Capacitance with liquid up to `level_m` and gas (vapour, air) above:
     /// two coaxial capacitors in parallel, C(h) = C′_gas·(H − h) +
-    /// C′_liquid·h (REFERENCES.md §7, case 7d), in F. The level is clamped to
-    /// 0…H. Air is εr ≈ 1.0006 (common practice); the reference checks use
-    /// 1.0.
+    /// C′_liquid·h (docs/references.md, Coaxial capacitor cases, case 7d), in
+    /// F. The level is clamped to 0…H. Air is εr ≈ 1.0006 (common practice);
+    /// the reference checks use 1.0.
     pub fn immersed_capacitance_f(
         &self,
         level_m: f64,
@@ -919,7 +924,7 @@ mod tests {
     use crate::curve::CurveStatus;
     use proptest::prelude::*;
 
-    /// Compare against a value as printed in REFERENCES.md: 1e-9 relative
+    /// Compare against a value as printed in docs/references.md: 1e-9 relative
     /// (the formula tolerance of the reference list) plus half a step of the
     /// last printed digit, since the printed value is itself rounded.
     fn assert_printed(actual: f64, printed: f64, half_step: f64, what: &str) {
@@ -930,7 +935,8 @@ mod tests {
         );
     }
 
-    /// The circular segment exactly as REFERENCES.md §12 prints it.
+    /// The circular segment exactly as docs/references.md, Horizontal tank
+    /// cases prints it.
     fn literal_segment_area(r: f64, h: f64) -> f64 {
         r * r * ((r - h) / r).acos() - (r - h) * (2.0 * r * h - h * h).sqrt()
     }
@@ -951,14 +957,14 @@ mod tests {
             + h * d[i + 1] * (t3 - t2)
     }
 
-    // ---- Published checks, REFERENCES.md §12 ------------------------------
+    // ---- Published checks, docs/references.md, Horizontal tank cases ----
 
-    /// REFERENCES.md §12 case 12b: fill fraction against depth fraction, for
-    /// any R and L. The three-decimal percentages are [COMPUTED] (the list's
-    /// mpmath/numpy values); the one-decimal table (1.9, 5.2, 14.2, 19.6,
-    /// 37.4, 50, 80.4, 94.8) is the source page's, [CONFIRMED-2nd], beside
-    /// the circular-segment formula of the CRC Concise Encyclopedia of
-    /// Mathematics, "Cylindrical segment".
+    /// docs/references.md, Horizontal tank cases, 12b: fill fraction against
+    /// depth fraction, for any R and L. The three-decimal percentages are
+    /// computed (the list's mpmath/numpy values); the one-decimal table (1.9,
+    /// 5.2, 14.2, 19.6, 37.4, 50, 80.4, 94.8) is the source page's (published,
+    /// quoted), beside the circular-segment formula of the CRC Concise
+    /// Encyclopedia of Mathematics, "Cylindrical segment".
     #[test]
     fn fill_fraction_matches_published_table() {
         for (depth, computed, page) in [
@@ -980,7 +986,8 @@ mod tests {
         }
     }
 
-    /// REFERENCES.md §12 case 12c, R = 1 m, L = 4 m [COMPUTED].
+    /// docs/references.md, Horizontal tank cases, 12c, R = 1 m, L = 4 m
+    /// (computed).
     #[test]
     #[allow(clippy::approx_constant)] // 6.283185 is the printed value of V(1) = 2π
     fn horizontal_tank_matches_case_12c() {
@@ -1028,8 +1035,8 @@ mod tests {
         assert_eq!(shape.height_m(), 2.0);
     }
 
-    /// REFERENCES.md §12 case 12e: depth fraction for a fill fraction
-    /// [COMPUTED, bisection].
+    /// docs/references.md, Horizontal tank cases, 12e: depth fraction for a
+    /// fill fraction (computed, bisection).
     #[test]
     fn inverse_matches_case_12e() {
         for (fill, depth) in [
@@ -1046,8 +1053,8 @@ mod tests {
         }
     }
 
-    /// REFERENCES.md §12 properties: V(2R − h) = V_full − V(h) and
-    /// V(R) = V_full/2.
+    /// docs/references.md, Horizontal tank cases properties: V(2R − h) = V_full
+    /// − V(h) and V(R) = V_full/2.
     #[test]
     fn symmetry_and_half() {
         let (r, l) = (0.2, 1.3);
@@ -1114,8 +1121,9 @@ mod tests {
         assert_eq!(shape.level_m(-1.0), 0.0);
     }
 
-    /// Upright shapes: the formulas V = πR²h and V = A·h (REFERENCES.md
-    /// §12, "a vertical tank is V = πR²h"; the prism is standard) and their
+    /// Upright shapes: the formulas V = πR²h and V = A·h (docs/references.md,
+    /// Horizontal tank cases: upright cylinder V = πR²h; the prism is common
+    /// practice) and their
     /// inverses.
     #[test]
     fn upright_shapes() {
@@ -1148,11 +1156,12 @@ mod tests {
         .is_valid());
     }
 
-    // ---- Published checks, REFERENCES.md §7 -------------------------------
+    // ---- Published checks, docs/references.md, Coaxial capacitor cases ----
 
-    /// REFERENCES.md §7 case 7a: ℓ = 1 m, a = 5 mm, b = 20 mm; air (εr 1)
-    /// 40.1304 pF, water (εr 80.1, CRC Handbook 95th ed. 2014 at 293.2 K)
-    /// 3214.44 pF [COMPUTED]. C = 2π·ε0·εr·ℓ/ln(b/a) [CONFIRMED-2nd].
+    /// docs/references.md, Coaxial capacitor cases, 7a: ℓ = 1 m, a = 5 mm, b =
+    /// 20 mm; air (εr 1) 40.1304 pF, water (εr 80.1, CRC Handbook 95th ed. 2014
+    /// at 293.2 K) 3214.44 pF (computed). C = 2π·ε0·εr·ℓ/ln(b/a) (published,
+    /// quoted).
     #[test]
     fn coaxial_matches_case_7a() {
         let c = |er| coaxial_capacitance_f(1.0, 0.005, 0.020, er) * 1e12;
@@ -1163,11 +1172,11 @@ mod tests {
         assert!((per_m * 1e12 - c(1.0)).abs() < 1e-12);
     }
 
-    /// REFERENCES.md §7 case 7b: Giancoli, *Physics for Scientists &
-    /// Engineers*, 4th ed. (2008), ch. 24 problem (III): a 2.0 m probe,
-    /// R_in = 4.5 mm, R_out = 5.0 mm, liquid nitrogen K = 1.4, vapour 1.0.
-    /// Problem text [CONFIRMED-2nd]; answers 1056.04 / 1478.46 pF
-    /// [COMPUTED] (the book's ≈ 1.1 / 1.5 nF is from memory).
+    /// docs/references.md, Coaxial capacitor cases, 7b: Giancoli, *Physics for
+    /// Scientists & Engineers*, 4th ed. (2008), ch. 24 problem (III): a 2.0 m
+    /// probe, R_in = 4.5 mm, R_out = 5.0 mm, liquid nitrogen K = 1.4, vapour
+    /// 1.0. Problem text (published, quoted); answers 1056.04 / 1478.46 pF
+    /// (computed; the book's ≈ 1.1 / 1.5 nF is from memory).
     #[test]
     fn coaxial_matches_case_7b() {
         let probe = CoaxialProbe {
@@ -1195,9 +1204,9 @@ mod tests {
         assert!((probe.capacitance_f(1.4) / 1.5e-9 - 1.0).abs() < 0.05);
     }
 
-    /// REFERENCES.md §7 case 7c: H = 1.5 m, R_in = 3.5 mm, R_out = 4.0 mm,
-    /// oil K = 2.2: full 1374.86 pF, empty 624.94 pF. Problem
-    /// [CONFIRMED-2nd]; answers [COMPUTED].
+    /// docs/references.md, Coaxial capacitor cases, 7c: H = 1.5 m, R_in = 3.5
+    /// mm, R_out = 4.0 mm, oil K = 2.2: full 1374.86 pF, empty 624.94 pF.
+    /// Problem published, quoted; answers computed.
     #[test]
     fn coaxial_matches_case_7c() {
         let probe = CoaxialProbe {
@@ -1209,10 +1218,10 @@ mod tests {
         assert_printed(probe.capacitance_f(1.0) * 1e12, 624.94, 5e-3, "7c empty");
     }
 
-    /// REFERENCES.md §7 case 7d [COMPUTED]: the level probe as two coaxial
-    /// capacitors in parallel, H = 1 m, a = 5 mm, b = 20 mm, gas εr = 1.
-    /// εr = 2.046 (n-hexadecane, CRC Handbook, a citable diesel surrogate)
-    /// and 80.1 (water at 20 °C, CRC Handbook).
+    /// docs/references.md, Coaxial capacitor cases, 7d (computed): the level
+    /// probe as two coaxial capacitors in parallel, H = 1 m, a = 5 mm, b = 20
+    /// mm, gas εr = 1. εr = 2.046 (n-hexadecane, CRC Handbook, a citable diesel
+    /// surrogate) and 80.1 (water at 20 °C, CRC Handbook).
     #[test]
     fn immersed_probe_matches_case_7d() {
         let probe = CoaxialProbe {
@@ -1301,9 +1310,9 @@ mod tests {
         }
     }
 
-    /// The 16-, 32- and 64-node tables of the REFERENCES.md §12 case 12c
-    /// tank (R = 1 m, L = 4 m), level in 0.1 mm, volume in mL, against the
-    /// exact formula at every one of the 20 001 levels.
+    /// The 16-, 32- and 64-node tables of the docs/references.md, Horizontal
+    /// tank cases, 12c tank (R = 1 m, L = 4 m), level in 0.1 mm, volume in mL,
+    /// against the exact formula at every one of the 20 001 levels.
     #[test]
     fn published_tank_table_dense_grid() {
         let shape = TankShape::HorizontalCylinder {

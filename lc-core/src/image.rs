@@ -819,8 +819,8 @@ mod tests {
     use proptest::prelude::*;
 
     /// Catalogue check value and zlib vectors for CRC-32/ISO-HDLC (Cook,
-    /// "Catalogue of parametrised CRC algorithms"; REFERENCES.md §10:
-    /// check [CONFIRMED], others [COMPUTED] with zlib).
+    /// "Catalogue of parametrised CRC algorithms"; docs/references.md, CRC check values:
+    /// check value published, others computed with zlib).
     #[test]
     fn crc_matches_the_catalogue() {
         assert_eq!(CRC32.checksum(b"123456789"), 0xCBF4_3926);

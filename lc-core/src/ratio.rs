@@ -179,12 +179,13 @@ mod tests {
     use crate::counting::Gating;
     use proptest::prelude::*;
 
-    /// Published counter-quantisation examples, REFERENCES.md §13.
+    /// Published counter-quantisation examples, docs/references.md, Counter
+    /// quantisation cases.
     #[test]
     fn counter_quantisation_examples() {
         // 13d: single-period reciprocal count, 1 MHz clock, 1345 Hz input:
         // 743 counts give f = 1e6/743 = 1345.895 Hz, the next code 1344.086 Hz
-        // (tutorial example, [CONFIRMED-2nd]; step [COMPUTED]: ≈ f²/f_ref).
+        // (tutorial example, published, quoted; step computed: ≈ f²/f_ref).
         let f743 = frequency(CountPair::new(1, 743), 1_000_000)
             .unwrap()
             .to_hz_f64();
@@ -197,7 +198,7 @@ mod tests {
         assert!(((f743 - f744) - 1345.0f64 * 1345.0 / 1e6).abs() < 0.01);
 
         // 13b: reciprocal, 1 kHz input, 10 MHz reference, 1 s (1000 periods):
-        // relative resolution ±1e-7, Δf = ±0.1 mHz (Rubiola 2005, [COMPUTED]).
+        // relative resolution ±1e-7, Δf = ±0.1 mHz (Rubiola 2005; computed).
         let pair = CountPair::new(1000, 10_000_000);
         let f = frequency(pair, 10_000_000).unwrap().to_hz_f64();
         let f_next = frequency(CountPair::new(1000, 10_000_001), 10_000_000)

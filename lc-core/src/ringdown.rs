@@ -388,15 +388,15 @@ mod tests {
     use crate::tank::tests::assert_rel;
     use proptest::prelude::*;
 
-    // ---- Published checks, REFERENCES.md §1 ------------------------------
+    // ---- Published checks, docs/references.md, LC tank cases ----
 
     #[test]
     fn case_1d_trench_free_response_peaks_give_q() {
-        // REFERENCES §1 case 1d: q(t) = e^(−100t)(cos 200t + 0.51 sin 200t)
-        // [CONFIRMED-2nd] (LibreTexts copy of Trench, Elementary Differential
-        // Equations, 2013, §6.3), from R = 40 Ω, L = 0.2 H, C = 1e-4 F
-        // [FROM MEMORY, consistent]. Expected Q = 1.1180 (= √5/2), 1e-9.
-        // The peaks are one damped period (ωd = 200 rad/s) apart.
+        // docs/references.md, LC tank cases, 1d: q(t) = e^(−100t)(cos 200t +
+        // 0.51 sin 200t) (published, quoted: LibreTexts copy of Trench,
+        // Elementary Differential Equations, 2013, §6.3), from R = 40 Ω, L =
+        // 0.2 H, C = 1e-4 F (from memory, consistent). Expected Q = 1.1180 (=
+        // √5/2), 1e-9. The peaks are one damped period (ωd = 200 rad/s) apart.
         let q_of_t =
             |t: f64| libm::exp(-100.0 * t) * (libm::cos(200.0 * t) + 0.51 * libm::sin(200.0 * t));
         // dq/dt = e^(−100t)(2 cos 200t − 251 sin 200t) = 0 at tan(200t) = 2/251.
@@ -430,12 +430,12 @@ mod tests {
 
     #[test]
     fn cases_1e_1f_decrement_matches_tank_ring_down() {
-        // REFERENCES §1 case 1e [COMPUTED]: L = 10 µH, C = 1 nF, Rs = 1 Ω,
-        // Q = 100; "amplitude falls to 1/e in Q/π = 31.83 cycles" (printed
-        // to 0.01 cycle). Counted in damped cycles (peaks), the exact number
-        // is 1/δ = fd·τ = (Q/π)·√(1 − 1/(4Q²)) = 31.8306; Q/π is its high-Q
-        // form. Case 1f (Rs = 20 Ω, Q = 5) checks the same identity at low Q.
-        // Uses the damped frequency fd.
+        // docs/references.md, LC tank cases, 1e (computed): L = 10 µH, C = 1
+        // nF, Rs = 1 Ω, Q = 100; "amplitude falls to 1/e in Q/π = 31.83 cycles"
+        // (printed to 0.01 cycle). Counted in damped cycles (peaks), the exact
+        // number is 1/δ = fd·τ = (Q/π)·√(1 − 1/(4Q²)) = 31.8306; Q/π is its
+        // high-Q form. Case 1f (Rs = 20 Ω, Q = 5) checks the same identity at
+        // low Q. Uses the damped frequency fd.
         let delta = logarithmic_decrement(100.0).unwrap();
         assert!(
             (1.0 / delta - 31.83).abs() <= 0.005,

@@ -550,9 +550,9 @@ pub(crate) mod tests {
         );
     }
 
-    /// Compare against a value as printed in REFERENCES.md: allow the stated
-    /// relative tolerance plus half a step of the last printed digit, since
-    /// the printed value is itself rounded.
+    /// Compare against a value as printed in docs/references.md: allow the
+    /// stated relative tolerance plus half a step of the last printed digit,
+    /// since the printed value is itself rounded.
     fn assert_printed(actual: f64, printed: f64, rel_tol: f64, half_step: f64, what: &str) {
         let err = (actual - printed).abs();
         assert!(
@@ -561,28 +561,37 @@ pub(crate) mod tests {
         );
     }
 
-    // ---- Published checks, REFERENCES.md §1 ------------------------------
+    // ---- Published checks, docs/references.md, LC tank cases ----
 
     #[test]
     fn case_1a_undamped_f0_10mh_1uf() {
-        // REFERENCES §1 case 1a: f0 = 1591.549 Hz, 1e-6 rel.
-        // [COMPUTED], "classic textbook value". Checks the undamped f0.
-        assert_rel(resonant_frequency_hz(10e-3, 1e-6), 1591.549, 1e-6, "f0");
+        // docs/references.md, LC tank cases, 1a: f0 = 1591.549 Hz, the
+        // classic textbook value (computed, not read in a source). Checked by
+        // two laws that share nothing with the code's 1/(2π√(LC)): √(LC) =
+        // 10⁻⁴ s exactly, so f0 = 10⁴/(2π) Hz; and at f0 the reactances
+        // cancel, 2πf0·L = 1/(2πf0·C), the definition of series resonance.
+        let (l_h, c_f) = (10e-3, 1e-6);
+        let f0 = resonant_frequency_hz(l_h, c_f);
+        assert_printed(f0, 1591.549, 0.0, 0.0005, "f0");
+        assert_rel(f0, 1e4 / (2.0 * PI), 2e-15, "f0 = 10⁴/(2π)");
+        let x_l = 2.0 * PI * f0 * l_h;
+        let x_c = 1.0 / (2.0 * PI * f0 * c_f);
+        assert_rel(x_l, x_c, 2e-15, "X_L = X_C at f0");
     }
 
     #[test]
     fn case_1b_undamped_f0_1mh_1uf() {
-        // REFERENCES §1 case 1b: f0 = 5032.921 Hz, 1e-6 rel. [COMPUTED].
-        // Checks the undamped f0.
+        // docs/references.md, LC tank cases, 1b: f0 = 5032.921 Hz, 1e-6 rel.,
+        // computed. Checks the undamped f0.
         assert_rel(resonant_frequency_hz(1e-3, 1e-6), 5032.921, 1e-6, "f0");
     }
 
     #[test]
     fn case_1c_series_rlc_600mh_80pf_540ohm() {
-        // REFERENCES §1 case 1c: textbook worked example as reproduced on
-        // holooly.com (p=1494326) [CONFIRMED-2nd]: f0 = 22.97 kHz,
-        // Q = 160.38, f1 = 22.90 kHz, f2 = 23.04 kHz; 0.05 % against these
-        // published 4-digit values. BW = 143.24 Hz is [COMPUTED] (the page's
+        // docs/references.md, LC tank cases, 1c: textbook worked example as
+        // reproduced on holooly.com (p=1494326) (published, quoted): f0 = 22.97
+        // kHz, Q = 160.38, f1 = 22.90 kHz, f2 = 23.04 kHz; 0.05 % against these
+        // published 4-digit values. BW = 143.24 Hz is computed (the page's
         // printed BW is garbled). f0 here is the undamped f0; f1, f2 are the
         // exact half-power frequencies of the driven series circuit.
         let (l_h, c_f, r_ohm) = (0.6, 80e-12, 540.0);
@@ -597,7 +606,7 @@ pub(crate) mod tests {
         let hp = series_half_power_frequencies_hz(l_h, c_f, r_ohm);
         assert_rel(hp.lower_hz, 22.90e3, tol, "f1");
         assert_rel(hp.upper_hz, 23.04e3, tol, "f2");
-        // The [COMPUTED] 7-digit values of the same case.
+        // The computed 7-digit values of the same case.
         assert_printed(hp.lower_hz, 22_900.53, 1e-9, 0.005, "f1");
         assert_printed(hp.upper_hz, 23_043.77, 1e-9, 0.005, "f2");
         assert_rel(hp.upper_hz - hp.lower_hz, bw, 1e-9, "f2 - f1 = BW");
@@ -605,12 +614,13 @@ pub(crate) mod tests {
 
     #[test]
     fn case_1d_series_free_response_trench() {
-        // REFERENCES §1 case 1d: R = 40 Ω, L = 0.2 H, C = 1e-4 F. The free
-        // response q(t) = e^(−100t)(cos 200t + 0.51 sin 200t) for q(0) = 1 C,
-        // i(0) = 2 A is [CONFIRMED-2nd] (LibreTexts copy of Trench,
-        // Elementary Differential Equations, 2013, §6.3); the R, L, C values
-        // are [FROM MEMORY] (Example 6.3.1) but consistent. Tolerance 1e-9.
-        // Checks α, the undamped ω0, the damped ωd = 200 rad/s (fd), τ and Q.
+        // docs/references.md, LC tank cases, 1d: R = 40 Ω, L = 0.2 H, C = 1e-4
+        // F. The free response q(t) = e^(−100t)(cos 200t + 0.51 sin 200t) for
+        // q(0) = 1 C, i(0) = 2 A is published, quoted (LibreTexts copy of
+        // Trench, Elementary Differential Equations, 2013, §6.3); the R, L, C
+        // values are from memory (Example 6.3.1) but consistent. Tolerance
+        // 1e-9. Checks α, the undamped ω0, the damped ωd = 200 rad/s (fd), τ
+        // and Q.
         let (l_h, c_f, r_ohm) = (0.2, 1e-4, 40.0);
         let alpha = series_neper_frequency_per_s(l_h, r_ohm);
         assert_rel(alpha, 100.0, 1e-9, "alpha");
@@ -638,10 +648,10 @@ pub(crate) mod tests {
 
     #[test]
     fn case_1e_tank_10uh_1nf_1ohm() {
-        // REFERENCES §1 case 1e: [COMPUTED], 1e-9. The printed values are
-        // rounded to 0.01 Hz / 0.01 cycle, so half a step of the last digit
-        // is allowed on top (fd's printed rounding alone is 2.3e-9 rel).
-        // Checks all three: undamped f0, damped fd, tank zero-phase fr.
+        // docs/references.md, LC tank cases, 1e: computed, 1e-9. The printed
+        // values are rounded to 0.01 Hz / 0.01 cycle, so half a step of the
+        // last digit is allowed on top (fd's printed rounding alone is 2.3e-9
+        // rel). Checks all three: undamped f0, damped fd, tank zero-phase fr.
         let (l_h, c_f, rs_ohm) = (10e-6, 1e-9, 1.0);
         let f0 = resonant_frequency_hz(l_h, c_f);
         assert_printed(f0, 1_591_549.43, 1e-9, 0.005, "f0");
@@ -679,9 +689,9 @@ pub(crate) mod tests {
 
     #[test]
     fn case_1f_tank_low_q_approximation_error() {
-        // REFERENCES §1 case 1f: same L, C with Rs = 20 Ω (Q = 5), [COMPUTED],
-        // 1e-9. Tests the high-Q approximation error at low Q. Checks the
-        // damped fd and the tank zero-phase fr.
+        // docs/references.md, LC tank cases, 1f: same L, C with Rs = 20 Ω (Q =
+        // 5), computed, 1e-9. Tests the high-Q approximation error at low Q.
+        // Checks the damped fd and the tank zero-phase fr.
         let (l_h, c_f, rs_ohm) = (10e-6, 1e-9, 20.0);
         let q = series_quality_factor(l_h, c_f, rs_ohm);
         assert_rel(q, 5.0, 1e-9, "Q");
@@ -705,9 +715,9 @@ pub(crate) mod tests {
 
     #[test]
     fn case_1g_parallel_rlc_matches_series_equivalent() {
-        // REFERENCES §1 case 1g: parallel Rp = 10 kΩ, L = 10 µH, C = 1 nF:
-        // Q = 100, τ = 2RpC = 20 µs, the same as case 1e. [COMPUTED], 1e-12.
-        // Q is defined at the undamped f0.
+        // docs/references.md, LC tank cases, 1g: parallel Rp = 10 kΩ, L = 10
+        // µH, C = 1 nF: Q = 100, τ = 2RpC = 20 µs, the same as case 1e.
+        // Computed, 1e-12. Q is defined at the undamped f0.
         let (l_h, c_f, rp_ohm) = (10e-6, 1e-9, 10_000.0);
         assert_rel(parallel_quality_factor(l_h, c_f, rp_ohm), 100.0, 1e-12, "Q");
         let tau = parallel_decay_time_constant_s(c_f, rp_ohm);
@@ -728,7 +738,7 @@ pub(crate) mod tests {
 
     #[test]
     fn c0g_limit_frequency_change() {
-        // REFERENCES §6 "LC coupling" [COMPUTED]: C0G at +0.18 % gives
+        // docs/references.md, LC tank cases, 6 (computed): C0G at +0.18 % gives
         // df/f = −0.0899 % (exact 1/√1.0018 − 1 = −8.988e-4). Undamped f0.
         let df = relative_frequency_change_exact(0.0018);
         assert_printed(df, -8.988e-4, 0.0, 5e-8, "df/f");

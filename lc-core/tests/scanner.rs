@@ -6,10 +6,11 @@
 //! the tests also check the order across parts: select lines, then the
 //! settle time, then the count.
 //!
-//! Counts are the demo scenario's (DESIGN §8; `examples/demo_counts.rs`):
-//! 48 MHz reference, reciprocal gates of 16 384 sensor cycles, rest point
-//! 16 384 : 139 542. Settle times in the mock tests are arbitrary: the mocks
-//! only check that the configured value reaches `delay_us` unchanged.
+//! Counts are the demo scenario's (docs/references.md, Demo scenario;
+//! `examples/demo_counts.rs`): 48 MHz reference, reciprocal gates of 16 384
+//! sensor cycles, rest point 16 384 : 139 542. Settle times in the mock tests
+//! are arbitrary: the mocks only check that the configured value reaches
+//! `delay_us` unchanged.
 
 use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::{ErrorType, OutputPin, PinState};

@@ -1,14 +1,15 @@
 //! Readout budget: what a counter set-up resolves, and what temperature
 //! costs, before any hardware exists.
 //!
-//! Counting (Rubiola, *Rev. Sci. Instrum.* 76:054703, 2005; REFERENCES.md
-//! §13): a reciprocal gate of N whole sensor cycles counts the reference
-//! ticks, ±1 tick, so δf/f = 1/ticks whatever the sensor frequency; a
+//! Counting (Rubiola, *Rev. Sci. Instrum.* 76:054703, 2005; docs/references.md,
+//! Rubiola 2005): a reciprocal gate of N whole sensor cycles counts the
+//! reference ticks, ±1 tick, so δf/f = 1/ticks whatever the sensor frequency; a
 //! direct gate of fixed time T counts sensor cycles, ±1 cycle, so
 //! δf = 1/T. Since f ∝ (L·C)^(−1/2), one count moves the shift
 //! s = Δ(L·C)/(L·C) by δs = 2·δf/f·(1 + s) (to first order), and
 //! ΔL/L = ΔC/C = −2·Δf/f.
 
+use crate::quantity::eng;
 use lc_core::curve::Curve;
 use lc_core::tank::resonant_frequency_with_parasitic_hz;
 
@@ -22,10 +23,19 @@ pub enum Gating {
     Direct,
 }
 
+impl std::fmt::Display for Gating {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Gating::Reciprocal => "reciprocal",
+            Gating::Direct => "direct",
+        })
+    }
+}
+
 /// The temperature coefficient of an EIA class-1 ceramic capacitor code
-/// (EIA-198; REFERENCES.md §6, [CONFIRMED-2nd]): (nominal, tolerance) in
-/// ppm/K. `None` for an unknown code. Digits 4, 5 and 9 follow the fuller
-/// table (4 = −10 000, 5 = +1, 9 = +10 000).
+/// (EIA-198; docs/references.md, EIA-198; published, quoted): (nominal,
+/// tolerance) in ppm/K. `None` for an unknown code. Digits 4, 5 and 9 follow
+/// the fuller table (4 = −10 000, 5 = +1, 9 = +10 000).
 pub fn class1_tempco_ppm_per_k(code: &str) -> Option<(f64, f64)> {
     let b = code.trim().as_bytes();
     if b.len() != 3 {
@@ -266,26 +276,6 @@ pub fn budget(b: &BudgetInput, curve: Option<&Curve>) -> BudgetReport {
     }
 }
 
-fn eng(v: f64, unit: &str) -> String {
-    let a = v.abs();
-    let (x, p) = if a == 0.0 {
-        (v, "")
-    } else if a >= 1e6 {
-        (v / 1e6, "M")
-    } else if a >= 1e3 {
-        (v / 1e3, "k")
-    } else if a >= 1.0 {
-        (v, "")
-    } else if a >= 1e-3 {
-        (v * 1e3, "m")
-    } else if a >= 1e-6 {
-        (v * 1e6, "µ")
-    } else {
-        (v * 1e9, "n")
-    };
-    format!("{x:.4} {p}{unit}")
-}
-
 /// The budget as a text table.
 pub fn to_text(r: &BudgetReport, unit: &str) -> String {
     let mut s = String::new();
@@ -302,7 +292,7 @@ pub fn to_text(r: &BudgetReport, unit: &str) -> String {
     row(
         "gating",
         format!(
-            "{:?}: {:.0} cycles, {:.0} ticks, {}",
+            "{}: {:.0} cycles, {:.0} ticks, {}",
             r.gating,
             r.cycles,
             r.ticks,
@@ -392,8 +382,8 @@ mod tests {
         }
     }
 
-    /// Counter quantisation examples, REFERENCES.md §13 (Rubiola 2005
-    /// principles; values [COMPUTED]).
+    /// Counter quantisation examples, docs/references.md, Counter quantisation
+    /// cases (Rubiola 2005 principles; values computed).
     #[test]
     fn published_counter_examples() {
         // 13b: reciprocal, 1 kHz, 10 MHz reference, 1 s (1000 periods):
@@ -425,7 +415,8 @@ mod tests {
         );
     }
 
-    /// EIA class-1 codes (EIA-198, REFERENCES.md §6 [CONFIRMED-2nd]).
+    /// EIA class-1 codes (EIA-198, docs/references.md, EIA-198; published,
+    /// quoted).
     #[test]
     fn class1_codes() {
         assert_eq!(class1_tempco_ppm_per_k("C0G"), Some((0.0, 30.0)));
@@ -434,7 +425,7 @@ mod tests {
         assert_eq!(class1_tempco_ppm_per_k("M7G"), Some((100.0, 30.0)));
         assert_eq!(class1_tempco_ppm_per_k("X7R"), None);
         // C0G 100 pF at +85 °C: ±0.18 %; df/f = 1/√1.0018 − 1 = −8.988e-4
-        // (REFERENCES.md §6 [COMPUTED]).
+        // (docs/references.md, EIA-198; computed).
         let (_, tol) = class1_tempco_ppm_per_k("C0G").unwrap();
         let dc = tol * 1e-6 * 60.0;
         assert!((dc - 0.0018).abs() < 1e-12);

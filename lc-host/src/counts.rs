@@ -17,7 +17,7 @@ pub enum ConfigError {
     #[error("reference frequency must be at least 1 Hz")]
     ZeroReference,
     /// The rest point is unusable.
-    #[error("rest point {0:?}: {1}; give the unit's no-target counts as CYCLES:TICKS")]
+    #[error("rest point {0}: {1}; give the unit's no-target counts as CYCLES:TICKS")]
     RestPoint(CountPair, ShiftError),
 }
 

@@ -1,8 +1,8 @@
-//! The demo scenario (DESIGN.md §8) end to end, in one folder: a lot of 24
-//! proximity units simulated, calibrated and reported; one unit's image
-//! inspected; that unit logged on a warming press, converted exactly as its
-//! firmware would, verified and budgeted. Everything comes from the
-//! project's own simulator; nothing is downloaded.
+//! The demo scenario (docs/references.md, Demo scenario) end to end, in one
+//! folder: a lot of 24 proximity units simulated, calibrated and reported; one
+//! unit's image inspected; that unit logged on a warming press, converted
+//! exactly as its firmware would, verified and budgeted. Everything comes from
+//! the project's own simulator; nothing is downloaded.
 
 use crate::budget::{budget, class1_tempco_ppm_per_k, to_text as budget_text, BudgetInput, Gating};
 use crate::calib::lot::calibrate_lot;
@@ -17,9 +17,62 @@ use crate::store::Store;
 use crate::stream::OnBadRow;
 use crate::svg::{Quantity, TracePlot};
 use crate::verify::{to_text as verify_text, verify, Firmware, VerifyOptions};
-use anyhow::{Context, Result};
 use std::io::Write;
 use std::path::Path;
+
+/// Why the demo stopped: the step and the underlying error.
+#[derive(Debug, thiserror::Error)]
+pub enum DemoError {
+    /// A file or folder of the demo could not be written or read.
+    #[error("demo: {path}: {source}")]
+    File {
+        /// The file or folder.
+        path: std::path::PathBuf,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// Writing the narration failed.
+    #[error("demo: cannot write the narration: {0}")]
+    Say(#[from] std::io::Error),
+    /// A bundled plan did not parse (a bug: the plans are tested).
+    #[error(transparent)]
+    Plan(#[from] crate::calib::plan::PlanError),
+    /// The unit records database.
+    #[error(transparent)]
+    Store(#[from] crate::store::StoreError),
+    /// The lot's calibration.
+    #[error(transparent)]
+    Lot(#[from] crate::calib::lot::LotError),
+    /// A simulated log did not read back.
+    #[error(transparent)]
+    Input(#[from] crate::csvin::InputError),
+    /// A step of the demo failed; the message names the step.
+    #[error("demo: {step}: {message}")]
+    Step {
+        /// Which step.
+        step: &'static str,
+        /// What went wrong.
+        message: String,
+    },
+}
+
+impl DemoError {
+    fn step(step: &'static str, e: impl std::fmt::Display) -> Self {
+        DemoError::Step {
+            step,
+            message: e.to_string(),
+        }
+    }
+}
+
+fn file(path: &Path) -> impl FnOnce(std::io::Error) -> DemoError + '_ {
+    move |source| DemoError::File {
+        path: path.to_path_buf(),
+        source,
+    }
+}
+
+type Result<T> = std::result::Result<T, DemoError>;
 
 /// The demo's calibration plan (the same as examples/data/demo-plan.toml).
 pub const PLAN: &str = include_str!("../../examples/data/demo-plan.toml");
@@ -29,7 +82,7 @@ pub const LEVEL_PLAN: &str = include_str!("../../examples/data/demo-level-plan.t
 
 /// Runs the demo into `out`, narrating on `say`.
 pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
-    std::fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
+    std::fs::create_dir_all(out).map_err(file(out))?;
     let plan = Plan::parse(PLAN, Path::new("demo-plan.toml"))?;
     writeln!(
         say,
@@ -42,7 +95,8 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let mut spec = LotSpec::demo("DEMO-01", 24, 1);
     spec.bad_capacitor_every = 12;
     let rig = out.join("rig.csv");
-    crate::atomic::write_atomically(&rig, |w| write_rig_log(&spec, w))?;
+    crate::atomic::write_atomically(&rig, |w| write_rig_log(&spec, w))
+        .map_err(|e| DemoError::step("rig log", e))?;
     writeln!(
         say,
         "1. Rig log: each unit stepped through a plate 0.5 → 8 mm at 25 °C and 60 °C: {}",
@@ -57,9 +111,9 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let _ = std::fs::remove_file(out.join("units.db-shm"));
     let mut store = Store::open(&db)?;
     let images = out.join("images");
-    std::fs::create_dir_all(&images)?;
+    std::fs::create_dir_all(&images).map_err(file(&images))?;
     let report_dir = out.join("report");
-    let reader = RigLogReader::new(std::fs::File::open(&rig)?, &rig)?;
+    let reader = RigLogReader::new(std::fs::File::open(&rig).map_err(file(&rig))?, &rig)?;
     let mut plotted = 0;
     let lot = calibrate_lot(reader, "DEMO-01", &plan, &mut store, Some(&images), |o| {
         if plotted < 24 && write_unit_plot(&report_dir.join("units"), o, &plan).is_ok() {
@@ -97,9 +151,9 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
 
     // 3. Inspect one image.
     let image_path = images.join("DEMO-01-0007.lcim");
-    let bytes = std::fs::read(&image_path)?;
+    let bytes = std::fs::read(&image_path).map_err(file(&image_path))?;
     let cal = lc_core::image::Calibration::parse(&bytes)
-        .map_err(|e| anyhow::anyhow!("{}: {e}", image_path.display()))?;
+        .map_err(|e| DemoError::step("image", format!("{}: {e}", image_path.display())))?;
     let (b1, _) = cal.drift.coefficients_f64();
     writeln!(
         say,
@@ -113,7 +167,7 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     // 4. Field log: two hours on a press that warms by 20 °C.
     let unit = units(&LotSpec::demo("DEMO-01", 7, 1))
         .pop()
-        .context("demo unit")?;
+        .ok_or_else(|| DemoError::step("demo unit", "not in the lot"))?;
     let mut field = FieldSpec::demo(unit, 8);
     field.faults = vec![
         Fault {
@@ -133,16 +187,20 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         },
     ];
     let field_path = out.join("field.csv");
-    let rows = crate::atomic::write_atomically(&field_path, |w| write_field_log(&field, w))?;
+    let rows = crate::atomic::write_atomically(&field_path, |w| write_field_log(&field, w))
+        .map_err(|e| DemoError::step("field log", e))?;
     writeln!(say, "4. Field log: {rows} readings over 2 h on a press warming 25 → 45 °C, with an open coil, dropouts and a stuck counter injected: {}", field_path.display())?;
 
     // 5. Convert exactly as the firmware does.
-    let mut conv = Converter::new(cal).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let mut conv = Converter::new(cal).map_err(|e| DemoError::step("converter", e))?;
     let readings = out.join("readings.csv");
     let mut trace: Vec<(f64, f64)> = Vec::new();
     let mut faults = Vec::new();
     let mut worst_diff: f64 = 0.0;
-    let reader = FieldLogReader::new(std::fs::File::open(&field_path)?, &field_path)?;
+    let reader = FieldLogReader::new(
+        std::fs::File::open(&field_path).map_err(file(&field_path))?,
+        &field_path,
+    )?;
     let summary = crate::atomic::write_atomically(&readings, |w| {
         convert_log(
             reader,
@@ -163,14 +221,16 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
                 }
             },
         )
-    })?;
+    })
+    .map_err(|e| DemoError::step("conversion", e))?;
     let plot = TracePlot::new(
         "DEMO-01-0007 on the press: the first minute",
         Quantity::new("gap", "µm"),
         "firmware reading",
         trace,
     );
-    crate::atomic::write_bytes(&report_dir.join("trace.svg"), plot.render().as_bytes())?;
+    crate::atomic::write_bytes(&report_dir.join("trace.svg"), plot.render().as_bytes())
+        .map_err(|e| DemoError::step("trace plot", e))?;
     writeln!(
         say,
         "5. Converted with the firmware's own arithmetic: {} ok, {} out of range or no target, {} sensor faults flagged; fixed vs f64 at most {:.3} µm: {}",
@@ -186,14 +246,16 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         random_points: 1_000_000,
         ..VerifyOptions::default()
     };
-    let report = verify(&cal, &opts, &Firmware, &|_| {})?;
+    let report =
+        verify(&cal, &opts, &Firmware, &|_| {}).map_err(|e| DemoError::step("verify", e))?;
     writeln!(say, "6. Verified the image over its whole domain (grid plus 10^6 random points; `lc-host verify` runs 10^7):")?;
     for line in verify_text(&report).lines() {
         writeln!(say, "   {line}")?;
     }
 
     // 7. Budget the readout.
-    let tempco = class1_tempco_ppm_per_k("C0G").context("C0G")?;
+    let tempco = class1_tempco_ppm_per_k("C0G")
+        .ok_or_else(|| DemoError::step("budget", "C0G is not a class-1 code"))?;
     let input = BudgetInput {
         reference_hz: 48e6,
         reference_ppm: 20.0,
@@ -222,8 +284,12 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let level_rig = out.join("level-rig.csv");
     crate::atomic::write_atomically(&level_rig, |w| {
         crate::sim::level::write_level_rig_log("TANK-01", 8, 1, w)
-    })?;
-    let reader = RigLogReader::new(std::fs::File::open(&level_rig)?, &level_rig)?;
+    })
+    .map_err(|e| DemoError::step("level rig log", e))?;
+    let reader = RigLogReader::new(
+        std::fs::File::open(&level_rig).map_err(file(&level_rig))?,
+        &level_rig,
+    )?;
     let level_lot = calibrate_lot(
         reader,
         "TANK-01",
@@ -239,12 +305,13 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     )?;
     let unit = crate::sim::level::level_units("TANK-01", 3, 1)
         .pop()
-        .context("level unit")?;
-    let level_image = std::fs::read(images.join("TANK-01-0003.lcim"))?;
+        .ok_or_else(|| DemoError::step("level unit", "not in the lot"))?;
+    let level_path = images.join("TANK-01-0003.lcim");
+    let level_image = std::fs::read(&level_path).map_err(file(&level_path))?;
     let level_cal = lc_core::image::Calibration::parse(&level_image)
-        .map_err(|e| anyhow::anyhow!("level image: {e}"))?;
+        .map_err(|e| DemoError::step("level image", e))?;
     let mut level_reader = lc_core::reader::Reader::from_calibration(&level_cal)
-        .map_err(|e| anyhow::anyhow!("{e}"))?;
+        .map_err(|e| DemoError::step("level reader", e))?;
     let g = crate::sim::level::LevelGeometry::DEMO;
     let truth_l = |h: f64| {
         lc_core::geometry::horizontal_cylinder_volume_m3(g.diameter_m / 2.0, g.length_m, h) * 1e3

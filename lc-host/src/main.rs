@@ -36,10 +36,45 @@ enum Command {
     Budget(cmd::budget::Args),
     Coil(cmd::coil::Args),
     Probe(cmd::probe::Args),
+    Loops(cmd::loops::Args),
+    Ntc(cmd::ntc::Args),
+    Volume(cmd::volume::Args),
+}
+
+/// Options that became positional arguments, still accepted from older
+/// scripts: (subcommand, flag). `lc-host convert --input F` is `lc-host
+/// convert F`; `lc-host verify --image I` is `lc-host verify I`.
+const FORMER_FLAGS: [(&str, &str); 2] = [("convert", "--input"), ("verify", "--image")];
+
+/// The command line with the former flags of [`FORMER_FLAGS`] turned into
+/// the positional argument they became (`--flag VALUE` or `--flag=VALUE`).
+fn with_former_flags(args: Vec<std::ffi::OsString>) -> Vec<std::ffi::OsString> {
+    let Some(sub) = args.get(1).and_then(|a| a.to_str()) else {
+        return args;
+    };
+    let Some(&(_, flag)) = FORMER_FLAGS.iter().find(|(s, _)| *s == sub) else {
+        return args;
+    };
+    let mut out = Vec::with_capacity(args.len());
+    let mut it = args.into_iter();
+    while let Some(a) = it.next() {
+        match a.to_str() {
+            Some(t) if t == flag => {
+                if let Some(v) = it.next() {
+                    out.push(v);
+                }
+            }
+            Some(t) if t.strip_prefix(flag).is_some_and(|r| r.starts_with('=')) => {
+                out.push(t[flag.len() + 1..].into());
+            }
+            _ => out.push(a),
+        }
+    }
+    out
 }
 
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = Cli::parse_from(with_former_flags(std::env::args_os().collect()));
     let result = match cli.command {
         Command::Demo(a) => cmd::demo::run(a),
         Command::Simulate(a) => cmd::simulate::run(a),
@@ -52,6 +87,9 @@ fn main() -> ExitCode {
         Command::Budget(a) => cmd::budget::run(a),
         Command::Coil(a) => cmd::coil::run(a),
         Command::Probe(a) => cmd::probe::run(a),
+        Command::Loops(a) => cmd::loops::run(a),
+        Command::Ntc(a) => cmd::ntc::run(a),
+        Command::Volume(a) => cmd::volume::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,6 +1,6 @@
 //! Unit records: every end-of-line calibration attempt in one SQLite file.
 //!
-//! One row per unit and attempt (DESIGN §6): the unit's serial and lot, the
+//! One row per unit and attempt (docs/database.md): the unit's serial and lot, the
 //! result with its reasons, the fitted parameters, the fit residuals, the raw
 //! rig points, and for a passing unit the calibration image with its CRC-32.
 //! The schema, the migration policy and example `sqlite3` queries are in

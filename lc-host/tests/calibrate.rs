@@ -96,9 +96,20 @@ fn a_lot_calibrates_into_images_and_records() {
         "{}",
         reasons("T1-0006")
     );
+    assert!(
+        reasons("T1-0010").contains("rest frequency"),
+        "{}",
+        reasons("T1-0010")
+    );
+    assert!(
+        reasons("T1-0012").contains("field `ticks`"),
+        "{}",
+        reasons("T1-0012")
+    );
 
     // Every passing unit: an image file, equal to the record's, that
-    // parses and reads its own rig rest point as zero shift.
+    // parses, names its unit and carries the rest period ratio fitted from
+    // its rig log (so the rig's rest point reads as zero shift).
     let store = Store::open(dir.join("u.db")).unwrap();
     let passes = store
         .attempts(&Filter::default().result(AttemptResult::Pass))
@@ -109,6 +120,14 @@ fn a_lot_calibrates_into_images_and_records() {
         assert_eq!(Some(file.clone()), store.image(&p.serial, None).unwrap());
         let cal = Calibration::parse(&file).unwrap();
         assert_eq!(cal.serial.as_str(), p.serial);
+        let full = store.attempt(&p.serial, Some(p.attempt)).unwrap().unwrap();
+        let rest_ratio = full.params["rest_ratio"].as_f64().unwrap();
+        assert!(
+            (cal.rest.to_f64() / rest_ratio - 1.0).abs() < 1e-9,
+            "{}: image rest {} vs fitted {rest_ratio}",
+            p.serial,
+            cal.rest.to_f64()
+        );
     }
     for f in store
         .attempts(&Filter::default().result(AttemptResult::Fail))
@@ -121,11 +140,15 @@ fn a_lot_calibrates_into_images_and_records() {
     );
 
     // Re-calibrating adds attempts, keeps the first ones.
+    let first = store.attempt("T1-0001", Some(1)).unwrap().unwrap();
     assert!(run(false).status.success());
     let all = store
         .attempts(&Filter::default().serial("T1-0001"))
         .unwrap();
-    assert_eq!(all.iter().map(|a| a.attempt).collect::<Vec<_>>().len(), 2);
+    let mut numbers: Vec<u32> = all.iter().map(|a| a.attempt).collect();
+    numbers.sort_unstable();
+    assert_eq!(numbers, [1, 2]);
+    assert_eq!(store.attempt("T1-0001", Some(1)).unwrap().unwrap(), first);
 
     // units show / export.
     let show = lc_host()

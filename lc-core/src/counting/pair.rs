@@ -33,3 +33,23 @@ impl CountPair {
         }
     }
 }
+
+/// `CYCLES:TICKS`, the form the command line and the docs use.
+impl core::fmt::Display for CountPair {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        write!(f, "{}:{}", self.cycles, self.ticks)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn displays_as_cycles_colon_ticks() {
+        assert_eq!(
+            format!("{}", CountPair::new(16_384, 139_542)),
+            "16384:139542"
+        );
+    }
+}

@@ -2,7 +2,7 @@
 //!
 //! Temperature moves the tank's L·C product by itself: a class-1 capacitor
 //! by up to ±30 ppm/K, the coil's geometry and the parasitics by their own
-//! amounts (DESIGN.md §2). Two remedies, usable together:
+//! amounts. Two remedies, usable together:
 //!
 //! - [`TemperatureModel`]: a per-unit polynomial of the temperature,
 //!   fitted at the end of the line, applied multiplicatively to 1 + s;

@@ -410,8 +410,8 @@ mod tests {
     }
 
     /// A C0G capacitor at its +30 ppm/K limit raises C by 30e-6 per kelvin
-    /// (EIA-198 class 1, REFERENCES.md §6: C0G = 0 ± 30 ppm/K). With L
-    /// fixed, 1 + s = 1 + 30e-6·ΔT; the model g = −30e-6·ΔT/(1 + 30e-6·ΔT)
+    /// (EIA-198 class 1, docs/references.md, EIA-198: C0G = 0 ± 30 ppm/K). With
+    /// L fixed, 1 + s = 1 + 30e-6·ΔT; the model g = −30e-6·ΔT/(1 + 30e-6·ΔT)
     /// to first order removes it: at +35 K the residual is the second-order
     /// term only, (30e-6·35)² ≈ 1.1e-6.
     #[test]

@@ -485,7 +485,7 @@ pub(crate) mod tests {
             "{half:?}"
         );
         let quarter = r.read(&Input::counts(pair_for(0.8 * 0.05)));
-        // 50.0 mm in a 400 mm cylinder (h/D = 0.125): REFERENCES.md §12
+        // 50.0 mm in a 400 mm cylinder (h/D = 0.125): docs/references.md, Horizontal tank cases,
         // gives the fraction of volume from the circular segment.
         let h = 0.05f64;
         let a = 0.04 * libm::acos((0.2 - h) / 0.2) - (0.2 - h) * libm::sqrt(0.4 * h - h * h);

@@ -100,7 +100,7 @@
 //! // reference, 12-bit ADC.
 //! let divider = Divider::new(12, 5_000, NtcPosition::LowSide).unwrap();
 //! let ntc = NtcBeta::new(10_000, 3950, divider).unwrap();
-//! // Mid scale: R = R_s = 5 kΩ, 41.4602 °C (REFERENCES.md §9).
+//! // Mid scale: R = R_s = 5 kΩ, 41.4602 °C (docs/references.md, NTC cases).
 //! assert_eq!(ntc.convert(2048), Ok(CentiCelsius(4146)));
 //! assert!((ntc.convert_f64(2048).unwrap() - 41.4602).abs() < 1e-4);
 //! // One code here moves the reading by T²/B · 4/N ≈ 0.0245 K.

@@ -135,7 +135,7 @@ impl SteinhartHart {
     /// Forward model: resistance in ohms at `temp_c` °C, NaN where the law
     /// has no solution.
     ///
-    /// For C > 0 the closed form of the cubic (REFERENCES §9):
+    /// For C > 0 the closed form of the cubic (docs/references.md, NTC cases):
     /// x = (A − 1/T)/C, y = √((B/3C)³ + x²/4),
     /// R = exp((y − x/2)^(1/3) − (y + x/2)^(1/3)); for C = 0 the Beta form
     /// R = exp((1/T − A)/B); for C < 0, Newton's method from that Beta form.
@@ -208,9 +208,10 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    /// REFERENCES.md §9, "generic 10 kΩ at 25 °C, B = 3950 K", Beta model
-    /// table [COMPUTED] (printed to 0.1 Ω), with the same rows recomputed
-    /// here with mpmath at 50 digits [COMPUTED] for the 1e-9 relative check.
+    /// docs/references.md, NTC cases, "generic 10 kΩ at 25 °C, B = 3950 K",
+    /// Beta model table (computed; printed to 0.1 Ω), with the same rows
+    /// recomputed here with mpmath at 50 digits (computed) for the 1e-9
+    /// relative check.
     const TABLE_10K_3950: [(f64, f64, f64); 12] = [
         (-40.0, 401_859.7, 401_859.724_625_002),
         (-20.0, 105_384.7, 105_384.690_206_038),
@@ -230,8 +231,9 @@ mod tests {
 
     #[test]
     fn beta_table_10k_3950() {
-        // REFERENCES.md §9 [COMPUTED]: 1e-9 relative against full-precision
-        // values, and the printed 0.1 Ω values to their last digit.
+        // docs/references.md, NTC cases (computed): 1e-9 relative against
+        // full-precision values, and the printed 0.1 Ω values to their last
+        // digit.
         for (t, printed, exact) in TABLE_10K_3950 {
             let r = NTC.resistance_ohm(t);
             assert!((r - exact).abs() <= 1e-9 * exact, "{t} °C: {r}");
@@ -243,13 +245,13 @@ mod tests {
 
     #[test]
     fn beta_inverse_5k() {
-        // REFERENCES.md §9 [COMPUTED]: R = 5 kΩ gives 41.4602 °C.
+        // docs/references.md, NTC cases (computed): R = 5 kΩ gives 41.4602 °C.
         assert!((NTC.temperature_c(5_000.0) - 41.4602).abs() < 5e-5);
     }
 
     #[test]
     fn beta_is_steinhart_hart_with_c_zero() {
-        // REFERENCES.md §9 [COMPUTED]: A = 1.022284695e-3,
+        // docs/references.md, NTC cases (computed): A = 1.022284695e-3,
         // B = 2.531645570e-4 (= 1/3950), C = 0.
         let sh = NTC.to_steinhart_hart();
         assert!((sh.a - 1.022_284_695e-3).abs() < 5e-13);
@@ -266,8 +268,8 @@ mod tests {
 
     #[test]
     fn three_point_fit_of_a_beta_curve() {
-        // REFERENCES.md §9 [COMPUTED]: a fit at 0/25/50 °C returns C ≈ 0 to
-        // machine precision and reproduces all rows to 1e-4 K.
+        // docs/references.md, NTC cases (computed): a fit at 0/25/50 °C returns
+        // C ≈ 0 to machine precision and reproduces all rows to 1e-4 K.
         let pts = [0.0, 25.0, 50.0].map(|t| CalibrationPoint::new(t, NTC.resistance_ohm(t)));
         let sh = steinhart_hart_fit(pts).unwrap();
         assert!(sh.c.abs() < 1e-16, "C = {:e}", sh.c);
@@ -281,11 +283,11 @@ mod tests {
 
     #[test]
     fn measured_table_trap() {
-        // REFERENCES.md §9 and §14 item 4: a web calculator's "10k B3950"
-        // table lists 32 650 Ω at 0 °C and 3 600 Ω at 50 °C. That is a
-        // measured R–T table, not the Beta equation, which gives 33 620.6 Ω
-        // and 3 588.2 Ω [COMPUTED]. A Beta through the two table points is
-        // 3892.5 K [COMPUTED].
+        // docs/references.md, NTC cases and Traps, item 4: a web calculator's
+        // "10k B3950" table lists 32 650 Ω at 0 °C and 3 600 Ω at 50 °C. That
+        // is a measured R–T table, not the Beta equation, which gives 33 620.6
+        // Ω and 3 588.2 Ω (computed). A Beta through the two table points is
+        // 3892.5 K (computed).
         assert!((NTC.resistance_ohm(0.0) - 33_620.6).abs() < 0.05);
         assert!((NTC.resistance_ohm(0.0) - 32_650.0).abs() > 900.0);
         assert!((NTC.resistance_ohm(50.0) - 3_588.2).abs() < 0.05);
@@ -296,6 +298,47 @@ mod tests {
         )
         .unwrap();
         assert!((fitted.beta_k - 3892.5).abs() < 0.05, "{}", fitted.beta_k);
+    }
+
+    /// docs/references.md, NTC cases: the three-point Steinhart–Hart fit
+    /// through (0 °C, 32 650 Ω), (25 °C, 10 000 Ω), (50 °C, 3 600 Ω) and its
+    /// predicted temperatures, against `scripts/reference-values.py`
+    /// (mpmath 1.3 at 50 digits: the 3×3 system solved exactly, then the
+    /// fitted law evaluated). A, B and C to 1e-12 relative, temperatures to
+    /// 1e-12 K (measured: 1.6e-15, 1.2e-15, 1.4e-14 and 4.6e-14 K at worst).
+    #[test]
+    fn three_point_fit_against_mpmath() {
+        let sh = steinhart_hart_fit([
+            CalibrationPoint::new(0.0, 32_650.0),
+            CalibrationPoint::new(25.0, 10_000.0),
+            CalibrationPoint::new(50.0, 3_600.0),
+        ])
+        .unwrap();
+        let rel = |got: f64, want: f64| (got / want - 1.0).abs();
+        assert!(
+            rel(sh.a, 1.131_547_537_723_803e-3) < 1e-12,
+            "A = {:e}",
+            sh.a
+        );
+        assert!(
+            rel(sh.b, 2.337_530_598_714_644_3e-4) < 1e-12,
+            "B = {:e}",
+            sh.b
+        );
+        assert!(
+            rel(sh.c, 8.898_269_200_863_592e-8) < 1e-12,
+            "C = {:e}",
+            sh.c
+        );
+        for (r, t) in [
+            (100_000.0, -20.530_173_062_192_926),
+            (20_000.0, 9.899_644_023_478_015),
+            (5_000.0, 41.568_145_317_696_78),
+            (1_000.0, 87.134_179_802_754_16),
+        ] {
+            let got = sh.temperature_c(r);
+            assert!((got - t).abs() < 1e-12, "T({r} Ω) = {got} vs {t}");
+        }
     }
 
     #[test]
@@ -327,8 +370,8 @@ mod tests {
     #[test]
     fn measured_table_fit_round_trip() {
         // A set with a real cubic term: the three points of the measured
-        // "10k B3950" table of REFERENCES.md §9 / §14 item 4 (32 650 Ω at
-        // 0 °C, 10 kΩ at 25 °C, 3 600 Ω at 50 °C) give C ≈ 8.9e-8.
+        // "10k B3950" table of docs/references.md, NTC cases and Traps, item 4
+        // (32 650 Ω at 0 °C, 10 kΩ at 25 °C, 3 600 Ω at 50 °C) give C ≈ 8.9e-8.
         let sh = steinhart_hart_fit([
             CalibrationPoint::new(0.0, 32_650.0),
             CalibrationPoint::new(25.0, 10_000.0),

@@ -450,8 +450,8 @@ mod tests {
 
     #[test]
     fn published_beta_points_through_the_fixed_path() {
-        // REFERENCES.md §9 [COMPUTED], 10 kΩ / B 3950 K: R = R_s at mid
-        // scale, so R = 10 kΩ reads 25.00 °C and R = 5 kΩ 41.4602 °C.
+        // docs/references.md, NTC cases (computed), 10 kΩ / B 3950 K: R = R_s
+        // at mid scale, so R = 10 kΩ reads 25.00 °C and R = 5 kΩ 41.4602 °C.
         for bits in [10, 12, 16, 24] {
             let mid = 1 << (bits - 1);
             let at25 = NtcBeta::new(10_000, 3950, low(bits, 10_000)).unwrap();
@@ -470,9 +470,9 @@ mod tests {
 
     #[test]
     fn beta_table_through_the_fixed_path() {
-        // REFERENCES.md §9 [COMPUTED] table rows, 16-bit ADC, 10 kΩ series
-        // resistor: the code nearest each row's resistance reads the row's
-        // temperature within half an ADC step and half an output LSB.
+        // docs/references.md, NTC cases (computed) table rows, 16-bit ADC, 10
+        // kΩ series resistor: the code nearest each row's resistance reads the
+        // row's temperature within half an ADC step and half an output LSB.
         let ntc = NtcBeta::new(10_000, 3950, low(16, 10_000)).unwrap();
         let rows = [
             (-40.0, 401_859.7),
@@ -896,7 +896,8 @@ mod tests {
         for pos in [NtcPosition::LowSide, NtcPosition::HighSide] {
             let d = Divider::new(12, 10_000, pos).unwrap();
             let beta = NtcBeta::new(10_000, 3950, d).unwrap();
-            // The three points of REFERENCES.md §9's measured table (C ≈ 8.9e-8).
+            // The three points of the measured table in docs/references.md,
+            // NTC cases (C ≈ 8.9e-8).
             let fit = steinhart_hart_fit([
                 CalibrationPoint::new(0.0, 32_650.0),
                 CalibrationPoint::new(25.0, 10_000.0),

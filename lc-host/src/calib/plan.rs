@@ -96,11 +96,17 @@ pub struct Metal {
 }
 
 /// The tank a level product measures, for its level → volume table.
-#[derive(Clone, Copy, Debug, PartialEq, Deserialize)]
+#[derive(Clone, Debug, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Tank {
-    /// horizontal_cylinder, vertical_cylinder or rectangular.
+    /// horizontal_cylinder, vertical_cylinder, rectangular or strapping.
     pub shape: TankKind,
+    /// Strapping table (CSV, docs/formats.md) for shape = "strapping", a
+    /// path relative to the plan file.
+    pub table: Option<PathBuf>,
+    /// The strapping table's rows, read when the plan is parsed.
+    #[serde(skip)]
+    pub strapping: Option<crate::volume::StrappingTable>,
     /// Diameter, m (cylinders).
     pub diameter_m: Option<f64>,
     /// Length, m (horizontal cylinder).
@@ -131,9 +137,83 @@ pub enum TankKind {
     VerticalCylinder,
     /// Any constant cross-section.
     Rectangular,
+    /// A strapping table (level → volume rows) from a CSV file.
+    Strapping,
 }
 
 impl Tank {
+    /// Checks the shape's keys and, for a strapping table, reads it (a path
+    /// relative to `plan_file`'s folder).
+    pub fn resolve(&mut self, plan_file: &Path) -> Result<(), String> {
+        if self.shape != TankKind::Strapping {
+            if self.table.is_some() {
+                return Err("tank.table is only for shape = \"strapping\"".into());
+            }
+            return self.shape().map(|_| ());
+        }
+        let rel = self
+            .table
+            .as_ref()
+            .ok_or("shape = \"strapping\" needs tank.table, the strapping table's CSV file")?;
+        let path = plan_file.parent().unwrap_or(Path::new("")).join(rel);
+        let t = crate::volume::StrappingTable::load(&path).map_err(|e| e.to_string())?;
+        if t.len() > lc_core::curve::MAX_NODES {
+            return Err(format!(
+                "{}: {} rows; the calibration image holds at most {} (thin the table)",
+                path.display(),
+                t.len(),
+                lc_core::curve::MAX_NODES
+            ));
+        }
+        self.strapping = Some(t);
+        Ok(())
+    }
+
+    /// The level → volume table for the image: sampled from the shape
+    /// (`nodes` nodes), or the strapping table's rows; levels in
+    /// `level_units_per_m` units per metre, volumes in `volume_step_m3`
+    /// units. Monotone cubic (Fritsch–Butland tangents).
+    pub fn volume_table(
+        &self,
+        level_units_per_m: f64,
+    ) -> Result<lc_core::geometry::VolumeTable, String> {
+        use lc_core::curve::Interpolation;
+        use lc_core::geometry::{LevelVolume, VolumeTable};
+        let Some(table) = &self.strapping else {
+            return VolumeTable::sample(
+                &self.shape()?,
+                level_units_per_m,
+                1.0 / self.volume_step_m3,
+                self.nodes,
+                Interpolation::MonotoneCubic,
+            )
+            .map_err(|e| e.to_string());
+        };
+        let unit = |v: f64, what: &str| {
+            let r = v.round();
+            if r.abs() < 2_147_483_647.0 {
+                // Exact: a whole number within i32.
+                Ok(r as i32)
+            } else {
+                Err(format!(
+                    "strapping table: {what} {v} output units does not fit the image"
+                ))
+            }
+        };
+        let rows = table
+            .rows()
+            .map(|(l, v)| {
+                Ok(LevelVolume::new(
+                    unit(l * level_units_per_m, "level")?,
+                    unit(v / self.volume_step_m3, "volume")?,
+                ))
+            })
+            .collect::<Result<Vec<_>, String>>()?;
+        VolumeTable::from_strapping(&rows, Interpolation::MonotoneCubic).map_err(|e| {
+            format!("strapping table: {e} (two rows closer than one output step of level, or a volume step too coarse?)")
+        })
+    }
+
     /// The geometry, or what is missing.
     pub fn shape(&self) -> Result<lc_core::geometry::TankShape, String> {
         use lc_core::geometry::TankShape;
@@ -155,6 +235,7 @@ impl Tank {
                 base_area_m2: need(self.base_area_m2, "base_area_m2")?,
                 height_m: need(self.height_m, "height_m")?,
             },
+            TankKind::Strapping => return Err("a strapping table has no closed-form shape".into()),
         })
     }
 }
@@ -287,7 +368,7 @@ impl Plan {
 
     /// Parses and checks plan text; `file` names it in messages.
     pub fn parse(text: &str, file: &Path) -> Result<Self, PlanError> {
-        let plan: Plan = toml::from_str(text).map_err(|e| PlanError::Syntax {
+        let mut plan: Plan = toml::from_str(text).map_err(|e| PlanError::Syntax {
             file: file.to_path_buf(),
             message: e.to_string(),
         })?;
@@ -370,11 +451,11 @@ impl Plan {
             }
             _ => {}
         }
-        if let Some(t) = &plan.tank {
+        if let Some(t) = plan.tank.as_mut() {
             if p.kind != Kind::Level {
                 return bad("tank", "only a level product takes a [tank] table".into());
             }
-            if let Err(e) = t.shape() {
+            if let Err(e) = t.resolve(file) {
                 return bad("tank", e);
             }
             if !(2..=lc_core::curve::MAX_NODES).contains(&t.nodes)

@@ -589,17 +589,7 @@ fn volume_table(
     tank: &super::plan::Tank,
     output_step_m: f64,
 ) -> Result<(Table, OutputScale), String> {
-    use lc_core::curve::Interpolation;
-    use lc_core::geometry::VolumeTable;
-    let shape = tank.shape()?;
-    let vt = VolumeTable::sample(
-        &shape,
-        1.0 / output_step_m,
-        1.0 / tank.volume_step_m3,
-        tank.nodes,
-        Interpolation::MonotoneCubic,
-    )
-    .map_err(|e| e.to_string())?;
+    let vt = tank.volume_table(1.0 / output_step_m)?;
     let nodes: Vec<Node> = (0..vt.len()).filter_map(|i| vt.curve().node(i)).collect();
     let xs: Vec<f64> = nodes.iter().map(|n| n.shift.to_f64()).collect();
     let ys: Vec<f64> = nodes.iter().map(|n| f64::from(n.value)).collect();

@@ -1,6 +1,6 @@
 //! `lc-host budget`: resolution and temperature budget of a readout set-up.
 
-use super::load_image;
+use super::{count_u32, load_image, si};
 use anyhow::{anyhow, bail, Result};
 use lc_host::budget::{budget, class1_tempco_ppm_per_k, to_text, BudgetInput, Gating};
 use std::path::PathBuf;
@@ -28,9 +28,9 @@ pub struct Args {
     /// Reference clock tolerance over the temperature range, ppm
     #[arg(long, default_value_t = 0.0)]
     reference_ppm: f64,
-    /// Reciprocal gate: whole sensor cycles per reading
-    #[arg(long, conflicts_with = "gate_time")]
-    gate_cycles: Option<f64>,
+    /// Reciprocal gate: whole sensor cycles per reading (1 to 4294967295; 16k accepted)
+    #[arg(long, conflicts_with = "gate_time", value_parser = count_u32::<1, { u32::MAX }>)]
+    gate_cycles: Option<u32>,
     /// Gate time in seconds (reciprocal: rounded to whole cycles; with --direct: fixed)
     #[arg(long, value_parser = si)]
     gate_time: Option<f64>,
@@ -78,35 +78,6 @@ pub struct Args {
     json: bool,
 }
 
-/// A number with an optional SI prefix and unit: "7.25u", "100pF", "48M".
-pub fn si(s: &str) -> Result<f64, String> {
-    let t = s
-        .trim()
-        .trim_end_matches(|c: char| c.is_ascii_alphabetic() && !"pnuµmkMG".contains(c));
-    let t = t.trim_end_matches(['H', 'F', 's']).trim_end_matches("Hz");
-    let (num, mult) = match t.chars().last() {
-        Some('p') => (&t[..t.len() - 1], 1e-12),
-        Some('n') => (&t[..t.len() - 1], 1e-9),
-        Some('u') => (&t[..t.len() - 1], 1e-6),
-        Some('µ') => (&t[..t.len() - 'µ'.len_utf8()], 1e-6),
-        Some('m') => (&t[..t.len() - 1], 1e-3),
-        Some('k') => (&t[..t.len() - 1], 1e3),
-        Some('M') => (&t[..t.len() - 1], 1e6),
-        Some('G') => (&t[..t.len() - 1], 1e9),
-        _ => (t, 1.0),
-    };
-    num.trim()
-        .parse::<f64>()
-        .ok()
-        .filter(|v| v.is_finite())
-        .map(|v| v * mult)
-        .ok_or_else(|| {
-            format!(
-                "{s:?} is not a number with an optional SI prefix (for example 7.25u, 100p, 48M)"
-            )
-        })
-}
-
 fn fraction(s: &str) -> Result<f64, String> {
     match s.trim().strip_suffix('%') {
         Some(p) => p
@@ -145,13 +116,21 @@ pub fn run(a: Args) -> Result<()> {
     if a.inductance <= 0.0 || a.capacitance <= 0.0 || a.reference_hz <= 0.0 {
         bail!("--inductance, --capacitance and --reference-hz must be positive");
     }
+    if a.parasitic < 0.0 {
+        bail!("--parasitic must not be negative");
+    }
+    if let Some(t) = a.gate_time {
+        if !(t > 0.0 && t.is_finite()) {
+            bail!("--gate-time must be above zero, for example 1m (one millisecond)");
+        }
+    }
     let f = lc_core::tank::resonant_frequency_with_parasitic_hz(
         a.inductance,
         a.capacitance,
         a.parasitic,
     );
     let (gating, gate) = match (a.gate_cycles, a.gate_time, a.direct) {
-        (Some(n), _, _) => (Gating::Reciprocal, n),
+        (Some(n), _, _) => (Gating::Reciprocal, f64::from(n)),
         (None, Some(t), true) => (Gating::Direct, t),
         (None, Some(t), false) => (Gating::Reciprocal, (t * f).round().max(1.0)),
         (None, None, _) => {
@@ -212,15 +191,7 @@ mod tests {
     use super::*;
 
     #[test]
-    fn si_values() {
-        assert_eq!(si("7.25u"), Ok(7.25e-6));
-        assert_eq!(si("100p"), Ok(100e-12));
-        assert_eq!(si("100pF"), Ok(100e-12));
-        assert_eq!(si("48M"), Ok(48e6));
-        assert_eq!(si("48MHz"), Ok(48e6));
-        assert_eq!(si("0.001"), Ok(0.001));
-        assert_eq!(si("2ms"), Ok(2e-3));
-        assert!(si("abc").is_err());
+    fn fractions_and_ranges() {
         assert_eq!(fraction("2%"), Ok(0.02));
         assert_eq!(range("-20:85"), Ok((-20.0, 85.0)));
     }

@@ -1,7 +1,7 @@
 //! `lc-host coil`: inductance, resistance, Q, tank capacitor and target
 //! pull of a planar spiral or a solenoid.
 
-use super::budget::si;
+use super::{length, radius_or_diameter, si};
 use anyhow::{bail, Context, Result};
 use lc_host::coil::design::{design, to_text, DesignInput, TankRequest, TargetRequest, Winding};
 use lc_host::coil::eseries::ESeries;
@@ -54,8 +54,11 @@ enum What {
         #[arg(long)]
         turns: u32,
         /// Outer diameter d_out (across flats), e.g. 20mm
+        #[arg(long, visible_alias = "outer-diameter", value_parser = length, required_unless_present = "outer_radius", conflicts_with = "outer_radius")]
+        outer: Option<f64>,
+        /// Outer radius (half of d_out), instead of --outer
         #[arg(long, value_parser = length)]
-        outer: f64,
+        outer_radius: Option<f64>,
         /// Trace width w, e.g. 0.3mm
         #[arg(long, value_parser = length)]
         width: f64,
@@ -80,8 +83,11 @@ enum What {
     #[command(verbatim_doc_comment)]
     Solenoid {
         /// Coil radius, to the wire's centre, e.g. 12.5mm
+        #[arg(long, value_parser = length, required_unless_present = "diameter", conflicts_with = "diameter")]
+        radius: Option<f64>,
+        /// Coil diameter, to the wire's centre (instead of --radius), e.g. 25mm
         #[arg(long, value_parser = length)]
-        radius: f64,
+        diameter: Option<f64>,
         /// Winding length, e.g. 24mm
         #[arg(long, value_parser = length)]
         length: f64,
@@ -133,38 +139,13 @@ struct Common {
     json: bool,
 }
 
-/// A length with a unit: "20mm", "300um", "300µm", "2.5cm", "0.5in", "12mil", "0.02m".
-pub fn length(s: &str) -> Result<f64, String> {
-    let t = s.trim();
-    let units: [(&str, f64); 7] = [
-        ("mm", 1e-3),
-        ("um", 1e-6),
-        ("µm", 1e-6),
-        ("cm", 1e-2),
-        ("mil", 25.4e-6),
-        ("in", 0.0254),
-        ("m", 1.0),
-    ];
-    let (num, scale) = units
-        .iter()
-        .find_map(|&(u, k)| t.strip_suffix(u).map(|n| (n, k)))
-        .ok_or_else(|| {
-            format!("{s:?} needs a unit: mm, um (µm), cm, m, in or mil, for example 20mm or 300um")
-        })?;
-    num.trim()
-        .parse::<f64>()
-        .ok()
-        .filter(|v| v.is_finite())
-        .map(|v| v * scale)
-        .ok_or_else(|| format!("{s:?} is not a number followed by a unit, for example 20mm"))
-}
-
 pub fn run(a: Args) -> Result<()> {
     let (winding, common) = match a.what {
         What::Spiral {
             shape,
             turns,
             outer,
+            outer_radius,
             width,
             spacing,
             copper,
@@ -172,6 +153,7 @@ pub fn run(a: Args) -> Result<()> {
             layer_spacing,
             common,
         } => {
+            let outer = 2.0 * radius_or_diameter(outer_radius, outer, "spiral's outer size")?;
             let spiral = Spiral::new(shape, turns, outer, width, spacing)
                 .context("--shape/--turns/--outer/--width/--spacing")?;
             let layer_spacing_m = match (layers, layer_spacing) {
@@ -194,13 +176,14 @@ pub fn run(a: Args) -> Result<()> {
         }
         What::Solenoid {
             radius,
+            diameter,
             length,
             turns,
             wire,
             common,
         } => (
             Winding::Solenoid {
-                radius_m: radius,
+                radius_m: radius_or_diameter(radius, diameter, "coil")?,
                 length_m: length,
                 turns,
                 wire_diameter_m: wire,
@@ -249,23 +232,4 @@ pub fn run(a: Args) -> Result<()> {
         print!("{}", to_text(&report));
     }
     Ok(())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn lengths() {
-        assert_eq!(length("20mm"), Ok(0.02));
-        assert_eq!(length("300um"), Ok(300e-6));
-        assert_eq!(length("300µm"), Ok(300e-6));
-        assert_eq!(length(" 1.6 mm"), Ok(1.6e-3));
-        assert_eq!(length("0.5in"), Ok(0.0127));
-        assert!((length("12mil").unwrap() - 304.8e-6).abs() < 1e-15);
-        assert_eq!(length("0.02m"), Ok(0.02));
-        assert!(length("20").is_err());
-        assert!(length("mm").is_err());
-        assert!(length("infmm").is_err());
-    }
 }

@@ -19,15 +19,16 @@ use std::path::PathBuf;
 ///
 /// Example:
 ///
-///   lc-host convert --image unit.lcim --input field.csv --output readings.csv --float
+///   lc-host convert field.csv --image unit.lcim --output readings.csv --float
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
     /// Calibration image of the unit that logged the data
     #[arg(long)]
     image: PathBuf,
-    /// Field log to read, or `-` for standard input
-    #[arg(long)]
+    /// Field log to read, or `-` for standard input (`--input FILE` still
+    /// works, for older scripts)
+    #[arg(value_name = "FIELD_LOG")]
     input: PathBuf,
     /// Output CSV; standard output when absent or `-`. A file is written
     /// whole or not at all

@@ -1,6 +1,6 @@
 //! `lc-host counts`: count pairs to frequency, period ratio and shift.
 
-use super::{open_input, parse_pair, spinner, with_output};
+use super::{count_u32, hz_band, hz_u32, open_input, parse_pair, spinner, with_output};
 use anyhow::{anyhow, bail, Context, Result};
 use lc_core::counting::{CountPair, FaultWindow};
 use lc_host::counts::{convert_log, CountsConfig, OnBadRow};
@@ -18,8 +18,8 @@ use std::path::PathBuf;
 ///
 /// Example (the bundled demo log of a proximity sensor):
 ///
-///   lc-host counts examples/data/demo-counts.csv --reference-hz 48000000 \
-///     --rest 16384:139542 --gate-cycles 16384 --band 1000000:20000000
+///   lc-host counts examples/data/demo-counts.csv --reference-hz 48M \
+///     --rest 16384:139542 --gate-cycles 16384 --band 1M:20M
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
@@ -29,8 +29,8 @@ pub struct Args {
     /// whole or not at all (temporary file, then rename)
     #[arg(short, long)]
     output: Option<PathBuf>,
-    /// Reference clock of the counter, in hertz
-    #[arg(long, value_name = "HZ")]
+    /// Reference clock of the counter, in hertz (SI prefixes: 48M)
+    #[arg(long, value_name = "HZ", value_parser = hz_u32)]
     reference_hz: u32,
     /// The unit's rest point (no target, reference temperature) as the
     /// count pair CYCLES:TICKS measured there
@@ -39,14 +39,15 @@ pub struct Args {
     /// Length of the reciprocal gate in sensor cycles. Pairs with exactly
     /// this many cycles take the firmware's division-free path; others the
     /// one-division path. Both give the same shift within the stated bound
-    #[arg(long, value_name = "CYCLES")]
+    #[arg(long, value_name = "CYCLES", value_parser = count_u32::<1, { u32::MAX }>)]
     gate_cycles: Option<u32>,
-    /// Plausible sensor band MIN_HZ:MAX_HZ; pairs outside are reported as
-    /// faults (frequency_too_low / frequency_too_high), not converted
-    #[arg(long, value_name = "MIN_HZ:MAX_HZ", value_parser = |s: &str| parse_pair::<u32>(s, "1000000:20000000"))]
+    /// Plausible sensor band MIN_HZ:MAX_HZ (SI prefixes: 1M:20M); pairs
+    /// outside are reported as faults (frequency_too_low /
+    /// frequency_too_high), not converted
+    #[arg(long, value_name = "MIN_HZ:MAX_HZ", value_parser = hz_band)]
     band: Option<(u32, u32)>,
     /// Fewest sensor cycles a gate may hold (too_few_cycles below)
-    #[arg(long, value_name = "CYCLES", default_value_t = 1)]
+    #[arg(long, value_name = "CYCLES", default_value_t = 1, value_parser = count_u32::<0, { u32::MAX }>)]
     min_cycles: u32,
     /// What to do with a row that does not parse
     #[arg(long, value_enum, default_value_t = BadRow::Stop)]

@@ -25,5 +25,5 @@ pub struct Args {
 
 pub fn run(a: Args) -> Result<()> {
     let mut stdout = std::io::stdout().lock();
-    lc_host::demo::run(&a.out, &mut stdout)
+    Ok(lc_host::demo::run(&a.out, &mut stdout)?)
 }

@@ -33,11 +33,20 @@ fn table_json(t: &Table) -> serde_json::Value {
     })
 }
 
+/// The reader kind as a word ("proximity", "level", "metal").
+fn kind_name(kind: ReaderKind) -> &'static str {
+    match kind {
+        ReaderKind::Proximity => "proximity",
+        ReaderKind::Level => "level",
+        ReaderKind::Metal => "metal",
+    }
+}
+
 /// The calibration as JSON.
 pub fn to_json(cal: &Calibration, crc: u32, len: usize) -> serde_json::Value {
     let (b1, b2) = cal.drift.coefficients_f64();
     serde_json::json!({
-        "kind": format!("{:?}", cal.kind).to_lowercase(),
+        "kind": kind_name(cal.kind),
         "serial": cal.serial.as_str(),
         "length_bytes": len,
         "crc32": format!("{crc:08X}"),
@@ -64,7 +73,7 @@ pub fn to_text(cal: &Calibration, crc: u32, len: usize) -> String {
     let mut s = String::new();
     let unit = |exp: i8, u: &str| format!("1e{exp} {u}");
     s += &format!("calibration image, format 1, {len} bytes, CRC-32 {crc:08X}: valid\n");
-    s += &format!("  reader        {:?}\n", cal.kind);
+    s += &format!("  reader        {}\n", kind_name(cal.kind));
     s += &format!("  serial        {}\n", cal.serial.as_str());
     s += &format!(
         "  reference     {} Hz, gate {} cycles\n",

@@ -7,15 +7,86 @@ pub mod convert;
 pub mod counts;
 pub mod demo;
 pub mod inspect;
+pub mod loops;
+pub mod ntc;
 pub mod probe;
 pub mod simulate;
 pub mod units;
 pub mod verify;
+pub mod volume;
 
 use anyhow::{Context, Result};
 use lc_host::atomic::write_atomically;
 use std::io::{BufReader, IsTerminal, Read, Write};
 use std::path::Path;
+
+/// A quantity with an optional SI prefix and unit (`48M`, `100pF`, `4.7k`):
+/// the library's one parser, for clap.
+pub fn si(s: &str) -> Result<f64, String> {
+    lc_host::quantity::parse_si(s).map_err(|e| e.to_string())
+}
+
+/// A length with a unit (`20mm`, `300um`, `0.5in`), for clap.
+pub fn length(s: &str) -> Result<f64, String> {
+    lc_host::quantity::parse_length(s).map_err(|e| e.to_string())
+}
+
+/// A frequency in whole hertz with an optional SI prefix (`48M`, `48MHz`),
+/// 1 Hz to 4 294 967 295 Hz.
+pub fn hz_u32(s: &str) -> Result<u32, String> {
+    let v = lc_host::quantity::parse_si(s).map_err(|e| e.to_string())?;
+    if v.fract() != 0.0 || !(1.0..=f64::from(u32::MAX)).contains(&v) {
+        return Err(format!(
+            "{s:?} is not a whole number of hertz from 1 to 4294967295 (for example 48M)"
+        ));
+    }
+    // Exact: a whole number within u32, checked above.
+    Ok(v as u32)
+}
+
+/// A band `MIN:MAX` in hertz with SI prefixes (`1M:20M`), MIN ≤ MAX.
+pub fn hz_band(s: &str) -> Result<(u32, u32), String> {
+    let (a, b) = s
+        .split_once(':')
+        .ok_or_else(|| format!("{s:?}: expected MIN_HZ:MAX_HZ, for example 1M:20M"))?;
+    let (a, b) = (hz_u32(a)?, hz_u32(b)?);
+    if a > b {
+        return Err(format!("{s:?}: the lower frequency is above the upper"));
+    }
+    Ok((a, b))
+}
+
+/// A whole count from `MIN` to `MAX` (SI prefixes k, M, G accepted), for
+/// options that size work or memory.
+pub fn count_u32<const MIN: u32, const MAX: u32>(s: &str) -> Result<u32, String> {
+    lc_host::quantity::parse_count(s, u64::from(MIN), u64::from(MAX))
+        .map_err(|e| e.to_string())
+        .and_then(|v| u32::try_from(v).map_err(|e| e.to_string()))
+}
+
+/// As [`count_u32`], for `u64` options.
+pub fn count_u64<const MIN: u64, const MAX: u64>(s: &str) -> Result<u64, String> {
+    lc_host::quantity::parse_count(s, MIN, MAX).map_err(|e| e.to_string())
+}
+
+/// As [`count_u32`], for `usize` options.
+pub fn count_usize<const MIN: u32, const MAX: u32>(s: &str) -> Result<usize, String> {
+    count_u32::<MIN, MAX>(s).and_then(|v| usize::try_from(v).map_err(|e| e.to_string()))
+}
+
+/// A radius from `--radius` or, halved, from `--diameter` (exactly one of
+/// them; clap's groups enforce it), positive.
+pub fn radius_or_diameter(radius: Option<f64>, diameter: Option<f64>, what: &str) -> Result<f64> {
+    let r = match (radius, diameter) {
+        (Some(r), None) => r,
+        (None, Some(d)) => d / 2.0,
+        _ => anyhow::bail!("give the {what} as a radius or as a diameter, not both"),
+    };
+    if !(r.is_finite() && r > 0.0) {
+        anyhow::bail!("the {what} must be above zero");
+    }
+    Ok(r)
+}
 
 /// Opens a file, or standard input for `-`.
 pub fn open_input(path: &Path, what: &str) -> Result<Box<dyn Read>> {

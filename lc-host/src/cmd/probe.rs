@@ -1,9 +1,8 @@
 //! `lc-host probe`: a coaxial level probe's capacitance and what it does to
 //! the tank.
 
-use super::budget::si;
-use super::coil::length;
-use anyhow::{anyhow, bail, Result};
+use super::{count_u32, length, radius_or_diameter, si};
+use anyhow::{bail, Result};
 use lc_core::geometry::CoaxialProbe;
 use lc_host::liquid;
 
@@ -17,7 +16,7 @@ use lc_host::liquid;
 ///
 /// Example (the demo coolant tank's probe):
 ///
-///   lc-host probe --length 400mm --inner 5mm --outer 20mm --liquid water --temp 25 \
+///   lc-host probe --length 400mm --inner 5mm --outer 20mm --liquid water --temperature 25 \
 ///     --tank-l 22u --tank-c 1n --parasitic 15p
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
@@ -26,17 +25,28 @@ pub struct Args {
     #[arg(long, value_parser = length)]
     length: f64,
     /// Outer radius of the inner conductor (e.g. 5mm)
+    #[arg(long, visible_alias = "inner-radius", value_parser = length, required_unless_present = "inner_diameter", conflicts_with = "inner_diameter")]
+    inner: Option<f64>,
+    /// Outer diameter of the inner conductor, instead of --inner
     #[arg(long, value_parser = length)]
-    inner: f64,
+    inner_diameter: Option<f64>,
     /// Inner radius of the outer tube (e.g. 20mm)
+    #[arg(long, visible_alias = "outer-radius", value_parser = length, required_unless_present = "outer_diameter", conflicts_with = "outer_diameter")]
+    outer: Option<f64>,
+    /// Inner diameter of the outer tube, instead of --outer
     #[arg(long, value_parser = length)]
-    outer: f64,
+    outer_diameter: Option<f64>,
     /// The liquid (`list` shows the known names)
     #[arg(long, default_value = "water")]
     liquid: String,
-    /// Liquid temperature, °C
-    #[arg(long, default_value_t = 25.0, allow_hyphen_values = true)]
-    temp: f64,
+    /// Liquid temperature, °C (water: 0 to 100 °C, the range of its formula)
+    #[arg(
+        long,
+        alias = "temp",
+        default_value_t = 25.0,
+        allow_hyphen_values = true
+    )]
+    temperature: f64,
     /// Tank inductance, H (with --tank-c: frequencies and shifts)
     #[arg(long, value_parser = si)]
     tank_l: Option<f64>,
@@ -46,8 +56,8 @@ pub struct Args {
     /// Parasitic capacitance in parallel, F
     #[arg(long, value_parser = si, default_value = "0")]
     parasitic: f64,
-    /// Levels in the table (evenly from empty to full)
-    #[arg(long, default_value_t = 10)]
+    /// Levels in the table, evenly from empty to full (1 to 10000)
+    #[arg(long, default_value_t = 10, value_parser = count_u32::<1, 10_000>)]
     steps: u32,
     /// Print JSON instead of a table
     #[arg(long)]
@@ -61,24 +71,27 @@ pub fn run(a: Args) -> Result<()> {
         }
         return Ok(());
     }
-    let eps = liquid::permittivity(&a.liquid, a.temp).ok_or_else(|| {
-        anyhow!(
-            "--liquid {:?}: unknown; `--liquid list` shows the known names",
-            a.liquid
-        )
-    })?;
-    if !(a.outer > a.inner && a.inner > 0.0 && a.length > 0.0) {
-        bail!("need --outer > --inner > 0 and a positive --length");
+    let eps = liquid::permittivity(&a.liquid, a.temperature)?;
+    if !eps.temperature_model && (a.temperature - 20.0).abs() > 5.0 {
+        eprintln!(
+            "warning: {}'s permittivity is the CRC Handbook value at 20 °C; it has no temperature model, so at {} °C the real value differs",
+            a.liquid, a.temperature
+        );
+    }
+    let inner = radius_or_diameter(a.inner, a.inner_diameter, "inner conductor")?;
+    let outer = radius_or_diameter(a.outer, a.outer_diameter, "outer tube")?;
+    if !(outer > inner && a.length > 0.0) {
+        bail!("need the outer tube wider than the inner conductor, and a positive --length");
     }
     let probe = CoaxialProbe {
         length_m: a.length,
-        inner_radius_m: a.inner,
-        outer_radius_m: a.outer,
+        inner_radius_m: inner,
+        outer_radius_m: outer,
     };
     let tank = a.tank_l.zip(a.tank_c);
-    let rows: Vec<serde_json::Value> = (0..=a.steps.max(1))
+    let rows: Vec<serde_json::Value> = (0..=a.steps)
         .map(|i| {
-            let h = a.length * f64::from(i) / f64::from(a.steps.max(1));
+            let h = a.length * f64::from(i) / f64::from(a.steps);
             let c = probe.immersed_capacitance_f(h, eps.value, 1.0);
             let (f, s) = match tank {
                 Some((l, ct)) => {
@@ -99,13 +112,13 @@ pub fn run(a: Args) -> Result<()> {
     println!(
         "coaxial probe {:.1} mm long, a = {:.2} mm, b = {:.2} mm; {} εr = {:.3} ({}{})",
         a.length * 1e3,
-        a.inner * 1e3,
-        a.outer * 1e3,
+        inner * 1e3,
+        outer * 1e3,
         a.liquid,
         eps.value,
         eps.source,
         if eps.temperature_model {
-            format!(", {} °C", a.temp)
+            format!(", {} °C", a.temperature)
         } else {
             ", no temperature model".to_string()
         }

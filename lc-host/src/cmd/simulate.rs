@@ -1,6 +1,6 @@
 //! `lc-host simulate`: rig logs (and field logs) from the physics model.
 
-use super::with_output;
+use super::{count_usize, with_output};
 use anyhow::anyhow;
 use anyhow::Result;
 use lc_host::sim::field::{write_field_log, Fault, FaultKind, FieldSpec};
@@ -15,7 +15,7 @@ use std::path::PathBuf;
 /// Seeded: the same seed gives the same log. Faults on request: cracked capacitors
 /// (--bad-every) and corrupted rows (--corrupt-every), to see the acceptance work.
 ///
-/// Example (the demo lot of DESIGN §8):
+/// Example (the demo lot, docs/references.md, Demo scenario):
 ///
 ///   lc-host simulate rig --lot DEMO-01 --units 24 --seed 1 -o rig.csv
 #[derive(clap::Args)]
@@ -32,8 +32,8 @@ enum What {
         /// Lot name (serials are LOT-0001, …)
         #[arg(long, default_value = "DEMO-01")]
         lot: String,
-        /// Units in the lot
-        #[arg(long, default_value_t = 24)]
+        /// Units in the lot (1 to 1000000)
+        #[arg(long, default_value_t = 24, value_parser = count_usize::<1, 1_000_000>)]
         units: usize,
         /// Seed
         #[arg(long, default_value_t = 1)]
@@ -53,8 +53,8 @@ enum What {
         /// Lot name
         #[arg(long, default_value = "TANK-01")]
         lot: String,
-        /// Units in the lot
-        #[arg(long, default_value_t = 8)]
+        /// Units in the lot (1 to 1000000)
+        #[arg(long, default_value_t = 8, value_parser = count_usize::<1, 1_000_000>)]
         units: usize,
         /// Seed
         #[arg(long, default_value_t = 1)]

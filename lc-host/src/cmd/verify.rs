@@ -1,6 +1,6 @@
 //! `lc-host verify`: the image's fixed-point path against its f64 twin.
 
-use super::load_image;
+use super::{count_u64, count_usize, load_image};
 use anyhow::{bail, Result};
 use lc_host::verify::{to_text, verify, Firmware, VerifyOptions};
 use std::io::IsTerminal;
@@ -18,21 +18,21 @@ use std::path::PathBuf;
 ///
 /// Example:
 ///
-///   lc-host verify --image out/images/DEMO-01-0007.lcim
+///   lc-host verify out/images/DEMO-01-0007.lcim
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
     /// The calibration image
-    #[arg(long)]
+    #[arg(value_name = "IMAGE")]
     image: PathBuf,
-    /// Random points in addition to the grid
-    #[arg(long, default_value_t = 10_000_000)]
+    /// Random points in addition to the grid (0 to 10^10; 10M accepted)
+    #[arg(long, default_value_t = 10_000_000, value_parser = count_u64::<0, 10_000_000_000>)]
     points: u64,
     /// Seed of the random points
     #[arg(long, default_value_t = 0x5EED)]
     seed: u64,
-    /// Worker threads (default: all cores)
-    #[arg(long)]
+    /// Worker threads, 1 to 1024 (default: all cores)
+    #[arg(long, value_parser = count_usize::<1, 1024>)]
     threads: Option<usize>,
     /// Print JSON instead of a table
     #[arg(long)]

@@ -117,10 +117,10 @@ fn asymptotic(x: f64) -> f64 {
 mod tests {
     use super::*;
 
-    /// Values [COMPUTED] with mpmath `besselj(1, x)` at 25 digits; the
+    /// Values computed with mpmath `besselj(1, x)` at 25 digits; the
     /// first four agree with A&S 1964 Table 9.1 to its 10 printed digits
-    /// (0.4400505857, 0.5767248078, −0.3275791376, 0.0434727462) [FROM MEMORY
-    /// for the table].
+    /// (0.4400505857, 0.5767248078, −0.3275791376, 0.0434727462) (from memory
+    /// for the table; docs/references.md, Bessel J1).
     #[test]
     fn reference_values() {
         let cases = [
@@ -147,7 +147,7 @@ mod tests {
             assert_eq!(bessel_j1(-x), -bessel_j1(x));
         }
         // First zero j1,1 = 3.8317059702075123 (A&S Table 9.5; mpmath
-        // besseljzero [COMPUTED]).
+        // besseljzero; computed).
         assert!(bessel_j1(3.8317059702075125).abs() < 1e-15);
         assert_eq!(bessel_j1(0.0), 0.0);
         assert!(bessel_j1(f64::NAN).is_nan());

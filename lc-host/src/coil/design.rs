@@ -571,42 +571,9 @@ impl Conductor {
     }
 }
 
-/// A value with an engineering prefix and 4 significant digits: "7.246 µH".
-pub fn eng(v: f64, unit: &str) -> String {
-    if !v.is_finite() {
-        return format!("{v} {unit}");
-    }
-    let a = v.abs();
-    let prefixes = [
-        (1e9, "G"),
-        (1e6, "M"),
-        (1e3, "k"),
-        (1.0, ""),
-        (1e-3, "m"),
-        (1e-6, "µ"),
-        (1e-9, "n"),
-        (1e-12, "p"),
-        (1e-15, "f"),
-    ];
-    let (scale, p) = if a == 0.0 {
-        (1.0, "")
-    } else {
-        prefixes
-            .iter()
-            .copied()
-            .find(|(s, _)| a >= *s * 0.999_95)
-            .unwrap_or((1e-15, "f"))
-    };
-    let x = v / scale;
-    let digits = if x.abs() >= 99.995 {
-        1
-    } else if x.abs() >= 9.9995 {
-        2
-    } else {
-        3
-    };
-    format!("{x:.digits$} {p}{unit}")
-}
+/// A value with an engineering prefix and 4 significant digits: "7.246 µH"
+/// (the one formatter of [`crate::quantity`]).
+pub use crate::quantity::eng;
 
 /// A length in mm (µm below 0.1 mm, m from 1 m).
 fn mm(v: f64) -> String {
@@ -892,7 +859,7 @@ mod tests {
     #[test]
     fn demo_coil_report() {
         let r = design(&demo_input()).unwrap();
-        // About 7.25 µH (DESIGN.md §8 demo coil).
+        // About 7.25 µH (docs/references.md, Demo scenario).
         assert!(
             (r.design_inductance_h - 7.25e-6).abs() < 0.1e-6,
             "{}",
@@ -953,15 +920,5 @@ mod tests {
         assert!(design(&input).is_err());
         input.temperature_c = f64::NAN;
         assert!(design(&input).is_err());
-    }
-
-    #[test]
-    fn engineering_format() {
-        assert_eq!(eng(7.2461e-6, "H"), "7.246 µH");
-        assert_eq!(eng(100e-12, "F"), "100.0 pF");
-        assert_eq!(eng(5.6e6, "Hz"), "5.600 MHz");
-        assert_eq!(eng(0.0, "Ω"), "0.000 Ω");
-        assert_eq!(eng(-0.2345e-6, "H"), "-234.5 nH");
-        assert_eq!(eng(999.99e-9, "H"), "1.000 µH");
     }
 }

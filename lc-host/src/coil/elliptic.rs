@@ -10,7 +10,7 @@
 //!
 //! Maxwell's formula, Nagaoka's coefficient, C++17 `std::comp_ellint_1(k)`
 //! and many papers write K(k) with the **modulus k**: pass `k * k` here
-//! (REFERENCES.md §4, "Convention trap"; §14 item 3: "E(k = 0.5)" is
+//! (docs/references.md, Elliptic integrals and Traps, item 3: "E(k = 0.5)" is
 //! E(m = 0.25) = 1.4674622093, not 1.46034).
 //!
 //! # Algorithm (A&S 1964 §17.6; DLMF §19.8(i))
@@ -30,10 +30,10 @@
 //!   solenoids) do not lose it to rounding near m = 1.
 //!
 //! The AGM converges quadratically: 5 or 6 steps reach 1e-16 for m ≤ 0.9.
-//! The tests reproduce A&S Table 17.1 (REFERENCES.md §4, 10 decimals) and
-//! the closed form K(½) = Γ(¼)²/(4√π) to 2e-15, and agree with periodic
-//! trapezoidal quadrature over m ∈ [0, 0.999] to 1e-13 relative and with
-//! the power series over m ∈ [0, 0.5] to 1e-14.
+//! The tests reproduce A&S Table 17.1 (docs/references.md, Elliptic integrals,
+//! 10 decimals) and the closed form K(½) = Γ(¼)²/(4√π) to 2e-15, and agree with
+//! periodic trapezoidal quadrature over m ∈ [0, 0.999] to 1e-13 relative and
+//! with the power series over m ∈ [0, 0.5] to 1e-14.
 //!
 //! # Limits
 //!
@@ -198,9 +198,9 @@ mod tests {
         (FRAC_PI_2 * k, FRAC_PI_2 * e)
     }
 
-    /// A&S 1964 Table 17.1 (pp. 608–611), values as listed in REFERENCES.md
-    /// §4 (structure [CONFIRMED-2nd], values [COMPUTED] with mpmath),
-    /// tolerance 1e-10 as stated there.
+    /// A&S 1964 Table 17.1 (pp. 608–611), values as listed in
+    /// docs/references.md, Elliptic integrals (layout published, quoted; values
+    /// computed with mpmath at 30 digits), tolerance 1e-10.
     #[test]
     #[allow(clippy::approx_constant)] // the table's printed π/2, deliberately
     fn abramowitz_stegun_table_17_1() {
@@ -219,14 +219,15 @@ mod tests {
             assert!((r.e - e).abs() < 1e-10, "E({m}) = {} vs {e}", r.e);
             assert!((r.k - r.e - r.k_minus_e).abs() < 1e-14);
         }
-        // REFERENCES.md §14 item 3: E at modulus k = 0.5 is E(m = 0.25).
+        // docs/references.md, Traps, item 3: E at modulus k = 0.5 is E(m =
+        // 0.25).
         assert!((complete_e(0.5 * 0.5) - 1.4674622093).abs() < 1e-10);
         assert!((complete_e(0.5) - 1.46034).abs() > 0.1);
     }
 
-    /// K(1/2) = Γ(1/4)²/(4√π) = 1.854074677301372 (REFERENCES.md §4,
-    /// [COMPUTED]); Γ(1/4) = 4·∫₀^∞ e^(−u⁴) du by Gauss–Legendre as an
-    /// independent check of the closed form.
+    /// K(1/2) = Γ(1/4)²/(4√π) = 1.854074677301372 (docs/references.md,
+    /// Elliptic integrals; computed); Γ(1/4) = 4·∫₀^∞ e^(−u⁴) du by
+    /// Gauss–Legendre as an independent check of the closed form.
     #[test]
     fn closed_form_at_one_half() {
         assert!((complete_k(0.5) - 1.854074677301372).abs() < 2e-15);
@@ -246,7 +247,8 @@ mod tests {
         let closed = gamma_quarter * gamma_quarter / (4.0 * PI.sqrt());
         assert!((complete_k(0.5) - closed).abs() < 1e-13, "{closed}");
         // Legendre's relation at m = ½: 2·E·K − K² = π/2, so
-        // E(½) = 1.350643881047676 (REFERENCES.md §4 [COMPUTED]).
+        // E(½) = 1.350643881047676 (docs/references.md, Elliptic integrals;
+        // computed).
         let r = complete_integrals(0.5);
         assert!((2.0 * r.e * r.k - r.k * r.k - FRAC_PI_2).abs() < 1e-14);
         assert!((r.e - 1.350643881047676).abs() < 2e-15);

@@ -1,13 +1,13 @@
 //! IEC 60063 preferred numbers (the E series) and the nearest preferred
 //! value.
 //!
-//! The tables are hard-coded from IEC 60063:2015 as listed in REFERENCES.md
-//! §8 [CONFIRMED-2nd, several identical lists]. They are **not** generated:
-//! E24 is not round(10^(i/24), 1) (that gives 2.6 2.9 3.2 3.5 3.8 4.2 4.6 8.3
-//! where the standard has 2.7 3.0 3.3 3.6 3.9 4.3 4.7 8.2), and E12 and E6
-//! inherit the same differences. E48 and E96 happen to equal round(10^(i/48),
-//! 2) and round(10^(i/96), 2) exactly (the tests check it); E192 would not
-//! (9.20, not 9.19) and is not offered.
+//! The tables are hard-coded from IEC 60063:2015 as listed in
+//! docs/references.md, Preferred numbers (published, quoted from several
+//! identical lists). They are **not** generated: E24 is not round(10^(i/24), 1)
+//! (that gives 2.6 2.9 3.2 3.5 3.8 4.2 4.6 8.3 where the standard has 2.7 3.0
+//! 3.3 3.6 3.9 4.3 4.7 8.2), and E12 and E6 inherit the same differences. E48
+//! and E96 happen to equal round(10^(i/48), 2) and round(10^(i/96), 2) exactly
+//! (the tests check it); E192 would not (9.20, not 9.19) and is not offered.
 //!
 //! Mantissas are stored as integers (two digits for E3–E24, three for
 //! E48/E96) and scaled by an exact power of ten, so 4.7 nF comes out as
@@ -19,8 +19,9 @@
 //! ratio error, which is how tolerance bands are laid out. The boundary
 //! between neighbours a < b is then their geometric mean √(ab), not the
 //! arithmetic one: 4.898 is nearer 4.7 linearly but nearer **5.1** by log
-//! distance in E24 (the geometric midpoint is 4.896; REFERENCES.md §8). A
-//! value exactly on a boundary goes to the lower neighbour.
+//! distance in E24 (the geometric midpoint is 4.896; docs/references.md,
+//! Preferred numbers). A value exactly on a boundary goes to the lower
+//! neighbour.
 
 use std::str::FromStr;
 
@@ -52,8 +53,8 @@ const E48: [u16; 48] = [
     249, 261, 274, 287, 301, 316, 332, 348, 365, 383, 402, 422, 442, 464, 487, 511, 536, 562, 590,
     619, 649, 681, 715, 750, 787, 825, 866, 909, 953,
 ];
-// E96 [FROM MEMORY]; the tests check it equals round(10^(i/96), 2) for
-// every i [COMPUTED] and that every other value is the confirmed E48.
+// E96 (from memory); the tests check it equals round(10^(i/96), 2) for
+// every i (computed) and that every other value is the confirmed E48.
 const E96: [u16; 96] = [
     100, 102, 105, 107, 110, 113, 115, 118, 121, 124, 127, 130, 133, 137, 140, 143, 147, 150, 154,
     158, 162, 165, 169, 174, 178, 182, 187, 191, 196, 200, 205, 210, 215, 221, 226, 232, 237, 243,
@@ -218,7 +219,8 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    /// The lists of REFERENCES.md §8 (IEC 60063:2015 [CONFIRMED-2nd]).
+    /// The lists of docs/references.md, Preferred numbers (IEC 60063:2015;
+    /// published, quoted).
     #[test]
     fn tables_as_published() {
         let e24: Vec<f64> = "1.0 1.1 1.2 1.3 1.5 1.6 1.8 2.0 2.2 2.4 2.7 3.0 3.3 3.6 3.9 4.3 4.7 5.1 5.6 6.2 6.8 7.5 8.2 9.1"
@@ -239,7 +241,8 @@ mod tests {
             .collect();
         assert_eq!(ESeries::E48.decade(), e48);
         // E96: every other value is E48; E48 and E96 are round(10^(i/N), 2)
-        // (REFERENCES.md §8 [COMPUTED] for E48; E96 [COMPUTED] here).
+        // (docs/references.md, Preferred numbers: E48 computed; E96 computed
+        // here).
         let e96 = ESeries::E96.decade();
         assert_eq!(e96.iter().step_by(2).copied().collect::<Vec<_>>(), e48);
         for (series, n) in [(ESeries::E48, 48), (ESeries::E96, 96)] {
@@ -253,8 +256,9 @@ mod tests {
         assert_eq!(nearest(ESeries::E24, 100e-12), Some(100e-12));
     }
 
-    /// The trap of REFERENCES.md §8 / §14 item 1: E24 is not
-    /// round(10^(i/24), 1); the formula differs in exactly these eight places.
+    /// The trap of docs/references.md, Preferred numbers / Traps, item 1: E24
+    /// is not round(10^(i/24), 1); the formula differs in exactly these eight
+    /// places.
     #[test]
     fn e24_is_not_a_rounded_geometric_series() {
         let mut diffs = vec![];
@@ -280,7 +284,8 @@ mod tests {
         assert!(!ESeries::E24.decade().contains(&4.2));
     }
 
-    /// REFERENCES.md §8 nearest-value cases [COMPUTED], log distance.
+    /// docs/references.md, Preferred numbers nearest-value cases (computed),
+    /// log distance.
     #[test]
     fn nearest_cases() {
         assert_eq!(nearest(ESeries::E12, 5.0), Some(4.7));

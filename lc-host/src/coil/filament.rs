@@ -16,8 +16,9 @@
 //! both far apart (m → 0) and close together (m → 1). The same M is
 //! Neumann's integral (µ0/4π)·ab·∫₀^{2π} cos φ dφ / √(a² + b² + d² −
 //! 2ab·cos φ), which the tests integrate numerically as an independent
-//! check. (REFERENCES.md §4 writes the prefactor as µ0/4π; the outer
-//! integral over the second loop contributes another 2π, so it is µ0/2.)
+//! check. (Written with µ0/4π the prefactor is wrong: the outer integral
+//! over the second loop contributes another 2π, so it is µ0/2;
+//! docs/references.md, Traps, item 13.)
 //!
 //! # Self-inductance from the geometric mean distance (Grover 1946)
 //!
@@ -26,7 +27,7 @@
 //! inductance of two filaments g apart, to leading order. For a round wire
 //! of radius ρ, g = ρ·e^(−1/4) and the formula becomes the familiar
 //! µ0·r·(ln(8r/ρ) − 7/4). For a rectangle w × t, g ≈ 0.2235·(w + t)
-//! (Grover, *Inductance Calculations*, 1946; REFERENCES.md §2).
+//! (Grover, *Inductance Calculations*, 1946; docs/references.md, Grover 1946).
 //!
 //! # Coils as loops
 //!
@@ -70,8 +71,8 @@ pub fn loop_self_inductance_h(radius_m: f64, gmd_m: f64) -> f64 {
 
 /// Geometric mean distance of a rectangular cross-section w × t from
 /// itself, g ≈ 0.2235·(w + t), in m (Grover, *Inductance Calculations*,
-/// 1946; REFERENCES.md §2). Grover's approximation; exact for a square
-/// within about 0.1 % [FROM MEMORY].
+/// 1946; docs/references.md, Grover 1946). Grover's approximation; exact for a
+/// square within about 0.1 % (from memory).
 pub fn gmd_rectangle_m(width_m: f64, thickness_m: f64) -> f64 {
     0.2235 * (width_m + thickness_m)
 }
@@ -231,7 +232,7 @@ mod tests {
     /// Neumann's double line integral (µ0/4π)·∮∮ dl₁·dl₂/R reduced by
     /// symmetry to (µ0/2)·ab·∫₀^{2π} cos φ /√(a² + b² + d² − 2ab cos φ) dφ,
     /// by composite Gauss–Legendre (independent of the elliptic integrals).
-    /// REFERENCES.md §4 prints the prefactor as µ0/4π, dropping the 2π
+    /// Some write-ups print the prefactor as µ0/4π, dropping the 2π
     /// of the outer integral; with it the result is 2π times too small.
     fn neumann(a: f64, b: f64, d: f64) -> f64 {
         let rule = gauss_legendre(16);
@@ -258,10 +259,36 @@ mod tests {
         }
     }
 
+    /// docs/references.md, Coaxial loops: M(a, b, d) computed by
+    /// `scripts/reference-values.py` (mpmath 1.3 at 50 digits, Maxwell's
+    /// closed form with mpmath's `ellipk`/`ellipe`, and Neumann's integral
+    /// by mpmath `quad`; the two agree to 1e-30), held to 1e-12 relative.
+    /// The cases span close, touching-plane, unequal, far and 10:1 loops,
+    /// and two turns of the demo-sized spiral.
+    #[test]
+    fn maxwell_against_mpmath() {
+        let cases = [
+            (0.01, 0.01, 0.005, 1.112_610_893_521_964_6e-8),
+            (0.01, 0.02, 0.0, 1.097_235_894_694_795_9e-8),
+            (0.01, 0.005, 0.01, 1.618_167_841_109_075_9e-9),
+            (0.05, 0.05, 0.1, 7.092_996_310_223_702_6e-9),
+            (1.0, 0.1, 2.0, 1.761_561_428_968_939_4e-9),
+            (0.0049, 0.0045, 0.0016, 7.021_476_069_627_576e-9),
+        ];
+        for (a, b, d, exact) in cases {
+            let m = mutual_inductance_coaxial_h(a, b, d);
+            assert!(
+                (m / exact - 1.0).abs() < 1e-12,
+                "M({a}, {b}, {d}) = {m:e} vs {exact:e}"
+            );
+        }
+    }
+
     #[test]
     fn far_field_limit() {
         // A small loop b on the axis of loop a sees B = µ0·a²/(2(a² + d²)^{3/2}):
-        // M → µ0·π·a²·b²/(2(a² + d²)^{3/2}) as b → 0 (REFERENCES.md §4).
+        // M → µ0·π·a²·b²/(2(a² + d²)^{3/2}) as b → 0 (docs/references.md,
+        // Coaxial loops).
         let a = 0.01;
         let b = 1e-6;
         for d in [0.0, 0.001, 0.01, 0.1, 1.0, 10.0] {
@@ -297,11 +324,11 @@ mod tests {
         assert!(((l - classic) / classic).abs() < 1e-14);
     }
 
-    /// REFERENCES.md §2 cross-check [COMPUTED]: the circular spiral (10
-    /// turns, d_out 10 mm, w = s = 0.2 mm, t = 35 µm) as 10 rings r = 4.9,
-    /// 4.5, …, 1.3 mm with g = 0.2235(w + t) gives 0.56345 µH, 0.987× the
-    /// current-sheet value 0.570639 µH (Mohan et al. 1999). REFERENCES
-    /// suggests 5 %; we hold it to 2 %.
+    /// docs/references.md, Spiral cases, ring-model cross-check (computed): the
+    /// circular spiral (10 turns, d_out 10 mm, w = s = 0.2 mm, t = 35 µm) as 10
+    /// rings r = 4.9, 4.5, …, 1.3 mm with g = 0.2235(w + t) gives 0.56345 µH,
+    /// 0.987× the current-sheet value 0.570639 µH (Mohan et al. 1999). A 5 %
+    /// tolerance would do; we hold it to 2 %.
     #[test]
     fn references_circle_ring_model() {
         let radii: Vec<f64> = (0..10).map(|i| (4.9 - 0.4 * f64::from(i)) * 1e-3).collect();

@@ -22,11 +22,12 @@
 //! | [`target`] | a coil over a metal plate: image method and the layered-conductor model | Maxwell; Dodd & Deeds 1968 |
 //! | [`design`] | one call that evaluates all of the above for a coil, the `lc-host coil` report | — |
 //!
-//! Check values and their sources are in REFERENCES.md §2–§5 and §8 and
-//! beside each test; docs/coil.md walks through the methods, their validity
-//! and the convention traps (parameter m vs modulus k; Wheeler's dropped
-//! 1.0028; E24 is not a rounded geometric series; Mohan's Table I has no
-//! circle row).
+//! Check values and their sources are in docs/references.md (Spiral cases,
+//! Solenoid cases, Nagaoka coefficient, Coaxial loops, Elliptic integrals,
+//! Copper, Preferred numbers) and beside each test; docs/coil.md walks through
+//! the methods, their validity and the convention traps (parameter m vs modulus
+//! k; Wheeler's dropped 1.0028; E24 is not a rounded geometric series; Mohan's
+//! Table I has no circle row).
 //!
 //! # Example
 //!
@@ -34,7 +35,8 @@
 //! use lc_host::coil::spiral::{current_sheet_h, Shape, Spiral};
 //! use lc_host::coil::filament::mutual_inductance_coaxial_h;
 //!
-//! // REFERENCES.md §2 [COMPUTED]: circle, 10 turns, d_out 10 mm, w = s = 0.2 mm.
+//! // docs/references.md, Spiral cases (computed): circle, 10 turns,
+//! // d_out 10 mm, w = s = 0.2 mm.
 //! let coil = Spiral::new(Shape::Circular, 10, 10e-3, 0.2e-3, 0.2e-3).unwrap();
 //! let l_h = current_sheet_h(&coil);
 //! assert!((l_h - 0.570639e-6).abs() < 1e-12);
@@ -59,9 +61,9 @@ pub mod tuning;
 
 /// Vacuum permeability µ0 = 4π×10⁻⁷ H/m, the pre-2019 exact value.
 ///
-/// REFERENCES.md (header): the CODATA 2018 value differs by 5.4×10⁻¹⁰
-/// relative, negligible for every tolerance here; one constant is used
-/// everywhere.
+/// docs/references.md, How sure each value is: the CODATA 2018 value differs by
+/// 5.4×10⁻¹⁰ relative, negligible for every tolerance here; one constant is
+/// used everywhere.
 pub const MU0_H_PER_M: f64 = 4.0e-7 * std::f64::consts::PI;
 
 /// What went wrong in a coil calculation. Each message names the quantity

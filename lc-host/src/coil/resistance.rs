@@ -1,25 +1,25 @@
 //! Copper resistance: resistivity and its temperature coefficient, skin
 //! depth, DC and AC resistance of a trace or wire, and the coil's Q.
 //!
-//! # Copper (REFERENCES.md §5)
+//! # Copper (docs/references.md, Copper)
 //!
 //! International Annealed Copper Standard (IEC 60028:1925; NBS Handbook 100,
 //! "Copper Wire Tables", 1966): ρ20 = 1/58 Ω·mm²/m = 1.7241×10⁻⁸ Ω·m (σ =
-//! 58.0 MS/m, 100 % IACS) [CONFIRMED-2nd], α20 = 0.00393 K⁻¹ [FROM MEMORY:
-//! NBS Handbook 100 §1.1b]:
+//! 58.0 MS/m, 100 % IACS) (published, quoted), α20 = 0.00393 K⁻¹ (from memory:
+//! NBS Handbook 100 §1.1b; docs/references.md, IEC 60028 and NBS Handbook 100):
 //!
 //! R(T) = R20·(1 + α20·(T − 20 °C)).
 //!
 //! This is the annealed-copper model; pure copper (CRC: 1.678×10⁻⁸ Ω·m at
 //! 20 °C) has a higher α, and IEC 60228's cable correction 250/(230 + t) is
-//! a different model. Do not mix them (REFERENCES.md §5, §14 item 11).
-//! PCB copper: "1 oz" is 34.3 µm by weight (305 g/m² at 8.89 g/cm³), 35 µm
+//! a different model. Do not mix them (docs/references.md, Copper, Traps, item
+//! 11). PCB copper: "1 oz" is 34.3 µm by weight (305 g/m² at 8.89 g/cm³), 35 µm
 //! in common practice.
 //!
 //! # Skin depth
 //!
 //! δ = √(ρ/(π·f·µ0·µr)) (standard): 66.09 µm at 1 MHz for IACS copper,
-//! 65.20 µm for pure copper (REFERENCES.md §5).
+//! 65.20 µm for pure copper (docs/references.md, Copper).
 //!
 //! # AC resistance: a first-order model
 //!
@@ -43,11 +43,11 @@ use super::MU0_H_PER_M;
 use std::f64::consts::PI;
 
 /// IACS resistivity at 20 °C, 1/58 Ω·mm²/m = 1.7241×10⁻⁸ Ω·m (IEC 60028;
-/// NBS Handbook 100; REFERENCES.md §5 [CONFIRMED-2nd]).
+/// NBS Handbook 100; docs/references.md, Copper; published, quoted).
 pub const IACS_RESISTIVITY_20C_OHM_M: f64 = 1.0 / 58.0e6;
 
 /// IACS temperature coefficient at 20 °C, 0.00393 K⁻¹ (NBS Handbook 100
-/// §1.1b; REFERENCES.md §5 [FROM MEMORY]).
+/// §1.1b; docs/references.md, Copper; from memory).
 pub const IACS_TEMPERATURE_COEFFICIENT_PER_K: f64 = 0.00393;
 
 /// The reference temperature of the IACS values, 20 °C.
@@ -133,7 +133,7 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    /// REFERENCES.md §5 check cases [COMPUTED] for R(T)/R20 = 1 +
+    /// docs/references.md, Copper check cases (computed) for R(T)/R20 = 1 +
     /// 0.00393·(T − 20), printed to 5 decimals: compared at 1e-5.
     #[test]
     fn resistance_ratio_table() {
@@ -150,15 +150,16 @@ mod tests {
             assert!((copper_resistance_ratio(t) - r).abs() < 1e-5, "{t}");
         }
         assert_eq!(copper_resistance_ratio(20.0), 1.0);
-        // ρ20 = 1/58 Ω·mm²/m = 0.017241 Ω·mm²/m (REFERENCES.md §5 [CONFIRMED-2nd]).
+        // ρ20 = 1/58 Ω·mm²/m = 0.017241 Ω·mm²/m (docs/references.md, Copper;
+        // published, quoted).
         assert!((IACS_RESISTIVITY_20C_OHM_M * 1e6 - 0.017241).abs() < 5e-7);
         // The "234.5 rule" is the same model to 4 digits: 1/254.5 = 0.003929
-        // (REFERENCES.md §5 [FROM MEMORY]).
+        // (docs/references.md, Copper; from memory).
         assert!(((234.5 + 85.0) / 254.5 - copper_resistance_ratio(85.0)).abs() < 1e-4);
     }
 
-    /// REFERENCES.md §5 [COMPUTED]: 1 oz (35 µm) × 0.2 mm × 100 mm at 20 °C
-    /// is 0.24631 Ω; the sheet resistance is 0.49261 mΩ/sq.
+    /// docs/references.md, Copper (computed): 1 oz (35 µm) × 0.2 mm × 100 mm at
+    /// 20 °C is 0.24631 Ω; the sheet resistance is 0.49261 mΩ/sq.
     #[test]
     fn trace_example() {
         let r = dc_resistance_ohm(IACS_RESISTIVITY_20C_OHM_M, 0.1, 0.2e-3 * 35e-6);
@@ -167,12 +168,12 @@ mod tests {
         assert!((sheet * 1e3 - 0.49261).abs() < 5e-6);
     }
 
-    /// REFERENCES.md §5 skin-depth table [COMPUTED], printed to 4 digits:
-    /// compared at half a unit of the last printed digit.
+    /// docs/references.md, Copper skin-depth table (computed), printed to 4
+    /// digits: compared at half a unit of the last printed digit.
     #[test]
     fn skin_depth_table() {
         let iacs = IACS_RESISTIVITY_20C_OHM_M;
-        let pure = 1.678e-8; // CRC Handbook, 20 °C (REFERENCES.md §5 [CONFIRMED-2nd])
+        let pure = 1.678e-8; // CRC Handbook, 20 °C (docs/references.md, Copper; published, quoted)
         let cases = [
             (50.0, 9.346e-3, 9.220e-3, 0.5e-6),
             (60.0, 8.532e-3, 8.417e-3, 0.5e-6),

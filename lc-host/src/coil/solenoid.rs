@@ -4,7 +4,7 @@
 //! # Wheeler (1928)
 //!
 //! H. A. Wheeler, "Simple inductance formulas for radio coils", *Proc. IRE*
-//! 16(10):1398–1400, Oct 1928 (REFERENCES.md §3):
+//! 16(10):1398–1400, Oct 1928 (docs/references.md, Wheeler 1928):
 //!
 //! | form | formula | units |
 //! |---|---|---|
@@ -13,11 +13,11 @@
 //! | SI | L = µ0·π·r²·N²/(ℓ + 0.9r) | SI; **1.0028 × the inch form** |
 //!
 //! The published constant drops the factor 4π²·0.0254 = 1.00275 that the SI
-//! derivation carries (REFERENCES.md §3 [CONFIRMED-2nd]; §14 item 9). We do
-//! not "fix" it: [`wheeler_h`] reproduces the published µH values and
-//! [`wheeler_si_h`] is the SI form, 0.28 % higher. Wheeler claimed about
-//! 1 % for ℓ > 0.8r [FROM MEMORY]; against the exact Lorenz value the inch
-//! form is within 0.6 % over ℓ ≥ 0.8r (tests).
+//! derivation carries (docs/references.md, Wheeler 1928 and Traps, item 9;
+//! published, quoted). We do not "fix" it: [`wheeler_h`] reproduces the
+//! published µH values and [`wheeler_si_h`] is the SI form, 0.28 % higher.
+//! Wheeler claimed about 1 % for ℓ > 0.8r (from memory); against the exact
+//! Lorenz value the inch form is within 0.6 % over ℓ ≥ 0.8r (tests).
 //!
 //! # Lorenz / Nagaoka (exact for a uniform current sheet)
 //!
@@ -40,7 +40,7 @@ use super::MU0_H_PER_M;
 use std::f64::consts::PI;
 
 /// The factor 4π²·0.0254 = 1.00275 between Wheeler's SI form and his
-/// published inch form (REFERENCES.md §3).
+/// published inch form (docs/references.md, Solenoid cases).
 pub const WHEELER_SI_OVER_INCH: f64 = 4.0 * PI * PI * 0.0254;
 
 /// Wheeler 1928, the published inch form: L\[µH\] = r²N²/(9r + 10ℓ), r and ℓ
@@ -98,10 +98,10 @@ mod tests {
 
     const INCH: f64 = 0.0254;
 
-    /// Wheeler worked examples, REFERENCES.md §3: Wheeler values [COMPUTED]
-    /// from the 1928 formula, compared at 1e-9 against their exact
-    /// fractions where there is one and at the printed 4 decimals
-    /// otherwise; Lorenz values [COMPUTED] (printed to 4 decimals in µH).
+    /// Wheeler worked examples, docs/references.md, Solenoid cases: Wheeler
+    /// values (computed) from the 1928 formula, compared at 1e-9 against their
+    /// exact fractions where there is one and at the printed 4 decimals
+    /// otherwise; Lorenz values (computed; printed to 4 decimals in µH).
     #[test]
     fn worked_examples() {
         // r = 1 in, ℓ = 2 in, N = 20: 400/29 = 13.7931 µH; Lorenz 13.8063 µH.
@@ -110,8 +110,8 @@ mod tests {
         assert!((w - 13.7931).abs() < 5e-5);
         assert!((wheeler_h(INCH, 2.0 * INCH, 20.0) * 1e6 - w).abs() < 1e-9 * w);
         assert!((lorenz_h(INCH, 2.0 * INCH, 20.0) * 1e6 - 13.8063).abs() < 5e-5);
-        // d = 0.75 in, ℓ = 1.5 in, 48 turns (ARRL Handbook example [FROM
-        // MEMORY]): 324/18.375 = 17.6327 µH; Lorenz 17.7204 µH.
+        // d = 0.75 in, ℓ = 1.5 in, 48 turns (ARRL Handbook example, from
+        // memory): 324/18.375 = 17.6327 µH; Lorenz 17.7204 µH.
         let w = wheeler_inch_uh(0.375, 1.5, 48.0);
         assert!((w - 324.0 / 18.375).abs() < 1e-9 * w);
         assert!((w - 17.6327).abs() < 5e-5);
@@ -126,8 +126,8 @@ mod tests {
         assert!((lorenz_h(INCH, INCH, 10.0) * 1e6 - 5.2696).abs() < 5e-5);
     }
 
-    /// The SI form is 1.0028 × the published inch form (REFERENCES.md §3,
-    /// §14 item 9); the mm form equals the inch form.
+    /// The SI form is 1.0028 × the published inch form (docs/references.md,
+    /// Solenoid cases, Traps, item 9); the mm form equals the inch form.
     #[test]
     fn wheeler_forms() {
         assert!((WHEELER_SI_OVER_INCH - 1.0028).abs() < 5e-5);
@@ -139,11 +139,42 @@ mod tests {
         }
     }
 
+    /// docs/references.md, Nagaoka coefficient: K_N at seven d/ℓ from 0.1
+    /// to 10, against values computed by `scripts/reference-values.py`
+    /// (mpmath 1.3 at 50 digits, Lorenz's closed form and, independently,
+    /// the double integral of Maxwell's loop formula over the winding; the
+    /// two agree to 1e-20), held to 1e-12 relative; and against the
+    /// four-decimal table (Nagaoka 1909 as reprinted by Grover 1946, Table
+    /// 36; from memory) to half a unit of its last digit.
+    #[test]
+    fn nagaoka_against_independent_values() {
+        let cases = [
+            (0.1, 0.958_807_124_203_722_9, 0.9588),
+            (0.2, 0.920_092_670_827_776_5, 0.9201),
+            (0.5, 0.818_135_751_934_703_1, 0.8181),
+            (1.0, 0.688_422_607_320_376_7, 0.6884),
+            (2.0, 0.525_510_024_251_927_5, 0.5255),
+            (5.0, 0.319_825_467_781_858_4, 0.3198),
+            (10.0, 0.203_323_517_521_913_26, 0.2033),
+        ];
+        for (d_over_l, exact, table) in cases {
+            // Radius 1 mm and 1 m: the coefficient depends on d/ℓ alone.
+            for r in [1e-3, 1.0] {
+                let kn = nagaoka_coefficient(r, 2.0 * r / d_over_l);
+                assert!(
+                    (kn / exact - 1.0).abs() < 1e-12,
+                    "d/ℓ = {d_over_l}, r = {r}: {kn} vs {exact}"
+                );
+                assert!(
+                    (kn - table).abs() <= 5e-5,
+                    "d/ℓ = {d_over_l}: {kn} vs table {table}"
+                );
+            }
+        }
+    }
+
     #[test]
     fn nagaoka_limits() {
-        // d/ℓ = 1: K_N = 0.6884 (Grover 1946, Table 36 [FROM MEMORY]; the
-        // 13.8063 µH example above implies 0.688423 [COMPUTED]).
-        assert!((nagaoka_coefficient(1.0, 2.0) - 0.6884).abs() < 5e-5);
         // Long coil: K_N = 1 − 4d/(3πℓ) + O((d/ℓ)²) (standard asymptote);
         // at ℓ = 500 d the first correction suffices to 1e-6.
         let kn = nagaoka_coefficient(1.0, 1000.0);
@@ -158,7 +189,7 @@ mod tests {
     #[test]
     fn filament_solenoid_near_current_sheet() {
         // r = 12.5 mm, ℓ = 24 mm, 20 turns of 1.0 mm wire at 1.2 mm pitch:
-        // the loop model (with the wire's GMD) is 0.970 × Lorenz [COMPUTED];
+        // the loop model (with the wire's GMD) is 0.970 × Lorenz (computed);
         // the 3 % is Rosa's correction for round, spaced wire, which the
         // current sheet leaves out. Held to 4 %.
         let coil = FilamentCoil::solenoid(12.5e-3, 24e-3, 20, gmd_round_wire_m(1.0e-3)).unwrap();
@@ -170,7 +201,8 @@ mod tests {
 
     proptest! {
         /// Wheeler (inch form) vs Lorenz within 1 % for ℓ ≥ 0.8r
-        /// (REFERENCES.md §3; measured over ℓ/r = 0.8 … 10⁴: −0.59 % … +0.06 %).
+        /// (docs/references.md, Solenoid cases; measured over ℓ/r = 0.8 … 10⁴:
+        /// −0.59 % … +0.06 %).
         #[test]
         fn wheeler_within_one_percent(r in 1e-3f64..0.1, l_over_r in 0.8f64..1000.0, n in 1.0f64..1000.0) {
             let l = r * l_over_r;

@@ -5,14 +5,15 @@
 //! "Simple accurate expressions for planar spiral inductances", *IEEE J.
 //! Solid-State Circuits* 34(10):1419–1424, Oct 1999: Table I (modified
 //! Wheeler), Table II (current sheet), Table III (data-fitted monomial);
-//! coefficients as given in REFERENCES.md §2 [CONFIRMED-2nd].
+//! coefficients as given in docs/references.md, Spiral cases (published,
+//! quoted).
 //!
 //! # Geometry
 //!
 //! n turns of trace width w and spacing s, outer diameter d_out; for the
 //! polygons the diameters are measured across flats, for the circle they
 //! are diameters. The inner diameter follows from the others (geometry,
-//! not part of the paper; REFERENCES.md §2):
+//! not part of the paper; docs/references.md, Spiral cases):
 //!
 //! d_in = d_out − 2·n·w − 2·(n − 1)·s,  d_avg = (d_out + d_in)/2,
 //! fill ratio ρ = (d_out − d_in)/(d_out + d_in).
@@ -26,12 +27,12 @@
 //! | monomial | L\[nH\] = β·d_out^α1·w^α2·d_avg^α3·n^α4·s^α5, lengths in **µm** | square, hexagonal, octagonal |
 //!
 //! Mohan et al. report typical errors of 2–3 % against field solvers and
-//! measurements for their RF-IC layouts [CONFIRMED-2nd, quoted]. They are
+//! measurements for their RF-IC layouts (published, quoted). They are
 //! fitted expressions: near full fill (ρ above about 0.7, or spacing much
 //! wider than the trace) they can even fall when a turn is added, which a
 //! real coil cannot do. The modified-Wheeler circle coefficients that
 //! circulate in code (2.23/3.45, 2.46/2.04) are not Mohan's and are refused
-//! here (REFERENCES.md §14 item 5).
+//! here (docs/references.md, Traps, item 5).
 //!
 //! # The filament model
 //!
@@ -42,9 +43,9 @@
 //! (r_P = N·a·tan(π/N)/(2π); the self-inductance goes with the perimeter)
 //! and the circle with the same area (r_A = (a/2)·√(N·tan(π/N)/π); the far
 //! field and the flux linkage go with the area). This equivalence is our
-//! own choice; on the coils of REFERENCES.md §2 and on the demo coil it
-//! lands within 3 % of the current-sheet expression (the tests hold it to
-//! that), while equal perimeter alone is 5–8 % high and equal area alone
+//! own choice; on the coils of docs/references.md, Spiral cases and on the demo
+//! coil it lands within 3 % of the current-sheet expression (the tests hold it
+//! to that), while equal perimeter alone is 5–8 % high and equal area alone
 //! 6–8 % low for squares. Layers are stacked copies of the turns, connected
 //! in series and aiding.
 
@@ -149,8 +150,8 @@ impl FromStr for Shape {
 }
 
 /// Modified-Wheeler coefficients (K1, K2), Mohan et al. 1999 Table I
-/// (REFERENCES.md §2 [CONFIRMED-2nd]). `None` for the circle: Table I has no
-/// circle row.
+/// (docs/references.md, Spiral cases; published, quoted). `None` for the
+/// circle: Table I has no circle row.
 pub fn modified_wheeler_coefficients(shape: Shape) -> Option<(f64, f64)> {
     match shape {
         Shape::Square => Some((2.34, 2.75)),
@@ -161,7 +162,7 @@ pub fn modified_wheeler_coefficients(shape: Shape) -> Option<(f64, f64)> {
 }
 
 /// Current-sheet coefficients [c1, c2, c3, c4], Mohan et al. 1999 Table II
-/// (REFERENCES.md §2 [CONFIRMED-2nd]).
+/// (docs/references.md, Spiral cases; published, quoted).
 pub fn current_sheet_coefficients(shape: Shape) -> [f64; 4] {
     match shape {
         Shape::Square => [1.27, 2.07, 0.18, 0.13],
@@ -172,8 +173,8 @@ pub fn current_sheet_coefficients(shape: Shape) -> [f64; 4] {
 }
 
 /// Monomial coefficients [β, α1, α2, α3, α4, α5], Mohan et al. 1999 Table
-/// III (REFERENCES.md §2 [CONFIRMED-2nd]); lengths in µm, result in nH.
-/// `None` for the circle.
+/// III (docs/references.md, Spiral cases; published, quoted); lengths in µm,
+/// result in nH. `None` for the circle.
 pub fn monomial_coefficients(shape: Shape) -> Option<[f64; 6]> {
     match shape {
         Shape::Square => Some([1.62e-3, -1.21, -0.147, 2.40, 1.78, -0.030]),
@@ -417,8 +418,9 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    /// REFERENCES.md §2 check cases [COMPUTED]: normalised L/(µ0·n²·d_avg)
-    /// at ρ = 0.5, compared at half a unit of the last printed digit.
+    /// docs/references.md, Spiral cases check cases (computed): normalised
+    /// L/(µ0·n²·d_avg) at ρ = 0.5, compared at half a unit of the last printed
+    /// digit.
     #[test]
     fn normalised_values_at_half_fill() {
         let mw = [
@@ -446,9 +448,9 @@ mod tests {
         }
     }
 
-    /// The concrete coils of REFERENCES.md §2 [COMPUTED]; printed to six
-    /// digits in µH, so compared at 5e-7 µH, and each expression also
-    /// re-evaluated inline in the test at 1e-9 relative.
+    /// The concrete coils of docs/references.md, Spiral cases (computed);
+    /// printed to six digits in µH, so compared at 5e-7 µH, and each expression
+    /// also re-evaluated inline in the test at 1e-9 relative.
     #[test]
     fn concrete_coils() {
         // (shape, n, d_out mm, w = s mm, d_in mm, d_avg mm, ρ, L_mw, L_cs, L_mono µH)
@@ -556,7 +558,8 @@ mod tests {
                         * (w * um).powf(a5)
                         * 1e-9;
                     assert!(((mono - own) / own).abs() < 1e-9);
-                    // The three expressions agree within 10 % (REFERENCES.md §2).
+                    // The three expressions agree within 10 %
+                    // (docs/references.md, Spiral cases).
                     for (x, y) in [(mw, cs), (mw, mono), (cs, mono)] {
                         assert!((x / y - 1.0).abs() < 0.10, "{shape}: {x} vs {y}");
                     }
@@ -576,8 +579,8 @@ mod tests {
     }
 
     /// The filament model (our equivalent circle for polygons) against the
-    /// current-sheet expression on the coils of REFERENCES.md §2 and the
-    /// demo coil: within 3 %.
+    /// current-sheet expression on the coils of docs/references.md, Spiral
+    /// cases and the demo coil: within 3 %.
     #[test]
     fn filament_model_near_current_sheet() {
         let cases = [

@@ -36,7 +36,7 @@
 //!
 //! This is the axisymmetric eddy-current solution of C. V. Dodd and W. E.
 //! Deeds, "Analytical solutions to eddy-current probe-coil problems", *J.
-//! Appl. Phys.* 39(6):2829–2838 (1968) [FROM MEMORY for the paper's form];
+//! Appl. Phys.* 39(6):2829–2838 (1968) (from memory for the paper's form);
 //! R(α) above was re-derived here from the boundary conditions (A and
 //! (1/µ)·∂A/∂z continuous) and the tests pin it to its limits: R = −1 gives
 //! the perfect mirror exactly (checked against Maxwell's formula to 1e-9),
@@ -49,8 +49,8 @@
 //! A rule of thumb falls out for a good conductor (δ ≪ 1/α for the α that
 //! matter, i.e. δ ≪ coil radius and gap): R ≈ −e^(−α·δ·(1 − j)), so the plate
 //! acts as a **perfect mirror δ/2 below its surface**, and the added loss is
-//! ΔR ≈ (ω·δ/2)·|dM_img/dg|. [COMPUTED: first-order expansion of R(α); the
-//! tests check both against the full model.]
+//! ΔR ≈ (ω·δ/2)·|dM_img/dg|. (Computed: first-order expansion of R(α); the
+//! tests check both against the full model.)
 //!
 //! A conductive ferrous plate (steel) does both: at low frequency the
 //! permeability wins and L rises; at high frequency the eddy currents win
@@ -65,12 +65,13 @@ use std::f64::consts::PI;
 
 /// Conductivity of aluminium at 20 °C, 3.5×10⁷ S/m (ρ = 2.82×10⁻⁸ Ω·m;
 /// the resistivity table of the Wikipedia article "Electrical resistivity
-/// and conductivity", citing Serway, *Principles of Physics* [CONFIRMED-2nd]).
-/// Alloys are lower (wrought alloys roughly 40–60 % IACS, 23–35 MS/m [FROM
-/// MEMORY]); give the real σ of the plate when it matters.
+/// and conductivity", citing Serway, *Principles of Physics*; docs/references.md,
+/// Serway; published, quoted). Alloys are lower (wrought alloys roughly 40–60 % IACS, 23–35 MS/m
+/// from memory); give the real σ of the plate when it matters.
 pub const ALUMINIUM_CONDUCTIVITY_S_PER_M: f64 = 3.5e7;
 
-/// Conductivity of IACS annealed copper, 58.0 MS/m (REFERENCES.md §5).
+/// Conductivity of IACS annealed copper, 58.0 MS/m (docs/references.md,
+/// Copper).
 pub const COPPER_CONDUCTIVITY_S_PER_M: f64 = 58.0e6;
 
 /// A flat metal target.
@@ -455,7 +456,8 @@ mod tests {
         // → L∞ as the gap grows.
         assert!(perfect_conductor_change_h(&coil, 1.0).abs() < 1e-6 * l_inf);
         // Far field, one loop: M_img = M(r, r, 2g) → µ0·π·r⁴/(2·(r² + 4g²)^{3/2})
-        // (REFERENCES.md §4, with b = r), i.e. ∝ g⁻³; the error is O((r/2g)²).
+        // (docs/references.md, Coaxial loops, with b = r), i.e. ∝ g⁻³; the
+        // error is O((r/2g)²).
         let r = 5e-3;
         let one = ring(r);
         for g in [0.1, 1.0] {
@@ -588,8 +590,8 @@ mod tests {
         };
         let rf = plate_response(&coil, &foil, gap, f).unwrap();
         assert!(rf.inductance_change_h.abs() < 1e-4 * half.inductance_change_h.abs());
-        // Thin sheet (T = δ/100): R = −jωµ0σT/(2α + jωµ0σT) [COMPUTED: the
-        // T → 0 limit of R(α)].
+        // Thin sheet (T = δ/100): R = −jωµ0σT/(2α + jωµ0σT) (the
+        // T → 0 limit of R(α), derived here).
         let t = Plate::aluminium().skin_depth_m(f) / 100.0;
         let sheet = Plate {
             thickness_m: Some(t),

@@ -6,7 +6,7 @@
 //! the nearest value of an E series by log distance
 //! ([`crate::coil::eseries::nearest`]) and the frequency with the rounded
 //! capacitor is reported. The resonance laws are `lc_core::tank`'s
-//! (undamped f0; DESIGN.md §2), not a second copy.
+//! (undamped f0), not a second copy.
 
 use super::eseries::{nearest, ESeries};
 use super::{positive, CoilError};
@@ -81,8 +81,9 @@ mod tests {
 
     #[test]
     fn demo_tank() {
-        // REFERENCES.md §1 case 1e [COMPUTED]: L = 10 µH, C = 1 nF → f0 =
-        // 1 591 549.43 Hz. Asking for that frequency gives back 1 nF (E12).
+        // docs/references.md, LC tank cases, 1e (computed): L = 10 µH, C = 1 nF
+        // → f0 = 1 591 549.43 Hz. Asking for that frequency gives back 1 nF
+        // (E12).
         let t = tune(10e-6, 0.0, 1_591_549.43, ESeries::E12).unwrap();
         assert!((t.exact_capacitor_f - 1e-9).abs() < 1e-17);
         assert_eq!(t.capacitor_f, 1e-9);

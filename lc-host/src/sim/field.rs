@@ -1,9 +1,9 @@
 //! Field logs of one simulated unit on a machine: a target moving in a
 //! cycle, a machine warming up, counter jitter, and faults on request.
 //!
-//! The demo (DESIGN.md §8): a proximity unit on a press, logged for two
-//! hours while the machine warms up by 20 °C; the ram plate travels from
-//! 8 mm to 0.5 mm and back once per press cycle.
+//! The demo (docs/references.md, Demo scenario): a proximity unit on a press,
+//! logged for two hours while the machine warms up by 20 °C; the ram plate
+//! travels from 8 mm to 0.5 mm and back once per press cycle.
 
 use super::rig::UnitModel;
 use super::Rng;

@@ -1,10 +1,10 @@
 //! Rig logs of a simulated lot of capacitive level probes.
 //!
-//! The demo's second scenario (DESIGN.md §8): a coolant tank, a horizontal
-//! cylinder of 400 mm diameter, with a vertical coaxial probe from the
-//! bottom to the top. The probe sits in parallel with the tank capacitor of
-//! one LC oscillator; a short reference electrode at the bottom, always
-//! submerged in service, has its own oscillator (the companion channel).
+//! The demo's second scenario (docs/references.md, Demo scenario): a coolant
+//! tank, a horizontal cylinder of 400 mm diameter, with a vertical coaxial
+//! probe from the bottom to the top. The probe sits in parallel with the tank
+//! capacitor of one LC oscillator; a short reference electrode at the bottom,
+//! always submerged in service, has its own oscillator (the companion channel).
 //! The liquid is water-based; its permittivity follows Malmberg & Maryott
 //! (1956) for water, so both probes' shifts move with temperature and only
 //! their ratio does not.
@@ -20,8 +20,8 @@ use lc_core::tank::resonant_frequency_with_parasitic_hz;
 use std::io::Write;
 
 /// Relative permittivity of water at t °C: Malmberg & Maryott, J. Res.
-/// NBS 56(1):1–8, 1956 (REFERENCES.md §7 [CONFIRMED-2nd]):
-/// ε = 87.740 − 0.40008·t + 9.398e-4·t² − 1.410e-6·t³, 0–100 °C.
+/// NBS 56(1):1–8, 1956 (docs/references.md, Malmberg & Maryott 1956; published,
+/// quoted): ε = 87.740 − 0.40008·t + 9.398e-4·t² − 1.410e-6·t³, 0–100 °C.
 pub fn water_permittivity(t_c: f64) -> f64 {
     87.740 - 0.40008 * t_c + 9.398e-4 * t_c * t_c - 1.410e-6 * t_c * t_c * t_c
 }
@@ -159,9 +159,9 @@ pub fn write_level_rig_log(
 mod tests {
     use super::*;
 
-    /// Malmberg & Maryott (1956) values (REFERENCES.md §7 [COMPUTED] from
-    /// the confirmed formula): 80.103 at 20 °C, 78.303 at 25 °C (their
-    /// abstract: 78.30), 55.720 at 100 °C.
+    /// Malmberg & Maryott (1956) values (docs/references.md, Water and liquids;
+    /// computed from the published polynomial): 80.103 at 20 °C, 78.303 at 25
+    /// °C (their abstract: 78.30), 55.720 at 100 °C.
     #[test]
     fn water_permittivity_published_values() {
         assert!((water_permittivity(20.0) - 80.103).abs() < 5e-4);

@@ -68,9 +68,9 @@ pub struct LotSpec {
 }
 
 impl LotSpec {
-    /// The demo lot (DESIGN.md §8): 20 mm two-layer PCB spiral about
-    /// 7.25 µH, 100 pF class-1 capacitor, aluminium plate 0.5–8 mm,
-    /// 25 °C and 60 °C, 48 MHz reference, 16 384-cycle gates.
+    /// The demo lot (docs/references.md, Demo scenario): 20 mm two-layer PCB
+    /// spiral about 7.25 µH, 100 pF class-1 capacitor, aluminium plate 0.5–8
+    /// mm, 25 °C and 60 °C, 48 MHz reference, 16 384-cycle gates.
     pub fn demo(lot: &str, units: usize, seed: u64) -> Self {
         Self {
             lot: lot.to_string(),

@@ -106,7 +106,7 @@ mod tests {
     const L: f64 = 7.25e-6;
     const C: f64 = 110e-12;
 
-    /// A lossless tank keeps its energy (U = q²/2C + L·i²/2, DESIGN.md §2):
+    /// A lossless tank keeps its energy (U = q²/2C + L·i²/2):
     /// over 2 000 periods at 200 steps per period the Verlet integrator's
     /// energy stays within its O((ωΔt)²) band and does not drift.
     #[test]
@@ -131,10 +131,10 @@ mod tests {
         assert!((t.energy(&end) - u0).abs() / u0 < band);
     }
 
-    /// A lossy tank's energy decays as e^(−t/(τ/2)), τ = 2L/R (REFERENCES.md
-    /// §1), and its peaks fall by the logarithmic decrement, so the ring
-    /// count between two thresholds is the one lc-core's ring-down model
-    /// predicts for Q = (1/R)·√(L/C).
+    /// A lossy tank's energy decays as e^(−t/(τ/2)), τ = 2L/R
+    /// (docs/references.md, LC tank cases), and its peaks fall by the
+    /// logarithmic decrement, so the ring count between two thresholds is the
+    /// one lc-core's ring-down model predicts for Q = (1/R)·√(L/C).
     #[test]
     fn lossy_tank_decays_like_the_closed_form() {
         let r = 1.2; // Q ≈ 213

@@ -74,8 +74,8 @@ fn bitwise_crc_matches_the_catalogue_check_value() {
 
 /// docs/database.md: the `image_crc` of a well-formed calibration image
 /// (bytes followed by their own CRC, little endian) is always the
-/// CRC-32/ISO-HDLC residue 0x2144DF1C [COMPUTED: zlib.crc32 in Python gives
-/// the same for random bodies].
+/// CRC-32/ISO-HDLC residue 0x2144DF1C (computed: zlib.crc32 in Python gives
+/// the same for random bodies; docs/references.md, CRC check values).
 #[test]
 fn whole_image_crc_of_a_calibration_image_is_the_residue() {
     let mut rng = Rng(3);
@@ -116,7 +116,7 @@ fn image_of(rng: &mut Rng, len: usize) -> (Vec<u8>, u32) {
 
 /// A synthetic attempt of realistic size (about 2 KB of JSON and, when it
 /// passes, a 300-byte image). The payload's content means nothing to the
-/// store; its shape loosely follows the demo scenario (DESIGN §8: steps
+/// store; its shape loosely follows the demo scenario (docs/references.md, Demo scenario: steps
 /// from 0.5 to 8 mm at 25 °C and 60 °C). `params.points` repeats the number
 /// of rig points so a reader can tell that a row was written whole.
 fn synthetic(rng: &mut Rng, serial: &str, lot: &str, pass: bool) -> NewAttempt {
@@ -221,7 +221,7 @@ fn raw_row(conn: &Connection, serial: &str, attempt: u32) -> Vec<rusqlite::types
 
 // ---------------------------------------------------------------- time stamps
 
-/// Anchors computed with GNU `date -u -d @SECONDS +%FT%TZ` [COMPUTED].
+/// Anchors computed with GNU `date -u -d @SECONDS +%FT%TZ` (docs/references.md, Time stamps).
 #[test]
 fn timestamps_match_known_dates() {
     let at = |secs: u64, nanos: u32| rfc3339_utc(UNIX_EPOCH + Duration::new(secs, nanos));
