@@ -48,7 +48,7 @@ fn simulate(dir: &Path, units: usize, extra: &[&str]) -> PathBuf {
 fn a_lot_calibrates_into_images_and_records() {
     let dir = scratch("lot");
     let rig = simulate(&dir, 12, &["--bad-every", "5", "--corrupt-every", "6"]);
-    let run = |json: bool| {
+    let run = |json: bool, extra: &[&str]| {
         let mut c = lc_host();
         c.arg("calibrate")
             .arg(&rig)
@@ -60,15 +60,18 @@ fn a_lot_calibrates_into_images_and_records() {
             .arg("--images")
             .arg(dir.join("img"))
             .arg("--report")
-            .arg(dir.join("rep"));
+            .arg(dir.join("rep"))
+            .args(extra);
         if json {
             c.arg("--json");
         }
         c.output().unwrap()
     };
-    let out = run(true);
-    assert!(
-        out.status.success(),
+    let out = run(true, &[]);
+    // Some units failed acceptance: exit status 1.
+    assert_eq!(
+        out.status.code(),
+        Some(1),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
@@ -120,8 +123,18 @@ fn a_lot_calibrates_into_images_and_records() {
         dir.join("rep/rest-frequency.svg").exists() && dir.join("rep/units/T1-0001.svg").exists()
     );
 
-    // Re-calibrating adds attempts, keeps the first ones.
-    assert!(run(false).status.success());
+    // The same rig log against the same plan again: nothing is judged
+    // again, and the run says so (issue 14, defect 7).
+    let again = run(false, &[]);
+    assert_eq!(again.status.code(), Some(1));
+    assert!(
+        String::from_utf8_lossy(&again.stderr).contains("12 units were already recorded"),
+        "{}",
+        String::from_utf8_lossy(&again.stderr)
+    );
+    assert_eq!(store.attempts(&Filter::default()).unwrap().len(), 12);
+    // Re-calibrating on purpose adds attempts, keeps the first ones.
+    assert_eq!(run(false, &["--reattempt"]).status.code(), Some(1));
     let all = store
         .attempts(&Filter::default().serial("T1-0001"))
         .unwrap();

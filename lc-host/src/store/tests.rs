@@ -158,6 +158,7 @@ fn synthetic(rng: &mut Rng, serial: &str, lot: &str, pass: bool) -> NewAttempt {
         rig_points: Value::Array(rig_points),
         image: pass.then(|| image.clone()),
         image_crc: pass.then_some(image_crc),
+        trace: None,
     }
 }
 
@@ -172,6 +173,7 @@ fn fail(serial: &str, lot: &str, reason: &str) -> NewAttempt {
         rig_points: json!([{"step": 0, "cycles": 16384, "ticks": 138257}]),
         image: None,
         image_crc: None,
+        trace: None,
     }
 }
 
@@ -214,7 +216,7 @@ fn raw_row(conn: &Connection, serial: &str, attempt: u32) -> Vec<rusqlite::types
     conn.query_row(
         "SELECT * FROM attempts WHERE serial = ?1 AND attempt = ?2",
         params![serial, attempt],
-        |r| (0..13).map(|i| r.get(i)).collect(),
+        |r| (0..18).map(|i| r.get(i)).collect(),
     )
     .unwrap()
 }
@@ -292,7 +294,7 @@ fn open_migrates_an_empty_existing_file() {
     std::fs::write(dir.db(), b"").unwrap();
     let mut store = Store::open(dir.db()).unwrap();
     store.record(&fail("A1", "L1", "too far")).unwrap();
-    assert_eq!(user_version(&raw(&dir.db())), 1);
+    assert_eq!(user_version(&raw(&dir.db())), i64::from(SCHEMA_VERSION));
 }
 
 #[test]
