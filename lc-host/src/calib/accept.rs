@@ -137,12 +137,12 @@ fn num(v: f64) -> String {
 impl std::fmt::Display for Finding {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         let u = self.unit.symbol();
-        let q = |v: f64| {
-            if u.is_empty() {
-                num(v)
-            } else {
-                format!("{} {u}", num(v))
-            }
+        let hz = self.unit == PhysicalUnit::Hertz;
+        let q = |v: f64| match v.abs() {
+            a if hz && a >= 1e6 => format!("{} MHz", num(v / 1e6)),
+            a if hz && a >= 1e3 => format!("{} kHz", num(v / 1e3)),
+            _ if u.is_empty() => num(v),
+            _ => format!("{} {u}", num(v)),
         };
         let name = match self.limit {
             Limit::BadRows => "bad rig rows",
