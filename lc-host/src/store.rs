@@ -57,11 +57,13 @@ use serde::Serialize;
 use serde_json::Value;
 use sha2::Digest;
 
+mod pg;
 mod schema;
 #[cfg(test)]
 mod tests;
 mod timestamp;
 
+pub use pg::is_url as is_postgres_url;
 pub use schema::SCHEMA_VERSION;
 
 /// How long a call waits for another process's write lock before it gives
@@ -378,8 +380,8 @@ pub enum StoreError {
         from: u32,
         /// Version the migration was to produce.
         to: u32,
-        /// SQLite's error.
-        source: rusqlite::Error,
+        /// The database's error.
+        source: Box<dyn std::error::Error + Send + Sync>,
     },
     /// Write-ahead logging could not be switched on.
     #[error("database {path}: cannot switch on write-ahead logging (journal mode is {mode:?}): keep the database on a local disk, not on a network share")]
@@ -427,6 +429,16 @@ pub enum StoreError {
         /// Schema version this build reads.
         known: u32,
     },
+    /// A PostgreSQL failure (connection, statement).
+    #[error("database {path}: {action} failed: {source}; check that the server runs, that the URL (user, password, host, database) is right, and that the user may create tables in the database")]
+    Postgres {
+        /// Database URL, without its password.
+        path: PathBuf,
+        /// What the store was doing.
+        action: &'static str,
+        /// The client's error.
+        source: postgres::Error,
+    },
     /// Any other SQLite failure.
     #[error("database {path}: {action} failed: {source}")]
     Sqlite {
@@ -462,8 +474,23 @@ impl StoreError {
 /// block, and writers take turns, each waiting up to [`BUSY_TIMEOUT`].
 #[derive(Debug)]
 pub struct Store {
-    conn: Connection,
+    conn: Conn,
     path: PathBuf,
+}
+
+/// The connection of one back end.
+enum Conn {
+    Sqlite(Connection),
+    Postgres(std::cell::RefCell<Box<postgres::Client>>),
+}
+
+impl std::fmt::Debug for Conn {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Conn::Sqlite(_) => "Sqlite",
+            Conn::Postgres(_) => "Postgres",
+        })
+    }
 }
 
 const INSERT_LOT: &str =
@@ -484,6 +511,9 @@ const RECORD_COLUMNS: &str = "id, serial, lot, attempt, calibrated_at, result, r
 const SUMMARY_COLUMNS: &str =
     "id, serial, lot, attempt, calibrated_at, result, reasons, length(image), image_crc, tool_version, \
      plan_sha256, rig_file, rig_sha256, station, operator";
+const SUMMARY_COLUMNS_PG: &str =
+    "id, serial, lot, attempt, calibrated_at, result, reasons, octet_length(image)::BIGINT, image_crc, \
+     tool_version, plan_sha256, rig_file, rig_sha256, station, operator";
 /// Selects one attempt of a serial: the given number, or the latest (NULL).
 const WHERE_ONE: &str = "WHERE serial = ?1 AND attempt = COALESCE(?2, \
      (SELECT MAX(attempt) FROM attempts WHERE serial = ?1))";
@@ -493,13 +523,15 @@ WITH units AS (
     FROM attempts GROUP BY lot, serial
 ), outcomes AS (
     SELECT u.lot, u.n,
-           (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.last) = 'pass' AS passed,
-           (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.first) = 'pass' AS first_pass
+           CASE WHEN (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.last) = 'pass'
+                THEN 1 ELSE 0 END AS passed,
+           CASE WHEN (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.first) = 'pass'
+                THEN 1 ELSE 0 END AS first_pass
     FROM units u
 )
-SELECT l.lot, l.created_at, count(o.lot), COALESCE(SUM(o.passed), 0),
-       COALESCE(SUM(o.first_pass), 0), COALESCE(SUM(o.n), 0),
-       CASE WHEN count(o.lot) > 0 THEN CAST(SUM(o.passed) AS REAL) / count(o.lot) END
+SELECT l.lot, l.created_at, CAST(count(o.lot) AS BIGINT), CAST(COALESCE(SUM(o.passed), 0) AS BIGINT),
+       CAST(COALESCE(SUM(o.first_pass), 0) AS BIGINT), CAST(COALESCE(SUM(o.n), 0) AS BIGINT),
+       CASE WHEN count(o.lot) > 0 THEN CAST(SUM(o.passed) AS DOUBLE PRECISION) / count(o.lot) END
 FROM lots l LEFT JOIN outcomes o ON o.lot = l.lot
 GROUP BY l.lot
 ORDER BY l.created_at, l.lot";
@@ -516,6 +548,14 @@ impl Store {
     /// by a newer lc-host, [`StoreError::NoWal`], [`StoreError::Migration`]
     /// and [`StoreError::Busy`].
     pub fn open(path: impl AsRef<Path>) -> Result<Store, StoreError> {
+        if let Some(url) = path.as_ref().to_str().filter(|p| pg::is_url(p)) {
+            let shown = PathBuf::from(pg::redacted(url));
+            let client = pg::open(url, &shown, false)?;
+            return Ok(Store {
+                conn: Conn::Postgres(std::cell::RefCell::new(Box::new(client))),
+                path: shown,
+            });
+        }
         let path = path.as_ref().to_path_buf();
         // No URI interpretation: a path is a path.
         let flags = OpenFlags::SQLITE_OPEN_READ_WRITE
@@ -545,7 +585,10 @@ impl Store {
         conn.pragma_update(None, "foreign_keys", true)
             .map_err(err("switching on foreign keys"))?;
         schema::migrate(&mut conn, &path, schema::MIGRATIONS)?;
-        Ok(Store { conn, path })
+        Ok(Store {
+            conn: Conn::Sqlite(conn),
+            path,
+        })
     }
 
     /// Opens an existing database for reading only: no journal-mode
@@ -562,6 +605,14 @@ impl Store {
     /// [`StoreError::NewerSchema`], and [`StoreError::ReadOnlyOldSchema`] for
     /// a database of an older schema (it needs a writable open to migrate).
     pub fn open_read_only(path: impl AsRef<Path>) -> Result<Store, StoreError> {
+        if let Some(url) = path.as_ref().to_str().filter(|p| pg::is_url(p)) {
+            let shown = PathBuf::from(pg::redacted(url));
+            let client = pg::open(url, &shown, true)?;
+            return Ok(Store {
+                conn: Conn::Postgres(std::cell::RefCell::new(Box::new(client))),
+                path: shown,
+            });
+        }
         let path = path.as_ref().to_path_buf();
         let plain = OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX;
         let open_err = |source| StoreError::Open {
@@ -610,16 +661,30 @@ impl Store {
         if found < i64::from(known) {
             return Err(StoreError::ReadOnlyOldSchema { path, found, known });
         }
-        Ok(Store { conn, path })
+        Ok(Store {
+            conn: Conn::Sqlite(conn),
+            path,
+        })
     }
 
-    /// The database file this store was opened on.
+    /// The database file this store was opened on (for PostgreSQL, its
+    /// URL without the password).
     pub fn path(&self) -> &Path {
         &self.path
     }
 
-    fn err(&self, action: &'static str) -> impl Fn(rusqlite::Error) -> StoreError + '_ {
-        move |e| StoreError::from_sqlite(&self.path, action, e)
+    /// Whether this store is on a PostgreSQL server.
+    pub fn is_postgres(&self) -> bool {
+        matches!(self.conn, Conn::Postgres(_))
+    }
+
+    /// The SQLite connection (tests of SQLite's own settings).
+    #[cfg(test)]
+    fn sqlite(&self) -> &Connection {
+        match &self.conn {
+            Conn::Sqlite(c) => c,
+            Conn::Postgres(_) => panic!("not an SQLite store"),
+        }
     }
 
     fn invalid(&self, a: &NewAttempt, problem: impl Into<String>) -> StoreError {
@@ -751,9 +816,16 @@ impl Store {
         let checked: Vec<Result<[String; 4], StoreError>> =
             batch.iter().map(|a| self.check(a)).collect();
         let path = &self.path;
+        let conn = match &mut self.conn {
+            Conn::Sqlite(c) => c,
+            Conn::Postgres(c) => {
+                return pg::record_batch(c.get_mut(), path, batch, checked, || {
+                    timestamp::rfc3339_utc(SystemTime::now())
+                })
+            }
+        };
         let err = |action| move |e| StoreError::from_sqlite(path, action, e);
-        let tx = self
-            .conn
+        let tx = conn
             .transaction_with_behavior(TransactionBehavior::Immediate)
             .map_err(err("locking the database"))?;
         // Under the write lock, so time stamps follow the attempt order.
@@ -842,23 +914,34 @@ impl Store {
     /// [`StoreError::Busy`] and SQLite failures.
     pub fn register_plan(&mut self, text: &str) -> Result<String, StoreError> {
         let sha = sha256_hex(text.as_bytes());
-        self.conn
-            .prepare_cached(INSERT_PLAN)
-            .and_then(|mut s| s.execute(params![sha, text]))
-            .map_err(self.err("keeping the plan"))?;
+        match &mut self.conn {
+            Conn::Sqlite(c) => {
+                c.prepare_cached(INSERT_PLAN)
+                    .and_then(|mut s| s.execute(params![sha, text]))
+                    .map_err(|e| StoreError::from_sqlite(&self.path, "keeping the plan", e))?;
+            }
+            Conn::Postgres(c) => pg::register_plan(c.get_mut(), &self.path, &sha, text)?,
+        }
         Ok(sha)
+    }
+
+    fn sqlite_err(&self, action: &'static str) -> impl Fn(rusqlite::Error) -> StoreError + '_ {
+        move |e| StoreError::from_sqlite(&self.path, action, e)
     }
 
     /// The full text of a registered plan, `None` when no plan has that
     /// hash.
     ///
     /// # Errors
-    /// SQLite failures.
+    /// Database failures.
     pub fn plan_text(&self, sha256: &str) -> Result<Option<String>, StoreError> {
-        self.conn
-            .prepare_cached("SELECT text FROM plans WHERE sha256 = ?1")
-            .and_then(|mut s| s.query_row([sha256], |r| r.get(0)).optional())
-            .map_err(self.err("reading a plan"))
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached("SELECT text FROM plans WHERE sha256 = ?1")
+                .and_then(|mut s| s.query_row([sha256], |r| r.get(0)).optional())
+                .map_err(self.sqlite_err("reading a plan")),
+            Conn::Postgres(c) => pg::plan_text(&mut c.borrow_mut(), &self.path, sha256),
+        }
     }
 
     /// The serials that already have an attempt from the rig log with hash
@@ -866,24 +949,29 @@ impl Store {
     /// with its latest such attempt number: a station re-run skips them.
     ///
     /// # Errors
-    /// SQLite failures.
+    /// Database failures.
     pub fn recorded_from(
         &self,
         rig_sha256: &str,
         plan_sha256: &str,
     ) -> Result<HashMap<String, u32>, StoreError> {
-        let mut stmt = self
-            .conn
+        let c = match &self.conn {
+            Conn::Sqlite(c) => c,
+            Conn::Postgres(c) => {
+                return pg::recorded_from(&mut c.borrow_mut(), &self.path, rig_sha256, plan_sha256)
+            }
+        };
+        let mut stmt = c
             .prepare_cached(RECORDED_FROM)
-            .map_err(self.err("finding recorded units"))?;
+            .map_err(self.sqlite_err("finding recorded units"))?;
         let rows = stmt
             .query_map([rig_sha256, plan_sha256], |r| {
                 Ok((r.get::<_, String>(0)?, r.get::<_, i64>(1)?))
             })
-            .map_err(self.err("finding recorded units"))?;
+            .map_err(self.sqlite_err("finding recorded units"))?;
         let mut out = HashMap::new();
         for row in rows {
-            let (serial, n) = row.map_err(self.err("finding recorded units"))?;
+            let (serial, n) = row.map_err(self.sqlite_err("finding recorded units"))?;
             out.insert(serial, u32::try_from(n).unwrap_or(0));
         }
         Ok(out)
@@ -893,10 +981,14 @@ impl Store {
     /// JSON payloads and images (see [`Store::attempt`] for those).
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] for a row that does not
-    /// decode.
+    /// Database failures, and [`StoreError::Corrupt`] for a row that does
+    /// not decode.
     pub fn attempts(&self, filter: &Filter) -> Result<Vec<AttemptSummary>, StoreError> {
-        let mut sql = format!("SELECT {SUMMARY_COLUMNS} FROM attempts WHERE 1");
+        let columns = match self.conn {
+            Conn::Sqlite(_) => SUMMARY_COLUMNS,
+            Conn::Postgres(_) => SUMMARY_COLUMNS_PG,
+        };
+        let mut sql = format!("SELECT {columns} FROM attempts WHERE TRUE");
         let mut args: Vec<&str> = Vec::new();
         // Only fixed SQL fragments are appended; values go in `args`.
         if let Some(lot) = &filter.lot {
@@ -920,19 +1012,39 @@ impl Store {
             Order::NewestFirst => " ORDER BY id DESC",
             Order::BySerial => " ORDER BY serial, attempt",
         });
-        let mut stmt = self
-            .conn
-            .prepare_cached(&sql)
-            .map_err(self.err("listing attempts"))?;
-        let rows = stmt
-            .query_map(rusqlite::params_from_iter(args), RawSummary::from_row)
-            .map_err(self.err("listing attempts"))?;
         let mut out = Vec::new();
-        for raw in rows {
-            out.push(
-                raw.map_err(self.err("reading an attempt"))?
-                    .decode(&self.path)?,
-            );
+        match &self.conn {
+            Conn::Sqlite(c) => {
+                let mut stmt = c
+                    .prepare_cached(&sql)
+                    .map_err(self.sqlite_err("listing attempts"))?;
+                let rows = stmt
+                    .query_map(rusqlite::params_from_iter(args), RawSummary::from_row)
+                    .map_err(self.sqlite_err("listing attempts"))?;
+                for raw in rows {
+                    out.push(
+                        raw.map_err(self.sqlite_err("reading an attempt"))?
+                            .decode(&self.path)?,
+                    );
+                }
+            }
+            Conn::Postgres(c) => {
+                let params: Vec<&(dyn postgres::types::ToSql + Sync)> = args
+                    .iter()
+                    .map(|a| a as &(dyn postgres::types::ToSql + Sync))
+                    .collect();
+                let rows = c
+                    .borrow_mut()
+                    .query(&pg::dollars(&sql), &params)
+                    .map_err(pg::err(&self.path, "listing attempts"))?;
+                for r in &rows {
+                    out.push(
+                        pg::summary(r)
+                            .map_err(pg::err(&self.path, "reading an attempt"))?
+                            .decode(&self.path)?,
+                    );
+                }
+            }
         }
         Ok(out)
     }
@@ -941,22 +1053,32 @@ impl Store {
     /// when `attempt` is `None`. `Ok(None)` when there is no such attempt.
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] for a row that does not
-    /// decode or whose image does not match its CRC.
+    /// Database failures, and [`StoreError::Corrupt`] for a row that does
+    /// not decode or whose image does not match its CRC.
     pub fn attempt(
         &self,
         serial: &str,
         attempt: Option<u32>,
     ) -> Result<Option<AttemptRecord>, StoreError> {
         let sql = format!("SELECT {RECORD_COLUMNS} FROM attempts {WHERE_ONE}");
-        let raw = self
-            .conn
-            .prepare_cached(&sql)
-            .and_then(|mut s| {
-                s.query_row(params![serial, attempt], RawRecord::from_row)
-                    .optional()
-            })
-            .map_err(self.err("reading an attempt"))?;
+        let raw = match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached(&sql)
+                .and_then(|mut s| {
+                    s.query_row(params![serial, attempt], RawRecord::from_row)
+                        .optional()
+                })
+                .map_err(self.sqlite_err("reading an attempt"))?,
+            Conn::Postgres(c) => {
+                let n = attempt.map(|n| i32::try_from(n).unwrap_or(i32::MAX));
+                c.borrow_mut()
+                    .query_opt(&pg::dollars(&sql), &[&serial, &n])
+                    .map_err(pg::err(&self.path, "reading an attempt"))?
+                    .map(|r| pg::record(&r))
+                    .transpose()
+                    .map_err(pg::err(&self.path, "reading an attempt"))?
+            }
+        };
         raw.map(|r| r.decode(&self.path)).transpose()
     }
 
@@ -967,20 +1089,30 @@ impl Store {
     /// re-calibration has none, even if an earlier one passed).
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] when the image does not
-    /// match its CRC.
+    /// Database failures, and [`StoreError::Corrupt`] when the image does
+    /// not match its CRC.
     pub fn image(&self, serial: &str, attempt: Option<u32>) -> Result<Option<Vec<u8>>, StoreError> {
         let sql = format!("SELECT id, image, image_crc FROM attempts {WHERE_ONE}");
-        let row: Option<(i64, Option<Vec<u8>>, Option<i64>)> = self
-            .conn
-            .prepare_cached(&sql)
-            .and_then(|mut s| {
-                s.query_row(params![serial, attempt], |r| {
-                    Ok((r.get(0)?, r.get(1)?, r.get(2)?))
+        let row: Option<(i64, Option<Vec<u8>>, Option<i64>)> = match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached(&sql)
+                .and_then(|mut s| {
+                    s.query_row(params![serial, attempt], |r| {
+                        Ok((r.get(0)?, r.get(1)?, r.get(2)?))
+                    })
+                    .optional()
                 })
-                .optional()
-            })
-            .map_err(self.err("reading an image"))?;
+                .map_err(self.sqlite_err("reading an image"))?,
+            Conn::Postgres(c) => {
+                let n = attempt.map(|n| i32::try_from(n).unwrap_or(i32::MAX));
+                c.borrow_mut()
+                    .query_opt(&pg::dollars(&sql), &[&serial, &n])
+                    .map_err(pg::err(&self.path, "reading an image"))?
+                    .map(|r| Ok((r.try_get(0)?, r.try_get(1)?, r.try_get(2)?)))
+                    .transpose()
+                    .map_err(pg::err(&self.path, "reading an image"))?
+            }
+        };
         let Some((id, image, crc)) = row else {
             return Ok(None);
         };
@@ -993,41 +1125,61 @@ impl Store {
     /// name).
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] for counts that do not
-    /// decode.
+    /// Database failures, and [`StoreError::Corrupt`] for counts that do
+    /// not decode.
     pub fn lots(&self) -> Result<Vec<LotSummary>, StoreError> {
-        let mut stmt = self
-            .conn
-            .prepare_cached(LOTS)
-            .map_err(self.err("counting lots"))?;
-        let rows = stmt
-            .query_map([], |r| {
-                Ok((
-                    r.get::<_, String>(0)?,
-                    r.get::<_, String>(1)?,
-                    [r.get::<_, i64>(2)?, r.get(3)?, r.get(4)?, r.get(5)?],
-                    r.get::<_, Option<f64>>(6)?,
-                ))
+        type Raw = (String, String, [i64; 4], Option<f64>);
+        let raw: Vec<Raw> = match &self.conn {
+            Conn::Sqlite(c) => {
+                let mut stmt = c
+                    .prepare_cached(LOTS)
+                    .map_err(self.sqlite_err("counting lots"))?;
+                let rows = stmt
+                    .query_map([], |r| {
+                        Ok((
+                            r.get::<_, String>(0)?,
+                            r.get::<_, String>(1)?,
+                            [r.get::<_, i64>(2)?, r.get(3)?, r.get(4)?, r.get(5)?],
+                            r.get::<_, Option<f64>>(6)?,
+                        ))
+                    })
+                    .map_err(self.sqlite_err("counting lots"))?;
+                rows.collect::<Result<_, _>>()
+                    .map_err(self.sqlite_err("counting lots"))?
+            }
+            Conn::Postgres(c) => c
+                .borrow_mut()
+                .query(LOTS, &[])
+                .map_err(pg::err(&self.path, "counting lots"))?
+                .iter()
+                .map(|r| {
+                    Ok((
+                        r.try_get(0)?,
+                        r.try_get(1)?,
+                        [r.try_get(2)?, r.try_get(3)?, r.try_get(4)?, r.try_get(5)?],
+                        r.try_get(6)?,
+                    ))
+                })
+                .collect::<Result<_, postgres::Error>>()
+                .map_err(pg::err(&self.path, "counting lots"))?,
+        };
+        Ok(raw
+            .into_iter()
+            .map(|(lot, created_at, counts, yield_fraction)| {
+                let [units, passed, first_pass, attempts] =
+                    counts.map(|n| u64::try_from(n).unwrap_or(0));
+                LotSummary {
+                    lot,
+                    created_at,
+                    units,
+                    passed,
+                    failed: units.saturating_sub(passed),
+                    first_pass,
+                    attempts,
+                    yield_fraction,
+                }
             })
-            .map_err(self.err("counting lots"))?;
-        let mut out = Vec::new();
-        for row in rows {
-            let (lot, created_at, counts, yield_fraction) =
-                row.map_err(self.err("counting lots"))?;
-            let [units, passed, first_pass, attempts] =
-                counts.map(|n| u64::try_from(n).unwrap_or(0));
-            out.push(LotSummary {
-                lot,
-                created_at,
-                units,
-                passed,
-                failed: units.saturating_sub(passed),
-                first_pass,
-                attempts,
-                yield_fraction,
-            });
-        }
-        Ok(out)
+            .collect())
     }
 }
 

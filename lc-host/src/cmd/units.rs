@@ -72,7 +72,7 @@ enum Action {
 }
 
 pub fn run(a: Args) -> Result<()> {
-    if !a.db.exists() {
+    if !a.db.to_str().is_some_and(lc_host::store::is_postgres_url) && !a.db.exists() {
         bail!(
             "{}: no unit-record database here; give --db, or run lc-host calibrate first",
             a.db.display()

@@ -146,11 +146,11 @@ pub(crate) fn migrate(
             }
         }
         let to = u32::try_from(from + 1).unwrap_or(u32::MAX);
-        let failed = |source| StoreError::Migration {
+        let failed = |source: rusqlite::Error| StoreError::Migration {
             path: path.to_path_buf(),
             from: to - 1,
             to,
-            source,
+            source: Box::new(source),
         };
         tx.execute_batch(sql).map_err(failed)?;
         tx.pragma_update(None, "user_version", i64::from(to))
