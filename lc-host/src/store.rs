@@ -185,6 +185,17 @@ fn is_sha256_hex(s: &str) -> bool {
     s.len() == 64 && s.bytes().all(|b| matches!(b, b'0'..=b'9' | b'a'..=b'f'))
 }
 
+/// Where one attempt of a group landed ([`Store::record_batch`]).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Recorded {
+    /// Row id.
+    pub id: i64,
+    /// Attempt number of the serial.
+    pub attempt: u32,
+    /// When it was recorded (RFC 3339 UTC, milliseconds).
+    pub calibrated_at: String,
+}
+
 /// One stored attempt, complete.
 #[derive(Clone, Debug, PartialEq)]
 pub struct AttemptRecord {
@@ -789,8 +800,25 @@ impl Store {
     /// variants for SQLite failures; after any error nothing was written.
     pub fn record(&mut self, a: &NewAttempt) -> Result<AttemptRecord, StoreError> {
         let mut out = self.record_batch(std::slice::from_ref(a))?;
-        out.pop()
-            .unwrap_or_else(|| Err(self.invalid(a, "no result for the attempt (a bug: report it)")))
+        let r = out.pop().unwrap_or_else(|| {
+            Err(self.invalid(a, "no result for the attempt (a bug: report it)"))
+        })?;
+        Ok(AttemptRecord {
+            id: r.id,
+            serial: a.serial.clone(),
+            lot: a.lot.clone(),
+            attempt: r.attempt,
+            calibrated_at: r.calibrated_at,
+            result: a.result,
+            reasons: a.reasons.clone(),
+            params: a.params.clone(),
+            residuals: a.residuals.clone(),
+            rig_points: a.rig_points.clone(),
+            image: a.image.clone(),
+            image_crc: a.image_crc,
+            tool_version: TOOL_VERSION.to_owned(),
+            trace: a.trace.clone(),
+        })
     }
 
     /// Records a group of attempts in one transaction (a group commit): all
@@ -800,7 +828,7 @@ impl Store {
     /// [`StoreError::InvalidAttempt`], while the others are recorded. The
     /// returned list has one entry per attempt, in order. A serial may
     /// appear more than once in a group: its attempts are numbered in
-    /// order.
+    /// order. Each entry says where the attempt landed ([`Recorded`]).
     ///
     /// One commit per group instead of per unit is what makes a station
     /// fast; a process killed mid-group loses exactly the group's attempts,
@@ -812,7 +840,7 @@ impl Store {
     pub fn record_batch(
         &mut self,
         batch: &[NewAttempt],
-    ) -> Result<Vec<Result<AttemptRecord, StoreError>>, StoreError> {
+    ) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
         let checked: Vec<Result<[String; 4], StoreError>> =
             batch.iter().map(|a| self.check(a)).collect();
         let path = &self.path;
@@ -884,25 +912,47 @@ impl Store {
                     ])
                 })
                 .map_err(err("inserting the attempt"))?;
-            out.push(Ok(AttemptRecord {
+            out.push(Ok(Recorded {
                 id: tx.last_insert_rowid(),
-                serial: a.serial.clone(),
-                lot: a.lot.clone(),
                 attempt,
                 calibrated_at: calibrated_at.clone(),
-                result: a.result,
-                reasons: a.reasons.clone(),
-                params: a.params.clone(),
-                residuals: a.residuals.clone(),
-                rig_points: a.rig_points.clone(),
-                image: a.image.clone(),
-                image_crc: a.image_crc,
-                tool_version: TOOL_VERSION.to_owned(),
-                trace: a.trace.clone(),
             }));
         }
         tx.commit().map_err(err("committing the attempts"))?;
         Ok(out)
+    }
+
+    /// Runs `f` while holding the database's write lock, so that no other
+    /// writer commits meanwhile: the station brings image files to the
+    /// latest records under it, and since every writer does so after each
+    /// commit, the last one to do it for a unit sees that unit's latest
+    /// record (stations sharing one images folder end equal to the latest
+    /// verdicts). SQLite: an immediate transaction, rolled back; PostgreSQL:
+    /// the writers' advisory lock, held for the session and released.
+    ///
+    /// # Errors
+    /// [`StoreError::Busy`] and database failures taking the lock.
+    pub fn exclusive<T>(&mut self, f: impl FnOnce(&Store) -> T) -> Result<T, StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => {
+                c.execute_batch("BEGIN IMMEDIATE")
+                    .map_err(self.sqlite_err("locking the database"))?;
+                let out = f(self);
+                c.execute_batch("ROLLBACK")
+                    .map_err(self.sqlite_err("releasing the lock"))?;
+                Ok(out)
+            }
+            Conn::Postgres(c) => {
+                c.borrow_mut()
+                    .execute("SELECT pg_advisory_lock($1)", &[&pg::WRITE_LOCK])
+                    .map_err(pg::err(&self.path, "locking the database"))?;
+                let out = f(self);
+                c.borrow_mut()
+                    .execute("SELECT pg_advisory_unlock($1)", &[&pg::WRITE_LOCK])
+                    .map_err(pg::err(&self.path, "releasing the lock"))?;
+                Ok(out)
+            }
+        }
     }
 
     /// Keeps a plan's full text (once per distinct text) and returns its

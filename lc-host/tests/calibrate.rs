@@ -354,3 +354,42 @@ fn a_killed_lot_resumes_to_a_clean_runs_state() {
     assert!(landed > 0, "no kill landed during the run");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// The kill test on PostgreSQL: `LC_PG_KILLS` kills (default 5; 20 in
+/// `scripts/kill-test.sh`).
+#[test]
+fn a_killed_lot_on_postgresql_resumes_to_a_clean_runs_state() {
+    let admin = match std::env::var("LC_TEST_POSTGRES_URL") {
+        Ok(u) if !u.is_empty() => u,
+        _ if std::env::var("CI").is_ok_and(|v| v == "true") => {
+            panic!("LC_TEST_POSTGRES_URL is not set (CI=true): start scripts/pg-test-server.sh")
+        }
+        _ => {
+            eprintln!("SKIPPED on PostgreSQL: LC_TEST_POSTGRES_URL is not set");
+            return;
+        }
+    };
+    let kills = std::env::var("LC_PG_KILLS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(5);
+    let units = std::env::var("LC_KILL_UNITS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(200);
+    let mut c = postgres::Client::connect(&admin, postgres::NoTls).unwrap();
+    let tag = std::process::id();
+    let sep = if admin.contains('?') { '&' } else { '?' };
+    let url = |schema: &str| format!("{admin}{sep}options=-csearch_path%3D{schema}");
+    let (a, b) = (format!("lc_kill_{tag}"), format!("lc_kill_clean_{tag}"));
+    c.batch_execute(&format!(
+        "DROP SCHEMA IF EXISTS {a} CASCADE; CREATE SCHEMA {a}; DROP SCHEMA IF EXISTS {b} CASCADE; CREATE SCHEMA {b}"
+    ))
+    .unwrap();
+    let dir = scratch("kill-pg");
+    let landed = kill_and_resume(&url(&a), &url(&b), &dir, units, kills, 77);
+    c.batch_execute(&format!("DROP SCHEMA {a} CASCADE; DROP SCHEMA {b} CASCADE"))
+        .unwrap();
+    assert!(landed > 0, "no kill landed during the run");
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -216,7 +216,7 @@ fn an_unwritable_image_fails_its_unit() {
     let stdout = String::from_utf8_lossy(&out.stdout);
     assert!(stdout.contains("2 passed, 1 failed"), "{}", text(&out));
     assert!(
-        stdout.contains("T1-0002: image file not written"),
+        stdout.contains("T1-0002: image file ") && stdout.contains("T1-0002.lcim not written"),
         "{}",
         text(&out)
     );
@@ -237,7 +237,7 @@ fn an_unwritable_image_fails_its_unit() {
     assert!(
         unit["reasons"]
             .to_string()
-            .contains("image file not written"),
+            .contains("T1-0002.lcim not written"),
         "{unit}"
     );
     // Once the folder is fixed, a re-run writes the image without judging
@@ -422,4 +422,121 @@ fn a_read_only_database_lists_and_exports() {
         .map(|e| e.unwrap().file_name())
         .collect();
     assert_eq!(names, ["u.db"]);
+}
+
+/// A fresh schema on the test PostgreSQL server (`LC_TEST_POSTGRES_URL`),
+/// dropped on drop; `None` (a loud skip) on a developer machine without a
+/// server, a failure under CI=true.
+pub struct PgSchema {
+    admin: String,
+    schema: String,
+    /// URL whose search path is the schema.
+    pub url: String,
+}
+
+impl PgSchema {
+    pub fn new(tag: &str) -> Option<PgSchema> {
+        let admin = match std::env::var("LC_TEST_POSTGRES_URL") {
+            Ok(u) if !u.is_empty() => u,
+            _ if std::env::var("CI").is_ok_and(|v| v == "true") => {
+                panic!("LC_TEST_POSTGRES_URL is not set (CI=true): start scripts/pg-test-server.sh")
+            }
+            _ => {
+                eprintln!("SKIPPED on PostgreSQL: LC_TEST_POSTGRES_URL is not set");
+                return None;
+            }
+        };
+        let schema = format!("lc_it_{tag}_{}", std::process::id());
+        let mut c = postgres::Client::connect(&admin, postgres::NoTls).unwrap();
+        c.batch_execute(&format!(
+            "DROP SCHEMA IF EXISTS {schema} CASCADE; CREATE SCHEMA {schema}"
+        ))
+        .unwrap();
+        let sep = if admin.contains('?') { '&' } else { '?' };
+        let url = format!("{admin}{sep}options=-csearch_path%3D{schema}");
+        Some(PgSchema { admin, schema, url })
+    }
+}
+
+impl Drop for PgSchema {
+    fn drop(&mut self) {
+        if let Ok(mut c) = postgres::Client::connect(&self.admin, postgres::NoTls) {
+            let _ = c.batch_execute(&format!("DROP SCHEMA {} CASCADE", self.schema));
+        }
+    }
+}
+
+/// Eight station processes calibrate one lot into one PostgreSQL database
+/// and one images folder at the same time, every unit judged by every
+/// station (`--reattempt`): no attempt lost or duplicated, each unit's
+/// attempts numbered 1 … 8 without gaps, and the images folder equal to the
+/// latest verdicts.
+#[test]
+fn eight_stations_write_one_lot_into_postgresql() {
+    let Some(pg) = PgSchema::new("eight") else {
+        return;
+    };
+    let dir = Scratch::new("eight");
+    let units = 60;
+    let rig = simulate(&dir, units, &["--bad-every", "4"]);
+    let plan = dir.path("plan.toml");
+    std::fs::write(&plan, demo_plan()).unwrap();
+    // Create the schema once, so the stations race on the lot, not on it.
+    drop(Store::open(&pg.url).unwrap());
+    let stations: Vec<_> = (0..8)
+        .map(|i| {
+            lc_host()
+                .arg("calibrate")
+                .arg(&rig)
+                .arg("--plan")
+                .arg(&plan)
+                .args(["--lot", "T1", "--db", &pg.url, "--images"])
+                .arg(dir.path("img"))
+                .args([
+                    "--reattempt",
+                    "--group-units",
+                    "7",
+                    "--station",
+                    &format!("S{i}"),
+                ])
+                .stdout(std::process::Stdio::null())
+                .stderr(std::process::Stdio::piped())
+                .spawn()
+                .unwrap()
+        })
+        .collect();
+    for s in stations {
+        let out = s.wait_with_output().unwrap();
+        assert_eq!(
+            out.status.code(),
+            Some(1),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    }
+    let store = Store::open(&pg.url).unwrap();
+    let all = store
+        .attempts(&Filter::default().order(lc_host::store::Order::BySerial))
+        .unwrap();
+    assert_eq!(all.len(), 8 * units, "attempts lost or duplicated");
+    let mut per_serial: std::collections::BTreeMap<&str, Vec<u32>> = Default::default();
+    let mut stations: std::collections::BTreeMap<&str, BTreeSet<String>> = Default::default();
+    for a in &all {
+        per_serial.entry(&a.serial).or_default().push(a.attempt);
+        stations
+            .entry(&a.serial)
+            .or_default()
+            .insert(a.trace.as_ref().unwrap().station.clone());
+    }
+    assert_eq!(per_serial.len(), units);
+    for (serial, numbers) in &per_serial {
+        assert_eq!(numbers, &(1..=8).collect::<Vec<u32>>(), "{serial}");
+        assert_eq!(stations[serial].len(), 8, "{serial}: every station once");
+    }
+    let lots = store.lots().unwrap();
+    assert_eq!(
+        (lots[0].units, lots[0].attempts),
+        (units as u64, 8 * units as u64)
+    );
+    assert_images_equal_latest_passes(Path::new(&pg.url), &dir.path("img"));
 }

@@ -20,7 +20,6 @@
 use super::accept::{judge, Finding};
 use super::plan::Plan;
 use super::unit::{fit_unit, UnitFit};
-use crate::atomic::write_bytes;
 use crate::riglog::{RigLogReader, UnitLog};
 use crate::store::{hex, AttemptResult, NewAttempt, Store, StoreError, Trace};
 use lc_core::image::{CRC32, MAX_IMAGE_LEN};
@@ -423,6 +422,22 @@ fn record_of(
     }
 }
 
+/// An empty attempt, left where a judged unit's attempt was moved out.
+fn placeholder() -> NewAttempt {
+    NewAttempt {
+        serial: String::new(),
+        lot: String::new(),
+        result: AttemptResult::Fail,
+        reasons: Vec::new(),
+        params: serde_json::Value::Null,
+        residuals: serde_json::Value::Null,
+        rig_points: serde_json::Value::Null,
+        image: None,
+        image_crc: None,
+        trace: None,
+    }
+}
+
 /// One unit judged, not yet recorded.
 struct Judged {
     serial: String,
@@ -511,6 +526,29 @@ fn judge_unit(
     }
 }
 
+/// Writes an image file atomically (a temporary `.NAME.PID.tmp` beside it,
+/// renamed over it) without waiting for the disk: a killed process leaves
+/// the old file or the new one, never part of one; the calibration image is
+/// in the database already, which is the record (a power cut may lose the
+/// file's last contents, and the next run over that unit, or `lc-host
+/// units export`, writes it again). One `fsync` per image was what made a
+/// station wait on the disk per unit.
+fn write_image(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    use std::io::Write;
+    let dir = path.parent().unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map_or_else(|| "image".into(), |n| n.to_string_lossy().into_owned());
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let written = std::fs::File::create(&tmp)
+        .and_then(|mut f| f.write_all(bytes))
+        .and_then(|()| std::fs::rename(&tmp, path));
+    if written.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    written
+}
+
 /// Brings one unit's image file to its verdict: writes `image`, or
 /// removes a stale file when there is none. Skips the write when the file
 /// already holds exactly these bytes.
@@ -521,9 +559,9 @@ fn sync_image(dir: &Path, serial: &str, image: Option<&[u8]>) -> Result<Option<P
             if std::fs::read(&path).is_ok_and(|old| old == bytes) {
                 return Ok(Some(path));
             }
-            write_bytes(&path, bytes)
-                .map(|()| Some(path))
-                .map_err(|e| format!("image file not written: {e}; the passing record is in the database (lc-host units export {serial})"))
+            write_image(&path, bytes)
+                .map(|()| Some(path.clone()))
+                .map_err(|e| format!("image file {} not written: {e}; the passing record is in the database (lc-host units export {serial})", path.display()))
         }
         None => match std::fs::remove_file(&path) {
             Ok(()) => Ok(None),
@@ -724,16 +762,39 @@ fn flush_group(
     let judged = judge_group(pending, run.lot, plan, run.trace, clashes);
     pending.clear();
     clashes.clear();
-    let attempts: Vec<NewAttempt> = judged.iter().map(|j| j.attempt.clone()).collect();
+    let (attempts, judged): (Vec<NewAttempt>, Vec<Judged>) = judged
+        .into_iter()
+        .map(|mut j| {
+            let a = std::mem::replace(&mut j.attempt, placeholder());
+            (a, j)
+        })
+        .unzip();
     let results = store.record_batch(&attempts)?;
-    for (j, rec) in judged.into_iter().zip(results) {
+    // The image files follow each unit's latest record (another station
+    // may have recorded a later attempt), read under the write lock.
+    let synced: Vec<Option<Result<Option<PathBuf>, String>>> = match run.images {
+        None => judged.iter().map(|_| None).collect(),
+        Some(dir) => store.exclusive(|s| {
+            judged
+                .iter()
+                .zip(&results)
+                .map(|(j, rec): (&Judged, _)| {
+                    rec.is_ok().then(|| match s.image(&j.serial, None) {
+                        Ok(latest) => sync_image(dir, &j.serial, latest.as_deref()),
+                        Err(e) => Err(format!("image file not brought to the latest record: {e}")),
+                    })
+                })
+                .collect()
+        })?,
+    };
+    for (((j, rec), sync), attempt) in judged.into_iter().zip(results).zip(synced).zip(&attempts) {
         let recorded = match rec {
             Ok(r) => Ok(r.attempt),
             Err(StoreError::InvalidAttempt { problem, .. }) => Err(problem),
             Err(e) => return Err(e.into()),
         };
         let mut out = UnitOutcome {
-            passed: j.attempt.result == AttemptResult::Pass && recorded.is_ok(),
+            passed: attempt.result == AttemptResult::Pass && recorded.is_ok(),
             disposition: if recorded.is_ok() {
                 Disposition::Judged
             } else {
@@ -747,15 +808,14 @@ fn flush_group(
             image_path: None,
             image_error: None,
         };
-        if let (Some(dir), Ok(_)) = (run.images, &out.recorded) {
-            match sync_image(dir, &out.serial, j.attempt.image.as_deref()) {
-                Ok(p) => out.image_path = p,
-                Err(e) => {
-                    out.passed = false;
-                    out.reasons.push(e.clone());
-                    out.image_error = Some(e);
-                }
+        match sync {
+            Some(Ok(p)) => out.image_path = p,
+            Some(Err(e)) => {
+                out.passed = false;
+                out.reasons.push(e.clone());
+                out.image_error = Some(e);
             }
+            None => {}
         }
         on_unit(&out);
         summarise(report, out);
@@ -766,12 +826,23 @@ fn flush_group(
 /// A unit already recorded from this rig log against this plan: its
 /// latest record (of any run) stands, and its image file follows it.
 fn already_recorded(
-    store: &Store,
+    store: &mut Store,
     images: Option<&Path>,
     serial: &str,
     attempt_from_log: u32,
 ) -> Result<UnitOutcome, LotError> {
-    let latest = store.attempt(serial, None)?;
+    let latest = store.exclusive(|s| -> Result<_, LotError> {
+        let latest = s.attempt(serial, None)?;
+        let sync = images.map(|dir| {
+            sync_image(
+                dir,
+                serial,
+                latest.as_ref().and_then(|r| r.image.as_deref()),
+            )
+        });
+        Ok((latest, sync))
+    })??;
+    let (latest, sync) = latest;
     let (attempt, image, reasons) = match &latest {
         Some(r) => (r.attempt, r.image.as_deref(), r.reasons.clone()),
         None => (attempt_from_log, None, Vec::new()),
@@ -787,15 +858,14 @@ fn already_recorded(
         image_path: None,
         image_error: None,
     };
-    if let Some(dir) = images {
-        match sync_image(dir, serial, image) {
-            Ok(p) => out.image_path = p,
-            Err(e) => {
-                out.passed = false;
-                out.reasons.push(e.clone());
-                out.image_error = Some(e);
-            }
+    match sync {
+        Some(Ok(p)) => out.image_path = p,
+        Some(Err(e)) => {
+            out.passed = false;
+            out.reasons.push(e.clone());
+            out.image_error = Some(e);
         }
+        None => {}
     }
     Ok(out)
 }

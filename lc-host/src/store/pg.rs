@@ -12,8 +12,8 @@
 //!   (`public` unless the URL sets `options=-csearch_path=NAME`).
 
 use super::{
-    AttemptRecord, NewAttempt, RawCommon, RawRecord, RawSummary, RawTrace, StoreError,
-    BUSY_TIMEOUT, TOOL_VERSION,
+    NewAttempt, RawCommon, RawRecord, RawSummary, RawTrace, Recorded, StoreError, BUSY_TIMEOUT,
+    TOOL_VERSION,
 };
 use postgres::{Client, NoTls, Row};
 use std::collections::HashMap;
@@ -258,7 +258,7 @@ pub(crate) fn record_batch(
     batch: &[NewAttempt],
     checked: Vec<Result<[String; 4], StoreError>>,
     calibrated_at: impl FnOnce() -> String,
-) -> Result<Vec<Result<AttemptRecord, StoreError>>, StoreError> {
+) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
     let mut tx = client
         .transaction()
         .map_err(err(path, "starting a transaction"))?;
@@ -327,21 +327,10 @@ pub(crate) fn record_batch(
                 ],
             )
             .map_err(err(path, "inserting the attempt"))?;
-        out.push(Ok(AttemptRecord {
+        out.push(Ok(Recorded {
             id: row.get(0),
-            serial: a.serial.clone(),
-            lot: a.lot.clone(),
             attempt,
             calibrated_at: calibrated_at.clone(),
-            result: a.result,
-            reasons: a.reasons.clone(),
-            params: a.params.clone(),
-            residuals: a.residuals.clone(),
-            rig_points: a.rig_points.clone(),
-            image: a.image.clone(),
-            image_crc: a.image_crc,
-            tool_version: TOOL_VERSION.to_owned(),
-            trace: a.trace.clone(),
         }));
     }
     tx.commit().map_err(err(path, "committing the attempts"))?;
