@@ -1418,6 +1418,129 @@ fn insert_throughput() {
     assert_eq!(check_complete(&dir.db()), n);
 }
 
+// ---------------------------------------------------------------- groups and traceability
+
+fn trace(plan: &str, rig: &str) -> Trace {
+    Trace {
+        plan_sha256: sha256_hex(plan.as_bytes()),
+        rig_file: "rig.csv".into(),
+        rig_sha256: sha256_hex(rig.as_bytes()),
+        station: "EOL-2".into(),
+        operator: "jm".into(),
+    }
+}
+
+/// A group is one transaction: its attempts are numbered in order (a
+/// serial twice in one group gets two numbers), an invalid attempt in the
+/// middle is refused alone, and the others are recorded.
+fn a_group_commits_its_valid_attempts_in_order(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    store.record(&fail("A1", "L1", "first")).unwrap();
+    let group = [
+        fail("A1", "L1", "second"),
+        NewAttempt {
+            serial: " bad".into(),
+            ..fail("X", "L1", "r")
+        },
+        pass("A2", "L2", b"A2 image"),
+        fail("A1", "L1", "third"),
+    ];
+    let out = store.record_batch(&group).unwrap();
+    assert_eq!(out.len(), 4);
+    assert_eq!(out[0].as_ref().unwrap().attempt, 2);
+    assert!(matches!(out[1], Err(StoreError::InvalidAttempt { .. })));
+    assert_eq!(out[2].as_ref().unwrap().attempt, 1);
+    assert_eq!(out[3].as_ref().unwrap().attempt, 3);
+    let ids: Vec<i64> = [0, 2, 3]
+        .iter()
+        .map(|&i| out[i].as_ref().unwrap().id)
+        .collect();
+    assert!(ids.windows(2).all(|w| w[0] < w[1]), "{ids:?}");
+    let all = store.attempts(&Filter::default()).unwrap();
+    assert_eq!(all.len(), 4);
+    assert_eq!(store.lots().unwrap().len(), 2);
+    assert_eq!(
+        store.attempt("A1", Some(3)).unwrap().unwrap().reasons,
+        ["third"]
+    );
+}
+
+/// Traceability: the plan's text is kept once by hash, every attempt names
+/// plan, rig log, station and operator, and `recorded_from` finds the units
+/// of a rig log judged against a plan.
+fn traceability_round_trips(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    let plan_a = "[product]\nkind = \"proximity\"\n";
+    let plan_b = "[product]\nkind = \"level\"\n";
+    let sha_a = store.register_plan(plan_a).unwrap();
+    assert_eq!(store.register_plan(plan_a).unwrap(), sha_a);
+    let sha_b = store.register_plan(plan_b).unwrap();
+    assert_eq!(sha_a, sha256_hex(plan_a.as_bytes()));
+    assert_eq!(store.plan_text(&sha_a).unwrap().as_deref(), Some(plan_a));
+    assert_eq!(store.plan_text(&"0".repeat(64)).unwrap(), None);
+    let t = trace(plan_a, "rig 1");
+    for serial in ["A1", "A2"] {
+        store
+            .record(&NewAttempt {
+                trace: Some(t.clone()),
+                ..fail(serial, "L1", "r")
+            })
+            .unwrap();
+    }
+    store
+        .record(&NewAttempt {
+            trace: Some(trace(plan_b, "rig 1")),
+            ..fail("A1", "L1", "r")
+        })
+        .unwrap();
+    store.record(&fail("A3", "L1", "no trace")).unwrap();
+    let rec = store.attempt("A1", Some(1)).unwrap().unwrap();
+    assert_eq!(rec.trace.as_ref(), Some(&t));
+    let listed = store.attempts(&Filter::default().serial("A1")).unwrap();
+    assert_eq!(listed.len(), 2);
+    assert!(listed.iter().all(|a| a.trace.is_some()));
+    assert_eq!(store.attempt("A3", None).unwrap().unwrap().trace, None);
+    let from_a = store.recorded_from(&t.rig_sha256, &sha_a).unwrap();
+    assert_eq!(from_a.len(), 2);
+    assert_eq!((from_a["A1"], from_a["A2"]), (1, 1));
+    let from_b = store.recorded_from(&t.rig_sha256, &sha_b).unwrap();
+    assert_eq!(from_b.len(), 1);
+    assert_eq!(from_b["A1"], 2);
+    // A hash that is not one, and a plan never registered, are refused.
+    let err = store
+        .record(&NewAttempt {
+            trace: Some(Trace {
+                rig_sha256: "not hex".into(),
+                ..t.clone()
+            }),
+            ..fail("A4", "L1", "r")
+        })
+        .unwrap_err();
+    assert!(err.to_string().contains("trace.rig_sha256"), "{err}");
+    assert!(store
+        .record(&NewAttempt {
+            trace: Some(trace("never registered", "rig")),
+            ..fail("A4", "L1", "r")
+        })
+        .is_err());
+    assert!(store.attempt("A4", None).unwrap().is_none());
+}
+
+/// A read-only store reads everything and writes nothing.
+fn a_read_only_store_reads_and_refuses_writes(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    store.record(&pass("A1", "L1", b"img")).unwrap();
+    drop(store);
+    let mut ro = Store::open_read_only(dir.db()).unwrap();
+    assert_eq!(ro.attempts(&Filter::default()).unwrap().len(), 1);
+    assert_eq!(ro.image("A1", None).unwrap().as_deref(), Some(&b"img"[..]));
+    assert!(ro.record(&fail("A2", "L1", "r")).is_err());
+    assert_eq!(ro.lots().unwrap()[0].attempts, 1);
+}
+
 on_both_backends!(
     record_returns_what_is_stored,
     recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte,
@@ -1430,5 +1553,8 @@ on_both_backends!(
     sql_in_names_is_stored_as_text,
     arbitrary_names_round_trip_exactly,
     arbitrary_json_payloads_round_trip,
-    a_damaged_image_is_reported_as_corrupt
+    a_damaged_image_is_reported_as_corrupt,
+    a_group_commits_its_valid_attempts_in_order,
+    traceability_round_trips,
+    a_read_only_store_reads_and_refuses_writes,
 );
