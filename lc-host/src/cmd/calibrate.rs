@@ -60,7 +60,7 @@ pub struct Args {
     /// Lot name recorded with every unit
     #[arg(long)]
     lot: String,
-    /// Unit-record database (SQLite; created if missing)
+    /// Unit-record database: an SQLite file (created if missing) or a postgres:// / postgresql:// URL
     #[arg(long, default_value = "units.db")]
     db: PathBuf,
     /// Folder for the passing units' calibration images (kept equal to the latest verdicts)

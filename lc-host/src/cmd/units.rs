@@ -18,7 +18,7 @@ use std::path::PathBuf;
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
-    /// Unit-record database
+    /// Unit-record database: an SQLite file or a postgres:// / postgresql:// URL (opened read-only)
     #[arg(long, default_value = "units.db", global = true)]
     db: PathBuf,
     #[command(subcommand)]
