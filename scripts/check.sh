@@ -66,6 +66,13 @@ cargo test -p lc-core --lib --features defmt --quiet
 if ! command -v qemu-system-arm >/dev/null 2>&1; then
     missing "qemu-system-arm (emulator tests)" "apt-get install qemu-system-arm"
 fi
+# The unit-record store's tests run on SQLite and on PostgreSQL; the
+# PostgreSQL half needs a server (the tests themselves fail under CI=true
+# without one, and skip on a developer machine).
+if [ -z "${LC_TEST_POSTGRES_URL:-}" ]; then
+    missing "PostgreSQL test server (store tests on PostgreSQL)" \
+        "apt-get install postgresql; eval \"\$(bash scripts/pg-test-server.sh start)\""
+fi
 
 step "tests (unit, property, published checks, integration, emulator, doc)"
 log=$(mktemp)

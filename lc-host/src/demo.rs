@@ -145,7 +145,7 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             "   rest frequencies {:.4} … {:.4} MHz; largest residual through the firmware path {:.0} µm",
             lo / 1e6,
             hi / 1e6,
-            lot.max_residual.max.unwrap_or(f64::NAN)
+            lot.max_residual_um.max.unwrap_or(f64::NAN)
         )?;
     }
 

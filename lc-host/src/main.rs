@@ -78,7 +78,8 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Demo(a) => cmd::demo::run(a),
         Command::Simulate(a) => cmd::simulate::run(a),
-        Command::Calibrate(a) => cmd::calibrate::run(a),
+        // Its own exit statuses (all passed, some failed, configuration, I/O).
+        Command::Calibrate(a) => return cmd::calibrate::run(a),
         Command::Units(a) => cmd::units::run(a),
         Command::Counts(a) => cmd::counts::run(a),
         Command::Convert(a) => cmd::convert::run(a),

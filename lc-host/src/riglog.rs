@@ -13,9 +13,11 @@
 
 use crate::csvin::{CsvInput, InputError, Row};
 use lc_core::counting::CountPair;
+use std::cell::RefCell;
 use std::collections::HashSet;
 use std::io::Read;
 use std::path::Path;
+use std::rc::Rc;
 
 /// One rig step.
 #[derive(Clone, Debug, PartialEq)]
@@ -66,11 +68,150 @@ const HINT: &str = "a rig log needs serial, step, temp_c, target, target_unit, c
 /// Streaming reader of a rig log, one unit at a time.
 #[derive(Debug)]
 pub struct RigLogReader<R: Read> {
-    input: CsvInput<R>,
+    input: CsvInput<LineEndings<R>>,
     columns: Columns,
     pending: Option<(String, Result<RigRow, InputError>)>,
     done: HashSet<String>,
     file_error: Option<InputError>,
+    lines: Rc<RefCell<LineMap>>,
+}
+
+/// Normalises line endings and takes out comment and empty lines before
+/// the CSV parser sees them, keeping the map from the lines it hands on to
+/// the file's own lines. `\r\n` and a lone `\r` end a line as `\n` does.
+/// The CSV parser counted a `\r\n` file's lines wrongly and skipped
+/// comment and empty lines without counting them, so every reason named a
+/// wrong line; [`LineMap::file_line`] gives the file's line of any line
+/// number the parser reports.
+#[derive(Debug)]
+pub struct LineEndings<R> {
+    inner: R,
+    raw: Vec<u8>,
+    out: Vec<u8>,
+    pos: usize,
+    pending_cr: bool,
+    /// At the start of a line; `None` inside a kept line, `Some(true)`
+    /// inside a skipped (comment) line.
+    state: LineState,
+    /// Lines handed on so far (complete ones).
+    emitted: u64,
+    map: Rc<RefCell<LineMap>>,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum LineState {
+    Start,
+    Kept,
+    Skipped,
+}
+
+/// From the line numbers of the normalised text to the file's: a list of
+/// (first normalised line, lines skipped before it), one entry per run of
+/// skipped lines.
+#[derive(Debug, Default)]
+pub struct LineMap {
+    jumps: Vec<(u64, u64)>,
+}
+
+impl LineMap {
+    /// The file's line (1-based) of normalised line `line`.
+    pub fn file_line(&self, line: u64) -> u64 {
+        let i = self.jumps.partition_point(|&(from, _)| from <= line);
+        match i {
+            0 => line,
+            _ => line + self.jumps[i - 1].1,
+        }
+    }
+}
+
+impl<R: Read> LineEndings<R> {
+    /// Wraps `inner`.
+    pub fn new(inner: R) -> Self {
+        LineEndings {
+            inner,
+            raw: vec![0; 1 << 16],
+            out: Vec::with_capacity(1 << 16),
+            pos: 0,
+            pending_cr: false,
+            state: LineState::Start,
+            emitted: 0,
+            map: Rc::default(),
+        }
+    }
+
+    /// The line map, filled as the text is read.
+    pub fn map(&self) -> Rc<RefCell<LineMap>> {
+        Rc::clone(&self.map)
+    }
+
+    fn skip_line(&mut self) {
+        let next = self.emitted + 1;
+        let mut map = self.map.borrow_mut();
+        match map.jumps.last_mut() {
+            Some((from, skipped)) if *from == next => *skipped += 1,
+            last => {
+                let skipped = last.map_or(0, |l| l.1) + 1;
+                map.jumps.push((next, skipped));
+            }
+        }
+    }
+
+    fn push(&mut self, b: u8) {
+        match (self.state, b) {
+            (LineState::Start, b'\n') => self.skip_line(),
+            (LineState::Start, b'#') => self.state = LineState::Skipped,
+            (LineState::Skipped, b'\n') => {
+                self.skip_line();
+                self.state = LineState::Start;
+            }
+            (LineState::Skipped, _) => {}
+            (_, b'\n') => {
+                self.out.push(b'\n');
+                self.emitted += 1;
+                self.state = LineState::Start;
+            }
+            (_, _) => {
+                self.out.push(b);
+                self.state = LineState::Kept;
+            }
+        }
+    }
+}
+
+impl<R: Read> Read for LineEndings<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        while self.pos == self.out.len() {
+            self.out.clear();
+            self.pos = 0;
+            let n = self.inner.read(&mut self.raw)?;
+            if n == 0 {
+                if std::mem::take(&mut self.pending_cr) {
+                    self.push(b'\n');
+                    continue;
+                }
+                return Ok(0);
+            }
+            for i in 0..n {
+                let b = self.raw[i];
+                if std::mem::take(&mut self.pending_cr) {
+                    // `\r\n` or a lone `\r`: one line end either way.
+                    self.push(b'\n');
+                    if b == b'\n' {
+                        continue;
+                    }
+                }
+                if b == b'\r' {
+                    self.pending_cr = true;
+                } else {
+                    self.push(b);
+                }
+            }
+        }
+        let n = buf.len().min(self.out.len() - self.pos);
+        buf[..n].copy_from_slice(&self.out[self.pos..self.pos + n]);
+        self.pos += n;
+        Ok(n)
+    }
 }
 
 impl RigRow {
@@ -93,7 +234,9 @@ impl RigRow {
 impl<R: Read> RigLogReader<R> {
     /// Reads the header; `file` names the input in messages.
     pub fn new(input: R, file: &Path) -> Result<Self, InputError> {
-        let input = CsvInput::new(input, file)?;
+        let input = LineEndings::new(input);
+        let lines = input.map();
+        let input = CsvInput::new(input, file).map_err(|e| file_line(&lines, e))?;
         let columns = Columns {
             serial: input.require("serial", HINT)?,
             step: input.require("step", HINT)?,
@@ -112,6 +255,7 @@ impl<R: Read> RigLogReader<R> {
             pending: None,
             done: HashSet::new(),
             file_error: None,
+            lines,
         })
     }
 
@@ -127,19 +271,34 @@ impl<R: Read> RigLogReader<R> {
             return Some(p);
         }
         let c = self.columns;
+        let lines = &self.lines;
         match self.input.next_row()? {
             Ok(row) => {
                 let serial = row.text(c.serial).to_string();
-                Some((serial, parse(&row, c)))
+                let parsed = parse(&row, c)
+                    .map(|mut r| {
+                        r.line = lines.borrow().file_line(r.line);
+                        r
+                    })
+                    .map_err(|e| file_line(lines, e));
+                Some((serial, parsed))
             }
             Err(e @ InputError::Io { .. }) => {
                 self.file_error = Some(e);
                 None
             }
             // A structurally broken line: no trustworthy serial.
-            Err(e) => Some((String::new(), Err(e))),
+            Err(e) => Some((String::new(), Err(file_line(lines, e)))),
         }
     }
+}
+
+/// An input error with the file's own line number.
+fn file_line(lines: &Rc<RefCell<LineMap>>, mut e: InputError) -> InputError {
+    if let InputError::BadField { line, .. } | InputError::Csv { line, .. } = &mut e {
+        *line = lines.borrow().file_line(*line);
+    }
+    e
 }
 
 fn parse(row: &Row<'_>, c: Columns) -> Result<RigRow, InputError> {
@@ -314,6 +473,54 @@ mod tests {
         assert!(u[0].errors[0].to_string().contains("comp_ticks"));
         let e = RigLogReader::new("serial,step\n".as_bytes(), Path::new("r.csv")).unwrap_err();
         assert!(e.to_string().contains("no `temp_c` column"), "{e}");
+    }
+
+    /// Issue 14, defect 10: Windows line endings shifted every reported
+    /// line number by one (and the wrong number was stored in the unit's
+    /// record). CRLF, LF and mixed files report the same lines.
+    #[test]
+    fn crlf_and_mixed_line_endings_keep_line_numbers() {
+        let lines = [
+            HEAD.trim_end(),
+            "# a comment line",
+            "A1,1,25,none,mm,16384,139542,20",
+            "A1,2,25,x,mm,16384,120000,12",
+            "A2,1,25,none,mm,16384,139000,",
+            "A2,2,25,1,inch,16384,120000,",
+        ];
+        let joined = |sep: &dyn Fn(usize) -> &'static str| {
+            lines
+                .iter()
+                .enumerate()
+                .map(|(i, l)| format!("{l}{}", sep(i)))
+                .collect::<String>()
+        };
+        for text in [
+            joined(&|_| "\n"),
+            joined(&|_| "\r\n"),
+            joined(&|i| if i % 2 == 0 { "\r\n" } else { "\n" }),
+            joined(&|i| if i % 2 == 1 { "\r\n" } else { "\n" }),
+            joined(&|i| if i % 3 == 0 { "\r" } else { "\r\n" }),
+        ] {
+            let u = units(&text);
+            assert_eq!(u.len(), 2, "{text:?}");
+            assert_eq!(u[0].rows[0].line, 3, "{text:?}");
+            assert!(
+                u[0].errors[0]
+                    .to_string()
+                    .contains("line 4: field `target`"),
+                "{text:?}: {}",
+                u[0].errors[0]
+            );
+            assert_eq!(u[1].rows[0].line, 5, "{text:?}");
+            assert!(
+                u[1].errors[0]
+                    .to_string()
+                    .contains("line 6: field `target_unit`"),
+                "{text:?}: {}",
+                u[1].errors[0]
+            );
+        }
     }
 
     proptest! {

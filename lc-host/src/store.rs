@@ -36,6 +36,7 @@
 //!     rig_points: json!([]),
 //!     image: None,
 //!     image_crc: None,
+//!     trace: None,
 //! };
 //! assert_eq!(store.record(&failed)?.attempt, 1);
 //! // Re-calibrating the unit adds attempt 2; attempt 1 stays as it was.
@@ -47,18 +48,22 @@
 //! # Ok::<(), lc_host::store::StoreError>(())
 //! ```
 
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::time::{Duration, SystemTime};
 
 use rusqlite::{params, Connection, OpenFlags, OptionalExtension, Row, TransactionBehavior};
 use serde::Serialize;
 use serde_json::Value;
+use sha2::Digest;
 
+mod pg;
 mod schema;
 #[cfg(test)]
 mod tests;
 mod timestamp;
 
+pub use pg::is_url as is_postgres_url;
 pub use schema::SCHEMA_VERSION;
 
 /// How long a call waits for another process's write lock before it gives
@@ -135,6 +140,60 @@ pub struct NewAttempt {
     pub image: Option<Vec<u8>>,
     /// CRC-32/ISO-HDLC of the whole `image`; `None` exactly when `image` is.
     pub image_crc: Option<u32>,
+    /// Where the attempt came from: plan, rig log, station and operator.
+    /// `None` only for callers that have no plan or rig file (tests, tools);
+    /// `lc-host calibrate` always gives it.
+    pub trace: Option<Trace>,
+}
+
+/// The traceability of one attempt: what it was judged against, from which
+/// measurements, where and by whom. The plan's full text is kept once per
+/// distinct plan ([`Store::register_plan`]); attempts name it by hash.
+#[derive(Clone, Debug, Default, PartialEq, Eq, Hash, Serialize)]
+pub struct Trace {
+    /// SHA-256 of the plan file's bytes, 64 lower-case hex digits; a plan
+    /// registered with [`Store::register_plan`].
+    pub plan_sha256: String,
+    /// The rig log's file name as given to the tool (`-` for standard
+    /// input).
+    pub rig_file: String,
+    /// SHA-256 of the rig log's bytes, 64 lower-case hex digits.
+    pub rig_sha256: String,
+    /// The station that calibrated the unit (free text, may be empty).
+    pub station: String,
+    /// The operator at the station (free text, may be empty).
+    pub operator: String,
+}
+
+/// SHA-256 of `bytes` as 64 lower-case hex digits.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    hex(&sha2::Sha256::digest(bytes))
+}
+
+/// Lower-case hex of bytes.
+pub fn hex(bytes: &[u8]) -> String {
+    use std::fmt::Write;
+    bytes
+        .iter()
+        .fold(String::with_capacity(2 * bytes.len()), |mut s, b| {
+            let _ = write!(s, "{b:02x}");
+            s
+        })
+}
+
+fn is_sha256_hex(s: &str) -> bool {
+    s.len() == 64 && s.bytes().all(|b| matches!(b, b'0'..=b'9' | b'a'..=b'f'))
+}
+
+/// Where one attempt of a group landed ([`Store::record_batch`]).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Recorded {
+    /// Row id.
+    pub id: i64,
+    /// Attempt number of the serial.
+    pub attempt: u32,
+    /// When it was recorded (RFC 3339 UTC, milliseconds).
+    pub calibrated_at: String,
 }
 
 /// One stored attempt, complete.
@@ -167,6 +226,9 @@ pub struct AttemptRecord {
     pub image_crc: Option<u32>,
     /// The program that recorded it ([`TOOL_VERSION`] at the time).
     pub tool_version: String,
+    /// Plan, rig log, station and operator; `None` for attempts recorded
+    /// without (schema 1 rows, or callers without a plan).
+    pub trace: Option<Trace>,
 }
 
 /// One attempt in a listing: everything but the bulky JSON and the image.
@@ -192,6 +254,8 @@ pub struct AttemptSummary {
     pub image_crc: Option<u32>,
     /// The program that recorded it.
     pub tool_version: String,
+    /// Plan, rig log, station and operator, when recorded.
+    pub trace: Option<Trace>,
 }
 
 /// Order of an attempt listing.
@@ -327,8 +391,8 @@ pub enum StoreError {
         from: u32,
         /// Version the migration was to produce.
         to: u32,
-        /// SQLite's error.
-        source: rusqlite::Error,
+        /// The database's error.
+        source: Box<dyn std::error::Error + Send + Sync>,
     },
     /// Write-ahead logging could not be switched on.
     #[error("database {path}: cannot switch on write-ahead logging (journal mode is {mode:?}): keep the database on a local disk, not on a network share")]
@@ -366,6 +430,26 @@ pub enum StoreError {
         /// What is wrong with the value.
         problem: String,
     },
+    /// A read-only open found a schema this build does not read directly.
+    #[error("database {path} is at schema {found}, this build reads schema {known}: open it once for writing (e.g. `lc-host calibrate`) to migrate it, or use the lc-host that wrote it")]
+    ReadOnlyOldSchema {
+        /// Database file.
+        path: PathBuf,
+        /// Schema version found in the file.
+        found: i64,
+        /// Schema version this build reads.
+        known: u32,
+    },
+    /// A PostgreSQL failure (connection, statement).
+    #[error("database {path}: {action} failed: {source}; check that the server runs, that the URL (user, password, host, database) is right, and that the user may create tables in the database")]
+    Postgres {
+        /// Database URL, without its password.
+        path: PathBuf,
+        /// What the store was doing.
+        action: &'static str,
+        /// The client's error.
+        source: postgres::Error,
+    },
     /// Any other SQLite failure.
     #[error("database {path}: {action} failed: {source}")]
     Sqlite {
@@ -401,8 +485,23 @@ impl StoreError {
 /// block, and writers take turns, each waiting up to [`BUSY_TIMEOUT`].
 #[derive(Debug)]
 pub struct Store {
-    conn: Connection,
+    conn: Conn,
     path: PathBuf,
+}
+
+/// The connection of one back end.
+enum Conn {
+    Sqlite(Connection),
+    Postgres(std::cell::RefCell<Box<postgres::Client>>),
+}
+
+impl std::fmt::Debug for Conn {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Conn::Sqlite(_) => "Sqlite",
+            Conn::Postgres(_) => "Postgres",
+        })
+    }
 }
 
 const INSERT_LOT: &str =
@@ -410,12 +509,22 @@ const INSERT_LOT: &str =
 const NEXT_ATTEMPT: &str = "SELECT COALESCE(MAX(attempt), 0) + 1 FROM attempts WHERE serial = ?1";
 const INSERT_ATTEMPT: &str = "INSERT INTO attempts
     (serial, lot, attempt, calibrated_at, result, reasons, params, residuals,
-     rig_points, image, image_crc, tool_version)
-    VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12)";
+     rig_points, image, image_crc, tool_version,
+     plan_sha256, rig_file, rig_sha256, station, operator)
+    VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17)";
+const RECORDED_FROM: &str = "SELECT serial, MAX(attempt) FROM attempts \
+     WHERE rig_sha256 = ?1 AND plan_sha256 = ?2 GROUP BY serial";
+const INSERT_PLAN: &str =
+    "INSERT INTO plans (sha256, text) VALUES (?1, ?2) ON CONFLICT (sha256) DO NOTHING";
 const RECORD_COLUMNS: &str = "id, serial, lot, attempt, calibrated_at, result, reasons, \
-     params, residuals, rig_points, image, image_crc, tool_version";
+     params, residuals, rig_points, image, image_crc, tool_version, \
+     plan_sha256, rig_file, rig_sha256, station, operator";
 const SUMMARY_COLUMNS: &str =
-    "id, serial, lot, attempt, calibrated_at, result, reasons, length(image), image_crc, tool_version";
+    "id, serial, lot, attempt, calibrated_at, result, reasons, length(image), image_crc, tool_version, \
+     plan_sha256, rig_file, rig_sha256, station, operator";
+const SUMMARY_COLUMNS_PG: &str =
+    "id, serial, lot, attempt, calibrated_at, result, reasons, octet_length(image)::BIGINT, image_crc, \
+     tool_version, plan_sha256, rig_file, rig_sha256, station, operator";
 /// Selects one attempt of a serial: the given number, or the latest (NULL).
 const WHERE_ONE: &str = "WHERE serial = ?1 AND attempt = COALESCE(?2, \
      (SELECT MAX(attempt) FROM attempts WHERE serial = ?1))";
@@ -425,13 +534,15 @@ WITH units AS (
     FROM attempts GROUP BY lot, serial
 ), outcomes AS (
     SELECT u.lot, u.n,
-           (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.last) = 'pass' AS passed,
-           (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.first) = 'pass' AS first_pass
+           CASE WHEN (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.last) = 'pass'
+                THEN 1 ELSE 0 END AS passed,
+           CASE WHEN (SELECT result FROM attempts a WHERE a.serial = u.serial AND a.attempt = u.first) = 'pass'
+                THEN 1 ELSE 0 END AS first_pass
     FROM units u
 )
-SELECT l.lot, l.created_at, count(o.lot), COALESCE(SUM(o.passed), 0),
-       COALESCE(SUM(o.first_pass), 0), COALESCE(SUM(o.n), 0),
-       CASE WHEN count(o.lot) > 0 THEN CAST(SUM(o.passed) AS REAL) / count(o.lot) END
+SELECT l.lot, l.created_at, CAST(count(o.lot) AS BIGINT), CAST(COALESCE(SUM(o.passed), 0) AS BIGINT),
+       CAST(COALESCE(SUM(o.first_pass), 0) AS BIGINT), CAST(COALESCE(SUM(o.n), 0) AS BIGINT),
+       CASE WHEN count(o.lot) > 0 THEN CAST(SUM(o.passed) AS DOUBLE PRECISION) / count(o.lot) END
 FROM lots l LEFT JOIN outcomes o ON o.lot = l.lot
 GROUP BY l.lot
 ORDER BY l.created_at, l.lot";
@@ -448,6 +559,14 @@ impl Store {
     /// by a newer lc-host, [`StoreError::NoWal`], [`StoreError::Migration`]
     /// and [`StoreError::Busy`].
     pub fn open(path: impl AsRef<Path>) -> Result<Store, StoreError> {
+        if let Some(url) = path.as_ref().to_str().filter(|p| pg::is_url(p)) {
+            let shown = PathBuf::from(pg::redacted(url));
+            let client = pg::open(url, &shown, false)?;
+            return Ok(Store {
+                conn: Conn::Postgres(std::cell::RefCell::new(Box::new(client))),
+                path: shown,
+            });
+        }
         let path = path.as_ref().to_path_buf();
         // No URI interpretation: a path is a path.
         let flags = OpenFlags::SQLITE_OPEN_READ_WRITE
@@ -477,16 +596,106 @@ impl Store {
         conn.pragma_update(None, "foreign_keys", true)
             .map_err(err("switching on foreign keys"))?;
         schema::migrate(&mut conn, &path, schema::MIGRATIONS)?;
-        Ok(Store { conn, path })
+        Ok(Store {
+            conn: Conn::Sqlite(conn),
+            path,
+        })
     }
 
-    /// The database file this store was opened on.
+    /// Opens an existing database for reading only: no journal-mode
+    /// switch, no migration, nothing written, so a database on a read-only
+    /// medium, in a read-only folder or without write permission can be
+    /// listed and exported. Where SQLite cannot make its shared-memory file
+    /// beside a write-ahead-logged database (a read-only folder), the file
+    /// is opened as immutable: correct as long as no one writes to it then,
+    /// which a read-only folder guarantees for everyone but its owner.
+    ///
+    /// # Errors
+    /// [`StoreError::Open`] for a missing or unreadable file,
+    /// [`StoreError::NotADatabase`] / [`StoreError::ForeignDatabase`],
+    /// [`StoreError::NewerSchema`], and [`StoreError::ReadOnlyOldSchema`] for
+    /// a database of an older schema (it needs a writable open to migrate).
+    pub fn open_read_only(path: impl AsRef<Path>) -> Result<Store, StoreError> {
+        if let Some(url) = path.as_ref().to_str().filter(|p| pg::is_url(p)) {
+            let shown = PathBuf::from(pg::redacted(url));
+            let client = pg::open(url, &shown, true)?;
+            return Ok(Store {
+                conn: Conn::Postgres(std::cell::RefCell::new(Box::new(client))),
+                path: shown,
+            });
+        }
+        let path = path.as_ref().to_path_buf();
+        let plain = OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX;
+        let open_err = |source| StoreError::Open {
+            path: path.clone(),
+            source,
+        };
+        let try_plain = Connection::open_with_flags(&path, plain).and_then(|c| {
+            // The first read is where a missing -shm file shows.
+            c.pragma_query_value(None, "user_version", |r| r.get::<_, i64>(0))
+                .map(|_| c)
+        });
+        let conn = match try_plain {
+            Ok(c) => c,
+            Err(e) if e.sqlite_error_code() == Some(rusqlite::ErrorCode::NotADatabase) => {
+                return Err(StoreError::NotADatabase { path });
+            }
+            Err(first) => {
+                if !path.is_file() {
+                    return Err(open_err(first));
+                }
+                let mut uri = String::from("file:");
+                for b in path.to_string_lossy().bytes() {
+                    if b.is_ascii_alphanumeric() || b"/-_.~".contains(&b) {
+                        uri.push(char::from(b));
+                    } else {
+                        uri.push_str(&format!("%{b:02X}"));
+                    }
+                }
+                uri.push_str("?immutable=1");
+                Connection::open_with_flags(&uri, plain | OpenFlags::SQLITE_OPEN_URI)
+                    .map_err(open_err)?
+            }
+        };
+        conn.busy_timeout(BUSY_TIMEOUT)
+            .map_err(|e| StoreError::from_sqlite(&path, "setting the busy timeout", e))?;
+        let found: i64 = conn
+            .pragma_query_value(None, "user_version", |r| r.get(0))
+            .map_err(|e| StoreError::from_sqlite(&path, "reading the schema version", e))?;
+        let known = SCHEMA_VERSION;
+        if found > i64::from(known) {
+            return Err(StoreError::NewerSchema { path, found, known });
+        }
+        if found == 0 {
+            return Err(StoreError::ForeignDatabase { path });
+        }
+        if found < i64::from(known) {
+            return Err(StoreError::ReadOnlyOldSchema { path, found, known });
+        }
+        Ok(Store {
+            conn: Conn::Sqlite(conn),
+            path,
+        })
+    }
+
+    /// The database file this store was opened on (for PostgreSQL, its
+    /// URL without the password).
     pub fn path(&self) -> &Path {
         &self.path
     }
 
-    fn err(&self, action: &'static str) -> impl Fn(rusqlite::Error) -> StoreError + '_ {
-        move |e| StoreError::from_sqlite(&self.path, action, e)
+    /// Whether this store is on a PostgreSQL server.
+    pub fn is_postgres(&self) -> bool {
+        matches!(self.conn, Conn::Postgres(_))
+    }
+
+    /// The SQLite connection (tests of SQLite's own settings).
+    #[cfg(test)]
+    fn sqlite(&self) -> &Connection {
+        match &self.conn {
+            Conn::Sqlite(c) => c,
+            Conn::Postgres(_) => panic!("not an SQLite store"),
+        }
     }
 
     fn invalid(&self, a: &NewAttempt, problem: impl Into<String>) -> StoreError {
@@ -535,6 +744,31 @@ impl Store {
                 ));
             }
         }
+        if let Some(t) = &a.trace {
+            for (name, v) in [
+                ("plan_sha256", &t.plan_sha256),
+                ("rig_sha256", &t.rig_sha256),
+            ] {
+                if !is_sha256_hex(v) {
+                    return Err(self.invalid(
+                        a,
+                        format!("trace.{name} {v:?} is not 64 lower-case hex digits: pass sha256_hex of the file's bytes"),
+                    ));
+                }
+            }
+            for (name, v) in [
+                ("rig_file", &t.rig_file),
+                ("station", &t.station),
+                ("operator", &t.operator),
+            ] {
+                if v.chars().any(char::is_control) {
+                    return Err(self.invalid(
+                        a,
+                        format!("trace.{name} {v:?} contains a control character: remove it"),
+                    ));
+                }
+            }
+        }
         if !a.params.is_object() {
             return Err(self.invalid(a, "params must be a JSON object (name → fitted value)"));
         }
@@ -565,55 +799,16 @@ impl Store {
     /// another writer holds the lock longer than [`BUSY_TIMEOUT`], other
     /// variants for SQLite failures; after any error nothing was written.
     pub fn record(&mut self, a: &NewAttempt) -> Result<AttemptRecord, StoreError> {
-        let [reasons, params, residuals, rig_points] = self.check(a)?;
-        let path = &self.path;
-        let err = |action| move |e| StoreError::from_sqlite(path, action, e);
-        let tx = self
-            .conn
-            .transaction_with_behavior(TransactionBehavior::Immediate)
-            .map_err(err("locking the database"))?;
-        // Under the write lock, so time stamps follow the attempt order.
-        let calibrated_at = timestamp::rfc3339_utc(SystemTime::now());
-        tx.prepare_cached(INSERT_LOT)
-            .and_then(|mut s| s.execute(params![a.lot, calibrated_at]))
-            .map_err(err("adding the lot"))?;
-        let next: i64 = tx
-            .prepare_cached(NEXT_ATTEMPT)
-            .and_then(|mut s| s.query_row([&a.serial], |r| r.get(0)))
-            .map_err(err("numbering the attempt"))?;
-        let attempt = u32::try_from(next).map_err(|_| StoreError::InvalidAttempt {
-            path: path.clone(),
-            serial: a.serial.clone(),
-            problem: format!(
-                "attempt number {next} is out of range: this serial has too many attempts"
-            ),
+        let mut out = self.record_batch(std::slice::from_ref(a))?;
+        let r = out.pop().unwrap_or_else(|| {
+            Err(self.invalid(a, "no result for the attempt (a bug: report it)"))
         })?;
-        tx.prepare_cached(INSERT_ATTEMPT)
-            .and_then(|mut s| {
-                s.execute(params![
-                    a.serial,
-                    a.lot,
-                    attempt,
-                    calibrated_at,
-                    a.result.as_str(),
-                    reasons,
-                    params,
-                    residuals,
-                    rig_points,
-                    a.image,
-                    a.image_crc,
-                    TOOL_VERSION,
-                ])
-            })
-            .map_err(err("inserting the attempt"))?;
-        let id = tx.last_insert_rowid();
-        tx.commit().map_err(err("committing the attempt"))?;
         Ok(AttemptRecord {
-            id,
+            id: r.id,
             serial: a.serial.clone(),
             lot: a.lot.clone(),
-            attempt,
-            calibrated_at,
+            attempt: r.attempt,
+            calibrated_at: r.calibrated_at,
             result: a.result,
             reasons: a.reasons.clone(),
             params: a.params.clone(),
@@ -622,17 +817,228 @@ impl Store {
             image: a.image.clone(),
             image_crc: a.image_crc,
             tool_version: TOOL_VERSION.to_owned(),
+            trace: a.trace.clone(),
         })
+    }
+
+    /// Records a group of attempts in one transaction (a group commit): all
+    /// of them or, after an error of the transaction, none. Each attempt is
+    /// checked first; one that breaks a rule of [`NewAttempt`] is not
+    /// written and its place in the returned list holds its
+    /// [`StoreError::InvalidAttempt`], while the others are recorded. The
+    /// returned list has one entry per attempt, in order. A serial may
+    /// appear more than once in a group: its attempts are numbered in
+    /// order. Each entry says where the attempt landed ([`Recorded`]).
+    ///
+    /// One commit per group instead of per unit is what makes a station
+    /// fast; a process killed mid-group loses exactly the group's attempts,
+    /// never part of one (docs/database.md, "Crash safety").
+    ///
+    /// # Errors
+    /// [`StoreError::Busy`] and SQLite failures, after which nothing of the
+    /// group was written.
+    pub fn record_batch(
+        &mut self,
+        batch: &[NewAttempt],
+    ) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
+        let checked: Vec<Result<[String; 4], StoreError>> =
+            batch.iter().map(|a| self.check(a)).collect();
+        let path = &self.path;
+        let conn = match &mut self.conn {
+            Conn::Sqlite(c) => c,
+            Conn::Postgres(c) => {
+                return pg::record_batch(c.get_mut(), path, batch, checked, || {
+                    timestamp::rfc3339_utc(SystemTime::now())
+                })
+            }
+        };
+        let err = |action| move |e| StoreError::from_sqlite(path, action, e);
+        let tx = conn
+            .transaction_with_behavior(TransactionBehavior::Immediate)
+            .map_err(err("locking the database"))?;
+        // Under the write lock, so time stamps follow the attempt order.
+        let calibrated_at = timestamp::rfc3339_utc(SystemTime::now());
+        let mut out = Vec::with_capacity(batch.len());
+        let mut lots_added: Vec<&str> = Vec::new();
+        for (a, json) in batch.iter().zip(checked) {
+            let [reasons, params, residuals, rig_points] = match json {
+                Ok(j) => j,
+                Err(e) => {
+                    out.push(Err(e));
+                    continue;
+                }
+            };
+            if !lots_added.contains(&a.lot.as_str()) {
+                tx.prepare_cached(INSERT_LOT)
+                    .and_then(|mut s| s.execute(params![a.lot, calibrated_at]))
+                    .map_err(err("adding the lot"))?;
+                lots_added.push(&a.lot);
+            }
+            let next: i64 = tx
+                .prepare_cached(NEXT_ATTEMPT)
+                .and_then(|mut s| s.query_row([&a.serial], |r| r.get(0)))
+                .map_err(err("numbering the attempt"))?;
+            let Ok(attempt) = u32::try_from(next) else {
+                out.push(Err(StoreError::InvalidAttempt {
+                    path: path.clone(),
+                    serial: a.serial.clone(),
+                    problem: format!(
+                        "attempt number {next} is out of range: this serial has too many attempts"
+                    ),
+                }));
+                continue;
+            };
+            let t = a.trace.as_ref();
+            tx.prepare_cached(INSERT_ATTEMPT)
+                .and_then(|mut s| {
+                    s.execute(params![
+                        a.serial,
+                        a.lot,
+                        attempt,
+                        calibrated_at,
+                        a.result.as_str(),
+                        reasons,
+                        params,
+                        residuals,
+                        rig_points,
+                        a.image,
+                        a.image_crc,
+                        TOOL_VERSION,
+                        t.map(|t| &t.plan_sha256),
+                        t.map(|t| &t.rig_file),
+                        t.map(|t| &t.rig_sha256),
+                        t.map(|t| &t.station),
+                        t.map(|t| &t.operator),
+                    ])
+                })
+                .map_err(err("inserting the attempt"))?;
+            out.push(Ok(Recorded {
+                id: tx.last_insert_rowid(),
+                attempt,
+                calibrated_at: calibrated_at.clone(),
+            }));
+        }
+        tx.commit().map_err(err("committing the attempts"))?;
+        Ok(out)
+    }
+
+    /// Runs `f` while holding the database's write lock, so that no other
+    /// writer commits meanwhile: the station brings image files to the
+    /// latest records under it, and since every writer does so after each
+    /// commit, the last one to do it for a unit sees that unit's latest
+    /// record (stations sharing one images folder end equal to the latest
+    /// verdicts). SQLite: an immediate transaction, rolled back; PostgreSQL:
+    /// the writers' advisory lock, held for the session and released.
+    ///
+    /// # Errors
+    /// [`StoreError::Busy`] and database failures taking the lock.
+    pub fn exclusive<T>(&mut self, f: impl FnOnce(&Store) -> T) -> Result<T, StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => {
+                c.execute_batch("BEGIN IMMEDIATE")
+                    .map_err(self.sqlite_err("locking the database"))?;
+                let out = f(self);
+                c.execute_batch("ROLLBACK")
+                    .map_err(self.sqlite_err("releasing the lock"))?;
+                Ok(out)
+            }
+            Conn::Postgres(c) => {
+                c.borrow_mut()
+                    .execute("SELECT pg_advisory_lock($1)", &[&pg::WRITE_LOCK])
+                    .map_err(pg::err(&self.path, "locking the database"))?;
+                let out = f(self);
+                c.borrow_mut()
+                    .execute("SELECT pg_advisory_unlock($1)", &[&pg::WRITE_LOCK])
+                    .map_err(pg::err(&self.path, "releasing the lock"))?;
+                Ok(out)
+            }
+        }
+    }
+
+    /// Keeps a plan's full text (once per distinct text) and returns its
+    /// SHA-256 (64 lower-case hex digits), the `plan_sha256` of the
+    /// attempts judged against it. Attempts may name only a registered
+    /// plan (a foreign key).
+    ///
+    /// # Errors
+    /// [`StoreError::Busy`] and SQLite failures.
+    pub fn register_plan(&mut self, text: &str) -> Result<String, StoreError> {
+        let sha = sha256_hex(text.as_bytes());
+        match &mut self.conn {
+            Conn::Sqlite(c) => {
+                c.prepare_cached(INSERT_PLAN)
+                    .and_then(|mut s| s.execute(params![sha, text]))
+                    .map_err(|e| StoreError::from_sqlite(&self.path, "keeping the plan", e))?;
+            }
+            Conn::Postgres(c) => pg::register_plan(c.get_mut(), &self.path, &sha, text)?,
+        }
+        Ok(sha)
+    }
+
+    fn sqlite_err(&self, action: &'static str) -> impl Fn(rusqlite::Error) -> StoreError + '_ {
+        move |e| StoreError::from_sqlite(&self.path, action, e)
+    }
+
+    /// The full text of a registered plan, `None` when no plan has that
+    /// hash.
+    ///
+    /// # Errors
+    /// Database failures.
+    pub fn plan_text(&self, sha256: &str) -> Result<Option<String>, StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached("SELECT text FROM plans WHERE sha256 = ?1")
+                .and_then(|mut s| s.query_row([sha256], |r| r.get(0)).optional())
+                .map_err(self.sqlite_err("reading a plan")),
+            Conn::Postgres(c) => pg::plan_text(&mut c.borrow_mut(), &self.path, sha256),
+        }
+    }
+
+    /// The serials that already have an attempt from the rig log with hash
+    /// `rig_sha256` judged against the plan with hash `plan_sha256`, each
+    /// with its latest such attempt number: a station re-run skips them.
+    ///
+    /// # Errors
+    /// Database failures.
+    pub fn recorded_from(
+        &self,
+        rig_sha256: &str,
+        plan_sha256: &str,
+    ) -> Result<HashMap<String, u32>, StoreError> {
+        let c = match &self.conn {
+            Conn::Sqlite(c) => c,
+            Conn::Postgres(c) => {
+                return pg::recorded_from(&mut c.borrow_mut(), &self.path, rig_sha256, plan_sha256)
+            }
+        };
+        let mut stmt = c
+            .prepare_cached(RECORDED_FROM)
+            .map_err(self.sqlite_err("finding recorded units"))?;
+        let rows = stmt
+            .query_map([rig_sha256, plan_sha256], |r| {
+                Ok((r.get::<_, String>(0)?, r.get::<_, i64>(1)?))
+            })
+            .map_err(self.sqlite_err("finding recorded units"))?;
+        let mut out = HashMap::new();
+        for row in rows {
+            let (serial, n) = row.map_err(self.sqlite_err("finding recorded units"))?;
+            out.insert(serial, u32::try_from(n).unwrap_or(0));
+        }
+        Ok(out)
     }
 
     /// Lists attempts matching `filter`, in `filter.order`, without their
     /// JSON payloads and images (see [`Store::attempt`] for those).
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] for a row that does not
-    /// decode.
+    /// Database failures, and [`StoreError::Corrupt`] for a row that does
+    /// not decode.
     pub fn attempts(&self, filter: &Filter) -> Result<Vec<AttemptSummary>, StoreError> {
-        let mut sql = format!("SELECT {SUMMARY_COLUMNS} FROM attempts WHERE 1");
+        let columns = match self.conn {
+            Conn::Sqlite(_) => SUMMARY_COLUMNS,
+            Conn::Postgres(_) => SUMMARY_COLUMNS_PG,
+        };
+        let mut sql = format!("SELECT {columns} FROM attempts WHERE TRUE");
         let mut args: Vec<&str> = Vec::new();
         // Only fixed SQL fragments are appended; values go in `args`.
         if let Some(lot) = &filter.lot {
@@ -656,19 +1062,39 @@ impl Store {
             Order::NewestFirst => " ORDER BY id DESC",
             Order::BySerial => " ORDER BY serial, attempt",
         });
-        let mut stmt = self
-            .conn
-            .prepare_cached(&sql)
-            .map_err(self.err("listing attempts"))?;
-        let rows = stmt
-            .query_map(rusqlite::params_from_iter(args), RawSummary::from_row)
-            .map_err(self.err("listing attempts"))?;
         let mut out = Vec::new();
-        for raw in rows {
-            out.push(
-                raw.map_err(self.err("reading an attempt"))?
-                    .decode(&self.path)?,
-            );
+        match &self.conn {
+            Conn::Sqlite(c) => {
+                let mut stmt = c
+                    .prepare_cached(&sql)
+                    .map_err(self.sqlite_err("listing attempts"))?;
+                let rows = stmt
+                    .query_map(rusqlite::params_from_iter(args), RawSummary::from_row)
+                    .map_err(self.sqlite_err("listing attempts"))?;
+                for raw in rows {
+                    out.push(
+                        raw.map_err(self.sqlite_err("reading an attempt"))?
+                            .decode(&self.path)?,
+                    );
+                }
+            }
+            Conn::Postgres(c) => {
+                let params: Vec<&(dyn postgres::types::ToSql + Sync)> = args
+                    .iter()
+                    .map(|a| a as &(dyn postgres::types::ToSql + Sync))
+                    .collect();
+                let rows = c
+                    .borrow_mut()
+                    .query(&pg::dollars(&sql), &params)
+                    .map_err(pg::err(&self.path, "listing attempts"))?;
+                for r in &rows {
+                    out.push(
+                        pg::summary(r)
+                            .map_err(pg::err(&self.path, "reading an attempt"))?
+                            .decode(&self.path)?,
+                    );
+                }
+            }
         }
         Ok(out)
     }
@@ -677,22 +1103,32 @@ impl Store {
     /// when `attempt` is `None`. `Ok(None)` when there is no such attempt.
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] for a row that does not
-    /// decode or whose image does not match its CRC.
+    /// Database failures, and [`StoreError::Corrupt`] for a row that does
+    /// not decode or whose image does not match its CRC.
     pub fn attempt(
         &self,
         serial: &str,
         attempt: Option<u32>,
     ) -> Result<Option<AttemptRecord>, StoreError> {
         let sql = format!("SELECT {RECORD_COLUMNS} FROM attempts {WHERE_ONE}");
-        let raw = self
-            .conn
-            .prepare_cached(&sql)
-            .and_then(|mut s| {
-                s.query_row(params![serial, attempt], RawRecord::from_row)
-                    .optional()
-            })
-            .map_err(self.err("reading an attempt"))?;
+        let raw = match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached(&sql)
+                .and_then(|mut s| {
+                    s.query_row(params![serial, attempt], RawRecord::from_row)
+                        .optional()
+                })
+                .map_err(self.sqlite_err("reading an attempt"))?,
+            Conn::Postgres(c) => {
+                let n = attempt.map(|n| i32::try_from(n).unwrap_or(i32::MAX));
+                c.borrow_mut()
+                    .query_opt(&pg::dollars(&sql), &[&serial, &n])
+                    .map_err(pg::err(&self.path, "reading an attempt"))?
+                    .map(|r| pg::record(&r))
+                    .transpose()
+                    .map_err(pg::err(&self.path, "reading an attempt"))?
+            }
+        };
         raw.map(|r| r.decode(&self.path)).transpose()
     }
 
@@ -703,20 +1139,30 @@ impl Store {
     /// re-calibration has none, even if an earlier one passed).
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] when the image does not
-    /// match its CRC.
+    /// Database failures, and [`StoreError::Corrupt`] when the image does
+    /// not match its CRC.
     pub fn image(&self, serial: &str, attempt: Option<u32>) -> Result<Option<Vec<u8>>, StoreError> {
         let sql = format!("SELECT id, image, image_crc FROM attempts {WHERE_ONE}");
-        let row: Option<(i64, Option<Vec<u8>>, Option<i64>)> = self
-            .conn
-            .prepare_cached(&sql)
-            .and_then(|mut s| {
-                s.query_row(params![serial, attempt], |r| {
-                    Ok((r.get(0)?, r.get(1)?, r.get(2)?))
+        let row: Option<(i64, Option<Vec<u8>>, Option<i64>)> = match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached(&sql)
+                .and_then(|mut s| {
+                    s.query_row(params![serial, attempt], |r| {
+                        Ok((r.get(0)?, r.get(1)?, r.get(2)?))
+                    })
+                    .optional()
                 })
-                .optional()
-            })
-            .map_err(self.err("reading an image"))?;
+                .map_err(self.sqlite_err("reading an image"))?,
+            Conn::Postgres(c) => {
+                let n = attempt.map(|n| i32::try_from(n).unwrap_or(i32::MAX));
+                c.borrow_mut()
+                    .query_opt(&pg::dollars(&sql), &[&serial, &n])
+                    .map_err(pg::err(&self.path, "reading an image"))?
+                    .map(|r| Ok((r.try_get(0)?, r.try_get(1)?, r.try_get(2)?)))
+                    .transpose()
+                    .map_err(pg::err(&self.path, "reading an image"))?
+            }
+        };
         let Some((id, image, crc)) = row else {
             return Ok(None);
         };
@@ -729,41 +1175,61 @@ impl Store {
     /// name).
     ///
     /// # Errors
-    /// SQLite failures, and [`StoreError::Corrupt`] for counts that do not
-    /// decode.
+    /// Database failures, and [`StoreError::Corrupt`] for counts that do
+    /// not decode.
     pub fn lots(&self) -> Result<Vec<LotSummary>, StoreError> {
-        let mut stmt = self
-            .conn
-            .prepare_cached(LOTS)
-            .map_err(self.err("counting lots"))?;
-        let rows = stmt
-            .query_map([], |r| {
-                Ok((
-                    r.get::<_, String>(0)?,
-                    r.get::<_, String>(1)?,
-                    [r.get::<_, i64>(2)?, r.get(3)?, r.get(4)?, r.get(5)?],
-                    r.get::<_, Option<f64>>(6)?,
-                ))
+        type Raw = (String, String, [i64; 4], Option<f64>);
+        let raw: Vec<Raw> = match &self.conn {
+            Conn::Sqlite(c) => {
+                let mut stmt = c
+                    .prepare_cached(LOTS)
+                    .map_err(self.sqlite_err("counting lots"))?;
+                let rows = stmt
+                    .query_map([], |r| {
+                        Ok((
+                            r.get::<_, String>(0)?,
+                            r.get::<_, String>(1)?,
+                            [r.get::<_, i64>(2)?, r.get(3)?, r.get(4)?, r.get(5)?],
+                            r.get::<_, Option<f64>>(6)?,
+                        ))
+                    })
+                    .map_err(self.sqlite_err("counting lots"))?;
+                rows.collect::<Result<_, _>>()
+                    .map_err(self.sqlite_err("counting lots"))?
+            }
+            Conn::Postgres(c) => c
+                .borrow_mut()
+                .query(LOTS, &[])
+                .map_err(pg::err(&self.path, "counting lots"))?
+                .iter()
+                .map(|r| {
+                    Ok((
+                        r.try_get(0)?,
+                        r.try_get(1)?,
+                        [r.try_get(2)?, r.try_get(3)?, r.try_get(4)?, r.try_get(5)?],
+                        r.try_get(6)?,
+                    ))
+                })
+                .collect::<Result<_, postgres::Error>>()
+                .map_err(pg::err(&self.path, "counting lots"))?,
+        };
+        Ok(raw
+            .into_iter()
+            .map(|(lot, created_at, counts, yield_fraction)| {
+                let [units, passed, first_pass, attempts] =
+                    counts.map(|n| u64::try_from(n).unwrap_or(0));
+                LotSummary {
+                    lot,
+                    created_at,
+                    units,
+                    passed,
+                    failed: units.saturating_sub(passed),
+                    first_pass,
+                    attempts,
+                    yield_fraction,
+                }
             })
-            .map_err(self.err("counting lots"))?;
-        let mut out = Vec::new();
-        for row in rows {
-            let (lot, created_at, counts, yield_fraction) =
-                row.map_err(self.err("counting lots"))?;
-            let [units, passed, first_pass, attempts] =
-                counts.map(|n| u64::try_from(n).unwrap_or(0));
-            out.push(LotSummary {
-                lot,
-                created_at,
-                units,
-                passed,
-                failed: units.saturating_sub(passed),
-                first_pass,
-                attempts,
-                yield_fraction,
-            });
-        }
-        Ok(out)
+            .collect())
     }
 }
 
@@ -897,11 +1363,48 @@ impl RawCommon {
     }
 }
 
+/// The five traceability columns, all NULL or none.
+struct RawTrace([Option<String>; 5]);
+
+impl RawTrace {
+    fn from_row(r: &Row<'_>, first: usize) -> rusqlite::Result<Self> {
+        Ok(RawTrace([
+            r.get(first)?,
+            r.get(first + 1)?,
+            r.get(first + 2)?,
+            r.get(first + 3)?,
+            r.get(first + 4)?,
+        ]))
+    }
+
+    fn decode(self, path: &Path, id: i64) -> Result<Option<Trace>, StoreError> {
+        match self.0 {
+            [None, None, None, None, None] => Ok(None),
+            [Some(plan_sha256), Some(rig_file), Some(rig_sha256), Some(station), Some(operator)] => {
+                Ok(Some(Trace {
+                    plan_sha256,
+                    rig_file,
+                    rig_sha256,
+                    station,
+                    operator,
+                }))
+            }
+            _ => Err(StoreError::Corrupt {
+                path: path.to_path_buf(),
+                id,
+                column: "plan_sha256",
+                problem: "the traceability columns are neither all set nor all NULL".into(),
+            }),
+        }
+    }
+}
+
 struct RawSummary {
     common: RawCommon,
     image_len: Option<i64>,
     image_crc: Option<i64>,
     tool_version: String,
+    trace: RawTrace,
 }
 
 impl RawSummary {
@@ -911,6 +1414,7 @@ impl RawSummary {
             image_len: r.get(7)?,
             image_crc: r.get(8)?,
             tool_version: r.get(9)?,
+            trace: RawTrace::from_row(r, 10)?,
         })
     }
 
@@ -923,6 +1427,7 @@ impl RawSummary {
             image_len: self.image_len.and_then(|n| u64::try_from(n).ok()),
             image_crc: decode_crc(path, c.id, self.image_crc)?,
             tool_version: self.tool_version,
+            trace: self.trace.decode(path, c.id)?,
             id: c.id,
             serial: self.common.serial,
             lot: self.common.lot,
@@ -939,6 +1444,7 @@ struct RawRecord {
     image: Option<Vec<u8>>,
     image_crc: Option<i64>,
     tool_version: String,
+    trace: RawTrace,
 }
 
 impl RawRecord {
@@ -951,6 +1457,7 @@ impl RawRecord {
             image: r.get(10)?,
             image_crc: r.get(11)?,
             tool_version: r.get(12)?,
+            trace: RawTrace::from_row(r, 13)?,
         })
     }
 
@@ -968,6 +1475,7 @@ impl RawRecord {
             image: self.image,
             image_crc,
             tool_version: self.tool_version,
+            trace: self.trace.decode(path, c.id)?,
             id: c.id,
             serial: self.common.serial,
             lot: self.common.lot,

@@ -46,7 +46,8 @@ mod tests {
             .zip(&models)
         {
             let (fit, mut reasons) = fit_unit(&unit, &plan).unwrap();
-            reasons.extend(judge(&fit, &unit, &plan));
+            reasons.extend(judge(&fit, &unit, &plan).iter().map(ToString::to_string));
+            reasons.extend(unit.errors.iter().map(ToString::to_string));
             let c = model.capacitance_f;
             let expected_b1 =
                 -(model.inductance_tempco + model.capacitor_tempco * c / (c + model.parasitic_f));
@@ -103,7 +104,7 @@ mod tests {
         crate::sim::level::write_level_rig_log("L", 4, 3, &mut log).unwrap();
         for unit in RigLogReader::new(log.as_slice(), Path::new("rig.csv")).unwrap() {
             let (fit, mut reasons) = fit_unit(&unit, &plan).unwrap();
-            reasons.extend(judge(&fit, &unit, &plan));
+            reasons.extend(judge(&fit, &unit, &plan).iter().map(ToString::to_string));
             assert!(reasons.is_empty(), "{}: {reasons:?}", unit.serial);
             assert!(fit.max_residual().unwrap() <= 10.0);
             assert!(fit.residuals.iter().any(|r| r.temp_c > 45.0));

@@ -279,7 +279,7 @@ pub struct Sensitivity {
 
 /// Acceptance limits. Every limit is optional; a unit passes when every
 /// given limit holds.
-#[derive(Clone, Debug, Default, PartialEq, Deserialize)]
+#[derive(Clone, Debug, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Limits {
     /// Rest frequency window, Hz.
@@ -288,11 +288,23 @@ pub struct Limits {
     pub q: Option<Range>,
     /// Sensitivity at a reference value.
     pub sensitivity: Option<Sensitivity>,
-    /// Largest |residual| at a rig point, output units (fixed-point path).
-    pub max_residual: Option<f64>,
+    /// Largest |residual| at a rig point through the firmware's own
+    /// (fixed-point) path, µm (of gap, or of level).
+    pub max_residual_um: Option<f64>,
     /// Largest interpolation error of the written curve against the fit,
-    /// output units.
-    pub max_curve_error: Option<f64>,
+    /// µm.
+    pub max_curve_error_um: Option<f64>,
+    /// Fewest output steps the calibrated range must span (largest curve
+    /// node value less the smallest), default 100: a range of a few steps
+    /// means the rig's targets were in another unit than logged.
+    #[serde(default = "default_min_range_steps")]
+    pub min_range_steps: u32,
+    /// Former key, in output units: refused with the new key's name.
+    #[serde(default)]
+    pub max_residual: Option<toml::Value>,
+    /// Former key, in output units: refused with the new key's name.
+    #[serde(default)]
+    pub max_curve_error: Option<toml::Value>,
     /// First-order drift coefficient window, ppm per kelvin.
     pub drift_ppm_per_k: Option<Range>,
     /// Largest standard error of the drift coefficient, ppm per kelvin.
@@ -306,6 +318,30 @@ pub struct Limits {
     /// Most bad rows tolerated (default 0).
     #[serde(default)]
     pub max_bad_rows: usize,
+}
+
+fn default_min_range_steps() -> u32 {
+    100
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits {
+            rest_frequency_hz: None,
+            q: None,
+            sensitivity: None,
+            max_residual_um: None,
+            max_curve_error_um: None,
+            min_range_steps: default_min_range_steps(),
+            max_residual: None,
+            max_curve_error: None,
+            drift_ppm_per_k: None,
+            max_drift_sigma_ppm_per_k: None,
+            monotonic: false,
+            min_steps: None,
+            max_bad_rows: 0,
+        }
+    }
 }
 
 /// The whole plan file.
@@ -344,7 +380,7 @@ pub enum PlanError {
         /// The parser's message, with line and column.
         message: String,
     },
-    /// A value is out of its range.
+    /// A value is out of its range; the message says what to do.
     #[error("{file}: `{key}`: {problem}")]
     Value {
         /// File.
@@ -451,6 +487,11 @@ impl Plan {
             }
             _ => {}
         }
+        check_limits(&plan.limits, p.output_step_m).map_err(|(key, problem)| PlanError::Value {
+            file: file.to_path_buf(),
+            key,
+            problem,
+        })?;
         if let Some(t) = plan.tank.as_mut() {
             if p.kind != Kind::Level {
                 return bad("tank", "only a level product takes a [tank] table".into());
@@ -466,9 +507,101 @@ impl Plan {
                     "nodes must be 2 … 64 and volume_step_m3 positive".into(),
                 );
             }
+            // The table is the same for every unit: a table the image
+            // cannot hold is the plan's fault, not 100 % failed units.
+            if let Err(e) = super::unit::volume_table(t, p.output_step_m) {
+                return bad(
+                    "tank.volume_step_m3",
+                    format!(
+                        "the tank's level → volume table cannot be written into an image ({e}); \
+                         make tank.volume_step_m3 larger (a coarser volume unit, e.g. 1e-5 m³ = 10 mL), \
+                         product.output_step_m smaller, or tank.nodes larger"
+                    ),
+                );
+            }
         }
         Ok(plan)
     }
+}
+
+/// Checks the acceptance limits: every number finite, windows with
+/// min ≤ max, maxima not negative. Returns the key and the problem.
+fn check_limits(l: &Limits, output_step_m: f64) -> Result<(), (&'static str, String)> {
+    let step_um = output_step_m * 1e6;
+    if l.max_residual.is_some() {
+        return Err((
+            "limits.max_residual",
+            format!(
+                "limits are given in physical units now: write limits.max_residual_um in micrometres \
+                 (one output unit of this plan is {step_um} µm, so multiply the old value by {step_um})"
+            ),
+        ));
+    }
+    if l.max_curve_error.is_some() {
+        return Err((
+            "limits.max_curve_error",
+            format!(
+                "limits are given in physical units now: write limits.max_curve_error_um in micrometres \
+                 (one output unit of this plan is {step_um} µm, so multiply the old value by {step_um})"
+            ),
+        ));
+    }
+    let finite = |key: &'static str, v: f64| {
+        if v.is_finite() {
+            Ok(())
+        } else {
+            Err((
+                key,
+                format!("{v} is not a finite number: give a number, or leave the limit out"),
+            ))
+        }
+    };
+    let not_negative = |key: &'static str, v: Option<f64>| match v {
+        Some(v) => {
+            finite(key, v)?;
+            if v < 0.0 {
+                Err((
+                    key,
+                    format!("{v} is negative: a largest value is 0 or more"),
+                ))
+            } else {
+                Ok(())
+            }
+        }
+        None => Ok(()),
+    };
+    let range = |key: &'static str, r: Option<Range>| match r {
+        Some(r) => {
+            if let Some(a) = r.min {
+                finite(key, a)?;
+            }
+            if let Some(b) = r.max {
+                finite(key, b)?;
+            }
+            match (r.min, r.max) {
+                (Some(a), Some(b)) if a > b => Err((
+                    key,
+                    format!("min {a} is above max {b}: no unit could pass; swap them"),
+                )),
+                _ => Ok(()),
+            }
+        }
+        None => Ok(()),
+    };
+    range("limits.rest_frequency_hz", l.rest_frequency_hz)?;
+    range("limits.q", l.q)?;
+    range("limits.drift_ppm_per_k", l.drift_ppm_per_k)?;
+    if let Some(s) = l.sensitivity {
+        finite("limits.sensitivity.at_mm", s.at_mm)?;
+        not_negative("limits.sensitivity.min_per_mm", Some(s.min_per_mm))?;
+    }
+    not_negative("limits.max_residual_um", l.max_residual_um)?;
+    not_negative("limits.max_curve_error_um", l.max_curve_error_um)?;
+    not_negative(
+        "limits.max_drift_sigma_ppm_per_k",
+        l.max_drift_sigma_ppm_per_k,
+    )?;
+    Ok(())
 }
 
 #[cfg(test)]
@@ -484,7 +617,7 @@ band_hz = [1_000_000, 20_000_000]
 
 [limits]
 rest_frequency_hz = { min = 5.3e6, max = 5.95e6 }
-max_residual = 15.0
+max_residual_um = 15.0
 monotonic = true
 "#;
 
@@ -519,5 +652,99 @@ monotonic = true
         )
         .unwrap_err();
         assert!(e.to_string().contains("[metal]"), "{e}");
+    }
+
+    /// Issue 14, defect 4: NaN limits passed every unit, min > max was
+    /// accepted. Each is now a configuration error naming the key.
+    #[test]
+    fn non_finite_and_inverted_limits_are_refused() {
+        let cases = [
+            (
+                "max_residual_um = 15.0",
+                "max_residual_um = nan",
+                "limits.max_residual_um",
+            ),
+            (
+                "max_residual_um = 15.0",
+                "max_residual_um = inf",
+                "limits.max_residual_um",
+            ),
+            (
+                "max_residual_um = 15.0",
+                "max_residual_um = -1.0",
+                "limits.max_residual_um",
+            ),
+            (
+                "max_residual_um = 15.0",
+                "sensitivity = { at_mm = 6.0, min_per_mm = nan }",
+                "limits.sensitivity.min_per_mm",
+            ),
+            (
+                "max_residual_um = 15.0",
+                "max_drift_sigma_ppm_per_k = nan",
+                "limits.max_drift_sigma_ppm_per_k",
+            ),
+            (
+                "min = 5.3e6, max = 5.95e6",
+                "min = 5.95e6, max = 5.3e6",
+                "limits.rest_frequency_hz",
+            ),
+            (
+                "min = 5.3e6, max = 5.95e6",
+                "min = nan, max = 5.3e6",
+                "limits.rest_frequency_hz",
+            ),
+            (
+                "max_residual_um = 15.0",
+                "max_residual = 15.0",
+                "limits.max_residual",
+            ),
+        ];
+        for (from, to, key) in cases {
+            let text = GOOD.replace(from, to);
+            assert_ne!(text, GOOD);
+            let e = Plan::parse(&text, Path::new("p.toml")).unwrap_err();
+            assert!(
+                matches!(&e, PlanError::Value { key: k, .. } if *k == key),
+                "{to}: {e}"
+            );
+            assert!(e.to_string().contains(key), "{e}");
+        }
+        // An unknown key in [limits] names itself.
+        let e = Plan::parse(
+            &GOOD.replace("monotonic = true", "max_residul_um = 3.0"),
+            Path::new("p.toml"),
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("max_residul_um"), "{e}");
+    }
+
+    /// Issue 14, defect 6: a volume table too steep for the fixed-point
+    /// path failed every unit with exit 0; it is now a plan error naming
+    /// the key and what to change.
+    #[test]
+    fn an_impossible_volume_table_is_a_plan_error() {
+        let level = std::fs::read_to_string(
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/data/demo-level-plan.toml"),
+        )
+        .unwrap();
+        Plan::parse(&level, Path::new("level.toml")).unwrap();
+        let steep = level.replace("volume_step_m3 = 1e-6", "volume_step_m3 = 1e-12");
+        assert_ne!(steep, level);
+        let e = Plan::parse(&steep, Path::new("level.toml")).unwrap_err();
+        assert!(
+            matches!(
+                &e,
+                PlanError::Value {
+                    key: "tank.volume_step_m3",
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        assert!(
+            e.to_string().contains("make tank.volume_step_m3 larger"),
+            "{e}"
+        );
     }
 }

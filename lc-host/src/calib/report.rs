@@ -14,7 +14,6 @@ pub fn write_lot_plots(
     report: &LotReport,
     plan: &Plan,
 ) -> std::io::Result<Vec<PathBuf>> {
-    let unit = unit_label(plan.product.output_step_m);
     std::fs::create_dir_all(dir)?;
     let l = &plan.limits;
     let lim = |r: Option<crate::calib::plan::Range>, k: f64| {
@@ -61,10 +60,10 @@ pub fn write_lot_plots(
                     "Lot {}: largest residual per unit (firmware path)",
                     report.lot
                 ),
-                Quantity::new("|residual|", &unit),
-                report.max_residual.values.iter().copied(),
+                Quantity::new("|residual|", "µm"),
+                report.max_residual_um.values.iter().copied(),
             )
-            .limits(None, l.max_residual),
+            .limits(None, l.max_residual_um),
         ),
         (
             "drift.svg",
@@ -126,7 +125,7 @@ pub fn write_unit_plot(
     let res: Vec<(f64, f64)> = fit
         .residuals
         .iter()
-        .map(|r| (r.target * step_mm, r.residual_fixed))
+        .map(|r| (r.target * step_mm, r.residual_fixed * step_mm * 1e3))
         .collect();
     let verdict = if out.passed { "pass" } else { "FAIL" };
     let plot = CurvePlot::new(
@@ -137,9 +136,9 @@ pub fn write_unit_plot(
     .line("curve written to the image", curve)
     .points("rig steps (compensated)", rig)
     .residuals(
-        Quantity::new("residual", unit_label(plan.product.output_step_m)),
+        Quantity::new("residual", "µm"),
         res,
-        plan.limits.max_residual,
+        plan.limits.max_residual_um,
     );
     let path = dir.join(format!("{}.svg", super::lot::file_stem(&out.serial)));
     write_bytes(&path, plot.render().as_bytes()).map_err(std::io::Error::other)?;

@@ -86,6 +86,8 @@ pub struct UnitFit {
     pub residuals: Vec<Residual>,
     /// Good rig steps used.
     pub steps: usize,
+    /// One raw output unit, metres (the plan's `product.output_step_m`).
+    pub output_step_m: f64,
     /// The calibration, when one could be built.
     #[serde(skip)]
     pub calibration: Option<Calibration>,
@@ -98,6 +100,19 @@ impl UnitFit {
             .iter()
             .map(|r| r.residual_fixed.abs())
             .reduce(f64::max)
+    }
+
+    /// Largest |residual| of the firmware path, µm.
+    pub fn max_residual_um(&self) -> Option<f64> {
+        self.max_residual().map(|r| r * self.output_step_m * 1e6)
+    }
+
+    /// How many output steps the written curve spans (its largest node
+    /// value less its smallest); `None` without a curve.
+    pub fn range_steps(&self) -> Option<f64> {
+        let lo = self.nodes.iter().map(|n| n.1).min()?;
+        let hi = self.nodes.iter().map(|n| n.1).max()?;
+        Some(f64::from(hi) - f64::from(lo))
     }
 }
 
@@ -437,6 +452,7 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
         nodes,
         residuals,
         steps: rows.len(),
+        output_step_m: step,
         calibration,
     };
     Ok((fit, reasons))
@@ -538,7 +554,7 @@ fn build_calibration(
         (Some(t), ReaderKind::Level) => match volume_table(t, p.output_step_m) {
             Ok(v) => Some(v),
             Err(e) => {
-                reasons.push(format!("volume table: {e}"));
+                reasons.push(e);
                 return None;
             }
         },
@@ -585,7 +601,7 @@ fn build_calibration(
 }
 
 /// The level → volume table of a plan's tank, for the image.
-fn volume_table(
+pub(crate) fn volume_table(
     tank: &super::plan::Tank,
     output_step_m: f64,
 ) -> Result<(Table, OutputScale), String> {

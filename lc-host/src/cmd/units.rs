@@ -2,7 +2,7 @@
 
 use anyhow::{bail, Context, Result};
 use lc_host::atomic::write_bytes;
-use lc_host::store::{AttemptResult, Filter, Order, Store};
+use lc_host::store::{AttemptResult, Filter, Order, Store, StoreError};
 use std::path::PathBuf;
 
 /// List, show and export unit records from the calibration database
@@ -18,7 +18,7 @@ use std::path::PathBuf;
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
-    /// Unit-record database
+    /// Unit-record database: an SQLite file or a postgres:// / postgresql:// URL (opened read-only)
     #[arg(long, default_value = "units.db", global = true)]
     db: PathBuf,
     #[command(subcommand)]
@@ -48,7 +48,9 @@ enum Action {
         #[arg(long)]
         json: bool,
     },
-    /// One attempt in full (the latest unless --attempt)
+    /// A unit's whole trail: every attempt with its plan hash, rig log name and hash,
+    /// station, operator, tool version and time, the plans' texts, and one attempt in full
+    /// (the latest unless --attempt)
     Show {
         /// Unit serial
         serial: String,
@@ -70,13 +72,17 @@ enum Action {
 }
 
 pub fn run(a: Args) -> Result<()> {
-    if !a.db.exists() {
+    if !a.db.to_str().is_some_and(lc_host::store::is_postgres_url) && !a.db.exists() {
         bail!(
             "{}: no unit-record database here; give --db, or run lc-host calibrate first",
             a.db.display()
         );
     }
-    let store = Store::open(&a.db)?;
+    // Reading only: a database on a read-only medium or folder works too.
+    let store = match Store::open_read_only(&a.db) {
+        Err(StoreError::ReadOnlyOldSchema { .. }) => Store::open(&a.db)?,
+        other => other?,
+    };
     match a.action {
         Action::List {
             lot,
@@ -154,10 +160,25 @@ pub fn run(a: Args) -> Result<()> {
                     attempt.map_or(String::new(), |n| format!(" attempt {n}"))
                 );
             };
+            let trail =
+                store.attempts(&Filter::default().serial(&serial).order(Order::BySerial))?;
+            let mut plans = serde_json::Map::new();
+            for t in trail.iter().filter_map(|t| t.trace.as_ref()) {
+                if !plans.contains_key(&t.plan_sha256) {
+                    let text = store.plan_text(&t.plan_sha256)?;
+                    plans.insert(t.plan_sha256.clone(), serde_json::json!(text));
+                }
+            }
             let v = serde_json::json!({
-                "serial": r.serial, "lot": r.lot, "attempt": r.attempt, "calibrated_at": r.calibrated_at,
-                "result": r.result.as_str(), "reasons": r.reasons, "params": r.params, "residuals": r.residuals,
-                "rig_points": r.rig_points, "image_bytes": r.image.as_ref().map(Vec::len), "tool_version": r.tool_version,
+                "serial": r.serial,
+                "attempts": trail,
+                "plans": plans,
+                "shown": {
+                    "lot": r.lot, "attempt": r.attempt, "calibrated_at": r.calibrated_at,
+                    "result": r.result.as_str(), "reasons": r.reasons, "params": r.params, "residuals": r.residuals,
+                    "rig_points": r.rig_points, "image_bytes": r.image.as_ref().map(Vec::len),
+                    "image_crc": r.image_crc, "tool_version": r.tool_version, "trace": r.trace,
+                },
             });
             println!("{}", serde_json::to_string_pretty(&v)?);
         }

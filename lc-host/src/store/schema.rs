@@ -52,11 +52,32 @@ CREATE TABLE attempts (
 CREATE INDEX attempts_by_lot ON attempts (lot, serial, attempt);
 ";
 
+/// Schema version 2: traceability. The plans a lot was judged against
+/// (full text, keyed by its SHA-256), and per attempt the plan's hash, the
+/// rig log's file name and SHA-256, the station and the operator. Attempts
+/// recorded under version 1 keep NULL in the new columns.
+const V2: &str = "
+CREATE TABLE plans (
+    sha256 TEXT NOT NULL PRIMARY KEY CHECK (length(sha256) = 64),
+    text   TEXT NOT NULL
+) STRICT;
+
+ALTER TABLE attempts ADD COLUMN plan_sha256 TEXT REFERENCES plans (sha256);
+ALTER TABLE attempts ADD COLUMN rig_file    TEXT;
+ALTER TABLE attempts ADD COLUMN rig_sha256  TEXT CHECK (rig_sha256 IS NULL OR length(rig_sha256) = 64);
+ALTER TABLE attempts ADD COLUMN station     TEXT;
+ALTER TABLE attempts ADD COLUMN operator    TEXT;
+
+-- Which units of a rig log were already judged against a plan (station
+-- re-runs skip them).
+CREATE INDEX attempts_by_rig ON attempts (rig_sha256, plan_sha256, serial);
+";
+
 /// Every migration in order: `MIGRATIONS[i]` takes version `i` to `i + 1`.
-pub(crate) const MIGRATIONS: &[&str] = &[V1];
+pub(crate) const MIGRATIONS: &[&str] = &[V1, V2];
 
 /// The schema version this build writes and understands.
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
 
 // `as usize` of a u32 is exact on every target Rust's std supports (≥ 32 bit).
 const _: () = assert!(MIGRATIONS.len() == SCHEMA_VERSION as usize);
@@ -125,11 +146,11 @@ pub(crate) fn migrate(
             }
         }
         let to = u32::try_from(from + 1).unwrap_or(u32::MAX);
-        let failed = |source| StoreError::Migration {
+        let failed = |source: rusqlite::Error| StoreError::Migration {
             path: path.to_path_buf(),
             from: to - 1,
             to,
-            source,
+            source: Box::new(source),
         };
         tx.execute_batch(sql).map_err(failed)?;
         tx.pragma_update(None, "user_version", i64::from(to))

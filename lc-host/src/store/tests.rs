@@ -19,10 +19,78 @@ use super::*;
 
 // ---------------------------------------------------------------- helpers
 
-/// A fresh folder under the system temp dir, removed on drop.
-struct TempDir(PathBuf);
+/// The back end a test runs on.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Backend {
+    Sqlite,
+    Postgres,
+}
+
+/// The PostgreSQL server of the tests: `LC_TEST_POSTGRES_URL` (set by
+/// `.ci/run` from `scripts/pg-test-server.sh`). Without it a test on
+/// PostgreSQL is skipped loudly on a developer machine and fails in CI.
+fn postgres_url() -> Option<String> {
+    match std::env::var("LC_TEST_POSTGRES_URL") {
+        Ok(url) if !url.is_empty() => Some(url),
+        _ if std::env::var("CI").is_ok_and(|v| v == "true") => {
+            panic!("LC_TEST_POSTGRES_URL is not set (CI=true): start the test server with scripts/pg-test-server.sh")
+        }
+        _ => {
+            eprintln!(
+                "SKIPPED on PostgreSQL: LC_TEST_POSTGRES_URL is not set; \
+                 run `eval \"$(bash scripts/pg-test-server.sh start)\"` first"
+            );
+            None
+        }
+    }
+}
+
+/// Generates one test per back end for each `fn NAME(b: Backend)`.
+macro_rules! on_both_backends {
+    ($($name:ident),* $(,)?) => {
+        mod on_sqlite {
+            $( #[test] fn $name() { super::$name(super::Backend::Sqlite) } )*
+        }
+        mod on_postgres {
+            $( #[test] fn $name() {
+                if super::postgres_url().is_some() {
+                    super::$name(super::Backend::Postgres)
+                }
+            } )*
+        }
+    };
+}
+
+/// A fresh folder under the system temp dir, removed on drop; on
+/// PostgreSQL also a fresh schema, dropped on drop.
+struct TempDir(PathBuf, Option<(String, String)>);
 
 impl TempDir {
+    /// A fresh database on `b`: [`TempDir::db`] names it.
+    fn on(b: Backend) -> TempDir {
+        let mut dir = TempDir::new();
+        if b == Backend::Postgres {
+            let url = postgres_url().expect("PostgreSQL test without a server");
+            let schema = format!(
+                "lc_test_{}",
+                dir.0
+                    .file_name()
+                    .unwrap()
+                    .to_string_lossy()
+                    .replace('-', "_")
+            );
+            let mut c = postgres::Client::connect(&url, postgres::NoTls).unwrap();
+            c.batch_execute(&format!("CREATE SCHEMA {schema}")).unwrap();
+            dir.1 = Some((url, schema));
+            dir.0.push("pg");
+        }
+        dir
+    }
+
+    fn is_postgres(&self) -> bool {
+        self.1.is_some()
+    }
+
     fn new() -> TempDir {
         static N: AtomicU32 = AtomicU32::new(0);
         let nanos = SystemTime::now()
@@ -34,15 +102,30 @@ impl TempDir {
             N.fetch_add(1, Ordering::Relaxed)
         ));
         std::fs::create_dir_all(&dir).unwrap();
-        TempDir(dir)
+        TempDir(dir, None)
     }
+
+    /// The database: an SQLite file, or a PostgreSQL URL whose search path
+    /// is the test's own schema.
     fn db(&self) -> PathBuf {
-        self.0.join("units.sqlite")
+        match &self.1 {
+            None => self.0.join("units.sqlite"),
+            Some((url, schema)) => {
+                let sep = if url.contains('?') { '&' } else { '?' };
+                PathBuf::from(format!("{url}{sep}options=-csearch_path%3D{schema}"))
+            }
+        }
     }
 }
 
 impl Drop for TempDir {
     fn drop(&mut self) {
+        if let Some((url, schema)) = &self.1 {
+            if let Ok(mut c) = postgres::Client::connect(url, postgres::NoTls) {
+                let _ = c.batch_execute(&format!("DROP SCHEMA {schema} CASCADE"));
+            }
+            self.0.pop();
+        }
         let _ = std::fs::remove_dir_all(&self.0);
     }
 }
@@ -158,6 +241,7 @@ fn synthetic(rng: &mut Rng, serial: &str, lot: &str, pass: bool) -> NewAttempt {
         rig_points: Value::Array(rig_points),
         image: pass.then(|| image.clone()),
         image_crc: pass.then_some(image_crc),
+        trace: None,
     }
 }
 
@@ -172,6 +256,7 @@ fn fail(serial: &str, lot: &str, reason: &str) -> NewAttempt {
         rig_points: json!([{"step": 0, "cycles": 16384, "ticks": 138257}]),
         image: None,
         image_crc: None,
+        trace: None,
     }
 }
 
@@ -209,12 +294,47 @@ fn schema_dump(conn: &Connection) -> Vec<(String, String, Option<String>)> {
     rows.map(Result::unwrap).collect()
 }
 
+/// Runs a query of one text value on the test's database, either back end.
+fn sql_text(dir: &TempDir) -> impl FnMut(&str) -> String {
+    enum C {
+        S(Connection),
+        P(Box<postgres::Client>, String),
+    }
+    let mut c = match &dir.1 {
+        None => C::S(raw(&dir.db())),
+        Some((url, schema)) => C::P(
+            Box::new(postgres::Client::connect(url, postgres::NoTls).unwrap()),
+            schema.clone(),
+        ),
+    };
+    move |sql| match &mut c {
+        C::S(c) => c.query_row(sql, [], |r| r.get(0)).unwrap(),
+        C::P(c, schema) => {
+            c.batch_execute(&format!("SET search_path = {schema}"))
+                .unwrap();
+            c.query_one(sql, &[]).unwrap().get(0)
+        }
+    }
+}
+
+/// One stored attempt in full, as text (PostgreSQL's stand-in for the raw
+/// row: every field the store reads back).
+fn store_row(db: &Path, serial: &str, attempt: u32) -> String {
+    format!(
+        "{:?}",
+        Store::open(db)
+            .unwrap()
+            .attempt(serial, Some(attempt))
+            .unwrap()
+    )
+}
+
 /// Every column of one attempt row, as SQLite stores it.
 fn raw_row(conn: &Connection, serial: &str, attempt: u32) -> Vec<rusqlite::types::Value> {
     conn.query_row(
         "SELECT * FROM attempts WHERE serial = ?1 AND attempt = ?2",
         params![serial, attempt],
-        |r| (0..13).map(|i| r.get(i)).collect(),
+        |r| (0..18).map(|i| r.get(i)).collect(),
     )
     .unwrap()
 }
@@ -262,12 +382,12 @@ fn open_creates_schema_on_a_new_file() {
     let store = Store::open(dir.db()).unwrap();
     assert_eq!(store.path(), dir.db());
     let fk: i64 = store
-        .conn
+        .sqlite()
         .pragma_query_value(None, "foreign_keys", |r| r.get(0))
         .unwrap();
     assert_eq!(fk, 1);
     let sync: i64 = store
-        .conn
+        .sqlite()
         .pragma_query_value(None, "synchronous", |r| r.get(0))
         .unwrap();
     assert_eq!(sync, 1, "synchronous = NORMAL");
@@ -292,7 +412,7 @@ fn open_migrates_an_empty_existing_file() {
     std::fs::write(dir.db(), b"").unwrap();
     let mut store = Store::open(dir.db()).unwrap();
     store.record(&fail("A1", "L1", "too far")).unwrap();
-    assert_eq!(user_version(&raw(&dir.db())), 1);
+    assert_eq!(user_version(&raw(&dir.db())), i64::from(SCHEMA_VERSION));
 }
 
 #[test]
@@ -409,9 +529,8 @@ fn a_failed_migration_rolls_back_to_the_version_before() {
 
 // ---------------------------------------------------------------- recording
 
-#[test]
-fn record_returns_what_is_stored() {
-    let dir = TempDir::new();
+fn record_returns_what_is_stored(b: Backend) {
+    let dir = TempDir::on(b);
     let mut store = Store::open(dir.db()).unwrap();
     let mut rng = Rng(7);
     let a = synthetic(&mut rng, "DEMO-01-0007", "DEMO-01", true);
@@ -430,27 +549,36 @@ fn record_returns_what_is_stored() {
     assert!(json_close(&back.rig_points, &a.rig_points));
     assert!(json_close(&back.residuals, &a.residuals));
     // The stored JSON text is exactly serde_json's text of the input.
+    if dir.is_postgres() {
+        return;
+    }
     let text: String = raw(&dir.db())
         .query_row("SELECT params FROM attempts", [], |r| r.get(0))
         .unwrap();
     assert_eq!(text, serde_json::to_string(&a.params).unwrap());
 }
 
-#[test]
-fn recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte() {
-    let dir = TempDir::new();
+fn recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte(b: Backend) {
+    let dir = TempDir::on(b);
     let mut store = Store::open(dir.db()).unwrap();
     let mut rng = Rng(11);
     let first = store
         .record(&synthetic(&mut rng, "DEMO-01-0003", "DEMO-01", false))
         .unwrap();
-    let before = raw_row(&raw(&dir.db()), "DEMO-01-0003", 1);
+    let row = |dir: &TempDir| {
+        if dir.is_postgres() {
+            let r = store_row(&dir.db(), "DEMO-01-0003", 1);
+            return vec![rusqlite::types::Value::Text(r)];
+        }
+        raw_row(&raw(&dir.db()), "DEMO-01-0003", 1)
+    };
+    let before = row(&dir);
     let second = store
         .record(&synthetic(&mut rng, "DEMO-01-0003", "DEMO-01", true))
         .unwrap();
     assert_eq!((first.attempt, second.attempt), (1, 2));
     assert!(second.id > first.id);
-    assert_eq!(raw_row(&raw(&dir.db()), "DEMO-01-0003", 1), before);
+    assert_eq!(row(&dir), before);
     assert_eq!(
         store
             .attempt("DEMO-01-0003", None)
@@ -465,9 +593,8 @@ fn recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte() {
     );
 }
 
-#[test]
-fn attempts_are_numbered_per_serial_across_lots() {
-    let dir = TempDir::new();
+fn attempts_are_numbered_per_serial_across_lots(b: Backend) {
+    let dir = TempDir::on(b);
     let mut store = Store::open(dir.db()).unwrap();
     let n = |s: &mut Store, serial, lot| s.record(&fail(serial, lot, "too far")).unwrap().attempt;
     assert_eq!(n(&mut store, "A1", "L1"), 1);
@@ -477,9 +604,8 @@ fn attempts_are_numbered_per_serial_across_lots() {
     assert_eq!(n(&mut store, "B1", "L1"), 2);
 }
 
-#[test]
-fn invalid_attempts_are_refused_and_nothing_is_written() {
-    let dir = TempDir::new();
+fn invalid_attempts_are_refused_and_nothing_is_written(b: Backend) {
+    let dir = TempDir::on(b);
     let mut store = Store::open(dir.db()).unwrap();
     let ok = pass("A1", "L1", b"image bytes");
     let cases: Vec<(NewAttempt, &str)> = vec![
@@ -591,8 +717,8 @@ fn invalid_attempts_are_refused_and_nothing_is_written() {
         assert!(msg.contains(want), "{msg:?} should say {want:?}");
         assert!(msg.contains(&dir.db().display().to_string()), "{msg}");
     }
-    let conn = raw(&dir.db());
-    assert_eq!((count(&conn, "attempts"), count(&conn, "lots")), (0, 0));
+    assert!(store.attempts(&Filter::default()).unwrap().is_empty());
+    assert!(store.lots().unwrap().is_empty());
     store.record(&ok).unwrap();
 }
 
@@ -641,9 +767,8 @@ fn the_schema_itself_refuses_incomplete_rows() {
     }
 }
 
-#[test]
-fn concurrent_writers_number_attempts_without_gaps() {
-    let dir = TempDir::new();
+fn concurrent_writers_number_attempts_without_gaps(b: Backend) {
+    let dir = TempDir::on(b);
     drop(Store::open(dir.db()).unwrap());
     let writers: Vec<_> = (0..3_u64)
         .map(|w| {
@@ -702,9 +827,8 @@ fn keys(list: &[AttemptSummary]) -> Vec<(&str, u32)> {
         .collect()
 }
 
-#[test]
-fn filters_select_and_order_attempts() {
-    let dir = TempDir::new();
+fn filters_select_and_order_attempts(b: Backend) {
+    let dir = TempDir::on(b);
     let store = sample_store(&dir);
     let list = |f: Filter| store.attempts(&f).unwrap();
 
@@ -780,9 +904,8 @@ fn filters_select_and_order_attempts() {
     assert_eq!(a3.reasons, ["drift too large"]);
 }
 
-#[test]
-fn attempt_and_image_take_a_number_or_the_latest() {
-    let dir = TempDir::new();
+fn attempt_and_image_take_a_number_or_the_latest(b: Backend) {
+    let dir = TempDir::on(b);
     let store = sample_store(&dir);
     assert_eq!(store.attempt("A1", None).unwrap().unwrap().attempt, 3);
     assert_eq!(store.attempt("A1", Some(2)).unwrap().unwrap().lot, "L1");
@@ -805,9 +928,8 @@ fn attempt_and_image_take_a_number_or_the_latest() {
     assert_eq!(store.image("nobody", None).unwrap(), None);
 }
 
-#[test]
-fn lots_count_units_outcomes_and_yield() {
-    let dir = TempDir::new();
+fn lots_count_units_outcomes_and_yield(b: Backend) {
+    let dir = TempDir::on(b);
     let store = sample_store(&dir);
     let lots = store.lots().unwrap();
     assert_eq!(
@@ -835,7 +957,7 @@ fn serial_and_lot_lookups_use_an_index() {
     let store = sample_store(&dir);
     let plan = |sql: &str| -> String {
         let mut s = store
-            .conn
+            .sqlite()
             .prepare(&format!("EXPLAIN QUERY PLAN {sql}"))
             .unwrap();
         let rows = s.query_map(["x"], |r| r.get::<_, String>(3)).unwrap();
@@ -854,16 +976,24 @@ fn serial_and_lot_lookups_use_an_index() {
     assert!(by_lot.contains("USING INDEX attempts_by_lot"), "{by_lot}");
 }
 
-#[test]
-fn a_damaged_image_is_reported_as_corrupt() {
-    let dir = TempDir::new();
+fn a_damaged_image_is_reported_as_corrupt(b: Backend) {
+    let dir = TempDir::on(b);
     let store = sample_store(&dir);
-    raw(&dir.db())
-        .execute(
-            "UPDATE attempts SET image = zeroblob(length(image)) WHERE serial = 'A2'",
-            [],
-        )
+    if dir.is_postgres() {
+        let (url, schema) = dir.1.clone().unwrap();
+        let mut c = postgres::Client::connect(&url, postgres::NoTls).unwrap();
+        c.batch_execute(&format!(
+            "UPDATE {schema}.attempts SET image = decode(repeat('00', length(image)), 'hex') WHERE serial = 'A2'"
+        ))
         .unwrap();
+    } else {
+        raw(&dir.db())
+            .execute(
+                "UPDATE attempts SET image = zeroblob(length(image)) WHERE serial = 'A2'",
+                [],
+            )
+            .unwrap();
+    }
     for err in [
         store.image("A2", None).unwrap_err(),
         store.attempt("A2", None).unwrap_err(),
@@ -878,15 +1008,14 @@ fn a_damaged_image_is_reported_as_corrupt() {
             ),
             "{err:?}"
         );
-        assert!(err.to_string().contains("integrity_check"), "{err}");
+        assert!(err.to_string().contains("damaged"), "{err}");
     }
 }
 
 // ---------------------------------------------------------------- names and JSON
 
-#[test]
-fn sql_in_names_is_stored_as_text() {
-    let dir = TempDir::new();
+fn sql_in_names_is_stored_as_text(b: Backend) {
+    let dir = TempDir::on(b);
     let mut store = Store::open(dir.db()).unwrap();
     let serial = "x'); DROP TABLE attempts; --";
     let lot = "\"L1\" OR 1=1; --";
@@ -912,9 +1041,8 @@ fn name() -> impl Strategy<Value = String> {
 /// Arbitrary serials and lots (quotes, Unicode, SQL) round-trip exactly, or
 /// are refused as invalid when they break the naming rules; attempt numbers
 /// keep counting per serial.
-#[test]
-fn arbitrary_names_round_trip_exactly() {
-    let dir = TempDir::new();
+fn arbitrary_names_round_trip_exactly(b: Backend) {
+    let dir = TempDir::on(b);
     let store = std::cell::RefCell::new(Store::open(dir.db()).unwrap());
     let seen = std::cell::RefCell::new(BTreeMap::<String, u32>::new());
     let mut runner = TestRunner::new(Config::with_cases(256));
@@ -948,7 +1076,7 @@ fn arbitrary_names_round_trip_exactly() {
         })
         .unwrap();
     assert_eq!(
-        count(&raw(&dir.db()), "lots") > 0,
+        !Store::open(dir.db()).unwrap().lots().unwrap().is_empty(),
         !seen.borrow().is_empty()
     );
 }
@@ -1009,11 +1137,10 @@ fn json_close(a: &Value, b: &Value) -> bool {
 
 /// Arbitrary JSON payloads are stored as exactly serde_json's text and read
 /// back equal (floats to the last bit with `float_roundtrip`).
-#[test]
-fn arbitrary_json_payloads_round_trip() {
-    let dir = TempDir::new();
+fn arbitrary_json_payloads_round_trip(b: Backend) {
+    let dir = TempDir::on(b);
     let store = std::cell::RefCell::new(Store::open(dir.db()).unwrap());
-    let conn = raw(&dir.db());
+    let text_of = std::cell::RefCell::new(sql_text(&dir));
     let mut runner = TestRunner::new(Config::with_cases(128));
     let strategy = (
         prop::collection::btree_map(any::<String>(), json_value(), 0..6),
@@ -1044,11 +1171,10 @@ fn arbitrary_json_payloads_round_trip() {
             ] {
                 prop_assert!(json_close(got, want), "{got} != {want}");
             }
-            let text: String = conn
-                .query_row("SELECT params FROM attempts WHERE id = ?1", [rec.id], |r| {
-                    r.get(0)
-                })
-                .unwrap();
+            let text = (text_of.borrow_mut())(&format!(
+                "SELECT params FROM attempts WHERE id = {}",
+                rec.id
+            ));
             prop_assert_eq!(text, serde_json::to_string(&a.params).unwrap());
             Ok(())
         })
@@ -1291,3 +1417,144 @@ fn insert_throughput() {
     );
     assert_eq!(check_complete(&dir.db()), n);
 }
+
+// ---------------------------------------------------------------- groups and traceability
+
+fn trace(plan: &str, rig: &str) -> Trace {
+    Trace {
+        plan_sha256: sha256_hex(plan.as_bytes()),
+        rig_file: "rig.csv".into(),
+        rig_sha256: sha256_hex(rig.as_bytes()),
+        station: "EOL-2".into(),
+        operator: "jm".into(),
+    }
+}
+
+/// A group is one transaction: its attempts are numbered in order (a
+/// serial twice in one group gets two numbers), an invalid attempt in the
+/// middle is refused alone, and the others are recorded.
+fn a_group_commits_its_valid_attempts_in_order(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    store.record(&fail("A1", "L1", "first")).unwrap();
+    let group = [
+        fail("A1", "L1", "second"),
+        NewAttempt {
+            serial: " bad".into(),
+            ..fail("X", "L1", "r")
+        },
+        pass("A2", "L2", b"A2 image"),
+        fail("A1", "L1", "third"),
+    ];
+    let out = store.record_batch(&group).unwrap();
+    assert_eq!(out.len(), 4);
+    assert_eq!(out[0].as_ref().unwrap().attempt, 2);
+    assert!(matches!(out[1], Err(StoreError::InvalidAttempt { .. })));
+    assert_eq!(out[2].as_ref().unwrap().attempt, 1);
+    assert_eq!(out[3].as_ref().unwrap().attempt, 3);
+    let ids: Vec<i64> = [0, 2, 3]
+        .iter()
+        .map(|&i| out[i].as_ref().unwrap().id)
+        .collect();
+    assert!(ids.windows(2).all(|w| w[0] < w[1]), "{ids:?}");
+    let all = store.attempts(&Filter::default()).unwrap();
+    assert_eq!(all.len(), 4);
+    assert_eq!(store.lots().unwrap().len(), 2);
+    assert_eq!(
+        store.attempt("A1", Some(3)).unwrap().unwrap().reasons,
+        ["third"]
+    );
+}
+
+/// Traceability: the plan's text is kept once by hash, every attempt names
+/// plan, rig log, station and operator, and `recorded_from` finds the units
+/// of a rig log judged against a plan.
+fn traceability_round_trips(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    let plan_a = "[product]\nkind = \"proximity\"\n";
+    let plan_b = "[product]\nkind = \"level\"\n";
+    let sha_a = store.register_plan(plan_a).unwrap();
+    assert_eq!(store.register_plan(plan_a).unwrap(), sha_a);
+    let sha_b = store.register_plan(plan_b).unwrap();
+    assert_eq!(sha_a, sha256_hex(plan_a.as_bytes()));
+    assert_eq!(store.plan_text(&sha_a).unwrap().as_deref(), Some(plan_a));
+    assert_eq!(store.plan_text(&"0".repeat(64)).unwrap(), None);
+    let t = trace(plan_a, "rig 1");
+    for serial in ["A1", "A2"] {
+        store
+            .record(&NewAttempt {
+                trace: Some(t.clone()),
+                ..fail(serial, "L1", "r")
+            })
+            .unwrap();
+    }
+    store
+        .record(&NewAttempt {
+            trace: Some(trace(plan_b, "rig 1")),
+            ..fail("A1", "L1", "r")
+        })
+        .unwrap();
+    store.record(&fail("A3", "L1", "no trace")).unwrap();
+    let rec = store.attempt("A1", Some(1)).unwrap().unwrap();
+    assert_eq!(rec.trace.as_ref(), Some(&t));
+    let listed = store.attempts(&Filter::default().serial("A1")).unwrap();
+    assert_eq!(listed.len(), 2);
+    assert!(listed.iter().all(|a| a.trace.is_some()));
+    assert_eq!(store.attempt("A3", None).unwrap().unwrap().trace, None);
+    let from_a = store.recorded_from(&t.rig_sha256, &sha_a).unwrap();
+    assert_eq!(from_a.len(), 2);
+    assert_eq!((from_a["A1"], from_a["A2"]), (1, 1));
+    let from_b = store.recorded_from(&t.rig_sha256, &sha_b).unwrap();
+    assert_eq!(from_b.len(), 1);
+    assert_eq!(from_b["A1"], 2);
+    // A hash that is not one, and a plan never registered, are refused.
+    let err = store
+        .record(&NewAttempt {
+            trace: Some(Trace {
+                rig_sha256: "not hex".into(),
+                ..t.clone()
+            }),
+            ..fail("A4", "L1", "r")
+        })
+        .unwrap_err();
+    assert!(err.to_string().contains("trace.rig_sha256"), "{err}");
+    assert!(store
+        .record(&NewAttempt {
+            trace: Some(trace("never registered", "rig")),
+            ..fail("A4", "L1", "r")
+        })
+        .is_err());
+    assert!(store.attempt("A4", None).unwrap().is_none());
+}
+
+/// A read-only store reads everything and writes nothing.
+fn a_read_only_store_reads_and_refuses_writes(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    store.record(&pass("A1", "L1", b"img")).unwrap();
+    drop(store);
+    let mut ro = Store::open_read_only(dir.db()).unwrap();
+    assert_eq!(ro.attempts(&Filter::default()).unwrap().len(), 1);
+    assert_eq!(ro.image("A1", None).unwrap().as_deref(), Some(&b"img"[..]));
+    assert!(ro.record(&fail("A2", "L1", "r")).is_err());
+    assert_eq!(ro.lots().unwrap()[0].attempts, 1);
+}
+
+on_both_backends!(
+    record_returns_what_is_stored,
+    recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte,
+    attempts_are_numbered_per_serial_across_lots,
+    invalid_attempts_are_refused_and_nothing_is_written,
+    concurrent_writers_number_attempts_without_gaps,
+    filters_select_and_order_attempts,
+    attempt_and_image_take_a_number_or_the_latest,
+    lots_count_units_outcomes_and_yield,
+    sql_in_names_is_stored_as_text,
+    arbitrary_names_round_trip_exactly,
+    arbitrary_json_payloads_round_trip,
+    a_damaged_image_is_reported_as_corrupt,
+    a_group_commits_its_valid_attempts_in_order,
+    traceability_round_trips,
+    a_read_only_store_reads_and_refuses_writes,
+);

@@ -1,0 +1,66 @@
+#!/usr/bin/env bash
+# Station throughput: `lc-host calibrate` of one simulated lot, database
+# writes and image files included, on SQLite and (when a server is given)
+# on PostgreSQL. Prints units per second of each run; docs/performance.md
+# ("Station throughput") records a run. No figure is asserted anywhere.
+#
+#   bash benches/station/throughput.sh [UNITS] [RUNS]   (default 10 000, 3)
+#
+# Needs GNU time (/usr/bin/time, Debian package "time") and bc.
+# PostgreSQL: set LC_TEST_POSTGRES_URL (as .ci/run exports it) to also
+# measure against that server; each run uses a fresh database schema.
+set -euo pipefail
+cd "$(dirname "$0")/../.."
+units=${1:-10000}
+runs=${2:-3}
+work=${TMPDIR:-/tmp}/lc-station-bench
+rm -rf "$work"
+mkdir -p "$work"
+cargo build --release -q -p lc-host
+bin=$PWD/target/release/lc-host
+plan=examples/data/demo-plan.toml
+
+"$bin" simulate rig --lot BENCH --units "$units" --seed 11 -o "$work/rig.csv"
+echo "rig log: $units units, $(($(wc -l < "$work/rig.csv") - 2)) rows, $(du -h "$work/rig.csv" | cut -f1)"
+echo "cores: $(nproc); load before: $(cut -d' ' -f1-3 /proc/loadavg)"
+
+# Wall time and the process's CPU time (user + system, all threads): on a
+# machine shared with other work the wall time measures the share it got,
+# the CPU time what the run cost.
+one() { # label, db, extra args...
+    local label=$1 db=$2; shift 2
+    rm -rf "$work/img"
+    local code=0
+    /usr/bin/time -f "%e %U %S" -o "$work/time.txt" \
+        "$bin" calibrate "$work/rig.csv" --plan "$plan" --lot BENCH --db "$db" \
+        --images "$work/img" "$@" > /dev/null 2> "$work/err.txt" || code=$?
+    if [ "$code" -gt 1 ]; then
+        echo "error: calibrate exited $code" >&2
+        cat "$work/err.txt" >&2
+        exit 1
+    fi
+    read -r wall user sys < "$work/time.txt"
+    printf '%-36s %7.2f s wall %8.0f units/s   cpu %6.2f s (%.0f units per cpu-second)   load %s\n' \
+        "$label" "$wall" "$(echo "$units / $wall" | bc -l)" "$(echo "$user + $sys" | bc -l)" \
+        "$(echo "$units / ($user + $sys)" | bc -l)" "$(cut -d' ' -f1 /proc/loadavg)"
+}
+
+for r in $(seq 1 "$runs"); do
+    rm -f "$work"/units.db*
+    one "sqlite, groups of 256 (run $r)" "$work/units.db"
+done
+rm -f "$work"/units.db*
+one "sqlite, one unit per transaction" "$work/units.db" --group-units 1
+
+if [ -n "${LC_TEST_POSTGRES_URL:-}" ]; then
+    for r in $(seq 1 "$runs"); do
+        schema="lc_bench_$$_$r"
+        url="$LC_TEST_POSTGRES_URL"
+        case "$url" in *\?*) url="$url&options=-csearch_path%3D$schema" ;; *) url="$url?options=-csearch_path%3D$schema" ;; esac
+        psql -q "$LC_TEST_POSTGRES_URL" -c "CREATE SCHEMA $schema" > /dev/null
+        one "postgresql, groups of 256 (run $r)" "$url"
+        psql -q "$LC_TEST_POSTGRES_URL" -c "SET client_min_messages = warning; DROP SCHEMA $schema CASCADE" > /dev/null
+    done
+else
+    echo "postgresql: skipped (set LC_TEST_POSTGRES_URL)"
+fi
