@@ -7,9 +7,9 @@
 use crate::budget::{budget, class1_tempco_ppm_per_k, to_text as budget_text, BudgetInput, Gating};
 use crate::calib::lot::calibrate_lot;
 use crate::calib::plan::Plan;
-use crate::calib::report::{write_lot_plots, write_unit_plot};
 use crate::convert::{convert_log, Converter};
 use crate::fieldlog::FieldLogReader;
+use crate::report::{rows::Traceability, ReportWriter};
 use crate::riglog::RigLogReader;
 use crate::sim::field::{write_field_log, Fault, FaultKind, FieldSpec};
 use crate::sim::rig::{units, write_rig_log, LotSpec};
@@ -59,14 +59,22 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let images = out.join("images");
     std::fs::create_dir_all(&images)?;
     let report_dir = out.join("report");
+    let mut trace = Traceability::now().with_rig_log(&rig);
+    trace.plan = Some((
+        "demo-plan.toml (built in; examples/data/demo-plan.toml)".into(),
+        lc_core::image::CRC32.checksum(PLAN.as_bytes()),
+    ));
+    let mut html = ReportWriter::new(&report_dir, "DEMO-01", &plan, trace, 24)?;
+    let mut page_error = None;
     let reader = RigLogReader::new(std::fs::File::open(&rig)?, &rig)?;
-    let mut plotted = 0;
     let lot = calibrate_lot(reader, "DEMO-01", &plan, &mut store, Some(&images), |o| {
-        if plotted < 24 && write_unit_plot(&report_dir.join("units"), o, &plan).is_ok() {
-            plotted += 1;
+        if let Err(e) = html.add(o) {
+            page_error.get_or_insert(e);
         }
     })?;
-    write_lot_plots(&report_dir, &lot, &plan)?;
+    if let Some(e) = page_error {
+        return Err(e.into());
+    }
     writeln!(
         say,
         "2. Calibrated: {} of {} units pass (yield {:.0} %); images in {}, records in {}, plots in {}",
@@ -155,7 +163,7 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
                 let t = c.time_s.unwrap_or(0.0);
                 if matches!(c.reading.status, lc_core::reader::Status::SensorFault(_)) {
                     faults.push(t);
-                } else if t < 60.0 {
+                } else {
                     trace.push((t, f64::from(c.reading.value)));
                 }
                 if let Some(v) = c.value_f64 {
@@ -165,12 +173,19 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         )
     })?;
     let plot = TracePlot::new(
-        "DEMO-01-0007 on the press: the first minute",
+        "DEMO-01-0007 on the press: two hours warming 25 → 45 °C",
         Quantity::new("gap", "µm"),
         "firmware reading",
         trace,
-    );
-    crate::atomic::write_bytes(&report_dir.join("trace.svg"), plot.render().as_bytes())?;
+    )
+    .faults(faults);
+    html.figure(
+        "trace.svg",
+        "DEMO-01-0007 logged on the press for two hours (field.csv through its image); \
+         vertical lines: readings flagged as sensor faults (open coil at 1 800 s, dropouts from 3 600 s, stuck counter at 5 400 s)",
+        &plot.render(),
+    )?;
+    let index = html.finish(&lot)?;
     writeln!(
         say,
         "5. Converted with the firmware's own arithmetic: {} ok, {} out of range or no target, {} sensor faults flagged; fixed vs f64 at most {:.3} µm: {}",
@@ -224,14 +239,29 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         crate::sim::level::write_level_rig_log("TANK-01", 8, 1, w)
     })?;
     let reader = RigLogReader::new(std::fs::File::open(&level_rig)?, &level_rig)?;
+    let tank_dir = out.join("report-tank");
+    let mut trace = Traceability::now().with_rig_log(&level_rig);
+    trace.plan = Some((
+        "demo-level-plan.toml (built in; examples/data/demo-level-plan.toml)".into(),
+        lc_core::image::CRC32.checksum(LEVEL_PLAN.as_bytes()),
+    ));
+    let mut tank_html = ReportWriter::new(&tank_dir, "TANK-01", &level_plan, trace, 8)?;
     let level_lot = calibrate_lot(
         reader,
         "TANK-01",
         &level_plan,
         &mut store,
         Some(&images),
-        |_| {},
+        |o| {
+            if let Err(e) = tank_html.add(o) {
+                page_error.get_or_insert(e);
+            }
+        },
     )?;
+    if let Some(e) = page_error {
+        return Err(e.into());
+    }
+    let tank_index = tank_html.finish(&level_lot)?;
     writeln!(
         say,
         "8. Coolant tank (horizontal cylinder, 400 mm): {} of {} level probes calibrated at 25 °C and 50 °C, each with its reference electrode and the tank's volume table",
@@ -270,6 +300,11 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             crate::convert::status_name(r.status)
         )?;
     }
-    writeln!(say, "\nDone. Open {} in a browser for the lot's histograms, each unit's curve and the press trace.", report_dir.display())?;
+    writeln!(say, "   report: {}", tank_index.display())?;
+    writeln!(
+        say,
+        "\nDone. Open {} in a browser: the lot's yield, limits, failures by reason, histograms, the press trace, and a certificate page per unit.",
+        index.display()
+    )?;
     Ok(())
 }

@@ -4,7 +4,7 @@ use super::open_input;
 use anyhow::{Context, Result};
 use lc_host::calib::lot::{calibrate_lot, LotReport};
 use lc_host::calib::plan::Plan;
-use lc_host::calib::report::{write_lot_plots, write_unit_plot};
+use lc_host::report::{rows::Traceability, ReportWriter};
 use lc_host::riglog::RigLogReader;
 use lc_host::store::Store;
 use std::io::{BufRead, IsTerminal};
@@ -18,7 +18,9 @@ use std::path::{Path, PathBuf};
 /// and judges the unit against the plan's acceptance limits. Every attempt, pass or fail,
 /// becomes a unit record in the database (one transaction per unit: an interrupted run
 /// loses nothing it committed); each passing unit's calibration image is written to the
-/// images folder. Prints the lot's yield and distributions; --report writes SVG plots.
+/// images folder. Prints the lot's yield and distributions; --report writes the lot report: an offline
+/// index.html (summary, limits, failures by reason, histograms, one row per unit) and a
+/// printable certificate page per unit, with SVG plots.
 ///
 /// Not a safety-rated component: a calibrated unit is no safety function by itself.
 ///
@@ -44,10 +46,10 @@ pub struct Args {
     /// Folder for the passing units' calibration images
     #[arg(long, default_value = "images")]
     images: PathBuf,
-    /// Folder for the SVG report (lot histograms, unit curves)
+    /// Folder for the lot report (index.html, a page per unit, SVG plots)
     #[arg(long)]
     report: Option<PathBuf>,
-    /// Most unit curve plots in the report (failed units first)
+    /// Most units whose plots the report draws (failed units first); every unit gets its page
     #[arg(long, default_value_t = 100)]
     max_unit_plots: usize,
     /// Print the lot report as JSON on standard output
@@ -158,10 +160,25 @@ pub fn run(a: Args) -> Result<()> {
         }
         _ => super::spinner("{spinner} {pos} units ({per_sec}) {msg}"),
     };
-    let unit_dir = a.report.as_ref().map(|d| d.join("units"));
-    let mut plotted_fail = 0usize;
-    let mut plotted = 0usize;
-    let mut plot_error = None;
+    let mut html = match &a.report {
+        Some(dir) => {
+            let trace = Traceability::now().with_plan(&a.plan);
+            let trace = if a.rig_log.as_os_str() == "-" {
+                trace
+            } else {
+                trace.with_rig_log(&a.rig_log)
+            };
+            Some(ReportWriter::new(
+                dir,
+                &a.lot,
+                &plan,
+                trace,
+                a.max_unit_plots,
+            )?)
+        }
+        None => None,
+    };
+    let mut page_error = None;
     let report = calibrate_lot(reader, &a.lot, &plan, &mut store, Some(&a.images), |out| {
         bar.inc(1);
         bar.set_message(format!(
@@ -169,38 +186,17 @@ pub fn run(a: Args) -> Result<()> {
             out.serial,
             if out.passed { "pass" } else { "fail" }
         ));
-        if let Some(dir) = &unit_dir {
-            // Failed units first: keep room for them within the cap.
-            let room_for_passes = a.max_unit_plots.saturating_sub(a.max_unit_plots / 2);
-            let take = if out.passed {
-                plotted - plotted_fail < room_for_passes
-            } else {
-                plotted < a.max_unit_plots
-            };
-            if take && plotted < a.max_unit_plots {
-                match write_unit_plot(dir, out, &plan) {
-                    Ok(Some(_)) => {
-                        plotted += 1;
-                        plotted_fail += usize::from(!out.passed);
-                    }
-                    Ok(None) => {}
-                    Err(e) => plot_error = Some(e),
-                }
-            }
+        if let Some(Err(e)) = html.as_mut().map(|h| h.add(out)) {
+            page_error.get_or_insert(e);
         }
     })?;
     bar.finish_and_clear();
-    if let Some(e) = plot_error {
-        eprintln!("warning: some unit plots could not be written: {e}");
+    if let Some(e) = page_error {
+        return Err(e.into());
     }
-    if let Some(dir) = &a.report {
-        let files = write_lot_plots(dir, &report, &plan)
-            .with_context(|| format!("cannot write the report into {}", dir.display()))?;
-        eprintln!(
-            "report: {} lot plots and {plotted} unit plots in {}",
-            files.len(),
-            dir.display()
-        );
+    if let Some(h) = html {
+        let index = h.finish(&report)?;
+        eprintln!("report: {}", index.display());
     }
     if a.json {
         println!("{}", serde_json::to_string_pretty(&report)?);
