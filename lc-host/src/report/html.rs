@@ -51,7 +51,7 @@ table { border-collapse: collapse; width: 100%; font-size: .92rem; }
 th, td { text-align: left; padding: .3rem .55rem; border-bottom: 1px solid var(--line); vertical-align: top; }
 th { background: var(--band); font-weight: 600; }
 td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-.badge { display: inline-block; padding: .05rem .5rem; border-radius: .3rem; font-weight: 700; font-size: .85rem; color: #fff; }
+.badge { display: inline-block; white-space: nowrap; padding: .05rem .5rem; border-radius: .3rem; font-weight: 700; font-size: .85rem; color: #fff; }
 .badge.pass { background: var(--pass); } .badge.fail { background: var(--fail); } .badge.none { background: var(--muted); }
 .cards { display: flex; flex-wrap: wrap; gap: .8rem; }
 .card { border: 1px solid var(--line); border-radius: .4rem; padding: .5rem .9rem; min-width: 8.5rem; }

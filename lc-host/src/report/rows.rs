@@ -6,7 +6,7 @@
 
 use crate::calib::lot::UnitOutcome;
 use crate::calib::plan::{Plan, Range};
-use crate::calib::report::LengthUnit;
+use crate::calib::report::{significant, LengthUnit};
 use crate::calib::unit::UnitFit;
 use std::path::Path;
 
@@ -32,10 +32,16 @@ pub struct ResultRow {
     pub passed: Option<bool>,
 }
 
+/// A bound as text: nine significant digits at most, so a scaled limit
+/// shows no binary noise (5.95 MHz, not 5.949999999999999).
+fn b(v: f64) -> f64 {
+    significant(v, 9)
+}
+
 fn range_text(r: Range, k: f64) -> String {
     Range {
-        min: r.min.map(|v| v * k),
-        max: r.max.map(|v| v * k),
+        min: r.min.map(|v| b(v * k)),
+        max: r.max.map(|v| b(v * k)),
     }
     .describe()
 }
@@ -75,7 +81,12 @@ fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
     }
     if let Some(r) = l.q {
         push(
-            row("q", "quality factor at rest (ring count)", r.describe(), ""),
+            row(
+                "q",
+                "quality factor at rest (ring count)",
+                range_text(r, 1.0),
+                "",
+            ),
             fit.and_then(|f| f.q.map(|q| q.0)),
             &|v| r.contains(v),
         );
@@ -85,7 +96,7 @@ fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
             row(
                 "sensitivity",
                 format!("sensitivity |ds/dx| at {} mm", s.at_mm),
-                format!("≥ {}", s.min_per_mm * 1e6),
+                format!("≥ {}", b(s.min_per_mm * 1e6)),
                 "ppm/mm",
             ),
             fit.and_then(|f| f.sensitivity_per_mm.map(|v| v * 1e6)),
@@ -93,7 +104,7 @@ fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
         );
     }
     if let Some(m) = l.max_residual {
-        let m = m * len.per_output;
+        let m = b(m * len.per_output);
         push(
             row(
                 "max_residual",
@@ -106,7 +117,7 @@ fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
         );
     }
     if let Some(m) = l.max_curve_error {
-        let m = m * len.per_output;
+        let m = b(m * len.per_output);
         push(
             row(
                 "curve_error",
@@ -123,7 +134,7 @@ fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
             row(
                 "drift_b1",
                 "first-order drift coefficient b1",
-                r.describe(),
+                range_text(r, 1.0),
                 "ppm/K",
             ),
             fit.map(|f| f.drift.b1_per_k * 1e6),
@@ -135,7 +146,7 @@ fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
             row(
                 "drift_sigma",
                 "standard error of b1",
-                format!("≤ {m}"),
+                format!("≤ {}", b(m)),
                 "ppm/K",
             ),
             fit.and_then(|f| f.drift.sigma_b1_per_k.map(|v| v * 1e6)),
@@ -287,4 +298,51 @@ fn crc_of(path: &Path) -> (u64, u32) {
         }
     }
     (len, digest.finalize())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::path::Path;
+
+    fn plan(name: &str) -> Plan {
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("../examples/data")
+            .join(name);
+        Plan::load(&path).unwrap()
+    }
+
+    /// Every limit of the plan is a row, bounds without binary noise, in
+    /// the display unit (the level plan's 0.1 mm steps in mm).
+    #[test]
+    fn limit_rows_name_every_limit() {
+        let rows = limit_rows(&plan("demo-plan.toml"));
+        let codes: Vec<&str> = rows.iter().map(|r| r.code).collect();
+        assert_eq!(
+            codes,
+            [
+                "rest_frequency",
+                "q",
+                "sensitivity",
+                "max_residual",
+                "curve_error",
+                "drift_b1",
+                "drift_sigma",
+                "monotonic",
+                "min_steps",
+                "bad_rows"
+            ]
+        );
+        assert_eq!(rows[0].bound, "5.3 … 5.95");
+        assert_eq!(
+            (rows[3].bound.as_str(), rows[3].unit.as_str()),
+            ("≤ 8", "µm")
+        );
+        assert!(rows
+            .iter()
+            .all(|r| r.measured.is_none() && r.passed.is_none()));
+        let level = limit_rows(&plan("demo-level-plan.toml"));
+        let res = level.iter().find(|r| r.code == "max_residual").unwrap();
+        assert_eq!((res.bound.as_str(), res.unit.as_str()), ("≤ 1", "mm"));
+    }
 }

@@ -296,3 +296,28 @@ fn runs(
     out.retain(|r| !r.is_empty());
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A one-sample spike survives decimation, and the envelope holds at
+    /// most two points per column.
+    #[test]
+    fn envelope_keeps_extremes() {
+        let samples: Vec<(f64, f64)> = (0..100_000)
+            .map(|i| (f64::from(i) * 0.1, if i == 77_777 { 1e3 } else { 1.0 }))
+            .collect();
+        let span = Some((0.0, 9_999.9));
+        let points: Vec<(f64, f64)> = runs(&samples, 500, span, 0.0, 1.0)
+            .into_iter()
+            .flatten()
+            .collect();
+        assert!(points.len() <= 1000);
+        assert!(points
+            .iter()
+            .any(|p| p.1 == 1e3 && (p.0 - 7_777.7).abs() < 1e-6));
+        let gap = [(0.0, 1.0), (1.0, f64::NAN), (2.0, 1.0)];
+        assert_eq!(runs(&gap, 500, Some((0.0, 2.0)), 0.0, 1.0).len(), 2);
+    }
+}
