@@ -7,7 +7,8 @@
 #
 # Needs: the Rust toolchain with rustfmt and clippy; for the cross builds the
 # targets thumbv6m-none-eabi and thumbv7em-none-eabihf; for the emulator
-# tests Debian's qemu-system-arm. Missing pieces are reported and skipped on
+# tests Debian's qemu-system-arm; for the report's browser test Debian's
+# chromium. Missing pieces are reported and skipped on
 # a developer machine; with CI=true they are failures.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -64,6 +65,9 @@ cargo test -p lc-core --lib --features defmt --quiet
 
 if ! command -v qemu-system-arm >/dev/null 2>&1; then
     missing "qemu-system-arm (emulator tests)" "apt-get install qemu-system-arm"
+fi
+if ! command -v chromium >/dev/null 2>&1; then
+    missing "chromium (the lot report in a browser)" "apt-get install chromium"
 fi
 
 step "tests (unit, property, published checks, integration, emulator, doc)"
