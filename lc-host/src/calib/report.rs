@@ -332,11 +332,12 @@ pub fn unit_plots(out: &UnitOutcome, plan: &Plan) -> Vec<(&'static str, String, 
             }
         }
         let note = format!(
-            "b1 {:+.2} ppm/K{sigma_note}, b2 {:+.4} ppm/K², reference {:.1} °C, {} points",
+            "b1 {:+.2} ppm/K{sigma_note}, b2 {:+.4} ppm/K², reference {:.1} °C, {} {}",
             d.b1_per_k * 1e6,
             d.b2_per_k2 * 1e6,
             d.reference_c,
-            d.points
+            d.points,
+            if d.points == 1 { "point" } else { "points" }
         );
         plots.push((
             "drift",

@@ -348,10 +348,15 @@ impl<'p> ReportWriter<'p> {
             kv(
                 "drift model",
                 format!(
-                    "b1 {:+.2}{sigma} ppm/K, b2 {:+.4} ppm/K², from {} points",
+                    "b1 {:+.2}{sigma} ppm/K, b2 {:+.4} ppm/K², from {} {}",
                     f.drift.b1_per_k * 1e6,
                     f.drift.b2_per_k2 * 1e6,
-                    f.drift.points
+                    f.drift.points,
+                    if f.drift.points == 1 {
+                        "point"
+                    } else {
+                        "points"
+                    }
                 ),
             );
             if let Some(s) = f.sensitivity_per_mm {
