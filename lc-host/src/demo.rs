@@ -59,11 +59,12 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let images = out.join("images");
     std::fs::create_dir_all(&images)?;
     let report_dir = out.join("report");
-    let mut trace = Traceability::now().with_rig_log(&rig);
-    trace.plan = Some((
-        "demo-plan.toml (built in; examples/data/demo-plan.toml)".into(),
-        lc_core::image::CRC32.checksum(PLAN.as_bytes()),
-    ));
+    let trace = Traceability::now()
+        .with_plan_text(
+            "demo-plan.toml (built in; examples/data/demo-plan.toml)",
+            PLAN,
+        )
+        .with_rig_log(&rig);
     let mut html = ReportWriter::new(&report_dir, "DEMO-01", &plan, trace, 48)?;
     let mut page_error = None;
     let reader = RigLogReader::new(std::fs::File::open(&rig)?, &rig)?;
@@ -257,11 +258,12 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     })?;
     let reader = RigLogReader::new(std::fs::File::open(&level_rig)?, &level_rig)?;
     let tank_dir = out.join("report-tank");
-    let mut trace = Traceability::now().with_rig_log(&level_rig);
-    trace.plan = Some((
-        "demo-level-plan.toml (built in; examples/data/demo-level-plan.toml)".into(),
-        lc_core::image::CRC32.checksum(LEVEL_PLAN.as_bytes()),
-    ));
+    let trace = Traceability::now()
+        .with_plan_text(
+            "demo-level-plan.toml (built in; examples/data/demo-level-plan.toml)",
+            LEVEL_PLAN,
+        )
+        .with_rig_log(&level_rig);
     let mut tank_html = ReportWriter::new(&tank_dir, "TANK-01", &level_plan, trace, 16)?;
     let level_lot = calibrate_lot(
         reader,

@@ -219,10 +219,11 @@ pub fn result_rows(out: &UnitOutcome, plan: &Plan) -> Vec<ResultRow> {
 /// What a report records about where a lot's result came from.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Traceability {
-    /// The plan file and the CRC-32 of its bytes.
-    pub plan: Option<(String, u32)>,
-    /// The rig log, its size in bytes and the CRC-32 of its bytes.
-    pub rig_log: Option<(String, u64, u32)>,
+    /// The plan file and the CRC-32 of its bytes (`None`: unreadable).
+    pub plan: Option<(String, Option<u32>)>,
+    /// The rig log, and its size in bytes and the CRC-32 of its bytes
+    /// (`None`: unreadable).
+    pub rig_log: Option<(String, Option<(u64, u32)>)>,
     /// The test station, when known.
     pub station: Option<String>,
     /// The tool that made the report (name and version).
@@ -241,18 +242,23 @@ impl Traceability {
         }
     }
 
-    /// Records the plan file (name and CRC-32 of its bytes); a file that
-    /// cannot be read is recorded by name with CRC 0 and a note.
+    /// Records the plan file (name and CRC-32 of its bytes; a file that
+    /// cannot be read is recorded by name, marked unreadable).
     pub fn with_plan(mut self, path: &Path) -> Self {
-        let (_, crc) = crc_of(path);
-        self.plan = Some((path.display().to_string(), crc));
+        self.plan = Some((path.display().to_string(), crc_of(path).map(|c| c.1)));
+        self
+    }
+
+    /// Records the plan as text built into the tool, under `name`.
+    pub fn with_plan_text(mut self, name: &str, text: &str) -> Self {
+        let crc = lc_core::image::CRC32.checksum(text.as_bytes());
+        self.plan = Some((name.to_string(), Some(crc)));
         self
     }
 
     /// Records the rig log (name, size and CRC-32 of its bytes).
     pub fn with_rig_log(mut self, path: &Path) -> Self {
-        let (len, crc) = crc_of(path);
-        self.rig_log = Some((path.display().to_string(), len, crc));
+        self.rig_log = Some((path.display().to_string(), crc_of(path)));
         self
     }
 
@@ -260,10 +266,16 @@ impl Traceability {
     pub fn rows(&self) -> Vec<(&'static str, String)> {
         let mut out = Vec::new();
         if let Some((p, crc)) = &self.plan {
-            out.push(("calibration plan", format!("{p} (CRC-32 {crc:08x})")));
+            let what = crc.map_or("could not be read".to_string(), |c| {
+                format!("CRC-32 {c:08x}")
+            });
+            out.push(("calibration plan", format!("{p} ({what})")));
         }
-        if let Some((p, len, crc)) = &self.rig_log {
-            out.push(("rig log", format!("{p} ({len} bytes, CRC-32 {crc:08x})")));
+        if let Some((p, file)) = &self.rig_log {
+            let what = file.map_or("could not be read".to_string(), |(len, c)| {
+                format!("{len} bytes, CRC-32 {c:08x}")
+            });
+            out.push(("rig log", format!("{p} ({what})")));
         }
         out.push((
             "test station",
@@ -277,13 +289,11 @@ impl Traceability {
     }
 }
 
-/// Size and CRC-32 (the image's CRC) of a file's bytes, streamed; (0, 0)
+/// Size and CRC-32 (the image's CRC) of a file's bytes, streamed; `None`
 /// when it cannot be read.
-fn crc_of(path: &Path) -> (u64, u32) {
+fn crc_of(path: &Path) -> Option<(u64, u32)> {
     use std::io::Read;
-    let Ok(mut f) = std::fs::File::open(path) else {
-        return (0, 0);
-    };
+    let mut f = std::fs::File::open(path).ok()?;
     let mut digest = lc_core::image::CRC32.digest();
     let mut buf = vec![0u8; 1 << 16];
     let mut len = 0u64;
@@ -294,10 +304,10 @@ fn crc_of(path: &Path) -> (u64, u32) {
                 digest.update(&buf[..n]);
                 len += n as u64;
             }
-            Err(_) => return (0, 0),
+            Err(_) => return None,
         }
     }
-    (len, digest.finalize())
+    Some((len, digest.finalize()))
 }
 
 #[cfg(test)]
