@@ -251,6 +251,18 @@ mod tests {
     }
 
     proptest! {
+        #[test]
+        fn numbers_parse_in_both_bases(v in any::<u64>()) {
+            prop_assert_eq!(parse_number(&format!("{v}")), Ok(v));
+            prop_assert_eq!(parse_number(&format!("0x{v:X}")), Ok(v));
+            prop_assert_eq!(parse_number(&format!("0x{v:x}")), Ok(v));
+        }
+
+        #[test]
+        fn any_text_parses_or_is_refused(t in any::<String>()) {
+            let _ = parse_number(&t);
+        }
+
         /// Parsing the written HEX gives the padded bytes at the address,
         /// for any image, address and page size.
         #[test]

@@ -559,6 +559,66 @@ fn decimals(code: &str) -> usize {
 mod tests {
     use super::*;
 
+    fn outcome(serial: &str, passed: bool, reasons: &[&str]) -> UnitOutcome {
+        UnitOutcome {
+            serial: serial.to_string(),
+            passed,
+            reasons: reasons.iter().map(|r| r.to_string()).collect(),
+            fit: None,
+            recorded: Ok(1),
+            image_path: None,
+        }
+    }
+
+    /// Serials and reasons are text from a rig log: escaped on every page,
+    /// turned into safe file names, and a repeated serial gets its own
+    /// page; the index has one row per unit and counts the failures.
+    #[test]
+    fn hostile_serials_are_escaped_and_pages_unique() {
+        let dir = std::env::temp_dir().join(format!("lc-report-unit-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        let plan = Plan::parse(crate::demo::PLAN, Path::new("demo-plan.toml")).unwrap();
+        let mut w = ReportWriter::new(&dir, "L<1>", &plan, Traceability::now(), 10).unwrap();
+        let nasty = "<script>alert('x')</script>";
+        w.add(&outcome(
+            nasty,
+            false,
+            &["line 3: field `ticks`: <b>bad</b>"],
+        ))
+        .unwrap();
+        w.add(&outcome(nasty, false, &["no usable rig step"]))
+            .unwrap();
+        w.add(&outcome("U-1", true, &[])).unwrap();
+        let report = LotReport {
+            lot: "L<1>".into(),
+            units: 3,
+            passed: 1,
+            failed: 2,
+            ..LotReport::default()
+        };
+        let index = std::fs::read_to_string(w.finish(&report).unwrap()).unwrap();
+        assert!(!index.contains("<script>") && index.contains("&lt;script&gt;"));
+        assert_eq!(index.matches("<tr><td><a href=").count(), 3);
+        let pages: Vec<String> = std::fs::read_dir(dir.join("units"))
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        assert_eq!(pages.len(), 3, "{pages:?}");
+        for p in &pages {
+            assert!(
+                p.chars()
+                    .all(|c| c.is_ascii_alphanumeric() || "-_.".contains(c)),
+                "{p}"
+            );
+            let html = std::fs::read_to_string(dir.join("units").join(p)).unwrap();
+            assert!(!html.contains("<script>") && !html.contains("<b>"), "{p}");
+        }
+        // Both failures are "other" (no limit row fails without a fit).
+        assert!(index.contains("<td><code>other</code></td>"));
+        assert!(index.contains("<td class=\"num\">2</td>"));
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
     #[test]
     fn utc_dates() {
         assert_eq!(utc(0), "1970-01-01 00:00:00 UTC");
