@@ -144,7 +144,11 @@ impl Histogram {
         let mut notes = Vec::new();
         if let Some(b) = &bins {
             let w = tick_label(b.width, tick_decimals(0.0, b.width * 10.0));
-            let mut n = format!("n = {shown} · bins {w} {unit} wide");
+            let mut n = if unit.is_empty() || unit == "1" {
+                format!("n = {shown} · bins {w} wide")
+            } else {
+                format!("n = {shown} · bins {w} {unit} wide")
+            };
             if let Some(l) = self.lower {
                 let below = self.values.iter().filter(|v| plottable(**v) && **v < l);
                 n.push_str(&format!(" · {} below the lower limit", below.count()));
