@@ -8,7 +8,8 @@
 #
 # Needs: the Rust toolchain with rustfmt and clippy; for the cross builds the
 # targets thumbv6m-none-eabi and thumbv7em-none-eabihf; for the emulator
-# tests Debian's qemu-system-arm. Missing pieces are reported and skipped on
+# tests Debian's qemu-system-arm; for the report's browser test Debian's
+# chromium. Missing pieces are reported and skipped on
 # a developer machine; with CI=true they are failures.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -72,6 +73,9 @@ fi
 if [ -z "${LC_TEST_POSTGRES_URL:-}" ]; then
     missing "PostgreSQL test server (store tests on PostgreSQL)" \
         "apt-get install postgresql; eval \"\$(bash scripts/pg-test-server.sh start)\""
+fi
+if ! command -v chromium >/dev/null 2>&1; then
+    missing "chromium (the lot report in a browser)" "apt-get install chromium"
 fi
 
 step "tests (unit, property, published checks, integration, emulator, doc)"

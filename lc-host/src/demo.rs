@@ -7,9 +7,9 @@
 use crate::budget::{budget, class1_tempco_ppm_per_k, to_text as budget_text, BudgetInput, Gating};
 use crate::calib::lot::calibrate_lot;
 use crate::calib::plan::Plan;
-use crate::calib::report::{write_lot_plots, write_unit_plot};
 use crate::convert::{convert_log, Converter};
 use crate::fieldlog::FieldLogReader;
+use crate::report::{rows::Traceability, ReportWriter};
 use crate::riglog::RigLogReader;
 use crate::sim::field::{write_field_log, Fault, FaultKind, FieldSpec};
 use crate::sim::rig::{units, write_rig_log, LotSpec};
@@ -46,6 +46,9 @@ pub enum DemoError {
     /// A simulated log did not read back.
     #[error(transparent)]
     Input(#[from] crate::csvin::InputError),
+    /// The lot report could not be written.
+    #[error(transparent)]
+    Report(#[from] crate::report::ReportError),
     /// A step of the demo failed; the message names the step.
     #[error("demo: {step}: {message}")]
     Step {
@@ -113,14 +116,23 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let images = out.join("images");
     std::fs::create_dir_all(&images).map_err(file(&images))?;
     let report_dir = out.join("report");
+    let trace = Traceability::now()
+        .with_plan_text(
+            "demo-plan.toml (built in; examples/data/demo-plan.toml)",
+            PLAN,
+        )
+        .with_rig_log(&rig);
+    let mut html = ReportWriter::new(&report_dir, "DEMO-01", &plan, trace, 48)?;
+    let mut page_error = None;
     let reader = RigLogReader::new(std::fs::File::open(&rig).map_err(file(&rig))?, &rig)?;
-    let mut plotted = 0;
     let lot = calibrate_lot(reader, "DEMO-01", &plan, &mut store, Some(&images), |o| {
-        if plotted < 24 && write_unit_plot(&report_dir.join("units"), o, &plan).is_ok() {
-            plotted += 1;
+        if let Err(e) = html.add(o) {
+            page_error.get_or_insert(e);
         }
     })?;
-    write_lot_plots(&report_dir, &lot, &plan)?;
+    if let Some(e) = page_error {
+        return Err(e.into());
+    }
     writeln!(
         say,
         "2. Calibrated: {} of {} units pass (yield {:.0} %); images in {}, records in {}, plots in {}",
@@ -195,6 +207,7 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let mut conv = Converter::new(cal).map_err(|e| DemoError::step("converter", e))?;
     let readings = out.join("readings.csv");
     let mut trace: Vec<(f64, f64)> = Vec::new();
+    let mut mid_stroke: Vec<(f64, f64)> = Vec::new();
     let mut faults = Vec::new();
     let mut worst_diff: f64 = 0.0;
     let reader = FieldLogReader::new(
@@ -213,8 +226,12 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
                 let t = c.time_s.unwrap_or(0.0);
                 if matches!(c.reading.status, lc_core::reader::Status::SensorFault(_)) {
                     faults.push(t);
-                } else if t < 60.0 {
+                } else {
                     trace.push((t, f64::from(c.reading.value)));
+                    // A quarter into each 2 s stroke the plate is at 4.25 mm.
+                    if (t.rem_euclid(2.0) - 0.5).abs() < 1e-6 {
+                        mid_stroke.push((t, f64::from(c.reading.value)));
+                    }
                 }
                 if let Some(v) = c.value_f64 {
                     worst_diff = worst_diff.max((f64::from(c.reading.value) - v).abs());
@@ -224,13 +241,31 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     })
     .map_err(|e| DemoError::step("conversion", e))?;
     let plot = TracePlot::new(
-        "DEMO-01-0007 on the press: the first minute",
+        "DEMO-01-0007 on the press: two hours warming 25 → 45 °C",
         Quantity::new("gap", "µm"),
         "firmware reading",
         trace,
-    );
-    crate::atomic::write_bytes(&report_dir.join("trace.svg"), plot.render().as_bytes())
-        .map_err(|e| DemoError::step("trace plot", e))?;
+    )
+    .faults(faults.iter().copied());
+    html.figure(
+        "trace.svg",
+        "DEMO-01-0007 logged on the press for two hours (field.csv through its image); \
+         vertical lines: readings flagged as sensor faults (open coil at 1 800 s, dropouts from 3 600 s, stuck counter at 5 400 s)",
+        &plot.render(),
+    )?;
+    let plot = TracePlot::new(
+        "DEMO-01-0007: the reading at mid-stroke (plate at 4.25 mm) while the press warms",
+        Quantity::new("gap", "µm"),
+        "firmware reading a quarter into each stroke",
+        mid_stroke,
+    )
+    .faults(faults);
+    html.figure(
+        "mid-stroke.svg",
+        "The same log, one reading per stroke where the plate is at 4.25 mm: the drift model holds the reading while the press warms by 20 °C",
+        &plot.render(),
+    )?;
+    let index = html.finish(&lot)?;
     writeln!(
         say,
         "5. Converted with the firmware's own arithmetic: {} ok, {} out of range or no target, {} sensor faults flagged; fixed vs f64 at most {:.3} µm: {}",
@@ -290,14 +325,30 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         std::fs::File::open(&level_rig).map_err(file(&level_rig))?,
         &level_rig,
     )?;
+    let tank_dir = out.join("report-tank");
+    let trace = Traceability::now()
+        .with_plan_text(
+            "demo-level-plan.toml (built in; examples/data/demo-level-plan.toml)",
+            LEVEL_PLAN,
+        )
+        .with_rig_log(&level_rig);
+    let mut tank_html = ReportWriter::new(&tank_dir, "TANK-01", &level_plan, trace, 16)?;
     let level_lot = calibrate_lot(
         reader,
         "TANK-01",
         &level_plan,
         &mut store,
         Some(&images),
-        |_| {},
+        |o| {
+            if let Err(e) = tank_html.add(o) {
+                page_error.get_or_insert(e);
+            }
+        },
     )?;
+    if let Some(e) = page_error {
+        return Err(e.into());
+    }
+    let tank_index = tank_html.finish(&level_lot)?;
     writeln!(
         say,
         "8. Coolant tank (horizontal cylinder, 400 mm): {} of {} level probes calibrated at 25 °C and 50 °C, each with its reference electrode and the tank's volume table",
@@ -337,6 +388,11 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             crate::convert::status_name(r.status)
         )?;
     }
-    writeln!(say, "\nDone. Open {} in a browser for the lot's histograms, each unit's curve and the press trace.", report_dir.display())?;
+    writeln!(say, "   report: {}", tank_index.display())?;
+    writeln!(
+        say,
+        "\nDone. Open {} in a browser: the lot's yield, limits, failures by reason, histograms, the press trace, and a certificate page per unit.",
+        index.display()
+    )?;
     Ok(())
 }

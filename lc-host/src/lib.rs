@@ -16,6 +16,8 @@
 //!   to calibration images and unit records (SQLite).
 //! - [`coil`]: coil design: inductance (Mohan, Wheeler, Maxwell loops),
 //!   resistance and Q, the tank capacitor, the pull of a metal target.
+//! - [`report`]: the lot report (offline HTML) and unit certificates;
+//!   [`export`]: calibration images as Intel HEX, C arrays, padded binaries.
 //! - [`sim`]: simulated rig and field logs; [`svg`]: plots for reports;
 //!   [`stream`], [`csvin`], [`atomic`]: streaming CSV in, atomic files out.
 //!
@@ -39,10 +41,12 @@ pub mod convert;
 pub mod counts;
 pub mod csvin;
 pub mod demo;
+pub mod export;
 pub mod fieldlog;
 pub mod liquid;
 pub mod ntc;
 pub mod quantity;
+pub mod report;
 pub mod riglog;
 pub mod sim;
 pub mod store;

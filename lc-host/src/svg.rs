@@ -1,90 +1,69 @@
-//! SVG plots for reports: lot histograms, calibration curves with
-//! residuals, and reading-versus-time traces.
+//! SVG plots for reports, drawn with the `plotters` crate's SVG backend:
+//! lot histograms, line and point plots (a unit's curve, residuals, drift
+//! model), and reading-versus-time traces.
 //!
 //! Each plot is a builder whose `render()` returns one standalone SVG 1.1
 //! document as a `String`: UTF-8, a `<title>`, a `viewBox` so it scales,
-//! a sans-serif font, axis labels with units, and no external resources.
-//! Writing it to a file (atomically) is the caller's part.
+//! the viewer's sans-serif font (no font files, no network), axis labels
+//! with units, and a legend wherever there is more than one series or
+//! limit. Writing it to a file (atomically) is the caller's part.
 //!
-//! - [`Histogram`]: values per bin with acceptance limits; bins by the
-//!   Freedman–Diaconis rule (see [`Bins`]) or a given count.
-//! - [`CurvePlot`]: line series and measured points, with an optional
-//!   residual panel and ± band.
+//! - [`Histogram`]: a lot's values with acceptance limits; bins by the
+//!   Freedman–Diaconis rule held to 5 … 40 bins across the drawn range
+//!   (see [`Bins`]), so no bar is a hairline.
+//! - [`XyPlot`]: line and point series with horizontal limit lines.
 //! - [`TracePlot`]: value versus time, decimated to a min/max envelope per
 //!   pixel column (see [`MAX_COLUMNS`]) so millions of samples stay small,
-//!   with fault markers and an optional reference series.
+//!   with fault times and an optional reference series.
 //!
-//! Axes use "nice" ticks (steps of 1, 2 or 5 × 10ⁿ, [`nice_ticks`]) with
-//! labels that print the step's decimals only. No input makes a plot
-//! panic or write `NaN` or `inf`: non-finite values are left out and
-//! counted in a note, equal values get a widened axis, and a plot without
-//! data says "no data". Text is escaped ([`escape`]).
+//! Tick labels carry only the decimals the tick step needs (no float
+//! noise such as `0.30000000000000004`). No input makes a plot panic or
+//! write `NaN` or `inf`: values that are not finite or beyond ±10¹⁵ are
+//! left out and counted in a note, equal values get a widened axis, and a
+//! plot without data says "no data". Text is cleaned of control
+//! characters and escaped.
 //!
 //! Colours follow the Okabe–Ito colour-blind-safe palette; lines also
 //! differ in dash pattern and point sets in marker shape, so a grey print
 //! stays readable.
 //!
 //! ```
-//! use lc_host::svg::{CurvePlot, Histogram, Quantity, TracePlot};
+//! use lc_host::svg::{Histogram, Quantity, TracePlot, XyPlot};
 //!
-//! /// A lot's shifts at the rest point against its acceptance limits.
-//! fn lot_histogram(shifts_ppm: &[f64], limits_ppm: (Option<f64>, Option<f64>)) -> String {
-//!     Histogram::new(
-//!         "Lot shift at the rest point",
-//!         Quantity::new("shift", "ppm"),
-//!         shifts_ppm.iter().copied(),
-//!     )
-//!     .limits(limits_ppm.0, limits_ppm.1)
-//!     .render()
-//! }
-//!
-//! /// A unit's fitted curve, its rig points, and their residuals in a ±band.
-//! fn unit_curve(fit: &[(f64, f64)], rig: &[(f64, f64)], band_ppm: f64) -> String {
-//!     let residuals: Vec<(f64, f64)> = rig
-//!         .iter()
-//!         .zip(fit)
-//!         .map(|(&(x, measured), &(_, fitted))| (x, measured - fitted))
-//!         .collect();
-//!     CurvePlot::new("Unit curve", Quantity::new("distance", "mm"), Quantity::new("shift", "ppm"))
-//!         .line("fitted curve", fit.iter().copied())
-//!         .points("rig points", rig.iter().copied())
-//!         .residuals(Quantity::new("residual", "ppm"), residuals, Some(band_ppm))
-//!         .render()
-//! }
-//!
-//! /// Readings over time (s, ppm) with the times of faulted rows.
-//! fn reading_trace(readings: &[(f64, f64)], fault_times_s: &[f64]) -> String {
-//!     TracePlot::new("Field log", Quantity::new("shift", "ppm"), "shift", readings.iter().copied())
-//!         .faults(fault_times_s.iter().copied())
-//!         .render()
-//! }
-//!
-//! // Empty input still gives complete documents, marked "no data".
-//! for svg in [
-//!     lot_histogram(&[], (None, None)),
-//!     unit_curve(&[], &[], 1.0),
-//!     reading_trace(&[], &[]),
-//! ] {
+//! // A lot's rest frequencies against the plan's window.
+//! let h = Histogram::new("Lot rest frequency", Quantity::new("rest frequency", "MHz"), [5.61, 5.62, 5.64])
+//!     .limits(Some(5.3), Some(5.95))
+//!     .render();
+//! // A unit's residuals at two rig temperatures, with the ± limit.
+//! let r = XyPlot::new("Residuals", Quantity::new("gap", "mm"), Quantity::new("residual", "µm"))
+//!     .points("25 °C", [(0.5, 1.0), (1.0, -2.0)])
+//!     .points("60 °C", [(0.5, 0.0), (1.0, 1.0)])
+//!     .limit_lines("limit ±8 µm", [-8.0, 8.0])
+//!     .render();
+//! // Readings over time with the times of faulted rows.
+//! let t = TracePlot::new("Field log", Quantity::new("gap", "µm"), "reading", [(0.0, 10.0), (1.0, 11.0)])
+//!     .faults([0.5])
+//!     .render();
+//! for svg in [h, r, t] {
 //!     assert!(svg.starts_with("<?xml") && svg.ends_with("</svg>\n"));
-//!     assert!(svg.contains("no data"));
+//!     assert!(svg.contains("<title>"));
 //! }
+//! // Empty input still gives a complete document, marked "no data".
+//! let empty = XyPlot::new("c", Quantity::new("x", "mm"), Quantity::new("y", "ppm")).render();
+//! assert!(empty.contains("no data"));
 //! ```
 
 #[cfg(test)]
 mod check;
-mod curve;
-mod frame;
+mod draw;
 mod histogram;
-mod palette;
-mod ticks;
 mod trace;
-mod xml;
+mod xy;
 
-pub use curve::CurvePlot;
-pub use histogram::{Bins, Histogram, AUTO_BINS_MAX, AUTO_BINS_MIN, BINS_MAX};
-pub use ticks::{nice_ticks, Ticks};
+pub use draw::escape;
+pub use histogram::{Bins, Histogram, MAX_BINS, MIN_BINS};
 pub use trace::{TracePlot, CAUTION, MAX_COLUMNS};
-pub use xml::escape;
+pub use xy::XyPlot;
 
 /// A plotted quantity: its name and unit, shown as the axis label
 /// "name (unit)", or "name" alone when the unit is empty.
@@ -136,10 +115,10 @@ mod tests {
             Histogram::new(nasty, q.clone(), [1.0, 2.0, 3.0])
                 .limits(Some(1.5), None)
                 .render(),
-            CurvePlot::new(nasty, q.clone(), q.clone())
+            XyPlot::new(nasty, q.clone(), q.clone())
                 .line(nasty, [(0.0, 1.0), (1.0, 2.0)])
                 .points(nasty, [(0.5, 1.4)])
-                .residuals(q.clone(), [(0.5, -0.1)], Some(0.05))
+                .limit_lines(nasty, [0.05])
                 .render(),
             TracePlot::new(nasty, q.clone(), nasty, [(0.0, 1.0), (1.0, 2.0)])
                 .reference(nasty, [(0.0, 1.1)])
@@ -149,6 +128,34 @@ mod tests {
             check_xml(&svg).unwrap();
             assert!(!svg.contains("<script>"));
             assert!(svg.contains("&lt;script&gt;&quot;x&quot; &amp; &apos;y&apos;"));
+        }
+    }
+
+    /// Every axis carries its quantity and unit; two series get a legend.
+    #[test]
+    fn axes_are_labelled_and_series_named() {
+        let svg = XyPlot::new(
+            "t",
+            Quantity::new("gap", "mm"),
+            Quantity::new("residual", "µm"),
+        )
+        .points("25 °C", [(1.0, 1.0)])
+        .points("60 °C", [(1.0, 2.0)])
+        .render();
+        assert_clean_svg(&svg);
+        for text in ["gap (mm)", "residual (µm)", "25 °C", "60 °C"] {
+            assert!(svg.contains(text), "{text} missing");
+        }
+        let svg = TracePlot::new(
+            "t",
+            Quantity::new("gap", "µm"),
+            "reading",
+            [(0.0, 1.0), (7200.0, 2.0)],
+        )
+        .faults([1800.0])
+        .render();
+        for text in ["time (min)", "gap (µm)", "sensor fault flagged", CAUTION] {
+            assert!(svg.contains(text), "{text} missing");
         }
     }
 
@@ -180,31 +187,38 @@ mod tests {
             values in prop::collection::vec(value(), 0..200),
             lower in prop::option::of(value()),
             upper in prop::option::of(value()),
-            bins in prop_oneof![Just(Bins::Auto), (0usize..2000).prop_map(Bins::Count)],
             w in 0u32..5000,
             h in 0u32..5000,
         ) {
             let svg = Histogram::new("h", Quantity::new("shift", "ppm"), values)
                 .limits(lower, upper)
-                .bins(bins)
                 .size(w, h)
                 .render();
             assert_clean_svg(&svg);
         }
 
         #[test]
-        fn curve_never_panics(
+        fn bins_hold_every_plottable_value(
+            values in prop::collection::vec(value(), 1..200),
+            marks in prop::collection::vec(value(), 0..3),
+        ) {
+            if let Some(b) = Bins::of(&values, &marks) {
+                let n = values.iter().filter(|v| v.is_finite() && v.abs() <= 1e15).count();
+                prop_assert_eq!(b.counts.iter().sum::<usize>(), n);
+                prop_assert!(b.width > 0.0 && b.counts.len() <= 4 * MAX_BINS);
+            }
+        }
+
+        #[test]
+        fn xy_never_panics(
             line in prop::collection::vec((value(), value()), 0..100),
             points in prop::collection::vec((value(), value()), 0..50),
-            residuals in prop::option::of(prop::collection::vec((value(), value()), 0..50)),
             band in prop::option::of(value()),
         ) {
-            let mut plot = CurvePlot::new("c", Quantity::new("x", "mm"), Quantity::new("y", "ppm"))
+            let plot = XyPlot::new("c", Quantity::new("x", "mm"), Quantity::new("y", "ppm"))
                 .line("l", line)
-                .points("p", points);
-            if let Some(r) = residuals {
-                plot = plot.residuals(Quantity::new("r", "ppm"), r, band);
-            }
+                .points("p", points)
+                .limit_lines("b", band);
             assert_clean_svg(&plot.render());
         }
 
@@ -225,21 +239,6 @@ mod tests {
         }
 
         #[test]
-        fn long_trace_is_decimated(
-            n in 5_000usize..20_000,
-            spike in 0usize..5_000,
-        ) {
-            let samples = (0..n).map(|i| {
-                let t = xml::count_f64(i);
-                (t, if i == spike { 1e3 } else { (t * 0.01).sin() })
-            });
-            let svg = TracePlot::new("t", Quantity::new("shift", "ppm"), "s", samples).size(400, 300).render();
-            assert_clean_svg(&svg);
-            prop_assert!(svg.contains("min/max envelope"));
-            prop_assert!(svg.len() < 40_000);
-        }
-
-        #[test]
         fn any_text_gives_well_formed_svg(title in any::<String>(), name in any::<String>()) {
             let svg = Histogram::new(title.clone(), Quantity::new(name.clone(), name.clone()), [1.0, 2.0])
                 .limits(Some(1.5), None)
@@ -248,21 +247,24 @@ mod tests {
             let svg = TracePlot::new(title, Quantity::new("v", ""), name, [(0.0, 1.0)]).render();
             prop_assert!(check_xml(&svg).is_ok(), "{:?}", check_xml(&svg));
         }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(16))]
 
         #[test]
-        fn ticks_cover_and_stay_finite(a in value(), b in value(), target in 0usize..40) {
-            let t = nice_ticks(a, b, target);
-            prop_assert!(t.lo().is_finite() && t.hi().is_finite() && t.lo() < t.hi());
-            prop_assert!(!t.values().is_empty() && t.values().len() <= 22);
-            prop_assert!(t.values().windows(2).all(|w| w[0] < w[1]));
-            prop_assert!(t.values().iter().all(|v| v.is_finite() && *v >= t.lo() && *v <= t.hi()));
-            prop_assert!(matches!(t.step_parts().0, 1 | 2 | 5));
-            for v in [a, b].into_iter().filter(|v| v.is_finite()) {
-                prop_assert!(t.lo() <= v && v <= t.hi(), "{v} outside {t:?}");
-            }
-            for l in t.labels() {
-                prop_assert!(!l.contains("NaN") && !l.contains("inf") && l != "-0", "{l}");
-            }
+        fn long_trace_is_decimated(
+            n in 5_000u32..20_000,
+            spike in 0u32..5_000,
+        ) {
+            let samples = (0..n).map(|i| {
+                let t = f64::from(i);
+                (t, if i == spike { 1e3 } else { (t * 0.01).sin() })
+            });
+            let svg = TracePlot::new("t", Quantity::new("shift", "ppm"), "s", samples).size(400, 300).render();
+            assert_clean_svg(&svg);
+            prop_assert!(svg.contains("min/max envelope"));
+            prop_assert!(svg.len() < 60_000, "{} bytes", svg.len());
         }
     }
 }

@@ -139,7 +139,10 @@ fn a_lot_calibrates_into_images_and_records() {
         assert!(!dir.join("img").join(format!("{}.lcim", f.serial)).exists());
     }
     assert!(
-        dir.join("rep/rest-frequency.svg").exists() && dir.join("rep/units/T1-0001.svg").exists()
+        dir.join("rep/index.html").exists()
+            && dir.join("rep/plots/rest-frequency.svg").exists()
+            && dir.join("rep/units/T1-0001.html").exists()
+            && dir.join("rep/units/T1-0001-curve.svg").exists()
     );
 
     let first = store.attempt("T1-0001", Some(1)).unwrap().unwrap();

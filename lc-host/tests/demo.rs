@@ -23,15 +23,21 @@ fn the_demo_runs_the_whole_job() {
         "{text}"
     );
     assert!(text.contains("Not a safety-rated component"));
+    // It ends by pointing at the lot report.
+    let last = text.lines().last().unwrap_or("");
+    assert!(last.contains("report/index.html"), "{last}");
     for f in [
         "rig.csv",
         "field.csv",
         "readings.csv",
         "units.db",
         "images/DEMO-01-0007.lcim",
-        "report/rest-frequency.svg",
-        "report/trace.svg",
-        "report/units/DEMO-01-0012.svg",
+        "report/index.html",
+        "report/plots/rest-frequency.svg",
+        "report/plots/trace.svg",
+        "report/units/DEMO-01-0012.html",
+        "report/units/DEMO-01-0012-residual.svg",
+        "report-tank/index.html",
     ] {
         assert!(dir.join(f).exists(), "{f} missing");
     }

@@ -6,8 +6,8 @@ use lc_host::calib::lot::{
     run_lot, LotError, LotReport, LotRun, Traceability, DEFAULT_GROUP_UNITS,
 };
 use lc_host::calib::plan::{Plan, PlanError};
-use lc_host::calib::report::{write_lot_plots, write_unit_plot};
 use lc_host::csvin::InputError;
+use lc_host::report::{rows::Traceability as ReportTrace, ReportWriter};
 use lc_host::riglog::RigLogReader;
 use lc_host::store::{Store, StoreError};
 use std::collections::HashSet;
@@ -21,6 +21,9 @@ use std::process::ExitCode;
 /// drift model (least squares, with uncertainty) and a smooth monotone curve
 /// (docs/calibration.md), reads every rig step back through the firmware's own arithmetic,
 /// and judges the unit against the plan's acceptance limits (stated in physical units).
+/// --report writes the lot report: an offline index.html (summary, limits, failures by
+/// reason, histograms, one row per unit) and a printable certificate page per unit, with
+/// SVG plots.
 /// Every attempt, pass or fail, becomes a unit record in the database with its
 /// traceability: the plan's text and SHA-256, the rig log's name and SHA-256, station,
 /// operator, tool version and UTC time. Units are committed in groups (one transaction per
@@ -84,10 +87,10 @@ pub struct Args {
     /// Units per database transaction (a kill loses at most one group)
     #[arg(long, default_value_t = DEFAULT_GROUP_UNITS as u32, value_parser = clap::value_parser!(u32).range(1..=100_000))]
     group_units: u32,
-    /// Folder for the SVG report (lot histograms, unit curves)
+    /// Folder for the lot report (index.html, a page per unit, SVG plots)
     #[arg(long)]
     report: Option<PathBuf>,
-    /// Most unit curve plots in the report (failed units first)
+    /// Most units whose plots the report draws (failed units first); every unit gets its page
     #[arg(long, default_value_t = 100)]
     max_unit_plots: usize,
     /// Print the lot report as JSON on standard output
@@ -354,10 +357,22 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
         }
         _ => super::spinner("{spinner} {pos} units ({per_sec}) {msg}"),
     };
-    let unit_dir = a.report.as_ref().map(|d| d.join("units"));
-    let mut plotted_fail = 0usize;
-    let mut plotted = 0usize;
-    let mut plot_error = None;
+    let mut html = match &a.report {
+        Some(dir) => {
+            let t = ReportTrace::now().with_plan(&a.plan);
+            let t = if a.rig_log.as_os_str() == "-" {
+                t
+            } else {
+                t.with_rig_log(&a.rig_log)
+            };
+            Some(
+                ReportWriter::new(dir, &a.lot, &plan, t, a.max_unit_plots)
+                    .map_err(|e| (Exit::Io, e.into()))?,
+            )
+        }
+        None => None,
+    };
+    let mut page_error = None;
     let run = LotRun {
         lot: &a.lot,
         images: Some(&a.images),
@@ -373,40 +388,18 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
             out.serial,
             if out.passed { "pass" } else { "fail" }
         ));
-        if let Some(dir) = &unit_dir {
-            // Failed units first: keep room for them within the cap.
-            let room_for_passes = a.max_unit_plots.saturating_sub(a.max_unit_plots / 2);
-            let take = if out.passed {
-                plotted - plotted_fail < room_for_passes
-            } else {
-                plotted < a.max_unit_plots
-            };
-            if take && plotted < a.max_unit_plots {
-                match write_unit_plot(dir, out, &plan) {
-                    Ok(Some(_)) => {
-                        plotted += 1;
-                        plotted_fail += usize::from(!out.passed);
-                    }
-                    Ok(None) => {}
-                    Err(e) => plot_error = Some(e),
-                }
-            }
+        if let Some(Err(e)) = html.as_mut().map(|h| h.add(out)) {
+            page_error.get_or_insert(e);
         }
     })
     .map_err(|e| classify(e.into()))?;
     bar.finish_and_clear();
-    if let Some(e) = plot_error {
-        eprintln!("warning: some unit plots could not be written: {e}");
+    if let Some(e) = page_error {
+        return Err((Exit::Io, e.into()));
     }
-    if let Some(dir) = &a.report {
-        let files = write_lot_plots(dir, &report, &plan)
-            .with_context(|| format!("cannot write the report into {}", dir.display()))
-            .map_err(|e| (Exit::Io, e))?;
-        eprintln!(
-            "report: {} lot plots and {plotted} unit plots in {}",
-            files.len(),
-            dir.display()
-        );
+    if let Some(h) = html {
+        let index = h.finish(&report).map_err(|e| (Exit::Io, e.into()))?;
+        eprintln!("report: {}", index.display());
     }
     if a.json {
         let text = serde_json::to_string_pretty(&report).map_err(|e| (Exit::Io, e.into()))?;

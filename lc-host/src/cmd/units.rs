@@ -2,8 +2,9 @@
 
 use anyhow::{bail, Context, Result};
 use lc_host::atomic::write_bytes;
+use lc_host::export;
 use lc_host::store::{AttemptResult, Filter, Order, Store, StoreError};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// List, show and export unit records from the calibration database
 ///
@@ -15,6 +16,7 @@ use std::path::PathBuf;
 ///   lc-host units list --lot DEMO-01 --failed
 ///   lc-host units show DEMO-01-0005
 ///   lc-host units export DEMO-01-0007 -o DEMO-01-0007.lcim
+///   lc-host units export DEMO-01-0007 -o cal.hex --address 0x0800F800 --page-size 2048
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
@@ -58,7 +60,8 @@ enum Action {
         #[arg(long)]
         attempt: Option<u32>,
     },
-    /// Write the calibration image of an attempt to a file
+    /// Write the calibration image of an attempt to a file: raw, padded to a flash page,
+    /// Intel HEX at an address, or a C header
     Export {
         /// Unit serial
         serial: String,
@@ -68,7 +71,75 @@ enum Action {
         /// Output file
         #[arg(short, long)]
         output: PathBuf,
+        #[command(flatten)]
+        flash: FlashArgs,
     },
+}
+
+/// How `units export` writes an image (docs/image-format.md, "Flash pages").
+#[derive(clap::Args)]
+struct FlashArgs {
+    /// raw: the image's bytes; bin: padded to a whole flash page; hex: Intel HEX at --address,
+    /// padded; c: a C header with the padded bytes. Default: from the output's extension
+    /// (.hex, .h, .bin), else raw
+    #[arg(long, value_enum)]
+    format: Option<Format>,
+    /// Flash address of the image's first byte (hex with 0x), for Intel HEX and the C header
+    #[arg(long, default_value = "0", value_parser = number::<u32>)]
+    address: u32,
+    /// Flash page size in bytes: bin, hex and c are padded to a multiple of it
+    #[arg(long, default_value = "1", value_parser = number::<u32>)]
+    page_size: u32,
+    /// Value of an erased flash byte, used for the padding
+    #[arg(long, default_value = "0xFF", value_parser = number::<u8>)]
+    erased: u8,
+    /// C array name (default: lc_cal_ and the serial)
+    #[arg(long)]
+    symbol: Option<String>,
+}
+
+#[derive(Clone, Copy, clap::ValueEnum)]
+enum Format {
+    Raw,
+    Bin,
+    Hex,
+    C,
+}
+
+fn number<T: TryFrom<u64>>(s: &str) -> Result<T, String> {
+    let v = export::parse_number(s)?;
+    T::try_from(v).map_err(|_| format!("{s} is too large here"))
+}
+
+impl FlashArgs {
+    /// The bytes to write for `image` of `serial` into `output`.
+    fn render(&self, image: &[u8], serial: &str, attempt: u32, output: &Path) -> Result<Vec<u8>> {
+        let ext = output.extension().and_then(|e| e.to_str()).unwrap_or("");
+        let format = self.format.unwrap_or(match ext {
+            "hex" | "ihex" => Format::Hex,
+            "h" => Format::C,
+            "bin" => Format::Bin,
+            _ => Format::Raw,
+        });
+        let layout = export::FlashLayout {
+            address: self.address,
+            page_size: self.page_size,
+            erased: self.erased,
+        };
+        Ok(match format {
+            Format::Raw => image.to_vec(),
+            Format::Bin => export::padded(image, &layout)?,
+            Format::Hex => export::intel_hex(image, &layout)?.into_bytes(),
+            Format::C => {
+                let symbol = self
+                    .symbol
+                    .clone()
+                    .unwrap_or_else(|| export::symbol_for(serial));
+                let about = format!("unit {serial}, attempt {attempt}");
+                export::c_header(image, &layout, &symbol, &about)?.into_bytes()
+            }
+        })
+    }
 }
 
 pub fn run(a: Args) -> Result<()> {
@@ -186,6 +257,7 @@ pub fn run(a: Args) -> Result<()> {
             serial,
             attempt,
             output,
+            flash,
         } => {
             let Some(r) = store.attempt(&serial, attempt)? else {
                 bail!("{}: no record of unit {serial}", a.db.display());
@@ -199,10 +271,12 @@ pub fn run(a: Args) -> Result<()> {
             };
             lc_core::image::Calibration::parse(&image)
                 .context("the stored image does not parse")?;
-            write_bytes(&output, &image)?;
+            let bytes = flash.render(&image, &serial, r.attempt, &output)?;
+            write_bytes(&output, &bytes)?;
             eprintln!(
-                "wrote {} ({} bytes, unit {serial} attempt {})",
+                "wrote {} ({} bytes for an image of {} bytes, unit {serial} attempt {})",
                 output.display(),
+                bytes.len(),
                 image.len(),
                 r.attempt
             );
