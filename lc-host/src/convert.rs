@@ -1,8 +1,9 @@
 //! Field logs to readings through a unit's calibration image, exactly as
 //! the firmware computes them: every row goes through lc-core's `Reader`.
 
+use crate::csvout::{push_fixed, push_fixed_opt, push_int, push_int_opt, push_shortest_opt};
 use crate::fieldlog::{FieldLogReader, FieldRow, Measurement};
-use crate::stream::{fixed, opt, stream_log, OnBadRow, RowClass, RunError, Summary};
+use crate::stream::{stream_log, OnBadRow, RowClass, RunError, Summary, Threads};
 use lc_core::counting::{CountPair, FaultError};
 use lc_core::image::Calibration;
 use lc_core::reader::{
@@ -46,41 +47,31 @@ pub struct Converted {
     /// The firmware's reading.
     pub reading: Reading,
     /// The f64 reference value, when the reader has a twin and the row is
-    /// not a fault.
+    /// not a fault ([`Converter::convert`], and [`convert_log`] with
+    /// `with_f64`).
     pub value_f64: Option<f64>,
 }
 
 /// The converter: a calibration and the reader built from it.
 #[derive(Debug)]
 pub struct Converter {
-    calibration: Calibration,
     reader: Reader,
+    twin: Twin,
+}
+
+/// What a row needs besides the stateful reader: the calibration, the
+/// gate for logged frequencies, and the `f64` reference readers. Shared by
+/// the formatting threads.
+#[derive(Debug)]
+struct Twin {
+    calibration: Calibration,
     proximity: Option<ProximityReader>,
     level: Option<LevelReader>,
     frequency_gate: u32,
 }
 
-impl Converter {
-    /// A converter for a calibration.
-    pub fn new(calibration: Calibration) -> Result<Self, ReaderError> {
-        Ok(Self {
-            reader: Reader::from_calibration(&calibration)?,
-            proximity: ProximityReader::new(&calibration).ok(),
-            level: LevelReader::new(&calibration).ok(),
-            frequency_gate: calibration.gate().unwrap_or(16_384),
-            calibration,
-        })
-    }
-
-    /// The calibration.
-    pub fn calibration(&self) -> &Calibration {
-        &self.calibration
-    }
-
-    /// The count pair a row stands for. A logged frequency becomes the pair
-    /// a reciprocal gate of the image's length would have counted (ticks
-    /// rounded to the nearest whole tick).
-    pub fn pair_of(&self, row: &FieldRow) -> CountPair {
+impl Twin {
+    fn pair_of(&self, row: &FieldRow) -> CountPair {
         match row.measurement {
             Measurement::Counts(p) => p,
             Measurement::FrequencyHz(f) if f > 0.0 => {
@@ -100,28 +91,63 @@ impl Converter {
         }
     }
 
-    /// Converts one row (stateful for metal readers, as on the unit).
-    pub fn convert(&mut self, row: &FieldRow) -> Converted {
-        let input = Input {
+    fn input_of(&self, row: &FieldRow) -> Input {
+        Input {
             pair: self.pair_of(row),
             companion: row.companion,
             temperature: row.temp_c.and_then(CentiCelsius::from_f64),
             ring_count: row.ring_count,
-        };
-        let reading = self.reader.read(&input);
-        let value_f64 = match reading.status {
+        }
+    }
+
+    /// The f64 reference value of a reading that is not a fault.
+    fn reference(&self, row: &FieldRow, reading: &Reading) -> Option<f64> {
+        match reading.status {
             Status::SensorFault(_) => None,
             _ => match (&self.proximity, &self.level) {
-                (Some(p), _) => Some(p.read_f64(&input)),
-                (_, Some(l)) => Some(l.read_f64(&input).0),
+                (Some(p), _) => Some(p.read_f64(&self.input_of(row))),
+                (_, Some(l)) => Some(l.read_f64(&self.input_of(row)).0),
                 _ => None,
             },
-        };
+        }
+    }
+}
+
+impl Converter {
+    /// A converter for a calibration.
+    pub fn new(calibration: Calibration) -> Result<Self, ReaderError> {
+        Ok(Self {
+            reader: Reader::from_calibration(&calibration)?,
+            twin: Twin {
+                proximity: ProximityReader::new(&calibration).ok(),
+                level: LevelReader::new(&calibration).ok(),
+                frequency_gate: calibration.gate().unwrap_or(16_384),
+                calibration,
+            },
+        })
+    }
+
+    /// The calibration.
+    pub fn calibration(&self) -> &Calibration {
+        &self.twin.calibration
+    }
+
+    /// The count pair a row stands for. A logged frequency becomes the pair
+    /// a reciprocal gate of the image's length would have counted (ticks
+    /// rounded to the nearest whole tick).
+    pub fn pair_of(&self, row: &FieldRow) -> CountPair {
+        self.twin.pair_of(row)
+    }
+
+    /// Converts one row (stateful for metal readers, as on the unit), with
+    /// the f64 reference value.
+    pub fn convert(&mut self, row: &FieldRow) -> Converted {
+        let reading = self.reader.read(&self.twin.input_of(row));
         Converted {
             line: row.line,
             time_s: row.time_s,
             reading,
-            value_f64,
+            value_f64: self.twin.reference(row, &reading),
         }
     }
 }
@@ -132,18 +158,47 @@ pub const OUTPUT_HEADER: &str = "line,time_s,channel,status,value,secondary,shif
 /// Streams a field log through the converter into CSV. The first line is a
 /// comment naming the unit and the value's unit; with `with_f64`, two
 /// columns more: the f64 reference value and fixed − reference. `observe`
-/// sees every converted row (for plots); `progress` gets the input line
-/// every 65 536 rows.
+/// sees every converted row in input order (for plots; `value_f64` only
+/// with `with_f64`); `progress` gets the input line every 65 536 rows.
+/// Rows are parsed and formatted on one thread per core (at most
+/// [`crate::stream::MAX_THREADS`]); [`convert_log_threads`] chooses.
 pub fn convert_log<R: Read, W: Write>(
+    reader: FieldLogReader<R>,
+    out: W,
+    conv: &mut Converter,
+    on_bad_row: OnBadRow,
+    with_f64: bool,
+    progress: impl FnMut(u64),
+    observe: impl FnMut(&Converted),
+) -> Result<Summary, RunError> {
+    convert_log_threads(
+        reader,
+        out,
+        conv,
+        on_bad_row,
+        with_f64,
+        Threads::default(),
+        progress,
+        observe,
+    )
+}
+
+/// [`convert_log`] on `threads` threads: rows are parsed and formatted in
+/// parallel blocks; the reader sees them one at a time in input order, as
+/// on the unit, and the output keeps the input's order. The output does not
+/// depend on the thread count.
+#[allow(clippy::too_many_arguments)]
+pub fn convert_log_threads<R: Read, W: Write>(
     reader: FieldLogReader<R>,
     mut out: W,
     conv: &mut Converter,
     on_bad_row: OnBadRow,
     with_f64: bool,
+    threads: Threads,
     progress: impl FnMut(u64),
     mut observe: impl FnMut(&Converted),
 ) -> Result<Summary, RunError> {
-    let cal = conv.calibration;
+    let cal = conv.twin.calibration;
     writeln!(
         out,
         "# lc-host convert: unit {}, value in 1e{} {}{}",
@@ -161,40 +216,58 @@ pub fn convert_log<R: Read, W: Write>(
     } else {
         OUTPUT_HEADER.to_string()
     };
-    stream_log(reader, out, &header, on_bad_row, progress, |row, out| {
-        let c = conv.convert(row);
-        let r = c.reading;
-        let fault = matches!(r.status, Status::SensorFault(_));
-        write!(
-            out,
-            "{},{},{},{},{},{},{}",
-            row.line,
-            opt(row.time_s),
-            opt(row.channel),
-            status_name(r.status),
-            if fault {
-                String::new()
-            } else {
-                r.value.to_string()
-            },
-            opt(r.secondary),
-            if fault {
-                String::new()
-            } else {
-                format!("{:.6}", r.shift.to_ppm_f64())
-            },
-        )?;
-        if with_f64 {
-            let diff = c.value_f64.map(|v| f64::from(r.value) - v);
-            write!(out, ",{},{}", fixed(c.value_f64, 4), fixed(diff, 4))?;
-        }
-        observe(&c);
-        Ok(match r.status {
-            Status::Ok => RowClass::Ok,
-            Status::SensorFault(_) => RowClass::Fault,
-            _ => RowClass::OutOfRange,
-        })
-    })
+    let Converter { reader: unit, twin } = conv;
+    let twin = &*twin;
+    stream_log(
+        reader,
+        out,
+        &header,
+        on_bad_row,
+        threads,
+        |row| (unit.read(&twin.input_of(row)), None),
+        |row, (r, value_f64): &mut (Reading, Option<f64>), out| {
+            let fault = matches!(r.status, Status::SensorFault(_));
+            push_int(out, row.line);
+            out.push(b',');
+            push_shortest_opt(out, row.time_s);
+            out.push(b',');
+            push_int_opt(out, row.channel);
+            out.push(b',');
+            out.extend_from_slice(status_name(r.status).as_bytes());
+            out.push(b',');
+            if !fault {
+                push_int(out, r.value);
+            }
+            out.push(b',');
+            push_int_opt(out, r.secondary);
+            out.push(b',');
+            if !fault {
+                push_fixed(out, r.shift.to_ppm_f64(), 6);
+            }
+            if with_f64 {
+                *value_f64 = twin.reference(row, r);
+                let diff = value_f64.map(|v| f64::from(r.value) - v);
+                out.push(b',');
+                push_fixed_opt(out, *value_f64, 4);
+                out.push(b',');
+                push_fixed_opt(out, diff, 4);
+            }
+            Ok(match r.status {
+                Status::Ok => RowClass::Ok,
+                Status::SensorFault(_) => RowClass::Fault,
+                _ => RowClass::OutOfRange,
+            })
+        },
+        progress,
+        |row, &(reading, value_f64)| {
+            observe(&Converted {
+                line: row.line,
+                time_s: row.time_s,
+                reading,
+                value_f64,
+            })
+        },
+    )
 }
 
 #[cfg(test)]

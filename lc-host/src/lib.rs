@@ -17,7 +17,8 @@
 //! - [`coil`]: coil design: inductance (Mohan, Wheeler, Maxwell loops),
 //!   resistance and Q, the tank capacitor, the pull of a metal target.
 //! - [`sim`]: simulated rig and field logs; [`svg`]: plots for reports;
-//!   [`stream`], [`csvin`], [`atomic`]: streaming CSV in, atomic files out.
+//!   [`stream`], [`csvin`], [`csvout`], [`atomic`]: streaming CSV in and
+//!   out, atomic files.
 //!
 //! ```
 //! use lc_host::counts::{CountsConfig, RowStatus};
@@ -38,6 +39,7 @@ pub mod coil;
 pub mod convert;
 pub mod counts;
 pub mod csvin;
+pub mod csvout;
 pub mod demo;
 pub mod fieldlog;
 pub mod liquid;

@@ -3,8 +3,9 @@
 use super::counts::{report, BadRow};
 use super::{load_image, open_input, spinner, with_output};
 use anyhow::{anyhow, Result};
-use lc_host::convert::{convert_log, Converter};
+use lc_host::convert::{convert_log_threads, Converter};
 use lc_host::fieldlog::FieldLogReader;
+use lc_host::stream::{Threads, MAX_THREADS};
 use lc_host::svg::{Quantity, TracePlot};
 use std::path::PathBuf;
 
@@ -15,7 +16,8 @@ use std::path::PathBuf;
 /// have produced, bit for bit, with their status (ok, below_range, above_range, no_target,
 /// or the sensor fault). The input is a field log with count pairs (`cycles`, `ticks`) or
 /// frequencies (`frequency_hz`), optional `time_s`, `channel`, `temp_c`, `ring_count` and
-/// companion counts (docs/formats.md). Memory stays constant whatever the log's size.
+/// companion counts (docs/formats.md). Memory stays bounded (a few MiB per thread) whatever
+/// the log's size.
 ///
 /// Example:
 ///
@@ -43,6 +45,19 @@ pub struct Args {
     /// with --float the f64 reference too)
     #[arg(long, value_name = "SVG")]
     plot: Option<PathBuf>,
+    /// Worker threads, 1 to 16 (default: one per core). Rows are parsed and
+    /// formatted in parallel blocks; the reader sees them in logged order,
+    /// and the output is the same for any count
+    #[arg(long, value_name = "N", value_parser = parse_threads)]
+    threads: Option<Threads>,
+}
+
+fn parse_threads(s: &str) -> Result<Threads, String> {
+    let n: usize = s
+        .trim()
+        .parse()
+        .map_err(|_| format!("{s:?} is not a whole number; give 1 to {MAX_THREADS}"))?;
+    Threads::new(n).map_err(|e| e.to_string())
 }
 
 pub fn run(a: Args) -> Result<()> {
@@ -54,12 +69,13 @@ pub fn run(a: Args) -> Result<()> {
     // constant whatever the log's length.
     let mut trace = a.plot.as_ref().map(|_| Trace::default());
     let summary = with_output(a.output.as_deref(), |w| {
-        Ok(convert_log(
+        Ok(convert_log_threads(
             reader,
             w,
             &mut conv,
             a.on_bad_row.into(),
             a.float,
+            a.threads.unwrap_or_default(),
             |l| bar.set_position(l),
             |c| {
                 if let Some(tr) = trace.as_mut() {
