@@ -375,9 +375,7 @@ impl LineSplitter {
                 .map(|k| i + k)
                 .ok_or(SplitError::UnclosedQuote)?;
             if b.get(k + 1) == Some(&b'"') {
-                if plain {
-                    plain = false;
-                }
+                plain = false;
                 self.scratch.push_str(&line[i..k]);
                 self.scratch.push('"');
                 i = k + 2;
@@ -419,6 +417,16 @@ impl LineSplitter {
     pub fn get<'a>(&'a self, line: &'a str, i: usize) -> Option<&'a str> {
         let s = self.spans.get(i)?;
         let text = if s.in_scratch { &self.scratch } else { line };
-        text.get(s.start as usize..s.end as usize).map(str::trim)
+        let field = text.get(s.start as usize..s.end as usize)?;
+        // Most fields have nothing to trim: a printable ASCII byte at both
+        // ends (anything else may be whitespace, Unicode included).
+        let plain = |b: Option<&u8>| b.is_some_and(|&b| b > b' ' && b < 0x7f);
+        Some(
+            if plain(field.as_bytes().first()) && plain(field.as_bytes().last()) {
+                field
+            } else {
+                field.trim()
+            },
+        )
     }
 }

@@ -40,6 +40,10 @@ pub fn push_shortest(out: &mut Vec<u8>, v: f64) {
         out.push(b'0');
         return;
     }
+    if let Some((n, k)) = few_decimals(v) {
+        push_decimal(out, n, k);
+        return;
+    }
     let mut buf = ryu::Buffer::new();
     let text = buf.format_finite(v).as_bytes();
     // ryu writes `d.ddd`, `ddd.0`, `0.000ddd` or `d.ddde±x`: collect the
@@ -95,6 +99,45 @@ pub fn push_shortest(out: &mut Vec<u8>, v: f64) {
     }
 }
 
+/// `v` (positive) as n·10^-k with the fewest decimals k ≤ 6, when n has
+/// at most 15 digits: a logged time stamp or temperature. Such a decimal
+/// is the only one of at most 15 significant digits that reads back to
+/// `v` (15 digits always survive the trip through an `f64`), so it is the
+/// shortest, and it has no tie. `n / 10^k == v` is checked exactly: both
+/// are exact integers and the division is correctly rounded, like the
+/// parse of the decimal.
+fn few_decimals(v: f64) -> Option<(u64, usize)> {
+    const POW10: [f64; 7] = [1.0, 10.0, 100.0, 1e3, 1e4, 1e5, 1e6];
+    if v >= 1e9 {
+        return None;
+    }
+    for (k, &p) in POW10.iter().enumerate() {
+        let n = (v * p).round();
+        if n < 1e15 && n / p == v {
+            return Some((n as u64, k));
+        }
+    }
+    None
+}
+
+/// Appends n·10^-k with exactly k decimals.
+fn push_decimal<N: itoa::Integer>(out: &mut Vec<u8>, n: N, k: usize) {
+    let mut buf = itoa::Buffer::new();
+    let digits = buf.format(n).as_bytes();
+    if k == 0 {
+        out.extend_from_slice(digits);
+    } else if digits.len() > k {
+        let (a, b) = digits.split_at(digits.len() - k);
+        out.extend_from_slice(a);
+        out.push(b'.');
+        out.extend_from_slice(b);
+    } else {
+        out.extend_from_slice(b"0.");
+        out.extend(std::iter::repeat_n(b'0', k - digits.len()));
+        out.extend_from_slice(digits);
+    }
+}
+
 fn parse_exp(t: &[u8]) -> i32 {
     let (neg, t) = match t.first() {
         Some(b'-') => (true, &t[1..]),
@@ -127,20 +170,7 @@ pub fn push_fixed(out: &mut Vec<u8>, v: f64, decimals: usize) {
             if v.is_sign_negative() {
                 out.push(b'-');
             }
-            let mut buf = itoa::Buffer::new();
-            let digits = buf.format(n).as_bytes();
-            if decimals == 0 {
-                out.extend_from_slice(digits);
-            } else if digits.len() > decimals {
-                let (a, b) = digits.split_at(digits.len() - decimals);
-                out.extend_from_slice(a);
-                out.push(b'.');
-                out.extend_from_slice(b);
-            } else {
-                out.extend_from_slice(b"0.");
-                out.extend(std::iter::repeat_n(b'0', decimals - digits.len()));
-                out.extend_from_slice(digits);
-            }
+            push_decimal(out, n, decimals);
         }
         None => {
             use std::io::Write;
@@ -250,8 +280,16 @@ mod tests {
         }
 
         #[test]
-        fn shortest_matches_std_on_logged_decimals(int in 0u64..10_000_000, frac in 0u32..1000, neg: bool) {
-            let v: f64 = format!("{}{int}.{frac:03}", if neg { "-" } else { "" }).parse().unwrap();
+        fn shortest_matches_std_on_logged_decimals(int in 0u64..1_000_000_000, frac in 0u32..10_000_000, d in 0usize..8, neg: bool) {
+            let frac = frac.to_string();
+            let v: f64 = format!("{}{int}.{}", if neg { "-" } else { "" }, &frac[..d.min(frac.len())]).parse().unwrap();
+            prop_assert_eq!(shortest(v), format!("{v}"));
+        }
+
+        #[test]
+        fn shortest_matches_std_near_decimals(int in 0u64..1_000_000_000, frac in 0u32..1_000_000, ulps in -3i64..=3) {
+            let v: f64 = format!("{int}.{frac:06}").parse().unwrap();
+            let v = f64::from_bits(v.to_bits().saturating_add_signed(ulps));
             prop_assert_eq!(shortest(v), format!("{v}"));
         }
 
