@@ -52,7 +52,10 @@ fn main() {
         let upto = if n == 0 {
             end
         } else {
-            buf[..end].iter().rposition(|&b| b == b'\n').map_or(0, |k| k + 1)
+            buf[..end]
+                .iter()
+                .rposition(|&b| b == b'\n')
+                .map_or(0, |k| k + 1)
         };
         // One small allocation per megabyte read, not per row.
         let mut fields: Vec<&[u8]> = Vec::with_capacity(8);

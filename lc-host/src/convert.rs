@@ -274,6 +274,7 @@ pub fn convert_log_threads<R: Read, W: Write>(
 mod tests {
     use super::*;
     use lc_core::image::tests_support::demo_proximity;
+    use std::io::Write;
     use std::path::Path;
 
     #[test]
@@ -298,6 +299,201 @@ mod tests {
         let text = String::from_utf8(out).unwrap();
         assert!(text.starts_with("# lc-host convert: unit DEMO-01-0007, value in 1e-6 m\nline,"));
         assert!(text.contains(",fault_no_oscillation,") && text.contains(",fault_no_reference,"));
+    }
+
+    /// The straightforward conversion: the row iterator, one row at a time
+    /// through `Converter::convert`, every field through `std::fmt`. The
+    /// parallel path must give exactly these bytes.
+    fn reference_output(cal: Calibration, log: &[u8], with_f64: bool) -> (Vec<u8>, Summary) {
+        let reader = FieldLogReader::new(log, Path::new("log.csv")).unwrap();
+        let mut conv = Converter::new(cal).unwrap();
+        let mut out = Vec::new();
+        let mut summary = Summary::default();
+        let opt = |v: Option<i32>| v.map_or(String::new(), |v| v.to_string());
+        let fixed = |v: Option<f64>| v.map_or(String::new(), |v| format!("{v:.4}"));
+        for row in reader {
+            let row = match row {
+                Ok(row) => row,
+                Err(e) => {
+                    summary.skipped += 1;
+                    summary.first_skip.get_or_insert_with(|| e.to_string());
+                    continue;
+                }
+            };
+            let c = conv.convert(&row);
+            let r = c.reading;
+            let fault = matches!(r.status, Status::SensorFault(_));
+            write!(
+                out,
+                "{},{},{},{},{},{},{}",
+                row.line,
+                row.time_s.map_or(String::new(), |t| t.to_string()),
+                row.channel.map_or(String::new(), |c| c.to_string()),
+                status_name(r.status),
+                if fault {
+                    String::new()
+                } else {
+                    r.value.to_string()
+                },
+                opt(r.secondary),
+                if fault {
+                    String::new()
+                } else {
+                    format!("{:.6}", r.shift.to_ppm_f64())
+                },
+            )
+            .unwrap();
+            if with_f64 {
+                let diff = c.value_f64.map(|v| f64::from(r.value) - v);
+                write!(out, ",{},{}", fixed(c.value_f64), fixed(diff)).unwrap();
+            }
+            out.push(b'\n');
+            summary.rows += 1;
+            match r.status {
+                Status::Ok => summary.ok += 1,
+                Status::SensorFault(_) => summary.faults += 1,
+                _ => summary.out_of_range += 1,
+            }
+        }
+        (out, summary)
+    }
+
+    /// A simulated log of the demo unit with every fault the simulator
+    /// injects, about 14 blocks long, with hand-made lines mixed in:
+    /// comments, blank lines, CRLF ends, quoted and padded fields, unusual
+    /// number spellings, bad rows, frequencies-free count rows.
+    fn hostile_log() -> Vec<u8> {
+        use crate::sim::field::{write_field_log, Fault, FaultKind, FieldSpec};
+        use crate::sim::rig::{units, LotSpec};
+        let unit = units(&LotSpec::demo("DEMO-01", 7, 1)).pop().unwrap();
+        let mut spec = FieldSpec::demo(unit, 8);
+        spec.duration_s = 6_000.0;
+        spec.faults = [
+            (FaultKind::OpenCoil, 100.0, 2.0),
+            (FaultKind::ShortedCoil, 900.0, 3.0),
+            (FaultKind::Dropouts, 1_500.0, 60.0),
+            (FaultKind::StuckCounter, 4_000.0, 1.0),
+        ]
+        .map(|(kind, at_s, duration_s)| Fault {
+            kind,
+            at_s,
+            duration_s,
+        })
+        .to_vec();
+        let mut log = Vec::new();
+        write_field_log(&spec, &mut log).unwrap();
+        let text = String::from_utf8(log).unwrap();
+        let mut out = String::new();
+        for (i, line) in text.lines().enumerate() {
+            out.push_str(line);
+            out.push_str(if i % 7_919 == 5 { "\r\n" } else { "\n" });
+            match i % 9_973 {
+                100 => out.push_str("# a comment in the middle\n\n"),
+                200 => out.push_str(" 12.5 , 3 ,\"16384\", 139542 ,\"25\"\n"),
+                300 => out.push_str("1e1,,16384,139000,-0\n+7.25,255,16384,139000,1e-3\n"),
+                400 => out.push_str("x,0,16384,139542,25\n1,0,16384,\"13\"\"9\",25\n"),
+                500 => out.push_str("0.30000000000000004,0,0,0,\n"),
+                _ => {}
+            }
+        }
+        out.into_bytes()
+    }
+
+    #[test]
+    fn parallel_output_is_byte_identical_to_the_plain_path() {
+        let log = hostile_log();
+        assert!(log.len() > 10 * 131_072, "{} bytes", log.len());
+        for image in ["demo-proximity-tc", "demo-metal", "demo-level"] {
+            let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join(format!("../examples/firmware/data/{image}.lcim"));
+            let bytes = std::fs::read(&path).unwrap();
+            let cal = Calibration::parse(&bytes).unwrap();
+            for with_f64 in [false, true] {
+                let (want, want_summary) = reference_output(cal, &log, with_f64);
+                assert!(
+                    want_summary.faults > 0 && want_summary.ok > 0 || image != "demo-proximity-tc"
+                );
+                assert!(want_summary.skipped >= 2);
+                for threads in 1..=4 {
+                    let reader = FieldLogReader::new(log.as_slice(), Path::new("log.csv")).unwrap();
+                    let mut conv = Converter::new(cal).unwrap();
+                    let mut out = Vec::new();
+                    let mut lines = Vec::new();
+                    let summary = convert_log_threads(
+                        reader,
+                        &mut out,
+                        &mut conv,
+                        OnBadRow::Skip,
+                        with_f64,
+                        Threads::new(threads).unwrap(),
+                        |_| {},
+                        |c| lines.push(c.line),
+                    )
+                    .unwrap();
+                    let body = out.splitn(3, |&b| b == b'\n').nth(2).unwrap();
+                    assert!(
+                        body == want.as_slice(),
+                        "{image}, float {with_f64}, {threads} threads: first difference at byte {}",
+                        body.iter()
+                            .zip(&want)
+                            .position(|(a, b)| a != b)
+                            .unwrap_or(body.len().min(want.len()))
+                    );
+                    assert_eq!(summary, want_summary, "{image} {threads}");
+                    assert!(
+                        lines.windows(2).all(|w| w[0] < w[1]),
+                        "rows observed in order"
+                    );
+                    assert_eq!(lines.len() as u64, summary.rows);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn a_bad_row_stops_the_run_after_the_rows_before_it() {
+        let mut log = hostile_log();
+        // A bad row far down: several blocks are converted before it.
+        let at = log.len() / 2;
+        let cut = at + log[at..].iter().position(|&b| b == b'\n').unwrap() + 1;
+        log.splice(cut..cut, b"1,0,16384,oops,25\n".iter().copied());
+        let bad_line = log[..cut].iter().filter(|&&b| b == b'\n').count() + 1;
+        let text = std::str::from_utf8(&log)
+            .unwrap()
+            .replace("x,0,", "0,0,")
+            .replace("\"13\"\"9\"", "139");
+        for threads in [1, 3] {
+            let reader = FieldLogReader::new(text.as_bytes(), Path::new("log.csv")).unwrap();
+            let mut conv = Converter::new(demo_proximity().unwrap()).unwrap();
+            let mut seen = 0u64;
+            let e = convert_log_threads(
+                reader,
+                Vec::new(),
+                &mut conv,
+                OnBadRow::Stop,
+                false,
+                Threads::new(threads).unwrap(),
+                |_| {},
+                |_| seen += 1,
+            )
+            .unwrap_err();
+            assert!(
+                e.to_string()
+                    .contains(&format!("log.csv: line {bad_line}: field `ticks`")),
+                "{e}"
+            );
+            assert!(seen > 25_000, "{seen} rows before the bad one");
+        }
+    }
+
+    #[test]
+    fn thread_counts_are_bounded() {
+        assert!(Threads::new(0).is_err() && Threads::new(17).is_err());
+        assert!(Threads::new(1).is_ok() && Threads::new(16).is_ok());
+        assert!(Threads::new(0)
+            .unwrap_err()
+            .to_string()
+            .contains("give 1 to 16"));
     }
 
     #[test]
