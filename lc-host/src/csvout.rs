@@ -170,7 +170,11 @@ pub fn push_fixed(out: &mut Vec<u8>, v: f64, decimals: usize) {
             if v.is_sign_negative() {
                 out.push(b'-');
             }
-            push_decimal(out, n, decimals);
+            // 64-bit digits are faster to print where they suffice.
+            match u64::try_from(n) {
+                Ok(n) => push_decimal(out, n, decimals),
+                Err(_) => push_decimal(out, n, decimals),
+            }
         }
         None => {
             use std::io::Write;
