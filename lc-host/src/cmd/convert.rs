@@ -61,6 +61,10 @@ fn parse_threads(s: &str) -> Result<Threads, String> {
 }
 
 pub fn run(a: Args) -> Result<()> {
+    for out in [&a.output, &a.plot].into_iter().flatten() {
+        lc_host::atomic::refuse_same_file(&a.input, out)?;
+        lc_host::atomic::refuse_same_file(&a.image, out)?;
+    }
     let cal = load_image(&a.image)?;
     let mut conv = Converter::new(cal).map_err(|e| anyhow!("{}: {e}", a.image.display()))?;
     let reader = FieldLogReader::new(open_input(&a.input, "field log")?, &a.input)?;
