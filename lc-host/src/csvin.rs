@@ -30,6 +30,16 @@ pub enum InputError {
         /// Which columns the format needs (and where it is documented).
         hint: &'static str,
     },
+    /// The header cannot be used as it is.
+    #[error("{file}: line {line}: {message}")]
+    Header {
+        /// File name.
+        file: PathBuf,
+        /// The header's line.
+        line: u64,
+        /// What is wrong and what to do.
+        message: String,
+    },
     /// A field does not parse.
     #[error("{file}: line {line}: field `{field}`: {problem} (found {found:?})")]
     BadField {
@@ -60,7 +70,9 @@ impl InputError {
     /// The line the error refers to, when it refers to one.
     pub fn line(&self) -> Option<u64> {
         match self {
-            InputError::BadField { line, .. } | InputError::Csv { line, .. } => Some(*line),
+            InputError::BadField { line, .. }
+            | InputError::Csv { line, .. }
+            | InputError::Header { line, .. } => Some(*line),
             _ => None,
         }
     }

@@ -70,6 +70,119 @@ pub struct Columns {
     ring_count: Option<usize>,
     comp_cycles: Option<usize>,
     comp_ticks: Option<usize>,
+    /// Fields in the header: every row has as many.
+    width: usize,
+}
+
+/// The columns a field log may have.
+pub const COLUMNS: [&str; 9] = [
+    "time_s",
+    "channel",
+    "cycles",
+    "ticks",
+    "frequency_hz",
+    "temp_c",
+    "ring_count",
+    "comp_cycles",
+    "comp_ticks",
+];
+
+/// The header's problems: duplicated columns and rig logs are errors;
+/// unknown columns are warnings, with the field-log column each may have
+/// been meant as.
+struct Header {
+    warnings: Vec<String>,
+    /// (column found, field-log column it looks like) for unknown columns.
+    suggestions: Vec<(String, &'static str)>,
+}
+
+impl Header {
+    fn check(names: &[String], file: &Path, line: u64) -> Result<Self, LogError> {
+        let error = |message: String| LogError::Header {
+            file: file.to_path_buf(),
+            line,
+            message,
+        };
+        let has = |c: &str| names.iter().any(|n| n.eq_ignore_ascii_case(c));
+        if has("serial") && has("step") && has("target") {
+            return Err(error(
+                "this is a rig log (columns `serial`, `step`, `target`), not a field log: \
+                 calibrate it with `lc-host calibrate`; convert takes a unit's field log \
+                 (see docs/formats.md)"
+                    .into(),
+            ));
+        }
+        for (i, a) in names.iter().enumerate() {
+            if let Some(j) = names[i + 1..]
+                .iter()
+                .position(|b| b.eq_ignore_ascii_case(a))
+            {
+                return Err(error(format!(
+                    "column `{a}` appears twice (columns {} and {}): which one holds the data is \
+                     ambiguous; rename or remove one",
+                    i + 1,
+                    i + j + 2
+                )));
+            }
+        }
+        let mut warnings = Vec::new();
+        let mut suggestions = Vec::new();
+        for name in names {
+            if COLUMNS.iter().any(|c| c.eq_ignore_ascii_case(name)) {
+                continue;
+            }
+            match meant(name) {
+                Some(c) if !has(c) => {
+                    warnings.push(format!(
+                        "{}: line {line}: column `{name}` is not a field-log column and is ignored; \
+                         if it holds `{c}`, name it `{c}`",
+                        file.display()
+                    ));
+                    suggestions.push((name.clone(), c));
+                }
+                _ => warnings.push(format!(
+                    "{}: line {line}: column `{name}` is not a field-log column and is ignored \
+                     (columns: {})",
+                    file.display(),
+                    COLUMNS.join(", ")
+                )),
+            }
+        }
+        Ok(Self {
+            warnings,
+            suggestions,
+        })
+    }
+}
+
+/// The field-log column an unknown name most likely stands for: within two
+/// edits, or sharing its first four letters (`temp`, `temperature`).
+fn meant(name: &str) -> Option<&'static str> {
+    let lower = name.to_ascii_lowercase();
+    let prefix =
+        |c: &str| lower.len() >= 4 && c.len() >= 4 && lower.as_bytes()[..4] == c.as_bytes()[..4];
+    COLUMNS
+        .iter()
+        .map(|c| (edits(&lower, c), *c))
+        .filter(|&(d, c)| d <= 2 || prefix(c))
+        .min()
+        .map(|(_, c)| c)
+}
+
+/// Levenshtein distance.
+fn edits(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut prev = row[0];
+        row[0] = i + 1;
+        for (j, cb) in b.iter().enumerate() {
+            let cur = row[j + 1];
+            row[j + 1] = (prev + usize::from(ca != *cb)).min(row[j] + 1).min(cur + 1);
+            prev = cur;
+        }
+    }
+    row[b.len()]
 }
 
 /// Input is read in pieces of this size.
@@ -94,6 +207,7 @@ pub struct FieldLogReader<R: Read> {
     input: R,
     file: PathBuf,
     columns: Columns,
+    warnings: Vec<String>,
     /// Bytes read and not yet handed out: `buf[pos..]`.
     buf: Vec<u8>,
     pos: usize,
@@ -121,7 +235,9 @@ impl<R: Read> FieldLogReader<R> {
                 ring_count: None,
                 comp_cycles: None,
                 comp_ticks: None,
+                width: 0,
             },
+            warnings: Vec::new(),
             buf: Vec::with_capacity(READ_BYTES),
             pos: 0,
             line: 1,
@@ -133,6 +249,7 @@ impl<R: Read> FieldLogReader<R> {
             reader.pos = 3;
         }
         let mut names: Vec<String> = Vec::new();
+        let mut header_line = 1;
         while let Some((line, number)) = reader.next_line()? {
             let Some(text) = record_text(line) else {
                 continue;
@@ -145,15 +262,29 @@ impl<R: Read> FieldLogReader<R> {
             names = (0..splitter.len())
                 .map(|i| splitter.get(text, i).unwrap_or("").to_string())
                 .collect();
+            header_line = number;
             break;
         }
+        let header = Header::check(&names, file, header_line)?;
+        reader.warnings = header.warnings;
         let column = |name: &str| names.iter().position(|h| h.eq_ignore_ascii_case(name));
         let require = |name: &'static str| {
-            column(name).ok_or_else(|| LogError::MissingColumn {
-                file: file.to_path_buf(),
-                column: name,
-                hint: HINT,
-            })
+            column(name).ok_or_else(
+                || match header.suggestions.iter().find(|(_, k)| *k == name) {
+                    Some((found, _)) => LogError::Header {
+                        file: file.to_path_buf(),
+                        line: header_line,
+                        message: format!(
+                        "header has no `{name}` column; is `{found}` meant to be `{name}`? {HINT}"
+                    ),
+                    },
+                    None => LogError::MissingColumn {
+                        file: file.to_path_buf(),
+                        column: name,
+                        hint: HINT,
+                    },
+                },
+            )
         };
         let source = match (column("frequency_hz"), column("cycles")) {
             (Some(f), None) => Source::Frequency(f),
@@ -170,8 +301,15 @@ impl<R: Read> FieldLogReader<R> {
             ring_count: column("ring_count"),
             comp_cycles: column("comp_cycles"),
             comp_ticks: column("comp_ticks"),
+            width: names.len(),
         };
         Ok(reader)
+    }
+
+    /// What the header check found worth saying without stopping: columns
+    /// that are ignored, with the column they may have been meant as.
+    pub fn warnings(&self) -> &[String] {
+        &self.warnings
     }
 
     /// The resolved header.
@@ -324,10 +462,25 @@ impl Columns {
     ) -> Option<Result<FieldRow, LogError>> {
         let text = record_text(line)?;
         Some((|| {
+            if text.len() > MAX_LINE_BYTES {
+                return Err(too_long(file, number));
+            }
             let text = std::str::from_utf8(text).map_err(|_| not_utf8(file, number))?;
             splitter
                 .split(text)
                 .map_err(|e| split_error(file, number, e))?;
+            if splitter.len() != self.width {
+                return Err(LogError::Csv {
+                    file: file.to_path_buf(),
+                    line: number,
+                    message: format!(
+                        "{} fields where the header has {}: a row has one field per column \
+                         (leave a field empty, not out)",
+                        splitter.len(),
+                        self.width
+                    ),
+                });
+            }
             parse(&Row::from_line(file, number, text, splitter), *self)
         })())
     }
@@ -465,6 +618,88 @@ mod tests {
             .unwrap_err()
             .to_string()
             .contains("field `frequency_hz`"));
+    }
+
+    /// Issue 19, item 4: header problems were accepted silently.
+    #[test]
+    fn header_problems_are_errors_or_warnings() {
+        let e = read("cycles,ticks,temp_c,TICKS\n1,2,3,4\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("line 1: column `ticks` appears twice (columns 2 and 4)"),
+            "{e}"
+        );
+        let e = read("cycles,tick\n1,2\n").unwrap_err().to_string();
+        assert!(e.contains("is `tick` meant to be `ticks`?"), "{e}");
+        let r = FieldLogReader::new(
+            "time_s,cycles,ticks,temperature,note\n0,1,2,25,x\n".as_bytes(),
+            Path::new("log.csv"),
+        )
+        .unwrap();
+        let w = r.warnings().join("\n");
+        assert!(w.contains("column `temperature` is not a field-log column and is ignored; if it holds `temp_c`, name it `temp_c`"), "{w}");
+        assert!(w.contains("column `note` is not a field-log column"), "{w}");
+        let clean =
+            FieldLogReader::new("time_s,cycles,ticks,temp_c\n".as_bytes(), Path::new("l")).unwrap();
+        assert!(clean.warnings().is_empty());
+    }
+
+    /// Issue 19, item 4: a short row read its missing fields as empty.
+    #[test]
+    fn rows_have_one_field_per_column() {
+        let rows =
+            read("time_s,cycles,ticks,temp_c\n0,4096,19275\n0,4096,19275,25,9\n0,4096,19275,\n")
+                .unwrap();
+        let e = rows[0].as_ref().unwrap_err().to_string();
+        assert!(
+            e.contains("line 2: malformed CSV: 3 fields where the header has 4"),
+            "{e}"
+        );
+        assert!(rows[1]
+            .as_ref()
+            .unwrap_err()
+            .to_string()
+            .contains("5 fields where the header has 4"));
+        assert_eq!(rows[2].as_ref().unwrap().temp_c, None);
+    }
+
+    /// Issue 19, item 3: a rig log converted without a word.
+    #[test]
+    fn a_rig_log_is_not_a_field_log() {
+        let e = read(
+            "serial,step,temp_c,target,target_unit,cycles,ticks\nA-1,1,25,none,mm,16384,139217\n",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.contains("this is a rig log") && e.contains("lc-host calibrate"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn lines_comments_quotes_and_line_ends() {
+        let text = "\u{feff}# top\ncycles,ticks,note\r\n4096,19275,\"a, \"\"quoted\"\" note\"\r\n\n# mid\n\"4096\" , 19180 ,x\n4096,19000,\"open\n";
+        let rows = read(text).unwrap();
+        assert_eq!(rows.len(), 3);
+        let r: Vec<_> = rows.iter().take(2).map(|r| r.as_ref().unwrap()).collect();
+        assert_eq!(
+            (r[0].line, r[0].pair()),
+            (3, Some(CountPair::new(4096, 19_275)))
+        );
+        assert_eq!(
+            (r[1].line, r[1].pair()),
+            (6, Some(CountPair::new(4096, 19_180)))
+        );
+        let e = rows[2].as_ref().unwrap_err().to_string();
+        assert!(
+            e.contains("line 7") && e.contains("quoted field is not closed"),
+            "{e}"
+        );
+        let long = format!("cycles,ticks\n{}\n", "1".repeat(MAX_LINE_BYTES + 10));
+        let e = read(&long).unwrap().pop().unwrap().unwrap_err().to_string();
+        assert!(e.contains("line 2") && e.contains("not a field log"), "{e}");
     }
 
     proptest! {

@@ -68,6 +68,9 @@ pub fn run(a: Args) -> Result<()> {
     let cal = load_image(&a.image)?;
     let mut conv = Converter::new(cal).map_err(|e| anyhow!("{}: {e}", a.image.display()))?;
     let reader = FieldLogReader::new(open_input(&a.input, "field log")?, &a.input)?;
+    for w in reader.warnings() {
+        eprintln!("warning: {w}");
+    }
     let bar = spinner("{spinner} {pos} lines ({per_sec}) {elapsed}");
     // The trace keeps a min/max envelope of bounded size, so memory stays
     // constant whatever the log's length.
