@@ -11,6 +11,7 @@ use lc_core::reader::{
 };
 use lc_core::shift::ShiftError;
 use lc_core::temperature::CentiCelsius;
+use std::collections::BTreeMap;
 use std::io::{Read, Write};
 
 /// A stable name for a reading's status, as written in CSV.
@@ -52,11 +53,47 @@ pub struct Converted {
     pub value_f64: Option<f64>,
 }
 
-/// The converter: a calibration and the reader built from it.
+/// The converter: calibration images and one reader per channel built
+/// from them. Every channel keeps its own reader, so a stateful reader
+/// (metal: baseline, detector) sees only its own channel's rows, in order,
+/// as on a unit with one reader per channel.
 #[derive(Debug)]
 pub struct Converter {
-    reader: Reader,
-    twin: Twin,
+    twins: Vec<Twin>,
+    /// A reader built from each image, cloned for each channel.
+    readers: Vec<Reader>,
+    /// Channel → image, where given.
+    by_channel: BTreeMap<u8, usize>,
+    /// The image of every other channel, if any.
+    default: Option<usize>,
+    /// The live readers, by channel slot ([`slot`]).
+    live: Vec<Option<Box<Reader>>>,
+}
+
+/// Channel slots: 0–255, and one for rows without a channel.
+const SLOTS: usize = 257;
+
+fn slot(channel: Option<u8>) -> usize {
+    channel.map_or(SLOTS - 1, usize::from)
+}
+
+/// Why a per-channel converter could not be built.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum SetupError {
+    /// No image at all.
+    #[error("no calibration image: give --image, or --channel-image CH=IMAGE per channel")]
+    NoImage,
+    /// A channel is mapped twice.
+    #[error("channel {0} is given two images; give one per channel")]
+    Twice(u8),
+    /// An image builds no reader.
+    #[error("{}: {error}", channel.map_or("the image".to_string(), |c| format!("the image of channel {c}")))]
+    Reader {
+        /// The channel (`None`: the default image).
+        channel: Option<u8>,
+        /// Why.
+        error: ReaderError,
+    },
 }
 
 /// What a row needs besides the stateful reader: the calibration, the
@@ -114,42 +151,127 @@ impl Twin {
 }
 
 impl Converter {
-    /// A converter for a calibration.
+    /// A converter with one image for every channel (each channel still
+    /// has its own reader).
     pub fn new(calibration: Calibration) -> Result<Self, ReaderError> {
-        Ok(Self {
-            reader: Reader::from_calibration(&calibration)?,
-            twin: Twin {
+        Self::per_channel(Some(calibration), &[]).map_err(|e| match e {
+            SetupError::Reader { error, .. } => error,
+            // One default image and no channels: only the reader can fail.
+            _ => ReaderError::Incomplete,
+        })
+    }
+
+    /// A converter with an image per channel (`channels`), and `default`
+    /// for every channel not listed. Without a default, a row of an
+    /// unlisted channel is an error naming it ([`RunError::NoImage`]).
+    pub fn per_channel(
+        default: Option<Calibration>,
+        channels: &[(u8, Calibration)],
+    ) -> Result<Self, SetupError> {
+        let mut conv = Self {
+            twins: Vec::new(),
+            readers: Vec::new(),
+            by_channel: BTreeMap::new(),
+            default: None,
+            live: (0..SLOTS).map(|_| None).collect(),
+        };
+        let images = default
+            .map(|c| (None, c))
+            .into_iter()
+            .chain(channels.iter().map(|&(ch, c)| (Some(ch), c)));
+        for (channel, calibration) in images {
+            let reader = Reader::from_calibration(&calibration)
+                .map_err(|error| SetupError::Reader { channel, error })?;
+            let k = conv.twins.len();
+            conv.readers.push(reader);
+            conv.twins.push(Twin {
                 proximity: ProximityReader::new(&calibration).ok(),
                 level: LevelReader::new(&calibration).ok(),
                 frequency_gate: calibration.gate().unwrap_or(16_384),
                 calibration,
-            },
-        })
+            });
+            match channel {
+                None => conv.default = Some(k),
+                Some(ch) => {
+                    if conv.by_channel.insert(ch, k).is_some() {
+                        return Err(SetupError::Twice(ch));
+                    }
+                }
+            }
+        }
+        if conv.twins.is_empty() {
+            return Err(SetupError::NoImage);
+        }
+        Ok(conv)
     }
 
-    /// The calibration.
+    /// The calibration of every channel without its own image, or else the
+    /// first channel's.
     pub fn calibration(&self) -> &Calibration {
-        &self.twin.calibration
+        &self.twins[self.default.unwrap_or(0)].calibration
+    }
+
+    /// The image (index) of a channel.
+    fn image_of(&self, channel: Option<u8>) -> Option<usize> {
+        image_of(&self.by_channel, self.default, channel)
     }
 
     /// The count pair a row stands for. A logged frequency becomes the pair
     /// a reciprocal gate of the image's length would have counted (ticks
     /// rounded to the nearest whole tick).
     pub fn pair_of(&self, row: &FieldRow) -> CountPair {
-        self.twin.pair_of(row)
+        self.twins[self.image_of(row.channel).unwrap_or(0)].pair_of(row)
     }
 
-    /// Converts one row (stateful for metal readers, as on the unit), with
-    /// the f64 reference value.
-    pub fn convert(&mut self, row: &FieldRow) -> Converted {
-        let reading = self.reader.read(&self.twin.input_of(row));
-        Converted {
+    /// Converts one row through its channel's reader (stateful for metal
+    /// readers, as on the unit), with the f64 reference value; `None` when
+    /// the channel has no image.
+    pub fn try_convert(&mut self, row: &FieldRow) -> Option<Converted> {
+        let k = self.image_of(row.channel)?;
+        let twin = &self.twins[k];
+        let readers = &self.readers;
+        let reader =
+            self.live[slot(row.channel)].get_or_insert_with(|| Box::new(readers[k].clone()));
+        let reading = reader.read(&twin.input_of(row));
+        Some(Converted {
             line: row.line,
             time_s: row.time_s,
             reading,
-            value_f64: self.twin.reference(row, &reading),
+            value_f64: twin.reference(row, &reading),
+        })
+    }
+
+    /// [`Converter::try_convert`] for a converter with an image for every
+    /// channel ([`Converter::new`]); a row of a channel without an image
+    /// goes through the first image given.
+    pub fn convert(&mut self, row: &FieldRow) -> Converted {
+        match self.try_convert(row) {
+            Some(c) => c,
+            None => {
+                let twin = &self.twins[0];
+                let readers = &self.readers;
+                let reader = self.live[slot(row.channel)]
+                    .get_or_insert_with(|| Box::new(readers[0].clone()));
+                let reading = reader.read(&twin.input_of(row));
+                Converted {
+                    line: row.line,
+                    time_s: row.time_s,
+                    reading,
+                    value_f64: twin.reference(row, &reading),
+                }
+            }
         }
     }
+}
+
+fn image_of(
+    by_channel: &BTreeMap<u8, usize>,
+    default: Option<usize>,
+    channel: Option<u8>,
+) -> Option<usize> {
+    channel
+        .and_then(|c| by_channel.get(&c).copied())
+        .or(default)
 }
 
 /// The CSV header of [`convert_log`].
@@ -198,34 +320,70 @@ pub fn convert_log_threads<R: Read, W: Write>(
     progress: impl FnMut(u64),
     mut observe: impl FnMut(&Converted),
 ) -> Result<Summary, RunError> {
-    let cal = conv.twin.calibration;
-    writeln!(
-        out,
-        "# lc-host convert: unit {}, value in 1e{} {}{}",
-        cal.serial.as_str(),
-        cal.output.decimal_exponent,
-        cal.output.unit.symbol(),
-        cal.volume.map_or(String::new(), |(_, s)| format!(
-            ", secondary (volume) in 1e{} {}",
-            s.decimal_exponent,
-            s.unit.symbol()
-        ))
-    )?;
+    let unit_line = |cal: &Calibration| {
+        format!(
+            "unit {}, value in 1e{} {}{}",
+            cal.serial.as_str(),
+            cal.output.decimal_exponent,
+            cal.output.unit.symbol(),
+            cal.volume.map_or(String::new(), |(_, s)| format!(
+                ", secondary (volume) in 1e{} {}",
+                s.decimal_exponent,
+                s.unit.symbol()
+            ))
+        )
+    };
+    if let Some(k) = conv.default {
+        let prefix = if conv.by_channel.is_empty() {
+            ""
+        } else {
+            "other channels: "
+        };
+        writeln!(
+            out,
+            "# lc-host convert: {prefix}{}",
+            unit_line(&conv.twins[k].calibration)
+        )?;
+    }
+    for (ch, &k) in &conv.by_channel {
+        writeln!(
+            out,
+            "# lc-host convert: channel {ch}: {}",
+            unit_line(&conv.twins[k].calibration)
+        )?;
+    }
     let header = if with_f64 {
         format!("{OUTPUT_HEADER},value_f64,diff")
     } else {
         OUTPUT_HEADER.to_string()
     };
-    let Converter { reader: unit, twin } = conv;
-    let twin = &*twin;
+    let Converter {
+        twins,
+        readers,
+        by_channel,
+        default,
+        live,
+    } = conv;
+    let (twins, readers, by_channel, default) = (&*twins, &*readers, &*by_channel, *default);
     stream_log(
         reader,
         out,
         &header,
         on_bad_row,
         threads,
-        |row| (unit.read(&twin.input_of(row)), None),
-        |row, (r, value_f64): &mut (Reading, Option<f64>), out| {
+        |row| {
+            let k = image_of(by_channel, default, row.channel)?;
+            let unit = live[slot(row.channel)].get_or_insert_with(|| Box::new(readers[k].clone()));
+            Some((unit.read(&twins[k].input_of(row)), None::<f64>, k))
+        },
+        |row, state: &mut Option<(Reading, Option<f64>, usize)>, out| {
+            let Some((r, value_f64, k)) = state else {
+                return Err(RunError::NoImage {
+                    line: row.line,
+                    channel: row.channel,
+                });
+            };
+            let twin = &twins[*k];
             let fault = matches!(r.status, Status::SensorFault(_));
             push_int(out, row.line);
             out.push(b',');
@@ -259,13 +417,15 @@ pub fn convert_log_threads<R: Read, W: Write>(
             })
         },
         progress,
-        |row, &(reading, value_f64)| {
-            observe(&Converted {
-                line: row.line,
-                time_s: row.time_s,
-                reading,
-                value_f64,
-            })
+        |row, state| {
+            if let Some((reading, value_f64, _)) = *state {
+                observe(&Converted {
+                    line: row.line,
+                    time_s: row.time_s,
+                    reading,
+                    value_f64,
+                })
+            }
         },
     )
 }
@@ -484,6 +644,115 @@ mod tests {
             );
             assert!(seen > 25_000, "{seen} rows before the bad one");
         }
+    }
+
+    /// Issue 19, item 3: a two-channel metal log went through one stateful
+    /// reader. Each channel now converts as if logged alone.
+    #[test]
+    fn each_channel_has_its_own_reader() {
+        let path =
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/firmware/data/demo-metal.lcim");
+        let cal = Calibration::parse(&std::fs::read(path).unwrap()).unwrap();
+        let rest = cal.rest.to_f64();
+        let gate = cal.gate().unwrap_or(4096);
+        let row = |i: u32, ticks_off: f64| {
+            format!(
+                "{},{},{}\n",
+                i % 2,
+                gate,
+                (f64::from(gate) * rest * (1.0 + ticks_off)).round()
+            )
+        };
+        // Channel 0 at rest, channel 1 with a target coming and going.
+        let mut both = String::from("channel,cycles,ticks\n");
+        let mut alone = [
+            String::from("channel,cycles,ticks\n"),
+            String::from("channel,cycles,ticks\n"),
+        ];
+        for i in 0..2_000u32 {
+            let off = if i % 2 == 0 {
+                0.0
+            } else if (i / 200) % 2 == 1 {
+                -0.02
+            } else {
+                0.0
+            };
+            let r = row(i, off);
+            both.push_str(&r);
+            alone[(i % 2) as usize].push_str(&r);
+        }
+        let run = |text: &str| {
+            let reader = FieldLogReader::new(text.as_bytes(), Path::new("m.csv")).unwrap();
+            let mut conv = Converter::new(cal).unwrap();
+            let mut readings = Vec::new();
+            convert_log_threads(
+                reader,
+                Vec::new(),
+                &mut conv,
+                OnBadRow::Stop,
+                false,
+                Threads::new(2).unwrap(),
+                |_| {},
+                |c| readings.push(c.reading),
+            )
+            .unwrap();
+            readings
+        };
+        let mixed = run(&both);
+        // One reader for both (the channel column dropped) reads otherwise:
+        // the test can fail.
+        let one: String = both
+            .lines()
+            .map(|l| format!("{}\n", &l[l.find(',').unwrap() + 1..]))
+            .collect();
+        assert_ne!(
+            run(&format!("channel,{one}").replacen("channel,cycles", "cycles", 1)),
+            mixed
+        );
+        for (ch, alone) in alone.iter().enumerate() {
+            let own: Vec<_> = mixed.iter().skip(ch).step_by(2).copied().collect();
+            assert_eq!(own, run(alone), "channel {ch}");
+        }
+    }
+
+    #[test]
+    fn a_channel_without_an_image_is_named() {
+        let cal = demo_proximity().unwrap();
+        let log = "channel,cycles,ticks\n0,16384,139542\n0,16384,139542\n7,16384,139542\n";
+        let reader = FieldLogReader::new(log.as_bytes(), Path::new("c.csv")).unwrap();
+        let mut conv = Converter::per_channel(None, &[(0, cal)]).unwrap();
+        let mut out = Vec::new();
+        let e = convert_log_threads(
+            reader,
+            &mut out,
+            &mut conv,
+            OnBadRow::Stop,
+            false,
+            Threads::new(1).unwrap(),
+            |_| {},
+            |_| {},
+        )
+        .unwrap_err();
+        assert!(
+            e.to_string().contains(
+                "line 4: channel 7 has no calibration image: map it with `--channel-image 7=IMAGE`"
+            ),
+            "{e}"
+        );
+        let text = String::from_utf8(out).unwrap();
+        assert!(
+            text.starts_with("# lc-host convert: channel 0: unit DEMO-01-0007"),
+            "{text}"
+        );
+        assert_eq!(text.lines().count(), 4, "the two rows before it: {text}");
+        assert_eq!(
+            Converter::per_channel(None, &[]).unwrap_err(),
+            SetupError::NoImage
+        );
+        assert_eq!(
+            Converter::per_channel(None, &[(1, cal), (1, cal)]).unwrap_err(),
+            SetupError::Twice(1)
+        );
     }
 
     #[test]

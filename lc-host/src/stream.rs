@@ -43,6 +43,14 @@ pub enum RunError {
         /// Line.
         line: u64,
     },
+    /// A row's channel has no calibration image.
+    #[error("line {line}: channel {} has no calibration image: map it with `--channel-image {}=IMAGE`, or give `--image` for every channel", channel.map_or("(none)".to_string(), |c| c.to_string()), channel.map_or("N".to_string(), |c| c.to_string()))]
+    NoImage {
+        /// Line.
+        line: u64,
+        /// The row's channel (`None`: the row has none).
+        channel: Option<u8>,
+    },
     /// Writing the output failed.
     #[error("cannot write output: {0}")]
     Write(#[from] std::io::Error),

@@ -3,7 +3,7 @@
 use super::counts::{report, BadRow};
 use super::{load_image, open_input, spinner, with_output};
 use anyhow::{anyhow, Result};
-use lc_host::convert::{convert_log_threads, Converter};
+use lc_host::convert::{convert_log_threads, Converter, SetupError};
 use lc_host::fieldlog::FieldLogReader;
 use lc_host::stream::{Threads, MAX_THREADS};
 use lc_host::svg::{Quantity, TracePlot};
@@ -25,9 +25,15 @@ use std::path::PathBuf;
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
-    /// Calibration image of the unit that logged the data
-    #[arg(long)]
-    image: PathBuf,
+    /// Calibration image of the unit that logged the data: of every channel
+    /// without its own --channel-image. Each channel has its own reader
+    #[arg(long, required_unless_present = "channel_image")]
+    image: Option<PathBuf>,
+    /// The image of one channel, CH=IMAGE (repeatable), for a log of
+    /// several units. A row of a channel without an image (and no --image)
+    /// stops the run with its line and channel
+    #[arg(long, value_name = "CH=IMAGE", value_parser = parse_channel_image)]
+    channel_image: Vec<(u8, PathBuf)>,
     /// Field log to read, or `-` for standard input
     #[arg(long)]
     input: PathBuf,
@@ -52,6 +58,17 @@ pub struct Args {
     threads: Option<Threads>,
 }
 
+fn parse_channel_image(s: &str) -> Result<(u8, PathBuf), String> {
+    let (ch, path) = s
+        .split_once('=')
+        .ok_or_else(|| format!("{s:?}: expected CH=IMAGE, for example 1=unit-b.lcim"))?;
+    let ch = ch
+        .trim()
+        .parse()
+        .map_err(|_| format!("{ch:?} is not a channel number from 0 to 255"))?;
+    Ok((ch, PathBuf::from(path)))
+}
+
 fn parse_threads(s: &str) -> Result<Threads, String> {
     let n: usize = s
         .trim()
@@ -61,12 +78,41 @@ fn parse_threads(s: &str) -> Result<Threads, String> {
 }
 
 pub fn run(a: Args) -> Result<()> {
+    let images: Vec<&PathBuf> = a
+        .image
+        .iter()
+        .chain(a.channel_image.iter().map(|(_, p)| p))
+        .collect();
     for out in [&a.output, &a.plot].into_iter().flatten() {
         lc_host::atomic::refuse_same_file(&a.input, out)?;
-        lc_host::atomic::refuse_same_file(&a.image, out)?;
+        for image in &images {
+            lc_host::atomic::refuse_same_file(image, out)?;
+        }
     }
-    let cal = load_image(&a.image)?;
-    let mut conv = Converter::new(cal).map_err(|e| anyhow!("{}: {e}", a.image.display()))?;
+    let default = a.image.as_deref().map(load_image).transpose()?;
+    let channels = a
+        .channel_image
+        .iter()
+        .map(|(ch, p)| load_image(p).map(|cal| (*ch, cal)))
+        .collect::<Result<Vec<_>>>()?;
+    let mut conv = Converter::per_channel(default, &channels).map_err(|e| match &e {
+        SetupError::Reader { channel, error } => {
+            let path = match channel {
+                None => a.image.as_deref(),
+                Some(ch) => a
+                    .channel_image
+                    .iter()
+                    .find(|(c, _)| c == ch)
+                    .map(|(_, p)| p.as_path()),
+            };
+            anyhow!(
+                "{}: {error}",
+                path.map_or(String::new(), |p| p.display().to_string())
+            )
+        }
+        _ => anyhow!("{e}"),
+    })?;
+    let cal = *conv.calibration();
     let reader = FieldLogReader::new(open_input(&a.input, "field log")?, &a.input)?;
     for w in reader.warnings() {
         eprintln!("warning: {w}");
