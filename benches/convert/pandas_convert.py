@@ -1,61 +1,165 @@
 #!/usr/bin/env python3
-"""A straightforward pandas/numpy conversion of a field log, for comparison
-with `lc-host convert` (docs/performance.md).
+"""The same conversion as `lc-host convert`, written the way a strong pandas
+user would: pandas' multithreaded Arrow CSV engine to read, numpy for
+vectorised formulas, Arrow's CSV writer to write (docs/performance.md).
 
-It does the same formulas the firmware does, the way an engineer would write
-them in a notebook: read_csv, vectorised float math, to_csv.
+It does the work `convert` does for a proximity image, from the image's own
+constants (`lc-host inspect --json IMAGE`):
 
-    shift  s  = ((ticks / cycles) / p_rest)^2 - 1
-    drift  sc = (1 + s) * (1 + b1*dT + b2*dT^2) - 1,  dT = T - T_ref
-    curve  value = interp(sc, node shifts, node values), clamped
-    status ok / below_range / no_target / fault (zero counts, out of band)
+    fault window   cycles = 0, ticks = 0, too few cycles, frequency outside
+                   the band: the same fault names, in the same order
+    shift          s  = (ticks / (cycles * p_rest))^2 - 1
+    drift          sc = (1 + s) * (1 + b1*dT + b2*dT^2) - 1, T rounded to
+                   0.01 °C and held in -100..300 °C as the firmware does
+    curve          the image's own: linear, or the monotone cubic Hermite
+                   (Fritsch–Butland tangents stored in the image) evaluated
+                   from its nodes and tangents; clamped to the end nodes
+    status         ok / below_range / no_target as the reader says
 
-Usage: pandas_convert.py IMAGE.json FIELD.csv OUT.csv
-IMAGE.json is `lc-host inspect --json IMAGE` (the same constants).
+Usage:
+    pandas_convert.py IMAGE.json FIELD.csv OUT.csv
+    pandas_convert.py --check OURS.csv THEIRS.csv
+The second form compares two outputs row for row (statuses, values within
+one output unit, shifts within 0.01 ppm) and prints the disagreements.
 """
 import json
 import sys
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.csv as pacsv
+
+Q40 = 2.0**40
+FAULTS = [
+    "fault_no_oscillation",
+    "fault_no_reference",
+    "fault_too_few_cycles",
+    "fault_frequency_too_low",
+    "fault_frequency_too_high",
+]
 
 
-def main() -> None:
-    image_json, field_csv, out_csv = sys.argv[1:4]
+def leading_comments(path: str) -> int:
+    n = 0
+    with open(path, "rb") as f:
+        for line in f:
+            if not line.startswith(b"#"):
+                return n
+            n += 1
+    return n
+
+
+def curve_eval(sc: np.ndarray, curve: dict) -> np.ndarray:
+    """The image's curve at shifts `sc`, clamped to its end nodes."""
+    xs = np.array([n["shift_q40"] for n in curve["nodes"]], dtype=float) / Q40
+    ys = np.array([n["value"] for n in curve["nodes"]], dtype=float)
+    cubic = curve["interpolation"] != "linear"
+    ders = np.array(curve["derivatives_q16"], dtype=float) / 65536.0 if cubic else None
+    if xs[0] > xs[-1]:  # a Hermite segment is the same cubic read either way
+        xs, ys = xs[::-1], ys[::-1]
+        ders = ders[::-1] if cubic else None
+    if not cubic:
+        return np.interp(sc, xs, ys)
+    # Cubic Hermite per segment, t = (s - x0)/h, D = h·dy/ds:
+    # y = y0 + t·D0 + t²(3Δy - 2D0 - D1) + t³(D0 + D1 - 2Δy).
+    i = np.clip(np.searchsorted(xs, sc, side="right") - 1, 0, len(xs) - 2)
+    x0, h = xs[i], xs[i + 1] - xs[i]
+    t = np.clip((sc - x0) / h, 0.0, 1.0)
+    y0, dy = ys[i], ys[i + 1] - ys[i]
+    d0, d1 = h * ders[i], h * ders[i + 1]
+    return y0 + t * (d0 + t * ((3 * dy - 2 * d0 - d1) + t * (d0 + d1 - 2 * dy)))
+
+
+def convert(image_json: str, field_csv: str, out_csv: str) -> None:
     with open(image_json, encoding="utf-8") as f:
         image = json.load(f)
+    if image["kind"] != "proximity":
+        sys.exit("this script converts proximity images only")
     p_rest = image["rest_ratio"]
     f_ref = image["reference_hz"]
-    lo_hz, hi_hz = image["window"]["min_hz"], image["window"]["max_hz"]
-    b1 = image["drift"]["b1_ppm_per_k"] * 1e-6
-    b2 = image["drift"]["b2_ppm_per_k2"] * 1e-6
-    t_ref = image["drift"]["reference_c"]
-    nodes = image["curve"]["nodes"]
-    xs = np.array([n["shift"] for n in nodes])
-    ys = np.array([n["value"] for n in nodes], dtype=float)
+    window = image["window"]
+    drift = image["drift"] or {"b1_ppm_per_k": 0.0, "b2_ppm_per_k2": 0.0, "reference_c": 25.0}
+    b1 = drift["b1_ppm_per_k"] * 1e-6
+    b2 = drift["b2_ppm_per_k2"] * 1e-6
+    t_ref = drift["reference_c"]
+    curve = image["curve"]
+    xs = np.array([n["shift_q40"] for n in curve["nodes"]], dtype=float) / Q40
+    rising = curve["nodes"][-1]["value"] > curve["nodes"][0]["value"]
 
-    df = pd.read_csv(field_csv, comment="#")
-    cycles = df["cycles"].to_numpy(dtype=float)
-    ticks = df["ticks"].to_numpy(dtype=float)
+    skip = leading_comments(field_csv)
+    df = pd.read_csv(field_csv, engine="pyarrow", skiprows=skip)
+    cycles = df["cycles"].to_numpy(dtype=np.float64)
+    ticks = df["ticks"].to_numpy(dtype=np.float64)
+    temp = df["temp_c"].to_numpy(dtype=np.float64) if "temp_c" in df else np.full(len(df), np.nan)
+
+    freq_ok = ~((cycles == 0) | (ticks == 0))
     with np.errstate(divide="ignore", invalid="ignore"):
-        freq = f_ref * cycles / ticks
-        s = ((ticks / cycles) / p_rest) ** 2 - 1.0
-    dt = df["temp_c"].to_numpy(dtype=float) - t_ref
-    sc = (1.0 + s) * (1.0 + b1 * dt + b2 * dt * dt) - 1.0
-    value = np.interp(sc, xs, ys)
-    fault = (cycles == 0) | (ticks == 0) | (freq < lo_hz) | (freq > hi_hz)
-    status = np.where(fault, "fault", np.where(sc < xs[0], "below_range", np.where(sc > xs[-1], "no_target", "ok")))
-    out = pd.DataFrame(
+        scaled = f_ref * cycles
+        fault = np.select(
+            [
+                cycles == 0,
+                ticks == 0,
+                cycles < window["min_cycles"],
+                scaled < window["min_hz"] * ticks,
+                scaled > window["max_hz"] * ticks,
+            ],
+            [1, 2, 3, 4, 5],
+            0,
+        )
+        s = (ticks / (cycles * p_rest)) ** 2 - 1.0
+    t = np.clip(np.round(temp * 100.0) / 100.0, -100.0, 300.0)
+    dt = t - t_ref
+    g = np.where(np.isnan(dt), 0.0, b1 * dt + b2 * dt * dt)
+    sc = np.where(freq_ok, (1.0 + s) * (1.0 + g) - 1.0, 0.0)
+    value = np.rint(curve_eval(sc, curve))
+    lo_x, hi_x = min(xs[0], xs[-1]), max(xs[0], xs[-1])
+    above, below = sc > hi_x, sc < lo_x
+    far = above if rising else below
+    near = below if rising else above
+    status = np.select(
+        [fault == k for k in range(1, 6)] + [far, near],
+        FAULTS + ["no_target", "below_range"],
+        "ok",
+    )
+    is_fault = fault > 0
+    line = np.arange(len(df), dtype=np.int64) + skip + 2
+    out = pa.table(
         {
-            "time_s": df["time_s"],
-            "channel": df["channel"],
+            "line": line,
+            "time_s": df["time_s"].to_numpy(),
+            "channel": df["channel"].to_numpy(),
             "status": status,
-            "value": np.where(fault, np.nan, np.round(value)),
-            "shift_ppm": np.where(fault, np.nan, sc * 1e6),
+            "value": pa.array(value.astype(np.int64), mask=is_fault),
+            "shift_ppm": pa.array(np.round(sc * 1e6, 6), mask=is_fault),
         }
     )
-    out.to_csv(out_csv, index=False, float_format="%.6f")
+    pacsv.write_csv(out, out_csv)
+
+
+def check(ours: str, theirs: str) -> None:
+    a = pd.read_csv(ours, engine="pyarrow", skiprows=leading_comments(ours))
+    b = pd.read_csv(theirs, engine="pyarrow")
+    if len(a) != len(b):
+        sys.exit(f"row counts differ: {len(a)} against {len(b)}")
+    same_line = (a["line"].to_numpy() == b["line"].to_numpy()).all()
+    status = a["status"].to_numpy() != b["status"].to_numpy()
+    va, vb = a["value"].to_numpy(dtype=float), b["value"].to_numpy(dtype=float)
+    both = ~np.isnan(va) & ~np.isnan(vb)
+    dv = np.abs(va - vb)[both]
+    ds = np.abs(a["shift_ppm"].to_numpy(dtype=float) - b["shift_ppm"].to_numpy(dtype=float))[both]
+    print(
+        f"agreement: {len(a)} rows, lines {'equal' if same_line else 'DIFFER'}, "
+        f"statuses differ on {int(status.sum())}, values differ on {int((dv > 0).sum())} "
+        f"(most {dv.max() if dv.size else 0:.0f} unit), "
+        f"shifts differ by at most {ds.max() if ds.size else 0:.2e} ppm"
+    )
+    if not same_line or status.any() or (dv > 1).any() or (ds > 0.01).any():
+        sys.exit("the two conversions disagree")
 
 
 if __name__ == "__main__":
-    main()
+    if sys.argv[1] == "--check":
+        check(sys.argv[2], sys.argv[3])
+    else:
+        convert(*sys.argv[1:4])

@@ -1,6 +1,17 @@
 //! Writing files whole or not at all: a temporary file beside the target,
 //! synced, then renamed over it. A failed or interrupted run never leaves a
 //! half-written output.
+//!
+//! What the path names decides how it is written:
+//!
+//! | the path is | written |
+//! |---|---|
+//! | absent, or a regular file | atomically: temporary file, sync, rename |
+//! | a symbolic link to a regular file | atomically, at the file it points to (the link stays) |
+//! | a device, a pipe or a socket (`/dev/null`, `/dev/stdout`, a FIFO) | straight through, in place: such a file is never replaced |
+//! | a directory, or a link that points nowhere | refused |
+//!
+//! [`refuse_same_file`] keeps a command from writing over its own input.
 
 use std::io::{BufWriter, Write};
 use std::path::Path;
@@ -23,8 +34,64 @@ pub enum AtomicError<E: std::error::Error + 'static> {
     Body(E),
 }
 
-/// Writes `path` through `body`, atomically.
+/// Writes `path` through `body`: atomically for a regular file (through
+/// a symbolic link to one), straight through for a device, pipe or socket
+/// (module docs).
 pub fn write_atomically<T, E: std::error::Error + 'static>(
+    path: &Path,
+    body: impl FnOnce(&mut dyn Write) -> Result<T, E>,
+) -> Result<T, AtomicError<E>> {
+    let io = |action: &'static str| {
+        move |source| AtomicError::Io {
+            path: path.to_path_buf(),
+            action,
+            source,
+        }
+    };
+    let link = std::fs::symlink_metadata(path)
+        .ok()
+        .is_some_and(|m| m.file_type().is_symlink());
+    match std::fs::metadata(path) {
+        Ok(m) if m.is_dir() => {
+            return Err(io("cannot write: it is a directory; give a file name")(
+                std::io::Error::from(std::io::ErrorKind::IsADirectory),
+            ))
+        }
+        Ok(m) if !m.is_file() => {
+            // A device, pipe or socket: write in place, never replace it.
+            let file = std::fs::OpenOptions::new()
+                .write(true)
+                .open(path)
+                .map_err(io("cannot open"))?;
+            let mut w = BufWriter::with_capacity(1 << 16, file);
+            let value = body(&mut w).map_err(AtomicError::Body)?;
+            w.flush().map_err(io("cannot write"))?;
+            return Ok(value);
+        }
+        Ok(_) if link => {
+            // Replace the file the link points to, keep the link.
+            let target = std::fs::canonicalize(path).map_err(io("cannot follow the link"))?;
+            return write_file_atomically(&target, body).map_err(|e| match e {
+                AtomicError::Io { action, source, .. } => AtomicError::Io {
+                    path: path.to_path_buf(),
+                    action,
+                    source,
+                },
+                other => other,
+            });
+        }
+        Err(e) if link => {
+            return Err(io("is a symbolic link to nothing; refusing to replace it")(
+                e,
+            ))
+        }
+        _ => {}
+    }
+    write_file_atomically(path, body)
+}
+
+/// The atomic write proper: temporary file beside `path`, sync, rename.
+fn write_file_atomically<T, E: std::error::Error + 'static>(
     path: &Path,
     body: impl FnOnce(&mut dyn Write) -> Result<T, E>,
 ) -> Result<T, AtomicError<E>> {
@@ -60,6 +127,53 @@ pub fn write_atomically<T, E: std::error::Error + 'static>(
     result
 }
 
+/// The output would overwrite the input.
+#[derive(Debug, thiserror::Error)]
+#[error("{output}: this is the input file {input}; writing it would destroy the input: choose another output")]
+pub struct SameFileError {
+    /// The input path.
+    pub input: std::path::PathBuf,
+    /// The output path.
+    pub output: std::path::PathBuf,
+}
+
+/// Refuses an output that is the input file itself: the same path, a
+/// link to it, a hard link or another name of it. `-` (standard input or
+/// output) and paths that do not exist yet pass.
+pub fn refuse_same_file(input: &Path, output: &Path) -> Result<(), SameFileError> {
+    if input.as_os_str() == "-" || output.as_os_str() == "-" {
+        return Ok(());
+    }
+    let (Ok(a), Ok(b)) = (std::fs::metadata(input), std::fs::metadata(output)) else {
+        return Ok(());
+    };
+    if !a.is_file() || !b.is_file() {
+        // Devices and pipes may be named twice legitimately (/dev/stdin
+        // and /dev/stdout are different streams of one terminal).
+        return Ok(());
+    }
+    if same_file(&a, &b) {
+        return Err(SameFileError {
+            input: input.to_path_buf(),
+            output: output.to_path_buf(),
+        });
+    }
+    Ok(())
+}
+
+#[cfg(unix)]
+fn same_file(a: &std::fs::Metadata, b: &std::fs::Metadata) -> bool {
+    use std::os::unix::fs::MetadataExt;
+    (a.dev(), a.ino()) == (b.dev(), b.ino())
+}
+
+#[cfg(not(unix))]
+fn same_file(a: &std::fs::Metadata, b: &std::fs::Metadata) -> bool {
+    // Without inode numbers: size and modification time, a cautious guess
+    // that can only refuse too much.
+    a.len() == b.len() && a.modified().ok() == b.modified().ok()
+}
+
 /// Writes bytes to `path` atomically.
 pub fn write_bytes(path: &Path, bytes: &[u8]) -> Result<(), AtomicError<std::io::Error>> {
     write_atomically(path, |w| w.write_all(bytes))
@@ -83,6 +197,96 @@ mod tests {
         assert!(r.is_err());
         assert_eq!(std::fs::read(&target).unwrap(), b"first");
         assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1);
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    fn scratch(name: &str) -> std::path::PathBuf {
+        let dir = std::env::temp_dir().join(format!("lc-atomic-{name}-{}", std::process::id()));
+        std::fs::remove_dir_all(&dir).ok();
+        std::fs::create_dir_all(&dir).unwrap();
+        dir
+    }
+
+    /// Issue 19, item 7: `-o /dev/null` replaced the device with a file.
+    #[cfg(unix)]
+    #[test]
+    fn devices_are_written_in_place_never_replaced() {
+        use std::os::unix::fs::FileTypeExt;
+        write_bytes(Path::new("/dev/null"), b"nothing").unwrap();
+        let m = std::fs::symlink_metadata("/dev/null").unwrap();
+        assert!(m.file_type().is_char_device());
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn pipes_are_written_straight_through() {
+        use std::os::unix::fs::FileTypeExt;
+        let dir = scratch("fifo");
+        let fifo = dir.join("pipe");
+        let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+        if !made.is_ok_and(|s| s.success()) {
+            eprintln!("mkfifo unavailable: skipped");
+            return;
+        }
+        let reader = {
+            let fifo = fifo.clone();
+            std::thread::spawn(move || std::fs::read(fifo).unwrap())
+        };
+        write_bytes(&fifo, b"through the pipe").unwrap();
+        assert_eq!(reader.join().unwrap(), b"through the pipe");
+        assert!(std::fs::symlink_metadata(&fifo)
+            .unwrap()
+            .file_type()
+            .is_fifo());
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn links_are_followed_to_a_regular_file_and_kept() {
+        let dir = scratch("link");
+        let target = dir.join("real.csv");
+        let link = dir.join("link.csv");
+        std::fs::write(&target, b"old").unwrap();
+        std::os::unix::fs::symlink(&target, &link).unwrap();
+        write_bytes(&link, b"new").unwrap();
+        assert!(std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
+        assert_eq!(std::fs::read(&target).unwrap(), b"new");
+        // A link to nothing is refused, and stays as it was.
+        let dangling = dir.join("dangling.csv");
+        std::os::unix::fs::symlink(dir.join("missing.csv"), &dangling).unwrap();
+        let e = write_bytes(&dangling, b"x").unwrap_err().to_string();
+        assert!(e.contains("symbolic link to nothing"), "{e}");
+        assert!(!dir.join("missing.csv").exists());
+        // A directory is refused.
+        let e = write_bytes(&dir, b"x").unwrap_err().to_string();
+        assert!(e.contains("directory"), "{e}");
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    /// Issue 19, item 7: the same file as input and output destroyed the log.
+    #[test]
+    fn the_input_is_never_the_output() {
+        let dir = scratch("same");
+        let log = dir.join("log.csv");
+        std::fs::write(&log, b"cycles,ticks\n").unwrap();
+        assert!(refuse_same_file(&log, &log).is_err());
+        let e = refuse_same_file(&log, &dir.join(".").join("log.csv")).unwrap_err();
+        assert!(e.to_string().contains("choose another output"), "{e}");
+        #[cfg(unix)]
+        {
+            let link = dir.join("link.csv");
+            std::os::unix::fs::symlink(&log, &link).unwrap();
+            assert!(refuse_same_file(&log, &link).is_err());
+            let hard = dir.join("hard.csv");
+            std::fs::hard_link(&log, &hard).unwrap();
+            assert!(refuse_same_file(&hard, &log).is_err());
+        }
+        assert!(refuse_same_file(&log, &dir.join("out.csv")).is_ok());
+        assert!(refuse_same_file(Path::new("-"), Path::new("-")).is_ok());
         std::fs::remove_dir_all(&dir).ok();
     }
 }

@@ -2,8 +2,8 @@
 //! through `lc-core`'s own fixed-point path (the firmware's arithmetic),
 //! with the `f64` reference beside it on request.
 
-use crate::fieldlog::FieldLogReader;
-use crate::stream::{fixed, opt, stream_log, RowClass};
+use crate::fieldlog::{FieldLogReader, FieldRow};
+use crate::stream::{fixed, opt, stream_log, RowClass, Threads};
 pub use crate::stream::{OnBadRow, RunError, Summary};
 use lc_core::counting::{CountPair, FaultError, FaultWindow, Gating};
 use lc_core::ratio::{frequency, period_ratio};
@@ -156,7 +156,7 @@ pub fn convert_log<R: Read, W: Write>(
     } else {
         OUTPUT_HEADER.to_string()
     };
-    stream_log(reader, out, &header, on_bad_row, progress, |row, out| {
+    let format = |row: &FieldRow, _: &mut (), out: &mut Vec<u8>| {
         let Some(pair) = row.pair() else {
             return Err(RunError::NeedsCounts { line: row.line });
         };
@@ -190,7 +190,18 @@ pub fn convert_log<R: Read, W: Write>(
             RowStatus::Fault(_) => RowClass::Fault,
             RowStatus::Shift(_) => RowClass::OutOfRange,
         })
-    })
+    };
+    stream_log(
+        reader,
+        out,
+        &header,
+        on_bad_row,
+        Threads::default(),
+        |_| (),
+        format,
+        progress,
+        |_, _| {},
+    )
 }
 
 #[cfg(test)]

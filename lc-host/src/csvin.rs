@@ -30,6 +30,16 @@ pub enum InputError {
         /// Which columns the format needs (and where it is documented).
         hint: &'static str,
     },
+    /// The header cannot be used as it is.
+    #[error("{file}: line {line}: {message}")]
+    Header {
+        /// File name.
+        file: PathBuf,
+        /// The header's line.
+        line: u64,
+        /// What is wrong and what to do.
+        message: String,
+    },
     /// A field does not parse.
     #[error("{file}: line {line}: field `{field}`: {problem} (found {found:?})")]
     BadField {
@@ -60,7 +70,9 @@ impl InputError {
     /// The line the error refers to, when it refers to one.
     pub fn line(&self) -> Option<u64> {
         match self {
-            InputError::BadField { line, .. } | InputError::Csv { line, .. } => Some(*line),
+            InputError::BadField { line, .. }
+            | InputError::Csv { line, .. }
+            | InputError::Header { line, .. } => Some(*line),
             _ => None,
         }
     }
@@ -127,7 +139,7 @@ impl<R: Read> CsvInput<R> {
             Ok(record) => Ok(Row {
                 file: &self.file,
                 line: record.position().map_or(0, |p| p.line()),
-                record,
+                fields: RowFields::Record(record),
             }),
             Err(e) => match e.kind() {
                 csv::ErrorKind::Io(_) => Err(InputError::Io {
@@ -145,18 +157,51 @@ impl<R: Read> CsvInput<R> {
 pub struct Row<'a> {
     file: &'a Path,
     line: u64,
-    record: csv::StringRecord,
+    fields: RowFields<'a>,
 }
 
-impl Row<'_> {
+/// Where a row's fields are: a record of the `csv` crate, or one line cut
+/// by a [`LineSplitter`].
+#[derive(Debug)]
+enum RowFields<'a> {
+    Record(csv::StringRecord),
+    Line(&'a str, &'a LineSplitter),
+}
+
+impl<'a> Row<'a> {
+    /// A row of one line of `file` already cut by `fields`.
+    pub fn from_line(file: &'a Path, line: u64, text: &'a str, fields: &'a LineSplitter) -> Self {
+        Self {
+            file,
+            line,
+            fields: RowFields::Line(text, fields),
+        }
+    }
+
     /// The row's line number.
     pub fn line(&self) -> u64 {
         self.line
     }
 
-    /// The text of column `i` ("" when the row is short).
+    /// The number of fields.
+    pub fn len(&self) -> usize {
+        match &self.fields {
+            RowFields::Record(r) => r.len(),
+            RowFields::Line(_, f) => f.len(),
+        }
+    }
+
+    /// Whether the row has no field.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The text of column `i`, trimmed ("" when the row is short).
     pub fn text(&self, i: usize) -> &str {
-        self.record.get(i).unwrap_or("")
+        match &self.fields {
+            RowFields::Record(r) => r.get(i).unwrap_or(""),
+            RowFields::Line(text, f) => f.get(text, i).unwrap_or(""),
+        }
     }
 
     /// An error about `field` of this row.
@@ -258,5 +303,142 @@ fn csv_error(file: &Path, e: &csv::Error) -> InputError {
         file: file.to_path_buf(),
         line: e.position().map_or(0, |p| p.line()),
         message: e.to_string(),
+    }
+}
+
+/// Cuts one line of CSV into fields without copying it: byte ranges into
+/// the line, and a scratch buffer only for quoted fields with doubled
+/// quotes or text after the closing quote. The rules are those of the
+/// `csv` crate for a record on one line: a field that starts with `"` is
+/// quoted (`""` inside stands for `"`; text after the closing quote is
+/// kept), any other quote is an ordinary character, and fields are trimmed
+/// of whitespace when read. A quoted field cannot span lines here: such a
+/// line is refused, since no column of our formats holds a line break.
+#[derive(Debug, Default, Clone)]
+pub struct LineSplitter {
+    spans: Vec<Span>,
+    scratch: String,
+}
+
+#[derive(Debug, Clone, Copy)]
+struct Span {
+    in_scratch: bool,
+    start: u32,
+    end: u32,
+}
+
+/// Why a line could not be cut into fields.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SplitError {
+    /// A quoted field is not closed before the end of the line.
+    UnclosedQuote,
+    /// The line is longer than 4 GiB.
+    TooLong,
+}
+
+impl std::fmt::Display for SplitError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            SplitError::UnclosedQuote => {
+                "a quoted field is not closed on its line (a record must fit on one line)"
+            }
+            SplitError::TooLong => "the line is longer than 4 GiB",
+        })
+    }
+}
+
+impl LineSplitter {
+    /// Cuts `line` (without its line break) into fields.
+    pub fn split(&mut self, line: &str) -> Result<(), SplitError> {
+        self.spans.clear();
+        self.scratch.clear();
+        let b = line.as_bytes();
+        let pos = |i: usize| u32::try_from(i).map_err(|_| SplitError::TooLong);
+        let mut i = 0;
+        loop {
+            let end = if b.get(i) == Some(&b'"') {
+                self.quoted(line, i)?
+            } else {
+                let end = memchr::memchr(b',', &b[i..]).map_or(b.len(), |k| i + k);
+                self.spans.push(Span {
+                    in_scratch: false,
+                    start: pos(i)?,
+                    end: pos(end)?,
+                });
+                end
+            };
+            if end >= b.len() {
+                return Ok(());
+            }
+            i = end + 1;
+        }
+    }
+
+    /// A quoted field starting at `start`; returns the index of the
+    /// delimiter (or the line's end) after it.
+    fn quoted(&mut self, line: &str, start: usize) -> Result<usize, SplitError> {
+        let b = line.as_bytes();
+        let pos = |i: usize| u32::try_from(i).map_err(|_| SplitError::TooLong);
+        let mut i = start + 1;
+        let scratch_start = self.scratch.len();
+        let mut plain = true;
+        let close = loop {
+            let k = memchr::memchr(b'"', &b[i..])
+                .map(|k| i + k)
+                .ok_or(SplitError::UnclosedQuote)?;
+            if b.get(k + 1) == Some(&b'"') {
+                plain = false;
+                self.scratch.push_str(&line[i..k]);
+                self.scratch.push('"');
+                i = k + 2;
+            } else {
+                break k;
+            }
+        };
+        let end = memchr::memchr(b',', &b[close + 1..]).map_or(b.len(), |k| close + 1 + k);
+        if plain && end == close + 1 {
+            self.spans.push(Span {
+                in_scratch: false,
+                start: pos(start + 1)?,
+                end: pos(close)?,
+            });
+        } else {
+            self.scratch.push_str(&line[i..close]);
+            self.scratch.push_str(&line[close + 1..end]);
+            self.spans.push(Span {
+                in_scratch: true,
+                start: pos(scratch_start)?,
+                end: pos(self.scratch.len())?,
+            });
+        }
+        Ok(end)
+    }
+
+    /// The number of fields of the last line cut.
+    pub fn len(&self) -> usize {
+        self.spans.len()
+    }
+
+    /// Whether the last line cut had no field (never: an empty line is one
+    /// empty field).
+    pub fn is_empty(&self) -> bool {
+        self.spans.is_empty()
+    }
+
+    /// Field `i` of `line` (the line last cut), trimmed.
+    pub fn get<'a>(&'a self, line: &'a str, i: usize) -> Option<&'a str> {
+        let s = self.spans.get(i)?;
+        let text = if s.in_scratch { &self.scratch } else { line };
+        let field = text.get(s.start as usize..s.end as usize)?;
+        // Most fields have nothing to trim: a printable ASCII byte at both
+        // ends (anything else may be whitespace, Unicode included).
+        let plain = |b: Option<&u8>| b.is_some_and(|&b| b > b' ' && b < 0x7f);
+        Some(
+            if plain(field.as_bytes().first()) && plain(field.as_bytes().last()) {
+                field
+            } else {
+                field.trim()
+            },
+        )
     }
 }

@@ -19,7 +19,8 @@
 //! - [`report`]: the lot report (offline HTML) and unit certificates;
 //!   [`export`]: calibration images as Intel HEX, C arrays, padded binaries.
 //! - [`sim`]: simulated rig and field logs; [`svg`]: plots for reports;
-//!   [`stream`], [`csvin`], [`atomic`]: streaming CSV in, atomic files out.
+//!   [`stream`], [`csvin`], [`csvout`], [`atomic`]: streaming CSV in and
+//!   out, atomic files.
 //!
 //! ```
 //! use lc_host::counts::{CountsConfig, RowStatus};
@@ -40,6 +41,7 @@ pub mod coil;
 pub mod convert;
 pub mod counts;
 pub mod csvin;
+pub mod csvout;
 pub mod demo;
 pub mod export;
 pub mod fieldlog;

@@ -3,8 +3,9 @@
 use super::counts::{report, BadRow};
 use super::{load_image, open_input, spinner, with_output};
 use anyhow::{anyhow, Result};
-use lc_host::convert::{convert_log, Converter};
+use lc_host::convert::{convert_log_threads, Converter, SetupError};
 use lc_host::fieldlog::FieldLogReader;
+use lc_host::stream::{Threads, MAX_THREADS};
 use lc_host::svg::{Quantity, TracePlot};
 use std::path::PathBuf;
 
@@ -15,7 +16,8 @@ use std::path::PathBuf;
 /// have produced, bit for bit, with their status (ok, below_range, above_range, no_target,
 /// or the sensor fault). The input is a field log with count pairs (`cycles`, `ticks`) or
 /// frequencies (`frequency_hz`), optional `time_s`, `channel`, `temp_c`, `ring_count` and
-/// companion counts (docs/formats.md). Memory stays constant whatever the log's size.
+/// companion counts (docs/formats.md). Memory stays bounded (a few MiB per thread) whatever
+/// the log's size.
 ///
 /// Example:
 ///
@@ -23,9 +25,15 @@ use std::path::PathBuf;
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
-    /// Calibration image of the unit that logged the data
-    #[arg(long)]
-    image: PathBuf,
+    /// Calibration image of the unit that logged the data: of every channel
+    /// without its own --channel-image. Each channel has its own reader
+    #[arg(long, required_unless_present = "channel_image")]
+    image: Option<PathBuf>,
+    /// The image of one channel, CH=IMAGE (repeatable), for a log of
+    /// several units. A row of a channel without an image (and no --image)
+    /// stops the run with its line and channel
+    #[arg(long, value_name = "CH=IMAGE", value_parser = parse_channel_image)]
+    channel_image: Vec<(u8, PathBuf)>,
     /// Field log to read, or `-` for standard input (`--input FILE` still
     /// works, for older scripts)
     #[arg(value_name = "FIELD_LOG")]
@@ -44,23 +52,84 @@ pub struct Args {
     /// with --float the f64 reference too)
     #[arg(long, value_name = "SVG")]
     plot: Option<PathBuf>,
+    /// Worker threads, 1 to 16 (default: one per core). Rows are parsed and
+    /// formatted in parallel blocks; the reader sees them in logged order,
+    /// and the output is the same for any count
+    #[arg(long, value_name = "N", value_parser = parse_threads)]
+    threads: Option<Threads>,
+}
+
+fn parse_channel_image(s: &str) -> Result<(u8, PathBuf), String> {
+    let (ch, path) = s
+        .split_once('=')
+        .ok_or_else(|| format!("{s:?}: expected CH=IMAGE, for example 1=unit-b.lcim"))?;
+    let ch = ch
+        .trim()
+        .parse()
+        .map_err(|_| format!("{ch:?} is not a channel number from 0 to 255"))?;
+    Ok((ch, PathBuf::from(path)))
+}
+
+fn parse_threads(s: &str) -> Result<Threads, String> {
+    let n: usize = s
+        .trim()
+        .parse()
+        .map_err(|_| format!("{s:?} is not a whole number; give 1 to {MAX_THREADS}"))?;
+    Threads::new(n).map_err(|e| e.to_string())
 }
 
 pub fn run(a: Args) -> Result<()> {
-    let cal = load_image(&a.image)?;
-    let mut conv = Converter::new(cal).map_err(|e| anyhow!("{}: {e}", a.image.display()))?;
+    let images: Vec<&PathBuf> = a
+        .image
+        .iter()
+        .chain(a.channel_image.iter().map(|(_, p)| p))
+        .collect();
+    for out in [&a.output, &a.plot].into_iter().flatten() {
+        lc_host::atomic::refuse_same_file(&a.input, out)?;
+        for image in &images {
+            lc_host::atomic::refuse_same_file(image, out)?;
+        }
+    }
+    let default = a.image.as_deref().map(load_image).transpose()?;
+    let channels = a
+        .channel_image
+        .iter()
+        .map(|(ch, p)| load_image(p).map(|cal| (*ch, cal)))
+        .collect::<Result<Vec<_>>>()?;
+    let mut conv = Converter::per_channel(default, &channels).map_err(|e| match &e {
+        SetupError::Reader { channel, error } => {
+            let path = match channel {
+                None => a.image.as_deref(),
+                Some(ch) => a
+                    .channel_image
+                    .iter()
+                    .find(|(c, _)| c == ch)
+                    .map(|(_, p)| p.as_path()),
+            };
+            anyhow!(
+                "{}: {error}",
+                path.map_or(String::new(), |p| p.display().to_string())
+            )
+        }
+        _ => anyhow!("{e}"),
+    })?;
+    let cal = *conv.calibration();
     let reader = FieldLogReader::new(open_input(&a.input, "field log")?, &a.input)?;
+    for w in reader.warnings() {
+        eprintln!("warning: {w}");
+    }
     let bar = spinner("{spinner} {pos} lines ({per_sec}) {elapsed}");
     // The trace keeps a min/max envelope of bounded size, so memory stays
     // constant whatever the log's length.
     let mut trace = a.plot.as_ref().map(|_| Trace::default());
     let summary = with_output(a.output.as_deref(), |w| {
-        Ok(convert_log(
+        Ok(convert_log_threads(
             reader,
             w,
             &mut conv,
             a.on_bad_row.into(),
             a.float,
+            a.threads.unwrap_or_default(),
             |l| bar.set_position(l),
             |c| {
                 if let Some(tr) = trace.as_mut() {
