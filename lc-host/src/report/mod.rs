@@ -610,7 +610,7 @@ mod tests {
         for p in &pages {
             assert!(
                 p.chars()
-                    .all(|c| c.is_ascii_alphanumeric() || "-_.".contains(c)),
+                    .all(|c| c.is_ascii_alphanumeric() || "-_.%".contains(c)),
                 "{p}"
             );
             let html = std::fs::read_to_string(dir.join("units").join(p)).unwrap();
