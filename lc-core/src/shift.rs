@@ -256,6 +256,16 @@ impl ShiftConverter {
         self.rest
     }
 
+    /// The configured reciprocal gate, sensor cycles (`None` without one).
+    #[inline]
+    pub const fn gate_cycles(&self) -> Option<u32> {
+        if self.gate_cycles > 0 {
+            Some(self.gate_cycles)
+        } else {
+            None
+        }
+    }
+
     /// The gating of the readings.
     #[inline]
     pub const fn gating(&self) -> Gating {

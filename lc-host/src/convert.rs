@@ -50,23 +50,35 @@ pub struct Converted {
     pub value_f64: Option<f64>,
 }
 
+/// Why a converter could not be built.
+#[derive(Debug, thiserror::Error)]
+pub enum ConverterError {
+    /// The calibration does not form a valid image.
+    #[error("the calibration does not form a valid image: {0}")]
+    Image(lc_core::image::ImageError),
+    /// The image does not form a reader.
+    #[error("the image does not form a reader: {0}")]
+    Reader(ReaderError),
+}
+
 /// The converter: a calibration and the reader built from it.
 #[derive(Debug)]
 pub struct Converter {
     calibration: Calibration,
-    reader: Reader,
-    proximity: Option<ProximityReader>,
-    level: Option<LevelReader>,
+    reader: Reader<'static>,
+    proximity: Option<ProximityReader<'static>>,
+    level: Option<LevelReader<'static>>,
     frequency_gate: u32,
 }
 
 impl Converter {
     /// A converter for a calibration.
-    pub fn new(calibration: Calibration) -> Result<Self, ReaderError> {
+    pub fn new(calibration: Calibration) -> Result<Self, ConverterError> {
+        let image = crate::host_image(&calibration).map_err(ConverterError::Image)?;
         Ok(Self {
-            reader: Reader::from_calibration(&calibration)?,
-            proximity: ProximityReader::new(&calibration).ok(),
-            level: LevelReader::new(&calibration).ok(),
+            reader: Reader::new(&image).map_err(ConverterError::Reader)?,
+            proximity: ProximityReader::new(&image).ok(),
+            level: LevelReader::new(&image).ok(),
             frequency_gate: calibration.gate().unwrap_or(16_384),
             calibration,
         })
@@ -109,7 +121,7 @@ impl Converter {
             ring_count: row.ring_count,
         };
         let reading = self.reader.read(&input);
-        let value_f64 = match reading.status {
+        let value_f64 = match reading.status() {
             Status::SensorFault(_) => None,
             _ => match (&self.proximity, &self.level) {
                 (Some(p), _) => Some(p.read_f64(&input)),
@@ -164,32 +176,35 @@ pub fn convert_log<R: Read, W: Write>(
     stream_log(reader, out, &header, on_bad_row, progress, |row, out| {
         let c = conv.convert(row);
         let r = c.reading;
-        let fault = matches!(r.status, Status::SensorFault(_));
+        let fault = matches!(r.status(), Status::SensorFault(_));
         write!(
             out,
             "{},{},{},{},{},{},{}",
             row.line,
             opt(row.time_s),
             opt(row.channel),
-            status_name(r.status),
+            status_name(r.status()),
             if fault {
                 String::new()
             } else {
-                r.value.to_string()
+                r.output().to_string()
             },
-            opt(r.secondary),
+            opt(r.secondary()),
             if fault {
                 String::new()
             } else {
-                format!("{:.6}", r.shift.to_ppm_f64())
+                format!(
+                    "{:.6}",
+                    lc_core::shift::Shift::from_raw_q40(r.curve_input_q40()).to_ppm_f64()
+                )
             },
         )?;
         if with_f64 {
-            let diff = c.value_f64.map(|v| f64::from(r.value) - v);
+            let diff = c.value_f64.map(|v| f64::from(r.output()) - v);
             write!(out, ",{},{}", fixed(c.value_f64, 4), fixed(diff, 4))?;
         }
         observe(&c);
-        Ok(match r.status {
+        Ok(match r.status() {
             Status::Ok => RowClass::Ok,
             Status::SensorFault(_) => RowClass::Fault,
             _ => RowClass::OutOfRange,
@@ -200,7 +215,7 @@ pub fn convert_log<R: Read, W: Write>(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use lc_core::image::tests_support::demo_proximity;
+    use crate::testdata::demo_proximity;
     use std::path::Path;
 
     #[test]

@@ -30,7 +30,8 @@ pub const LEVEL_PLAN: &str = include_str!("../../examples/data/demo-level-plan.t
 /// Runs the demo into `out`, narrating on `say`.
 pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     std::fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
-    let plan = Plan::parse(PLAN, Path::new("demo-plan.toml"))?;
+    let mut plan = Plan::parse(PLAN, Path::new("demo-plan.toml"))?;
+    plan.calibrated_at = crate::calib::plan::calibration_time(None);
     writeln!(
         say,
         "LC sensor toolkit demo: lot DEMO-01 of 24 proximity sensors (simulated), in {}",
@@ -153,13 +154,13 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             |_| {},
             |c| {
                 let t = c.time_s.unwrap_or(0.0);
-                if matches!(c.reading.status, lc_core::reader::Status::SensorFault(_)) {
+                if matches!(c.reading.status(), lc_core::reader::Status::SensorFault(_)) {
                     faults.push(t);
                 } else if t < 60.0 {
-                    trace.push((t, f64::from(c.reading.value)));
+                    trace.push((t, f64::from(c.reading.output())));
                 }
                 if let Some(v) = c.value_f64 {
-                    worst_diff = worst_diff.max((f64::from(c.reading.value) - v).abs());
+                    worst_diff = worst_diff.max((f64::from(c.reading.output()) - v).abs());
                 }
             },
         )
@@ -208,7 +209,7 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         calibration_temps_c: vec![25.0, 60.0],
         target_resolution: None,
     };
-    let curve = cal.curve.and_then(|t| t.curve().ok());
+    let curve = cal.curve.map(|t| *t.curve());
     let b = budget(&input, curve.as_ref());
     writeln!(
         say,
@@ -218,7 +219,8 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         writeln!(say, "   {line}")?;
     }
     // 8. The second scenario: the coolant tank's level probes.
-    let level_plan = Plan::parse(LEVEL_PLAN, Path::new("demo-level-plan.toml"))?;
+    let mut level_plan = Plan::parse(LEVEL_PLAN, Path::new("demo-level-plan.toml"))?;
+    level_plan.calibrated_at = plan.calibrated_at;
     let level_rig = out.join("level-rig.csv");
     crate::atomic::write_atomically(&level_rig, |w| {
         crate::sim::level::write_level_rig_log("TANK-01", 8, 1, w)
@@ -243,8 +245,9 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let level_image = std::fs::read(images.join("TANK-01-0003.lcim"))?;
     let level_cal = lc_core::image::Calibration::parse(&level_image)
         .map_err(|e| anyhow::anyhow!("level image: {e}"))?;
-    let mut level_reader = lc_core::reader::Reader::from_calibration(&level_cal)
-        .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let level_image = crate::host_image(&level_cal).map_err(|e| anyhow::anyhow!("{e}"))?;
+    let mut level_reader =
+        lc_core::reader::LevelReader::new(&level_image).map_err(|e| anyhow::anyhow!("{e}"))?;
     let g = crate::sim::level::LevelGeometry::DEMO;
     let truth_l = |h: f64| {
         lc_core::geometry::horizontal_cylinder_volume_m3(g.diameter_m / 2.0, g.length_m, h) * 1e3
@@ -264,8 +267,8 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             "   TANK-01-0003 at {:.0} mm, {t:.0} °C (water εr {:.1}): reads {:.1} mm, {:.2} L (true {:.2} L), {}",
             h * 1e3,
             crate::sim::level::water_permittivity(t),
-            f64::from(r.value) / 10.0,
-            f64::from(r.secondary.unwrap_or(0)) / 1e3,
+            f64::from(r.level) / 10.0,
+            f64::from(r.volume.unwrap_or(0)) / 1e3,
             truth_l(h),
             crate::convert::status_name(r.status)
         )?;

@@ -112,14 +112,22 @@
 //! Not a safety-rated component: a reading a person relies on for safety
 //! needs its own qualified measurement.
 
+#[cfg(feature = "ntc")]
 mod divider;
+#[cfg(feature = "ntc")]
 mod ln;
+#[cfg(feature = "ntc")]
 mod model;
+#[cfg(feature = "ntc")]
 mod ntc;
 
+#[cfg(feature = "ntc")]
 pub use divider::{Divider, LnRatio, NtcPosition};
+#[cfg(feature = "ntc")]
 pub use ln::{ln_q37, LN_FRAC_BITS};
+#[cfg(feature = "ntc")]
 pub use model::{steinhart_hart_fit, Beta, CalibrationPoint, SteinhartHart, T25_K, ZERO_C_K};
+#[cfg(feature = "ntc")]
 pub use ntc::{NtcBeta, NtcSteinhartHart, MAX_READING, MIN_READING};
 
 use core::fmt;

@@ -53,6 +53,10 @@ pub struct Args {
     /// Print the lot report as JSON on standard output
     #[arg(long)]
     json: bool,
+    /// Calibration time recorded in every image, UTC Unix seconds (default:
+    /// SOURCE_DATE_EPOCH when set, else now)
+    #[arg(long)]
+    time: Option<i64>,
 }
 
 /// Counts the units of a rig log file (consecutive serial blocks) for the
@@ -140,7 +144,8 @@ fn print_report(r: &LotReport) {
 }
 
 pub fn run(a: Args) -> Result<()> {
-    let plan = Plan::load(&a.plan)?;
+    let mut plan = Plan::load(&a.plan)?;
+    plan.calibrated_at = lc_host::calib::plan::calibration_time(a.time);
     let mut store = Store::open(&a.db)?;
     std::fs::create_dir_all(&a.images)
         .with_context(|| format!("cannot create the images folder {}", a.images.display()))?;
