@@ -68,7 +68,9 @@
 //! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
 //! ```
 
-use crate::fixed::{mul_u32_wide, round_shr_u64};
+#[cfg(any(test, feature = "design"))]
+use crate::fixed::{leading_zeros_u32, round_shr_u64};
+use crate::fixed::{mul_u32_wide, shr_u64};
 use crate::shift::Shift;
 use core::fmt;
 
@@ -193,12 +195,44 @@ pub(crate) const LINEAR_SEGMENT_WORDS: usize = 2;
 /// 32-bit words per cubic segment: (sh, k_exp), k, c1, c2, c3.
 pub(crate) const CUBIC_SEGMENT_WORDS: usize = 5;
 
-/// Word `i` of `w` (little endian in the image), 0 past the end. Every
-/// caller stays inside a validated table; the checked access keeps the
-/// panic-free promise without an index proof.
+/// Word `i` of `w` (little endian in the image), 0 past the end.
+#[cfg(any(test, feature = "design"))]
 #[inline(always)]
 fn word(w: &[u32], i: usize) -> u32 {
     u32::from_le(w.get(i).copied().unwrap_or(0))
+}
+
+/// Record `i` of `r` (an `N`-word node or segment), zeros past the end:
+/// one bounds check for all of its words.
+#[inline(always)]
+fn record<const N: usize>(r: &[[u32; N]], i: usize) -> [u32; N] {
+    r.get(i).copied().unwrap_or([0; N]).map(u32::from_le)
+}
+
+/// `x · 2^sh` for `sh` ≤ 62 and a result below 2^64, in 32-bit halves
+/// (on a Cortex-M0 a 64-bit shift is a library call).
+#[inline]
+fn shl_u64(x: u64, sh: u32) -> u64 {
+    let (hi, lo) = ((x >> 32) as u32, x as u32);
+    match sh {
+        0 => x,
+        1..=31 => (u64::from((hi << sh) | (lo >> (32 - sh))) << 32) | u64::from(lo << sh),
+        32..=63 => u64::from(lo << (sh - 32)) << 32,
+        _ => 0,
+    }
+}
+
+/// Bit length of a `u64` (0 for 0), from 32-bit counts: on a Cortex-M0
+/// `u64::leading_zeros` is a library call.
+#[cfg(any(test, feature = "design"))]
+#[inline]
+fn bits_u64(w: u64) -> u32 {
+    let (hi, lo) = ((w >> 32) as u32, w as u32);
+    if hi != 0 {
+        64 - leading_zeros_u32(hi)
+    } else {
+        32 - leading_zeros_u32(lo)
+    }
 }
 
 #[cfg(any(test, feature = "design"))]
@@ -228,11 +262,11 @@ impl Segment {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct CurveRef<'a> {
     /// x low word, x high word, y, per node.
-    nodes: &'a [u32],
-    /// The segments' constants.
-    segs: &'a [u32],
-    len: u8,
-    cubic: bool,
+    nodes: &'a [[u32; NODE_WORDS]],
+    /// A linear curve's segments (empty when cubic).
+    linear: &'a [[u32; LINEAR_SEGMENT_WORDS]],
+    /// A cubic curve's segments (empty when linear).
+    cubic: &'a [[u32; CUBIC_SEGMENT_WORDS]],
     /// The table's direction (last value ≥ first): every non-flat segment
     /// goes this way (validated monotone), and on a flat one the step is 0
     /// either way.
@@ -244,10 +278,10 @@ pub struct CurveRef<'a> {
 }
 
 /// Shift that brings a positive width below 2^31 (and at or above 2^30).
+#[cfg(any(test, feature = "design"))]
 fn width_shift(w: u64) -> u8 {
-    let bits = 64 - w.leading_zeros();
     // bits ≤ 64, so the result is at most 33.
-    bits.saturating_sub(31) as u8
+    bits_u64(w).saturating_sub(31) as u8
 }
 
 /// Whether `m` (below 2^31) is round(n · 2^e / d), rounding half up, with
@@ -256,11 +290,12 @@ fn width_shift(w: u64) -> u8 {
 /// below 2^62, so a valid pair has n·2^e below 2^63 and all of it fits
 /// `u64`.
 fn is_rounded_ratio(m: u32, e: u8, n: u32, d: u32) -> bool {
-    let bits_n = 32 - n.leading_zeros();
-    if d == 0 || u32::from(e) + bits_n > 63 {
+    // n·2^e must stay below 2^63: n < 2^(63 − e), for e ≤ 62.
+    let e = u32::from(e);
+    if d == 0 || e > 62 || (e > 31 && n >> (63 - e) != 0) {
         return false;
     }
-    let x = (u64::from(n) << e) + u64::from(d / 2);
+    let x = shl_u64(u64::from(n), e) + u64::from(d / 2);
     let md = mul_u32_wide(m, d);
     md <= x && x - md < u64::from(d)
 }
@@ -277,25 +312,35 @@ fn is_rounded_ratio(m: u32, e: u8, n: u32, d: u32) -> bool {
 /// overflow argument assume, checked with shifts, multiplies and
 /// compares.
 fn check_segment(
-    w: &[u32],
+    w: [u32; CUBIC_SEGMENT_WORDS],
     (x0, y0): (i64, i32),
     (x1, y1): (i64, i32),
     cubic: bool,
     rising: bool,
 ) -> Result<(), CurveError> {
-    let head = word(w, 0);
-    let (sh, k_exp) = ((head & 0xFF) as u8, ((head >> 8) & 0xFF) as u8);
-    if head >> 16 != 0 {
+    let [head, k, c1, c2, c3] = w;
+    let (sh, k_exp) = (head & 0xFF, ((head >> 8) & 0xFF) as u8);
+    if head >> 16 != 0 || sh > 33 {
         return Err(CurveError::BadSegment);
     }
+    // The width shift is the one that brings w into [2^30, 2^31) (w below
+    // 2^31 for sh = 0), and w' = round(w · 2^-sh) ≥ 1, at most 2^31: from
+    // t = w · 2^-(sh−1), the halved value with its half bit.
     let width = x1.abs_diff(x0);
-    if sh != width_shift(width) {
-        return Err(CurveError::BadSegment);
-    }
-    // w' = round(w · 2^-sh) ≥ 1, at most 2^31.
-    let w_red = round_shr_u64(width, u32::from(sh)).max(1);
-    let d = u32::try_from(w_red).map_err(|_| CurveError::BadSegment)?;
-    let k = word(w, 1) as i32;
+    let d = if sh == 0 {
+        match u32::try_from(width) {
+            Ok(w) if w < 1 << 31 => w.max(1),
+            _ => return Err(CurveError::BadSegment),
+        }
+    } else {
+        let t = shr_u64(width, sh - 1);
+        if !(1 << 31..1 << 32).contains(&t) {
+            return Err(CurveError::BadSegment);
+        }
+        let t = t as u32; // < 2^32
+        (t >> 1) + (t & 1)
+    };
+    let k = k as i32;
     let dy = i64::from(y1) - i64::from(y0);
     let m = k.unsigned_abs();
     let normal = (1 << 30..1 << 31).contains(&m);
@@ -318,22 +363,27 @@ fn check_segment(
     if !(normal && k > 0 && is_rounded_ratio(m, k_exp, 1 << 30, d)) {
         return Err(CurveError::BadSegment);
     }
-    let dy = dy << 8;
-    if dy.unsigned_abs() >= 1 << 29 {
+    // In i32 from here, every step checked: |Δy|, |D0|, |D1| < 2^29 in
+    // Q8 units, so 3·|Δy| and the sums below fit unless the stored terms
+    // are wrong (then refused). No 64-bit multiply at start-up.
+    if dy.unsigned_abs() >= 1 << 21 {
         return Err(CurveError::SegmentTooSteep);
     }
-    let (c1, c2, c3) = (
-        i64::from(word(w, 2) as i32),
-        i64::from(word(w, 3) as i32),
-        i64::from(word(w, 4) as i32),
-    );
-    let (d0, d1) = (c1, c3 - c1 + 2 * dy);
-    let limit = 3 * dy.unsigned_abs() + 2;
-    let sign_ok = |d: i64| if rising { d >= 0 } else { d <= 0 };
+    let dy = (dy as i32) << 8; // |Δy| < 2^21: exact, below 2^29
+    let (c1, c2, c3) = (c1 as i32, c2 as i32, c3 as i32);
+    let d0 = c1;
+    let d1 = c3
+        .checked_sub(c1)
+        .and_then(|v| v.checked_add(2 * dy))
+        .ok_or(CurveError::SegmentTooSteep)?;
     if d0.unsigned_abs() >= 1 << 29 || d1.unsigned_abs() >= 1 << 29 {
         return Err(CurveError::SegmentTooSteep);
     }
-    if c2 != 3 * dy - 2 * d0 - d1
+    let limit = 3 * dy.unsigned_abs() + 2; // < 1.5·2^30 + 2
+    let sign_ok = |d: i32| if rising { d >= 0 } else { d <= 0 };
+    // 3Δy − 2D0 − D1: each term below 1.5·2^30 in size, the sum checked.
+    let want_c2 = (3 * dy).checked_sub(2 * d0).and_then(|v| v.checked_sub(d1));
+    if want_c2 != Some(c2)
         || d0.unsigned_abs() > limit
         || d1.unsigned_abs() > limit
         || !sign_ok(d0)
@@ -372,44 +422,45 @@ impl<'a> CurveRef<'a> {
         } else {
             LINEAR_SEGMENT_WORDS
         };
-        let nodes = nodes
-            .get(..len * NODE_WORDS)
-            .ok_or(CurveError::TooFewNodes)?;
-        let segs = segs
-            .get(..(len - 1) * stride)
-            .ok_or(CurveError::TooFewNodes)?;
+        let short = CurveError::TooFewNodes;
+        let nodes = nodes.get(..len * NODE_WORDS).ok_or(short)?;
+        let segs = segs.get(..(len - 1) * stride).ok_or(short)?;
+        let nodes: &[[u32; NODE_WORDS]] = bytemuck::try_cast_slice(nodes).map_err(|_| short)?;
         let mut c = CurveRef {
             nodes,
-            segs,
-            len: len as u8, // ≤ 64
-            cubic,
+            linear: &[],
+            cubic: &[],
             rising: true,
             whole: false,
         };
+        if cubic {
+            c.cubic = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
+        } else {
+            c.linear = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
+        }
         c.rising = c.y(len - 1) >= c.y(0);
-        // The nodes first, then each segment's constants: the order of
-        // errors the host's constructors report.
-        let (mut up, mut down) = (false, false);
+        // One pass, node after node: shifts increasing, each step of the
+        // table's direction (the direction of the first and last nodes: a
+        // step against it means the values rise and fall), each segment's
+        // constants. Each node's words are read once.
+        let mut whole = true;
+        let [lo, hi, y] = record(c.nodes, 0);
+        let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
+        whole &= lo == 0;
         for i in 0..len - 1 {
-            if c.x(i + 1) <= c.x(i) {
+            let [lo, hi, y] = record(c.nodes, i + 1);
+            let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
+            whole &= lo == 0;
+            if x1 <= x0 {
                 return Err(CurveError::ShiftsNotIncreasing);
             }
-            let dy = i64::from(c.y(i + 1)) - i64::from(c.y(i));
-            up |= dy > 0;
-            down |= dy < 0;
-        }
-        if up && down {
-            return Err(CurveError::NotMonotone);
-        }
-        let mut whole = true;
-        for i in 0..len - 1 {
-            let (a, b) = ((c.x(i), c.y(i)), (c.x(i + 1), c.y(i + 1)));
-            let seg = segs.get(i * stride..).unwrap_or(&[]);
-            check_segment(seg, a, b, cubic, c.rising)?;
-            whole &= (1..=32).contains(&(word(seg, 0) & 0xFF));
-        }
-        for i in 0..len {
-            whole &= word(nodes, i * NODE_WORDS) == 0;
+            if (c.rising && y1 < y0) || (!c.rising && y1 > y0) {
+                return Err(CurveError::NotMonotone);
+            }
+            let seg = c.segment_words(i);
+            check_segment(seg, (x0, y0), (x1, y1), cubic, c.rising)?;
+            whole &= (1..=32).contains(&(seg[0] & 0xFF));
+            (x0, y0) = (x1, y1);
         }
         c.whole = whole;
         Ok(c)
@@ -418,17 +469,23 @@ impl<'a> CurveRef<'a> {
     /// Number of nodes.
     #[inline]
     pub fn len(&self) -> usize {
-        usize::from(self.len)
+        self.nodes.len()
     }
 
     /// Always false: a curve has at least two nodes.
     pub fn is_empty(&self) -> bool {
-        self.len == 0
+        self.nodes.is_empty()
+    }
+
+    /// Whether the segments are cubic.
+    #[inline(always)]
+    fn is_cubic(&self) -> bool {
+        !self.cubic.is_empty()
     }
 
     /// The interpolation in use.
     pub fn interpolation(&self) -> Interpolation {
-        if self.cubic {
+        if self.is_cubic() {
             Interpolation::MonotoneCubic
         } else {
             Interpolation::Linear
@@ -453,44 +510,44 @@ impl<'a> CurveRef<'a> {
     /// Node `i`'s shift, raw Q23.40.
     #[inline(always)]
     fn x(&self, i: usize) -> i64 {
-        let at = i * NODE_WORDS;
-        ((u64::from(word(self.nodes, at + 1)) << 32) | u64::from(word(self.nodes, at))) as i64
+        let [lo, hi, _] = record(self.nodes, i);
+        ((u64::from(hi) << 32) | u64::from(lo)) as i64
     }
 
     /// Node `i`'s shift's high word: the level of a volume table's node.
     #[inline(always)]
     fn x_high(&self, i: usize) -> i32 {
-        word(self.nodes, i * NODE_WORDS + 1) as i32
+        record(self.nodes, i)[1] as i32
     }
 
     /// Node `i`'s value.
     #[inline(always)]
     fn y(&self, i: usize) -> i32 {
-        word(self.nodes, i * NODE_WORDS + 2) as i32
+        record(self.nodes, i)[2] as i32
+    }
+
+    /// Segment `i`'s words, a linear segment's in the first two.
+    #[inline(always)]
+    fn segment_words(&self, i: usize) -> [u32; CUBIC_SEGMENT_WORDS] {
+        if self.is_cubic() {
+            record(self.cubic, i)
+        } else {
+            let [head, k] = record(self.linear, i);
+            [head, k, 0, 0, 0]
+        }
     }
 
     /// Segment `i`'s constants.
     #[inline(always)]
     pub(crate) fn segment_constants(&self, i: usize) -> Segment {
-        let stride = if self.cubic {
-            CUBIC_SEGMENT_WORDS
-        } else {
-            LINEAR_SEGMENT_WORDS
-        };
-        let w = self.segs.get(i * stride..).unwrap_or(&[]);
-        let head = word(w, 0);
-        let (c1_q8, c2_q8, c3_q8) = if self.cubic {
-            (word(w, 2) as i32, word(w, 3) as i32, word(w, 4) as i32)
-        } else {
-            (0, 0, 0)
-        };
+        let [head, k, c1, c2, c3] = self.segment_words(i);
         Segment {
             sh: (head & 0xFF) as u8,
             k_exp: ((head >> 8) & 0xFF) as u8,
-            k: word(w, 1) as i32,
-            c1_q8,
-            c2_q8,
-            c3_q8,
+            k: k as i32,
+            c1_q8: c1 as i32,
+            c2_q8: c2 as i32,
+            c3_q8: c3 as i32,
         }
     }
 
@@ -507,7 +564,12 @@ impl<'a> CurveRef<'a> {
     /// The node words and the segment words this curve reads (what an
     /// image stores).
     pub fn words(&self) -> (&'a [u32], &'a [u32]) {
-        (self.nodes, self.segs)
+        let segs: &'a [u32] = if self.is_cubic() {
+            bytemuck::cast_slice(self.cubic)
+        } else {
+            bytemuck::cast_slice(self.linear)
+        };
+        (bytemuck::cast_slice(self.nodes), segs)
     }
 
     /// Segment `i`'s tangent terms (D0, D1) = w·dy/ds at its two ends, in
@@ -516,7 +578,7 @@ impl<'a> CurveRef<'a> {
         if i + 1 >= self.len() {
             return None;
         }
-        if !self.cubic {
+        if !self.is_cubic() {
             return Some((0, 0));
         }
         let seg = self.segment_constants(i);
@@ -624,7 +686,7 @@ impl<'a> CurveRef<'a> {
         let rising = self.rising;
         // |y1 − y0| < 2^30 (validated): exact in u32.
         let span = y1.abs_diff(y0);
-        let step: u32 = if !self.cubic {
+        let step: u32 = if !self.is_cubic() {
             // |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30: fits after the shift.
             round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
         } else {
@@ -679,7 +741,7 @@ impl<'a> CurveRef<'a> {
         let (d0, d1) = (f64::from(d0) / 256.0, f64::from(d1) / 256.0);
         // Cubic: three Horner steps each round a Q8 value (≤ 2^-9 each),
         // and t is held to 16 bits.
-        if self.cubic {
+        if self.is_cubic() {
             0.5 + 3.0 / 512.0 + 1.525_878_906_25e-5 * (dy + d0.abs() + d1.abs())
         } else {
             0.5 + 3.725_290_298_461_914e-9 * dy
@@ -705,7 +767,7 @@ impl<'a> CurveRef<'a> {
         let (x0, x1) = (xs(i), xs(i + 1));
         let (y0, y1) = (f64::from(self.y(i)), f64::from(self.y(i + 1)));
         let t = (s - x0) / (x1 - x0);
-        if self.cubic {
+        if self.is_cubic() {
             let seg = self.segment_constants(i);
             let c = |q: i32| f64::from(q) / 256.0;
             y0 + t * (c(seg.c1_q8) + t * (c(seg.c2_q8) + t * c(seg.c3_q8)))
@@ -924,13 +986,17 @@ mod owned {
             let nodes = &self.node_words[..len * NODE_WORDS];
             let segs = &self.seg_words[..(len - 1) * stride];
             let mut v = CurveRef {
-                nodes,
-                segs,
-                len: self.len,
-                cubic: self.cubic,
+                nodes: bytemuck::cast_slice(nodes),
+                linear: &[],
+                cubic: &[],
                 rising: true,
                 whole: false,
             };
+            if self.cubic {
+                v.cubic = bytemuck::cast_slice(segs);
+            } else {
+                v.linear = bytemuck::cast_slice(segs);
+            }
             v.rising = v.y(len - 1) >= v.y(0);
             v.whole = (0..len).all(|i| word(nodes, i * NODE_WORDS) == 0)
                 && (0..len - 1).all(|i| (1..=32).contains(&v.segment_constants(i).sh));
@@ -1594,6 +1660,20 @@ mod tests {
                 None => Curve::linear(&nodes),
             };
             let Ok(c) = built else { return Ok(()) };
+            // What the host builds, the firmware's validation accepts, and
+            // a segment's slope or reciprocal one unit off it refuses.
+            let v = c.view();
+            let (n, sg) = v.words();
+            let cubic = ders.is_some();
+            prop_assert_eq!(CurveRef::from_words(n, sg, v.len(), cubic), Ok(v));
+            let mut bad = sg.to_vec();
+            let stride = if cubic { CUBIC_SEGMENT_WORDS } else { LINEAR_SEGMENT_WORDS };
+            let (_, pick, up) = qs[0];
+            let at = (pick.unsigned_abs() as usize % (v.len() - 1)) * stride + 1;
+            if bad[at] != 0 {
+                bad[at] = (bad[at] as i32).wrapping_add(if up >= 0 { 1 } else { -1 }) as u32;
+                prop_assert!(CurveRef::from_words(n, &bad, v.len(), cubic).is_err());
+            }
             for (q, raw, nudge) in qs {
                 // Inside a segment, at and beside nodes, and anywhere.
                 let (lo, hi) = (nodes[0].shift.raw_q40(), nodes[nodes.len() - 1].shift.raw_q40());

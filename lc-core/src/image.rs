@@ -570,11 +570,11 @@ impl<'a> Image<'a> {
     /// and every segment's constants), and what the readers derive (shift
     /// converter, companion ratio, metal detector).
     ///
-    /// Cost on a Cortex-M0: about 9 instructions per image byte for the
-    /// CRC (18 with the `crc-nibble` feature), about 150 per curve
-    /// segment, and a few thousand for the shift converter: about 15 000
-    /// for a 32-node cubic proximity image (docs/performance.md). Stack:
-    /// a few hundred bytes; the returned value is `size_of::<Image>()`.
+    /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
+    /// image byte with the byte table), a few hundred per curve segment,
+    /// and a few thousand for the header and the converters' checks
+    /// (docs/performance.md, "Start-up"). Stack: a few hundred bytes; the
+    /// returned value is `size_of::<Image>()`.
     pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
         use ImageError::*;
         let (version, len) = framing(bytes)?;
@@ -604,12 +604,9 @@ impl<'a> Image<'a> {
         }
         let bytes = bytes.get(..len).ok_or(Truncated)?;
         let words: &[u32] = bytemuck::try_cast_slice(bytes).map_err(|_| Misaligned)?;
-        let body = bytes.get(..len - CRC_LEN).ok_or(Truncated)?;
-        if r.u32(Span {
-            at: len - CRC_LEN,
-            len: CRC_LEN,
-        }) != Some(crc32(body))
-        {
+        // The CRC by words (the length is a whole number of words).
+        let (body, stored) = words.split_at(words.len().saturating_sub(1));
+        if stored.first().map(|w| u32::from_le(*w)) != Some(crc::crc32_words(body)) {
             return Err(BadCrc);
         }
         let h = header(Bytes(bytes))?;
@@ -653,18 +650,38 @@ impl<'a> Image<'a> {
     ) -> Result<Self, ImageError> {
         use ImageError::*;
         let gate = (h.gate_cycles > 0).then_some(h.gate_cycles);
-        let converter = ShiftConverter::new(h.rest, Gating::Reciprocal, gate).map_err(BadGate)?;
-        // Proximity and metal: a companion coil (ratiometric shift). Level:
-        // a reference electrode with its own converter.
+        let r = Bytes(bytes);
+        let pair = |a: Span, b: Span| (r.u32(a).unwrap_or(0), r.u32(b).unwrap_or(0));
+        // The converters from their stored reciprocals, checked by
+        // multiplies: no 128-bit division at start-up.
+        let converter = ShiftConverter::with_reciprocals(
+            h.rest,
+            Gating::Reciprocal,
+            gate,
+            pair(REST_RECIPROCAL, GATE_RECIPROCAL),
+        )
+        .map_err(BadGate)?;
+        let companion_reciprocals = pair(COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL);
+        // Proximity and metal: a companion coil (ratiometric shift, its
+        // ratio derived here: one division). Level: a reference electrode
+        // with its own converter.
         let (companion, reference) = match (h.kind, h.companion_rest) {
-            (_, None) => (None, None),
             (ReaderKind::Level, Some(c)) => (
                 None,
                 Some(
-                    ShiftConverter::new(c, Gating::Reciprocal, gate)
-                        .map_err(|_| OutOfRange(Field::CompanionRest))?,
+                    ShiftConverter::with_reciprocals(
+                        c,
+                        Gating::Reciprocal,
+                        gate,
+                        companion_reciprocals,
+                    )
+                    .map_err(|_| OutOfRange(Field::CompanionRest))?,
                 ),
             ),
+            _ if companion_reciprocals != (0, 0) => {
+                return Err(OutOfRange(Field::CompanionRest));
+            }
+            (_, None) => (None, None),
             (_, Some(c)) => (
                 Some(Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?),
                 None,
@@ -1223,6 +1240,21 @@ mod host {
             }
             w.put(CALIBRATED_AT.at, &self.calibrated_at.to_le_bytes())?;
             w.put(PLAN_ID.at, &self.plan_id.0)?;
+            // The converters' reciprocals, which the firmware checks
+            // instead of dividing.
+            let reciprocals = |rest: RestPoint| {
+                ShiftConverter::new(rest, Gating::Reciprocal, self.gate())
+                    .map(|c| c.reciprocals())
+                    .map_err(ImageError::BadGate)
+            };
+            let (inv, gate_inv) = reciprocals(self.rest)?;
+            w.put(REST_RECIPROCAL.at, &inv.to_le_bytes())?;
+            w.put(GATE_RECIPROCAL.at, &gate_inv.to_le_bytes())?;
+            if let (ReaderKind::Level, Some(c)) = (self.kind, self.companion_rest) {
+                let (inv, gate_inv) = reciprocals(c)?;
+                w.put(COMPANION_RECIPROCAL.at, &inv.to_le_bytes())?;
+                w.put(COMPANION_GATE_RECIPROCAL.at, &gate_inv.to_le_bytes())?;
+            }
             let mut at = HEADER_LEN;
             for table in [self.curve, self.volume.map(|(t, _)| t)]
                 .into_iter()
@@ -1414,7 +1446,7 @@ mod tests {
             encode(&demo_proximity().unwrap()).len(),
             HEADER_LEN + 5 * NODE_LEN + 4 * SEGMENT_LEN_LINEAR + CRC_LEN
         );
-        assert_eq!(MAX_IMAGE_LEN, 4_180);
+        assert_eq!(MAX_IMAGE_LEN, 4_196);
     }
 
     #[test]
@@ -1618,7 +1650,7 @@ mod tests {
         let img = encode(&demo_proximity().unwrap());
         assert_eq!(&img[0..4], b"LCIM");
         assert_eq!(&img[4..6], &[2, 0]);
-        assert_eq!(u16::from_le_bytes([img[6], img[7]]), 216);
+        assert_eq!(u16::from_le_bytes([img[6], img[7]]), 232);
         assert_eq!(&img[8..12], &[1, 0, 5, 0]);
         assert_eq!(&img[12..24], b"DEMO-01-0007");
         assert_eq!(
@@ -1633,17 +1665,22 @@ mod tests {
             1_764_000_000
         );
         assert_eq!(&img[112..120], b"demoplan");
+        // 1/p_rest's mantissa: p_rest = 139 542/16 384 ≈ 8.517, so
+        // 2^35/p_rest ≈ 4.034e9 with its top bit set.
+        let inv = u32::from_le_bytes(img[120..124].try_into().unwrap());
+        assert!((f64::from(inv) - 2f64.powi(35) * 16_384.0 / 139_542.0).abs() < 1.0);
+        assert_eq!(&img[128..136], &[0; 8]);
         assert_eq!(
-            i64::from_le_bytes(img[120..128].try_into().unwrap()),
+            i64::from_le_bytes(img[136..144].try_into().unwrap()),
             -362_000_000_000
         );
-        assert_eq!(i32::from_le_bytes(img[128..132].try_into().unwrap()), 500);
+        assert_eq!(i32::from_le_bytes(img[144..148].try_into().unwrap()), 500);
         // The first segment: width 112e9 raw units needs sh = 6 (2^36 ≤ w
         // < 2^37), slope 500 units over w' = round(w / 64).
-        assert_eq!(img[180], 6);
+        assert_eq!(img[196], 6);
         let (k, e) = (
-            i32::from_le_bytes(img[184..188].try_into().unwrap()),
-            img[181],
+            i32::from_le_bytes(img[200..204].try_into().unwrap()),
+            img[197],
         );
         let w = 1_750_000_000f64;
         assert!((f64::from(k) * 2f64.powi(-i32::from(e)) - 500.0 / w).abs() < 1e-9 * 500.0 / w);

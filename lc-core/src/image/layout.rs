@@ -109,13 +109,26 @@ pub const CALIBRATED_AT: Span = Span::new(104, 8);
 /// plan's text (format 2).
 pub const PLAN_ID: Span = Span::new(112, 8);
 
+/// The shift converter's reciprocal of the rest point, 32-bit mantissa
+/// (format 2; computed on the host, checked at start-up).
+pub const REST_RECIPROCAL: Span = Span::new(120, 4);
+/// The shift converter's reciprocal of rest point times gate, 32-bit
+/// mantissa (0 without a gate).
+pub const GATE_RECIPROCAL: Span = Span::new(124, 4);
+/// Level with a reference electrode: its converter's reciprocal of its
+/// rest point (0 otherwise).
+pub const COMPANION_RECIPROCAL: Span = Span::new(128, 4);
+/// Level with a reference electrode: its reciprocal of rest point times
+/// gate (0 otherwise).
+pub const COMPANION_GATE_RECIPROCAL: Span = Span::new(132, 4);
+
 /// Bytes before the tables (format 2).
-pub const HEADER_LEN: usize = 120;
+pub const HEADER_LEN: usize = 136;
 /// Bytes before the tables in format 1 (no time, no plan identity).
 pub const HEADER_LEN_V1: usize = 104;
 
 /// The header, in byte order.
-pub const HEADER: [Row; 31] = [
+pub const HEADER: [Row; 35] = [
     row("magic", Field::Magic, MAGIC, "[u8; 4]"),
     row("version", Field::Version, VERSION, "u16"),
     row("length", Field::Length, LENGTH, "u16"),
@@ -167,6 +180,20 @@ pub const HEADER: [Row; 31] = [
     row("reserved", Field::Reserved, RESERVED_100, "u32"),
     row("calibrated_at", Field::CalibratedAt, CALIBRATED_AT, "i64"),
     row("plan_id", Field::PlanId, PLAN_ID, "[u8; 8]"),
+    row("rest_reciprocal", Field::GateCycles, REST_RECIPROCAL, "u32"),
+    row("gate_reciprocal", Field::GateCycles, GATE_RECIPROCAL, "u32"),
+    row(
+        "companion_reciprocal",
+        Field::CompanionRest,
+        COMPANION_RECIPROCAL,
+        "u32",
+    ),
+    row(
+        "companion_gate_reciprocal",
+        Field::CompanionRest,
+        COMPANION_GATE_RECIPROCAL,
+        "u32",
+    ),
 ];
 
 const fn row(name: &'static str, field: Field, span: Span, ty: &'static str) -> Row {

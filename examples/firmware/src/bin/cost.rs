@@ -693,7 +693,7 @@ fn loading(out: &mut impl Write, scale: &Scale) -> fmt::Result {
     let t = time_cases(&mut nothing, &images, LOAD_ITERATIONS, |_, bytes| {
         black_box(lc_core::image::crc32(bytes));
     });
-    row(out, "  crc32 of the 32-node image", t, per(t))?;
+    row(out, "  crc32 of the 32-node image, by bytes", t, per(t))?;
     let rests = [(checked.rest(), checked.gate()); 8];
     let t = time_cases(&mut nothing, &rests, LOAD_ITERATIONS, |_, (rest, gate)| {
         let _ = black_box(ShiftConverter::new(
