@@ -542,8 +542,8 @@ fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
 /// its curves for as long as the bytes live (`'static` for an image in
 /// flash).
 ///
-/// Size: see docs/performance.md ("Memory"); it is meant to live on the
-/// start-up stack only, while the readers are built.
+/// Size: 248 bytes on a 32-bit target (the crate docs, "Memory"); it is
+/// meant to live on the start-up stack only, while the readers are built.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Image<'a> {
@@ -573,8 +573,9 @@ impl<'a> Image<'a> {
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
     /// image byte with the byte table), a few hundred per curve segment,
     /// and a few thousand for the header and the converters' checks
-    /// (docs/performance.md, "Start-up"). Stack: a few hundred bytes; the
-    /// returned value is `size_of::<Image>()`.
+    /// (about 24 000 instructions for a 32-node cubic image of 1 144 bytes,
+    /// 9 400 for the five-node demo image). Stack: a few hundred bytes
+    /// besides the returned 248-byte `Image`.
     pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
         use ImageError::*;
         let (version, len) = framing(bytes)?;

@@ -310,4 +310,42 @@ mod tests {
             assert_eq!(n % 4, 0);
         }
     }
+
+    /// The rows `| offset | size | type | `name` | rule |` of the table
+    /// under the heading `section` in docs/image-format.md.
+    fn doc_rows(section: &str) -> Vec<(usize, usize, String, String)> {
+        let doc = include_str!("../../../docs/image-format.md");
+        let start = doc.find(section).expect("section in the docs");
+        doc[start..]
+            .lines()
+            .skip(1)
+            .skip_while(|l| !l.starts_with('|'))
+            .take_while(|l| l.starts_with('|'))
+            .filter_map(|l| {
+                let cells: Vec<&str> = l.split('|').map(str::trim).collect();
+                let at = cells.get(1)?.parse().ok()?;
+                let len = cells.get(2)?.parse().ok()?;
+                let name = cells.get(4)?.trim_matches('`').to_string();
+                Some((at, len, cells.get(3)?.to_string(), name))
+            })
+            .collect()
+    }
+
+    /// docs/image-format.md's header and segment tables are this layout,
+    /// row for row: offset, size, type and name.
+    #[test]
+    fn docs_tables_match_the_layout() {
+        for (section, rows) in [
+            ("## Header (136 bytes)", &HEADER[..]),
+            ("A segment's constants", &SEGMENT[..]),
+        ] {
+            let want: Vec<(usize, usize, String, String)> = rows
+                .iter()
+                .map(|r| (r.span.at, r.span.len, r.ty.to_string(), r.name.to_string()))
+                .collect();
+            assert_eq!(doc_rows(section), want, "{section}");
+        }
+        assert!(include_str!("../../../docs/image-format.md")
+            .contains(&format!("## Header ({HEADER_LEN} bytes)")));
+    }
 }

@@ -233,6 +233,13 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
     )?;
     stages(out, ctx, &pairs, &scale)?;
     full_readings(out, &scale)?;
+    writeln!(out, "# size_of on this target, bytes")?;
+    for (name, bytes) in lc_firmware::sizes::SIZES
+        .iter()
+        .chain(&lc_firmware::sizes::NTC_SIZES)
+    {
+        writeln!(out, "{name:<24} {bytes:>6}")?;
+    }
     writeln!(out, "# end")
 }
 
