@@ -65,6 +65,16 @@ use crate::drift::{Companion, CompanionError, DriftFactor, TemperatureModel};
 #[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
 use crate::image::Image;
 use crate::image::{MetalParams, ReaderKind};
+
+/// What `Reader` and `Reading` need: at least one reader.
+macro_rules! any_reader {
+    ($($item:item)*) => {
+        $(
+            #[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
+            $item
+        )*
+    };
+}
 use crate::shift::{Shift, ShiftConverter, ShiftError};
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -143,6 +153,7 @@ pub enum MetalClass {
     NonFerrous = 2,
 }
 
+any_reader! {
 /// Any reader's reading: the reading type of the image's kind.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -211,6 +222,8 @@ impl Reading {
             Reading::Metal(r) => r.delta.raw_q40(),
         }
     }
+}
+
 }
 
 /// Why a reader could not be built from an image.
@@ -401,11 +414,13 @@ pub(crate) fn metal_builds(p: &MetalParams) -> bool {
         && crate::filter::Ema::<Shift>::new(u32::from(p.baseline_k)).is_ok()
 }
 
+any_reader! {
 /// Any reader, built from an image: the one its kind names.
 ///
 /// RAM: the largest enabled reader plus a tag, 240 bytes on a 32-bit
 /// target with all three (the crate docs, "Memory"); flash: every enabled
 /// reader's code.
+#[allow(clippy::large_enum_variant)] // one reader lives in RAM, the largest's size
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 // An explicit tag: `read`'s dispatch is one byte compare, whatever niche
@@ -470,6 +485,7 @@ impl<'a> Reader<'a> {
             Reader::_Image(_, never) => match *never {},
         }
     }
+}
 }
 
 #[cfg(all(test, feature = "design"))]
