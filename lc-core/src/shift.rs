@@ -299,8 +299,10 @@ impl ShiftConverter {
         let p = u128::from(rest.0.raw_q44());
         let inv = reciprocal_checked(rest_reciprocal, p).ok_or(ShiftError::BadRestPoint)?;
         let gate = if n > 0 {
-            reciprocal_checked(gate_reciprocal, p * u128::from(n))
-                .ok_or(ShiftError::BadRestPoint)?
+            // p·N from 32 × 32-bit products (p < 2^64): no 128-bit multiply.
+            let pn = u128::from(mul_u32_wide(p as u32, n))
+                + (u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32);
+            reciprocal_checked(gate_reciprocal, pn).ok_or(ShiftError::BadRestPoint)?
         } else if gate_reciprocal == 0 {
             (0, 0)
         } else {
