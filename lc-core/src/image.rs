@@ -334,8 +334,10 @@ struct Bytes<'a>(&'a [u8]);
 
 impl Bytes<'_> {
     fn get<const N: usize>(&self, at: usize) -> Option<[u8; N]> {
-        // A conversion of constant length: plain loads, no `memcpy` call.
-        self.0.get(at..at.checked_add(N)?)?.try_into().ok()
+        let s = self.0.get(at..at.checked_add(N)?)?;
+        let mut out = [0u8; N];
+        out.copy_from_slice(s);
+        Some(out)
     }
     fn u8(&self, span: Span) -> Option<u8> {
         self.0.get(span.at).copied()

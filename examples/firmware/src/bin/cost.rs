@@ -34,7 +34,7 @@ use lc_core::curve::CurveRef;
 use lc_core::drift::TemperatureModel;
 use lc_core::image::Image;
 use lc_core::ratio::{frequency, period_ratio};
-use lc_core::reader::{Input, ProximityReader, Reader};
+use lc_core::reader::{Input, LevelReader, ProximityReader, Reader};
 use lc_core::shift::{Shift, ShiftConverter};
 use lc_core::temperature::{CentiCelsius, NtcBeta};
 use lc_firmware::pipeline::{Unit, UNITS};
@@ -497,8 +497,11 @@ fn level(
     temperature: &impl Fn(u32) -> Option<CentiCelsius>,
     per: &impl Fn(u32) -> i64,
 ) -> fmt::Result {
-    let Some((image, mut reader)) = reader(LEVEL) else {
+    let Some((image, _)) = reader(LEVEL) else {
         return writeln!(out, "level image refused");
+    };
+    let Ok(mut reader) = LevelReader::new(&image) else {
+        return writeln!(out, "level reader refused");
     };
     let Some(float) = FloatLevel::new(&image) else {
         return writeln!(out, "level f32 model refused");
@@ -509,8 +512,8 @@ fn level(
         let fixed = reader.read(&c.input);
         let reference = c.input.companion.unwrap_or_default();
         let (l, v, _) = float.read(c.input.pair, reference, c.t_c);
-        worst_level = worst_level.max((fixed.output() - l).abs());
-        worst_volume = worst_volume.max((fixed.secondary().unwrap_or(0) - v).abs());
+        worst_level = worst_level.max((fixed.level - l).abs());
+        worst_volume = worst_volume.max((fixed.volume.unwrap_or(0) - v).abs());
     }
     writeln!(
         out,
