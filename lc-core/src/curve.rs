@@ -18,12 +18,14 @@
 //!   `PchipInterpolator` and MATLAB's `pchip` use (Moler, *Numerical
 //!   Computing with MATLAB*, 2004, §3.4). Not the original Fritsch–Carlson
 //!   (1980) step-5 variant; their values differ (REFERENCES.md §11). The
-//!   derivatives are computed on the host by [`pchip_derivatives`] and stored
-//!   with the nodes, so the firmware does no floating-point work.
+//!   derivatives are computed on the host by [`pchip_derivatives`], and the
+//!   image stores each segment's Horner coefficients derived from them, so
+//!   the firmware does no floating-point work and no derivation.
 //!
 //! ## Fixed-point evaluation, rounding and bound
 //!
-//! Per segment of width w (in Q23.40 shift units) the converter precomputes
+//! Per segment of width w (in Q23.40 shift units) the host computes (the
+//! owned [`Curve`], `design` feature) and the calibration image stores
 //! a shift `sh` with 2^30 ≤ w·2^-sh < 2^31 and the slope's 31-bit mantissa
 //! (linear) or 1/w's mantissa (cubic). Per reading: one binary search
 //! (at most 6 comparisons for 64 nodes), then
@@ -51,6 +53,10 @@
 //! The bound assumes a monotone segment: construction refuses tangent
 //! terms beyond three times the segment's step (Fritsch–Carlson).
 //! The input loses nothing finer than w·2^-31 of shift.
+//!
+//! The firmware reads a curve in place from the image as a [`CurveRef`]
+//! (validated once, [`CurveRef::from_words`]); the owned `Curve` evaluates
+//! through the same `CurveRef`, so host and firmware run one evaluation.
 //!
 //! ```
 //! use lc_core::curve::{Curve, CurveStatus, Interpolation, Node};
