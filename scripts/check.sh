@@ -53,6 +53,13 @@ if [ "$have_targets" = yes ]; then
             cargo build -p lc-core --release --target "$t" $f --quiet
         done
     done
+    # Each reader alone, none at all, and the small CRC table: what a
+    # firmware that names only its reader builds (lib.rs, "Cargo features").
+    for f in proximity level metal "" "proximity,crc-nibble" "scanner,ntc"; do
+        step "lc-core for thumbv6m-none-eabi, --no-default-features --features '$f'"
+        cargo clippy -p lc-core --lib --target thumbv6m-none-eabi --no-default-features \
+            --features "$f" -- -D warnings
+    done
     step "firmware example lints"
     for t in "${targets[@]}"; do
         cargo clippy --manifest-path examples/firmware/Cargo.toml --target "$t" --quiet -- -D warnings
@@ -63,6 +70,8 @@ fi
 step "lc-core defmt feature on the host (lints; unit tests still link)"
 cargo clippy -p lc-core --lib --features defmt -- -D warnings
 cargo test -p lc-core --lib --features defmt --quiet
+step "lc-core with the nibble CRC table (image and CRC tests)"
+cargo test -p lc-core --lib --features crc-nibble --quiet image::
 
 if ! command -v qemu-system-arm >/dev/null 2>&1; then
     missing "qemu-system-arm (emulator tests)" "apt-get install qemu-system-arm"

@@ -71,7 +71,7 @@ fn firmware_lines() -> BTreeMap<usize, Vec<FirmwareLine>> {
             ring: field(line, "ring").parse().ok(),
             value: field(line, "value").parse().unwrap(),
             secondary: field(line, "secondary").parse().ok(),
-            shift_q40: field(line, "shift_q40").parse().unwrap(),
+            shift_q40: field(line, "x_q40").parse().unwrap(),
             status: status_text,
         });
     }
@@ -116,10 +116,10 @@ fn convert_equals_the_firmware_readout() {
             let c = conv.convert(&row.unwrap());
             let r = c.reading;
             let what = format!("unit {u} row {}: firmware {fw:?}, convert {r:?}", c.line);
-            assert_eq!(format!("{:?}", r.status), fw.status, "{what}");
-            assert_eq!(r.shift.raw_q40(), fw.shift_q40, "{what}");
-            assert_eq!(r.value, fw.value, "{what}");
-            assert_eq!(r.secondary, fw.secondary, "{what}");
+            assert_eq!(format!("{:?}", r.status()), fw.status, "{what}");
+            assert_eq!(r.curve_input_q40(), fw.shift_q40, "{what}");
+            assert_eq!(r.output(), fw.value, "{what}");
+            assert_eq!(r.secondary(), fw.secondary, "{what}");
             compared += 1;
         }
     }

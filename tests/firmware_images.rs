@@ -24,7 +24,12 @@
 //!   coolant tank of 400 mm diameter and 1 m length, with a reference
 //!   electrode at the bottom (the companion channel) and a cubic volume
 //!   table (level → millilitres);
-//! - `demo-metal`: the demo coil as a metal detector with ring-down.
+//! - `demo-metal`: the demo coil as a metal detector with ring-down;
+//! - `demo-proximity-32`: a unit of lot DEMO-01 as `lc-host calibrate`
+//!   wrote it (32-node monotone cubic curve, fitted drift model): the
+//!   format-1 image `tests/data/demo-01-0007.format1.lcim` rewritten in
+//!   format 2 ([`format_one_rewrites_to_the_committed_image`]), with the
+//!   demo plan's identity and a fixed calibration time.
 //!
 //! The readout's count pairs are computed from the same scenario; the tests
 //! below check that the host run of the readout lands where the scenario
@@ -41,13 +46,69 @@ use lc_core::counting::{CountPair, FaultWindow};
 use lc_core::curve::{pchip_derivatives, Interpolation, Node};
 use lc_core::drift::TemperatureModel;
 use lc_core::geometry::{TankShape, VolumeTable};
-use lc_core::image::tests_support::demo_proximity;
 use lc_core::image::{
-    Calibration, MetalParams, OutputScale, OutputUnit, ReaderKind, Serial, Table, MAX_IMAGE_LEN,
+    Calibration, ImageBuf, MetalParams, OutputScale, OutputUnit, PlanId, ReaderKind, Serial, Table,
+    MAX_IMAGE_LEN,
 };
-use lc_core::reader::{Input, Reader, Status};
+use lc_core::reader::{Input, Reader, Reading, Status};
 use lc_core::shift::{RestPoint, Shift};
 use lc_core::tank::resonant_frequency_hz;
+
+/// The calibration time recorded in the generated images (2025-12-01
+/// 00:00 UTC): fixed, so that the images are byte-stable.
+const CALIBRATED_AT: i64 = 1_764_547_200;
+
+/// The demo plan's identity (examples/data/demo-plan.toml).
+fn demo_plan_id() -> PlanId {
+    lc_host::calib::plan::plan_id(include_str!("../examples/data/demo-plan.toml"))
+}
+
+/// The demo proximity unit: 16 384-cycle gate at 48 MHz, a linear curve
+/// from 0.5 mm to 8 mm.
+fn demo_proximity() -> Option<Calibration> {
+    let nodes = [
+        Node::new(Shift::from_raw_q40(-362_000_000_000), 500),
+        Node::new(Shift::from_raw_q40(-250_000_000_000), 1_000),
+        Node::new(Shift::from_raw_q40(-120_000_000_000), 2_500),
+        Node::new(Shift::from_raw_q40(-50_000_000_000), 4_500),
+        Node::new(Shift::from_raw_q40(-21_000_000_000), 8_000),
+    ];
+    Some(Calibration {
+        kind: ReaderKind::Proximity,
+        serial: Serial::new("DEMO-01-0007")?,
+        reference_hz: REFERENCE_HZ,
+        gate_cycles: GATE_CYCLES,
+        window: FaultWindow::new(REFERENCE_HZ, 1_000_000, 20_000_000, 64).ok()?,
+        rest: RestPoint::from_counts(CountPair::new(GATE_CYCLES, 139_542)).ok()?,
+        companion_rest: None,
+        drift: TemperatureModel::NONE,
+        output: OutputScale {
+            unit: OutputUnit::Metre,
+            decimal_exponent: -6,
+        },
+        curve: Some(Table::linear(&nodes).ok()?),
+        volume: None,
+        metal: None,
+        calibrated_at: CALIBRATED_AT,
+        plan_id: demo_plan_id(),
+    })
+}
+
+/// A unit of lot DEMO-01 as `lc-host calibrate` wrote it in format 1 (the
+/// committed fixture), rewritten in format 2 with the demo plan's identity
+/// and [`CALIBRATED_AT`].
+fn demo_proximity_32() -> Calibration {
+    let v1 = std::fs::read(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/demo-01-0007.format1.lcim"),
+    )
+    .expect("format-1 fixture");
+    let cal = Calibration::parse(&v1).expect("the host reads format 1");
+    Calibration {
+        calibrated_at: CALIBRATED_AT,
+        plan_id: demo_plan_id(),
+        ..cal
+    }
+}
 
 /// Reference clock and reciprocal gate of every demo unit.
 const REFERENCE_HZ: u32 = 48_000_000;
@@ -169,6 +230,8 @@ fn demo_level() -> Calibration {
             },
         )),
         metal: None,
+        calibrated_at: CALIBRATED_AT,
+        plan_id: demo_plan_id(),
     }
 }
 
@@ -207,6 +270,7 @@ fn images() -> Vec<(&'static str, Calibration)> {
         ("demo-proximity-tc.lcim", demo_proximity_tc()),
         ("demo-level.lcim", demo_level()),
         ("demo-metal.lcim", demo_metal()),
+        ("demo-proximity-32.lcim", demo_proximity_32()),
     ]
 }
 
@@ -272,10 +336,34 @@ fn rest_points_follow_the_scenario() {
     );
 }
 
+/// The committed format-1 image of a DEMO-01 unit: the host reads it, the
+/// firmware refuses it, and its rewrite is the committed format-2 image.
+#[test]
+fn format_one_rewrites_to_the_committed_image() {
+    let v1 = std::fs::read(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/demo-01-0007.format1.lcim"),
+    )
+    .expect("format-1 fixture");
+    assert_eq!(Calibration::format_version(&v1), Ok(1));
+    assert_eq!(
+        ImageBuf::from_bytes(&v1).unwrap().image().map(|_| ()),
+        Err(lc_core::image::ImageError::FormatOne)
+    );
+    let cal = Calibration::parse(&v1).expect("the host reads format 1");
+    assert_eq!((cal.calibrated_at, cal.plan_id), (0, PlanId::UNKNOWN));
+    let curve = cal.curve.expect("curve");
+    assert_eq!((curve.nodes().len(), curve.is_cubic()), (32, true));
+    assert_eq!(
+        readout::IMAGES[readout::PROXIMITY_32].bytes,
+        &encode(&demo_proximity_32())[..]
+    );
+}
+
 /// Runs the readout's rows of one unit on the host; (tag, reading).
-fn host_readings(unit: usize) -> Vec<(&'static str, lc_core::reader::Reading)> {
-    let cal = Calibration::parse(readout::IMAGES[unit].bytes).expect("committed image parses");
-    let mut reader = Reader::from_calibration(&cal).expect("reader");
+fn host_readings(unit: usize) -> Vec<(&'static str, HostReading)> {
+    let buf = ImageBuf::from_bytes(readout::IMAGES[unit].bytes).expect("image");
+    let image = buf.image().expect("committed image validates");
+    let mut reader = Reader::new(&image).expect("reader");
     let ntc = readout::BOARD.ntc().expect("board NTC");
     readout::ROWS
         .iter()
@@ -288,15 +376,30 @@ fn host_readings(unit: usize) -> Vec<(&'static str, lc_core::reader::Reading)> {
                 temperature,
                 ring_count: r.ring,
             };
-            (r.tag, reader.read(&input))
+            (r.tag, HostReading::of(reader.read(&input)))
         })
         .collect()
 }
 
-fn find<'a>(
-    readings: &'a [(&'static str, lc_core::reader::Reading)],
-    tag: &str,
-) -> &'a lc_core::reader::Reading {
+/// A reading's status, primary and secondary output.
+#[derive(Clone, Copy, Debug)]
+struct HostReading {
+    status: Status,
+    value: i32,
+    secondary: Option<i32>,
+}
+
+impl HostReading {
+    fn of(r: Reading) -> Self {
+        Self {
+            status: r.status(),
+            value: r.output(),
+            secondary: r.secondary(),
+        }
+    }
+}
+
+fn find<'a>(readings: &'a [(&'static str, HostReading)], tag: &str) -> &'a HostReading {
     &readings
         .iter()
         .find(|(t, _)| *t == tag)

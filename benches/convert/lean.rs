@@ -26,7 +26,8 @@ fn main() {
     };
     let bytes = std::fs::read(image).expect("image");
     let cal = Calibration::parse(&bytes).expect("valid image");
-    let mut reader = Reader::from_calibration(&cal).expect("reader");
+    let image = lc_host::host_image(&cal).expect("image");
+    let mut reader = Reader::new(&image).expect("reader");
     let mut input = std::fs::File::open(field).expect("field log");
     let mut output = std::fs::File::create(out).expect("output");
 
@@ -100,23 +101,27 @@ fn main() {
                 temperature,
                 ring_count: None,
             });
-            let fault = matches!(r.status, Status::SensorFault(_));
+            let fault = matches!(r.status(), Status::SensorFault(_));
             push_int(&mut out, line_no);
             out.push(b',');
             push_shortest(&mut out, time_s);
             out.push(b',');
             push_int_opt(&mut out, channel);
             out.push(b',');
-            out.extend_from_slice(status_name(r.status).as_bytes());
+            out.extend_from_slice(status_name(r.status()).as_bytes());
             out.push(b',');
             if !fault {
-                push_int(&mut out, r.value);
+                push_int(&mut out, r.output());
             }
             out.push(b',');
-            push_int_opt(&mut out, r.secondary);
+            push_int_opt(&mut out, r.secondary());
             out.push(b',');
             if !fault {
-                push_fixed(&mut out, r.shift.to_ppm_f64(), 6);
+                push_fixed(
+                    &mut out,
+                    lc_core::shift::Shift::from_raw_q40(r.curve_input_q40()).to_ppm_f64(),
+                    6,
+                );
             }
             out.push(b'\n');
         }

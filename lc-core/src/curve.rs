@@ -18,12 +18,14 @@
 //!   `PchipInterpolator` and MATLAB's `pchip` use (Moler, *Numerical
 //!   Computing with MATLAB*, 2004, §3.4). Not the original Fritsch–Carlson
 //!   (1980) step-5 variant; their values differ (docs/references.md, Monotone interpolation cases). The
-//!   derivatives are computed on the host by [`pchip_derivatives`] and stored
-//!   with the nodes, so the firmware does no floating-point work.
+//!   derivatives are computed on the host by [`pchip_derivatives`], and the
+//!   image stores each segment's Horner coefficients derived from them, so
+//!   the firmware does no floating-point work and no derivation.
 //!
 //! ## Fixed-point evaluation, rounding and bound
 //!
-//! Per segment of width w (in Q23.40 shift units) the converter precomputes
+//! Per segment of width w (in Q23.40 shift units) the host computes (the
+//! owned [`Curve`], `design` feature) and the calibration image stores
 //! a shift `sh` with 2^30 ≤ w·2^-sh < 2^31 and the slope's 31-bit mantissa
 //! (linear) or 1/w's mantissa (cubic). Per reading: one binary search
 //! (at most 6 comparisons for 64 nodes), then
@@ -52,6 +54,10 @@
 //! terms beyond three times the segment's step (Fritsch–Carlson).
 //! The input loses nothing finer than w·2^-31 of shift.
 //!
+//! The firmware reads a curve in place from the image as a [`CurveRef`]
+//! (validated once, [`CurveRef::from_words`]); the owned `Curve` evaluates
+//! through the same `CurveRef`, so host and firmware run one evaluation.
+//!
 //! ```
 //! use lc_core::curve::{Curve, CurveStatus, Interpolation, Node};
 //! use lc_core::shift::Shift;
@@ -68,7 +74,9 @@
 //! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
 //! ```
 
-use crate::fixed::{mul_u32_wide, round_div_u128, round_shr_u64};
+#[cfg(any(test, feature = "design"))]
+use crate::fixed::{leading_zeros_u32, round_shr_u64};
+use crate::fixed::{mul_u32_wide, shr_u64};
 use crate::shift::Shift;
 use core::fmt;
 
@@ -123,6 +131,9 @@ pub enum CurveError {
     /// term w·dy/ds beyond three times the segment's step (Fritsch &
     /// Carlson's limit, which `pchip_derivatives` always keeps).
     BadDerivatives,
+    /// A stored segment's constants (width shift, slope or reciprocal
+    /// mantissa and exponent) are not the ones its end nodes give.
+    BadSegment,
 }
 
 impl fmt::Display for CurveError {
@@ -134,6 +145,7 @@ impl fmt::Display for CurveError {
             CurveError::NotMonotone => "curve values must be monotone",
             CurveError::SegmentTooSteep => "a curve segment is too steep for the fixed-point path",
             CurveError::BadDerivatives => "curve derivatives do not match the nodes",
+            CurveError::BadSegment => "a stored curve segment's constants do not match its nodes",
         })
     }
 }
@@ -162,236 +174,328 @@ pub struct CurveValue {
     pub status: CurveStatus,
 }
 
-/// Precomputed per-segment constants (20 bytes: a curve of 64 nodes is
-/// about 2 KB).
+/// One segment's constants, as stored in the image (module docs).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-struct Segment {
+pub(crate) struct Segment {
     /// d = (s − x0) · 2^-sh fits 31 bits.
-    sh: u8,
+    pub(crate) sh: u8,
     /// Linear: value = d·k · 2^-k_exp. Cubic: t = d·k · 2^-k_exp in Q30
     /// (taken to Q16 per reading).
-    k_exp: u8,
+    pub(crate) k_exp: u8,
     /// Linear: slope mantissa (signed, |k| < 2^31). Cubic: mantissa of 1/w'.
-    k: i32,
+    pub(crate) k: i32,
     /// Cubic: y − y0 = t·(c1 + t·(c2 + t·c3)), output units in Q8, with
     /// c1 = D0, c2 = 3Δy − 2D0 − D1, c3 = D0 + D1 − 2Δy and D = w·dy/ds.
     /// With |Δy|, |D| < 2^29 in Q8 and D0, D1, Δy of one sign (checked at
-    /// construction), |c2| < 3·2^29 and |c3| < 2^30 fit `i32`, and so do
-    /// the Horner accumulators (module docs).
-    c1_q8: i32,
-    c2_q8: i32,
-    c3_q8: i32,
+    /// construction and by the image's validation), |c2| < 3·2^29 and
+    /// |c3| < 2^30 fit `i32`, and so do the Horner accumulators.
+    pub(crate) c1_q8: i32,
+    pub(crate) c2_q8: i32,
+    pub(crate) c3_q8: i32,
 }
 
-/// A validated curve with its precomputed segment constants.
+/// 32-bit words per node: x (low, high), y.
+pub(crate) const NODE_WORDS: usize = 3;
+/// 32-bit words per linear segment: (sh, k_exp), k.
+pub(crate) const LINEAR_SEGMENT_WORDS: usize = 2;
+/// 32-bit words per cubic segment: (sh, k_exp), k, c1, c2, c3.
+pub(crate) const CUBIC_SEGMENT_WORDS: usize = 5;
+
+/// Word `i` of `w` (little endian in the image), 0 past the end.
+#[cfg(any(test, feature = "design"))]
+#[inline(always)]
+fn word(w: &[u32], i: usize) -> u32 {
+    u32::from_le(w.get(i).copied().unwrap_or(0))
+}
+
+/// Record `i` of `r` (an `N`-word node or segment), zeros past the end:
+/// one bounds check for all of its words.
+#[inline(always)]
+fn record<const N: usize>(r: &[[u32; N]], i: usize) -> [u32; N] {
+    r.get(i).copied().unwrap_or([0; N]).map(u32::from_le)
+}
+
+/// `x · 2^sh` for `sh` ≤ 62 and a result below 2^64, in 32-bit halves
+/// (on a Cortex-M0 a 64-bit shift is a library call).
+#[inline]
+fn shl_u64(x: u64, sh: u32) -> u64 {
+    let (hi, lo) = ((x >> 32) as u32, x as u32);
+    match sh {
+        0 => x,
+        1..=31 => (u64::from((hi << sh) | (lo >> (32 - sh))) << 32) | u64::from(lo << sh),
+        32..=63 => u64::from(lo << (sh - 32)) << 32,
+        _ => 0,
+    }
+}
+
+/// Bit length of a `u64` (0 for 0), from 32-bit counts: on a Cortex-M0
+/// `u64::leading_zeros` is a library call.
+#[cfg(any(test, feature = "design"))]
+#[inline]
+fn bits_u64(w: u64) -> u32 {
+    let (hi, lo) = ((w >> 32) as u32, w as u32);
+    if hi != 0 {
+        64 - leading_zeros_u32(hi)
+    } else {
+        32 - leading_zeros_u32(lo)
+    }
+}
+
+#[cfg(any(test, feature = "design"))]
+impl Segment {
+    /// The segment's words: 2 (linear) or 5 (cubic).
+    pub(crate) fn to_words(self) -> [u32; CUBIC_SEGMENT_WORDS] {
+        [
+            u32::from(self.sh) | u32::from(self.k_exp) << 8,
+            self.k as u32,
+            self.c1_q8 as u32,
+            self.c2_q8 as u32,
+            self.c3_q8 as u32,
+        ]
+        .map(u32::to_le)
+    }
+}
+
+/// A validated curve read in place: its nodes and per-segment constants
+/// borrowed from a calibration image (or from an owned [`Curve`]), in
+/// 32-bit words. 20 bytes on a 32-bit target, whatever the node count.
+///
+/// A curve is obtained from a validated image
+/// ([`Image::curve`](crate::image::Image::curve)), so every node and
+/// constant has passed the checks of [`CurveRef::from_words`]: evaluating
+/// it never panics and stays within the module's bound.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Curve {
-    len: u8,
-    interpolation: Interpolation,
+pub struct CurveRef<'a> {
+    /// x low word, x high word, y, per node.
+    nodes: &'a [[u32; NODE_WORDS]],
+    /// A linear curve's segments (empty when cubic).
+    linear: &'a [[u32; LINEAR_SEGMENT_WORDS]],
+    /// A cubic curve's segments (empty when linear).
+    cubic: &'a [[u32; CUBIC_SEGMENT_WORDS]],
     /// The table's direction (last value ≥ first): every non-flat segment
     /// goes this way (validated monotone), and on a flat one the step is 0
     /// either way.
     rising: bool,
-    x: [i64; MAX_NODES],
-    y: [i32; MAX_NODES],
-    seg: [Segment; MAX_NODES],
+    /// Every node on a whole level (x's low word zero) and every segment's
+    /// width shift in 1..=32: [`CurveRef::eval_whole`] may stand in for
+    /// [`CurveRef::eval`].
+    whole: bool,
 }
 
-fn validate(nodes: &[Node]) -> Result<(), CurveError> {
-    if nodes.len() < 2 {
-        return Err(CurveError::TooFewNodes);
+/// Shift that brings a positive width below 2^31 (and at or above 2^30).
+#[cfg(any(test, feature = "design"))]
+fn width_shift(w: u64) -> u8 {
+    // bits ≤ 64, so the result is at most 33.
+    bits_u64(w).saturating_sub(31) as u8
+}
+
+/// Whether `m` (below 2^31) is round(n · 2^e / d), rounding half up, with
+/// n < 2^31 and 0 < d ≤ 2^31: m·d ≤ n·2^e + ⌊d/2⌋ < (m + 1)·d. Multiplies
+/// and compares only (the firmware's start-up divides nothing): m·d is
+/// below 2^62, so a valid pair has n·2^e below 2^63 and all of it fits
+/// `u64`.
+fn is_rounded_ratio(m: u32, e: u8, n: u32, d: u32) -> bool {
+    // n·2^e must stay below 2^63: n < 2^(63 − e), for e ≤ 62.
+    let e = u32::from(e);
+    if d == 0 || e > 62 || (e > 31 && n >> (63 - e) != 0) {
+        return false;
     }
-    if nodes.len() > MAX_NODES {
-        return Err(CurveError::TooManyNodes);
+    let x = shl_u64(u64::from(n), e) + u64::from(d / 2);
+    let md = mul_u32_wide(m, d);
+    md <= x && x - md < u64::from(d)
+}
+
+/// The firmware's check of one segment's stored constants against its
+/// end nodes (x0, y0), (x1, y1), x1 > x0: the width shift is the one
+/// that brings the width into [2^30, 2^31); k and its exponent are the
+/// correctly rounded slope (linear) or 1/w' (cubic) with |k| in
+/// [2^30, 2^31) (0 for a flat linear segment); the cubic's Horner
+/// coefficients are consistent (c2 = 3Δy − 2D0 − D1 with D0 = c1 and
+/// D1 = c3 − c1 + 2Δy), its tangent terms below 2^29 Q8 units, of the
+/// table's direction and within Fritsch and Carlson's three steps; the
+/// reserved byte pair is zero. What the evaluation's bound and its
+/// overflow argument assume, checked with shifts, multiplies and
+/// compares.
+fn check_segment(
+    w: [u32; CUBIC_SEGMENT_WORDS],
+    (x0, y0): (i64, i32),
+    (x1, y1): (i64, i32),
+    cubic: bool,
+    rising: bool,
+) -> Result<(), CurveError> {
+    let [head, k, c1, c2, c3] = w;
+    let (sh, k_exp) = (head & 0xFF, ((head >> 8) & 0xFF) as u8);
+    if head >> 16 != 0 || sh > 33 {
+        return Err(CurveError::BadSegment);
     }
-    let (mut up, mut down) = (false, false);
-    for w in nodes.windows(2) {
-        if w[1].shift <= w[0].shift {
-            return Err(CurveError::ShiftsNotIncreasing);
+    // The width shift is the one that brings w into [2^30, 2^31) (w below
+    // 2^31 for sh = 0), and w' = round(w · 2^-sh) ≥ 1, at most 2^31: from
+    // t = w · 2^-(sh−1), the halved value with its half bit.
+    let width = x1.abs_diff(x0);
+    let d = if sh == 0 {
+        match u32::try_from(width) {
+            Ok(w) if w < 1 << 31 => w.max(1),
+            _ => return Err(CurveError::BadSegment),
         }
-        let dy = i64::from(w[1].value) - i64::from(w[0].value);
-        up |= dy > 0;
-        down |= dy < 0;
+    } else {
+        let t = shr_u64(width, sh - 1);
+        if !(1 << 31..1 << 32).contains(&t) {
+            return Err(CurveError::BadSegment);
+        }
+        let t = t as u32; // < 2^32
+        (t >> 1) + (t & 1)
+    };
+    let k = k as i32;
+    let dy = i64::from(y1) - i64::from(y0);
+    let m = k.unsigned_abs();
+    let normal = (1 << 30..1 << 31).contains(&m);
+    if !cubic {
         if dy.unsigned_abs() >= 1 << 30 {
             return Err(CurveError::SegmentTooSteep);
         }
+        let n = dy.unsigned_abs() as u32; // < 2^30
+        let ok = if dy == 0 {
+            k == 0 && k_exp == 0
+        } else {
+            normal && (k < 0) == (dy < 0) && is_rounded_ratio(m, k_exp, n, d)
+        };
+        return if ok {
+            Ok(())
+        } else {
+            Err(CurveError::BadSegment)
+        };
     }
-    if up && down {
-        return Err(CurveError::NotMonotone);
+    if !(normal && k > 0 && is_rounded_ratio(m, k_exp, 1 << 30, d)) {
+        return Err(CurveError::BadSegment);
+    }
+    // In i32 from here, every step checked: |Δy|, |D0|, |D1| < 2^29 in
+    // Q8 units, so 3·|Δy| and the sums below fit unless the stored terms
+    // are wrong (then refused). No 64-bit multiply at start-up.
+    if dy.unsigned_abs() >= 1 << 21 {
+        return Err(CurveError::SegmentTooSteep);
+    }
+    let dy = (dy as i32) << 8; // |Δy| < 2^21: exact, below 2^29
+    let (c1, c2, c3) = (c1 as i32, c2 as i32, c3 as i32);
+    let d0 = c1;
+    let d1 = c3
+        .checked_sub(c1)
+        .and_then(|v| v.checked_add(2 * dy))
+        .ok_or(CurveError::SegmentTooSteep)?;
+    if d0.unsigned_abs() >= 1 << 29 || d1.unsigned_abs() >= 1 << 29 {
+        return Err(CurveError::SegmentTooSteep);
+    }
+    let limit = 3 * dy.unsigned_abs() + 2; // < 1.5·2^30 + 2
+    let sign_ok = |d: i32| if rising { d >= 0 } else { d <= 0 };
+    // 3Δy − 2D0 − D1: each term below 1.5·2^30 in size, the sum checked.
+    let want_c2 = (3 * dy).checked_sub(2 * d0).and_then(|v| v.checked_sub(d1));
+    if want_c2 != Some(c2)
+        || d0.unsigned_abs() > limit
+        || d1.unsigned_abs() > limit
+        || !sign_ok(d0)
+        || !sign_ok(d1)
+    {
+        return Err(CurveError::BadDerivatives);
     }
     Ok(())
 }
 
-/// Shift that brings a positive width below 2^31 (and at or above 2^30).
-fn width_shift(w: u64) -> u8 {
-    let bits = 64 - w.leading_zeros();
-    // bits ≤ 64, so the result is at most 33.
-    bits.saturating_sub(31) as u8
-}
-
-/// (mantissa, exponent) with mantissa = round(num · 2^e / den), |mantissa|
-/// in [2^30, 2^31) unless num is 0; `den` > 0, |num| < 2^31.
-fn scaled_ratio(num: i64, den: u64) -> Option<(i32, u8)> {
-    // Start where the quotient is still below 2^29, from the bit lengths
-    // (n·2^e0/d < 2^(len n + e0 − len d + 1) = 2^29), so two or three
-    // bit-serial 128-bit divisions do what one per exponent from 0 did.
-    let bits = |x: u128| 128 - x.leading_zeros();
-    let (n, d) = (u128::from(num.unsigned_abs()), u128::from(den));
-    scaled_ratio_from(num, den, (28 + bits(d)).saturating_sub(bits(n)))
-}
-
-/// [`scaled_ratio`] by a search upward from exponent `e0` (at most the
-/// answer): the smallest e (at most 90) with num·2^e/den rounding into
-/// [2^30, 2^31), one division per exponent tried.
-fn scaled_ratio_from(num: i64, den: u64, e0: u32) -> Option<(i32, u8)> {
-    if num == 0 {
-        return Some((0, 0));
-    }
-    let n = u128::from(num.unsigned_abs());
-    let d = u128::from(den);
-    let mut e = e0.min(90);
-    let mut m = round_div_u128(n << e, d)?;
-    while m < 1 << 30 && e < 90 {
-        e += 1;
-        m = round_div_u128(n << e, d)?;
-    }
-    if m >= 1 << 31 {
-        // Rounding carried to 2^31: one bit less.
-        e = e.checked_sub(1)?;
-        m = round_div_u128(n << e, d)?;
-    }
-    let m = i32::try_from(m).ok()?;
-    let e = u8::try_from(e).ok()?;
-    Some((if num < 0 { -m } else { m }, e))
-}
-
-/// Validates a table, in the one order every constructor and
-/// [`Curve::check`] report errors in (derivative count, nodes, each
-/// segment's scale, derivative signs, cubic terms), and writes each
-/// segment's constants into `out` when given. Returns the interpolation.
-fn segments(
-    nodes: &[Node],
-    derivatives_q16: Option<&[i64]>,
-    mut out: Option<&mut [Segment; MAX_NODES]>,
-) -> Result<Interpolation, CurveError> {
-    if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
-        return Err(CurveError::BadDerivatives);
-    }
-    validate(nodes)?;
-    let interpolation = match derivatives_q16 {
-        Some(_) => Interpolation::MonotoneCubic,
-        None => Interpolation::Linear,
-    };
-    // Checked accesses throughout: no bounds-check panic survives on the
-    // firmware path (the panic-never build proves it).
-    for (i, pair) in nodes.windows(2).enumerate() {
-        if let [a, b] = pair {
-            let seg = segment_of(*a, *b, interpolation)?;
-            if let Some(slot) = out.as_deref_mut().and_then(|o| o.get_mut(i)) {
-                *slot = seg;
-            }
+impl<'a> CurveRef<'a> {
+    /// The curve of `len` nodes in `nodes` (three words each: x's low and
+    /// high words, y) with their segment constants in `segs` (two words
+    /// each when linear, five when cubic), validated: 2 to
+    /// [`MAX_NODES`] nodes, shifts strictly increasing, values monotone,
+    /// segment steps inside the fixed-point path, and each segment's stored
+    /// constants correct for its end nodes ([`CurveError::BadSegment`]
+    /// otherwise). Words are little endian (the image's byte order).
+    ///
+    /// Cost: no division; on a Cortex-M0 about 150 instructions per
+    /// segment. Stack: under 100 bytes.
+    pub fn from_words(
+        nodes: &'a [u32],
+        segs: &'a [u32],
+        len: usize,
+        cubic: bool,
+    ) -> Result<Self, CurveError> {
+        if len < 2 {
+            return Err(CurveError::TooFewNodes);
         }
-    }
-    if let Some(ders) = derivatives_q16 {
-        check_derivative_signs(nodes, ders)?;
-        for (i, (pair, d)) in nodes.windows(2).zip(ders.windows(2)).enumerate() {
-            if let ([a, b], [d0, d1]) = (pair, d) {
-                let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
-                if let Some(slot) = out.as_deref_mut().and_then(|o| o.get_mut(i)) {
-                    slot.c1_q8 = c1;
-                    slot.c2_q8 = c2;
-                    slot.c3_q8 = c3;
-                }
-            }
+        if len > MAX_NODES {
+            return Err(CurveError::TooManyNodes);
         }
-    }
-    Ok(interpolation)
-}
-
-impl Curve {
-    /// An empty curve (no nodes) for a reader to rebuild in place
-    /// ([`Curve::rebuild`]): never handed out as a value.
-    pub(crate) const PLACEHOLDER: Curve = Curve {
-        len: 0,
-        interpolation: Interpolation::Linear,
-        // All zeros: the firmware then clears the curve in place instead of
-        // copying a 2 KB constant from flash.
-        rising: false,
-        x: [0; MAX_NODES],
-        y: [0; MAX_NODES],
-        seg: [Segment {
-            sh: 0,
-            k_exp: 0,
-            k: 0,
-            c1_q8: 0,
-            c2_q8: 0,
-            c3_q8: 0,
-        }; MAX_NODES],
-    };
-
-    /// Builds the curve of these nodes (linear when `derivatives_q16` is
-    /// `None`) in place, with the same acceptance and errors as
-    /// [`Curve::linear`] and [`Curve::monotone_cubic`]. The firmware
-    /// builds its readers' curves this way: no 2 KB temporary on the stack.
-    /// On an error the curve is left empty.
-    pub(crate) fn rebuild(
-        &mut self,
-        nodes: &[Node],
-        derivatives_q16: Option<&[i64]>,
-    ) -> Result<(), CurveError> {
-        self.len = 0;
-        self.interpolation = segments(nodes, derivatives_q16, Some(&mut self.seg))?;
-        for ((x, y), n) in self.x.iter_mut().zip(self.y.iter_mut()).zip(nodes) {
-            *x = n.shift.raw_q40();
-            *y = n.value;
-        }
-        self.rising = match (nodes.first(), nodes.last()) {
-            (Some(a), Some(b)) => b.value >= a.value,
-            _ => true,
+        let stride = if cubic {
+            CUBIC_SEGMENT_WORDS
+        } else {
+            LINEAR_SEGMENT_WORDS
         };
-        self.len = nodes.len() as u8; // ≤ 64 after validation
-        Ok(())
-    }
-
-    /// Whether [`Curve::linear`] (`derivatives_q16` `None`) or
-    /// [`Curve::monotone_cubic`] would accept these nodes, with the same
-    /// error, without building the curve: a curve is about 2 KB, and the image
-    /// parser checks tables it does not keep.
-    pub fn check(nodes: &[Node], derivatives_q16: Option<&[i64]>) -> Result<(), CurveError> {
-        segments(nodes, derivatives_q16, None).map(|_| ())
-    }
-
-    /// A curve with straight segments.
-    pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
-        let mut c = Self::PLACEHOLDER;
-        c.rebuild(nodes, None)?;
-        Ok(c)
-    }
-
-    /// A monotone cubic curve from nodes and their derivatives dy/ds in
-    /// output units per unit shift (from [`pchip_derivatives`] on the host,
-    /// stored in the calibration image as Q47.16: `derivatives_q16`).
-    pub fn monotone_cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
-        let mut c = Self::PLACEHOLDER;
-        c.rebuild(nodes, Some(derivatives_q16))?;
+        let short = CurveError::TooFewNodes;
+        let nodes = nodes.get(..len * NODE_WORDS).ok_or(short)?;
+        let segs = segs.get(..(len - 1) * stride).ok_or(short)?;
+        let nodes: &[[u32; NODE_WORDS]] = bytemuck::try_cast_slice(nodes).map_err(|_| short)?;
+        let mut c = CurveRef {
+            nodes,
+            linear: &[],
+            cubic: &[],
+            rising: true,
+            whole: false,
+        };
+        if cubic {
+            c.cubic = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
+        } else {
+            c.linear = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
+        }
+        c.rising = c.y(len - 1) >= c.y(0);
+        // One pass, node after node: shifts increasing, each step of the
+        // table's direction (the direction of the first and last nodes: a
+        // step against it means the values rise and fall), each segment's
+        // constants. Each node's words are read once.
+        let mut whole = true;
+        let [lo, hi, y] = record(c.nodes, 0);
+        let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
+        whole &= lo == 0;
+        for i in 0..len - 1 {
+            let [lo, hi, y] = record(c.nodes, i + 1);
+            let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
+            whole &= lo == 0;
+            if x1 <= x0 {
+                return Err(CurveError::ShiftsNotIncreasing);
+            }
+            if (c.rising && y1 < y0) || (!c.rising && y1 > y0) {
+                return Err(CurveError::NotMonotone);
+            }
+            let seg = c.segment_words(i);
+            check_segment(seg, (x0, y0), (x1, y1), cubic, c.rising)?;
+            whole &= (1..=32).contains(&(seg[0] & 0xFF));
+            (x0, y0) = (x1, y1);
+        }
+        c.whole = whole;
         Ok(c)
     }
 
     /// Number of nodes.
+    #[inline]
     pub fn len(&self) -> usize {
-        usize::from(self.len)
+        self.nodes.len()
     }
 
     /// Always false: a curve has at least two nodes.
     pub fn is_empty(&self) -> bool {
-        self.len == 0
+        self.nodes.is_empty()
+    }
+
+    /// Whether the segments are cubic.
+    #[inline(always)]
+    fn is_cubic(&self) -> bool {
+        !self.cubic.is_empty()
     }
 
     /// The interpolation in use.
     pub fn interpolation(&self) -> Interpolation {
-        self.interpolation
+        if self.is_cubic() {
+            Interpolation::MonotoneCubic
+        } else {
+            Interpolation::Linear
+        }
     }
 
     /// Whether the values rise along the table (last ≥ first).
@@ -400,40 +504,110 @@ impl Curve {
         self.rising
     }
 
-    /// Node `i`, if it exists.
-    pub fn node(&self, i: usize) -> Option<Node> {
-        if i < self.len() {
-            Some(Node::new(
-                Shift::from_raw_q40(*self.x.get(i)?),
-                *self.y.get(i)?,
-            ))
+    /// Whether every node lies on a whole level (low word of x zero) and
+    /// every segment's width shift is at most 32, so that
+    /// [`CurveRef::eval_whole`] may stand in for [`CurveRef::eval`] (a
+    /// volume table's curve from strapping rows or a sampled shape always
+    /// does).
+    pub fn on_whole_levels(&self) -> bool {
+        self.whole
+    }
+
+    /// Node `i`'s shift, raw Q23.40.
+    #[inline(always)]
+    fn x(&self, i: usize) -> i64 {
+        let [lo, hi, _] = record(self.nodes, i);
+        ((u64::from(hi) << 32) | u64::from(lo)) as i64
+    }
+
+    /// Node `i`'s shift's high word: the level of a volume table's node.
+    #[inline(always)]
+    fn x_high(&self, i: usize) -> i32 {
+        record(self.nodes, i)[1] as i32
+    }
+
+    /// Node `i`'s value.
+    #[inline(always)]
+    fn y(&self, i: usize) -> i32 {
+        record(self.nodes, i)[2] as i32
+    }
+
+    /// Segment `i`'s words, a linear segment's in the first two.
+    #[inline(always)]
+    fn segment_words(&self, i: usize) -> [u32; CUBIC_SEGMENT_WORDS] {
+        if self.is_cubic() {
+            record(self.cubic, i)
         } else {
-            None
+            let [head, k] = record(self.linear, i);
+            [head, k, 0, 0, 0]
         }
     }
 
-    /// Index of the segment holding `s` (x[i] ≤ s < x[i+1]) for
-    /// x[0] ≤ s < x[last] (clamped into the table otherwise). Halving
-    /// search with a fixed trip count per table size (3 steps for 5 nodes),
-    /// indices masked into the arrays, so no bounds branch.
+    /// Segment `i`'s constants.
     #[inline(always)]
-    fn segment(&self, s: i64) -> usize {
-        self.segment_by(s, |i| self.x[i])
+    pub(crate) fn segment_constants(&self, i: usize) -> Segment {
+        let [head, k, c1, c2, c3] = self.segment_words(i);
+        Segment {
+            sh: (head & 0xFF) as u8,
+            k_exp: ((head >> 8) & 0xFF) as u8,
+            k: k as i32,
+            c1_q8: c1 as i32,
+            c2_q8: c2 as i32,
+            c3_q8: c3 as i32,
+        }
     }
 
-    /// [`Curve::segment`] of `v` on the nodes' keys `key(i)` (x[i], or a
-    /// node's level), `key` called with indices within the arrays.
+    /// Node `i`, if it exists.
+    pub fn node(&self, i: usize) -> Option<Node> {
+        (i < self.len()).then(|| Node::new(Shift::from_raw_q40(self.x(i)), self.y(i)))
+    }
+
+    /// The nodes in order.
+    pub fn nodes(&self) -> impl Iterator<Item = Node> + '_ {
+        (0..self.len()).filter_map(|i| self.node(i))
+    }
+
+    /// The node words and the segment words this curve reads (what an
+    /// image stores).
+    pub fn words(&self) -> (&'a [u32], &'a [u32]) {
+        let segs: &'a [u32] = if self.is_cubic() {
+            bytemuck::cast_slice(self.cubic)
+        } else {
+            bytemuck::cast_slice(self.linear)
+        };
+        (bytemuck::cast_slice(self.nodes), segs)
+    }
+
+    /// Segment `i`'s tangent terms (D0, D1) = w·dy/ds at its two ends, in
+    /// Q8 output units (cubic; (0, 0) for a linear curve), as stored.
+    pub fn tangent_terms_q8(&self, i: usize) -> Option<(i32, i32)> {
+        if i + 1 >= self.len() {
+            return None;
+        }
+        if !self.is_cubic() {
+            return Some((0, 0));
+        }
+        let seg = self.segment_constants(i);
+        let dy = (i64::from(self.y(i + 1)) - i64::from(self.y(i))) << 8;
+        let d1 = i64::from(seg.c3_q8) - i64::from(seg.c1_q8) + 2 * dy;
+        Some((seg.c1_q8, i32::try_from(d1).ok()?))
+    }
+
+    /// Index of the segment holding `v` (key(i) ≤ v < key(i+1)) for
+    /// key(0) ≤ v < key(last) (clamped into the table otherwise): halving
+    /// search with a fixed trip count per table size (3 steps for 5 nodes,
+    /// 5 for 32).
     #[inline(always)]
     fn segment_by<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> usize {
         let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
         while len > 1 {
             let half = len / 2;
-            if key((i + half) & (MAX_NODES - 1)) <= v {
+            if key(i + half) <= v {
                 i += half;
             }
             len -= half;
         }
-        i & (MAX_NODES - 1)
+        i
     }
 
     /// The value of `v` outside the table on the nodes' keys `key(i)`, or
@@ -441,17 +615,17 @@ impl Curve {
     /// above it, with the status; `None` inside.
     #[inline(always)]
     fn outside<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> Option<CurveValue> {
-        let last_i = self.len().saturating_sub(1).min(MAX_NODES - 1);
+        let last_i = self.len().saturating_sub(1);
         if v < key(0) {
             return Some(CurveValue {
-                value: self.y[0],
+                value: self.y(0),
                 status: CurveStatus::BelowRange,
             });
         }
         let last = key(last_i);
         if v >= last {
             return Some(CurveValue {
-                value: self.y[last_i],
+                value: self.y(last_i),
                 status: if v == last {
                     CurveStatus::InRange
                 } else {
@@ -467,55 +641,48 @@ impl Curve {
     /// library call: the segment's offset, the products and the rounding
     /// shifts are done in 32-bit words (`round_shr_to_u32`, `mul_u32_wide`).
     /// Always inlined into the readers: on a Cortex-M0 the call and its
-    /// spills cost 17 of a proximity reading's instructions, for about
-    /// 1.5 KB more flash in the firmware example.
+    /// spills cost 17 of a proximity reading's instructions.
     #[inline(always)]
     pub fn eval(&self, s: Shift) -> CurveValue {
         let s = s.raw_q40();
-        if let Some(end) = self.outside(s, |i| self.x[i]) {
+        if let Some(end) = self.outside(s, |i| self.x(i)) {
             return end;
         }
         // x[0] ≤ s < x[last].
-        let i = self.segment_by(s, |i| self.x[i]);
-        let seg = &self.seg[i];
-        let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
+        let i = self.segment_by(s, |i| self.x(i));
+        let seg = self.segment_constants(i);
+        let (y0, y1) = (self.y(i), self.y(i + 1));
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
         // (s − x0)·2^-sh rounded, below 2^31 (d = 2^31 only when s rounds up
         // to x1: held at 2^31 − 1, still exact below).
-        let u = s.wrapping_sub(self.x[i]) as u64; // < w: exact
+        let u = s.wrapping_sub(self.x(i)) as u64; // < w: exact
         let d = round_shr_to_u32(u, seg.sh).min((1 << 31) - 1);
-        self.in_segment(seg, y0, y1, d)
+        self.in_segment(&seg, y0, y1, d)
     }
 
-    /// [`Curve::eval`] at the whole level `v`, that is at
+    /// [`CurveRef::eval`] at the whole level `v`, that is at
     /// `geometry::level_to_shift(v)` = v·2^32 on the axis, for a curve on
-    /// whole levels ([`Curve::on_whole_levels`]): the same value and
-    /// status, bit for bit, with the search and the offset in 32-bit words
-    /// (a node's level is its high word, and the offset's d is
-    /// r·2^(32 − sh), exact, for r whole levels).
+    /// whole levels ([`CurveRef::on_whole_levels`]; otherwise the general
+    /// evaluation): the same value and status, bit for bit, with the
+    /// search and the offset in 32-bit words (a node's level is its high
+    /// word, and the offset's d is r·2^(32 − sh), exact, for r whole
+    /// levels).
     #[inline(always)]
-    pub(crate) fn eval_whole(&self, v: i32) -> CurveValue {
-        let level = |i: usize| (self.x[i] >> 32) as i32; // exact
+    pub fn eval_whole(&self, v: i32) -> CurveValue {
+        if !self.whole {
+            return self.eval(Shift::from_raw_q40(i64::from(v) << 32));
+        }
+        let level = |i: usize| self.x_high(i);
         if let Some(end) = self.outside(v, level) {
             return end;
         }
         let i = self.segment_by(v, level);
-        let seg = &self.seg[i];
-        let (y0, y1) = (self.y[i], self.y[(i + 1) & (MAX_NODES - 1)]);
+        let seg = self.segment_constants(i);
+        let (y0, y1) = (self.y(i), self.y(i + 1));
         // 0 ≤ r < the segment's width in levels < 2^(sh − 1), sh ≤ 32.
         let r = v.wrapping_sub(level(i)) as u32;
         let d = r << (32 - u32::from(seg.sh).min(32));
-        self.in_segment(seg, y0, y1, d)
-    }
-
-    /// Whether every node lies on a whole level (low word of x zero) and
-    /// every segment's width shift is at most 32, so that
-    /// [`Curve::eval_whole`] may stand in for [`Curve::eval`] (a volume
-    /// table's curve from strapping rows or a sampled shape always does).
-    pub(crate) fn on_whole_levels(&self) -> bool {
-        let n = self.len().saturating_sub(1);
-        self.x.iter().take(self.len()).all(|&x| x as u32 == 0)
-            && self.seg.iter().take(n).all(|s| (1..=32).contains(&s.sh))
+        self.in_segment(&seg, y0, y1, d)
     }
 
     /// The value in the segment `seg` from y0 to y1 at d = (s − x0)·2^-sh
@@ -525,32 +692,29 @@ impl Curve {
         let rising = self.rising;
         // |y1 − y0| < 2^30 (validated): exact in u32.
         let span = y1.abs_diff(y0);
-        let step: u32 = match self.interpolation {
-            Interpolation::Linear => {
-                // |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30: fits after the shift.
-                round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
-            }
-            Interpolation::MonotoneCubic => {
-                // t = d/w' in Q16, 0 ≤ t ≤ 2^16.
-                let t = round_shr_to_u32(
-                    mul_u32_wide(seg.k.unsigned_abs(), d),
-                    seg.k_exp.saturating_add(14),
-                )
-                .min(1 << 16);
-                // Horner in Q8 output units, each product rounded to Q8;
-                // every accumulator fits i32 (Segment docs).
-                let acc = seg.c2_q8.wrapping_add(mul_q16(seg.c3_q8, t));
-                let acc = seg.c1_q8.wrapping_add(mul_q16(acc, t));
-                // Q8 to whole units, rounded to nearest (ties up).
-                let v = mul_q16(acc, t).wrapping_add(128) >> 8;
-                // The step's sign is the table's direction (a monotone
-                // cubic stays between y0 and y1); the other sign clamps
-                // to y0.
-                if rising {
-                    u32::try_from(v).unwrap_or(0)
-                } else {
-                    u32::try_from(v.wrapping_neg()).unwrap_or(0)
-                }
+        let step: u32 = if !self.is_cubic() {
+            // |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30: fits after the shift.
+            round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
+        } else {
+            // t = d/w' in Q16, 0 ≤ t ≤ 2^16.
+            let t = round_shr_to_u32(
+                mul_u32_wide(seg.k.unsigned_abs(), d),
+                seg.k_exp.saturating_add(14),
+            )
+            .min(1 << 16);
+            // Horner in Q8 output units, each product rounded to Q8;
+            // every accumulator fits i32 (Segment docs).
+            let acc = seg.c2_q8.wrapping_add(mul_q16(seg.c3_q8, t));
+            let acc = seg.c1_q8.wrapping_add(mul_q16(acc, t));
+            // Q8 to whole units, rounded to nearest (ties up).
+            let v = mul_q16(acc, t).wrapping_add(128) >> 8;
+            // The step's sign is the table's direction (a monotone
+            // cubic stays between y0 and y1); the other sign clamps
+            // to y0.
+            if rising {
+                u32::try_from(v).unwrap_or(0)
+            } else {
+                u32::try_from(v.wrapping_neg()).unwrap_or(0)
             }
         };
         // Stay within the segment: y0 + step lies between y0 and y1.
@@ -566,134 +730,459 @@ impl Curve {
         }
     }
 
-    /// The stated error bound of [`Curve::eval`] at `s` against
-    /// [`Curve::eval_f64`], in output units: 0.5 + 2^-28·|Δy| (linear), or
-    /// 0.5 + 3·2^-9 + 2^-16·(|Δy| + |D0| + |D1|) (cubic), with the terms of
-    /// the segment holding `s` (0.5 outside the table, where the value is a
-    /// node's). Verification helper.
+    /// The stated error bound of [`CurveRef::eval`] at `s` against
+    /// [`CurveRef::eval_f64`], in output units: 0.5 + 2^-28·|Δy| (linear),
+    /// or 0.5 + 3·2^-9 + 2^-16·(|Δy| + |D0| + |D1|) (cubic), with the
+    /// terms of the segment holding `s` (0.5 outside the table, where the
+    /// value is a node's). Verification helper.
     pub fn error_bound(&self, s: Shift) -> f64 {
         let raw = s.raw_q40();
-        let last = self.len().saturating_sub(1).min(MAX_NODES - 1);
-        if raw <= self.x[0] || raw >= self.x[last] {
+        let last = self.len().saturating_sub(1);
+        if raw <= self.x(0) || raw >= self.x(last) {
             return 0.5;
         }
-        let i = self.segment(raw).min(MAX_NODES - 2);
-        let dy = (f64::from(self.y[i + 1]) - f64::from(self.y[i])).abs();
-        let seg = self.seg[i];
-        // D0 = c1; D1 = c3 + 2Δy − D0 (all in Q8).
-        let d0 = f64::from(seg.c1_q8) / 256.0;
-        let d1 = (f64::from(seg.c3_q8) / 256.0)
-            + 2.0 * (f64::from(self.y[i + 1]) - f64::from(self.y[i]))
-            - d0;
+        let i = self.segment_by(raw, |i| self.x(i));
+        let dy = (f64::from(self.y(i + 1)) - f64::from(self.y(i))).abs();
+        let (d0, d1) = self.tangent_terms_q8(i).unwrap_or((0, 0));
+        let (d0, d1) = (f64::from(d0) / 256.0, f64::from(d1) / 256.0);
         // Cubic: three Horner steps each round a Q8 value (≤ 2^-9 each),
         // and t is held to 16 bits.
-        match self.interpolation {
-            Interpolation::Linear => 0.5 + 3.725_290_298_461_914e-9 * dy,
-            Interpolation::MonotoneCubic => {
-                0.5 + 3.0 / 512.0 + 1.525_878_906_25e-5 * (dy + d0.abs() + d1.abs())
-            }
+        if self.is_cubic() {
+            0.5 + 3.0 / 512.0 + 1.525_878_906_25e-5 * (dy + d0.abs() + d1.abs())
+        } else {
+            0.5 + 3.725_290_298_461_914e-9 * dy
         }
     }
 
-    /// `f64` twin of [`Curve::eval`]: the same curve (same nodes, same
+    /// `f64` twin of [`CurveRef::eval`]: the same curve (same nodes, same
     /// tangent terms) evaluated in `f64`, unrounded, clamped the same way.
     pub fn eval_f64(&self, s: f64) -> f64 {
         let n = self.len();
-        let xs = |i: usize| self.x[i] as f64 / 1_099_511_627_776.0;
-        let last_i = n.saturating_sub(1).min(MAX_NODES - 1);
+        let xs = |i: usize| self.x(i) as f64 / 1_099_511_627_776.0;
+        let last_i = n.saturating_sub(1);
         if s <= xs(0) {
-            return f64::from(self.y[0]);
+            return f64::from(self.y(0));
         }
         if s >= xs(last_i) {
-            return f64::from(self.y[last_i]);
+            return f64::from(self.y(last_i));
         }
         let mut i = 0;
         while i + 2 < n && xs(i + 1) <= s {
             i += 1;
         }
         let (x0, x1) = (xs(i), xs(i + 1));
-        let (y0, y1) = (f64::from(self.y[i]), f64::from(self.y[i + 1]));
-        let _ = y1;
+        let (y0, y1) = (f64::from(self.y(i)), f64::from(self.y(i + 1)));
         let t = (s - x0) / (x1 - x0);
-        match self.interpolation {
-            Interpolation::Linear => y0 + (y1 - y0) * t,
-            Interpolation::MonotoneCubic => {
-                let seg = self.seg[i];
-                let c = |q: i32| f64::from(q) / 256.0;
-                y0 + t * (c(seg.c1_q8) + t * (c(seg.c2_q8) + t * c(seg.c3_q8)))
+        if self.is_cubic() {
+            let seg = self.segment_constants(i);
+            let c = |q: i32| f64::from(q) / 256.0;
+            y0 + t * (c(seg.c1_q8) + t * (c(seg.c2_q8) + t * c(seg.c3_q8)))
+        } else {
+            y0 + (y1 - y0) * t
+        }
+    }
+}
+
+#[cfg(any(test, feature = "design"))]
+pub use owned::{pchip_derivatives, Curve};
+
+/// Owned curves, built on the host from nodes (and derivatives): the
+/// derivation of every segment's constants that the image stores.
+#[cfg(any(test, feature = "design"))]
+mod owned {
+    use super::*;
+    use crate::fixed::round_div_u128;
+
+    /// A curve that owns its nodes and segment constants (about 2 KB),
+    /// built on the host from nodes and, for a monotone cubic, node
+    /// derivatives: the derivation the image's format stores the result
+    /// of. Evaluated through its [`CurveRef`] ([`Curve::view`]), the same
+    /// code the firmware runs on an image in flash. Design feature.
+    #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+    #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+    pub struct Curve {
+        len: u8,
+        cubic: bool,
+        node_words: [u32; MAX_NODES * NODE_WORDS],
+        seg_words: [u32; (MAX_NODES - 1) * CUBIC_SEGMENT_WORDS],
+    }
+
+    /// (mantissa, exponent) with mantissa = round(num · 2^e / den), |mantissa|
+    /// in [2^30, 2^31) unless num is 0; `den` > 0, |num| < 2^31.
+    pub(super) fn scaled_ratio(num: i64, den: u64) -> Option<(i32, u8)> {
+        // Start where the quotient is still below 2^29, from the bit lengths
+        // (n·2^e0/d < 2^(len n + e0 − len d + 1) = 2^29), so two or three
+        // bit-serial 128-bit divisions do what one per exponent from 0 did.
+        let bits = |x: u128| 128 - x.leading_zeros();
+        let (n, d) = (u128::from(num.unsigned_abs()), u128::from(den));
+        scaled_ratio_from(num, den, (28 + bits(d)).saturating_sub(bits(n)))
+    }
+
+    /// [`scaled_ratio`] by a search upward from exponent `e0` (at most the
+    /// answer): the smallest e (at most 90) with num·2^e/den rounding into
+    /// [2^30, 2^31), one division per exponent tried.
+    pub(super) fn scaled_ratio_from(num: i64, den: u64, e0: u32) -> Option<(i32, u8)> {
+        if num == 0 {
+            return Some((0, 0));
+        }
+        let n = u128::from(num.unsigned_abs());
+        let d = u128::from(den);
+        let mut e = e0.min(90);
+        let mut m = round_div_u128(n << e, d)?;
+        while m < 1 << 30 && e < 90 {
+            e += 1;
+            m = round_div_u128(n << e, d)?;
+        }
+        if m >= 1 << 31 {
+            // Rounding carried to 2^31: one bit less.
+            e = e.checked_sub(1)?;
+            m = round_div_u128(n << e, d)?;
+        }
+        let m = i32::try_from(m).ok()?;
+        let e = u8::try_from(e).ok()?;
+        Some((if num < 0 { -m } else { m }, e))
+    }
+
+    fn validate(nodes: &[Node]) -> Result<(), CurveError> {
+        if nodes.len() < 2 {
+            return Err(CurveError::TooFewNodes);
+        }
+        if nodes.len() > MAX_NODES {
+            return Err(CurveError::TooManyNodes);
+        }
+        let (mut up, mut down) = (false, false);
+        for w in nodes.windows(2) {
+            if w[1].shift <= w[0].shift {
+                return Err(CurveError::ShiftsNotIncreasing);
+            }
+            let dy = i64::from(w[1].value) - i64::from(w[0].value);
+            up |= dy > 0;
+            down |= dy < 0;
+            if dy.unsigned_abs() >= 1 << 30 {
+                return Err(CurveError::SegmentTooSteep);
             }
         }
-    }
-}
-
-/// One segment's constants (module docs): the width shift and the slope's
-/// (linear) or 1/w's (cubic) mantissa.
-fn segment_of(a: Node, b: Node, interpolation: Interpolation) -> Result<Segment, CurveError> {
-    let w = b.shift.raw_q40().abs_diff(a.shift.raw_q40());
-    let sh = width_shift(w);
-    let w_red = round_shr_u64(w, u32::from(sh)).max(1);
-    let dy = i64::from(b.value) - i64::from(a.value);
-    let (k, k_exp) = match interpolation {
-        Interpolation::Linear => scaled_ratio(dy, w_red),
-        // m = round(2^(30+e)/w'), so t = d·m·2^-e is d/w' in Q30.
-        Interpolation::MonotoneCubic => scaled_ratio(1 << 30, w_red),
-    }
-    .ok_or(CurveError::SegmentTooSteep)?;
-    Ok(Segment {
-        sh,
-        k,
-        k_exp,
-        c1_q8: 0,
-        c2_q8: 0,
-        c3_q8: 0,
-    })
-}
-
-/// Derivatives must have the sign of the table's direction.
-fn check_derivative_signs(nodes: &[Node], derivatives_q16: &[i64]) -> Result<(), CurveError> {
-    let rising =
-        nodes.last().map(|l| l.value).unwrap_or(0) >= nodes.first().map(|f| f.value).unwrap_or(0);
-    if derivatives_q16
-        .iter()
-        .any(|&d| (rising && d < 0) || (!rising && d > 0))
-    {
-        return Err(CurveError::BadDerivatives);
-    }
-    Ok(())
-}
-
-/// A cubic segment's Horner coefficients (c1, c2, c3) in Q8 output units
-/// from its end nodes and their derivatives dy/ds in Q47.16. The
-/// derivatives' signs are checked first ([`check_derivative_signs`]), so
-/// the coefficients fit `i32` ([`Segment`]); `SegmentTooSteep` if not.
-fn cubic_terms(a: Node, b: Node, d0_q16: i64, d1_q16: i64) -> Result<(i32, i32, i32), CurveError> {
-    let w = i128::from(b.shift.raw_q40()) - i128::from(a.shift.raw_q40());
-    // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
-    let term = |d: i64| -> Result<i64, CurveError> {
-        let r = (w * i128::from(d) + (1 << 47)) >> 48;
-        match i64::try_from(r) {
-            Ok(v) if v.unsigned_abs() < 1 << 29 => Ok(v),
-            _ => Err(CurveError::SegmentTooSteep),
+        if up && down {
+            return Err(CurveError::NotMonotone);
         }
-    };
-    let d0 = term(d0_q16)?;
-    let d1 = term(d1_q16)?;
-    let dy = (i64::from(b.value) - i64::from(a.value)) << 8;
-    if dy.unsigned_abs() >= 1 << 29 {
-        return Err(CurveError::SegmentTooSteep);
+        Ok(())
     }
-    // Fritsch & Carlson (SIAM J. Numer. Anal. 17(2), 1980): with both
-    // tangents between 0 and 3 steps the cubic is monotone, so it stays
-    // between y0 and y1 and the stated bound holds without clamping. Two
-    // Q8 units of slack for the rounding of stored derivatives;
-    // Fritsch–Butland tangents are at most 3 (inside) and 2 (at the ends)
-    // steps of either neighbouring segment.
-    let limit = 3 * dy.unsigned_abs() + 2;
-    if d0.unsigned_abs() > limit || d1.unsigned_abs() > limit {
-        return Err(CurveError::BadDerivatives);
+
+    /// Validates a table, in the one order every constructor and
+    /// [`Curve::check`] report errors in (derivative count, nodes, each
+    /// segment's scale, derivative signs, cubic terms), and writes each
+    /// segment's constants into `out` when given. Returns the interpolation.
+    fn segments(
+        nodes: &[Node],
+        derivatives_q16: Option<&[i64]>,
+        mut out: Option<&mut [Segment; MAX_NODES]>,
+    ) -> Result<Interpolation, CurveError> {
+        if derivatives_q16.is_some_and(|d| d.len() != nodes.len()) {
+            return Err(CurveError::BadDerivatives);
+        }
+        validate(nodes)?;
+        let interpolation = match derivatives_q16 {
+            Some(_) => Interpolation::MonotoneCubic,
+            None => Interpolation::Linear,
+        };
+        for (i, pair) in nodes.windows(2).enumerate() {
+            if let [a, b] = pair {
+                let seg = segment_of(*a, *b, interpolation)?;
+                if let Some(slot) = out.as_deref_mut().and_then(|o| o.get_mut(i)) {
+                    *slot = seg;
+                }
+            }
+        }
+        if let Some(ders) = derivatives_q16 {
+            check_derivative_signs(nodes, ders)?;
+            for (i, (pair, d)) in nodes.windows(2).zip(ders.windows(2)).enumerate() {
+                if let ([a, b], [d0, d1]) = (pair, d) {
+                    let (c1, c2, c3) = cubic_terms(*a, *b, *d0, *d1)?;
+                    if let Some(slot) = out.as_deref_mut().and_then(|o| o.get_mut(i)) {
+                        slot.c1_q8 = c1;
+                        slot.c2_q8 = c2;
+                        slot.c3_q8 = c3;
+                    }
+                }
+            }
+        }
+        Ok(interpolation)
     }
-    let fit = |v: i64| i32::try_from(v).map_err(|_| CurveError::SegmentTooSteep);
-    Ok((fit(d0)?, fit(3 * dy - 2 * d0 - d1)?, fit(d0 + d1 - 2 * dy)?))
+
+    impl Curve {
+        /// The curve of these nodes (linear when `derivatives_q16` is
+        /// `None`).
+        fn build(nodes: &[Node], derivatives_q16: Option<&[i64]>) -> Result<Self, CurveError> {
+            let mut seg = [Segment::default(); MAX_NODES];
+            let interpolation = segments(nodes, derivatives_q16, Some(&mut seg))?;
+            let cubic = interpolation == Interpolation::MonotoneCubic;
+            let mut c = Curve {
+                len: nodes.len() as u8, // ≤ 64 after validation
+                cubic,
+                node_words: [0; MAX_NODES * NODE_WORDS],
+                seg_words: [0; (MAX_NODES - 1) * CUBIC_SEGMENT_WORDS],
+            };
+            for (w, n) in c.node_words.chunks_exact_mut(NODE_WORDS).zip(nodes) {
+                let x = n.shift.raw_q40() as u64;
+                w.copy_from_slice(&[x as u32, (x >> 32) as u32, n.value as u32].map(u32::to_le));
+            }
+            let stride = c.stride();
+            for (w, s) in c
+                .seg_words
+                .chunks_exact_mut(stride)
+                .zip(&seg[..nodes.len() - 1])
+            {
+                w.copy_from_slice(&s.to_words()[..stride]);
+            }
+            Ok(c)
+        }
+
+        fn stride(&self) -> usize {
+            if self.cubic {
+                CUBIC_SEGMENT_WORDS
+            } else {
+                LINEAR_SEGMENT_WORDS
+            }
+        }
+
+        /// The curve of stored words, validated as the firmware validates
+        /// them ([`CurveRef::from_words`]): a curve read back from an image.
+        pub fn from_words(
+            nodes: &[u32],
+            segs: &[u32],
+            len: usize,
+            cubic: bool,
+        ) -> Result<Self, CurveError> {
+            CurveRef::from_words(nodes, segs, len, cubic)?;
+            let mut c = Curve {
+                len: len as u8, // ≤ 64 after validation
+                cubic,
+                node_words: [0; MAX_NODES * NODE_WORDS],
+                seg_words: [0; (MAX_NODES - 1) * CUBIC_SEGMENT_WORDS],
+            };
+            let (n, s) = (len * NODE_WORDS, (len - 1) * c.stride());
+            c.node_words[..n].copy_from_slice(&nodes[..n]);
+            c.seg_words[..s].copy_from_slice(&segs[..s]);
+            Ok(c)
+        }
+
+        /// Whether [`Curve::linear`] (`derivatives_q16` `None`) or
+        /// [`Curve::monotone_cubic`] would accept these nodes, with the
+        /// same error, without building the curve.
+        pub fn check(nodes: &[Node], derivatives_q16: Option<&[i64]>) -> Result<(), CurveError> {
+            segments(nodes, derivatives_q16, None).map(|_| ())
+        }
+
+        /// A curve with straight segments.
+        pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
+            Self::build(nodes, None)
+        }
+
+        /// A monotone cubic curve from nodes and their derivatives dy/ds in
+        /// output units per unit shift (from [`pchip_derivatives`], as
+        /// Q47.16: `derivatives_q16`).
+        pub fn monotone_cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
+            Self::build(nodes, Some(derivatives_q16))
+        }
+
+        /// The curve as the firmware reads it: the same words, borrowed.
+        pub fn view(&self) -> CurveRef<'_> {
+            let stride = self.stride();
+            let len = usize::from(self.len);
+            let nodes = &self.node_words[..len * NODE_WORDS];
+            let segs = &self.seg_words[..(len - 1) * stride];
+            let mut v = CurveRef {
+                nodes: bytemuck::cast_slice(nodes),
+                linear: &[],
+                cubic: &[],
+                rising: true,
+                whole: false,
+            };
+            if self.cubic {
+                v.cubic = bytemuck::cast_slice(segs);
+            } else {
+                v.linear = bytemuck::cast_slice(segs);
+            }
+            v.rising = v.y(len - 1) >= v.y(0);
+            v.whole = (0..len).all(|i| word(nodes, i * NODE_WORDS) == 0)
+                && (0..len - 1).all(|i| (1..=32).contains(&v.segment_constants(i).sh));
+            v
+        }
+
+        /// Number of nodes.
+        pub fn len(&self) -> usize {
+            usize::from(self.len)
+        }
+
+        /// Always false: a curve has at least two nodes.
+        pub fn is_empty(&self) -> bool {
+            self.len == 0
+        }
+
+        /// The interpolation in use.
+        pub fn interpolation(&self) -> Interpolation {
+            self.view().interpolation()
+        }
+
+        /// Whether the values rise along the table (last ≥ first).
+        pub fn is_rising(&self) -> bool {
+            self.view().is_rising()
+        }
+
+        /// Node `i`, if it exists.
+        pub fn node(&self, i: usize) -> Option<Node> {
+            self.view().node(i)
+        }
+
+        /// [`CurveRef::eval`].
+        pub fn eval(&self, s: Shift) -> CurveValue {
+            self.view().eval(s)
+        }
+
+        /// [`CurveRef::eval_f64`].
+        pub fn eval_f64(&self, s: f64) -> f64 {
+            self.view().eval_f64(s)
+        }
+
+        /// [`CurveRef::error_bound`].
+        pub fn error_bound(&self, s: Shift) -> f64 {
+            self.view().error_bound(s)
+        }
+
+        /// Whether the curve lies on whole levels
+        /// ([`CurveRef::on_whole_levels`]).
+        pub fn on_whole_levels(&self) -> bool {
+            self.view().on_whole_levels()
+        }
+    }
+
+    /// One segment's constants (module docs): the width shift and the slope's
+    /// (linear) or 1/w's (cubic) mantissa.
+    fn segment_of(a: Node, b: Node, interpolation: Interpolation) -> Result<Segment, CurveError> {
+        let w = b.shift.raw_q40().abs_diff(a.shift.raw_q40());
+        let sh = width_shift(w);
+        let w_red = round_shr_u64(w, u32::from(sh)).max(1);
+        let dy = i64::from(b.value) - i64::from(a.value);
+        let (k, k_exp) = match interpolation {
+            Interpolation::Linear => scaled_ratio(dy, w_red),
+            // m = round(2^(30+e)/w'), so t = d·m·2^-e is d/w' in Q30.
+            Interpolation::MonotoneCubic => scaled_ratio(1 << 30, w_red),
+        }
+        .ok_or(CurveError::SegmentTooSteep)?;
+        Ok(Segment {
+            sh,
+            k,
+            k_exp,
+            c1_q8: 0,
+            c2_q8: 0,
+            c3_q8: 0,
+        })
+    }
+
+    /// Derivatives must have the sign of the table's direction.
+    fn check_derivative_signs(nodes: &[Node], derivatives_q16: &[i64]) -> Result<(), CurveError> {
+        let rising = nodes.last().map(|l| l.value).unwrap_or(0)
+            >= nodes.first().map(|f| f.value).unwrap_or(0);
+        if derivatives_q16
+            .iter()
+            .any(|&d| (rising && d < 0) || (!rising && d > 0))
+        {
+            return Err(CurveError::BadDerivatives);
+        }
+        Ok(())
+    }
+
+    /// A cubic segment's Horner coefficients (c1, c2, c3) in Q8 output units
+    /// from its end nodes and their derivatives dy/ds in Q47.16. The
+    /// derivatives' signs are checked first ([`check_derivative_signs`]), so
+    /// the coefficients fit `i32` ([`Segment`]); `SegmentTooSteep` if not.
+    fn cubic_terms(
+        a: Node,
+        b: Node,
+        d0_q16: i64,
+        d1_q16: i64,
+    ) -> Result<(i32, i32, i32), CurveError> {
+        let w = i128::from(b.shift.raw_q40()) - i128::from(a.shift.raw_q40());
+        // D = w · y' in Q8: w (Q40) · y' (Q16) · 2^-48, |D| < 2^21 units.
+        let term = |d: i64| -> Result<i64, CurveError> {
+            let r = (w * i128::from(d) + (1 << 47)) >> 48;
+            match i64::try_from(r) {
+                Ok(v) if v.unsigned_abs() < 1 << 29 => Ok(v),
+                _ => Err(CurveError::SegmentTooSteep),
+            }
+        };
+        let d0 = term(d0_q16)?;
+        let d1 = term(d1_q16)?;
+        let dy = (i64::from(b.value) - i64::from(a.value)) << 8;
+        if dy.unsigned_abs() >= 1 << 29 {
+            return Err(CurveError::SegmentTooSteep);
+        }
+        // Fritsch & Carlson (SIAM J. Numer. Anal. 17(2), 1980): with both
+        // tangents between 0 and 3 steps the cubic is monotone, so it stays
+        // between y0 and y1 and the stated bound holds without clamping. Two
+        // Q8 units of slack for the rounding of stored derivatives;
+        // Fritsch–Butland tangents are at most 3 (inside) and 2 (at the ends)
+        // steps of either neighbouring segment.
+        let limit = 3 * dy.unsigned_abs() + 2;
+        if d0.unsigned_abs() > limit || d1.unsigned_abs() > limit {
+            return Err(CurveError::BadDerivatives);
+        }
+        let fit = |v: i64| i32::try_from(v).map_err(|_| CurveError::SegmentTooSteep);
+        Ok((fit(d0)?, fit(3 * dy - 2 * d0 - d1)?, fit(d0 + d1 - 2 * dy)?))
+    }
+
+    /// Node derivatives dy/ds of the monotone piecewise cubic (Fritsch &
+    /// Butland 1984, as SciPy's `PchipInterpolator`): weighted harmonic means
+    /// w1 = 2h_k + h_{k−1}, w2 = h_k + 2h_{k−1} at interior nodes, zero where the
+    /// neighbouring secants differ in sign or either is zero, and the
+    /// three-point shape-preserving formula at the ends (two nodes: the secant).
+    /// `x` strictly increasing; returns `None` otherwise or when lengths differ
+    /// or exceed [`MAX_NODES`]. Host and test helper (plain `f64`).
+    pub fn pchip_derivatives(x: &[f64], y: &[f64]) -> Option<[f64; MAX_NODES]> {
+        let n = x.len();
+        if n != y.len() || !(2..=MAX_NODES).contains(&n) {
+            return None;
+        }
+        let mut h = [0.0; MAX_NODES];
+        let mut m = [0.0; MAX_NODES];
+        for k in 0..n - 1 {
+            h[k] = x[k + 1] - x[k];
+            if h[k].partial_cmp(&0.0) != Some(core::cmp::Ordering::Greater) {
+                return None;
+            }
+            m[k] = (y[k + 1] - y[k]) / h[k];
+        }
+        let mut d = [0.0; MAX_NODES];
+        if n == 2 {
+            d[0] = m[0];
+            d[1] = m[0];
+            return Some(d);
+        }
+        for k in 1..n - 1 {
+            if m[k - 1] * m[k] <= 0.0 {
+                d[k] = 0.0;
+            } else {
+                let w1 = 2.0 * h[k] + h[k - 1];
+                let w2 = h[k] + 2.0 * h[k - 1];
+                d[k] = (w1 + w2) / (w1 / m[k - 1] + w2 / m[k]);
+            }
+        }
+        // numpy's sign: −1, 0 or 1.
+        let sign = |v: f64| (v > 0.0) as i8 - (v < 0.0) as i8;
+        let edge = |h0: f64, h1: f64, m0: f64, m1: f64| {
+            let d = ((2.0 * h0 + h1) * m0 - h0 * m1) / (h0 + h1);
+            if sign(d) != sign(m0) {
+                return 0.0;
+            }
+            if sign(m0) != sign(m1) && d.abs() > 3.0 * m0.abs() {
+                return 3.0 * m0;
+            }
+            d
+        };
+        d[0] = edge(h[0], h[1], m[0], m[1]);
+        d[n - 1] = edge(h[n - 2], h[n - 3], m[n - 2], m[n - 3]);
+        Some(d)
+    }
 }
 
 /// `x / 2^sh` rounded to nearest, ties away from zero, as a `u32`, for
@@ -758,61 +1247,9 @@ fn round_shr_i64(x: i64, sh: u32) -> i64 {
     }
 }
 
-/// Node derivatives dy/ds of the monotone piecewise cubic (Fritsch &
-/// Butland 1984, as SciPy's `PchipInterpolator`): weighted harmonic means
-/// w1 = 2h_k + h_{k−1}, w2 = h_k + 2h_{k−1} at interior nodes, zero where the
-/// neighbouring secants differ in sign or either is zero, and the
-/// three-point shape-preserving formula at the ends (two nodes: the secant).
-/// `x` strictly increasing; returns `None` otherwise or when lengths differ
-/// or exceed [`MAX_NODES`]. Host and test helper (plain `f64`).
-pub fn pchip_derivatives(x: &[f64], y: &[f64]) -> Option<[f64; MAX_NODES]> {
-    let n = x.len();
-    if n != y.len() || !(2..=MAX_NODES).contains(&n) {
-        return None;
-    }
-    let mut h = [0.0; MAX_NODES];
-    let mut m = [0.0; MAX_NODES];
-    for k in 0..n - 1 {
-        h[k] = x[k + 1] - x[k];
-        if h[k].partial_cmp(&0.0) != Some(core::cmp::Ordering::Greater) {
-            return None;
-        }
-        m[k] = (y[k + 1] - y[k]) / h[k];
-    }
-    let mut d = [0.0; MAX_NODES];
-    if n == 2 {
-        d[0] = m[0];
-        d[1] = m[0];
-        return Some(d);
-    }
-    for k in 1..n - 1 {
-        if m[k - 1] * m[k] <= 0.0 {
-            d[k] = 0.0;
-        } else {
-            let w1 = 2.0 * h[k] + h[k - 1];
-            let w2 = h[k] + 2.0 * h[k - 1];
-            d[k] = (w1 + w2) / (w1 / m[k - 1] + w2 / m[k]);
-        }
-    }
-    // numpy's sign: −1, 0 or 1.
-    let sign = |v: f64| (v > 0.0) as i8 - (v < 0.0) as i8;
-    let edge = |h0: f64, h1: f64, m0: f64, m1: f64| {
-        let d = ((2.0 * h0 + h1) * m0 - h0 * m1) / (h0 + h1);
-        if sign(d) != sign(m0) {
-            return 0.0;
-        }
-        if sign(m0) != sign(m1) && d.abs() > 3.0 * m0.abs() {
-            return 3.0 * m0;
-        }
-        d
-    };
-    d[0] = edge(h[0], h[1], m[0], m[1]);
-    d[n - 1] = edge(h[n - 2], h[n - 3], m[n - 2], m[n - 3]);
-    Some(d)
-}
-
 #[cfg(test)]
 mod tests {
+    use super::owned::{scaled_ratio, scaled_ratio_from};
     use super::*;
     use proptest::prelude::*;
 
@@ -1023,33 +1460,36 @@ mod tests {
     /// `i64` products). [`Curve::eval`] now works in 32-bit words on a
     /// 32-bit core; the property test below holds it bit-identical to this.
     fn eval_reference(c: &Curve, s: Shift) -> CurveValue {
+        let v = c.view();
+        let x = |i: usize| v.x(i);
+        let y = |i: usize| v.y(i);
         let s = s.raw_q40();
         let n = c.len();
         let last_i = n - 1;
-        if s < c.x[0] {
+        if s < x(0) {
             return CurveValue {
-                value: c.y[0],
+                value: y(0),
                 status: CurveStatus::BelowRange,
             };
         }
-        if s > c.x[last_i] {
+        if s > x(last_i) {
             return CurveValue {
-                value: c.y[last_i],
+                value: y(last_i),
                 status: CurveStatus::AboveRange,
             };
         }
-        if s == c.x[last_i] {
+        if s == x(last_i) {
             return CurveValue {
-                value: c.y[last_i],
+                value: y(last_i),
                 status: CurveStatus::InRange,
             };
         }
         // A plain scan, independent of `Curve::segment`'s halving search.
-        let i = (0..last_i).rev().find(|&i| c.x[i] <= s).unwrap();
-        let seg = c.seg[i];
-        let (x0, y0, y1) = (c.x[i], c.y[i], c.y[i + 1]);
+        let i = (0..last_i).rev().find(|&i| x(i) <= s).unwrap();
+        let seg = v.segment_constants(i);
+        let (x0, y0, y1) = (x(i), y(i), y(i + 1));
         let d = round_shr_u64(s.abs_diff(x0), u32::from(seg.sh)).min((1 << 31) - 1) as u32;
-        let delta = match c.interpolation {
+        let delta = match c.interpolation() {
             Interpolation::Linear => round_shr_i64(mul_i32_u32(seg.k, d), u32::from(seg.k_exp)),
             Interpolation::MonotoneCubic => {
                 let t = round_shr_u64(
@@ -1226,6 +1666,20 @@ mod tests {
                 None => Curve::linear(&nodes),
             };
             let Ok(c) = built else { return Ok(()) };
+            // What the host builds, the firmware's validation accepts, and
+            // a segment's slope or reciprocal one unit off it refuses.
+            let v = c.view();
+            let (n, sg) = v.words();
+            let cubic = ders.is_some();
+            prop_assert_eq!(CurveRef::from_words(n, sg, v.len(), cubic), Ok(v));
+            let mut bad = sg.to_vec();
+            let stride = if cubic { CUBIC_SEGMENT_WORDS } else { LINEAR_SEGMENT_WORDS };
+            let (_, pick, up) = qs[0];
+            let at = (pick.unsigned_abs() as usize % (v.len() - 1)) * stride + 1;
+            if bad[at] != 0 {
+                bad[at] = (bad[at] as i32).wrapping_add(if up >= 0 { 1 } else { -1 }) as u32;
+                prop_assert!(CurveRef::from_words(n, &bad, v.len(), cubic).is_err());
+            }
             for (q, raw, nudge) in qs {
                 // Inside a segment, at and beside nodes, and anywhere.
                 let (lo, hi) = (nodes[0].shift.raw_q40(), nodes[nodes.len() - 1].shift.raw_q40());
@@ -1254,7 +1708,7 @@ mod tests {
                 let inside = lo + (f64::from(hi - lo) * q) as i32;
                 let near = level(&nodes[(raw.unsigned_abs() as usize) % nodes.len()]) + nudge;
                 for v in [inside, near, raw, lo - 1, hi, hi + 1] {
-                    prop_assert_eq!(c.eval_whole(v), c.eval(Shift::from_raw_q40(i64::from(v) << 32)), "at {}", v);
+                    prop_assert_eq!(c.view().eval_whole(v), c.eval(Shift::from_raw_q40(i64::from(v) << 32)), "at {}", v);
                 }
             }
             let mut off = nodes.clone();

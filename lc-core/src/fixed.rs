@@ -1,14 +1,15 @@
-//! Integer helpers shared by the fixed-point stages.
+//! Integer helpers shared by the fixed-point stages (crate-private: the
+//! stages' public APIs state their own rounding and bounds).
 //!
 //! Formats are written `Qm.n`: an integer holding a value times 2^n, with m
 //! integer bits. Every helper says how it rounds. None of them panics.
 //!
+//! ```text
+//! mul_u32_wide(u32::MAX, u32::MAX) == 0xFFFF_FFFE_0000_0001
+//! round_shr_u64(5, 1) == 3          // 2.5 rounds up (half away from zero)
+//! round_shr_u64(u64::MAX, 64) == 1
 //! ```
-//! use lc_core::fixed::{mul_u32_wide, round_shr_u64};
-//! assert_eq!(mul_u32_wide(u32::MAX, u32::MAX), 0xFFFF_FFFE_0000_0001);
-//! assert_eq!(round_shr_u64(5, 1), 3); // 2.5 rounds up (half away from zero)
-//! assert_eq!(round_shr_u64(u64::MAX, 64), 1);
-//! ```
+//! (checked by the unit test `module_doc_examples`)
 
 /// Full 64-bit product of two `u32`. Exact.
 ///
@@ -412,6 +413,13 @@ pub fn bit_length_u128(x: u128) -> u32 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn module_doc_examples() {
+        assert_eq!(mul_u32_wide(u32::MAX, u32::MAX), 0xFFFF_FFFE_0000_0001);
+        assert_eq!(round_shr_u64(5, 1), 3);
+        assert_eq!(round_shr_u64(u64::MAX, 64), 1);
+    }
     use proptest::prelude::*;
 
     proptest! {

@@ -645,9 +645,8 @@ pub fn horizontal_cylinder_table_bound(nodes: usize, top_level: i32) -> f64 {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct VolumeTable {
-    /// Every node on a whole level ([`Curve::on_whole_levels`]): then
+    /// When every node lies on a whole level ([`Curve::on_whole_levels`]),
     /// [`volume`](Self::volume) searches and interpolates in 32-bit words.
-    whole: bool,
     curve: Curve,
 }
 
@@ -696,29 +695,9 @@ impl VolumeTable {
         Ok(Self::of(curve))
     }
 
-    /// A volume table without nodes, for a reader to fill in place
-    /// ([`VolumeTable::rebuild`]): never handed out as a value.
-    pub(crate) const PLACEHOLDER: VolumeTable = VolumeTable {
-        whole: false,
-        curve: Curve::PLACEHOLDER,
-    };
-
-    /// [`VolumeTable::from_curve`] of a calibration table's curve, built in
-    /// place (no 2 KB temporary on the stack).
-    pub(crate) fn rebuild(&mut self, table: &crate::image::Table) -> Result<(), CurveError> {
-        self.whole = false;
-        table.build_curve(&mut self.curve)?;
-        Self::check_rising(&self.curve)?;
-        self.whole = self.curve.on_whole_levels();
-        Ok(())
-    }
-
     /// The table of a checked curve.
     fn of(curve: Curve) -> Self {
-        Self {
-            whole: curve.on_whole_levels(),
-            curve,
-        }
+        Self { curve }
     }
 
     fn check_rising(curve: &Curve) -> Result<(), CurveError> {
@@ -880,11 +859,9 @@ impl VolumeTable {
     /// saying so. The firmware path: one [`Curve::eval`], no division.
     #[inline]
     pub fn volume(&self, level: i32) -> CurveValue {
-        if self.whole {
-            self.curve.eval_whole(level)
-        } else {
-            self.curve.eval(level_to_shift(level))
-        }
+        // The 32-bit path when the nodes lie on whole levels (`whole`),
+        // the general one otherwise: `eval_whole` picks.
+        self.curve.view().eval_whole(level)
     }
 
     /// `f64` twin of [`volume`](Self::volume): the same curve evaluated in
@@ -1497,7 +1474,7 @@ mod tests {
             assert_eq!(t.len(), 5);
             assert!(!t.is_empty());
             // Rows on whole levels: the 32-bit path, equal to the general.
-            assert!(t.whole);
+            assert!(t.curve().on_whole_levels());
             for level in -1..=2_001 {
                 assert_eq!(t.volume(level), t.curve().eval(level_to_shift(level)));
             }

@@ -1,98 +1,132 @@
 //! The calibration image: the bytes the end-of-line rig writes into a
-//! unit's flash, and the validated calibration the firmware reads from them.
+//! unit's flash, validated once at start-up and then read in place.
 //!
 //! The layout is the project's own, little endian, documented byte by byte
-//! in `docs/image-format.md`. Its size is bounded ([`MAX_IMAGE_LEN`]) so the
-//! firmware parses it from a `&[u8]` without a heap.
+//! in `docs/image-format.md` and written once in code in [`layout`]. Format
+//! 2 stores, besides the nodes of each table, every per-segment constant
+//! the firmware's evaluation needs, computed on the host, so that start-up
+//! is validation, not derivation.
+//!
+//! ## The firmware's flow
+//!
+//! ```text
+//! image bytes in flash ─► Image::new (validate once) ─► ProximityReader::new
+//!                                                    ─► read, read, read …
+//! ```
+//!
+//! ```
+//! use lc_core::counting::CountPair;
+//! use lc_core::image::Image;
+//! use lc_core::reader::{Input, ProximityReader, Status};
+//!
+//! // The image embedded 4-byte aligned (or a slice over its flash page).
+//! static IMAGE: &[u8] =
+//!     lc_core::include_image!("../../examples/firmware/data/demo-proximity.lcim");
+//! let image = Image::new(IMAGE).unwrap(); // magic, version, length, CRC, every field
+//! let mut reader = ProximityReader::new(&image).unwrap(); // checks the kind
+//! let r = reader.read(&Input::counts(CountPair::new(16_384, 123_700)));
+//! assert_eq!(r.status, Status::Ok);
+//! assert!((1_000..=2_500).contains(&r.gap)); // micrometres
+//! ```
 //!
 //! ## Panic and acceptance contract
 //!
-//! [`Calibration::parse`] never panics, for any input: every read is a
-//! checked slice access. An image is accepted only if its length, magic,
-//! version, CRC-32 and every field check pass; each malformed input has its
-//! own [`ImageError`]. Raw bytes and the checked [`Calibration`] are
-//! different types: nothing downstream sees unchecked bytes.
+//! [`Image::new`] never panics, for any input: every read is a checked
+//! access. An image is accepted only if its length, magic, version, CRC-32,
+//! every field's rule and the consistency between fields pass; each
+//! malformed input has its own [`ImageError`]. An image that validates
+//! always builds the reader of its kind: the checks include everything a
+//! reader's constructor would refuse. Raw bytes and the checked [`Image`]
+//! are different types: nothing downstream sees unchecked bytes.
 //!
-//! The CRC is CRC-32/ISO-HDLC (the CRC of zlib and IEEE 802.3; check value
-//! 0xCBF43926 for "123456789" in Cook's catalogue of parametrised CRC
-//! algorithms), computed by the `crc` crate.
+//! The image must lie at a 4-byte aligned address ([`ImageError::Misaligned`]
+//! otherwise), so that its constants are read with word loads:
+//! [`include_image!`](crate::include_image) embeds a file aligned, and
+//! [`ImageBuf`] copies one from anywhere.
 //!
-//! ```
-//! use lc_core::image::{Calibration, MAX_IMAGE_LEN};
-//! # let cal = lc_core::image::tests_support::demo_proximity().unwrap();
-//! let mut buf = [0u8; MAX_IMAGE_LEN];
-//! let n = cal.encode(&mut buf).unwrap();
-//! let back = Calibration::parse(&buf[..n]).unwrap();
-//! assert_eq!(back, cal);
-//! // One flipped bit anywhere is caught.
-//! buf[40] ^= 0x10;
-//! assert!(Calibration::parse(&buf[..n]).is_err());
-//! ```
+//! The CRC is CRC-32/ISO-HDLC ([`crc32`]).
+//!
+//! ## Format 1
+//!
+//! Format 1 (nodes and node derivatives, no per-segment constants, no
+//! calibration time or plan identity) is refused by the firmware with
+//! [`ImageError::FormatOne`]. The host reads it
+//! ([`Calibration::parse`], `design` feature) and rewrites it in format 2
+//! (`lc-host inspect --rewrite OUT`).
 
-use crate::counting::{FaultWindow, WindowError};
-use crate::curve::{Curve, CurveError, Node, MAX_NODES};
-use crate::drift::{DriftError, TemperatureModel};
+pub mod layout;
+
+mod crc;
+
+pub use crc::{crc32, Crc32, CRC32};
+
+use crate::counting::{FaultWindow, Gating, WindowError};
+use crate::curve::{CurveError, CurveRef, MAX_NODES};
+use crate::drift::{Companion, DriftError, TemperatureModel};
 use crate::ratio::PeriodRatio;
-use crate::shift::{RestPoint, Shift};
+use crate::reader::Front;
+use crate::shift::{RestPoint, ShiftConverter, ShiftError};
 use crate::temperature::CentiCelsius;
 use core::fmt;
+use layout::*;
 
 /// The first four bytes of every image: "LCIM".
 pub const MAGIC: [u8; 4] = *b"LCIM";
-/// The format version this crate reads and writes.
-pub const VERSION: u16 = 1;
-/// Bytes before the tables.
-pub const HEADER_LEN: usize = 104;
-/// Bytes per table node: shift or level (`i64`) and value (`i32`).
-pub const NODE_LEN: usize = 12;
-/// Bytes per stored derivative (`i64`, Q47.16).
-pub const DERIVATIVE_LEN: usize = 8;
-/// Bytes of the trailing CRC.
-pub const CRC_LEN: usize = 4;
+/// The format version this crate writes and the firmware reads.
+pub const VERSION: u16 = 2;
+/// The earlier format version, read by the host only.
+pub const VERSION_1: u16 = 1;
 /// The largest image: two full cubic tables.
-pub const MAX_IMAGE_LEN: usize = HEADER_LEN + 2 * MAX_NODES * (NODE_LEN + DERIVATIVE_LEN) + CRC_LEN;
+pub const MAX_IMAGE_LEN: usize = HEADER_LEN + 2 * table_len(MAX_NODES, true) + CRC_LEN;
+/// The largest format-1 image.
+pub const MAX_IMAGE_LEN_V1: usize = HEADER_LEN_V1 + 2 * table_len_v1(MAX_NODES, true) + CRC_LEN;
 
-/// CRC-32/ISO-HDLC.
-pub const CRC32: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
-
-const FLAG_CUBIC: u8 = 1 << 0;
-const FLAG_COMPANION: u8 = 1 << 1;
-const FLAG_VOLUME: u8 = 1 << 2;
-const FLAG_VOLUME_CUBIC: u8 = 1 << 3;
-const KNOWN_FLAGS: u8 = FLAG_CUBIC | FLAG_COMPANION | FLAG_VOLUME | FLAG_VOLUME_CUBIC;
-
-/// A field of the image, named in errors.
+/// A field of the image, named in errors and in the [`layout`] table.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Field {
-    /// Reader kind (byte 8).
+    /// Magic "LCIM".
+    Magic,
+    /// Format version.
+    Version,
+    /// Image length.
+    Length,
+    /// Reader kind.
     ReaderKind,
-    /// Flags (byte 9).
+    /// Flags.
     Flags,
-    /// Curve node count (byte 10).
+    /// Curve node count.
     CurveNodes,
-    /// Volume node count (byte 11).
+    /// Volume node count.
     VolumeNodes,
-    /// Unit serial (bytes 12–27).
+    /// Unit serial.
     Serial,
-    /// Reference clock (bytes 28–31).
+    /// Reference clock.
     ReferenceHz,
-    /// Fault window (bytes 36–47).
+    /// Reciprocal gate (with the rest point: the shift converter).
+    GateCycles,
+    /// Fault window.
     Window,
-    /// Rest point (bytes 48–55).
+    /// Rest point.
     RestPoint,
-    /// Companion rest point (bytes 56–63).
+    /// Companion rest point.
     CompanionRest,
-    /// Drift model (bytes 64–75).
+    /// Drift model.
     Drift,
-    /// Output unit or exponent (bytes 76–77).
+    /// Output unit or exponent.
     Output,
-    /// Volume unit or exponent (bytes 78–79).
+    /// Volume unit or exponent.
     VolumeOutput,
-    /// Metal parameters (bytes 80–103).
+    /// Metal parameters.
     Metal,
     /// A reserved byte that must be zero.
     Reserved,
+    /// Calibration time.
+    CalibratedAt,
+    /// Plan identity.
+    PlanId,
+    /// A curve's nodes or segment constants.
+    Curve,
 }
 
 /// Why an image was refused. Every malformed input has its own variant.
@@ -105,13 +139,19 @@ pub enum ImageError {
     BadMagic,
     /// A format version this firmware does not read.
     UnknownVersion,
+    /// A format-1 image: the host reads it and rewrites it in format 2
+    /// (`lc-host inspect --rewrite OUT`).
+    FormatOne,
     /// The stated length disagrees with the table sizes.
     LengthMismatch,
+    /// The image does not start at a 4-byte aligned address.
+    Misaligned,
     /// The CRC-32 does not match: the image is corrupt.
     BadCrc,
     /// A field holds a value that is not defined or not allowed.
     OutOfRange(Field),
-    /// The curve is malformed (too few nodes, not monotone, …).
+    /// The curve is malformed (too few nodes, not monotone, a segment's
+    /// constants wrong, …).
     BadCurve(CurveError),
     /// The volume table is malformed.
     BadVolume(CurveError),
@@ -119,7 +159,10 @@ pub enum ImageError {
     BadWindow(WindowError),
     /// The drift coefficients could overflow the fixed-point path.
     BadDrift(DriftError),
-    /// The output buffer is too small to encode into.
+    /// The rest point and the gate do not form a shift converter.
+    BadGate(ShiftError),
+    /// The output buffer is too small to encode into, or the image too
+    /// long for an [`ImageBuf`].
     BufferTooSmall,
 }
 
@@ -129,14 +172,19 @@ impl fmt::Display for ImageError {
             ImageError::Truncated => f.write_str("image truncated"),
             ImageError::BadMagic => f.write_str("not a calibration image (bad magic)"),
             ImageError::UnknownVersion => f.write_str("unknown image format version"),
+            ImageError::FormatOne => f.write_str(
+                "format-1 image: rewrite it in format 2 with `lc-host inspect IMAGE --rewrite OUT`",
+            ),
             ImageError::LengthMismatch => f.write_str("stated length disagrees with the tables"),
+            ImageError::Misaligned => f.write_str("image not at a 4-byte aligned address"),
             ImageError::BadCrc => f.write_str("CRC mismatch: image corrupt"),
             ImageError::OutOfRange(field) => write!(f, "field {field:?} out of range"),
             ImageError::BadCurve(e) => write!(f, "curve: {e}"),
             ImageError::BadVolume(e) => write!(f, "volume table: {e}"),
             ImageError::BadWindow(e) => write!(f, "fault window: {e}"),
             ImageError::BadDrift(e) => write!(f, "drift model: {e}"),
-            ImageError::BufferTooSmall => f.write_str("output buffer too small"),
+            ImageError::BadGate(e) => write!(f, "rest point and gate: {e}"),
+            ImageError::BufferTooSmall => f.write_str("buffer too small for the image"),
         }
     }
 }
@@ -222,130 +270,6 @@ pub struct MetalParams {
     pub relearn_readings: u32,
 }
 
-/// A table as stored: nodes, and derivatives when cubic. Validated by
-/// building a [`Curve`] from it.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Table {
-    len: u8,
-    cubic: bool,
-    nodes: [Node; MAX_NODES],
-    derivatives_q16: [i64; MAX_NODES],
-}
-
-impl Table {
-    /// A linear table from nodes (validated).
-    pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
-        Curve::check(nodes, None)?;
-        Ok(Self::fill(nodes, None))
-    }
-
-    /// A monotone cubic table from nodes and their derivatives dy/ds in
-    /// Q47.16 (validated).
-    pub fn cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
-        Curve::check(nodes, Some(derivatives_q16))?;
-        Ok(Self::fill(nodes, Some(derivatives_q16)))
-    }
-
-    /// A table without nodes, for the parser to fill in place
-    /// ([`Table::read_into`]): never handed out as a value.
-    const PLACEHOLDER: Table = Table {
-        len: 0,
-        cubic: false,
-        nodes: [Node::new(Shift::ZERO, 0); MAX_NODES],
-        derivatives_q16: [0; MAX_NODES],
-    };
-
-    /// Reads `n` nodes (and their derivatives when `cubic`) at `at` into
-    /// this table, in place (no 1.5 KB temporary on the parser's stack),
-    /// and validates them as [`Table::linear`] and [`Table::cubic`] do.
-    /// `Ok(None)` when the bytes end early.
-    fn read_into(
-        &mut self,
-        r: &Reader<'_>,
-        at: usize,
-        n: usize,
-        cubic: bool,
-    ) -> Result<Option<()>, CurveError> {
-        self.len = 0;
-        self.cubic = cubic;
-        if n > MAX_NODES {
-            return Err(CurveError::TooManyNodes);
-        }
-        for (i, slot) in self.nodes.iter_mut().enumerate().take(n) {
-            let p = at + i * NODE_LEN;
-            let (Some(x), Some(y)) = (r.i64(p), r.i32(p + 8)) else {
-                return Ok(None);
-            };
-            *slot = Node::new(Shift::from_raw_q40(x), y);
-        }
-        if cubic {
-            let base = at + n * NODE_LEN;
-            for (i, slot) in self.derivatives_q16.iter_mut().enumerate().take(n) {
-                let Some(d) = r.i64(base + i * DERIVATIVE_LEN) else {
-                    return Ok(None);
-                };
-                *slot = d;
-            }
-        }
-        self.len = n as u8; // ≤ 64
-        Curve::check(self.nodes(), cubic.then(|| self.derivatives_q16()))?;
-        Ok(Some(()))
-    }
-
-    fn fill(nodes: &[Node], derivatives: Option<&[i64]>) -> Self {
-        let mut t = Table {
-            len: 0,
-            cubic: derivatives.is_some(),
-            nodes: [Node::default(); MAX_NODES],
-            derivatives_q16: [0; MAX_NODES],
-        };
-        for (slot, n) in t.nodes.iter_mut().zip(nodes) {
-            *slot = *n;
-            t.len += 1;
-        }
-        if let Some(d) = derivatives {
-            for (slot, v) in t.derivatives_q16.iter_mut().zip(d) {
-                *slot = *v;
-            }
-        }
-        t
-    }
-
-    /// The nodes.
-    pub fn nodes(&self) -> &[Node] {
-        self.nodes.get(..usize::from(self.len)).unwrap_or(&[])
-    }
-
-    /// The derivatives (empty for a linear table).
-    pub fn derivatives_q16(&self) -> &[i64] {
-        if self.cubic {
-            self.derivatives_q16
-                .get(..usize::from(self.len))
-                .unwrap_or(&[])
-        } else {
-            &[]
-        }
-    }
-
-    /// Whether the table interpolates with monotone cubics.
-    pub fn is_cubic(&self) -> bool {
-        self.cubic
-    }
-
-    /// The curve this table describes.
-    pub fn curve(&self) -> Result<Curve, CurveError> {
-        let mut c = Curve::PLACEHOLDER;
-        self.build_curve(&mut c)?;
-        Ok(c)
-    }
-
-    /// [`Table::curve`] built in place (readers: no temporary curve).
-    pub(crate) fn build_curve(&self, curve: &mut Curve) -> Result<(), CurveError> {
-        curve.rebuild(self.nodes(), self.cubic.then(|| self.derivatives_q16()))
-    }
-}
-
 /// A unit serial: 1 to 16 printable ASCII characters.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -385,86 +309,54 @@ impl Serial {
             .and_then(|t| core::str::from_utf8(t).ok())
             .unwrap_or("")
     }
+
+    /// The 16 stored bytes (NUL padded).
+    pub const fn to_bytes(&self) -> [u8; 16] {
+        self.0
+    }
 }
 
-/// A validated calibration: what the firmware runs on.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+/// The identity of the calibration plan an image was made with: the
+/// first 8 bytes of the SHA-256 of the plan file's text (all zero when
+/// unknown, as for an image rewritten from format 1).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Calibration {
-    /// Which reader.
-    pub kind: ReaderKind,
-    /// Unit serial.
-    pub serial: Serial,
-    /// Reference clock of the counter, hertz.
-    pub reference_hz: u32,
-    /// Reciprocal gate length in sensor cycles; 0 when not configured.
-    pub gate_cycles: u32,
-    /// Plausibility window.
-    pub window: FaultWindow,
-    /// The unit's rest point.
-    pub rest: RestPoint,
-    /// The companion channel's rest point, when the unit has one.
-    pub companion_rest: Option<RestPoint>,
-    /// Temperature model ([`TemperatureModel::NONE`] when not fitted).
-    pub drift: TemperatureModel,
-    /// Scale of the output.
-    pub output: OutputScale,
-    /// Shift → value table (proximity, level).
-    pub curve: Option<Table>,
-    /// Level → volume table and its scale (level only). Its x axis is the
-    /// level in the curve's output units as `geometry::level_to_shift`
-    /// (level · 2^32 in the Q23.40 field).
-    pub volume: Option<(Table, OutputScale)>,
-    /// Metal parameters (metal only).
-    pub metal: Option<MetalParams>,
+pub struct PlanId(pub [u8; 8]);
+
+impl PlanId {
+    /// No plan recorded.
+    pub const UNKNOWN: PlanId = PlanId([0; 8]);
 }
 
 /// Checked little-endian reads from a byte slice; `None` past the end.
-struct Reader<'a>(&'a [u8]);
+#[derive(Clone, Copy)]
+struct Bytes<'a>(&'a [u8]);
 
-impl Reader<'_> {
-    fn bytes<const N: usize>(&self, at: usize) -> Option<[u8; N]> {
+impl Bytes<'_> {
+    fn get<const N: usize>(&self, at: usize) -> Option<[u8; N]> {
         let s = self.0.get(at..at.checked_add(N)?)?;
         let mut out = [0u8; N];
         out.copy_from_slice(s);
         Some(out)
     }
-    fn u8(&self, at: usize) -> Option<u8> {
-        self.0.get(at).copied()
+    fn u8(&self, span: Span) -> Option<u8> {
+        self.0.get(span.at).copied()
     }
-    fn u16(&self, at: usize) -> Option<u16> {
-        self.bytes(at).map(u16::from_le_bytes)
+    fn u16(&self, span: Span) -> Option<u16> {
+        self.get(span.at).map(u16::from_le_bytes)
     }
-    fn u32(&self, at: usize) -> Option<u32> {
-        self.bytes(at).map(u32::from_le_bytes)
+    fn u32(&self, span: Span) -> Option<u32> {
+        self.get(span.at).map(u32::from_le_bytes)
     }
-    fn i32(&self, at: usize) -> Option<i32> {
-        self.bytes(at).map(i32::from_le_bytes)
+    fn i32(&self, span: Span) -> Option<i32> {
+        self.get(span.at).map(i32::from_le_bytes)
     }
-    fn u64(&self, at: usize) -> Option<u64> {
-        self.bytes(at).map(u64::from_le_bytes)
+    fn u64(&self, span: Span) -> Option<u64> {
+        self.get(span.at).map(u64::from_le_bytes)
     }
-    fn i64(&self, at: usize) -> Option<i64> {
-        self.bytes(at).map(i64::from_le_bytes)
+    fn i64(&self, span: Span) -> Option<i64> {
+        self.get(span.at).map(i64::from_le_bytes)
     }
-}
-
-/// Checked little-endian writes into a byte slice.
-struct Writer<'a>(&'a mut [u8]);
-
-impl Writer<'_> {
-    fn put(&mut self, at: usize, b: &[u8]) -> Result<(), ImageError> {
-        let end = at.checked_add(b.len()).ok_or(ImageError::BufferTooSmall)?;
-        self.0
-            .get_mut(at..end)
-            .ok_or(ImageError::BufferTooSmall)?
-            .copy_from_slice(b);
-        Ok(())
-    }
-}
-
-fn table_len(nodes: usize, cubic: bool) -> usize {
-    nodes * (NODE_LEN + if cubic { DERIVATIVE_LEN } else { 0 })
 }
 
 fn unit_from(code: u8) -> Option<OutputUnit> {
@@ -488,301 +380,927 @@ fn scale_from(unit: u8, exp: u8) -> Option<OutputScale> {
     })
 }
 
-impl Calibration {
-    /// Parses and validates an image. `bytes` may be longer than the image
-    /// (a flash page): the header's length field decides.
-    pub fn parse(bytes: &[u8]) -> Result<Self, ImageError> {
+/// The header fields both formats share (bytes 0 to 103), checked: every
+/// field's own rule and the rules between header fields.
+#[derive(Clone, Copy, Debug)]
+#[cfg_attr(not(feature = "design"), allow(dead_code))]
+struct Header {
+    kind: ReaderKind,
+    serial: Serial,
+    reference_hz: u32,
+    gate_cycles: u32,
+    window: FaultWindow,
+    rest: RestPoint,
+    companion_rest: Option<RestPoint>,
+    drift: TemperatureModel,
+    output: OutputScale,
+    volume_output: Option<OutputScale>,
+    metal: Option<MetalParams>,
+}
+
+/// Framing: length, magic, version, stated length; returns (version,
+/// stated length).
+fn framing(bytes: &[u8]) -> Result<(u16, usize), ImageError> {
+    use ImageError::*;
+    let r = Bytes(bytes);
+    if bytes.len() < LENGTH.end() {
+        return Err(Truncated);
+    }
+    if r.get::<4>(layout::MAGIC.at) != Some(MAGIC) {
+        return Err(BadMagic);
+    }
+    let version = r.u16(layout::VERSION).ok_or(Truncated)?;
+    let len = usize::from(r.u16(LENGTH).ok_or(Truncated)?);
+    Ok((version, len))
+}
+
+/// The header's field checks, after the CRC.
+fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
+    use ImageError::*;
+    let t = |v: Option<u8>| v.ok_or(Truncated);
+    let flags = t(r.u8(FLAGS))?;
+    let kind = match r.u8(KIND) {
+        Some(1) => ReaderKind::Proximity,
+        Some(2) => ReaderKind::Level,
+        Some(3) => ReaderKind::Metal,
+        _ => return Err(OutOfRange(Field::ReaderKind)),
+    };
+    if flags & !KNOWN_FLAGS != 0 {
+        return Err(OutOfRange(Field::Flags));
+    }
+    let serial = Serial::from_bytes(r.get::<16>(SERIAL.at).ok_or(Truncated)?)
+        .ok_or(OutOfRange(Field::Serial))?;
+    let reference_hz = r.u32(REFERENCE_HZ).ok_or(Truncated)?;
+    if reference_hz == 0 {
+        return Err(OutOfRange(Field::ReferenceHz));
+    }
+    let gate_cycles = r.u32(GATE_CYCLES).ok_or(Truncated)?;
+    let window = FaultWindow::new(
+        reference_hz,
+        r.u32(WINDOW_MIN_HZ).ok_or(Truncated)?,
+        r.u32(WINDOW_MAX_HZ).ok_or(Truncated)?,
+        r.u32(WINDOW_MIN_CYCLES).ok_or(Truncated)?,
+    )
+    .map_err(BadWindow)?;
+    let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(r.u64(REST).ok_or(Truncated)?))
+        .map_err(|_| OutOfRange(Field::RestPoint))?;
+    let companion_raw = r.u64(COMPANION_REST).ok_or(Truncated)?;
+    let companion_rest = if flags & FLAG_COMPANION != 0 {
+        Some(
+            RestPoint::from_ratio(PeriodRatio::from_raw_q44(companion_raw))
+                .map_err(|_| OutOfRange(Field::CompanionRest))?,
+        )
+    } else if companion_raw != 0 {
+        return Err(OutOfRange(Field::CompanionRest));
+    } else {
+        None
+    };
+    let drift = TemperatureModel::new(
+        CentiCelsius(r.i32(DRIFT_REFERENCE).ok_or(Truncated)?),
+        r.i32(DRIFT_B1).ok_or(Truncated)?,
+        r.i32(DRIFT_B2).ok_or(Truncated)?,
+    )
+    .map_err(BadDrift)?;
+    let output = scale_from(t(r.u8(OUTPUT))?, t(r.get::<2>(OUTPUT.at).map(|b| b[1]))?)
+        .ok_or(OutOfRange(Field::Output))?;
+    let volume_raw = r.get::<2>(VOLUME_OUTPUT.at).ok_or(Truncated)?;
+    let curve_n = usize::from(t(r.u8(CURVE_NODES))?);
+    let volume_n = usize::from(t(r.u8(VOLUME_NODES))?);
+    // Kind against tables.
+    match kind {
+        ReaderKind::Metal if curve_n != 0 => return Err(OutOfRange(Field::CurveNodes)),
+        ReaderKind::Metal if flags & FLAG_CUBIC != 0 => return Err(OutOfRange(Field::Flags)),
+        _ => {}
+    }
+    let volume_output = if flags & FLAG_VOLUME != 0 {
+        if kind != ReaderKind::Level {
+            return Err(OutOfRange(Field::Flags));
+        }
+        Some(scale_from(volume_raw[0], volume_raw[1]).ok_or(OutOfRange(Field::VolumeOutput))?)
+    } else {
+        if volume_n != 0 || flags & FLAG_VOLUME_CUBIC != 0 {
+            return Err(OutOfRange(Field::VolumeNodes));
+        }
+        if volume_raw != [0, 0] {
+            return Err(OutOfRange(Field::VolumeOutput));
+        }
+        None
+    };
+    let metal = if kind == ReaderKind::Metal {
+        let p = MetalParams {
+            enter_ppb: r.u32(METAL_ENTER_PPB).ok_or(Truncated)?,
+            leave_ppb: r.u32(METAL_LEAVE_PPB).ok_or(Truncated)?,
+            enter_samples: r.u16(METAL_ENTER_SAMPLES).ok_or(Truncated)?,
+            leave_samples: r.u16(METAL_LEAVE_SAMPLES).ok_or(Truncated)?,
+            baseline_k: t(r.u8(METAL_BASELINE_K))?,
+            ring_drop: r.u16(METAL_RING_DROP).ok_or(Truncated)?,
+            relearn_readings: r.u32(METAL_RELEARN).ok_or(Truncated)?,
+        };
+        let reserved_ok = r.u8(RESERVED_93) == Some(0) && r.u32(RESERVED_100) == Some(0);
+        let valid = p.enter_ppb > 0
+            && p.leave_ppb < p.enter_ppb
+            && p.enter_samples > 0
+            && p.leave_samples > 0
+            && (1..=16).contains(&p.baseline_k);
+        if !valid {
+            return Err(OutOfRange(Field::Metal));
+        }
+        if !reserved_ok {
+            return Err(OutOfRange(Field::Reserved));
+        }
+        Some(p)
+    } else {
+        let raw = r.get::<24>(METAL_ENTER_PPB.at).ok_or(Truncated)?;
+        if raw.iter().any(|&b| b != 0) {
+            return Err(OutOfRange(Field::Metal));
+        }
+        None
+    };
+    Ok(Header {
+        kind,
+        serial,
+        reference_hz,
+        gate_cycles,
+        window,
+        rest,
+        companion_rest,
+        drift,
+        output,
+        volume_output,
+        metal,
+    })
+}
+
+/// A validated calibration image, read in place: the image's bytes
+/// (borrowed, normally from flash) and the few values the readers derive
+/// from them at start-up (the shift converter's reciprocal, the fault
+/// window's tick band).
+///
+/// Built only by [`Image::new`], which checks everything; readers are
+/// built from it ([`ProximityReader::new`](crate::reader::ProximityReader::new)
+/// and the others, [`Reader::new`](crate::reader::Reader::new)) and borrow
+/// its curves for as long as the bytes live (`'static` for an image in
+/// flash).
+///
+/// Size: 248 bytes on a 32-bit target (the crate docs, "Memory"); it is
+/// meant to live on the start-up stack only, while the readers are built.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Image<'a> {
+    bytes: &'a [u8],
+    kind: ReaderKind,
+    front: Front,
+    /// Level: the reference electrode's converter.
+    reference: Option<ShiftConverter>,
+    output: OutputScale,
+    curve: Option<CurveRef<'a>>,
+    volume: Option<(CurveRef<'a>, OutputScale)>,
+    metal: Option<MetalParams>,
+}
+
+impl<'a> Image<'a> {
+    /// Validates an image in place. `bytes` may be longer than the image
+    /// (a flash page): the header's length field decides. `bytes` must
+    /// start at a 4-byte aligned address.
+    ///
+    /// Order of the checks (the first failing one is reported): length of
+    /// the framing, magic, version, stated length against the node
+    /// counts and the bytes given, alignment, CRC-32, then each header
+    /// field, the consistency between fields and kind, the tables (nodes
+    /// and every segment's constants), and what the readers derive (shift
+    /// converter, companion ratio, metal detector).
+    ///
+    /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
+    /// image byte with the byte table), a few hundred per curve segment,
+    /// and a few thousand for the header and the converters' checks
+    /// (about 24 000 instructions for a 32-node cubic image of 1 144 bytes,
+    /// 9 400 for the five-node demo image). Stack: a few hundred bytes
+    /// besides the returned 248-byte `Image`.
+    pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
         use ImageError::*;
-        let r = Reader(bytes);
-        let t = |v: Option<u8>| v.ok_or(Truncated);
-        if bytes.len() < HEADER_LEN + CRC_LEN {
+        let (version, len) = framing(bytes)?;
+        match version {
+            VERSION => {}
+            VERSION_1 => return Err(FormatOne),
+            _ => return Err(UnknownVersion),
+        }
+        if bytes.len() < HEADER_LEN + CRC_LEN || len > bytes.len() {
             return Err(Truncated);
         }
-        if r.bytes::<4>(0) != Some(MAGIC) {
-            return Err(BadMagic);
-        }
-        if r.u16(4) != Some(VERSION) {
-            return Err(UnknownVersion);
-        }
-        let len = usize::from(r.u16(6).ok_or(Truncated)?);
-        if len > bytes.len() {
-            return Err(Truncated);
-        }
-        let flags = t(r.u8(9))?;
-        let curve_n = usize::from(t(r.u8(10))?);
-        let volume_n = usize::from(t(r.u8(11))?);
+        let r = Bytes(bytes);
+        let flags = r.u8(FLAGS).ok_or(Truncated)?;
+        let curve_n = usize::from(r.u8(CURVE_NODES).ok_or(Truncated)?);
+        let volume_n = usize::from(r.u8(VOLUME_NODES).ok_or(Truncated)?);
         if curve_n > MAX_NODES {
             return Err(OutOfRange(Field::CurveNodes));
         }
         if volume_n > MAX_NODES {
             return Err(OutOfRange(Field::VolumeNodes));
         }
-        let expected = HEADER_LEN
-            + table_len(curve_n, flags & FLAG_CUBIC != 0)
-            + table_len(volume_n, flags & FLAG_VOLUME_CUBIC != 0)
-            + CRC_LEN;
+        let curve_len = table_len(curve_n, flags & FLAG_CUBIC != 0);
+        let expected =
+            HEADER_LEN + curve_len + table_len(volume_n, flags & FLAG_VOLUME_CUBIC != 0) + CRC_LEN;
         if len != expected {
             return Err(LengthMismatch);
         }
-        let body = bytes.get(..len - CRC_LEN).ok_or(Truncated)?;
-        if r.u32(len - CRC_LEN) != Some(CRC32.checksum(body)) {
+        let bytes = bytes.get(..len).ok_or(Truncated)?;
+        let words: &[u32] = bytemuck::try_cast_slice(bytes).map_err(|_| Misaligned)?;
+        // The CRC by words (the length is a whole number of words).
+        let (body, stored) = words.split_at(words.len().saturating_sub(1));
+        if stored.first().map(|w| u32::from_le(*w)) != Some(crc::crc32_words(body)) {
             return Err(BadCrc);
         }
-        // Fields.
-        let kind = match r.u8(8) {
-            Some(1) => ReaderKind::Proximity,
-            Some(2) => ReaderKind::Level,
-            Some(3) => ReaderKind::Metal,
-            _ => return Err(OutOfRange(Field::ReaderKind)),
+        let h = header(Bytes(bytes))?;
+        if r.i64(CALIBRATED_AT).is_none() {
+            return Err(Truncated);
+        }
+        // Tables: nodes, then segments, each table after the last.
+        let table = |at: usize, n: usize, cubic: bool| {
+            let w = words.get(at / 4..).unwrap_or(&[]);
+            let segs = w.get(n * 3..).unwrap_or(&[]);
+            CurveRef::from_words(w, segs, n, cubic)
         };
-        if flags & !KNOWN_FLAGS != 0 {
-            return Err(OutOfRange(Field::Flags));
-        }
-        let serial = Serial::from_bytes(r.bytes::<16>(12).ok_or(Truncated)?)
-            .ok_or(OutOfRange(Field::Serial))?;
-        let reference_hz = r.u32(28).ok_or(Truncated)?;
-        if reference_hz == 0 {
-            return Err(OutOfRange(Field::ReferenceHz));
-        }
-        let gate_cycles = r.u32(32).ok_or(Truncated)?;
-        let window = FaultWindow::new(
-            reference_hz,
-            r.u32(36).ok_or(Truncated)?,
-            r.u32(40).ok_or(Truncated)?,
-            r.u32(44).ok_or(Truncated)?,
+        let curve = match h.kind {
+            ReaderKind::Metal => None,
+            _ => Some(table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?),
+        };
+        let volume = match h.volume_output {
+            Some(scale) => {
+                let v = table(
+                    HEADER_LEN + curve_len,
+                    volume_n,
+                    flags & FLAG_VOLUME_CUBIC != 0,
+                )
+                .map_err(BadVolume)?;
+                if !v.is_rising() {
+                    return Err(BadVolume(CurveError::NotMonotone));
+                }
+                Some((v, scale))
+            }
+            None => None,
+        };
+        Self::from_parts(bytes, &h, curve, volume)
+    }
+
+    /// What the readers derive, checked here so that every reader builds.
+    fn from_parts(
+        bytes: &'a [u8],
+        h: &Header,
+        curve: Option<CurveRef<'a>>,
+        volume: Option<(CurveRef<'a>, OutputScale)>,
+    ) -> Result<Self, ImageError> {
+        use ImageError::*;
+        let gate = (h.gate_cycles > 0).then_some(h.gate_cycles);
+        let r = Bytes(bytes);
+        let pair = |a: Span, b: Span| (r.u32(a).unwrap_or(0), r.u32(b).unwrap_or(0));
+        // The converters from their stored reciprocals, checked by
+        // multiplies: no 128-bit division at start-up.
+        let converter = ShiftConverter::with_reciprocals(
+            h.rest,
+            Gating::Reciprocal,
+            gate,
+            pair(REST_RECIPROCAL, GATE_RECIPROCAL),
         )
-        .map_err(BadWindow)?;
-        let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(r.u64(48).ok_or(Truncated)?))
-            .map_err(|_| OutOfRange(Field::RestPoint))?;
-        let companion_raw = r.u64(56).ok_or(Truncated)?;
-        let companion_rest = if flags & FLAG_COMPANION != 0 {
-            Some(
-                RestPoint::from_ratio(PeriodRatio::from_raw_q44(companion_raw))
+        .map_err(BadGate)?;
+        let companion_reciprocals = pair(COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL);
+        // Proximity and metal: a companion coil (ratiometric shift, its
+        // ratio derived here: one division). Level: a reference electrode
+        // with its own converter.
+        let (companion, reference) = match (h.kind, h.companion_rest) {
+            (ReaderKind::Level, Some(c)) => (
+                None,
+                Some(
+                    ShiftConverter::with_reciprocals(
+                        c,
+                        Gating::Reciprocal,
+                        gate,
+                        companion_reciprocals,
+                    )
                     .map_err(|_| OutOfRange(Field::CompanionRest))?,
-            )
-        } else if companion_raw != 0 {
-            return Err(OutOfRange(Field::CompanionRest));
-        } else {
-            None
+                ),
+            ),
+            _ if companion_reciprocals != (0, 0) => {
+                return Err(OutOfRange(Field::CompanionRest));
+            }
+            (_, None) => (None, None),
+            (_, Some(c)) => (
+                Some(Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?),
+                None,
+            ),
         };
-        let drift = TemperatureModel::new(
-            CentiCelsius(r.i32(64).ok_or(Truncated)?),
-            r.i32(68).ok_or(Truncated)?,
-            r.i32(72).ok_or(Truncated)?,
-        )
-        .map_err(BadDrift)?;
-        let output = scale_from(t(r.u8(76))?, t(r.u8(77))?).ok_or(OutOfRange(Field::Output))?;
-        let volume_unit = (t(r.u8(78))?, t(r.u8(79))?);
-        let metal_raw = r.bytes::<24>(80).ok_or(Truncated)?;
-
-        // Tables and kind-specific parts, read into the calibration in
-        // place: a table is 1.5 KB, and the firmware's stack should hold
-        // each once.
-        let mut cal = Calibration {
-            kind,
-            serial,
-            reference_hz,
-            gate_cycles,
-            window,
-            rest,
-            companion_rest,
-            drift,
-            output,
-            curve: None,
-            volume: None,
-            metal: None,
-        };
-        let tables_at = HEADER_LEN;
-        match (kind, curve_n) {
-            (ReaderKind::Metal, 0) => {}
-            (ReaderKind::Metal, _) => return Err(OutOfRange(Field::CurveNodes)),
-            _ => {
-                cal.curve
-                    .insert(Table::PLACEHOLDER)
-                    .read_into(&r, tables_at, curve_n, flags & FLAG_CUBIC != 0)
-                    .map_err(BadCurve)?
-                    .ok_or(Truncated)?;
-            }
+        if h.metal.is_some_and(|p| !crate::reader::metal_builds(&p)) {
+            return Err(OutOfRange(Field::Metal));
         }
-        if kind == ReaderKind::Metal && flags & FLAG_CUBIC != 0 {
-            return Err(OutOfRange(Field::Flags));
-        }
-        let volume_at = tables_at + table_len(curve_n, flags & FLAG_CUBIC != 0);
-        if flags & FLAG_VOLUME != 0 {
-            if kind != ReaderKind::Level {
-                return Err(OutOfRange(Field::Flags));
-            }
-            let (table, _) = cal.volume.insert((Table::PLACEHOLDER, output));
-            table
-                .read_into(&r, volume_at, volume_n, flags & FLAG_VOLUME_CUBIC != 0)
-                .map_err(BadVolume)?
-                .ok_or(Truncated)?;
-            let scale =
-                scale_from(volume_unit.0, volume_unit.1).ok_or(OutOfRange(Field::VolumeOutput))?;
-            if let Some((_, s)) = cal.volume.as_mut() {
-                *s = scale;
-            }
-        } else {
-            if volume_n != 0 || flags & FLAG_VOLUME_CUBIC != 0 {
-                return Err(OutOfRange(Field::VolumeNodes));
-            }
-            if volume_unit != (0, 0) {
-                return Err(OutOfRange(Field::VolumeOutput));
-            }
-        }
-        let metal = if kind == ReaderKind::Metal {
-            let m = Reader(&metal_raw);
-            let p = MetalParams {
-                enter_ppb: m.u32(0).ok_or(Truncated)?,
-                leave_ppb: m.u32(4).ok_or(Truncated)?,
-                enter_samples: m.u16(8).ok_or(Truncated)?,
-                leave_samples: m.u16(10).ok_or(Truncated)?,
-                baseline_k: m.u8(12).ok_or(Truncated)?,
-                ring_drop: m.u16(14).ok_or(Truncated)?,
-                relearn_readings: m.u32(16).ok_or(Truncated)?,
-            };
-            let reserved_ok = m.u8(13) == Some(0) && m.u32(20) == Some(0);
-            let valid = p.enter_ppb > 0
-                && p.leave_ppb < p.enter_ppb
-                && p.enter_samples > 0
-                && p.leave_samples > 0
-                && (1..=16).contains(&p.baseline_k);
-            if !valid {
-                return Err(OutOfRange(Field::Metal));
-            }
-            if !reserved_ok {
-                return Err(OutOfRange(Field::Reserved));
-            }
-            Some(p)
-        } else {
-            if metal_raw.iter().any(|&b| b != 0) {
-                return Err(OutOfRange(Field::Metal));
-            }
-            None
-        };
-        cal.metal = metal;
-        Ok(cal)
+        Ok(Image {
+            bytes,
+            kind: h.kind,
+            front: Front::new(h.window, converter, companion, h.drift, gate),
+            reference,
+            output: h.output,
+            curve,
+            volume,
+            metal: h.metal,
+        })
     }
 
-    /// The configured reciprocal gate length in sensor cycles, `None` when
-    /// the image has none (stored as 0).
+    /// The image's bytes (exactly its stated length).
+    pub fn bytes(&self) -> &'a [u8] {
+        self.bytes
+    }
+
+    /// Which reader the unit runs.
+    pub fn kind(&self) -> ReaderKind {
+        self.kind
+    }
+
+    /// A header field's bytes (the [`layout`] spans).
+    fn field<const N: usize>(&self, span: Span) -> [u8; N] {
+        Bytes(self.bytes).get(span.at).unwrap_or([0; N])
+    }
+
+    /// The unit serial.
+    pub fn serial(&self) -> &'a str {
+        let raw = self.bytes.get(SERIAL.at..SERIAL.end()).unwrap_or(&[]);
+        let len = raw.iter().position(|&c| c == 0).unwrap_or(raw.len());
+        raw.get(..len)
+            .and_then(|t| core::str::from_utf8(t).ok())
+            .unwrap_or("")
+    }
+
+    /// Reference clock of the counter, hertz.
+    pub fn reference_hz(&self) -> u32 {
+        u32::from_le_bytes(self.field(REFERENCE_HZ))
+    }
+
+    /// The configured reciprocal gate in sensor cycles, `None` when the
+    /// image has none (stored as 0).
     pub fn gate(&self) -> Option<u32> {
-        (self.gate_cycles > 0).then_some(self.gate_cycles)
+        self.front.gate()
     }
 
-    /// Length of this calibration's image in bytes.
-    pub fn encoded_len(&self) -> usize {
-        HEADER_LEN
-            + self
-                .curve
-                .map_or(0, |t| table_len(t.nodes().len(), t.is_cubic()))
-            + self
-                .volume
-                .map_or(0, |(t, _)| table_len(t.nodes().len(), t.is_cubic()))
-            + CRC_LEN
+    /// The plausibility window.
+    pub fn window(&self) -> FaultWindow {
+        self.front.window()
     }
 
-    /// Writes the image into `out`; returns its length. The result always
-    /// parses back to an equal calibration when `self` is consistent (the
-    /// encoder checks the same rules as the parser by parsing its output).
-    pub fn encode(&self, out: &mut [u8]) -> Result<usize, ImageError> {
-        let len = self.encoded_len();
-        let len16 = u16::try_from(len).map_err(|_| ImageError::LengthMismatch)?;
-        let buf = out.get_mut(..len).ok_or(ImageError::BufferTooSmall)?;
-        buf.fill(0);
-        let mut w = Writer(buf);
-        let mut flags = 0u8;
-        let curve_n = self.curve.map_or(0, |t| t.nodes().len());
-        let volume_n = self.volume.map_or(0, |(t, _)| t.nodes().len());
-        if self.curve.is_some_and(|t| t.is_cubic()) {
-            flags |= FLAG_CUBIC;
-        }
-        if self.companion_rest.is_some() {
-            flags |= FLAG_COMPANION;
-        }
-        if let Some((t, _)) = self.volume {
-            flags |= FLAG_VOLUME;
-            if t.is_cubic() {
-                flags |= FLAG_VOLUME_CUBIC;
-            }
-        }
-        let n8 = |n: usize| u8::try_from(n).map_err(|_| ImageError::OutOfRange(Field::CurveNodes));
-        w.put(0, &MAGIC)?;
-        w.put(4, &VERSION.to_le_bytes())?;
-        w.put(6, &len16.to_le_bytes())?;
-        w.put(8, &[self.kind as u8, flags, n8(curve_n)?, n8(volume_n)?])?;
-        w.put(12, &self.serial.0)?;
-        w.put(28, &self.reference_hz.to_le_bytes())?;
-        w.put(32, &self.gate_cycles.to_le_bytes())?;
-        w.put(36, &self.window.min_hz().to_le_bytes())?;
-        w.put(40, &self.window.max_hz().to_le_bytes())?;
-        w.put(44, &self.window.min_cycles().to_le_bytes())?;
-        w.put(48, &self.rest.ratio().raw_q44().to_le_bytes())?;
-        w.put(
-            56,
-            &self
-                .companion_rest
-                .map_or(0, |r| r.ratio().raw_q44())
-                .to_le_bytes(),
-        )?;
-        w.put(64, &self.drift.reference().0.to_le_bytes())?;
-        w.put(68, &self.drift.b1_raw().to_le_bytes())?;
-        w.put(72, &self.drift.b2_raw().to_le_bytes())?;
-        w.put(
-            76,
-            &[
-                self.output.unit as u8,
-                self.output.decimal_exponent.to_le_bytes()[0],
-            ],
-        )?;
-        if let Some((_, s)) = self.volume {
-            w.put(78, &[s.unit as u8, s.decimal_exponent.to_le_bytes()[0]])?;
-        }
-        if let Some(m) = self.metal {
-            w.put(80, &m.enter_ppb.to_le_bytes())?;
-            w.put(84, &m.leave_ppb.to_le_bytes())?;
-            w.put(88, &m.enter_samples.to_le_bytes())?;
-            w.put(90, &m.leave_samples.to_le_bytes())?;
-            w.put(92, &[m.baseline_k, 0])?;
-            w.put(94, &m.ring_drop.to_le_bytes())?;
-            w.put(96, &m.relearn_readings.to_le_bytes())?;
-        }
-        let mut at = HEADER_LEN;
-        for table in [self.curve, self.volume.map(|(t, _)| t)]
-            .into_iter()
+    /// The unit's rest point.
+    pub fn rest(&self) -> RestPoint {
+        self.front.converter().rest()
+    }
+
+    /// The companion channel's (level: the reference electrode's) rest
+    /// point, when the unit has one.
+    pub fn companion_rest(&self) -> Option<RestPoint> {
+        let raw = u64::from_le_bytes(self.field(COMPANION_REST));
+        (raw != 0)
+            .then(|| RestPoint::from_ratio(PeriodRatio::from_raw_q44(raw)).ok())
             .flatten()
-        {
-            for n in table.nodes() {
-                w.put(at, &n.shift.raw_q40().to_le_bytes())?;
-                w.put(at + 8, &n.value.to_le_bytes())?;
-                at += NODE_LEN;
-            }
-            for d in table.derivatives_q16() {
-                w.put(at, &d.to_le_bytes())?;
-                at += DERIVATIVE_LEN;
-            }
-        }
-        let crc = CRC32.checksum(w.0.get(..len - CRC_LEN).ok_or(ImageError::BufferTooSmall)?);
-        w.put(len - CRC_LEN, &crc.to_le_bytes())?;
-        // The encoder holds itself to the parser's rules.
-        let back = Self::parse(w.0)?;
-        if back != *self {
-            return Err(ImageError::LengthMismatch);
-        }
-        Ok(len)
+    }
+
+    /// The temperature model ([`TemperatureModel::NONE`] when not fitted).
+    pub fn drift(&self) -> TemperatureModel {
+        self.front.drift()
+    }
+
+    /// Scale of the output (gap, level).
+    pub fn output(&self) -> OutputScale {
+        self.output
+    }
+
+    /// The shift → value curve (proximity, level).
+    pub fn curve(&self) -> Option<CurveRef<'a>> {
+        self.curve
+    }
+
+    /// The level → volume table and its scale (level only): its x axis is
+    /// the level in the curve's output units, times 2^32, in the Q23.40
+    /// field.
+    pub fn volume(&self) -> Option<(CurveRef<'a>, OutputScale)> {
+        self.volume
+    }
+
+    /// Metal parameters (metal only).
+    pub fn metal(&self) -> Option<MetalParams> {
+        self.metal
+    }
+
+    /// Calibration time, UTC, Unix seconds.
+    pub fn calibrated_at(&self) -> i64 {
+        i64::from_le_bytes(self.field(CALIBRATED_AT))
+    }
+
+    /// The calibration plan's identity.
+    pub fn plan_id(&self) -> PlanId {
+        PlanId(self.field(PLAN_ID))
+    }
+
+    /// The image's stored CRC-32.
+    pub fn crc(&self) -> u32 {
+        let at = self.bytes.len().saturating_sub(CRC_LEN);
+        u32::from_le_bytes(Bytes(self.bytes).get(at).unwrap_or([0; 4]))
+    }
+
+    pub(crate) fn front(&self) -> &Front {
+        &self.front
+    }
+
+    pub(crate) fn reference(&self) -> Option<ShiftConverter> {
+        self.reference
     }
 }
 
-/// Calibrations for examples and tests (the demo scenario's proximity
-/// unit). Not part of the API contract.
-#[doc(hidden)]
-pub mod tests_support {
+/// Embeds a calibration image file at a 4-byte aligned address, as
+/// [`Image::new`] needs it: `static IMAGE: &[u8] =
+/// lc_core::include_image!("unit.lcim");` (the path as for
+/// `include_bytes!`). Expands to a `&'static [u8]`.
+#[macro_export]
+macro_rules! include_image {
+    ($path:expr) => {{
+        #[repr(C, align(4))]
+        struct Aligned<T: ?Sized>(T);
+        static ALIGNED: &Aligned<[u8]> = &Aligned(*include_bytes!($path));
+        &ALIGNED.0
+    }};
+}
+
+/// Words in an [`ImageBuf`].
+const BUF_WORDS: usize = MAX_IMAGE_LEN.div_ceil(4);
+
+/// An image copied into an aligned buffer of the largest image's size
+/// (4 180 bytes): for an image read from external storage, a radio or a
+/// file, and for the host. Firmware with the image in flash does not need
+/// it.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ImageBuf {
+    words: [u32; BUF_WORDS],
+    len: usize,
+}
+
+impl ImageBuf {
+    /// A copy of `bytes` (an image, not validated here);
+    /// [`ImageError::BufferTooSmall`] when longer than [`MAX_IMAGE_LEN`].
+    pub fn from_bytes(bytes: &[u8]) -> Result<Self, ImageError> {
+        let mut b = ImageBuf {
+            words: [0; BUF_WORDS],
+            len: bytes.len(),
+        };
+        bytemuck::cast_slice_mut::<u32, u8>(&mut b.words)
+            .get_mut(..bytes.len())
+            .ok_or(ImageError::BufferTooSmall)?
+            .copy_from_slice(bytes);
+        Ok(b)
+    }
+
+    /// The bytes held.
+    pub fn as_bytes(&self) -> &[u8] {
+        bytemuck::cast_slice::<u32, u8>(&self.words)
+            .get(..self.len)
+            .unwrap_or(&[])
+    }
+
+    /// The bytes held, to edit (tests, fault injection).
+    pub fn as_bytes_mut(&mut self) -> &mut [u8] {
+        bytemuck::cast_slice_mut::<u32, u8>(&mut self.words)
+            .get_mut(..self.len)
+            .unwrap_or(&mut [])
+    }
+
+    /// The validated image ([`Image::new`] on the bytes held).
+    pub fn image(&self) -> Result<Image<'_>, ImageError> {
+        Image::new(self.as_bytes())
+    }
+}
+
+#[cfg(feature = "design")]
+pub use host::{Calibration, Table};
+
+/// The host's side of the image: owned calibrations, the encoder (format
+/// 2) and the reader of both formats. Design feature.
+#[cfg(feature = "design")]
+mod host {
+    use super::*;
+    use crate::curve::{Curve, Node};
+    use crate::shift::Shift;
+
+    /// A table as the host builds it: nodes, and the curve with its
+    /// segment constants (derived from node derivatives when cubic).
+    #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+    #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+    pub struct Table {
+        len: u8,
+        nodes: [Node; MAX_NODES],
+        curve: Curve,
+    }
+
+    impl Table {
+        /// A linear table from nodes (validated).
+        pub fn linear(nodes: &[Node]) -> Result<Self, CurveError> {
+            Ok(Self::of(nodes, Curve::linear(nodes)?))
+        }
+
+        /// A monotone cubic table from nodes and their derivatives dy/ds in
+        /// Q47.16 (validated); the image stores the segment constants
+        /// derived from them.
+        pub fn cubic(nodes: &[Node], derivatives_q16: &[i64]) -> Result<Self, CurveError> {
+            Ok(Self::of(
+                nodes,
+                Curve::monotone_cubic(nodes, derivatives_q16)?,
+            ))
+        }
+
+        /// The table of a curve.
+        pub fn from_curve(curve: Curve) -> Self {
+            let mut nodes = [Node::default(); MAX_NODES];
+            for (slot, n) in nodes.iter_mut().zip(curve.view().nodes()) {
+                *slot = n;
+            }
+            Self {
+                len: curve.len() as u8, // ≤ 64
+                nodes,
+                curve,
+            }
+        }
+
+        fn of(nodes: &[Node], curve: Curve) -> Self {
+            let mut t = Self {
+                len: nodes.len() as u8, // ≤ 64 after validation
+                nodes: [Node::default(); MAX_NODES],
+                curve,
+            };
+            for (slot, n) in t.nodes.iter_mut().zip(nodes) {
+                *slot = *n;
+            }
+            t
+        }
+
+        /// The nodes.
+        pub fn nodes(&self) -> &[Node] {
+            self.nodes.get(..usize::from(self.len)).unwrap_or(&[])
+        }
+
+        /// Whether the table interpolates with monotone cubics.
+        pub fn is_cubic(&self) -> bool {
+            self.curve.interpolation() == crate::curve::Interpolation::MonotoneCubic
+        }
+
+        /// The curve this table describes.
+        pub fn curve(&self) -> &Curve {
+            &self.curve
+        }
+    }
+
+    /// A calibration as the host builds and edits it: what an image holds,
+    /// owned (about 3 KB). [`Calibration::encode`] writes it in format 2;
+    /// [`Calibration::parse`] reads either format.
+    #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+    #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+    pub struct Calibration {
+        /// Which reader.
+        pub kind: ReaderKind,
+        /// Unit serial.
+        pub serial: Serial,
+        /// Reference clock of the counter, hertz.
+        pub reference_hz: u32,
+        /// Reciprocal gate length in sensor cycles; 0 when not configured.
+        pub gate_cycles: u32,
+        /// Plausibility window.
+        pub window: FaultWindow,
+        /// The unit's rest point.
+        pub rest: RestPoint,
+        /// The companion channel's rest point, when the unit has one.
+        pub companion_rest: Option<RestPoint>,
+        /// Temperature model ([`TemperatureModel::NONE`] when not fitted).
+        pub drift: TemperatureModel,
+        /// Scale of the output.
+        pub output: OutputScale,
+        /// Shift → value table (proximity, level).
+        pub curve: Option<Table>,
+        /// Level → volume table and its scale (level only). Its x axis is
+        /// the level in the curve's output units as
+        /// `geometry::level_to_shift` (level · 2^32 in the Q23.40 field).
+        pub volume: Option<(Table, OutputScale)>,
+        /// Metal parameters (metal only).
+        pub metal: Option<MetalParams>,
+        /// Calibration time, UTC, Unix seconds (0 when unknown).
+        pub calibrated_at: i64,
+        /// The calibration plan's identity.
+        pub plan_id: PlanId,
+    }
+
+    /// Checked little-endian writes into a byte slice.
+    struct Writer<'a>(&'a mut [u8]);
+
+    impl Writer<'_> {
+        fn put(&mut self, at: usize, b: &[u8]) -> Result<(), ImageError> {
+            let end = at.checked_add(b.len()).ok_or(ImageError::BufferTooSmall)?;
+            self.0
+                .get_mut(at..end)
+                .ok_or(ImageError::BufferTooSmall)?
+                .copy_from_slice(b);
+            Ok(())
+        }
+    }
+
+    impl Calibration {
+        /// The configured reciprocal gate length in sensor cycles, `None`
+        /// when the image has none (stored as 0).
+        pub fn gate(&self) -> Option<u32> {
+            (self.gate_cycles > 0).then_some(self.gate_cycles)
+        }
+
+        /// Length of this calibration's image in bytes (format 2).
+        pub fn encoded_len(&self) -> usize {
+            HEADER_LEN
+                + self
+                    .curve
+                    .map_or(0, |t| table_len(t.nodes().len(), t.is_cubic()))
+                + self
+                    .volume
+                    .map_or(0, |(t, _)| table_len(t.nodes().len(), t.is_cubic()))
+                + CRC_LEN
+        }
+
+        /// The image's format version (1 or 2) from its framing, without
+        /// validating anything else.
+        pub fn format_version(bytes: &[u8]) -> Result<u16, ImageError> {
+            framing(bytes).map(|(v, _)| v)
+        }
+
+        /// Parses and validates an image of either format (format 1 by the
+        /// rules it was written with, its cubic tables' segment constants
+        /// derived here from the stored node derivatives). `bytes` may be
+        /// longer than the image and need not be aligned.
+        pub fn parse(bytes: &[u8]) -> Result<Self, ImageError> {
+            match framing(bytes)?.0 {
+                VERSION => {
+                    let buf = ImageBuf::from_bytes(bytes.get(..MAX_IMAGE_LEN).unwrap_or(bytes))?;
+                    let image = buf.image()?;
+                    Ok(Self::from_image(&image))
+                }
+                VERSION_1 => Self::parse_v1(bytes),
+                _ => Err(ImageError::UnknownVersion),
+            }
+        }
+
+        /// The calibration a validated image holds.
+        pub fn from_image(image: &Image<'_>) -> Self {
+            let r = Bytes(image.bytes());
+            let owned = |c: CurveRef<'_>| {
+                let (n, s) = c.words();
+                // Validated already: the same words validate again.
+                Curve::from_words(
+                    n,
+                    s,
+                    c.len(),
+                    c.interpolation() == crate::curve::Interpolation::MonotoneCubic,
+                )
+                .map(Table::from_curve)
+                .ok()
+            };
+            Calibration {
+                kind: image.kind(),
+                serial: Serial::from_bytes(r.get::<16>(SERIAL.at).unwrap_or([0; 16]))
+                    .unwrap_or(Serial([b'?'; 16])),
+                reference_hz: image.reference_hz(),
+                gate_cycles: image.gate().unwrap_or(0),
+                window: image.window(),
+                rest: image.rest(),
+                companion_rest: image.companion_rest(),
+                drift: image.drift(),
+                output: image.output(),
+                curve: image.curve().and_then(owned),
+                volume: image.volume().and_then(|(c, s)| owned(c).map(|t| (t, s))),
+                metal: image.metal(),
+                calibrated_at: image.calibrated_at(),
+                plan_id: image.plan_id(),
+            }
+        }
+
+        fn parse_v1(bytes: &[u8]) -> Result<Self, ImageError> {
+            use ImageError::*;
+            let (_, len) = framing(bytes)?;
+            if bytes.len() < HEADER_LEN_V1 + CRC_LEN || len > bytes.len() {
+                return Err(Truncated);
+            }
+            let r = Bytes(bytes);
+            let flags = r.u8(FLAGS).ok_or(Truncated)?;
+            let curve_n = usize::from(r.u8(CURVE_NODES).ok_or(Truncated)?);
+            let volume_n = usize::from(r.u8(VOLUME_NODES).ok_or(Truncated)?);
+            if curve_n > MAX_NODES {
+                return Err(OutOfRange(Field::CurveNodes));
+            }
+            if volume_n > MAX_NODES {
+                return Err(OutOfRange(Field::VolumeNodes));
+            }
+            let curve_len = table_len_v1(curve_n, flags & FLAG_CUBIC != 0);
+            let expected = HEADER_LEN_V1
+                + curve_len
+                + table_len_v1(volume_n, flags & FLAG_VOLUME_CUBIC != 0)
+                + CRC_LEN;
+            if len != expected {
+                return Err(LengthMismatch);
+            }
+            let body = bytes.get(..len - CRC_LEN).ok_or(Truncated)?;
+            if r.u32(Span {
+                at: len - CRC_LEN,
+                len: CRC_LEN,
+            }) != Some(crc32(body))
+            {
+                return Err(BadCrc);
+            }
+            let h = header(Bytes(bytes))?;
+            let read = |at: usize, n: usize, cubic: bool| -> Result<Table, CurveError> {
+                let mut nodes = [Node::default(); MAX_NODES];
+                let mut ders = [0i64; MAX_NODES];
+                for (i, slot) in nodes.iter_mut().enumerate().take(n) {
+                    let p = at + i * NODE_LEN;
+                    let x = r.i64(Span { at: p, len: 8 }).unwrap_or(0);
+                    let y = r.i32(Span { at: p + 8, len: 4 }).unwrap_or(0);
+                    *slot = Node::new(Shift::from_raw_q40(x), y);
+                }
+                let nodes = nodes.get(..n).unwrap_or(&[]);
+                if cubic {
+                    let base = at + n * NODE_LEN;
+                    for (i, slot) in ders.iter_mut().enumerate().take(n) {
+                        *slot = r
+                            .i64(Span {
+                                at: base + 8 * i,
+                                len: 8,
+                            })
+                            .unwrap_or(0);
+                    }
+                    Table::cubic(nodes, ders.get(..n).unwrap_or(&[]))
+                } else {
+                    Table::linear(nodes)
+                }
+            };
+            let curve = match h.kind {
+                ReaderKind::Metal => None,
+                _ => Some(read(HEADER_LEN_V1, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?),
+            };
+            let volume = match h.volume_output {
+                Some(scale) => {
+                    let t = read(
+                        HEADER_LEN_V1 + curve_len,
+                        volume_n,
+                        flags & FLAG_VOLUME_CUBIC != 0,
+                    )
+                    .map_err(BadVolume)?;
+                    if !t.curve().is_rising() {
+                        return Err(BadVolume(CurveError::NotMonotone));
+                    }
+                    Some((t, scale))
+                }
+                None => None,
+            };
+            Ok(Calibration {
+                kind: h.kind,
+                serial: h.serial,
+                reference_hz: h.reference_hz,
+                gate_cycles: h.gate_cycles,
+                window: h.window,
+                rest: h.rest,
+                companion_rest: h.companion_rest,
+                drift: h.drift,
+                output: h.output,
+                curve,
+                volume,
+                metal: h.metal,
+                calibrated_at: 0,
+                plan_id: PlanId::UNKNOWN,
+            })
+        }
+
+        /// Writes the image (format 2) into `out`; returns its length. The
+        /// result always validates ([`Image::new`]) and parses back to an
+        /// equal calibration when `self` is consistent: the encoder checks
+        /// its output with the firmware's own validation.
+        pub fn encode(&self, out: &mut [u8]) -> Result<usize, ImageError> {
+            let len = self.encoded_len();
+            let len16 = u16::try_from(len).map_err(|_| ImageError::LengthMismatch)?;
+            let buf = out.get_mut(..len).ok_or(ImageError::BufferTooSmall)?;
+            buf.fill(0);
+            let mut w = Writer(buf);
+            let mut flags = 0u8;
+            let curve_n = self.curve.map_or(0, |t| t.nodes().len());
+            let volume_n = self.volume.map_or(0, |(t, _)| t.nodes().len());
+            if self.curve.is_some_and(|t| t.is_cubic()) {
+                flags |= FLAG_CUBIC;
+            }
+            if self.companion_rest.is_some() {
+                flags |= FLAG_COMPANION;
+            }
+            if let Some((t, _)) = self.volume {
+                flags |= FLAG_VOLUME;
+                if t.is_cubic() {
+                    flags |= FLAG_VOLUME_CUBIC;
+                }
+            }
+            let n8 =
+                |n: usize| u8::try_from(n).map_err(|_| ImageError::OutOfRange(Field::CurveNodes));
+            w.put(layout::MAGIC.at, &MAGIC)?;
+            w.put(layout::VERSION.at, &super::VERSION.to_le_bytes())?;
+            w.put(LENGTH.at, &len16.to_le_bytes())?;
+            w.put(KIND.at, &[self.kind as u8])?;
+            w.put(FLAGS.at, &[flags])?;
+            w.put(CURVE_NODES.at, &[n8(curve_n)?])?;
+            w.put(VOLUME_NODES.at, &[n8(volume_n)?])?;
+            w.put(SERIAL.at, &self.serial.0)?;
+            w.put(REFERENCE_HZ.at, &self.reference_hz.to_le_bytes())?;
+            w.put(GATE_CYCLES.at, &self.gate_cycles.to_le_bytes())?;
+            w.put(WINDOW_MIN_HZ.at, &self.window.min_hz().to_le_bytes())?;
+            w.put(WINDOW_MAX_HZ.at, &self.window.max_hz().to_le_bytes())?;
+            w.put(
+                WINDOW_MIN_CYCLES.at,
+                &self.window.min_cycles().to_le_bytes(),
+            )?;
+            w.put(REST.at, &self.rest.ratio().raw_q44().to_le_bytes())?;
+            w.put(
+                COMPANION_REST.at,
+                &self
+                    .companion_rest
+                    .map_or(0, |r| r.ratio().raw_q44())
+                    .to_le_bytes(),
+            )?;
+            w.put(DRIFT_REFERENCE.at, &self.drift.reference().0.to_le_bytes())?;
+            w.put(DRIFT_B1.at, &self.drift.b1_raw().to_le_bytes())?;
+            w.put(DRIFT_B2.at, &self.drift.b2_raw().to_le_bytes())?;
+            let scale = |s: OutputScale| [s.unit as u8, s.decimal_exponent.to_le_bytes()[0]];
+            w.put(OUTPUT.at, &scale(self.output))?;
+            if let Some((_, s)) = self.volume {
+                w.put(VOLUME_OUTPUT.at, &scale(s))?;
+            }
+            if let Some(m) = self.metal {
+                w.put(METAL_ENTER_PPB.at, &m.enter_ppb.to_le_bytes())?;
+                w.put(METAL_LEAVE_PPB.at, &m.leave_ppb.to_le_bytes())?;
+                w.put(METAL_ENTER_SAMPLES.at, &m.enter_samples.to_le_bytes())?;
+                w.put(METAL_LEAVE_SAMPLES.at, &m.leave_samples.to_le_bytes())?;
+                w.put(METAL_BASELINE_K.at, &[m.baseline_k])?;
+                w.put(METAL_RING_DROP.at, &m.ring_drop.to_le_bytes())?;
+                w.put(METAL_RELEARN.at, &m.relearn_readings.to_le_bytes())?;
+            }
+            w.put(CALIBRATED_AT.at, &self.calibrated_at.to_le_bytes())?;
+            w.put(PLAN_ID.at, &self.plan_id.0)?;
+            // The converters' reciprocals, which the firmware checks
+            // instead of dividing.
+            let reciprocals = |rest: RestPoint| {
+                ShiftConverter::new(rest, Gating::Reciprocal, self.gate())
+                    .map(|c| c.reciprocals())
+                    .map_err(ImageError::BadGate)
+            };
+            let (inv, gate_inv) = reciprocals(self.rest)?;
+            w.put(REST_RECIPROCAL.at, &inv.to_le_bytes())?;
+            w.put(GATE_RECIPROCAL.at, &gate_inv.to_le_bytes())?;
+            if let (ReaderKind::Level, Some(c)) = (self.kind, self.companion_rest) {
+                let (inv, gate_inv) = reciprocals(c)?;
+                w.put(COMPANION_RECIPROCAL.at, &inv.to_le_bytes())?;
+                w.put(COMPANION_GATE_RECIPROCAL.at, &gate_inv.to_le_bytes())?;
+            }
+            let mut at = HEADER_LEN;
+            for table in [self.curve, self.volume.map(|(t, _)| t)]
+                .into_iter()
+                .flatten()
+            {
+                let view = table.curve().view();
+                let (nodes, segs) = view.words();
+                for word in nodes.iter().chain(segs) {
+                    // The curve's words are stored little endian already.
+                    w.put(at, &u32::from_le(*word).to_le_bytes())?;
+                    at += 4;
+                }
+            }
+            let crc = crc32(w.0.get(..len - CRC_LEN).ok_or(ImageError::BufferTooSmall)?);
+            w.put(len - CRC_LEN, &crc.to_le_bytes())?;
+            // The encoder holds itself to the firmware's rules.
+            let back = Self::parse(w.0)?;
+            if back != *self {
+                return Err(ImageError::LengthMismatch);
+            }
+            Ok(len)
+        }
+
+        /// The image in an aligned buffer, validated: for building readers
+        /// on the host ([`ImageBuf::image`]).
+        pub fn to_image_buf(&self) -> Result<ImageBuf, ImageError> {
+            let mut bytes = [0u8; MAX_IMAGE_LEN];
+            let n = self.encode(&mut bytes)?;
+            ImageBuf::from_bytes(bytes.get(..n).unwrap_or(&[]))
+        }
+    }
+}
+
+/// Calibrations for this crate's tests (the demo scenario's proximity
+/// unit).
+#[cfg(all(test, feature = "design"))]
+pub(crate) mod tests_support {
     use super::*;
     use crate::counting::CountPair;
+    use crate::curve::Node;
+    use crate::shift::Shift;
 
     /// The demo proximity unit: 16 384-cycle gate at 48 MHz, a linear curve
     /// from 0.5 mm to 8 mm.
-    pub fn demo_proximity() -> Option<Calibration> {
+    pub(crate) fn demo_proximity() -> Option<Calibration> {
         let nodes = [
             Node::new(Shift::from_raw_q40(-362_000_000_000), 500),
             Node::new(Shift::from_raw_q40(-250_000_000_000), 1_000),
@@ -806,16 +1324,19 @@ pub mod tests_support {
             curve: Some(Table::linear(&nodes).ok()?),
             volume: None,
             metal: None,
+            calibrated_at: 1_764_000_000,
+            plan_id: PlanId(*b"demoplan"),
         })
     }
 }
 
-#[cfg(test)]
+#[cfg(all(test, feature = "design"))]
 mod tests {
     use super::tests_support::demo_proximity;
     use super::*;
     use crate::counting::CountPair;
-    use crate::curve::pchip_derivatives;
+    use crate::curve::{pchip_derivatives, Node};
+    use crate::shift::Shift;
     use proptest::prelude::*;
 
     /// Catalogue check value and zlib vectors for CRC-32/ISO-HDLC (Cook,
@@ -905,12 +1426,18 @@ mod tests {
         img[n - CRC_LEN..].copy_from_slice(&crc.to_le_bytes());
     }
 
+    /// The firmware's validation of `img` (copied aligned).
+    fn validate(img: &[u8]) -> Result<ReaderKind, ImageError> {
+        ImageBuf::from_bytes(img)?.image().map(|i| i.kind())
+    }
+
     #[test]
     fn every_kind_round_trips() {
         for cal in [demo_proximity().unwrap(), level_with_volume(), metal()] {
             let img = encode(&cal);
             assert_eq!(img.len(), cal.encoded_len());
             assert_eq!(Calibration::parse(&img), Ok(cal));
+            assert_eq!(validate(&img), Ok(cal.kind));
             // A longer buffer (a flash page) parses the same.
             let mut page = img.clone();
             page.resize(4096, 0xFF);
@@ -918,41 +1445,68 @@ mod tests {
         }
         assert_eq!(
             encode(&demo_proximity().unwrap()).len(),
-            HEADER_LEN + 5 * NODE_LEN + CRC_LEN
+            HEADER_LEN + 5 * NODE_LEN + 4 * SEGMENT_LEN_LINEAR + CRC_LEN
         );
-        assert_eq!(MAX_IMAGE_LEN, 2_668);
+        assert_eq!(MAX_IMAGE_LEN, 4_196);
+    }
+
+    #[test]
+    fn the_view_reads_what_was_written() {
+        let cal = level_with_volume();
+        let buf = cal.to_image_buf().unwrap();
+        let image = buf.image().unwrap();
+        assert_eq!(image.serial(), "TANK-7");
+        assert_eq!(image.reference_hz(), 48_000_000);
+        assert_eq!(image.gate(), Some(16_384));
+        assert_eq!(image.window(), cal.window);
+        assert_eq!(image.rest(), cal.rest);
+        assert_eq!(image.companion_rest(), cal.companion_rest);
+        assert_eq!(image.drift(), cal.drift);
+        assert_eq!(image.output(), cal.output);
+        assert_eq!(image.calibrated_at(), 1_764_000_000);
+        assert_eq!(image.plan_id(), PlanId(*b"demoplan"));
+        let curve = image.curve().unwrap();
+        assert!(curve.nodes().eq(cal.curve.unwrap().nodes().iter().copied()));
+        assert_eq!(image.volume().unwrap().1, cal.volume.unwrap().1);
+        assert_eq!(
+            image.crc(),
+            crc32(&buf.as_bytes()[..buf.as_bytes().len() - 4])
+        );
     }
 
     #[test]
     fn framing_errors() {
         let img = encode(&demo_proximity().unwrap());
-        assert_eq!(Calibration::parse(&[]), Err(ImageError::Truncated));
+        let buf = ImageBuf::from_bytes(&img).unwrap();
+        let bytes = buf.as_bytes();
+        assert_eq!(Image::new(&[]), Err(ImageError::Truncated));
+        assert_eq!(Image::new(&bytes[..HEADER_LEN]), Err(ImageError::Truncated));
         assert_eq!(
-            Calibration::parse(&img[..HEADER_LEN]),
+            Image::new(&bytes[..bytes.len() - 1]),
             Err(ImageError::Truncated)
         );
+        // Off a word boundary.
+        let mut shifted = vec![0u8];
+        shifted.extend_from_slice(&img);
+        let big = ImageBuf::from_bytes(&shifted).unwrap();
         assert_eq!(
-            Calibration::parse(&img[..img.len() - 1]),
-            Err(ImageError::Truncated)
+            Image::new(&big.as_bytes()[1..]),
+            Err(ImageError::Misaligned)
         );
-        let mut bad = img.clone();
-        bad[0] = b'X';
-        assert_eq!(Calibration::parse(&bad), Err(ImageError::BadMagic));
-        let mut bad = img.clone();
-        bad[4] = 2;
-        assert_eq!(Calibration::parse(&bad), Err(ImageError::UnknownVersion));
-        let mut bad = img.clone();
-        bad[10] = 4; // four nodes stated, five stored
-        assert_eq!(Calibration::parse(&bad), Err(ImageError::LengthMismatch));
-        let mut bad = img.clone();
-        bad[10] = 65;
+        let case = |f: &dyn Fn(&mut Vec<u8>)| {
+            let mut bad = img.clone();
+            f(&mut bad);
+            validate(&bad)
+        };
+        assert_eq!(case(&|i| i[0] = b'X'), Err(ImageError::BadMagic));
+        assert_eq!(case(&|i| i[4] = 3), Err(ImageError::UnknownVersion));
+        assert_eq!(case(&|i| i[4] = 1), Err(ImageError::FormatOne));
+        assert_eq!(case(&|i| i[10] = 4), Err(ImageError::LengthMismatch));
         assert_eq!(
-            Calibration::parse(&bad),
+            case(&|i| i[10] = 65),
             Err(ImageError::OutOfRange(Field::CurveNodes))
         );
-        let mut bad = img.clone();
-        bad[HEADER_LEN + 3] ^= 1;
-        assert_eq!(Calibration::parse(&bad), Err(ImageError::BadCrc));
+        assert_eq!(case(&|i| i[HEADER_LEN + 3] ^= 1), Err(ImageError::BadCrc));
         let mut short = [0u8; 10];
         assert_eq!(
             demo_proximity().unwrap().encode(&mut short),
@@ -969,63 +1523,96 @@ mod tests {
             let mut img = base.clone();
             f(&mut img);
             fix_crc(&mut img);
-            Calibration::parse(&img)
+            validate(&img)
         };
+        let put = |i: &mut Vec<u8>, span: Span, b: &[u8]| i[span.at..span.end()].copy_from_slice(b);
         use ImageError::*;
-        assert_eq!(case(&|i| i[8] = 9), Err(OutOfRange(Field::ReaderKind)));
-        assert_eq!(case(&|i| i[9] = 0x80), Err(OutOfRange(Field::Flags)));
-        assert_eq!(case(&|i| i[12] = 0), Err(OutOfRange(Field::Serial)));
-        assert_eq!(case(&|i| i[12] = 0x07), Err(OutOfRange(Field::Serial)));
-        assert_eq!(case(&|i| i[27] = b'x'), Err(OutOfRange(Field::Serial))); // text after the padding
         assert_eq!(
-            case(&|i| i[28..32].copy_from_slice(&0u32.to_le_bytes())),
+            case(&|i| i[KIND.at] = 9),
+            Err(OutOfRange(Field::ReaderKind))
+        );
+        assert_eq!(case(&|i| i[FLAGS.at] = 0x80), Err(OutOfRange(Field::Flags)));
+        assert_eq!(case(&|i| i[SERIAL.at] = 0), Err(OutOfRange(Field::Serial)));
+        assert_eq!(
+            case(&|i| i[SERIAL.at] = 0x07),
+            Err(OutOfRange(Field::Serial))
+        );
+        assert_eq!(
+            case(&|i| i[SERIAL.end() - 1] = b'x'),
+            Err(OutOfRange(Field::Serial))
+        ); // text after the padding
+        assert_eq!(
+            case(&|i| put(i, REFERENCE_HZ, &0u32.to_le_bytes())),
             Err(OutOfRange(Field::ReferenceHz))
         );
         assert_eq!(
-            case(&|i| i[40..44].copy_from_slice(&1u32.to_le_bytes())),
+            case(&|i| put(i, WINDOW_MAX_HZ, &1u32.to_le_bytes())),
             Err(BadWindow(WindowError::EmptyBand))
         );
         assert_eq!(
-            case(&|i| i[48..56].copy_from_slice(&1u64.to_le_bytes())),
+            case(&|i| put(i, REST, &1u64.to_le_bytes())),
             Err(OutOfRange(Field::RestPoint))
         );
-        assert_eq!(case(&|i| i[56] = 1), Err(OutOfRange(Field::CompanionRest)));
         assert_eq!(
-            case(&|i| i[64..68].copy_from_slice(&40_000i32.to_le_bytes())),
+            case(&|i| i[COMPANION_REST.at] = 1),
+            Err(OutOfRange(Field::CompanionRest))
+        );
+        assert_eq!(
+            case(&|i| put(i, DRIFT_REFERENCE, &40_000i32.to_le_bytes())),
             Err(BadDrift(DriftError::ReferenceOutOfRange))
         );
         assert_eq!(
-            case(&|i| i[68..72].copy_from_slice(&i32::MAX.to_le_bytes())),
+            case(&|i| put(i, DRIFT_B1, &i32::MAX.to_le_bytes())),
             Err(BadDrift(DriftError::CorrectionTooLarge))
         );
-        assert_eq!(case(&|i| i[76] = 9), Err(OutOfRange(Field::Output)));
-        assert_eq!(case(&|i| i[77] = 19), Err(OutOfRange(Field::Output)));
-        assert_eq!(case(&|i| i[78] = 2), Err(OutOfRange(Field::VolumeOutput)));
-        assert_eq!(case(&|i| i[80] = 1), Err(OutOfRange(Field::Metal)));
-        // Curve: the second node's shift below the first.
+        assert_eq!(case(&|i| i[OUTPUT.at] = 9), Err(OutOfRange(Field::Output)));
         assert_eq!(
-            case(&|i| i[HEADER_LEN + 12..HEADER_LEN + 20]
-                .copy_from_slice(&(-400_000_000_000i64).to_le_bytes())),
+            case(&|i| i[OUTPUT.at + 1] = 19),
+            Err(OutOfRange(Field::Output))
+        );
+        assert_eq!(
+            case(&|i| i[VOLUME_OUTPUT.at] = 2),
+            Err(OutOfRange(Field::VolumeOutput))
+        );
+        assert_eq!(
+            case(&|i| i[METAL_ENTER_PPB.at] = 1),
+            Err(OutOfRange(Field::Metal))
+        );
+        // Curve: the second node's shift below the first.
+        let node = |k: usize| HEADER_LEN + k * NODE_LEN;
+        assert_eq!(
+            case(&|i| i[node(1)..node(1) + 8].copy_from_slice(&(-400_000_000_000i64).to_le_bytes())),
             Err(BadCurve(CurveError::ShiftsNotIncreasing))
         );
         // Curve: values rising then falling.
         assert_eq!(
-            case(&|i| i[HEADER_LEN + 20..HEADER_LEN + 24].copy_from_slice(&100i32.to_le_bytes())),
+            case(&|i| i[node(1) + 8..node(1) + 12].copy_from_slice(&100i32.to_le_bytes())),
             Err(BadCurve(CurveError::NotMonotone))
+        );
+        // A segment's constants: wrong width shift, wrong slope mantissa by
+        // one unit, a reserved bit set.
+        let seg = node(5);
+        assert_eq!(
+            case(&|i| i[seg] ^= 1),
+            Err(BadCurve(CurveError::BadSegment))
+        );
+        assert_eq!(
+            case(&|i| i[seg + 4] ^= 1),
+            Err(BadCurve(CurveError::BadSegment))
+        );
+        assert_eq!(
+            case(&|i| i[seg + 3] = 1),
+            Err(BadCurve(CurveError::BadSegment))
         );
         // A metal image must not carry a curve; a proximity image must not
         // carry a volume table.
-        assert_eq!(case(&|i| i[8] = 3), Err(OutOfRange(Field::CurveNodes)));
-        assert_eq!(case(&|i| i[9] = FLAG_VOLUME), Err(OutOfRange(Field::Flags)));
-        // A curve needs two nodes (one-node image, length made consistent).
-        let mut one = base[..HEADER_LEN + NODE_LEN + CRC_LEN].to_vec();
-        one[10] = 1;
-        let len = u16::try_from(one.len()).unwrap();
-        one[6..8].copy_from_slice(&len.to_le_bytes());
-        fix_crc(&mut one);
         assert_eq!(
-            Calibration::parse(&one),
-            Err(BadCurve(CurveError::TooFewNodes))
+            case(&|i| i[KIND.at] = 3),
+            Err(OutOfRange(Field::CurveNodes))
+        );
+        assert_eq!(
+            case(&|i| i[FLAGS.at] = FLAG_VOLUME),
+            Err(OutOfRange(Field::Flags))
         );
         // Metal parameters out of range, and reserved bytes.
         let mbase = encode(&metal());
@@ -1033,16 +1620,28 @@ mod tests {
             let mut img = mbase.clone();
             f(&mut img);
             fix_crc(&mut img);
-            Calibration::parse(&img)
+            validate(&img)
         };
-        assert_eq!(mcase(&|i| i[92] = 0), Err(OutOfRange(Field::Metal))); // baseline k
         assert_eq!(
-            mcase(&|i| i[84..88].copy_from_slice(&300_000u32.to_le_bytes())),
+            mcase(&|i| i[METAL_BASELINE_K.at] = 0),
             Err(OutOfRange(Field::Metal))
         );
-        assert_eq!(mcase(&|i| i[88] = 0), Err(OutOfRange(Field::Metal))); // zero debounce
-        assert_eq!(mcase(&|i| i[93] = 1), Err(OutOfRange(Field::Reserved)));
-        assert_eq!(mcase(&|i| i[9] = FLAG_CUBIC), Err(OutOfRange(Field::Flags)));
+        assert_eq!(
+            mcase(&|i| put(i, METAL_LEAVE_PPB, &300_000u32.to_le_bytes())),
+            Err(OutOfRange(Field::Metal))
+        );
+        assert_eq!(
+            mcase(&|i| i[METAL_ENTER_SAMPLES.at] = 0),
+            Err(OutOfRange(Field::Metal))
+        ); // zero debounce
+        assert_eq!(
+            mcase(&|i| i[RESERVED_93.at] = 1),
+            Err(OutOfRange(Field::Reserved))
+        );
+        assert_eq!(
+            mcase(&|i| i[FLAGS.at] = FLAG_CUBIC),
+            Err(OutOfRange(Field::Flags))
+        );
     }
 
     /// The demo calibration's image, byte for byte where the layout fixes
@@ -1051,8 +1650,8 @@ mod tests {
     fn layout_matches_the_documentation() {
         let img = encode(&demo_proximity().unwrap());
         assert_eq!(&img[0..4], b"LCIM");
-        assert_eq!(&img[4..6], &[1, 0]);
-        assert_eq!(u16::from_le_bytes([img[6], img[7]]), 168);
+        assert_eq!(&img[4..6], &[2, 0]);
+        assert_eq!(u16::from_le_bytes([img[6], img[7]]), 232);
         assert_eq!(&img[8..12], &[1, 0, 5, 0]);
         assert_eq!(&img[12..24], b"DEMO-01-0007");
         assert_eq!(
@@ -1064,36 +1663,132 @@ mod tests {
         assert_eq!(img[77] as i8, -6);
         assert_eq!(
             i64::from_le_bytes(img[104..112].try_into().unwrap()),
+            1_764_000_000
+        );
+        assert_eq!(&img[112..120], b"demoplan");
+        // 1/p_rest's mantissa: p_rest = 139 542/16 384 ≈ 8.517, so
+        // 2^35/p_rest ≈ 4.034e9 with its top bit set.
+        let inv = u32::from_le_bytes(img[120..124].try_into().unwrap());
+        assert!((f64::from(inv) - 2f64.powi(35) * 16_384.0 / 139_542.0).abs() < 1.0);
+        assert_eq!(&img[128..136], &[0; 8]);
+        assert_eq!(
+            i64::from_le_bytes(img[136..144].try_into().unwrap()),
             -362_000_000_000
         );
-        assert_eq!(i32::from_le_bytes(img[112..116].try_into().unwrap()), 500);
+        assert_eq!(i32::from_le_bytes(img[144..148].try_into().unwrap()), 500);
+        // The first segment: width 112e9 raw units needs sh = 6 (2^36 ≤ w
+        // < 2^37), slope 500 units over w' = round(w / 64).
+        assert_eq!(img[196], 6);
+        let (k, e) = (
+            i32::from_le_bytes(img[200..204].try_into().unwrap()),
+            img[197],
+        );
+        let w = 1_750_000_000f64;
+        assert!((f64::from(k) * 2f64.powi(-i32::from(e)) - 500.0 / w).abs() < 1e-9 * 500.0 / w);
+    }
+
+    /// Format 1 is read on the host and rewritten: the same calibration,
+    /// without time and plan.
+    #[test]
+    fn format_one_reads_and_rewrites() {
+        for cal in [demo_proximity().unwrap(), level_with_volume(), metal()] {
+            let v1 = encode_v1(&cal);
+            assert_eq!(Calibration::format_version(&v1), Ok(1));
+            assert_eq!(validate(&v1), Err(ImageError::FormatOne));
+            let back = Calibration::parse(&v1).unwrap();
+            let want = Calibration {
+                calibrated_at: 0,
+                plan_id: PlanId::UNKNOWN,
+                ..cal
+            };
+            assert_eq!(back, want);
+            let v2 = encode(&back);
+            assert_eq!(Calibration::parse(&v2), Ok(want));
+        }
+    }
+
+    /// A format-1 encoder, as the format was written (header of 104
+    /// bytes, nodes then derivatives).
+    fn encode_v1(cal: &Calibration) -> Vec<u8> {
+        let v2 = encode(cal);
+        let mut img = v2[..HEADER_LEN_V1].to_vec();
+        img[4] = 1;
+        for t in [cal.curve, cal.volume.map(|(t, _)| t)]
+            .into_iter()
+            .flatten()
+        {
+            for n in t.nodes() {
+                img.extend_from_slice(&n.shift.raw_q40().to_le_bytes());
+                img.extend_from_slice(&n.value.to_le_bytes());
+            }
+            if t.is_cubic() {
+                let x: Vec<f64> = t.nodes().iter().map(|n| n.shift.to_f64()).collect();
+                let y: Vec<f64> = t.nodes().iter().map(|n| f64::from(n.value)).collect();
+                let d = pchip_derivatives(&x, &y).unwrap();
+                for v in &d[..x.len()] {
+                    img.extend_from_slice(&((v * 65_536.0).round() as i64).to_le_bytes());
+                }
+            }
+        }
+        let len = u16::try_from(img.len() + CRC_LEN).unwrap();
+        img[6..8].copy_from_slice(&len.to_le_bytes());
+        img.extend_from_slice(&[0; CRC_LEN]);
+        fix_crc(&mut img);
+        img
+    }
+
+    /// Every owned curve's words pass the firmware's segment checks, and
+    /// one changed bit in a segment's constants fails them.
+    #[test]
+    fn built_curves_pass_the_firmware_checks() {
+        let cal = level_with_volume();
+        for t in [cal.curve.unwrap(), cal.volume.unwrap().0] {
+            let c = t.curve();
+            let (n, s) = c.view().words();
+            assert!(CurveRef::from_words(n, s, c.len(), t.is_cubic()).is_ok());
+            for i in 0..s.len() {
+                let mut bad = s.to_vec();
+                bad[i] ^= 1 << 3;
+                assert!(
+                    CurveRef::from_words(n, &bad, c.len(), t.is_cubic()).is_err(),
+                    "word {i}"
+                );
+            }
+        }
     }
 
     proptest! {
-        #![proptest_config(ProptestConfig::with_cases(5_000))]
+        #![proptest_config(ProptestConfig::with_cases(3_000))]
 
-        /// Arbitrary bytes never panic the parser, and are never accepted
-        /// unless they form a complete, CRC-valid image.
+        /// Arbitrary bytes never panic the validation, and are never
+        /// accepted unless they form a complete, CRC-valid image.
         #[test]
         fn arbitrary_bytes_are_safe(bytes in proptest::collection::vec(any::<u8>(), 0..3_000)) {
-            if let Ok(cal) = Calibration::parse(&bytes) {
-                let len = cal.encoded_len();
-                prop_assert_eq!(&CRC32.checksum(&bytes[..len - CRC_LEN]).to_le_bytes()[..], &bytes[len - CRC_LEN..len]);
+            if let Ok(buf) = ImageBuf::from_bytes(&bytes) {
+                if let Ok(img) = buf.image() {
+                    let len = img.bytes().len();
+                    prop_assert_eq!(&CRC32.checksum(&bytes[..len - CRC_LEN]).to_le_bytes()[..], &bytes[len - CRC_LEN..len]);
+                }
             }
+            let _ = Calibration::parse(&bytes);
         }
 
         /// Valid headers with arbitrary bodies: never a panic.
         #[test]
-        fn plausible_headers_are_safe(body in proptest::collection::vec(any::<u8>(), 0..1_200), n in 0u8..70, flags: u8) {
+        fn plausible_headers_are_safe(body in proptest::collection::vec(any::<u8>(), 0..1_200), n in 0u8..70, flags: u8, v1: bool) {
             let mut img = encode(&level_with_volume());
-            img[9] = flags;
-            img[10] = n;
-            img.truncate(HEADER_LEN);
+            img[FLAGS.at] = flags;
+            img[CURVE_NODES.at] = n;
+            img.truncate(if v1 { HEADER_LEN_V1 } else { HEADER_LEN });
+            if v1 {
+                img[4] = 1;
+            }
             img.extend_from_slice(&body);
             let len = u16::try_from(img.len() + CRC_LEN).unwrap();
             img[6..8].copy_from_slice(&len.to_le_bytes());
             img.extend_from_slice(&[0; CRC_LEN]);
             fix_crc(&mut img);
+            let _ = validate(&img);
             let _ = Calibration::parse(&img);
         }
 
@@ -1104,6 +1799,7 @@ mod tests {
             let mut img = encode(&cal);
             let i = at.index(img.len());
             img[i] ^= flip;
+            prop_assert!(validate(&img).is_err());
             prop_assert!(Calibration::parse(&img).is_err());
         }
     }

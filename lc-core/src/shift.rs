@@ -184,6 +184,61 @@ fn reciprocal_mantissa(d: u128) -> Option<(u32, u32)> {
     u32::try_from(m).ok().map(|m| (m, e))
 }
 
+/// The configured gate length for `gating`: N for a reciprocal gate of N
+/// cycles, 0 otherwise.
+fn gate_of(gating: Gating, gate_cycles: Option<u32>) -> u32 {
+    match (gating, gate_cycles) {
+        (Gating::Reciprocal, Some(n)) if n > 0 => n,
+        _ => 0,
+    }
+}
+
+/// The exponent e when `m` is [`reciprocal_mantissa`]`(d)`'s mantissa
+/// (m = round(2^e / d), half up, 2^31 ≤ m < 2^32, e the one that
+/// function picks); `None` otherwise. Multiplies and compares only.
+fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
+    if d == 0 || d >> 96 != 0 || m >> 31 == 0 {
+        return None;
+    }
+    // Bit length of d from its halves (2^(bits−1) ≤ d < 2^bits, bits ≤ 96).
+    let (hi, lo) = ((d >> 64) as u64, d as u64);
+    let bits = if hi != 0 {
+        128 - hi.leading_zeros()
+    } else {
+        64 - lo.leading_zeros()
+    };
+    let e = bits + 31; // ≤ 127
+    if rounds_to(m, e, d) {
+        return Some((m, e));
+    }
+    // `reciprocal_mantissa` takes e − 1 only when round(2^e / d) reaches
+    // 2^32: certain when m > 2^31 at e − 1 (2^e / d ≥ 2m − 1), and for
+    // m = 2^31 exactly when 2^32 − 1 is not the rounding at e.
+    let halved = m > 1 << 31 || !rounds_to(u32::MAX, e, d);
+    (halved && rounds_to(m, e - 1, d)).then_some((m, e - 1))
+}
+
+/// Whether m = round(2^e / d), half up (`round_div_u128`'s rounding), for
+/// e ≤ 127 and d < 2^96 (so m·d < 2^128): with t = m·d, t − 2^e ≤ d/2
+/// when t ≥ 2^e, 2^e − t < d/2 otherwise.
+fn rounds_to(m: u32, e: u32, d: u128) -> bool {
+    // m·d from 32 × 32-bit products of d's words (a 128-bit multiply is
+    // several library calls on a Cortex-M0).
+    let word = |k: u32| (d >> k) as u32; // the low 32 bits: exact
+    let t = u128::from(mul_u32_wide(m, word(0)))
+        + (u128::from(mul_u32_wide(m, word(32))) << 32)
+        + (u128::from(mul_u32_wide(m, word(64))) << 64);
+    let p = 1u128 << e;
+    let diff = t.abs_diff(p);
+    if diff > d {
+        false
+    } else if t >= p {
+        2 * diff <= d
+    } else {
+        2 * diff < d
+    }
+}
+
 /// Converts count pairs into shifts against one rest point.
 ///
 /// Build it once (at calibration load); [`ShiftConverter::convert`] is the
@@ -216,19 +271,61 @@ impl ShiftConverter {
         gating: Gating,
         gate_cycles: Option<u32>,
     ) -> Result<Self, ShiftError> {
+        let n = gate_of(gating, gate_cycles);
         let p = u128::from(rest.0.raw_q44());
-        let (inv_mant, e) = reciprocal_mantissa(p).ok_or(ShiftError::BadRestPoint)?;
-        let inv_exp = exp_i32(e)?;
-        let n = match (gating, gate_cycles) {
-            (Gating::Reciprocal, Some(n)) if n > 0 => n,
-            _ => 0,
-        };
-        let (gate_mant, gate_exp) = if n > 0 {
-            let (m, e) = reciprocal_mantissa(p * u128::from(n)).ok_or(ShiftError::BadRestPoint)?;
-            (m, exp_i32(e)?)
+        let inv = reciprocal_mantissa(p).ok_or(ShiftError::BadRestPoint)?;
+        let gate = if n > 0 {
+            reciprocal_mantissa(p * u128::from(n)).ok_or(ShiftError::BadRestPoint)?
         } else {
             (0, 0)
         };
+        Self::from_reciprocals(rest, gating, n, inv, gate)
+    }
+
+    /// [`ShiftConverter::new`] with its two reciprocal mantissas given
+    /// (1/p_rest and 1/(p_rest·N), as [`ShiftConverter::reciprocals`]
+    /// returns them and a calibration image stores them): checked to be
+    /// the ones `new` computes, by multiplies only. The same converter as
+    /// `new`'s, or [`ShiftError::BadRestPoint`]. Start-up cost on a
+    /// Cortex-M0: a few hundred instructions instead of two 128-bit
+    /// divisions (about 8 800).
+    pub fn with_reciprocals(
+        rest: RestPoint,
+        gating: Gating,
+        gate_cycles: Option<u32>,
+        (rest_reciprocal, gate_reciprocal): (u32, u32),
+    ) -> Result<Self, ShiftError> {
+        let n = gate_of(gating, gate_cycles);
+        let p = u128::from(rest.0.raw_q44());
+        let inv = reciprocal_checked(rest_reciprocal, p).ok_or(ShiftError::BadRestPoint)?;
+        let gate = if n > 0 {
+            // p·N from 32 × 32-bit products (p < 2^64): no 128-bit multiply.
+            let pn = u128::from(mul_u32_wide(p as u32, n))
+                + (u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32);
+            reciprocal_checked(gate_reciprocal, pn).ok_or(ShiftError::BadRestPoint)?
+        } else if gate_reciprocal == 0 {
+            (0, 0)
+        } else {
+            return Err(ShiftError::BadRestPoint);
+        };
+        Self::from_reciprocals(rest, gating, n, inv, gate)
+    }
+
+    /// The reciprocal mantissas (1/p_rest, 1/(p_rest·N); the second 0
+    /// without a gate), for [`ShiftConverter::with_reciprocals`].
+    pub const fn reciprocals(&self) -> (u32, u32) {
+        (self.inv_mant, self.gate_mant)
+    }
+
+    fn from_reciprocals(
+        rest: RestPoint,
+        gating: Gating,
+        n: u32,
+        (inv_mant, e): (u32, u32),
+        (gate_mant, ge): (u32, u32),
+    ) -> Result<Self, ShiftError> {
+        let inv_exp = exp_i32(e)?;
+        let gate_exp = if n > 0 { exp_i32(ge)? } else { 0 };
         let fast_c = match gate_exp - 33 {
             c @ 1..=31 if n > 0 => c as u8, // 1..=31 fits u8
             _ => 0,
@@ -254,6 +351,16 @@ impl ShiftConverter {
     #[inline]
     pub const fn rest(&self) -> RestPoint {
         self.rest
+    }
+
+    /// The configured reciprocal gate, sensor cycles (`None` without one).
+    #[inline]
+    pub const fn gate_cycles(&self) -> Option<u32> {
+        if self.gate_cycles > 0 {
+            Some(self.gate_cycles)
+        } else {
+            None
+        }
     }
 
     /// The gating of the readings.
@@ -501,6 +608,45 @@ mod tests {
         );
     }
 
+    /// The stored-reciprocal check accepts exactly what
+    /// `reciprocal_mantissa` computes: its mantissa with its exponent, and
+    /// not the mantissa one off either way.
+    #[test]
+    fn reciprocal_check_accepts_exactly_the_computed_mantissa() {
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        let mut ds: Vec<u128> = vec![
+            1,
+            2,
+            3,
+            7,
+            1 << 36,
+            (1 << 64) - 1,
+            10 << 44,
+            (1 << 95) + 12345,
+            (1 << 96) - 1,
+            1 << 95,
+            (1 << 40) + 1,
+            (1 << 40) - 1,
+        ];
+        for _ in 0..20_000 {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            let shift = (x % 96) as u32;
+            ds.push(
+                (u128::from(x) << 32 | u128::from(x >> 17)) >> (128 - 96 + shift)
+                    | 1 << (95 - shift),
+            );
+        }
+        for d in ds {
+            let (m, e) = reciprocal_mantissa(d).unwrap();
+            assert_eq!(reciprocal_checked(m, d), Some((m, e)), "d {d}");
+            for wrong in [m.wrapping_add(1), m.wrapping_sub(1)] {
+                assert_eq!(reciprocal_checked(wrong, d), None, "d {d} m {wrong}");
+            }
+        }
+    }
+
     #[test]
     fn reciprocal_mantissa_is_normalised_and_nearest() {
         for d in [
@@ -521,6 +667,46 @@ mod tests {
         }
         assert_eq!(reciprocal_mantissa(0), None);
         assert_eq!(reciprocal_mantissa(1 << 96), None);
+    }
+
+    /// A converter from its stored reciprocals is the converter `new`
+    /// builds; a wrong one is refused.
+    #[test]
+    fn with_reciprocals_is_new() {
+        for (cycles, ticks) in [
+            (4096u32, 40_960u32),
+            (16_384, 139_542),
+            (16_384, 541_292),
+            (1, 1),
+        ] {
+            let rest = RestPoint::from_counts(CountPair::new(cycles, ticks)).unwrap();
+            for gate in [None, Some(4096), Some(16_384), Some(u32::MAX)] {
+                let Ok(c) = ShiftConverter::new(rest, Gating::Reciprocal, gate) else {
+                    continue;
+                };
+                let r = c.reciprocals();
+                assert_eq!(
+                    ShiftConverter::with_reciprocals(rest, Gating::Reciprocal, gate, r),
+                    Ok(c)
+                );
+                assert!(ShiftConverter::with_reciprocals(
+                    rest,
+                    Gating::Reciprocal,
+                    gate,
+                    (r.0 ^ 1, r.1)
+                )
+                .is_err());
+                if gate.is_some() {
+                    assert!(ShiftConverter::with_reciprocals(
+                        rest,
+                        Gating::Reciprocal,
+                        gate,
+                        (r.0, r.1 ^ 1)
+                    )
+                    .is_err());
+                }
+            }
+        }
     }
 
     #[test]

@@ -61,13 +61,13 @@ pub struct Converted {
 pub struct Converter {
     twins: Vec<Twin>,
     /// A reader built from each image, cloned for each channel.
-    readers: Vec<Reader>,
+    readers: Vec<Reader<'static>>,
     /// Channel → image, where given.
     by_channel: BTreeMap<u8, usize>,
     /// The image of every other channel, if any.
     default: Option<usize>,
     /// The live readers, by channel slot ([`slot`]).
-    live: Vec<Option<Box<Reader>>>,
+    live: Vec<Option<Box<Reader<'static>>>>,
 }
 
 /// Channel slots: 0–255, and one for rows without a channel.
@@ -86,6 +86,14 @@ pub enum SetupError {
     /// A channel is mapped twice.
     #[error("channel {0} is given two images; give one per channel")]
     Twice(u8),
+    /// A calibration does not form a valid image.
+    #[error("{}: not a valid image: {error}", channel.map_or("the image".to_string(), |c| format!("the image of channel {c}")))]
+    Image {
+        /// The channel (`None`: the default image).
+        channel: Option<u8>,
+        /// Why.
+        error: lc_core::image::ImageError,
+    },
     /// An image builds no reader.
     #[error("{}: {error}", channel.map_or("the image".to_string(), |c| format!("the image of channel {c}")))]
     Reader {
@@ -102,8 +110,8 @@ pub enum SetupError {
 #[derive(Debug)]
 struct Twin {
     calibration: Calibration,
-    proximity: Option<ProximityReader>,
-    level: Option<LevelReader>,
+    proximity: Option<ProximityReader<'static>>,
+    level: Option<LevelReader<'static>>,
     frequency_gate: u32,
 }
 
@@ -139,7 +147,7 @@ impl Twin {
 
     /// The f64 reference value of a reading that is not a fault.
     fn reference(&self, row: &FieldRow, reading: &Reading) -> Option<f64> {
-        match reading.status {
+        match reading.status() {
             Status::SensorFault(_) => None,
             _ => match (&self.proximity, &self.level) {
                 (Some(p), _) => Some(p.read_f64(&self.input_of(row))),
@@ -153,12 +161,8 @@ impl Twin {
 impl Converter {
     /// A converter with one image for every channel (each channel still
     /// has its own reader).
-    pub fn new(calibration: Calibration) -> Result<Self, ReaderError> {
-        Self::per_channel(Some(calibration), &[]).map_err(|e| match e {
-            SetupError::Reader { error, .. } => error,
-            // One default image and no channels: only the reader can fail.
-            _ => ReaderError::Incomplete,
-        })
+    pub fn new(calibration: Calibration) -> Result<Self, SetupError> {
+        Self::per_channel(Some(calibration), &[])
     }
 
     /// A converter with an image per channel (`channels`), and `default`
@@ -180,13 +184,15 @@ impl Converter {
             .into_iter()
             .chain(channels.iter().map(|&(ch, c)| (Some(ch), c)));
         for (channel, calibration) in images {
-            let reader = Reader::from_calibration(&calibration)
-                .map_err(|error| SetupError::Reader { channel, error })?;
+            let image = crate::host_image(&calibration)
+                .map_err(|error| SetupError::Image { channel, error })?;
+            let reader =
+                Reader::new(&image).map_err(|error| SetupError::Reader { channel, error })?;
             let k = conv.twins.len();
             conv.readers.push(reader);
             conv.twins.push(Twin {
-                proximity: ProximityReader::new(&calibration).ok(),
-                level: LevelReader::new(&calibration).ok(),
+                proximity: ProximityReader::new(&image).ok(),
+                level: LevelReader::new(&image).ok(),
                 frequency_gate: calibration.gate().unwrap_or(16_384),
                 calibration,
             });
@@ -384,33 +390,37 @@ pub fn convert_log_threads<R: Read, W: Write>(
                 });
             };
             let twin = &twins[*k];
-            let fault = matches!(r.status, Status::SensorFault(_));
+            let fault = matches!(r.status(), Status::SensorFault(_));
             push_int(out, row.line);
             out.push(b',');
             push_shortest_opt(out, row.time_s);
             out.push(b',');
             push_int_opt(out, row.channel);
             out.push(b',');
-            out.extend_from_slice(status_name(r.status).as_bytes());
+            out.extend_from_slice(status_name(r.status()).as_bytes());
             out.push(b',');
             if !fault {
-                push_int(out, r.value);
+                push_int(out, r.output());
             }
             out.push(b',');
-            push_int_opt(out, r.secondary);
+            push_int_opt(out, r.secondary());
             out.push(b',');
             if !fault {
-                push_fixed(out, r.shift.to_ppm_f64(), 6);
+                push_fixed(
+                    out,
+                    lc_core::shift::Shift::from_raw_q40(r.curve_input_q40()).to_ppm_f64(),
+                    6,
+                );
             }
             if with_f64 {
                 *value_f64 = twin.reference(row, r);
-                let diff = value_f64.map(|v| f64::from(r.value) - v);
+                let diff = value_f64.map(|v| f64::from(r.output()) - v);
                 out.push(b',');
                 push_fixed_opt(out, *value_f64, 4);
                 out.push(b',');
                 push_fixed_opt(out, diff, 4);
             }
-            Ok(match r.status {
+            Ok(match r.status() {
                 Status::Ok => RowClass::Ok,
                 Status::SensorFault(_) => RowClass::Fault,
                 _ => RowClass::OutOfRange,
@@ -433,7 +443,7 @@ pub fn convert_log_threads<R: Read, W: Write>(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use lc_core::image::tests_support::demo_proximity;
+    use crate::testdata::demo_proximity;
     use std::io::Write;
     use std::path::Path;
 
@@ -482,34 +492,37 @@ mod tests {
             };
             let c = conv.convert(&row);
             let r = c.reading;
-            let fault = matches!(r.status, Status::SensorFault(_));
+            let fault = matches!(r.status(), Status::SensorFault(_));
             write!(
                 out,
                 "{},{},{},{},{},{},{}",
                 row.line,
                 row.time_s.map_or(String::new(), |t| t.to_string()),
                 row.channel.map_or(String::new(), |c| c.to_string()),
-                status_name(r.status),
+                status_name(r.status()),
                 if fault {
                     String::new()
                 } else {
-                    r.value.to_string()
+                    r.output().to_string()
                 },
-                opt(r.secondary),
+                opt(r.secondary()),
                 if fault {
                     String::new()
                 } else {
-                    format!("{:.6}", r.shift.to_ppm_f64())
+                    format!(
+                        "{:.6}",
+                        lc_core::shift::Shift::from_raw_q40(r.curve_input_q40()).to_ppm_f64()
+                    )
                 },
             )
             .unwrap();
             if with_f64 {
-                let diff = c.value_f64.map(|v| f64::from(r.value) - v);
+                let diff = c.value_f64.map(|v| f64::from(r.output()) - v);
                 write!(out, ",{},{}", fixed(c.value_f64), fixed(diff)).unwrap();
             }
             out.push(b'\n');
             summary.rows += 1;
-            match r.status {
+            match r.status() {
                 Status::Ok => summary.ok += 1,
                 Status::SensorFault(_) => summary.faults += 1,
                 _ => summary.out_of_range += 1,

@@ -86,7 +86,8 @@ pub const LEVEL_PLAN: &str = include_str!("../../examples/data/demo-level-plan.t
 /// Runs the demo into `out`, narrating on `say`.
 pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     std::fs::create_dir_all(out).map_err(file(out))?;
-    let plan = Plan::parse(PLAN, Path::new("demo-plan.toml"))?;
+    let mut plan = Plan::parse(PLAN, Path::new("demo-plan.toml"))?;
+    plan.calibrated_at = crate::calib::plan::calibration_time(None);
     writeln!(
         say,
         "LC sensor toolkit demo: lot DEMO-01 of 24 proximity sensors (simulated), in {}",
@@ -224,17 +225,17 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             |_| {},
             |c| {
                 let t = c.time_s.unwrap_or(0.0);
-                if matches!(c.reading.status, lc_core::reader::Status::SensorFault(_)) {
+                if matches!(c.reading.status(), lc_core::reader::Status::SensorFault(_)) {
                     faults.push(t);
                 } else {
-                    trace.push((t, f64::from(c.reading.value)));
+                    trace.push((t, f64::from(c.reading.output())));
                     // A quarter into each 2 s stroke the plate is at 4.25 mm.
                     if (t.rem_euclid(2.0) - 0.5).abs() < 1e-6 {
-                        mid_stroke.push((t, f64::from(c.reading.value)));
+                        mid_stroke.push((t, f64::from(c.reading.output())));
                     }
                 }
                 if let Some(v) = c.value_f64 {
-                    worst_diff = worst_diff.max((f64::from(c.reading.value) - v).abs());
+                    worst_diff = worst_diff.max((f64::from(c.reading.output()) - v).abs());
                 }
             },
         )
@@ -305,7 +306,7 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         calibration_temps_c: vec![25.0, 60.0],
         target_resolution: None,
     };
-    let curve = cal.curve.and_then(|t| t.curve().ok());
+    let curve = cal.curve.map(|t| *t.curve());
     let b = budget(&input, curve.as_ref());
     writeln!(
         say,
@@ -315,7 +316,8 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
         writeln!(say, "   {line}")?;
     }
     // 8. The second scenario: the coolant tank's level probes.
-    let level_plan = Plan::parse(LEVEL_PLAN, Path::new("demo-level-plan.toml"))?;
+    let mut level_plan = Plan::parse(LEVEL_PLAN, Path::new("demo-level-plan.toml"))?;
+    level_plan.calibrated_at = plan.calibrated_at;
     let level_rig = out.join("level-rig.csv");
     crate::atomic::write_atomically(&level_rig, |w| {
         crate::sim::level::write_level_rig_log("TANK-01", 8, 1, w)
@@ -361,7 +363,9 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
     let level_image = std::fs::read(&level_path).map_err(file(&level_path))?;
     let level_cal = lc_core::image::Calibration::parse(&level_image)
         .map_err(|e| DemoError::step("level image", e))?;
-    let mut level_reader = lc_core::reader::Reader::from_calibration(&level_cal)
+    let level_image =
+        crate::host_image(&level_cal).map_err(|e| DemoError::step("level image", e))?;
+    let mut level_reader = lc_core::reader::LevelReader::new(&level_image)
         .map_err(|e| DemoError::step("level reader", e))?;
     let g = crate::sim::level::LevelGeometry::DEMO;
     let truth_l = |h: f64| {
@@ -382,8 +386,8 @@ pub fn run(out: &Path, say: &mut dyn Write) -> Result<()> {
             "   TANK-01-0003 at {:.0} mm, {t:.0} °C (water εr {:.1}): reads {:.1} mm, {:.2} L (true {:.2} L), {}",
             h * 1e3,
             crate::sim::level::water_permittivity(t),
-            f64::from(r.value) / 10.0,
-            f64::from(r.secondary.unwrap_or(0)) / 1e3,
+            f64::from(r.level) / 10.0,
+            f64::from(r.volume.unwrap_or(0)) / 1e3,
             truth_l(h),
             crate::convert::status_name(r.status)
         )?;

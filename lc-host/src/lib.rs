@@ -54,5 +54,19 @@ pub mod sim;
 pub mod store;
 pub mod stream;
 pub mod svg;
+#[cfg(test)]
+mod testdata;
 pub mod verify;
 pub mod volume;
+
+/// The validated image of a calibration, to build lc-core's readers on the
+/// host. lc-core's readers borrow their curves from the image's bytes; a
+/// host converter or verification lives as long as its run, so the
+/// image's aligned buffer (about 4 KB) is leaked: build one per
+/// calibration, not per reading.
+pub fn host_image(
+    cal: &lc_core::image::Calibration,
+) -> Result<lc_core::image::Image<'static>, lc_core::image::ImageError> {
+    let buf: &'static lc_core::image::ImageBuf = Box::leak(Box::new(cal.to_image_buf()?));
+    buf.image()
+}

@@ -22,7 +22,7 @@ use lc_core::counting::{CountPair, Gating};
 use lc_core::curve::{Curve, CurveValue};
 use lc_core::drift::TemperatureModel;
 use lc_core::image::Calibration;
-use lc_core::reader::{Input, LevelReader, ProximityReader, Reading, Status};
+use lc_core::reader::{Input, LevelReader, ProximityReader, Status};
 use lc_core::shift::{error_bound as shift_bound, Shift, ShiftConverter};
 use lc_core::temperature::CentiCelsius;
 
@@ -53,23 +53,48 @@ pub struct Firmware;
 
 impl FixedPath for Firmware {}
 
-/// The reader whose end-to-end path is verified. (The variants differ in
-/// size; there is one per verification.)
-#[allow(clippy::large_enum_variant)]
+/// The reader whose end-to-end path is verified.
 #[derive(Clone, Debug)]
 pub enum EndToEnd {
     /// Proximity.
-    Proximity(ProximityReader),
+    Proximity(ProximityReader<'static>),
     /// Level.
-    Level(LevelReader),
+    Level(LevelReader<'static>),
+}
+
+/// One end-to-end reading, as verified: the value (gap or level), what
+/// the curve was evaluated at (shift or probe / reference ratio) and the
+/// status.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Reading {
+    /// Gap or level, raw output units.
+    pub value: i32,
+    /// The curve's input, Q23.40.
+    pub x: Shift,
+    /// Status.
+    pub status: Status,
 }
 
 impl EndToEnd {
     /// One fixed-point reading.
     pub fn read(&mut self, input: &Input) -> Reading {
         match self {
-            EndToEnd::Proximity(r) => r.read(input),
-            EndToEnd::Level(r) => r.read(input),
+            EndToEnd::Proximity(r) => {
+                let p = r.read(input);
+                Reading {
+                    value: p.gap,
+                    x: p.shift,
+                    status: p.status,
+                }
+            }
+            EndToEnd::Level(r) => {
+                let l = r.read(input);
+                Reading {
+                    value: l.level,
+                    x: Shift::from_raw_q40(l.axis.raw_q40()),
+                    status: l.status,
+                }
+            }
         }
     }
     fn read_f64(&self, input: &Input) -> f64 {
@@ -213,6 +238,12 @@ pub enum VerifyError {
     /// The reader could not be built.
     #[error("the image does not form a reader: {0}")]
     Reader(lc_core::reader::ReaderError),
+    /// The calibration does not form a valid image.
+    #[error("the calibration does not form a valid image: {0}")]
+    Image(lc_core::image::ImageError),
+    /// The rest point does not form a shift converter.
+    #[error("the rest point does not form a shift converter: {0}")]
+    Shift(lc_core::shift::ShiftError),
 }
 
 /// The count pair over a gate of `gate` cycles of a channel with rest
@@ -234,31 +265,29 @@ pub fn verify(
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<VerifyReport, VerifyError> {
     let table = cal.curve.ok_or(VerifyError::NoCurve)?;
-    let curve = table
-        .curve()
-        .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Curve(e)))?;
+    let curve = *table.curve();
+    let image = crate::host_image(cal).map_err(VerifyError::Image)?;
     let reader = match cal.kind {
         lc_core::image::ReaderKind::Proximity => {
-            EndToEnd::Proximity(ProximityReader::new(cal).map_err(VerifyError::Reader)?)
+            EndToEnd::Proximity(ProximityReader::new(&image).map_err(VerifyError::Reader)?)
         }
         lc_core::image::ReaderKind::Level => {
-            EndToEnd::Level(LevelReader::new(cal).map_err(VerifyError::Reader)?)
+            EndToEnd::Level(LevelReader::new(&image).map_err(VerifyError::Reader)?)
         }
         lc_core::image::ReaderKind::Metal => return Err(VerifyError::NoCurve),
     };
     let gate = cal.gate().unwrap_or(16_384);
     let conv = ShiftConverter::new(cal.rest, Gating::Reciprocal, Some(gate))
-        .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Shift(e)))?;
+        .map_err(VerifyError::Shift)?;
     // A level probe with a reference electrode reads q = s_probe / s_reference.
     // End to end, the reference electrode is held at a shift of 1 (its pair
     // for (p/p_rest)² = 2), so q sweeps the curve as the probe's shift does.
     let reference = match (cal.kind, cal.companion_rest) {
         (lc_core::image::ReaderKind::Level, Some(rest)) => {
             let rc = ShiftConverter::new(rest, Gating::Reciprocal, Some(gate))
-                .map_err(|e| VerifyError::Reader(lc_core::reader::ReaderError::Shift(e)))?;
-            let pair = pair_at(gate, rest.to_f64(), 1.0).ok_or(VerifyError::Reader(
-                lc_core::reader::ReaderError::Shift(lc_core::shift::ShiftError::OutOfRange),
-            ))?;
+                .map_err(VerifyError::Shift)?;
+            let pair = pair_at(gate, rest.to_f64(), 1.0)
+                .ok_or(VerifyError::Shift(lc_core::shift::ShiftError::OutOfRange))?;
             Some((rc, pair))
         }
         _ => None,
@@ -381,14 +410,14 @@ pub fn verify(
                     let one_plus_g = 1.0 + cal.drift.compensate_f64(0.0, t_c);
                     let (e_s, e_r) = (shift_bound(s_ref), shift_bound(r_raw));
                     let e_h = cal.drift.offset_error_bound(t_c);
-                    let q = r.shift.to_f64();
+                    let q = r.x.to_f64();
                     let slope_q = (curve.eval_f64(q + h) - curve.eval_f64(q - h)) / (2.0 * h);
                     let e_q = (one_plus_g * (e_s + q.abs() * e_r + (1.0 - q).abs() * e_h)
                         / r_c.abs()
                         + q.abs() * 7.450_580_596_923_828e-9)
                         * (1.0 + 1e-6);
                     (
-                        curve.error_bound(r.shift) + slope_q.abs() * e_q,
+                        curve.error_bound(r.x) + slope_q.abs() * e_q,
                         slope_q.abs() * step_s / r_c.abs(),
                     )
                 }
@@ -464,7 +493,7 @@ pub fn to_text(r: &VerifyReport) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use lc_core::image::tests_support::demo_proximity;
+    use crate::testdata::demo_proximity;
 
     fn small() -> VerifyOptions {
         VerifyOptions {

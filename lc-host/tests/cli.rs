@@ -138,3 +138,49 @@ fn usage_errors_teach() {
     let run = lc_host().arg("--help").output().expect("run");
     assert!(String::from_utf8_lossy(&run.stdout).contains("Not a safety-rated component"));
 }
+
+/// A format-1 image: `inspect` reads it, says how to rewrite it, and
+/// `--rewrite` with the plan and the time writes exactly the committed
+/// format-2 image of that unit (the firmware example's
+/// `demo-proximity-32.lcim`).
+#[test]
+fn inspect_reads_format_one_and_rewrites_it() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+    let v1 = root.join("tests/data/demo-01-0007.format1.lcim");
+    let out = lc_host().arg("inspect").arg(&v1).output().expect("run");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("format 1"), "{text}");
+    assert!(text.contains("--rewrite OUT"), "{text}");
+    let dir = scratch("rewrite");
+    let new = dir.join("unit.lcim");
+    let out = lc_host()
+        .arg("inspect")
+        .arg(&v1)
+        .arg("--rewrite")
+        .arg(&new)
+        .args(["--time", "1764547200", "--plan"])
+        .arg(root.join("examples/data/demo-plan.toml"))
+        .output()
+        .expect("run");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let committed =
+        std::fs::read(root.join("examples/firmware/data/demo-proximity-32.lcim")).expect("read");
+    assert_eq!(std::fs::read(&new).expect("rewritten image"), committed);
+    // The rewritten image inspects as format 2 with its time and plan.
+    let out = lc_host().arg("inspect").arg(&new).output().expect("run");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("format 2") && text.contains("1764547200"),
+        "{text}"
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}

@@ -11,6 +11,7 @@
 
 pub mod pipeline;
 pub mod readout;
+pub mod sizes;
 
 use cortex_m_semihosting::{debug, hio};
 

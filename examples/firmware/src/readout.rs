@@ -2,7 +2,7 @@
 //! readings, over fixed tables of inputs.
 //!
 //! ```text
-//! image bytes ─► Calibration::parse ─► Reader::from_calibration
+//! image bytes ─► Image::new ─► Reader::new
 //! count pairs, companion pairs, ring counts ─┐
 //! NTC ADC code ─► NtcBeta::convert ──────────┴► Reader::read ─► Reading
 //! proximity values ─► Median ─► Ema ─► Detector
@@ -17,7 +17,8 @@
 //! `Debug` name of a value.
 //!
 //! The calibration images are committed binary files (`data/*.lcim`),
-//! embedded with `include_bytes!`; `tests/firmware_images.rs` generates them
+//! embedded 4-byte aligned with `lc_core::include_image!` and read in place
+//! from flash; `tests/firmware_images.rs` generates them
 //! from calibrations built in Rust and fails when a committed file is stale.
 //! The malformed images ([`MALFORMED`]) are made here, in RAM, by editing a
 //! copy of a good one ([`Edit`]), as flash corruption would.
@@ -37,6 +38,8 @@
 //!   the tank capacitors' 30 ppm/K.
 //! - `demo-metal`: the demo coil as a metal detector with ring-down: steel
 //!   (L up, lossy), aluminium (L down, lossy), a hand (L up, no loss).
+//! - `demo-proximity-32`: a DEMO-01 unit as `lc-host calibrate` wrote it:
+//!   a 32-node monotone cubic curve and a fitted drift model.
 //!
 //! Temperatures come from the board's NTC ([`BOARD`]: 10 kΩ, B 3950 K, on a
 //! 12-bit ADC with a 10 kΩ series resistor), as ADC codes. A code the NTC
@@ -52,12 +55,12 @@
 use core::convert::Infallible;
 use core::fmt::{self, Write};
 use core::hash::{Hash, Hasher};
-use core::hint::black_box;
 
 use lc_core::counting::CountPair;
 use lc_core::detector::{Detector, DetectorConfig, DetectorError, Event, Polarity, Presence};
 use lc_core::filter::{Ema, EmaError, Median};
-use lc_core::image::{Calibration, ImageError, ReaderKind, CRC32};
+use lc_core::image::layout::{self, HEADER_LEN, NODE_LEN, SEGMENT_LEN_CUBIC, SEGMENT_LEN_LINEAR};
+use lc_core::image::{Image as CheckedImage, ImageError, ReaderKind, CRC32};
 use lc_core::reader::{Input, Reader, ReaderError, Reading};
 use lc_core::temperature::{
     CentiCelsius, ConfigError, Divider, NtcBeta, NtcPosition, TemperatureError,
@@ -80,24 +83,31 @@ pub const PROXIMITY_TC: usize = 1;
 pub const LEVEL: usize = 2;
 /// Index of the metal unit.
 pub const METAL: usize = 3;
+/// Index of the 32-node cubic proximity unit from `lc-host calibrate`.
+pub const PROXIMITY_32: usize = 4;
 
-/// The committed images, in the order of the indices above.
-pub const IMAGES: [Image; 4] = [
+/// The committed images, in the order of the indices above, each 4-byte
+/// aligned in flash.
+pub static IMAGES: [Image; 5] = [
     Image {
         name: "demo-proximity",
-        bytes: include_bytes!("../data/demo-proximity.lcim"),
+        bytes: lc_core::include_image!("../data/demo-proximity.lcim"),
     },
     Image {
         name: "demo-proximity-tc",
-        bytes: include_bytes!("../data/demo-proximity-tc.lcim"),
+        bytes: lc_core::include_image!("../data/demo-proximity-tc.lcim"),
     },
     Image {
         name: "demo-level",
-        bytes: include_bytes!("../data/demo-level.lcim"),
+        bytes: lc_core::include_image!("../data/demo-level.lcim"),
     },
     Image {
         name: "demo-metal",
-        bytes: include_bytes!("../data/demo-metal.lcim"),
+        bytes: lc_core::include_image!("../data/demo-metal.lcim"),
+    },
+    Image {
+        name: "demo-proximity-32",
+        bytes: lc_core::include_image!("../data/demo-proximity-32.lcim"),
     },
 ];
 
@@ -283,6 +293,10 @@ const fn metal(tag: &'static str, ticks: u32, ring: u16) -> Row {
     Row::gated(METAL, tag, ticks).ring(ring).ntc(C25)
 }
 
+const fn prox32(tag: &'static str, ticks: u32, code: u32) -> Row {
+    Row::gated(PROXIMITY_32, tag, ticks).ntc(code)
+}
+
 /// Steel, aluminium and a hand in front of the metal unit: shifts of
 /// +0.01, −0.01 and +0.004; ring counts 24 at rest, 19 (steel) and 20
 /// (aluminium).
@@ -420,6 +434,18 @@ pub const ROWS: &[Row] = &[
     metal("steel-stays-14", STEEL, 19),
     metal("steel-stays-15", STEEL, 19),
     metal("steel-gone", BACKGROUND, 24),
+    // The 32-node cubic unit (rest about 139 508 ticks): from beyond its
+    // far end to closer than its near end, across temperatures.
+    prox32("rest", 139_508, C25),
+    prox32("far", 138_900, C25),
+    prox32("near-far-end", 137_200, C20),
+    prox32("mid-1", 134_000, C25),
+    prox32("mid-2", 130_000, 816),
+    prox32("mid-3", 125_000, 3_157),
+    prox32("mid-4", 118_000, 401),
+    prox32("near", 110_000, C25),
+    prox32("closer-than-near-end", 100_000, C25),
+    prox32("ntc-open", 125_000, 4_095),
 ];
 
 /// One edit of a copy of an image.
@@ -441,6 +467,8 @@ pub enum Edit {
     /// Recompute the trailing CRC over the bytes before it, so that the
     /// field checks are what fails.
     FixCrc,
+    /// Hand the image over one byte past a word boundary.
+    Misalign,
 }
 
 /// A malformed (or oddly stored) image: a committed image and its edits.
@@ -454,16 +482,19 @@ pub struct Malformed {
     pub edits: &'static [Edit],
 }
 
-/// Room for the edited copy: the largest committed image is 508 bytes.
-pub const SCRATCH_LEN: usize = 512;
+/// Room for the edited copy: the largest committed image is 1 128 bytes.
+pub const SCRATCH_LEN: usize = 1_152;
 
-/// Offsets in the image (docs/image-format.md).
-const CURVE_AT: usize = 104;
-const NODE_LEN: usize = 12;
+/// Where the curve's nodes start, and node `i` (the image layout,
+/// `lc_core::image::layout`).
+const CURVE_AT: usize = HEADER_LEN;
+const fn node(i: usize) -> usize {
+    HEADER_LEN + i * NODE_LEN
+}
 
 /// Malformed images, each refused with its own error, and one accepted
 /// (an image at the start of an erased flash page).
-pub const MALFORMED: [Malformed; 15] = [
+pub const MALFORMED: [Malformed; 18] = [
     Malformed {
         name: "empty",
         base: PROXIMITY,
@@ -487,12 +518,17 @@ pub const MALFORMED: [Malformed; 15] = [
     Malformed {
         name: "unknown-version",
         base: PROXIMITY,
-        edits: &[Edit::Set(4, 2)],
+        edits: &[Edit::Set(layout::VERSION.at, 3)],
+    },
+    Malformed {
+        name: "format-one",
+        base: PROXIMITY,
+        edits: &[Edit::Set(layout::VERSION.at, 1)],
     },
     Malformed {
         name: "length-mismatch",
         base: PROXIMITY,
-        edits: &[Edit::Set(10, 4)],
+        edits: &[Edit::Set(layout::CURVE_NODES.at, 4)],
     },
     Malformed {
         name: "bad-crc",
@@ -507,36 +543,56 @@ pub const MALFORMED: [Malformed; 15] = [
     Malformed {
         name: "bad-kind",
         base: PROXIMITY,
-        edits: &[Edit::Set(8, 9), Edit::FixCrc],
+        edits: &[Edit::Set(layout::KIND.at, 9), Edit::FixCrc],
     },
     Malformed {
         name: "curve-not-monotone",
         base: PROXIMITY,
-        edits: &[Edit::SetU32(CURVE_AT + NODE_LEN + 8, 100), Edit::FixCrc],
+        edits: &[Edit::SetU32(node(1) + layout::NODE_Y.at, 100), Edit::FixCrc],
+    },
+    Malformed {
+        name: "segment-slope-off-by-one",
+        // The first segment's slope mantissa, one unit off.
+        base: PROXIMITY,
+        edits: &[Edit::Xor(node(5) + layout::SEG_K.at, 0x01), Edit::FixCrc],
     },
     Malformed {
         name: "empty-band",
         base: PROXIMITY,
-        edits: &[Edit::SetU32(40, 1), Edit::FixCrc],
+        edits: &[Edit::SetU32(layout::WINDOW_MAX_HZ.at, 1), Edit::FixCrc],
     },
     Malformed {
         name: "drift-too-large",
         base: PROXIMITY_TC,
-        edits: &[Edit::SetU32(68, 0x7FFF_FFFF), Edit::FixCrc],
+        edits: &[Edit::SetU32(layout::DRIFT_B1.at, 0x7FFF_FFFF), Edit::FixCrc],
     },
     Malformed {
-        name: "volume-slope-sign",
-        // The top byte of the ninth volume derivative: a negative slope.
+        name: "volume-tangent-sign",
+        // The top byte of the ninth volume segment's c1 (its start tangent
+        // D0): a falling tangent in a rising table.
         base: LEVEL,
         edits: &[
-            Edit::Set(CURVE_AT + 5 * NODE_LEN + 17 * NODE_LEN + 8 * 8 + 7, 0xFF),
+            Edit::Set(
+                node(5)
+                    + 4 * SEGMENT_LEN_LINEAR
+                    + 17 * NODE_LEN
+                    + 8 * SEGMENT_LEN_CUBIC
+                    + layout::SEG_C1.at
+                    + 3,
+                0xFF,
+            ),
             Edit::FixCrc,
         ],
     },
     Malformed {
         name: "metal-reserved",
         base: METAL,
-        edits: &[Edit::Set(93, 1), Edit::FixCrc],
+        edits: &[Edit::Set(layout::RESERVED_93.at, 1), Edit::FixCrc],
+    },
+    Malformed {
+        name: "misaligned",
+        base: PROXIMITY,
+        edits: &[Edit::Misalign],
     },
     Malformed {
         name: "flash-page",
@@ -545,14 +601,22 @@ pub const MALFORMED: [Malformed; 15] = [
     },
 ];
 
+/// A scratch buffer at a 4-byte aligned address, as an image in flash
+/// would be, with one byte of room in front for [`Edit::Misalign`].
+#[repr(C, align(4))]
+pub struct Scratch(pub [u8; SCRATCH_LEN + 4]);
+
 /// Applies `edits` to a copy of `image` in `buf`; returns the copy's
-/// length. Edits beyond the buffer are ignored.
-pub fn edit(image: &[u8], edits: &[Edit], buf: &mut [u8; SCRATCH_LEN]) -> usize {
+/// bytes (aligned unless an edit misaligned them). Edits beyond the
+/// buffer are ignored.
+pub fn edit<'b>(image: &[u8], edits: &[Edit], scratch: &'b mut Scratch) -> &'b [u8] {
+    let buf = &mut scratch.0;
     let mut len = 0;
     for (d, s) in buf.iter_mut().zip(image) {
         *d = *s;
         len += 1;
     }
+    let mut start = 0;
     for e in edits {
         match *e {
             Edit::Keep(n) => len = len.min(n),
@@ -580,9 +644,13 @@ pub fn edit(image: &[u8], edits: &[Edit], buf: &mut [u8; SCRATCH_LEN]) -> usize 
                 let crc = CRC32.checksum(buf.get(..body).unwrap_or(&[]));
                 put(buf, body, &crc.to_le_bytes());
             }
+            Edit::Misalign => {
+                buf.copy_within(0..len.min(SCRATCH_LEN), 1);
+                start = 1;
+            }
         }
     }
-    len
+    scratch.0.get(start..start + len).unwrap_or(&[])
 }
 
 /// Writes `bytes` at `at`, as far as the buffer reaches.
@@ -591,15 +659,6 @@ fn put(buf: &mut [u8], at: usize, bytes: &[u8]) {
         for (d, s) in slot.iter_mut().zip(bytes) {
             *d = *s;
         }
-    }
-}
-
-/// The reader's kind.
-fn kind_of(reader: &Reader) -> ReaderKind {
-    match reader {
-        Reader::Proximity(_) => ReaderKind::Proximity,
-        Reader::Level(_) => ReaderKind::Level,
-        Reader::Metal(_) => ReaderKind::Metal,
     }
 }
 
@@ -621,12 +680,12 @@ pub enum Line<'a> {
         from: Option<&'a str>,
         /// Its length in bytes.
         len: usize,
-        /// What the parser made of it.
-        parsed: &'a Result<Calibration, ImageError>,
+        /// What the validation made of it.
+        parsed: &'a Result<CheckedImage<'a>, ImageError>,
         /// The reader built from the calibration.
         reader: Option<Result<ReaderKind, ReaderError>>,
-        /// For an accepted malformed image: whether it gives the same
-        /// calibration as the image it was made from.
+        /// For an accepted malformed image: whether it validates to the
+        /// same image as the one it was made from.
         same_as_base: Option<bool>,
     },
     /// One reading.
@@ -688,16 +747,12 @@ pub fn walk<S: Sink>(
     Ok(())
 }
 
-/// One unit: its image, its reader, its rows. Out of line, so that its
-/// calibration and reader leave the stack before the next unit's.
+/// One unit: its image validated in place, its reader, its rows. Out of
+/// line, so that its reader leaves the stack before the next unit's.
 ///
-/// The stack is the scarce resource here (docs/performance.md, "Footprint"):
-/// the calibration lives in this frame and the reader one frame deeper
-/// (`readings`), so that the reader's slot is not on the stack while the
-/// image is parsed, one of the two deepest calls. `Calibration::parse` and
-/// `Reader::from_calibration` are called through pointers the optimizer
-/// cannot see (`black_box`), so that they are not inlined into these frames
-/// and each keeps a frame of its own that lives only during its call.
+/// The image stays in flash: [`CheckedImage::new`] checks it once and the
+/// reader borrows its curves from it; nothing kilobyte-sized is built or
+/// moved.
 #[inline(never)]
 fn unit<S: Sink>(
     u: usize,
@@ -707,46 +762,31 @@ fn unit<S: Sink>(
     chain: Option<&Chain>,
     sink: &mut S,
 ) -> Result<(), S::Error> {
-    let parse: fn(&[u8]) -> Result<Calibration, ImageError> = Calibration::parse;
-    let parsed = black_box(parse)(image.bytes);
-    readings(u, image, &parsed, rows, ntc, chain, sink)
-}
-
-/// The reader of one unit and its rows.
-#[inline(never)]
-fn readings<S: Sink>(
-    u: usize,
-    image: &Image,
-    parsed: &Result<Calibration, ImageError>,
-    rows: &[Row],
-    ntc: Option<&NtcBeta>,
-    chain: Option<&Chain>,
-    sink: &mut S,
-) -> Result<(), S::Error> {
+    let parsed = CheckedImage::new(image.bytes);
     let line = |reader| Line::Image {
         name: image.name,
         from: None,
         len: image.bytes.len(),
-        parsed,
+        parsed: &parsed,
         reader,
         same_as_base: None,
     };
-    // The reader is built straight into this frame's one slot for it.
-    let build: fn(&Calibration) -> Result<Reader, ReaderError> = Reader::from_calibration;
-    let mut built = match parsed {
-        Ok(cal) => black_box(build)(cal),
+    let mut built = match &parsed {
+        Ok(checked) => Reader::new(checked),
         Err(_) => {
             sink.line(&line(None))?;
             return refused(u, image, rows, sink);
         }
     };
-    sink.line(&line(Some(built.as_ref().map(kind_of).map_err(|e| *e))))?;
+    sink.line(&line(Some(
+        built.as_ref().map(Reader::kind).map_err(|e| *e),
+    )))?;
     let reader = match &mut built {
         Ok(reader) => reader,
         Err(_) => return refused(u, image, rows, sink),
     };
-    let mut chain = match reader {
-        Reader::Proximity(_) => chain.cloned(),
+    let mut chain = match reader.kind() {
+        ReaderKind::Proximity => chain.cloned(),
         _ => None,
     };
     for (index, row) in rows.iter().enumerate().filter(|(_, r)| r.unit == u) {
@@ -761,9 +801,13 @@ fn readings<S: Sink>(
             ring_count: row.ring,
         };
         let reading = reader.read(&input);
-        let filtered = match (&mut chain, reading.status) {
-            (_, lc_core::reader::Status::SensorFault(_)) | (None, _) => None,
-            (Some(chain), _) => Some(chain.update(reading.value)),
+        let filtered = match (&mut chain, reading) {
+            (Some(chain), Reading::Proximity(p))
+                if !matches!(p.status, lc_core::reader::Status::SensorFault(_)) =>
+            {
+                Some(chain.update(p.gap))
+            }
+            _ => None,
         };
         sink.line(&Line::Reading {
             unit: image.name,
@@ -794,12 +838,12 @@ fn refused<S: Sink>(u: usize, image: &Image, rows: &[Row], sink: &mut S) -> Resu
 #[inline(never)]
 fn malformed_image<S: Sink>(m: &Malformed, images: &[Image], sink: &mut S) -> Result<(), S::Error> {
     let base = images.get(m.base);
-    let mut buf = [0u8; SCRATCH_LEN];
-    let len = edit(base.map_or(&[], |b| b.bytes), m.edits, &mut buf);
-    let bytes = buf.get(..len).unwrap_or(&[]);
-    let parsed = Calibration::parse(bytes);
+    let mut scratch = Scratch([0u8; SCRATCH_LEN + 4]);
+    let bytes = edit(base.map_or(&[], |b| b.bytes), m.edits, &mut scratch);
+    let len = bytes.len();
+    let parsed = CheckedImage::new(bytes);
     let same_as_base = match (&parsed, base) {
-        (Ok(cal), Some(b)) => Some(Calibration::parse(b.bytes).as_ref() == Ok(cal)),
+        (Ok(image), Some(b)) => Some(CheckedImage::new(b.bytes).as_ref() == Ok(image)),
         _ => None,
     };
     sink.line(&Line::Image {
@@ -848,43 +892,54 @@ impl fmt::Display for PairText {
     }
 }
 
-fn write_calibration(out: &mut impl Write, cal: &Calibration) -> fmt::Result {
+fn write_image(out: &mut impl Write, image: &CheckedImage<'_>) -> fmt::Result {
+    let window = image.window();
+    let drift = image.drift();
+    let output = image.output();
     write!(
         out,
         "serial={} kind={:?} ref_hz={} gate={} band_hz={}..={} min_cycles={} rest_q44={} \
-         companion_q44={} drift={}/{}/{} output={:?}*10^{}",
-        cal.serial.as_str(),
-        cal.kind,
-        cal.reference_hz,
-        cal.gate_cycles,
-        cal.window.min_hz(),
-        cal.window.max_hz(),
-        cal.window.min_cycles(),
-        cal.rest.ratio().raw_q44(),
-        Opt(cal.companion_rest.map(|r| r.ratio().raw_q44())),
-        cal.drift.reference().0,
-        cal.drift.b1_raw(),
-        cal.drift.b2_raw(),
-        cal.output.unit,
-        cal.output.decimal_exponent,
+         companion_q44={} drift={}/{}/{} output={:?}*10^{} calibrated_at={} plan={}",
+        image.serial(),
+        image.kind(),
+        image.reference_hz(),
+        Opt(image.gate()),
+        window.min_hz(),
+        window.max_hz(),
+        window.min_cycles(),
+        image.rest().ratio().raw_q44(),
+        Opt(image.companion_rest().map(|r| r.ratio().raw_q44())),
+        drift.reference().0,
+        drift.b1_raw(),
+        drift.b2_raw(),
+        output.unit,
+        output.decimal_exponent,
+        image.calibrated_at(),
+        Hex(image.plan_id().0),
     )?;
-    let cubic = |c: bool| if c { "cubic" } else { "linear" };
-    match &cal.curve {
-        Some(t) => write!(out, " curve={}/{}", t.nodes().len(), cubic(t.is_cubic()))?,
+    let cubic = |c: lc_core::curve::Interpolation| {
+        if c == lc_core::curve::Interpolation::Linear {
+            "linear"
+        } else {
+            "cubic"
+        }
+    };
+    match image.curve() {
+        Some(c) => write!(out, " curve={}/{}", c.len(), cubic(c.interpolation()))?,
         None => out.write_str(" curve=-")?,
     }
-    match &cal.volume {
-        Some((t, s)) => write!(
+    match image.volume() {
+        Some((c, s)) => write!(
             out,
             " volume={}/{} {:?}*10^{}",
-            t.nodes().len(),
-            cubic(t.is_cubic()),
+            c.len(),
+            cubic(c.interpolation()),
             s.unit,
             s.decimal_exponent
         )?,
         None => out.write_str(" volume=-")?,
     }
-    match &cal.metal {
+    match image.metal() {
         Some(m) => write!(
             out,
             " metal=enter_ppb:{} leave_ppb:{} enter_n:{} leave_n:{} k:{} ring_drop:{} relearn:{}",
@@ -897,6 +952,18 @@ fn write_calibration(out: &mut impl Write, cal: &Calibration) -> fmt::Result {
             m.relearn_readings
         ),
         None => out.write_str(" metal=-"),
+    }
+}
+
+/// Bytes as lower-case hex.
+struct Hex<const N: usize>([u8; N]);
+
+impl<const N: usize> fmt::Display for Hex<N> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for b in self.0 {
+            write!(f, "{b:02x}")?;
+        }
+        Ok(())
     }
 }
 
@@ -926,7 +993,7 @@ impl<W: Write> Sink for Text<'_, W> {
                 }
                 out.write_str("): ")?;
                 match parsed {
-                    Ok(cal) => write_calibration(out, cal)?,
+                    Ok(image) => write_image(out, image)?,
                     Err(e) => write!(out, "error={e:?} ({e})")?,
                 }
                 if let Some(r) = reader {
@@ -951,17 +1018,17 @@ impl<W: Write> Sink for Text<'_, W> {
                 write!(
                     out,
                     "read {unit} {index:02} {} pair={} comp={} ntc={} t={} ring={} -> \
-                     value={} secondary={} shift_q40={} status={:?}",
+                     value={} secondary={} x_q40={} status={:?}",
                     row.tag,
                     PairText(row.pair),
                     Opt(row.companion.map(PairText)),
                     Opt(row.ntc_code),
                     Opt(temperature.map(|t| Show(t.map(|c| c.0)))),
                     Opt(row.ring),
-                    reading.value,
-                    Opt(reading.secondary),
-                    reading.shift.raw_q40(),
-                    reading.status,
+                    reading.output(),
+                    Opt(reading.secondary()),
+                    reading.curve_input_q40(),
+                    reading.status(),
                 )?;
                 if let Some(f) = filtered {
                     write!(
@@ -987,9 +1054,10 @@ impl<W: Write> Sink for Text<'_, W> {
 pub fn run(out: &mut impl Write) -> fmt::Result {
     writeln!(
         out,
-        "# lc-core readout: image -> Calibration::parse -> Reader::from_calibration -> \
-         Reader::read; value and secondary in the image's raw output units, shift_q40 \
-         Q23.40, t in 0.01 degC from the NTC's ADC code. Not a safety-rated component."
+        "# lc-core readout: image -> Image::new -> Reader::new -> Reader::read; value and \
+         secondary in the image's raw output units (metal: class code, ring drop), x_q40 the \
+         curve's input in Q23.40, t in 0.01 degC from the NTC's ADC code. Not a safety-rated \
+         component."
     )?;
     walk(&BOARD, &IMAGES, &MALFORMED, ROWS, &mut Text(out))?;
     writeln!(out, "# end readout")

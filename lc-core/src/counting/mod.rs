@@ -37,4 +37,4 @@ mod window;
 
 pub use gate::{Gate, GateError, Gating};
 pub use pair::CountPair;
-pub use window::{FaultError, FaultWindow, WindowError};
+pub use window::{AcceptedTicks, FaultError, FaultWindow, WindowError};

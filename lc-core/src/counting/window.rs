@@ -76,6 +76,31 @@ pub struct FaultWindow {
     min_cycles: u32,
 }
 
+/// The reference tick counts a [`FaultWindow`] accepts for readings of
+/// exactly one gate length ([`FaultWindow::accepted_ticks`]), inclusive.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct AcceptedTicks {
+    /// The gate, sensor cycles.
+    pub gate_cycles: u32,
+    /// Fewest ticks (the highest plausible frequency).
+    pub min_ticks: u32,
+    /// Most ticks (the lowest plausible frequency).
+    pub max_ticks: u32,
+}
+
+impl AcceptedTicks {
+    /// Whether `pair` has exactly the gate's cycles and its ticks inside
+    /// the accepted range, so that the window passes it. `false` says
+    /// nothing: the pair needs the full check.
+    #[inline(always)]
+    pub fn contains(&self, pair: CountPair) -> bool {
+        pair.cycles == self.gate_cycles
+            && pair.ticks >= self.min_ticks
+            && pair.ticks <= self.max_ticks
+    }
+}
+
 impl FaultWindow {
     /// A window for a reference clock of `reference_hz`, a plausible sensor
     /// band `min_hz..=max_hz` and at least `min_cycles` sensor cycles per gate.
@@ -123,15 +148,16 @@ impl FaultWindow {
         self.min_cycles
     }
 
-    /// For readings of exactly `cycles` sensor cycles (a configured
-    /// reciprocal gate), the band of reference ticks the window accepts,
-    /// inclusive: with it, a reading is checked by two comparisons
-    /// ([`FaultWindow::check_ticks`]). `None` when no tick count passes.
-    pub fn ticks_band(&self, cycles: u32) -> Option<(u32, u32)> {
-        if cycles == 0 || cycles < self.min_cycles || self.max_hz == 0 {
+    /// For readings of exactly `gate_cycles` sensor cycles (a configured
+    /// reciprocal gate), the reference tick counts the window accepts:
+    /// with them, such a reading is checked by two comparisons
+    /// ([`FaultWindow::check_at_gate`]). `None` when no tick count passes.
+    /// One 64-bit division each way: compute it once, at start-up.
+    pub fn accepted_ticks(&self, gate_cycles: u32) -> Option<AcceptedTicks> {
+        if gate_cycles == 0 || gate_cycles < self.min_cycles || self.max_hz == 0 {
             return None;
         }
-        let scaled = mul_u32_wide(self.reference_hz, cycles);
+        let scaled = mul_u32_wide(self.reference_hz, gate_cycles);
         // f ≤ max ⇔ ticks ≥ f_ref·cycles/max; f ≥ min ⇔ ticks ≤ f_ref·cycles/min.
         let lo = scaled.div_ceil(u64::from(self.max_hz)).max(1);
         let hi = scaled
@@ -139,36 +165,30 @@ impl FaultWindow {
             .unwrap_or(u64::MAX);
         let lo = u32::try_from(lo).ok()?;
         let hi = u32::try_from(hi).unwrap_or(u32::MAX);
-        (lo <= hi).then_some((lo, hi))
+        (lo <= hi).then_some(AcceptedTicks {
+            gate_cycles,
+            min_ticks: lo,
+            max_ticks: hi,
+        })
     }
 
-    /// [`FaultWindow::check`] with a precomputed [`FaultWindow::ticks_band`]
-    /// for `gate_cycles`: pairs of exactly that many cycles inside the band
-    /// pass with two comparisons, any other pair gets the full check.
-    /// Accepts and rejects exactly what `check` does. Returns nothing on
-    /// success (the caller has the pair): inlined into a reader, a pair
-    /// inside the band then stays in registers instead of coming back
-    /// through a `Result` in memory.
+    /// [`FaultWindow::check`] with the window's [`AcceptedTicks`] at a
+    /// gate: a pair of exactly that many cycles inside them passes with two
+    /// comparisons, any other pair gets the full check. Accepts and
+    /// rejects exactly what `check` does. Returns nothing on success (the
+    /// caller has the pair): inlined into a reader, a pair inside the band
+    /// then stays in registers instead of coming back through a `Result`
+    /// in memory.
     #[inline(always)]
-    pub fn check_ticks(
+    pub fn check_at_gate(
         &self,
         pair: CountPair,
-        gate_cycles: u32,
-        band: (u32, u32),
+        accepted: &AcceptedTicks,
     ) -> Result<(), FaultError> {
-        if Self::in_band(pair, gate_cycles, band) {
+        if accepted.contains(pair) {
             return Ok(());
         }
         self.check(pair).map(|_| ())
-    }
-
-    /// [`FaultWindow::check_ticks`]'s two comparisons: whether `pair` has
-    /// exactly `gate_cycles` and its ticks inside `band`
-    /// ([`FaultWindow::ticks_band`] of that gate), so that the window
-    /// passes it. `false` says nothing: the pair needs the full check.
-    #[inline(always)]
-    pub fn in_band(pair: CountPair, gate_cycles: u32, band: (u32, u32)) -> bool {
-        pair.cycles == gate_cycles && pair.ticks >= band.0 && pair.ticks <= band.1
     }
 
     /// The pair itself when it is plausible; the first failed check
@@ -273,8 +293,13 @@ mod tests {
             let w = FaultWindow::new(f_ref, lo, lo.saturating_add(span), min_cycles).unwrap();
             let pair = CountPair::new(cycles, ticks);
             let full = w.check(pair);
-            match w.ticks_band(cycles) {
-                Some(band) => prop_assert_eq!(w.check_ticks(pair, cycles, band), full.map(|_| ())),
+            match w.accepted_ticks(cycles) {
+                Some(band) => {
+                    prop_assert_eq!(w.check_at_gate(pair, &band), full.map(|_| ()));
+                    // Any other gate length goes to the full check.
+                    let other = CountPair::new(cycles.wrapping_add(1), ticks);
+                    prop_assert_eq!(w.check_at_gate(other, &band), w.check(other).map(|_| ()));
+                }
                 None => prop_assert!(full.is_err()),
             }
         }

@@ -1,25 +1,93 @@
 //! Capacitive level: shift (or the probe / reference ratio) → level → volume.
 
-use super::{Front, Input, Reader, ReaderError, Reading, SensorFault, Status};
-use crate::counting::Gating;
-use crate::curve::{Curve, CurveStatus};
+use super::{Front, Input, ReaderError, SensorFault, Status};
+use crate::curve::{CurveRef, CurveStatus};
 use crate::fixed::div_q40_by_positive;
-use crate::geometry::VolumeTable;
-use crate::image::Calibration;
+use crate::image::{Image, ReaderKind};
 use crate::shift::{Shift, ShiftConverter};
 use crate::temperature::CentiCelsius;
+
+/// The probe / reference-electrode ratio q = s_probe / s_reference, Q23.40
+/// (dimensionless).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ProbeRatio(i64);
+
+impl ProbeRatio {
+    /// From the raw Q23.40 value.
+    pub const fn from_raw_q40(raw: i64) -> Self {
+        Self(raw)
+    }
+
+    /// The raw Q23.40 value.
+    pub const fn raw_q40(self) -> i64 {
+        self.0
+    }
+
+    /// As `f64`.
+    pub fn to_f64(self) -> f64 {
+        self.0 as f64 / 1_099_511_627_776.0
+    }
+}
+
+/// What the level curve was evaluated at.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum LevelAxis {
+    /// The probe's drift-compensated shift (no reference electrode).
+    Shift(Shift),
+    /// The probe / reference ratio (with a reference electrode).
+    Ratio(ProbeRatio),
+}
+
+impl LevelAxis {
+    /// The raw Q23.40 value, shift or ratio.
+    pub const fn raw_q40(self) -> i64 {
+        match self {
+            LevelAxis::Shift(s) => s.raw_q40(),
+            LevelAxis::Ratio(q) => q.raw_q40(),
+        }
+    }
+}
+
+/// A level reading.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LevelReading {
+    /// The level in the image's output units (raw; scale in the image),
+    /// clamped to the curve's ends; 0 on a sensor fault.
+    pub level: i32,
+    /// The volume at that level in the volume table's units, when the
+    /// image has a volume table (and the reading no sensor fault).
+    pub volume: Option<i32>,
+    /// What the curve was evaluated at.
+    pub axis: LevelAxis,
+    /// Status.
+    pub status: Status,
+}
+
+impl LevelReading {
+    const fn fault(f: SensorFault) -> Self {
+        Self {
+            level: 0,
+            volume: None,
+            axis: LevelAxis::Shift(Shift::ZERO),
+            status: Status::SensorFault(f),
+        }
+    }
+}
 
 /// Level from a capacitive probe in parallel with the tank capacitor.
 ///
 /// - Without a reference electrode the curve maps the probe's shift to the
 ///   level (a two-point calibration, empty and full, is a two-node curve).
-/// - With a reference electrode (the calibration's companion channel: a
-///   short electrode that is always submerged), the curve maps the ratio
+/// - With a reference electrode (the image's companion channel: a short
+///   electrode that is always submerged), the curve maps the ratio
 ///   q = s_probe / s_reference to the level. Both shifts grow in proportion
 ///   to the liquid's permittivity minus one, so q, and the level, do not
 ///   move when the permittivity drifts with temperature or composition.
-///   One division per reading (`fixed::div_q40`'s: a reciprocal and a
-///   product, relative error ≤ 2^-27).
+///   One division per reading (a reciprocal and a product, relative error
+///   ≤ 2^-27).
 ///   The temperature model, when given a temperature, applies to both, in
 ///   its offset form: the ratio of the compensated shifts is
 ///   (s − h)/(r − h) with h = 1/(1 + g) − 1 computed once per temperature
@@ -28,74 +96,38 @@ use crate::temperature::CentiCelsius;
 /// - With a volume table, the level is also turned into a volume (vertical
 ///   tank: linear; horizontal cylinder or strapping table: the table).
 ///
-/// Below the empty end and above the full end the value is clamped and the
+/// Below the empty end and above the full end the level is clamped and the
 /// status says which.
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct LevelReader {
+pub struct LevelReader<'a> {
     front: Front,
     /// The reference electrode's converter (its fault window and
     /// temperature model are the probe's).
     reference: Option<ShiftConverter>,
-    curve: Curve,
-    volume: Option<VolumeTable>,
+    curve: CurveRef<'a>,
+    volume: Option<CurveRef<'a>>,
     /// The drift model's offset form at the last temperature seen (ratio
-    /// path): h = 1/(1 + g) − 1
-    /// ([`DriftFactor::offset`](crate::drift::DriftFactor::offset)).
+    /// path): h = 1/(1 + g) − 1.
     offset_cache: Option<(CentiCelsius, i64)>,
 }
 
-impl LevelReader {
-    /// From a calibration with a curve (and optionally a reference
-    /// electrode and a volume table).
-    pub fn new(cal: &Calibration) -> Result<Self, ReaderError> {
-        let (front, reference) = Self::parts(cal)?;
-        let mut r = Self::from_parts(front, reference);
-        r.fill(cal)?;
-        Ok(r)
-    }
-
-    /// What the reader needs besides its curves (small values only):
-    /// [`Reader::from_calibration`] builds the reader inside the enum from
-    /// these and then fills the curves in place, so no 2 KB temporaries
-    /// land on the stack.
-    pub(super) fn parts(cal: &Calibration) -> Result<(Front, Option<ShiftConverter>), ReaderError> {
-        if cal.curve.is_none() {
-            return Err(ReaderError::Incomplete);
+impl<'a> LevelReader<'a> {
+    /// The reader of a level image ([`ReaderError::WrongKind`] for another
+    /// kind). Cost: a copy of the image's derived constants, no
+    /// validation. RAM: 232 bytes on a 32-bit target, whatever the tables'
+    /// node counts (the crate docs, "Memory"); stack: the same, once.
+    pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
+        match (image.kind(), image.curve()) {
+            (ReaderKind::Level, Some(curve)) => Ok(Self {
+                front: *image.front(),
+                reference: image.reference(),
+                curve,
+                volume: image.volume().map(|(v, _)| v),
+                offset_cache: None,
+            }),
+            (kind, _) => Err(ReaderError::WrongKind(kind)),
         }
-        let gate = cal.gate();
-        let reference = match cal.companion_rest {
-            Some(rest) => Some(
-                ShiftConverter::new(rest, Gating::Reciprocal, gate).map_err(ReaderError::Shift)?,
-            ),
-            None => None,
-        };
-        Ok((Front::new(cal, false)?, reference))
-    }
-
-    /// The reader from its parts, its curves empty until [`Self::fill`].
-    #[inline(always)]
-    pub(super) fn from_parts(front: Front, reference: Option<ShiftConverter>) -> Self {
-        Self {
-            front,
-            reference,
-            curve: Curve::PLACEHOLDER,
-            volume: None,
-            offset_cache: None,
-        }
-    }
-
-    /// Builds the level curve and the volume table of `cal` in place.
-    pub(super) fn fill(&mut self, cal: &Calibration) -> Result<(), ReaderError> {
-        let table = cal.curve.as_ref().ok_or(ReaderError::Incomplete)?;
-        table
-            .build_curve(&mut self.curve)
-            .map_err(ReaderError::Curve)?;
-        if let Some((t, _)) = &cal.volume {
-            let volume = self.volume.insert(VolumeTable::PLACEHOLDER);
-            volume.rebuild(t).map_err(ReaderError::Curve)?;
-        }
-        Ok(())
     }
 
     /// The drift model's offset at `t` (Q.40), from the cache when `t` is
@@ -111,17 +143,17 @@ impl LevelReader {
     /// The offset at a new temperature, cached.
     #[inline(never)]
     fn new_offset(&mut self, t: CentiCelsius) -> i64 {
-        let h = self.front.drift.factor(t).offset().raw_q40();
+        let h = self.front.drift().factor(t).offset().raw_q40();
         self.offset_cache = Some((t, h));
         h
     }
 
-    fn curve_input(&mut self, input: &Input) -> Result<Shift, SensorFault> {
+    fn curve_input(&mut self, input: &Input) -> Result<LevelAxis, SensorFault> {
         let Some(conv) = &self.reference else {
-            return self.front.shift(input);
+            return self.front.shift(input).map(LevelAxis::Shift);
         };
         // The reference electrode shares the probe's fault window, gate and
-        // temperature model: its check goes through the same tick band.
+        // temperature model: its check goes through the same accepted ticks.
         let s = self.front.raw_shift(input.pair)?;
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
         let r = self
@@ -142,29 +174,31 @@ impl LevelReader {
             return Err(SensorFault::Reference);
         }
         div_q40_by_positive(s, r.unsigned_abs())
-            .map(Shift::from_raw_q40)
+            .map(|q| LevelAxis::Ratio(ProbeRatio(q)))
             .ok_or(SensorFault::Reference)
     }
 
-    /// One reading: the level, and the volume as `secondary` when the
-    /// calibration has a volume table.
+    /// One reading: the level, and the volume when the image has a volume
+    /// table.
     #[inline(never)]
-    pub fn read(&mut self, input: &Input) -> Reading {
-        let x = match self.curve_input(input) {
+    pub fn read(&mut self, input: &Input) -> LevelReading {
+        let axis = match self.curve_input(input) {
             Ok(x) => x,
-            Err(f) => return Reading::fault(f),
+            Err(f) => return LevelReading::fault(f),
         };
-        let v = self.curve.eval(x);
+        let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
         let status = match v.status {
             CurveStatus::InRange => Status::Ok,
             CurveStatus::BelowRange => Status::BelowRange,
             CurveStatus::AboveRange => Status::AboveRange,
         };
-        let secondary = self.volume.as_ref().map(|vol| vol.volume(v.value).value);
-        Reading {
-            value: v.value,
-            secondary,
-            shift: x,
+        LevelReading {
+            level: v.value,
+            volume: self
+                .volume
+                .as_ref()
+                .map(|vol| vol.eval_whole(v.value).value),
+            axis,
             status,
         }
     }
@@ -177,7 +211,7 @@ impl LevelReader {
             (Some(conv), Some(pair)) => {
                 let r = conv.shift_f64(pair);
                 let r = match input.temperature {
-                    Some(t) => self.front.drift.compensate_f64(r, t.to_f64()),
+                    Some(t) => self.front.drift().compensate_f64(r, t.to_f64()),
                     None => r,
                 };
                 s / r
@@ -185,13 +219,8 @@ impl LevelReader {
             _ => s,
         };
         let level = self.curve.eval_f64(x);
-        let volume = self.volume.as_ref().map(|v| v.volume_f64(level));
+        // The volume table's axis is level · 2^32 in Q23.40: level / 256.
+        let volume = self.volume.as_ref().map(|v| v.eval_f64(level / 256.0));
         (level, volume)
-    }
-}
-
-impl From<LevelReader> for Reader {
-    fn from(r: LevelReader) -> Self {
-        Reader::Level(r)
     }
 }

@@ -1,19 +1,25 @@
 //! Readers: the whole per-reading pipeline of one product, composed from the
-//! stages, from a count pair to a value with its status.
+//! stages, from a count pair to a typed reading with its status.
 //!
 //! ```text
 //! count pair ─► fault window ─► shift (or companion ratio) ─► drift model
-//!            ─► curve ─► value + status
+//!            ─► curve (read in place from the image) ─► reading + status
 //! ```
 //!
-//! - [`ProximityReader`]: shift → gap (inductive proximity);
+//! - [`ProximityReader`]: shift → gap ([`ProximityReading`]);
 //! - [`LevelReader`]: shift, or the ratio of probe and reference-electrode
-//!   shifts, → level, and optionally → volume (capacitive level);
+//!   shifts, → level, and optionally → volume ([`LevelReading`]);
 //! - [`MetalReader`]: baseline tracking, detection with hysteresis and
 //!   debounce, and classification ferrous / non-ferrous, confirmed by the
-//!   ring-down (metal detection).
+//!   ring-down ([`MetalReading`]).
 //!
-//! [`Reader`] builds the right one from a [`Calibration`] and runs it.
+//! Each is built from a validated [`Image`] and checks its kind; it holds
+//! only what changes at run time (drift cache, baselines, detector) and
+//! the few constants derived at start-up, and borrows its curves from the
+//! image's bytes. [`Reader`] is any of them, for a firmware that learns the
+//! kind from the image; it costs the largest reader's RAM, and in flash the
+//! readers whose cargo features are enabled (`proximity`, `level`,
+//! `metal`).
 //!
 //! **Not a safety-rated component.** Where a reading protects people or
 //! machines, the safety function must follow the applicable
@@ -22,30 +28,53 @@
 //!
 //! ```
 //! use lc_core::counting::CountPair;
-//! use lc_core::image::tests_support::demo_proximity;
-//! use lc_core::reader::{Input, Reader, Status};
+//! use lc_core::image::Image;
+//! use lc_core::reader::{Input, Reader, Reading, Status};
 //!
-//! let mut reader = Reader::from_calibration(&demo_proximity().unwrap()).unwrap();
-//! let r = reader.read(&Input::counts(CountPair::new(16_384, 123_700)));
+//! static IMAGE: &[u8] =
+//!     lc_core::include_image!("../../../examples/firmware/data/demo-proximity.lcim");
+//! let image = Image::new(IMAGE).unwrap();
+//! let mut reader = Reader::new(&image).unwrap();
+//! let Reading::Proximity(r) = reader.read(&Input::counts(CountPair::new(16_384, 123_700))) else {
+//!     panic!("a proximity image")
+//! };
 //! assert_eq!(r.status, Status::Ok);
-//! assert!((1_000..=2_500).contains(&r.value)); // micrometres
+//! assert!((1_000..=2_500).contains(&r.gap)); // micrometres
 //! // A stalled oscillator is a sensor fault, never a reading.
 //! let r = reader.read(&Input::counts(CountPair::new(0, 123_700)));
-//! assert!(matches!(r.status, Status::SensorFault(_)));
+//! assert!(matches!(r.status(), Status::SensorFault(_)));
 //! ```
 
+#[cfg(feature = "level")]
 mod level;
+#[cfg(feature = "metal")]
 mod metal;
+#[cfg(feature = "proximity")]
 mod proximity;
 
-pub use level::LevelReader;
-pub use metal::{MetalClass, MetalReader};
-pub use proximity::ProximityReader;
+#[cfg(feature = "level")]
+pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
+#[cfg(feature = "metal")]
+pub use metal::{MetalReader, MetalReading};
+#[cfg(feature = "proximity")]
+pub use proximity::{ProximityReader, ProximityReading};
 
-use crate::counting::{CountPair, FaultError, FaultWindow};
-use crate::curve::CurveError;
+use crate::counting::{AcceptedTicks, CountPair, FaultError, FaultWindow};
+use crate::detector::{Detector, DetectorConfig, Polarity};
 use crate::drift::{Companion, CompanionError, DriftFactor, TemperatureModel};
-use crate::image::{Calibration, ReaderKind};
+#[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
+use crate::image::Image;
+use crate::image::{MetalParams, ReaderKind};
+
+/// What `Reader` and `Reading` need: at least one reader.
+macro_rules! any_reader {
+    ($($item:item)*) => {
+        $(
+            #[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
+            $item
+        )*
+    };
+}
 use crate::shift::{Shift, ShiftConverter, ShiftError};
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -112,56 +141,109 @@ pub enum Status {
     SensorFault(SensorFault),
 }
 
-/// One reading.
+/// What kind of metal a detection is.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Reading {
-    /// The value in the calibration's output units (raw; scale in the
-    /// image): gap, level, or for metal the [`MetalClass`] code.
-    pub value: i32,
-    /// Level: volume in the volume table's units. Metal: the ring-count
-    /// drop against the learned ring count.
-    pub secondary: Option<i32>,
-    /// The shift the value came from, after drift compensation (metal: the
-    /// shift minus the baseline).
-    pub shift: Shift,
-    /// Status.
-    pub status: Status,
+pub enum MetalClass {
+    /// No target.
+    None = 0,
+    /// L rose: a ferromagnetic target (permeability).
+    Ferrous = 1,
+    /// L fell: a non-ferrous conductor (eddy currents).
+    NonFerrous = 2,
+}
+
+any_reader! {
+/// Any reader's reading: the reading type of the image's kind.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Reading {
+    /// A proximity reading.
+    #[cfg(feature = "proximity")]
+    Proximity(ProximityReading),
+    /// A level reading.
+    #[cfg(feature = "level")]
+    Level(LevelReading),
+    /// A metal reading.
+    #[cfg(feature = "metal")]
+    Metal(MetalReading),
 }
 
 impl Reading {
-    pub(crate) const fn fault(f: SensorFault) -> Self {
-        Self {
-            value: 0,
-            secondary: None,
-            shift: Shift::ZERO,
-            status: Status::SensorFault(f),
+    /// The reading's status.
+    pub fn status(&self) -> Status {
+        match self {
+            #[cfg(feature = "proximity")]
+            Reading::Proximity(r) => r.status,
+            #[cfg(feature = "level")]
+            Reading::Level(r) => r.status,
+            #[cfg(feature = "metal")]
+            Reading::Metal(r) => r.status,
+        }
+    }
+
+    /// The primary output as the raw integer of the image's output scale,
+    /// for logs whose one value column holds any kind: the gap, the level,
+    /// or the metal class's code ([`MetalClass`] as `u8`).
+    pub fn output(&self) -> i32 {
+        match self {
+            #[cfg(feature = "proximity")]
+            Reading::Proximity(r) => r.gap,
+            #[cfg(feature = "level")]
+            Reading::Level(r) => r.level,
+            #[cfg(feature = "metal")]
+            Reading::Metal(r) => r.class as i32,
+        }
+    }
+
+    /// The second output, for the same logs: the level's volume, or the
+    /// metal reading's ring-count drop.
+    pub fn secondary(&self) -> Option<i32> {
+        match self {
+            #[cfg(feature = "proximity")]
+            Reading::Proximity(_) => None,
+            #[cfg(feature = "level")]
+            Reading::Level(r) => r.volume,
+            #[cfg(feature = "metal")]
+            Reading::Metal(r) => r.ring_drop,
+        }
+    }
+
+    /// The raw Q23.40 value the curve was evaluated at: the shift after
+    /// drift compensation (level with a reference electrode: the probe /
+    /// reference ratio; metal: the shift minus the baseline).
+    pub fn curve_input_q40(&self) -> i64 {
+        match self {
+            #[cfg(feature = "proximity")]
+            Reading::Proximity(r) => r.shift.raw_q40(),
+            #[cfg(feature = "level")]
+            Reading::Level(r) => r.axis.raw_q40(),
+            #[cfg(feature = "metal")]
+            Reading::Metal(r) => r.delta.raw_q40(),
         }
     }
 }
 
-/// Why a reader could not be built from a calibration.
+}
+
+/// Why a reader could not be built from an image.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum ReaderError {
-    /// The calibration lacks what this reader needs (a curve, metal
-    /// parameters).
-    Incomplete,
-    /// A table does not form a curve.
-    Curve(CurveError),
-    /// The rest points do not form a converter or a companion ratio.
-    Shift(ShiftError),
-    /// The metal parameters are inconsistent.
-    Metal,
+    /// The image is of another kind than this reader's (the image's kind).
+    WrongKind(ReaderKind),
+    /// This build leaves out the reader of the image's kind (its cargo
+    /// feature is off).
+    NotBuilt(ReaderKind),
 }
 
 impl fmt::Display for ReaderError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            ReaderError::Incomplete => f.write_str("calibration lacks a part this reader needs"),
-            ReaderError::Curve(e) => write!(f, "curve: {e}"),
-            ReaderError::Shift(e) => write!(f, "rest point: {e}"),
-            ReaderError::Metal => f.write_str("metal parameters inconsistent"),
+            ReaderError::WrongKind(k) => write!(f, "the image is for a {k:?} reader"),
+            ReaderError::NotBuilt(k) => {
+                write!(f, "this build leaves out the {k:?} reader (cargo feature)")
+            }
         }
     }
 }
@@ -169,7 +251,7 @@ impl fmt::Display for ReaderError {
 impl core::error::Error for ReaderError {}
 
 /// The front of every reader: fault window, shift or companion ratio, and
-/// the temperature model.
+/// the temperature model. Derived once, at image validation.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub(crate) struct Front {
@@ -177,47 +259,62 @@ pub(crate) struct Front {
     converter: ShiftConverter,
     companion: Option<Companion>,
     drift: TemperatureModel,
-    /// The gate and its accepted tick band, for the two-comparison check.
-    gate_band: Option<(u32, (u32, u32))>,
+    /// The tick counts the window accepts at the gate, for the
+    /// two-comparison check.
+    accepted: Option<AcceptedTicks>,
     /// The drift correction at the last temperature seen: temperature
     /// moves far more slowly than readings come.
     drift_cache: Option<(CentiCelsius, DriftFactor)>,
 }
 
 impl Front {
-    pub(crate) fn new(cal: &Calibration, companion_is_ratio: bool) -> Result<Self, ReaderError> {
-        let gate = cal.gate();
-        let converter = ShiftConverter::new(cal.rest, crate::counting::Gating::Reciprocal, gate)
-            .map_err(ReaderError::Shift)?;
-        let companion = match (cal.companion_rest, companion_is_ratio) {
-            (Some(c), true) => Some(Companion::new(cal.rest, c).map_err(ReaderError::Shift)?),
-            _ => None,
-        };
-        let gate_band = gate.and_then(|g| cal.window.ticks_band(g).map(|b| (g, b)));
-        Ok(Self {
-            window: cal.window,
+    pub(crate) fn new(
+        window: FaultWindow,
+        converter: ShiftConverter,
+        companion: Option<Companion>,
+        drift: TemperatureModel,
+        gate: Option<u32>,
+    ) -> Self {
+        Self {
+            window,
             converter,
             companion,
-            drift: cal.drift,
-            gate_band,
+            drift,
+            accepted: gate.and_then(|g| window.accepted_ticks(g)),
             drift_cache: None,
-        })
+        }
     }
 
-    /// The fault window's check, through the precomputed band when the
-    /// pair has the gate's cycle count.
+    pub(crate) fn gate(&self) -> Option<u32> {
+        self.converter.gate_cycles()
+    }
+
+    pub(crate) fn window(&self) -> FaultWindow {
+        self.window
+    }
+
+    pub(crate) fn converter(&self) -> &ShiftConverter {
+        &self.converter
+    }
+
+    pub(crate) fn drift(&self) -> TemperatureModel {
+        self.drift
+    }
+
+    /// The fault window's check, through the accepted ticks when the pair
+    /// has the gate's cycle count.
     #[inline(always)]
     fn check(&self, pair: CountPair) -> Result<(), FaultError> {
-        match self.gate_band {
-            Some((gate, band)) => self.window.check_ticks(pair, gate, band),
+        match &self.accepted {
+            Some(a) => self.window.check_at_gate(pair, a),
             None => self.window.check(pair).map(|_| ()),
         }
     }
 
     /// The shift of `pair` by `conv` (a converter of this front's gate)
     /// through the fault window, `window` naming a window fault: a pair of
-    /// the gate's cycles inside its tick band takes two comparisons and
-    /// the converter's gate path with nothing checked twice; any other
+    /// the gate's cycles inside its accepted ticks takes two comparisons
+    /// and the converter's gate path with nothing checked twice; any other
     /// pair the full check and the general path. Same results as the
     /// check and [`ShiftConverter::shift`].
     #[inline(always)]
@@ -227,8 +324,8 @@ impl Front {
         pair: CountPair,
         window: impl FnOnce(FaultError) -> SensorFault,
     ) -> Result<Shift, SensorFault> {
-        if let Some((gate, band)) = self.gate_band {
-            if FaultWindow::in_band(pair, gate, band) {
+        if let Some(a) = &self.accepted {
+            if a.contains(pair) {
                 return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
             }
         }
@@ -290,69 +387,141 @@ impl Front {
     }
 }
 
-/// Any reader, built from a calibration.
+/// Parts per billion of shift to Q23.40, rounded (start-up only).
+pub(crate) fn ppb_to_q40(ppb: u32) -> u64 {
+    // ppb · 2^40 / 1e9 < 2^32 · 2^40 / 2^29.9: fits u64.
+    let n = u128::from(ppb) << 40;
+    crate::fixed::round_div_u128(n, 1_000_000_000)
+        .and_then(|q| u64::try_from(q).ok())
+        .unwrap_or(u64::MAX)
+}
+
+/// The metal reader's detector configuration from its parameters.
+pub(crate) fn metal_detector(p: &MetalParams) -> DetectorConfig<u64> {
+    DetectorConfig {
+        polarity: Polarity::Rising,
+        enter_threshold: ppb_to_q40(p.enter_ppb),
+        leave_threshold: ppb_to_q40(p.leave_ppb),
+        enter_samples: p.enter_samples,
+        leave_samples: p.leave_samples,
+    }
+}
+
+/// Whether the metal reader accepts these parameters (image validation:
+/// an image that validates builds its reader).
+pub(crate) fn metal_builds(p: &MetalParams) -> bool {
+    Detector::new(metal_detector(p)).is_ok()
+        && crate::filter::Ema::<Shift>::new(u32::from(p.baseline_k)).is_ok()
+}
+
+any_reader! {
+/// Any reader, built from an image: the one its kind names.
 ///
-/// The variants differ in size (a level reader holds two curves); firmware
-/// keeps one reader in a static, and there is no heap to box into.
-#[allow(clippy::large_enum_variant)]
+/// RAM: the largest enabled reader plus a tag, 240 bytes on a 32-bit
+/// target with all three (the crate docs, "Memory"); flash: every enabled
+/// reader's code.
+#[allow(clippy::large_enum_variant)] // one reader lives in RAM, the largest's size
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 // An explicit tag: `read`'s dispatch is one byte compare, whatever niche
-// the readers' fields would offer (measured: 4 instructions per reading on
-// a Cortex-M0 against the niche of the level reader's caches).
+// the readers' fields would offer.
 #[repr(u8)]
-pub enum Reader {
+pub enum Reader<'a> {
     /// Proximity.
-    Proximity(ProximityReader),
+    #[cfg(feature = "proximity")]
+    Proximity(ProximityReader<'a>),
     /// Level.
-    Level(LevelReader),
+    #[cfg(feature = "level")]
+    Level(LevelReader<'a>),
     /// Metal.
+    #[cfg(feature = "metal")]
     Metal(MetalReader),
+    /// Never built: keeps the lifetime when the curve readers are left
+    /// out.
+    #[doc(hidden)]
+    _Image(core::marker::PhantomData<&'a ()>, core::convert::Infallible),
 }
 
-impl Reader {
-    /// The reader a calibration describes.
-    ///
-    /// The reader is built inside the enum from small parts, and its
-    /// curves are then filled in place: a level reader is 4 KB, and the
-    /// firmware's stack should hold one of it, not several temporaries.
-    pub fn from_calibration(cal: &Calibration) -> Result<Self, ReaderError> {
-        let mut reader = match cal.kind {
-            ReaderKind::Proximity => {
-                Reader::Proximity(ProximityReader::from_parts(ProximityReader::parts(cal)?))
-            }
-            ReaderKind::Level => {
-                let (front, reference) = LevelReader::parts(cal)?;
-                Reader::Level(LevelReader::from_parts(front, reference))
-            }
-            ReaderKind::Metal => Reader::Metal(MetalReader::new(cal)?),
-        };
-        match &mut reader {
-            Reader::Proximity(r) => r.fill(cal)?,
-            Reader::Level(r) => r.fill(cal)?,
-            Reader::Metal(_) => {}
+impl<'a> Reader<'a> {
+    /// The reader the image's kind names ([`ReaderError::NotBuilt`] when
+    /// its cargo feature is off). Cost: a copy of the image's derived
+    /// constants, no validation (the image is validated). Stack: the
+    /// reader's size.
+    pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
+        match image.kind() {
+            #[cfg(feature = "proximity")]
+            ReaderKind::Proximity => ProximityReader::new(image).map(Reader::Proximity),
+            #[cfg(feature = "level")]
+            ReaderKind::Level => LevelReader::new(image).map(Reader::Level),
+            #[cfg(feature = "metal")]
+            ReaderKind::Metal => MetalReader::new(image).map(Reader::Metal),
+            #[allow(unreachable_patterns)]
+            other => Err(ReaderError::NotBuilt(other)),
         }
-        Ok(reader)
+    }
+
+    /// The kind of reader.
+    pub fn kind(&self) -> ReaderKind {
+        match self {
+            #[cfg(feature = "proximity")]
+            Reader::Proximity(_) => ReaderKind::Proximity,
+            #[cfg(feature = "level")]
+            Reader::Level(_) => ReaderKind::Level,
+            #[cfg(feature = "metal")]
+            Reader::Metal(_) => ReaderKind::Metal,
+            Reader::_Image(_, never) => match *never {},
+        }
     }
 
     /// One reading.
     pub fn read(&mut self, input: &Input) -> Reading {
         match self {
-            Reader::Proximity(r) => r.read(input),
-            Reader::Level(r) => r.read(input),
-            Reader::Metal(r) => r.read(input),
+            #[cfg(feature = "proximity")]
+            Reader::Proximity(r) => Reading::Proximity(r.read(input)),
+            #[cfg(feature = "level")]
+            Reader::Level(r) => Reading::Level(r.read(input)),
+            #[cfg(feature = "metal")]
+            Reader::Metal(r) => Reading::Metal(r.read(input)),
+            Reader::_Image(_, never) => match *never {},
         }
     }
 }
+}
 
-#[cfg(test)]
+#[cfg(all(test, feature = "design"))]
 pub(crate) mod tests {
     use super::*;
     use crate::curve::{pchip_derivatives, Node};
     use crate::image::tests_support::demo_proximity;
-    use crate::image::{MetalParams, OutputScale, OutputUnit, Serial, Table};
+    use crate::image::{Calibration, Image, OutputScale, OutputUnit, Serial, Table};
     use crate::shift::RestPoint;
     use proptest::prelude::*;
+
+    /// The validated image of a calibration (its buffer leaked: tests
+    /// only).
+    fn image(cal: &Calibration) -> Image<'static> {
+        let buf = Box::leak(Box::new(cal.to_image_buf().unwrap()));
+        buf.image().unwrap()
+    }
+
+    fn reader(cal: &Calibration) -> Reader<'static> {
+        Reader::new(&image(cal)).unwrap()
+    }
+
+    /// A proximity reading (panics on another kind: tests only).
+    fn prox(r: Reading) -> ProximityReading {
+        match r {
+            Reading::Proximity(p) => p,
+            other => panic!("{other:?}"),
+        }
+    }
+
+    fn lvl(r: Reading) -> LevelReading {
+        match r {
+            Reading::Level(p) => p,
+            other => panic!("{other:?}"),
+        }
+    }
 
     /// Ticks over the demo gate (16 384 cycles, p_rest = 139 542/16 384)
     /// for a shift s: p = p_rest·√(1 + s).
@@ -366,24 +535,34 @@ pub(crate) mod tests {
 
     #[test]
     fn proximity_statuses() {
-        let mut r = Reader::from_calibration(&demo_proximity().unwrap()).unwrap();
+        let mut r = reader(&demo_proximity().unwrap());
         // Demo nodes: shift −0.329 → 500 µm … −0.019 → 8 000 µm.
-        let mid = r.read(&Input::counts(pair_for(-0.185)));
+        let mid = prox(r.read(&Input::counts(pair_for(-0.185))));
         assert_eq!(mid.status, Status::Ok);
-        assert!((1_000..2_500).contains(&mid.value), "{mid:?}");
-        let far = r.read(&Input::counts(pair_for(-0.001)));
-        assert_eq!((far.status, far.value), (Status::NoTarget, 8_000));
-        let near = r.read(&Input::counts(pair_for(-0.5)));
-        assert_eq!((near.status, near.value), (Status::BelowRange, 500));
+        assert!((1_000..2_500).contains(&mid.gap), "{mid:?}");
+        let far = prox(r.read(&Input::counts(pair_for(-0.001))));
+        assert_eq!((far.status, far.gap), (Status::NoTarget, 8_000));
+        let near = prox(r.read(&Input::counts(pair_for(-0.5))));
+        assert_eq!((near.status, near.gap), (Status::BelowRange, 500));
         let dead = r.read(&Input::counts(CountPair::new(0, 1)));
         assert_eq!(
-            dead.status,
+            dead.status(),
             Status::SensorFault(SensorFault::Counts(FaultError::NoOscillation))
         );
         let wild = r.read(&Input::counts(CountPair::new(16_384, 10)));
         assert_eq!(
-            wild.status,
+            wild.status(),
             Status::SensorFault(SensorFault::Counts(FaultError::FrequencyTooHigh))
+        );
+        // The typed readers check the kind.
+        let img = image(&demo_proximity().unwrap());
+        assert_eq!(
+            LevelReader::new(&img),
+            Err(ReaderError::WrongKind(ReaderKind::Proximity))
+        );
+        assert_eq!(
+            MetalReader::new(&img).map(|_| ()),
+            Err(ReaderError::WrongKind(ReaderKind::Proximity))
         );
     }
 
@@ -391,16 +570,16 @@ pub(crate) mod tests {
     fn proximity_with_a_companion_coil_ignores_common_drift() {
         let mut cal = demo_proximity().unwrap();
         cal.companion_rest = Some(RestPoint::from_counts(CountPair::new(16_384, 150_000)).unwrap());
-        let mut r = Reader::from_calibration(&cal).unwrap();
+        let mut r = reader(&cal);
         let target = -0.12;
         for drift in [0.0, 0.002, -0.003] {
             // Temperature scales both L·C products by 1 + drift.
             let main = pair_for((1.0 + target) * (1.0 + drift) - 1.0);
             let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.0 + drift)).round() as u32);
-            let read = r.read(&Input {
+            let read = prox(r.read(&Input {
                 companion: Some(comp),
                 ..Input::counts(main)
-            });
+            }));
             assert_eq!(read.status, Status::Ok);
             // Within the counts' own rounding (2/139 542 of shift ≈ 0.02 mm here).
             assert!(
@@ -410,7 +589,7 @@ pub(crate) mod tests {
         }
         let missing = r.read(&Input::counts(pair_for(target)));
         assert_eq!(
-            missing.status,
+            missing.status(),
             Status::SensorFault(SensorFault::Companion(None))
         );
     }
@@ -474,51 +653,52 @@ pub(crate) mod tests {
 
     #[test]
     fn level_two_point_and_volume() {
-        let mut r = Reader::from_calibration(&level_cal(false, true)).unwrap();
-        let half = r.read(&Input::counts(pair_for(0.4)));
+        let mut r = reader(&level_cal(false, true));
+        let half = lvl(r.read(&Input::counts(pair_for(0.4))));
         assert_eq!(half.status, Status::Ok);
-        assert!((half.value - 5_000).abs() <= 1, "{half:?}");
+        assert!((half.level - 5_000).abs() <= 1, "{half:?}");
         // 500.0 mm is above the 400 mm cylinder: full, 125.66 L.
         let full_l = core::f64::consts::PI * 0.04 * 1e6;
         assert!(
-            (f64::from(half.secondary.unwrap()) - full_l).abs() < 2.0,
+            (f64::from(half.volume.unwrap()) - full_l).abs() < 2.0,
             "{half:?}"
         );
-        let quarter = r.read(&Input::counts(pair_for(0.8 * 0.05)));
+        let quarter = lvl(r.read(&Input::counts(pair_for(0.8 * 0.05))));
         // 50.0 mm in a 400 mm cylinder (h/D = 0.125): docs/references.md, Horizontal tank cases,
         // gives the fraction of volume from the circular segment.
         let h = 0.05f64;
         let a = 0.04 * libm::acos((0.2 - h) / 0.2) - (0.2 - h) * libm::sqrt(0.4 * h - h * h);
         assert!(
-            (f64::from(quarter.secondary.unwrap()) - a * 1e6).abs() < 0.01 * a * 1e6,
+            (f64::from(quarter.volume.unwrap()) - a * 1e6).abs() < 0.01 * a * 1e6,
             "{quarter:?}"
         );
         assert_eq!(
-            r.read(&Input::counts(pair_for(-0.1))).status,
+            r.read(&Input::counts(pair_for(-0.1))).status(),
             Status::BelowRange
         );
         assert_eq!(
-            r.read(&Input::counts(pair_for(0.9))).status,
+            r.read(&Input::counts(pair_for(0.9))).status(),
             Status::AboveRange
         );
     }
 
     #[test]
     fn level_reference_electrode_cancels_permittivity() {
-        let mut r = Reader::from_calibration(&level_cal(true, false)).unwrap();
+        let mut r = reader(&level_cal(true, false));
         // Probe and reference shifts both scale with εr − 1; the level
         // fraction sets the probe's share: q = s_p/s_r = 2.5 · fraction.
         for eps_scale in [1.0, 0.9, 1.15] {
             let s_ref = 0.3 * eps_scale;
             let s_probe = 0.3 * eps_scale * 2.5 * 0.4;
             let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.0 + s_ref)).round() as u32);
-            let read = r.read(&Input {
+            let read = lvl(r.read(&Input {
                 companion: Some(comp),
                 ..Input::counts(pair_for(s_probe))
-            });
+            }));
             assert_eq!(read.status, Status::Ok);
+            assert!(matches!(read.axis, LevelAxis::Ratio(_)));
             assert!(
-                (read.value - 4_000).abs() <= 2,
+                (read.level - 4_000).abs() <= 2,
                 "εr scale {eps_scale}: {read:?}"
             );
         }
@@ -527,7 +707,7 @@ pub(crate) mod tests {
             companion: Some(dry),
             ..Input::counts(pair_for(0.1))
         });
-        assert_eq!(read.status, Status::SensorFault(SensorFault::Reference));
+        assert_eq!(read.status(), Status::SensorFault(SensorFault::Reference));
     }
 
     fn metal_cal(ring_drop: u16, relearn: u32) -> Calibration {
@@ -548,8 +728,8 @@ pub(crate) mod tests {
 
     #[test]
     fn metal_detects_classifies_and_relearns() {
-        let mut r = Reader::from_calibration(&metal_cal(2, 50)).unwrap();
-        let read = |r: &mut Reader, s: f64, ring: u16| {
+        let mut r = MetalReader::new(&image(&metal_cal(2, 50))).unwrap();
+        let read = |r: &mut MetalReader, s: f64, ring: u16| {
             r.read(&Input {
                 ring_count: Some(ring),
                 ..Input::counts(pair_for(s))
@@ -568,10 +748,10 @@ pub(crate) mod tests {
         }
         assert_eq!(seen[1].status, Status::NoTarget, "debounce: not yet");
         assert_eq!(
-            (seen[2].status, seen[2].value),
-            (Status::Ok, MetalClass::Ferrous as i32)
+            (seen[2].status, seen[2].class),
+            (Status::Ok, MetalClass::Ferrous)
         );
-        assert_eq!(seen[2].secondary, Some(5));
+        assert_eq!(seen[2].ring_drop, Some(5));
         // Gone: back to the background, two readings to leave.
         assert_eq!(
             read(&mut r, 1e-4, 20).status,
@@ -584,10 +764,7 @@ pub(crate) mod tests {
             read(&mut r, -0.01, 16);
         }
         let x = read(&mut r, -0.01, 16);
-        assert_eq!(
-            (x.status, x.value),
-            (Status::Ok, MetalClass::NonFerrous as i32)
-        );
+        assert_eq!((x.status, x.class), (Status::Ok, MetalClass::NonFerrous));
         for _ in 0..3 {
             read(&mut r, 1e-4, 20);
         }
@@ -604,15 +781,6 @@ pub(crate) mod tests {
         assert_eq!(statuses[59], Status::NoTarget);
     }
 
-    #[test]
-    fn readers_need_their_parts() {
-        let mut cal = demo_proximity().unwrap();
-        cal.curve = None;
-        assert_eq!(Reader::from_calibration(&cal), Err(ReaderError::Incomplete));
-        cal.kind = ReaderKind::Metal;
-        assert_eq!(Reader::from_calibration(&cal), Err(ReaderError::Incomplete));
-    }
-
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(5_000))]
 
@@ -623,7 +791,7 @@ pub(crate) mod tests {
         fn proximity_end_to_end_bound(s in -0.32f64..-0.03, t in -4_000i32..12_000, with_t: bool) {
             let mut cal = demo_proximity().unwrap();
             cal.drift = crate::drift::TemperatureModel::from_f64(25.0, -3e-5, 2e-8).unwrap();
-            let mut r = ProximityReader::new(&cal).unwrap();
+            let mut r = ProximityReader::new(&image(&cal)).unwrap();
             let input = Input {
                 temperature: with_t.then_some(CentiCelsius(t)),
                 ..Input::counts(pair_for(s))
@@ -636,7 +804,7 @@ pub(crate) mod tests {
             let slope = nodes.nodes().windows(2).map(|w| f64::from(w[1].value - w[0].value) / (w[1].shift.to_f64() - w[0].shift.to_f64())).fold(0.0, f64::max);
             let shift_bound = 2.0 * 1.04 * 2f64.powi(-30) + 2f64.powi(-32) + 2f64.powi(-30) * 0.02 + 2f64.powi(-40);
             let bound = 0.5 + slope * shift_bound + 2f64.powi(-28) * 3_500.0;
-            prop_assert!((f64::from(fixed.value) - float).abs() <= bound, "{} vs {} (bound {})", fixed.value, float, bound);
+            prop_assert!((f64::from(fixed.gap) - float).abs() <= bound, "{} vs {} (bound {})", fixed.gap, float, bound);
         }
 
         /// The fault window and the shift through the tick band's shortcut
@@ -645,9 +813,10 @@ pub(crate) mod tests {
         #[test]
         fn checked_shift_equals_check_then_shift(ticks: u32, near in 0u32..400_000, cycles: u32, level: bool) {
             let cal = if level { level_cal(true, false) } else { demo_proximity().unwrap() };
-            let front = Front::new(&cal, false).unwrap();
+            let front = *image(&cal).front();
             let gate = cal.gate().unwrap();
-            let (lo, hi) = front.gate_band.unwrap().1;
+            let a = front.accepted.unwrap();
+            let (lo, hi) = (a.min_ticks, a.max_ticks);
             let pairs = [
                 CountPair::new(gate, ticks),
                 CountPair::new(gate, lo.saturating_sub(200_000).saturating_add(near)),
@@ -674,7 +843,7 @@ pub(crate) mod tests {
                 2 => level_cal(false, true),
                 _ => metal_cal(2, 10),
             };
-            let mut r = Reader::from_calibration(&cal).unwrap();
+            let mut r = reader(&cal);
             let input = Input {
                 pair: CountPair::new(cycles, ticks),
                 companion: comp.map(|(c, t)| CountPair::new(c, t)),

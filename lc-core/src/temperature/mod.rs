@@ -83,7 +83,7 @@
 //! counts), the law (Beta: one product; Steinhart–Hart with C ≠ 0: three,
 //! and two normalisations), a normalisation of 1/T, the reciprocal (five
 //! 16 × 16-bit products) and the quotient (one product). The wide products
-//! use [`crate::fixed::mul_u32_wide`]: 8 for Beta, 10 for Steinhart–Hart.
+//! use the crate-private `fixed::mul_u32_wide`: 8 for Beta, 10 for Steinhart–Hart.
 //! The constants (ln(R_s/R25) or ln R_s, 1/B, the coefficients in fixed
 //! point) are computed once, at construction. Tables: 64 × 2 `u32` and
 //! 32 `u64` for the logarithm, 259 `u32` for the reciprocal (1 804 bytes),
@@ -112,14 +112,20 @@
 //! Not a safety-rated component: a reading a person relies on for safety
 //! needs its own qualified measurement.
 
+#[cfg(feature = "ntc")]
 mod divider;
+#[cfg(feature = "ntc")]
 mod ln;
 mod model;
+#[cfg(feature = "ntc")]
 mod ntc;
 
+#[cfg(feature = "ntc")]
 pub use divider::{Divider, LnRatio, NtcPosition};
+#[cfg(feature = "ntc")]
 pub use ln::{ln_q37, LN_FRAC_BITS};
 pub use model::{steinhart_hart_fit, Beta, CalibrationPoint, SteinhartHart, T25_K, ZERO_C_K};
+#[cfg(feature = "ntc")]
 pub use ntc::{NtcBeta, NtcSteinhartHart, MAX_READING, MIN_READING};
 
 use core::fmt;

@@ -359,6 +359,43 @@ pub struct Plan {
     /// Acceptance limits.
     #[serde(default)]
     pub limits: Limits,
+    /// The plan's identity, written into every image: the first 8 bytes of
+    /// the SHA-256 of the plan file's text (set by [`Plan::parse`]).
+    #[serde(skip)]
+    pub id: lc_core::image::PlanId,
+    /// The calibration time written into every image, UTC, Unix seconds:
+    /// set by the caller (`lc-host calibrate --time`, else
+    /// `SOURCE_DATE_EPOCH`, else the clock); 0 until then.
+    #[serde(skip)]
+    pub calibrated_at: i64,
+}
+
+/// The calibration time to write into images, UTC, Unix seconds: `explicit`
+/// when given, else the `SOURCE_DATE_EPOCH` environment variable (for
+/// reproducible images), else the system clock (0 if it is before 1970).
+pub fn calibration_time(explicit: Option<i64>) -> i64 {
+    explicit
+        .or_else(|| {
+            std::env::var("SOURCE_DATE_EPOCH")
+                .ok()
+                .and_then(|v| v.trim().parse().ok())
+        })
+        .unwrap_or_else(|| {
+            std::time::SystemTime::now()
+                .duration_since(std::time::UNIX_EPOCH)
+                .ok()
+                .and_then(|d| i64::try_from(d.as_secs()).ok())
+                .unwrap_or(0)
+        })
+}
+
+/// The identity of a plan's text: the first 8 bytes of its SHA-256.
+pub fn plan_id(text: &str) -> lc_core::image::PlanId {
+    use sha2::Digest;
+    let digest = sha2::Sha256::digest(text.as_bytes());
+    let mut id = [0u8; 8];
+    id.copy_from_slice(&digest[..8]);
+    lc_core::image::PlanId(id)
 }
 
 /// Why a plan was refused.
@@ -408,6 +445,7 @@ impl Plan {
             file: file.to_path_buf(),
             message: e.to_string(),
         })?;
+        plan.id = plan_id(text);
         let bad = |key: &'static str, problem: String| {
             Err(PlanError::Value {
                 file: file.to_path_buf(),

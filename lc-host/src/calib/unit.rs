@@ -406,7 +406,8 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
                     .or_else(|_| Table::linear(&node_list));
                 match built {
                     Ok(t) => {
-                        if let Ok(curve) = t.curve() {
+                        {
+                            let curve = t.curve();
                             let err = (0..=1000)
                                 .map(|i| {
                                     let x = lo + (hi - lo) * f64::from(i) / 1000.0;
@@ -588,6 +589,8 @@ fn build_calibration(
         },
         volume,
         metal,
+        calibrated_at: plan.calibrated_at,
+        plan_id: plan.id,
     };
     // The image must encode and parse back: the firmware will see exactly it.
     let mut buf = [0u8; lc_core::image::MAX_IMAGE_LEN];
@@ -633,11 +636,17 @@ pub(crate) fn volume_table(
 }
 
 fn residuals(cal: &Calibration, rows: &[RigRow], step: f64) -> Vec<Residual> {
-    let Ok(mut reader) = Reader::from_calibration(cal) else {
+    let Ok(buf) = cal.to_image_buf() else {
         return Vec::new();
     };
-    let prox = ProximityReader::new(cal).ok();
-    let level = LevelReader::new(cal).ok();
+    let Ok(image) = buf.image() else {
+        return Vec::new();
+    };
+    let Ok(mut reader) = Reader::new(&image) else {
+        return Vec::new();
+    };
+    let prox = ProximityReader::new(&image).ok();
+    let level = LevelReader::new(&image).ok();
     rows.iter()
         .filter_map(|r| {
             let target = r.target_m? / step;
@@ -648,7 +657,7 @@ fn residuals(cal: &Calibration, rows: &[RigRow], step: f64) -> Vec<Residual> {
                 ring_count: r.ring_count,
             };
             let fixed = reader.read(&input);
-            if matches!(fixed.status, Status::SensorFault(_)) {
+            if matches!(fixed.status(), Status::SensorFault(_)) {
                 return None;
             }
             let value_f64 = match (&prox, &level) {
@@ -661,10 +670,10 @@ fn residuals(cal: &Calibration, rows: &[RigRow], step: f64) -> Vec<Residual> {
                 temp_c: r.temp_c,
                 target,
                 value_f64,
-                value_fixed: fixed.value,
-                residual_fixed: f64::from(fixed.value) - target,
+                value_fixed: fixed.output(),
+                residual_fixed: f64::from(fixed.output()) - target,
                 residual_f64: value_f64 - target,
-                shift_ppm: fixed.shift.to_ppm_f64(),
+                shift_ppm: Shift::from_raw_q40(fixed.curve_input_q40()).to_ppm_f64(),
             })
         })
         .collect()

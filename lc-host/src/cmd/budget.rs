@@ -140,7 +140,7 @@ pub fn run(a: Args) -> Result<()> {
     let curve = match &a.image {
         Some(p) => {
             let cal = load_image(p)?;
-            cal.curve.and_then(|t| t.curve().ok()).map(|c| {
+            cal.curve.map(|t| *t.curve()).map(|c| {
                 (
                     c,
                     format!(

@@ -96,6 +96,10 @@ pub struct Args {
     /// Print the lot report as JSON on standard output
     #[arg(long)]
     json: bool,
+    /// Calibration time recorded in every image, UTC Unix seconds (default:
+    /// SOURCE_DATE_EPOCH when set, else now)
+    #[arg(long)]
+    time: Option<i64>,
 }
 
 /// The exit statuses of `lc-host calibrate` (documented in --help and
@@ -318,7 +322,8 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
             source,
         })
         .map_err(|e| config(e.into()))?;
-    let plan = Plan::parse(&plan_text, &a.plan).map_err(|e| config(e.into()))?;
+    let mut plan = Plan::parse(&plan_text, &a.plan).map_err(|e| config(e.into()))?;
+    plan.calibrated_at = lc_host::calib::plan::calibration_time(a.time);
     let serials = selection(&a)?;
     let (rig_sha256, stdin_bytes) = rig_sha(&a.rig_log).map_err(config)?;
     let trace = Traceability {
@@ -359,7 +364,9 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
     };
     let mut html = match &a.report {
         Some(dir) => {
-            let t = ReportTrace::now().with_plan(&a.plan);
+            let t = ReportTrace::now()
+                .with_plan_text(&a.plan.display().to_string(), &trace.plan_text)
+                .with_station(&trace.station, &trace.operator);
             let t = if a.rig_log.as_os_str() == "-" {
                 t
             } else {

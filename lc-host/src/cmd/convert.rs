@@ -173,13 +173,13 @@ impl Trace {
     /// Rows without a time stamp use their line number as time.
     fn push(&mut self, c: &lc_host::convert::Converted) {
         let t = c.time_s.unwrap_or(c.line as f64);
-        if matches!(c.reading.status, lc_core::reader::Status::SensorFault(_)) {
+        if matches!(c.reading.status(), lc_core::reader::Status::SensorFault(_)) {
             // Fault markers: at most a few thousand are drawn anyway.
             if self.faults.len() < 10_000 {
                 self.faults.push(t);
             }
         } else {
-            self.values.push(t, f64::from(c.reading.value));
+            self.values.push(t, f64::from(c.reading.output()));
             if let Some(v) = c.value_f64 {
                 self.reference.push(t, v);
             }

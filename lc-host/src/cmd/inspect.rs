@@ -1,6 +1,7 @@
 //! `lc-host inspect`: decode, validate and print a calibration image.
 
 use super::load_image;
+use anyhow::Context;
 use anyhow::Result;
 use lc_core::image::{Calibration, ReaderKind, Table, CRC32};
 use std::path::PathBuf;
@@ -8,13 +9,20 @@ use std::path::PathBuf;
 /// Decode, validate and print a calibration image
 ///
 /// Checks the image exactly as the firmware does (length, magic, version, CRC-32, every
-/// field; docs/image-format.md) and prints what it holds: reader, serial, counter set-up,
-/// rest point, drift model, output scale, curve nodes, volume table, metal parameters.
-/// A broken image is reported with the check that failed; the exit code is then 1.
+/// field and every curve segment's stored constants; docs/image-format.md) and prints what
+/// it holds: format, reader, serial, calibration time and plan, counter set-up, rest point,
+/// drift model, output scale, curve nodes, volume table, metal parameters. A broken image
+/// is reported with the check that failed; the exit code is then 1.
 ///
-/// Example:
+/// Format-1 images (written before the per-segment constants) are read too; the firmware
+/// refuses them. `--rewrite OUT` writes the same calibration in format 2, with the
+/// calibration time from `--time` (else SOURCE_DATE_EPOCH, else 0: unknown) and the plan
+/// identity from `--plan` (else unknown).
+///
+/// Examples:
 ///
 ///   lc-host inspect out/images/DEMO-01-0007.lcim
+///   lc-host inspect old.lcim --rewrite new.lcim --plan plan.toml --time 1764547200
 #[derive(clap::Args)]
 #[command(verbatim_doc_comment)]
 pub struct Args {
@@ -23,13 +31,23 @@ pub struct Args {
     /// Print JSON instead of text
     #[arg(long)]
     json: bool,
+    /// Write the calibration in the current format (2) to this file
+    #[arg(long, value_name = "OUT")]
+    rewrite: Option<PathBuf>,
+    /// With --rewrite: the calibration time to record, UTC Unix seconds
+    #[arg(long, requires = "rewrite")]
+    time: Option<i64>,
+    /// With --rewrite: the plan file whose identity (SHA-256 of its text) to record
+    #[arg(long, requires = "rewrite")]
+    plan: Option<PathBuf>,
 }
 
 fn table_json(t: &Table) -> serde_json::Value {
+    let view = t.curve().view();
     serde_json::json!({
         "interpolation": if t.is_cubic() { "monotone_cubic" } else { "linear" },
         "nodes": t.nodes().iter().map(|n| serde_json::json!({"shift": n.shift.to_f64(), "shift_q40": n.shift.raw_q40(), "value": n.value})).collect::<Vec<_>>(),
-        "derivatives_q16": t.derivatives_q16(),
+        "tangent_terms_q8": (0..t.nodes().len().saturating_sub(1)).filter_map(|i| view.tangent_terms_q8(i)).collect::<Vec<_>>(),
     })
 }
 
@@ -42,11 +60,19 @@ fn kind_name(kind: ReaderKind) -> &'static str {
     }
 }
 
+/// A plan identity as hex.
+fn plan_hex(cal: &Calibration) -> String {
+    cal.plan_id.0.iter().map(|b| format!("{b:02x}")).collect()
+}
+
 /// The calibration as JSON.
-pub fn to_json(cal: &Calibration, crc: u32, len: usize) -> serde_json::Value {
+pub fn to_json(cal: &Calibration, format: u16, crc: u32, len: usize) -> serde_json::Value {
     let (b1, b2) = cal.drift.coefficients_f64();
     serde_json::json!({
+        "format": format,
         "kind": kind_name(cal.kind),
+        "calibrated_at": cal.calibrated_at,
+        "plan_id": plan_hex(cal),
         "serial": cal.serial.as_str(),
         "length_bytes": len,
         "crc32": format!("{crc:08X}"),
@@ -68,13 +94,23 @@ pub fn to_json(cal: &Calibration, crc: u32, len: usize) -> serde_json::Value {
 }
 
 /// The calibration as readable text.
-pub fn to_text(cal: &Calibration, crc: u32, len: usize) -> String {
+pub fn to_text(cal: &Calibration, format: u16, crc: u32, len: usize) -> String {
     let (b1, b2) = cal.drift.coefficients_f64();
     let mut s = String::new();
     let unit = |exp: i8, u: &str| format!("1e{exp} {u}");
-    s += &format!("calibration image, format 1, {len} bytes, CRC-32 {crc:08X}: valid\n");
+    s += &format!("calibration image, format {format}, {len} bytes, CRC-32 {crc:08X}: valid\n");
+    if format == lc_core::image::VERSION_1 {
+        s += "  (format 1: the firmware refuses it; rewrite it in format 2 with\n   `lc-host inspect IMAGE --rewrite OUT [--plan PLAN] [--time SECONDS]`)\n";
+    }
     s += &format!("  reader        {}\n", kind_name(cal.kind));
     s += &format!("  serial        {}\n", cal.serial.as_str());
+    if format >= lc_core::image::VERSION {
+        s += &format!(
+            "  calibrated    {} (Unix seconds, UTC), plan {}\n",
+            cal.calibrated_at,
+            plan_hex(cal)
+        );
+    }
     s += &format!(
         "  reference     {} Hz, gate {} cycles\n",
         cal.reference_hz, cal.gate_cycles
@@ -151,15 +187,47 @@ pub fn to_text(cal: &Calibration, crc: u32, len: usize) -> String {
 pub fn run(a: Args) -> Result<()> {
     let cal = load_image(&a.image)?;
     let bytes = std::fs::read(&a.image)?;
-    let len = cal.encoded_len();
+    let format = Calibration::format_version(&bytes).unwrap_or(0);
+    let len = usize::from(u16::from_le_bytes([
+        bytes.get(6).copied().unwrap_or(0),
+        bytes.get(7).copied().unwrap_or(0),
+    ]));
     let crc = CRC32.checksum(bytes.get(..len.saturating_sub(4)).unwrap_or(&[]));
     if a.json {
         println!(
             "{}",
-            serde_json::to_string_pretty(&to_json(&cal, crc, len))?
+            serde_json::to_string_pretty(&to_json(&cal, format, crc, len))?
         );
     } else {
-        print!("{}", to_text(&cal, crc, len));
+        print!("{}", to_text(&cal, format, crc, len));
+    }
+    if let Some(out) = &a.rewrite {
+        let mut new = cal;
+        if let Some(plan) = &a.plan {
+            let text = std::fs::read_to_string(plan)
+                .with_context(|| format!("cannot read the plan {}", plan.display()))?;
+            new.plan_id = lc_host::calib::plan::plan_id(&text);
+        }
+        if a.time.is_some() || std::env::var_os("SOURCE_DATE_EPOCH").is_some() {
+            new.calibrated_at = lc_host::calib::plan::calibration_time(a.time);
+        }
+        let written = rewrite(&new, out)?;
+        eprintln!(
+            "wrote {} ({written} bytes, format {})",
+            out.display(),
+            lc_core::image::VERSION
+        );
     }
     Ok(())
+}
+
+/// Writes `cal` as a current-format image to `out` (whole or not at all).
+pub fn rewrite(cal: &Calibration, out: &std::path::Path) -> Result<usize> {
+    let mut buf = [0u8; lc_core::image::MAX_IMAGE_LEN];
+    let n = cal
+        .encode(&mut buf)
+        .map_err(|e| anyhow::anyhow!("{}: cannot encode the image: {e}", out.display()))?;
+    lc_host::atomic::write_bytes(out, &buf[..n])
+        .with_context(|| format!("cannot write {}", out.display()))?;
+    Ok(n)
 }

@@ -216,16 +216,19 @@ pub fn result_rows(out: &UnitOutcome, plan: &Plan) -> Vec<ResultRow> {
     r
 }
 
-/// What a report records about where a lot's result came from.
+/// What a report records about where a lot's result came from: the same
+/// identities the unit records hold (SHA-256 of the plan and the rig log).
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Traceability {
-    /// The plan file and the CRC-32 of its bytes (`None`: unreadable).
-    pub plan: Option<(String, Option<u32>)>,
-    /// The rig log, and its size in bytes and the CRC-32 of its bytes
+    /// The plan file and the SHA-256 of its bytes, hex (`None`: unreadable).
+    pub plan: Option<(String, Option<String>)>,
+    /// The rig log, and its size in bytes and the SHA-256 of its bytes, hex
     /// (`None`: unreadable).
-    pub rig_log: Option<(String, Option<(u64, u32)>)>,
+    pub rig_log: Option<(String, Option<(u64, String)>)>,
     /// The test station, when known.
     pub station: Option<String>,
+    /// The operator, when known.
+    pub operator: Option<String>,
     /// The tool that made the report (name and version).
     pub tool: String,
     /// When the report was made, UTC.
@@ -242,23 +245,33 @@ impl Traceability {
         }
     }
 
-    /// Records the plan file (name and CRC-32 of its bytes; a file that
+    /// Records the plan file (name and SHA-256 of its bytes; a file that
     /// cannot be read is recorded by name, marked unreadable).
     pub fn with_plan(mut self, path: &Path) -> Self {
-        self.plan = Some((path.display().to_string(), crc_of(path).map(|c| c.1)));
+        self.plan = Some((path.display().to_string(), sha256_of(path).map(|c| c.1)));
         self
     }
 
     /// Records the plan as text built into the tool, under `name`.
     pub fn with_plan_text(mut self, name: &str, text: &str) -> Self {
-        let crc = lc_core::image::CRC32.checksum(text.as_bytes());
-        self.plan = Some((name.to_string(), Some(crc)));
+        use sha2::Digest;
+        self.plan = Some((
+            name.to_string(),
+            Some(hex(&sha2::Sha256::digest(text.as_bytes()))),
+        ));
         self
     }
 
-    /// Records the rig log (name, size and CRC-32 of its bytes).
+    /// Records the rig log (name, size and SHA-256 of its bytes).
     pub fn with_rig_log(mut self, path: &Path) -> Self {
-        self.rig_log = Some((path.display().to_string(), crc_of(path)));
+        self.rig_log = Some((path.display().to_string(), sha256_of(path)));
+        self
+    }
+
+    /// Records the station and operator (empty: not recorded).
+    pub fn with_station(mut self, station: &str, operator: &str) -> Self {
+        self.station = (!station.is_empty()).then(|| station.to_string());
+        self.operator = (!operator.is_empty()).then(|| operator.to_string());
         self
     }
 
@@ -266,20 +279,28 @@ impl Traceability {
     pub fn rows(&self) -> Vec<(&'static str, String)> {
         let mut out = Vec::new();
         if let Some((p, crc)) = &self.plan {
-            let what = crc.map_or("could not be read".to_string(), |c| {
-                format!("CRC-32 {c:08x}")
-            });
+            let what = crc
+                .as_ref()
+                .map_or("could not be read".to_string(), |c| format!("SHA-256 {c}"));
             out.push(("calibration plan", format!("{p} ({what})")));
         }
         if let Some((p, file)) = &self.rig_log {
-            let what = file.map_or("could not be read".to_string(), |(len, c)| {
-                format!("{len} bytes, CRC-32 {c:08x}")
-            });
+            let what = file
+                .as_ref()
+                .map_or("could not be read".to_string(), |(len, c)| {
+                    format!("{len} bytes, SHA-256 {c}")
+                });
             out.push(("rig log", format!("{p} ({what})")));
         }
         out.push((
             "test station",
             self.station
+                .clone()
+                .unwrap_or_else(|| "not recorded".to_string()),
+        ));
+        out.push((
+            "operator",
+            self.operator
                 .clone()
                 .unwrap_or_else(|| "not recorded".to_string()),
         ));
@@ -289,25 +310,18 @@ impl Traceability {
     }
 }
 
-/// Size and CRC-32 (the image's CRC) of a file's bytes, streamed; `None`
-/// when it cannot be read.
-fn crc_of(path: &Path) -> Option<(u64, u32)> {
-    use std::io::Read;
+fn hex(bytes: &[u8]) -> String {
+    bytes.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// Size and SHA-256 (hex) of a file's bytes, streamed; `None` when it
+/// cannot be read.
+fn sha256_of(path: &Path) -> Option<(u64, String)> {
+    use sha2::Digest;
     let mut f = std::fs::File::open(path).ok()?;
-    let mut digest = lc_core::image::CRC32.digest();
-    let mut buf = vec![0u8; 1 << 16];
-    let mut len = 0u64;
-    loop {
-        match f.read(&mut buf) {
-            Ok(0) => break,
-            Ok(n) => {
-                digest.update(&buf[..n]);
-                len += n as u64;
-            }
-            Err(_) => return None,
-        }
-    }
-    Some((len, digest.finalize()))
+    let mut h = sha2::Sha256::new();
+    let len = std::io::copy(&mut f, &mut h).ok()?;
+    Some((len, hex(&h.finalize())))
 }
 
 #[cfg(test)]

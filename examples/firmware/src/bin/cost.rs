@@ -30,15 +30,17 @@ use core::hint::black_box;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
 use cortex_m_rt::entry;
 use lc_core::counting::{CountPair, FaultWindow};
-use lc_core::curve::Curve;
+use lc_core::curve::CurveRef;
 use lc_core::drift::TemperatureModel;
-use lc_core::image::Calibration;
+use lc_core::image::Image;
 use lc_core::ratio::{frequency, period_ratio};
-use lc_core::reader::{Input, Reader};
+use lc_core::reader::{Input, LevelReader, ProximityReader, Reader};
 use lc_core::shift::{Shift, ShiftConverter};
 use lc_core::temperature::{CentiCelsius, NtcBeta};
 use lc_firmware::pipeline::{Unit, UNITS};
-use lc_firmware::readout::{self, BOARD, IMAGES, LEVEL, METAL, PROXIMITY, PROXIMITY_TC};
+use lc_firmware::readout::{
+    self, BOARD, IMAGES, LEVEL, METAL, PROXIMITY, PROXIMITY_32, PROXIMITY_TC,
+};
 use lc_firmware::{exit, stdout};
 
 #[path = "cost/cases.rs"]
@@ -231,6 +233,13 @@ fn report(out: &mut impl Write, ctx: &Context) -> fmt::Result {
     )?;
     stages(out, ctx, &pairs, &scale)?;
     full_readings(out, &scale)?;
+    writeln!(out, "# size_of on this target, bytes")?;
+    for (name, bytes) in lc_firmware::sizes::SIZES
+        .iter()
+        .chain(&lc_firmware::sizes::NTC_SIZES)
+    {
+        writeln!(out, "{name:<24} {bytes:>6}")?;
+    }
     writeln!(out, "# end")
 }
 
@@ -351,12 +360,13 @@ fn time_cases<C, T>(
 }
 
 /// A reader from a committed image, the image hidden from the optimizer.
-fn reader(unit: usize) -> Option<(Calibration, Reader)> {
+fn reader(unit: usize) -> Option<(Image<'static>, Reader<'static>)> {
     let bytes = black_box(IMAGES.get(unit)?.bytes);
-    let cal = Calibration::parse(bytes).ok()?;
-    let reader = Reader::from_calibration(&cal).ok()?;
-    Some((cal, reader))
+    let image = Image::new(bytes).ok()?;
+    let reader = Reader::new(&image).ok()?;
+    Some((image, reader))
 }
+
 
 /// A row of the full-reading table.
 fn row(out: &mut impl Write, label: &str, ticks: u32, tenths: i64) -> fmt::Result {
@@ -406,29 +416,48 @@ fn proximity(
     temperature: &impl Fn(u32) -> Option<CentiCelsius>,
     per: &impl Fn(u32) -> i64,
 ) -> fmt::Result {
-    let Some((cal, mut reader)) = reader(PROXIMITY_TC) else {
+    proximity_of::<5>(out, PROXIMITY_TC, "", ntc, float_ntc, temperature, per)?;
+    proximity_of::<32>(out, PROXIMITY_32, " (32 cubic)", ntc, float_ntc, temperature, per)
+}
+
+/// One proximity unit with an `N`-node curve against its `f32` version.
+fn proximity_of<const N: usize>(
+    out: &mut impl Write,
+    unit: usize,
+    what: &str,
+    ntc: &NtcBeta,
+    float_ntc: &FloatNtc,
+    temperature: &impl Fn(u32) -> Option<CentiCelsius>,
+    per: &impl Fn(u32) -> i64,
+) -> fmt::Result {
+    let Some((image, _)) = reader(unit) else {
         return writeln!(out, "proximity image refused");
     };
-    let Some(float) = FloatProximity::new(&cal) else {
+    let Ok(mut reader) = ProximityReader::new(&image) else {
+        return writeln!(out, "proximity reader refused");
+    };
+    let Some(float) = FloatProximity::<N>::new(&image) else {
         return writeln!(out, "proximity f32 model refused");
     };
     let cases = cases::proximity(temperature, |code| float_ntc.convert(code));
     // The f32 version computes the same gaps.
     let mut worst = 0;
     for c in &cases {
-        let fixed = reader.read(&c.input).value;
+        let fixed = reader.read(&c.input).gap;
         let (f, _) = float.read(c.input.pair, c.t_c);
         worst = worst.max((fixed - f).abs());
     }
     writeln!(
         out,
-        "# check: proximity f32 vs fixed, max |gap difference| {worst} um"
+        "# check: proximity{what} f32 vs fixed, max |gap difference| {worst} um"
     )?;
+    let mut label = Text::default();
     let ctx = &mut (reader, float, *ntc, *float_ntc);
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         black_box(c.0.read(&x.input));
     });
-    row(out, "fixed proximity: pair + T -> gap", t, per(t))?;
+    write!(label, "fixed proximity{what}: pair + T -> gap")?;
+    row(out, label.as_str(), t, per(t))?;
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         let input = Input {
             temperature: c.2.convert(x.code).ok(),
@@ -436,29 +465,27 @@ fn proximity(
         };
         black_box(c.0.read(&input));
     });
-    row(out, "fixed proximity: pair + NTC code -> gap", t, per(t))?;
+    let mut label = Text::default();
+    write!(label, "fixed proximity{what}: pair + NTC -> gap")?;
+    row(out, label.as_str(), t, per(t))?;
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         black_box(c.0.read(&Input::counts(x.input.pair)));
     });
-    row(
-        out,
-        "fixed proximity: pair -> gap (no temperature)",
-        t,
-        per(t),
-    )?;
+    let mut label = Text::default();
+    write!(label, "fixed proximity{what}: pair -> gap")?;
+    row(out, label.as_str(), t, per(t))?;
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         black_box(c.1.read(x.input.pair, x.t_c));
     });
-    row(out, "f32 proximity: pair + T -> gap", t, per(t))?;
+    let mut label = Text::default();
+    write!(label, "f32 proximity{what}: pair + T -> gap")?;
+    row(out, label.as_str(), t, per(t))?;
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         black_box(c.1.read(x.input.pair, c.3.convert(x.code)));
     });
-    row(
-        out,
-        "f32 proximity: pair + NTC code (logf) -> gap",
-        t,
-        per(t),
-    )
+    let mut label = Text::default();
+    write!(label, "f32 proximity{what}: pair + NTC (logf)")?;
+    row(out, label.as_str(), t, per(t))
 }
 
 /// The level reader against its `f32` version.
@@ -470,10 +497,13 @@ fn level(
     temperature: &impl Fn(u32) -> Option<CentiCelsius>,
     per: &impl Fn(u32) -> i64,
 ) -> fmt::Result {
-    let Some((cal, mut reader)) = reader(LEVEL) else {
+    let Some((image, _)) = reader(LEVEL) else {
         return writeln!(out, "level image refused");
     };
-    let Some(float) = FloatLevel::new(&cal) else {
+    let Ok(mut reader) = LevelReader::new(&image) else {
+        return writeln!(out, "level reader refused");
+    };
+    let Some(float) = FloatLevel::new(&image) else {
         return writeln!(out, "level f32 model refused");
     };
     let cases = cases::level(temperature, |code| float_ntc.convert(code));
@@ -482,8 +512,8 @@ fn level(
         let fixed = reader.read(&c.input);
         let reference = c.input.companion.unwrap_or_default();
         let (l, v, _) = float.read(c.input.pair, reference, c.t_c);
-        worst_level = worst_level.max((fixed.value - l).abs());
-        worst_volume = worst_volume.max((fixed.secondary.unwrap_or(0) - v).abs());
+        worst_level = worst_level.max((fixed.level - l).abs());
+        worst_volume = worst_volume.max((fixed.volume.unwrap_or(0) - v).abs());
     }
     writeln!(
         out,
@@ -528,10 +558,10 @@ fn level(
 /// The metal reader against its `f32` version.
 #[inline(never)]
 fn metal(out: &mut impl Write, per: &impl Fn(u32) -> i64) -> fmt::Result {
-    let Some((cal, reader)) = reader(METAL) else {
+    let Some((image, reader)) = reader(METAL) else {
         return writeln!(out, "metal image refused");
     };
-    let Some(float) = FloatMetal::new(&cal) else {
+    let Some(float) = FloatMetal::new(&image) else {
         return writeln!(out, "metal f32 model refused");
     };
     let cases = cases::metal();
@@ -539,7 +569,7 @@ fn metal(out: &mut impl Write, per: &impl Fn(u32) -> i64) -> fmt::Result {
     let (mut fixed, mut f32_metal) = (reader.clone(), float);
     let mut mismatches = 0;
     for c in cases.iter().chain(&cases) {
-        let a = fixed.read(&c.input).value;
+        let a = fixed.read(&c.input).output();
         let (b, _) = f32_metal.read(c.input.pair, c.input.ring_count.unwrap_or(0));
         mismatches += u32::from(a != b);
     }
@@ -566,11 +596,14 @@ fn parts(
     float_ntc: &FloatNtc,
     per: &impl Fn(u32) -> i64,
 ) -> fmt::Result {
-    let Some((cal, _)) = reader(PROXIMITY_TC) else {
+    let Some((image, _)) = reader(PROXIMITY_TC) else {
         return writeln!(out, "proximity image refused");
     };
-    let Some(Ok(curve)) = cal.curve.map(|t| t.curve()) else {
+    let Some(curve) = image.curve() else {
         return writeln!(out, "proximity curve refused");
+    };
+    let Some(curve32) = reader(PROXIMITY_32).and_then(|(i, _)| i.curve()) else {
+        return writeln!(out, "32-node curve refused");
     };
     let Ok(chain) = BOARD.chain() else {
         return writeln!(out, "filter chain refused");
@@ -581,8 +614,15 @@ fn parts(
         // cost matters here.
         Shift::from_raw_q40(-(i64::from(ticks) << 20))
     };
-    let ctx: &mut (NtcBeta, FloatNtc, TemperatureModel, Curve, readout::Chain) =
-        &mut (*ntc, *float_ntc, cal.drift, curve, chain);
+    type Ctx<'a> = (
+        NtcBeta,
+        FloatNtc,
+        TemperatureModel,
+        CurveRef<'a>,
+        readout::Chain,
+        CurveRef<'a>,
+    );
+    let ctx: &mut Ctx<'_> = &mut (*ntc, *float_ntc, image.drift(), curve, chain, curve32);
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         let _ = black_box(c.0.convert(x.1));
     });
@@ -600,13 +640,17 @@ fn parts(
     });
     row(out, "fixed curve: 5 linear nodes", t, per(t))?;
     let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
+        black_box(c.5.eval(shift_of(x.0)));
+    });
+    row(out, "fixed curve: 32 cubic nodes", t, per(t))?;
+    let t = time_cases(ctx, &cases, ITERATIONS, |c, x| {
         // Gap-like values in micrometres from the case.
         black_box(c.4.update((x.0 & 8_191) as i32));
     });
     row(out, "fixed median 3 + EMA + detector", t, per(t))
 }
 
-/// Loading: parse an image, build its reader.
+/// Loading: validate an image in place, build its reader.
 #[inline(never)]
 fn loading(out: &mut impl Write, scale: &Scale) -> fmt::Result {
     let mut nothing = ();
@@ -618,27 +662,69 @@ fn loading(out: &mut impl Write, scale: &Scale) -> fmt::Result {
         out,
         "# loading: {LOAD_ITERATIONS} calls per path, instructions per call"
     )?;
-    for unit in [PROXIMITY, LEVEL, METAL] {
+    for unit in [PROXIMITY, PROXIMITY_32, LEVEL, METAL] {
         let Some(image) = IMAGES.get(unit) else {
             continue;
         };
         let images = [image.bytes; 8];
         let t = time_cases(&mut nothing, &images, LOAD_ITERATIONS, |_, bytes| {
-            let _ = black_box(Calibration::parse(bytes));
+            let _ = black_box(Image::new(bytes));
         });
         let mut label = Text::default();
-        write!(label, "Calibration::parse {}", image.name)?;
+        write!(label, "Image::new {}", image.name)?;
         row(out, label.as_str(), t, per(t))?;
-        let Ok(cal) = Calibration::parse(image.bytes) else {
+        let Ok(checked) = Image::new(image.bytes) else {
             continue;
         };
-        let cals = [(); 8].map(|()| &cal);
-        let t = time_cases(&mut nothing, &cals, LOAD_ITERATIONS, |_, cal| {
-            let _ = black_box(Reader::from_calibration(cal));
+        let checked = [(); 8].map(|()| &checked);
+        let t = time_cases(&mut nothing, &checked, LOAD_ITERATIONS, |_, image| {
+            let _ = black_box(Reader::new(image));
         });
         let mut label = Text::default();
-        write!(label, "Reader::from_calibration {}", image.name)?;
+        write!(label, "Reader::new {}", image.name)?;
         row(out, label.as_str(), t, per(t))?;
+        let t = time_cases(&mut nothing, &images, LOAD_ITERATIONS, |_, bytes| {
+            if let Ok(image) = Image::new(bytes) {
+                let _ = black_box(Reader::new(&image));
+            }
+        });
+        let mut label = Text::default();
+        write!(label, "start-up (both) {}", image.name)?;
+        row(out, label.as_str(), t, per(t))?;
+    }
+    // Where the start-up of the 32-node image goes.
+    let Some(image) = IMAGES.get(PROXIMITY_32) else {
+        return Ok(());
+    };
+    let Ok(checked) = Image::new(image.bytes) else {
+        return Ok(());
+    };
+    let images = [image.bytes; 8];
+    let t = time_cases(&mut nothing, &images, LOAD_ITERATIONS, |_, bytes| {
+        black_box(lc_core::image::crc32(bytes));
+    });
+    row(out, "  crc32 of the 32-node image, by bytes", t, per(t))?;
+    let rests = [(checked.rest(), checked.gate()); 8];
+    let t = time_cases(&mut nothing, &rests, LOAD_ITERATIONS, |_, (rest, gate)| {
+        let _ = black_box(ShiftConverter::new(
+            *rest,
+            lc_core::counting::Gating::Reciprocal,
+            *gate,
+        ));
+    });
+    row(out, "  ShiftConverter::new", t, per(t))?;
+    let windows = [(checked.window(), checked.gate().unwrap_or(0)); 8];
+    let t = time_cases(&mut nothing, &windows, LOAD_ITERATIONS, |_, (w, g)| {
+        black_box(w.accepted_ticks(*g));
+    });
+    row(out, "  FaultWindow::accepted_ticks", t, per(t))?;
+    if let Some(curve) = checked.curve() {
+        let (n, sg) = curve.words();
+        let words = [(n, sg); 8];
+        let t = time_cases(&mut nothing, &words, LOAD_ITERATIONS, |_, (n, sg)| {
+            let _ = black_box(CurveRef::from_words(n, sg, 32, true));
+        });
+        row(out, "  CurveRef::from_words 32 cubic", t, per(t))?;
     }
     Ok(())
 }

@@ -8,19 +8,20 @@
 //! function between the markers `path_<name>` (each a function of its own,
 //! so its symbol names the path that follows it) and prints them per
 //! reading. Loading (parse, reader construction) runs outside the markers
-//! and is not counted, except in `path_load_proximity`: eight loads of the
-//! demo proximity image (`Calibration::parse` and
-//! `Reader::from_calibration`), where "per reading" is per load.
+//! and is not counted, except in `path_load_proximity`: eight start-ups
+//! with the 32-node cubic proximity image (`Image::new` and `Reader::new`),
+//! where "per reading" is per start-up; and `path_fixed_proximity_32`, the
+//! readings of that image.
 #![no_std]
 #![no_main]
 
 use core::hint::black_box;
 
 use cortex_m_rt::entry;
-use lc_core::image::Calibration;
-use lc_core::reader::{Input, Reader};
+use lc_core::image::Image;
+use lc_core::reader::{Input, ProximityReader, Reader};
 use lc_firmware::exit;
-use lc_firmware::readout::{BOARD, IMAGES, LEVEL, METAL, PROXIMITY, PROXIMITY_TC};
+use lc_firmware::readout::{BOARD, IMAGES, LEVEL, METAL, PROXIMITY_32, PROXIMITY_TC};
 
 #[path = "cost/cases.rs"]
 mod cases;
@@ -50,21 +51,22 @@ markers!(
     path_fixed_metal,
     path_f32_metal,
     path_load_proximity,
+    path_fixed_proximity_32,
     path_end,
 );
 
 /// A reader from a committed image, the image hidden from the optimizer.
-fn load(unit: usize) -> Option<(Calibration, Reader)> {
-    let cal = Calibration::parse(black_box(IMAGES.get(unit)?.bytes)).ok()?;
-    let reader = Reader::from_calibration(&cal).ok()?;
-    Some((cal, reader))
+fn load(unit: usize) -> Option<(Image<'static>, Reader<'static>)> {
+    let image = Image::new(black_box(IMAGES.get(unit)?.bytes)).ok()?;
+    let reader = Reader::new(&image).ok()?;
+    Some((image, reader))
 }
 
 /// Proximity: eight readings of each path.
 #[inline(never)]
 fn proximity(ntc: &lc_core::temperature::NtcBeta, float_ntc: &FloatNtc) -> Option<()> {
-    let (cal, reader) = load(PROXIMITY_TC)?;
-    let float = FloatProximity::new(&cal)?;
+    let (image, reader) = load(PROXIMITY_TC)?;
+    let float = FloatProximity::<5>::new(&image)?;
     let cases = cases::proximity(|c| ntc.convert(c).ok(), |c| float_ntc.convert(c));
     let mut state = (reader, float, *ntc, *float_ntc);
     let ctx = black_box(&mut state);
@@ -95,8 +97,8 @@ fn proximity(ntc: &lc_core::temperature::NtcBeta, float_ntc: &FloatNtc) -> Optio
 /// Level: eight readings of each path.
 #[inline(never)]
 fn level(ntc: &lc_core::temperature::NtcBeta, float_ntc: &FloatNtc) -> Option<()> {
-    let (cal, reader) = load(LEVEL)?;
-    let float = FloatLevel::new(&cal)?;
+    let (image, reader) = load(LEVEL)?;
+    let float = FloatLevel::new(&image)?;
     let cases = cases::level(|c| ntc.convert(c).ok(), |c| float_ntc.convert(c));
     let mut state = (reader, float);
     let ctx = black_box(&mut state);
@@ -116,8 +118,8 @@ fn level(ntc: &lc_core::temperature::NtcBeta, float_ntc: &FloatNtc) -> Option<()
 /// Metal: eight readings of each path.
 #[inline(never)]
 fn metal() -> Option<()> {
-    let (cal, reader) = load(METAL)?;
-    let float = FloatMetal::new(&cal)?;
+    let (image, reader) = load(METAL)?;
+    let float = FloatMetal::new(&image)?;
     let cases = cases::metal();
     let mut state = (reader, float);
     let ctx = black_box(&mut state);
@@ -133,15 +135,24 @@ fn metal() -> Option<()> {
     Some(())
 }
 
-/// Loading: eight parses and reader constructions of the demo proximity
-/// image.
+/// Loading: eight start-ups with the 32-node cubic proximity image, then
+/// eight readings of it.
 #[inline(never)]
-fn loading() -> Option<()> {
-    let image = IMAGES.get(PROXIMITY)?;
+fn loading(ntc: &lc_core::temperature::NtcBeta) -> Option<()> {
+    let image = IMAGES.get(PROXIMITY_32)?;
     path_load_proximity();
     for _ in 0..8 {
-        let cal = Calibration::parse(black_box(image.bytes)).ok()?;
-        black_box(Reader::from_calibration(black_box(&cal)).ok()?);
+        let checked = Image::new(black_box(image.bytes)).ok()?;
+        black_box(ProximityReader::new(black_box(&checked)).ok()?);
+    }
+    path_end();
+    let checked = Image::new(black_box(image.bytes)).ok()?;
+    let mut reader = ProximityReader::new(&checked).ok()?;
+    let cases = cases::proximity(|c| ntc.convert(c).ok(), |_| 0.0);
+    let ctx = black_box(&mut reader);
+    path_fixed_proximity_32();
+    for x in black_box(&cases) {
+        black_box(ctx.read(&x.input));
     }
     path_end();
     Some(())
@@ -158,5 +169,5 @@ fn main() -> ! {
         board.adc_bits,
     );
     let ok = proximity(&ntc, &float_ntc).is_some() && level(&ntc, &float_ntc).is_some();
-    exit(ok && metal().is_some() && loading().is_some())
+    exit(ok && metal().is_some() && loading(&ntc).is_some())
 }

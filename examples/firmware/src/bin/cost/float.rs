@@ -15,8 +15,8 @@
 //! the curve's clamping at its ends is kept (a binary search needs it).
 
 use lc_core::counting::CountPair;
-use lc_core::curve::Node;
-use lc_core::image::{Calibration, MetalParams, Table};
+use lc_core::curve::{CurveRef, Interpolation};
+use lc_core::image::{Image, MetalParams};
 
 /// The curve's status, as a small code (0 in range, 1 below, 2 above).
 pub type Status = u8;
@@ -35,12 +35,11 @@ pub struct FloatCurve<const N: usize> {
 }
 
 impl<const N: usize> FloatCurve<N> {
-    /// From a calibration table of exactly `N` nodes; `x_scale` turns the
+    /// From an image's curve of exactly `N` nodes; `x_scale` turns the
     /// node's shift into the curve's x unit (1 for a shift; 256 for a
     /// volume table, whose axis is level · 2^32 in Q23.40).
-    pub fn new(table: &Table, x_scale: f64) -> Option<Self> {
-        let nodes: &[Node] = table.nodes();
-        if nodes.len() != N || N < 2 {
+    pub fn new(table: &CurveRef<'_>, x_scale: f64) -> Option<Self> {
+        if table.len() != N || N < 2 {
             return None;
         }
         let mut c = Self {
@@ -48,17 +47,16 @@ impl<const N: usize> FloatCurve<N> {
             y: [0.0; N],
             k: [0.0; N],
             c: [[0.0; 3]; N],
-            cubic: table.is_cubic(),
+            cubic: table.interpolation() == Interpolation::MonotoneCubic,
         };
-        let xs = |i: usize| nodes.get(i).map_or(0.0, |n| n.shift.to_f64() * x_scale);
-        let ys = |i: usize| nodes.get(i).map_or(0.0, |n| f64::from(n.value));
-        // Derivatives dy/dx in the curve's x unit: the stored Q16 values are
-        // per unit shift.
-        let d = |i: usize| {
+        let xs = |i: usize| table.node(i).map_or(0.0, |n| n.shift.to_f64() * x_scale);
+        let ys = |i: usize| table.node(i).map_or(0.0, |n| f64::from(n.value));
+        // The segment's tangent terms w·dy/dx, as the image stores them
+        // (Q8 output units): independent of the x unit.
+        let terms = |i: usize| {
             table
-                .derivatives_q16()
-                .get(i)
-                .map_or(0.0, |&d| d as f64 / 65_536.0 / x_scale)
+                .tangent_terms_q8(i)
+                .map_or((0.0, 0.0), |(a, b)| (f64::from(a) / 256.0, f64::from(b) / 256.0))
         };
         for i in 0..N {
             // f64 → f32: rounds to nearest, as an f32 calibration would.
@@ -68,7 +66,7 @@ impl<const N: usize> FloatCurve<N> {
                 let w = xs(i + 1) - xs(i);
                 let dy = ys(i + 1) - ys(i);
                 if c.cubic {
-                    let (d0, d1) = (w * d(i), w * d(i + 1));
+                    let (d0, d1) = terms(i);
                     c.k[i] = (1.0 / w) as f32;
                     c.c[i] = [
                         d0 as f32,
@@ -130,11 +128,12 @@ pub struct FloatDrift {
 }
 
 impl FloatDrift {
-    /// From the calibration's model.
-    pub fn new(cal: &Calibration) -> Self {
-        let (b1, b2) = cal.drift.coefficients_f64();
+    /// From the image's model.
+    pub fn new(image: &Image<'_>) -> Self {
+        let drift = image.drift();
+        let (b1, b2) = drift.coefficients_f64();
         Self {
-            reference_c: cal.drift.reference().to_f64() as f32,
+            reference_c: drift.reference().to_f64() as f32,
             b1_per_k: b1 as f32,
             b2_per_k2: b2 as f32,
         }
@@ -189,19 +188,19 @@ impl FloatNtc {
 
 /// Proximity: shift → drift model → curve → gap.
 #[derive(Clone, Copy, Debug)]
-pub struct FloatProximity {
+pub struct FloatProximity<const N: usize = 5> {
     inv_rest: f32,
     drift: FloatDrift,
-    curve: FloatCurve<5>,
+    curve: FloatCurve<N>,
 }
 
-impl FloatProximity {
-    /// From a proximity calibration with a five-node curve.
-    pub fn new(cal: &Calibration) -> Option<Self> {
+impl<const N: usize> FloatProximity<N> {
+    /// From a proximity image with an `N`-node curve.
+    pub fn new(image: &Image<'_>) -> Option<Self> {
         Some(Self {
-            inv_rest: (1.0 / cal.rest.to_f64()) as f32,
-            drift: FloatDrift::new(cal),
-            curve: FloatCurve::new(cal.curve.as_ref()?, 1.0)?,
+            inv_rest: (1.0 / image.rest().to_f64()) as f32,
+            drift: FloatDrift::new(image),
+            curve: FloatCurve::new(&image.curve()?, 1.0)?,
         })
     }
 
@@ -228,13 +227,13 @@ pub struct FloatLevel {
 impl FloatLevel {
     /// From a level calibration with a reference electrode, a five-node
     /// curve and a 17-node volume table.
-    pub fn new(cal: &Calibration) -> Option<Self> {
+    pub fn new(image: &Image<'_>) -> Option<Self> {
         Some(Self {
-            inv_rest: (1.0 / cal.rest.to_f64()) as f32,
-            inv_reference_rest: (1.0 / cal.companion_rest?.to_f64()) as f32,
-            drift: FloatDrift::new(cal),
-            curve: FloatCurve::new(cal.curve.as_ref()?, 1.0)?,
-            volume: FloatCurve::new(&cal.volume?.0, 256.0)?,
+            inv_rest: (1.0 / image.rest().to_f64()) as f32,
+            inv_reference_rest: (1.0 / image.companion_rest()?.to_f64()) as f32,
+            drift: FloatDrift::new(image),
+            curve: FloatCurve::new(&image.curve()?, 1.0)?,
+            volume: FloatCurve::new(&image.volume()?.0, 256.0)?,
         })
     }
 
@@ -274,10 +273,10 @@ pub struct FloatMetal {
 
 impl FloatMetal {
     /// From a metal calibration.
-    pub fn new(cal: &Calibration) -> Option<Self> {
-        let m: MetalParams = cal.metal?;
+    pub fn new(image: &Image<'_>) -> Option<Self> {
+        let m: MetalParams = image.metal()?;
         Some(Self {
-            inv_rest: (1.0 / cal.rest.to_f64()) as f32,
+            inv_rest: (1.0 / image.rest().to_f64()) as f32,
             enter: (f64::from(m.enter_ppb) * 1e-9) as f32,
             leave: (f64::from(m.leave_ppb) * 1e-9) as f32,
             enter_samples: m.enter_samples,
