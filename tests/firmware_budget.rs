@@ -10,8 +10,8 @@
 //!
 //! How each figure is measured:
 //!
-//! - **flash**: the loaded sections of the ELF, `.vector_table` + `.text`
-//!   + `.rodata` + `.data` (its initial values) + `.gnu.sgstubs`. The
+//! - **flash**: the loaded sections of the ELF: `.vector_table`, `.text`,
+//!   `.rodata`, `.data` (its initial values) and `.gnu.sgstubs`. The
 //!   calibration image sits in a section of its own, `.calibration` (its
 //!   own flash page, `examples/unit-firmware/build.rs`), so it is not
 //!   counted; [`measure`] checks that section holds exactly the image.
