@@ -75,7 +75,7 @@ if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then
     step "example firmwares against their budgets (flash, static RAM, peak stack)"
     # Already checked by the test suite; this prints the figures. The
     # budget assertion itself is tests/firmware_budget.rs::within_budget.
-    cargo test --quiet --test firmware_budget footprint -- --nocapture 2>&1 | tee -a "$log"
+    cargo test --quiet --test firmware_budget footprint -- --nocapture
 fi
 totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
 
