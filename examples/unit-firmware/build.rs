@@ -14,8 +14,8 @@
 //! core faults at once instead of silently overwriting the statics. The
 //! statics get `STATIC_BYTES` at the top; the stack gets the rest.
 //!
-//! The calibration image has a flash page of its own (`CALIBRATION`, the
-//! last 2 KiB of a 32 KiB part), so the end-of-line rig can write it
+//! The calibration image has flash pages of its own (`CALIBRATION`, the
+//! last 4 KiB of a 32 KiB part), so the end-of-line rig can write it
 //! without touching the program, and so the program's own size is
 //! measured without it.
 //!
@@ -62,12 +62,12 @@ fn main() {
 fn layout(bin: &str, ram: u32, stack: u32) -> String {
     format!(
         "/* {bin}: written by build.rs. A 32 KiB flash part: program in the
-   first 30 KiB, calibration image in the last 2 KiB. {ram} bytes of RAM:
+   first 28 KiB, calibration image in the last 4 KiB. {ram} bytes of RAM:
    the stack ({stack} bytes) at the bottom, the statics above it. */
 MEMORY
 {{
-  FLASH       : ORIGIN = 0x00000000, LENGTH = 30K
-  CALIBRATION : ORIGIN = 0x00007800, LENGTH = 2K
+  FLASH       : ORIGIN = 0x00000000, LENGTH = 28K
+  CALIBRATION : ORIGIN = 0x00007000, LENGTH = 4K
   RAM         : ORIGIN = 0x20000000 + {stack}, LENGTH = {statics}
 }}
 
@@ -77,7 +77,7 @@ _stack_start = ORIGIN(RAM);
 _stack_end = 0x20000000;
 
 /* The calibration image: the `.calibration` section at the start of its
-   page (the rig writes the page; see src/bin/*.rs). */
+   pages (the rig writes them; see src/bin/*.rs). */
 SECTIONS
 {{
   .calibration ORIGIN(CALIBRATION) :

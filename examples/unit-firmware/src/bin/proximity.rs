@@ -7,7 +7,7 @@
 //!    (`DEMO-01-0001.lcim`, docs/image-format.md); the end-of-line rig
 //!    writes it into the unit's flash. Here it is linked into a section of
 //!    its own, `.calibration`, which the linker script (build.rs) places at
-//!    the start of a page of its own, 0x7800 (the last 2 KiB of a 32 KiB
+//!    the start of pages of its own, 0x7000 (the last 4 KiB of a 32 KiB
 //!    part): the rig can rewrite that page without touching the program.
 //!    `include_bytes!` puts a development image there; a product may ship
 //!    the page erased and let the rig write it.
