@@ -146,7 +146,8 @@ fn host_output(ex: &Example) -> String {
     };
     let mut out = String::from("boot\n");
     for (i, input) in (0u32..).zip(ex.inputs) {
-        let line = report::Line::reading(i, &read(input));
+        let r = read(input);
+        let line = report::Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
         out.push_str(std::str::from_utf8(line.as_bytes()).expect("ASCII line"));
     }
     out

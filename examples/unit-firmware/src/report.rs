@@ -5,7 +5,7 @@
 //! The host test (`tests/firmware_budget.rs`) compiles this file too and
 //! compares the firmware's lines with the host's, byte for byte.
 
-use lc_core::reader::{Reading, SensorFault, Status};
+use lc_core::reader::{SensorFault, Status};
 
 /// Room for the longest line.
 const CAPACITY: usize = 112;
@@ -80,22 +80,31 @@ impl Line {
         }
     }
 
-    /// The line of reading number `index`.
-    pub fn reading(index: u32, r: &Reading) -> Self {
+    /// The line of reading number `index`: its value (gap, level, metal
+    /// class), its secondary value (volume, ring-count drop) if any, the
+    /// raw Q23.40 value it came from (shift, probe/reference ratio, shift
+    /// minus baseline) and its status.
+    pub fn reading(
+        index: u32,
+        value: i32,
+        secondary: Option<i32>,
+        raw_q40: i64,
+        status: Status,
+    ) -> Self {
         let mut line = Self::new();
         line.text(b"reading ");
         line.uint(index);
         line.text(b" value ");
-        line.int(r.value);
+        line.int(value);
         line.text(b" secondary ");
-        match r.secondary {
+        match secondary {
             Some(v) => line.int(v),
             None => line.text(b"-"),
         }
         line.text(b" shift ");
-        line.hex64(r.shift.raw_q40());
+        line.hex64(raw_q40);
         line.text(b" status ");
-        line.text(status_name(r.status));
+        line.text(status_name(status));
         line.text(b"\n");
         line
     }

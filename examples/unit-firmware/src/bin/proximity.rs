@@ -63,8 +63,9 @@ fn main() -> ! {
     };
 
     for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
-        let reading = reader.read(input);
-        host.write(Line::reading(i, &reading).as_bytes());
+        let r = reader.read(input);
+        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        host.write(line.as_bytes());
     }
     host.finish()
 }
