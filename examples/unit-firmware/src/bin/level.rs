@@ -2,7 +2,7 @@
 //! (the companion channel) in a coolant tank, level and volume.
 //!
 //! Copy this file to start a product; `proximity.rs` explains the steps
-//! (image in its own flash page, validate, build, read). What a level unit
+//! (image in flash pages of its own, validate, build, read). What a level unit
 //! adds:
 //!
 //! - each reading takes two count pairs over the same gate: the probe's
@@ -27,7 +27,7 @@ use lc_core::image::{Calibration, ReaderKind};
 use lc_core::reader::LevelReader;
 use lc_unit::{report::Line, script, Host};
 
-/// The calibration image, in its own flash page (see `proximity.rs`).
+/// The calibration image, in flash pages of its own (see `proximity.rs`).
 #[link_section = ".calibration"]
 #[used]
 static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/level.lcim");

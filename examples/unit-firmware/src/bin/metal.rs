@@ -3,7 +3,7 @@
 //! the ring-down.
 //!
 //! Copy this file to start a product; `proximity.rs` explains the steps
-//! (image in its own flash page, validate, build, read). What a metal
+//! (image in flash pages of its own, validate, build, read). What a metal
 //! detector adds:
 //!
 //! - each reading takes a count pair and the ring count of a ring-down
@@ -27,7 +27,7 @@ use lc_core::image::{Calibration, ReaderKind};
 use lc_core::reader::MetalReader;
 use lc_unit::{report::Line, script, Host};
 
-/// The calibration image, in its own flash page (see `proximity.rs`).
+/// The calibration image, in flash pages of its own (see `proximity.rs`).
 #[link_section = ".calibration"]
 #[used]
 static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/metal.lcim");

@@ -8,9 +8,9 @@
 //!    writes it into the unit's flash. Here it is linked into a section of
 //!    its own, `.calibration`, which the linker script (build.rs) places at
 //!    the start of pages of its own, 0x7000 (the last 4 KiB of a 32 KiB
-//!    part): the rig can rewrite that page without touching the program.
+//!    part): the rig can rewrite them without touching the program.
 //!    `include_bytes!` puts a development image there; a product may ship
-//!    the page erased and let the rig write it.
+//!    them erased and let the rig write the image.
 //! 2. **Validate.** `Calibration::parse` checks the magic, format version,
 //!    length, CRC-32 and every field. A unit whose image fails must not
 //!    read: report it and stop (here: exit with a failure status).
@@ -38,7 +38,7 @@ use lc_core::image::{Calibration, ReaderKind};
 use lc_core::reader::ProximityReader;
 use lc_unit::{report::Line, script, Host};
 
-/// The calibration image, in its own flash page (see step 1).
+/// The calibration image, in flash pages of its own (see step 1).
 #[link_section = ".calibration"]
 #[used]
 static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/proximity.lcim");
