@@ -34,7 +34,10 @@ case "${1:-}" in
 images)
     work="$(mktemp -d)"
     trap 'rm -rf "$work"' EXIT
-    lc_host() { (cd "$root" && cargo run -q -p lc-host -- "$@"); }
+    # Reproducible images: a fixed calibration time (Unix 0, as the
+    # library writes when no time is given; tests/firmware_budget.rs
+    # compares the committed files with the library's output).
+    lc_host() { (cd "$root" && SOURCE_DATE_EPOCH=0 cargo run -q -p lc-host -- "$@"); }
     lc_host simulate rig --lot DEMO-01 --units 1 --seed 1 -o "$work/rig.csv"
     lc_host simulate level-rig --lot TANK-01 --units 1 --seed 1 -o "$work/level-rig.csv"
     lc_host calibrate "$work/rig.csv" --plan examples/data/demo-plan.toml --lot DEMO-01 \
