@@ -64,6 +64,7 @@ if [ "$have_targets" = yes ]; then
     for t in "${targets[@]}"; do
         cargo clippy --manifest-path examples/firmware/Cargo.toml --target "$t" --quiet -- -D warnings
     done
+    cargo clippy --manifest-path examples/unit-firmware/Cargo.toml --target thumbv6m-none-eabi --quiet -- -D warnings
 else
     missing "Cortex-M rust targets" "rustup target add ${targets[*]}"
 fi
@@ -91,6 +92,12 @@ step "tests (unit, property, published checks, integration, emulator, doc)"
 log=$(mktemp)
 trap 'rm -f "$log"' EXIT
 cargo test --workspace 2>&1 | tee "$log"
+if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then
+    step "example firmwares against their budgets (flash, static RAM, peak stack)"
+    # Already checked by the test suite; this prints the figures. The
+    # budget assertion itself is tests/firmware_budget.rs::within_budget.
+    cargo test --quiet --test firmware_budget footprint -- --nocapture
+fi
 totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
 
 if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then

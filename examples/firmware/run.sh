@@ -8,8 +8,10 @@
 #   run.sh cost m0|m4f         print instructions per reading
 #   run.sh profile m0|m4f      instructions per function of one full reading
 #                              (instruction trace; needs awk)
-#   run.sh panic-check         build the panic-never proof for both cores
-#                              (and run it, if QEMU is installed)
+#   run.sh panic-check         build the panic-never proof for both cores,
+#                              without and with overflow checks (profile
+#                              release-checked), and run it if QEMU is
+#                              installed
 #   run.sh footprint           flash and RAM of the pipeline binary
 #   run.sh stack               peak stack of the pipeline binary on the M0
 #
@@ -80,17 +82,17 @@ need_qemu() {
         die "qemu-system-arm not found; install it with: apt-get install qemu-system-arm"
 }
 
-# build TRIPLE BIN [cargo args...]
+# build TRIPLE BIN [cargo args...]   (PROFILE=release-checked for checks)
 build() {
     local triple="$1" bin="$2"
     shift 2
     need_targets "$triple"
-    (cd "$here" && CARGO_TARGET_DIR="$target_dir" "$cargo" build --release \
+    (cd "$here" && CARGO_TARGET_DIR="$target_dir" "$cargo" build --profile "${PROFILE:-release}" \
         --target "$triple" --bin "$bin" "$@")
 }
 
 elf() {
-    echo "$target_dir/$1/release/$2"
+    echo "$target_dir/$1/${PROFILE:-release}/$2"
 }
 
 # emulate CORE ELF: run under QEMU, one instruction per virtual nanosecond.
@@ -177,14 +179,16 @@ profile)
         awk -F '\t' '{ sub(/^0+/, "", $2); sub(/^\./, "0.", $2); if ($1 != last) { print "== " $1; last = $1 } printf "%10s  %s\n", $2, $3 }'
     ;;
 panic-check)
-    for core in m0 m4f; do
-        triple="$(triple_of "$core")"
-        build "$triple" panic_proof --features panic-never ||
-            die "panic-never build for $triple failed: a panic path is reachable (see the linker error above)"
-        echo "panic-never proof links for $triple"
-        if command -v qemu-system-arm >/dev/null 2>&1; then
-            emulate "$core" "$(elf "$triple" panic_proof)"
-        fi
+    for PROFILE in release release-checked; do
+        for core in m0 m4f; do
+            triple="$(triple_of "$core")"
+            build "$triple" panic_proof --features panic-never ||
+                die "panic-never build ($PROFILE) for $triple failed: a panic path is reachable (see the linker error above)"
+            echo "panic-never proof links for $triple ($PROFILE)"
+            if command -v qemu-system-arm >/dev/null 2>&1; then
+                emulate "$core" "$(elf "$triple" panic_proof)"
+            fi
+        done
     done
     ;;
 footprint)

@@ -76,8 +76,9 @@ pub fn round_shr_u64(x: u64, sh: u32) -> u64 {
         // One 64-bit shift instead of two (each is a library call on
         // ARMv6-M): keep the half bit, then halve with rounding.
         1..=64 => {
-            let t = shr_u64(x, sh - 1);
-            (t >> 1) + (t & 1)
+            // sh ≥ 1; t >> 1 < 2^63, so adding the half bit cannot wrap.
+            let t = shr_u64(x, sh.wrapping_sub(1));
+            (t >> 1).wrapping_add(t & 1)
         }
         _ => 0,
     }
@@ -102,8 +103,12 @@ fn shr_u64_words(x: u64, sh: u32) -> u64 {
     let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
     match sh {
         0 => x,
-        1..=31 => (u64::from(hi >> sh) << 32) | u64::from((lo >> sh) | (hi << (32 - sh))),
-        32..=63 => u64::from(hi >> (sh - 32)),
+        // The arms bound sh, so no shift count below is out of range.
+        1..=31 => {
+            let carried = hi.wrapping_shl(32u32.wrapping_sub(sh));
+            (u64::from(hi.wrapping_shr(sh)) << 32) | u64::from(lo.wrapping_shr(sh) | carried)
+        }
+        32..=63 => u64::from(hi.wrapping_shr(sh.wrapping_sub(32))),
         _ => 0,
     }
 }
@@ -114,7 +119,8 @@ fn shr_u64_words(x: u64, sh: u32) -> u64 {
 pub fn round_shr_u128(x: u128, sh: u32) -> u128 {
     match sh {
         0 => x,
-        1..=127 => ((x >> (sh - 1)) & 1) + (x >> sh),
+        // The half bit plus x >> sh (< 2^127): cannot wrap.
+        1..=127 => ((x.wrapping_shr(sh.wrapping_sub(1))) & 1).wrapping_add(x.wrapping_shr(sh)),
         128 => x >> 127,
         _ => 0,
     }
@@ -130,8 +136,13 @@ pub fn round_shr_u128(x: u128, sh: u32) -> u128 {
 pub fn round_div_u128(n: u128, d: u128) -> Option<u128> {
     let q = n.checked_div(d)?;
     let r = n % d;
-    // r < d, so d - r > 0; round up when r >= d - r, i.e. 2r >= d.
-    Some(if r >= d - r { q + 1 } else { q })
+    // r < d, so d - r > 0; round up when r >= d - r, i.e. 2r >= d. That
+    // needs d ≥ 2 (r = 0 for d = 1), so q ≤ n/2 and q + 1 cannot wrap.
+    Some(if r >= d.wrapping_sub(r) {
+        q.wrapping_add(1)
+    } else {
+        q
+    })
 }
 
 /// `a · 2^32 / d` rounded to nearest, ties away from zero, or `None` when
@@ -257,16 +268,19 @@ pub(crate) fn normalise(v: u64) -> (u32, u32) {
 pub(crate) fn normalise_parts(v: u64) -> Option<(u32, u32, u32)> {
     let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
     if hi != 0 {
-        let z = leading_zeros_u32(hi); // 0..=31
+        // 0..=31 for hi ≠ 0: no shift count below is out of range (the
+        // compiler cannot see it through `leading_zeros_u32`, hence the
+        // wrapping forms, which are the plain shifts here).
+        let z = leading_zeros_u32(hi);
         let top = if z == 0 {
             hi
         } else {
-            (hi << z) | (lo >> (32 - z))
+            hi.wrapping_shl(z) | lo.wrapping_shr(32u32.wrapping_sub(z))
         };
-        Some((z, top, (lo << z) >> 31))
+        Some((z, top, lo.wrapping_shl(z) >> 31))
     } else if lo != 0 {
-        let z = leading_zeros_u32(lo);
-        Some((32 + z, lo << z, 0))
+        let z = leading_zeros_u32(lo); // 0..=31 for lo ≠ 0
+        Some((z.wrapping_add(32), lo.wrapping_shl(z), 0))
     } else {
         None
     }
@@ -339,18 +353,24 @@ pub(crate) fn reciprocal_q63(m: u32) -> u32 {
     // The first difference, below 2^24, and the sum of the two second
     // differences around the interval, below 2^18 (1/x is convex, so both
     // are positive).
-    let d1 = a - b;
-    let d2 = (z - a) - (b - c);
+    // None of the operations below can wrap (the bounds in the comments,
+    // and the exhaustive sweep over every m); they are written in their
+    // wrapping forms because the compiler cannot see the table's values.
+    let d1 = a.wrapping_sub(b);
+    let d2 = z.wrapping_sub(a).wrapping_sub(b.wrapping_sub(c));
     // u·d1 = d1·f/2^23 from 16 × 16-bit products (each below 2^32; the
     // truncations cost under 2 units).
     let (fh, fl) = (f >> 7, f & 127);
-    let linear = (d1 >> 16) * fh + (((((d1 & 0xFFFF) * fh) >> 1) + ((d1 * fl) >> 8)) >> 15);
+    let low = (((d1 & 0xFFFF).wrapping_mul(fh)) >> 1).wrapping_add(d1.wrapping_mul(fl) >> 8);
+    let linear = (d1 >> 16).wrapping_mul(fh).wrapping_add(low >> 15);
     // u(1 − u)/2 · d2/2: u(1 − u) in Q16 is at most 2^14, times d2 < 2^18.
-    let w = (fh * (0x1_0000 - fh)) >> 16;
-    let quadratic = (w * d2) >> 18;
+    let w = fh.wrapping_mul(0x1_0000 - fh) >> 16;
+    let quadratic = w.wrapping_mul(d2) >> 18;
     // a − linear − quadratic ≥ 2^30 − 1 (the sweep); Y = 2^32 (m = 2^31)
     // is held at 2^32 − 1.
-    (a - linear - quadratic).saturating_add(1 << 30)
+    a.wrapping_sub(linear)
+        .wrapping_sub(quadratic)
+        .saturating_add(1 << 30)
 }
 
 /// The quotient a/b in Q.40, a · 2^40 / b to within a relative 2^-27
@@ -391,7 +411,8 @@ fn quotient_q40(a: u64, b: u64) -> Option<i64> {
     // ma·Y ≈ ma·2^63/mb lies in [2^62, 2^64).
     let p = mul_u32_wide(ma, reciprocal_q63(mb));
     // a/b ≈ p · 2^(zb − za − 63); in Q.40: p · 2^(zb − za − 23). z ≤ 63.
-    let sh = zb as i32 - za as i32 - 23;
+    // z ≤ 63 each (normalise's contract): the difference cannot wrap.
+    let sh = (zb as i32).wrapping_sub(za as i32).wrapping_sub(23);
     let q = if sh >= 0 {
         let sh = sh.unsigned_abs();
         if sh >= 64 || leading_zeros_u64(p) <= sh {

@@ -398,7 +398,10 @@ impl ShiftConverter {
         let x = mul_u32_wide(ticks, self.inv_mant);
         let z = x.leading_zeros();
         // (x << z) ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
-        square_to_shift((x << z) / u64::from(cycles), self.inv_exp + z as i32)
+        // z ≤ 32 and |inv_exp| < 2^8 (a rest point's scale): neither the
+        // shift nor the sum can wrap.
+        let exp = self.inv_exp.wrapping_add(z as i32);
+        square_to_shift(x.wrapping_shl(z) / u64::from(cycles), exp)
     }
 
     /// [`ShiftConverter::shift`] with its common case inlined into the
@@ -461,7 +464,11 @@ impl ShiftConverter {
         } else if a == 32 {
             (hi, lo >> 31)
         } else {
-            (hi >> (a - 32), (hi >> (a - 33)) & 1)
+            // a is 33 or 34 here: both shift counts are in range.
+            (
+                hi.wrapping_shr(a.wrapping_sub(32)),
+                hi.wrapping_shr(a.wrapping_sub(33)) & 1,
+            )
         };
         let (y, sh) = match y.checked_add(half) {
             Some(y) => (y, sh),
@@ -500,10 +507,15 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
     let z = z as i32; // ≤ 63
     let (y, z) = match top.checked_add(round) {
         Some(y) => (y, z),
-        None => (1 << 31, z - 1),
+        None => (1 << 31, z.wrapping_sub(1)),
     };
-    // s + 1 = r² = y² · 2^(2·(32 − z − exp)); in Q.40: y² · 2^k.
-    let k = 2 * (32 - z - exp) + 40;
+    // s + 1 = r² = y² · 2^(2·(32 − z − exp)); in Q.40: y² · 2^k. With
+    // −1 ≤ z ≤ 63 and |exp| < 2^9 (the converters' scales) k cannot wrap.
+    let k = 32i32
+        .wrapping_sub(z)
+        .wrapping_sub(exp)
+        .wrapping_mul(2)
+        .wrapping_add(40);
     if k >= 0 {
         // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
         return Err(ShiftError::OutOfRange);

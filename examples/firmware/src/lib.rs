@@ -1,6 +1,7 @@
 //! Support for the firmware example binaries: the shared stage table
-//! ([`pipeline`]) and the whole readout from calibration image to reading
-//! ([`readout`]), host output over semihosting, exit, and the panic handler.
+//! ([`pipeline`]), the whole readout from calibration image to reading
+//! ([`readout`]), the scanner, multiplexers and NTC conversions
+//! ([`scan`]), host output over semihosting, exit, and the panic handler.
 //!
 //! Runs on QEMU's `microbit` (Cortex-M0, `thumbv6m-none-eabi`) and
 //! `mps2-an386` (Cortex-M4F, `thumbv7em-none-eabihf`) machines; see
@@ -12,6 +13,7 @@
 pub mod pipeline;
 pub mod readout;
 pub mod sizes;
+pub mod scan;
 
 use cortex_m_semihosting::{debug, hio};
 

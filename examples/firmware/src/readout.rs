@@ -738,7 +738,9 @@ pub fn walk<S: Sink>(
         ntc: ntc.map(|_| ()),
         chain: chain.as_ref().map(|_| ()).map_err(|e| *e),
     })?;
-    for (u, image) in images.iter().enumerate() {
+    // Indices from a range zipped with the slice, not `enumerate`: its
+    // counter has an overflow check the optimiser cannot always drop.
+    for (u, image) in (0..images.len()).zip(images) {
         unit(u, image, rows, ntc.ok().as_ref(), chain.as_ref().ok(), sink)?;
     }
     for m in malformed {
@@ -789,7 +791,7 @@ fn unit<S: Sink>(
         ReaderKind::Proximity => chain.cloned(),
         _ => None,
     };
-    for (index, row) in rows.iter().enumerate().filter(|(_, r)| r.unit == u) {
+    for (index, row) in (0..rows.len()).zip(rows).filter(|(_, r)| r.unit == u) {
         let temperature = match (row.ntc_code, ntc) {
             (Some(code), Some(ntc)) => Some(ntc.convert(code)),
             _ => None,
@@ -823,7 +825,7 @@ fn unit<S: Sink>(
 
 /// The rows of a unit without a reader.
 fn refused<S: Sink>(u: usize, image: &Image, rows: &[Row], sink: &mut S) -> Result<(), S::Error> {
-    for (index, row) in rows.iter().enumerate().filter(|(_, r)| r.unit == u) {
+    for (index, row) in (0..rows.len()).zip(rows).filter(|(_, r)| r.unit == u) {
         sink.line(&Line::Refused {
             unit: image.name,
             index,

@@ -157,8 +157,9 @@ impl TemperatureModel {
 
     fn delta(&self, t: CentiCelsius) -> i32 {
         let (lo, hi) = TEMPERATURE_DOMAIN;
-        // Both in −10 000..=30 000: the difference fits easily.
-        t.0.clamp(lo.0, hi.0) - self.reference.0
+        // Both in −10 000..=30 000 (`new` refuses a reference outside the
+        // domain): the difference cannot wrap.
+        t.0.clamp(lo.0, hi.0).wrapping_sub(self.reference.0)
     }
 
     /// g(ΔT) in units of 2^-56, exact (|g| < 2^55): the formula in `i64`,
@@ -202,7 +203,8 @@ impl TemperatureModel {
             .wrapping_add(i32::from(carry));
         // g·2^-24 fits i32 (|g| < 2^55); halve it rounding ties up.
         let x = (g_hi << 8) | (g_lo >> 24) as i32;
-        (x >> 1) + (x & 1)
+        // x >> 1 < 2^30: adding the half bit cannot wrap.
+        (x >> 1).wrapping_add(x & 1)
     }
 
     /// The correction at temperature `t` (clamped to

@@ -86,13 +86,13 @@ impl<T: Copy + Ord + Default, const N: usize> Median<T, N> {
             if let Some(window) = self.sorted.get_mut(..=self.len) {
                 insert_sorted(window, x);
             }
-            self.len += 1; // ≤ N
+            self.len = self.len.wrapping_add(1); // < N before: ≤ N, no wrap
             self.head = if self.len == N { 0 } else { self.len };
         } else if let Some(slot) = self.ring.get_mut(self.head) {
             let old = *slot;
             *slot = x;
             replace_sorted(&mut self.sorted, old, x);
-            self.head += 1; // head < N before, so no overflow
+            self.head = self.head.wrapping_add(1); // head < N before: no wrap
             if self.head == N {
                 self.head = 0;
             }

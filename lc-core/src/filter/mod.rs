@@ -106,7 +106,8 @@ fn asr_i64(x: i64, k: u32) -> i64 {
     if ARMV6M {
         asr_i64_halves(x, k)
     } else {
-        x >> k
+        // k in 1..=31 (the callers'): the plain shift.
+        x.wrapping_shr(k)
     }
 }
 
@@ -121,9 +122,10 @@ fn asr_i64_halves(x: i64, k: u32) -> i64 {
     let lo = u32::from_le_bytes([b0, b1, b2, b3]);
     let hi = i32::from_le_bytes([b4, b5, b6, b7]);
     let hi_bits = u32::from_le_bytes([b4, b5, b6, b7]);
-    // 32 − k is in 1..=31: both shifts are in range.
-    let new_lo = (lo >> k) | (hi_bits << (32 - k));
-    let new_hi = hi >> k;
+    // 32 − k is in 1..=31: all three shifts are in range (the wrapping
+    // forms are the plain shifts; the compiler cannot see k's range).
+    let new_lo = lo.wrapping_shr(k) | hi_bits.wrapping_shl(32u32.wrapping_sub(k));
+    let new_hi = hi.wrapping_shr(k);
     (i64::from(new_hi) << 32) | i64::from(new_lo)
 }
 
@@ -135,8 +137,10 @@ fn ema_step_i64(acc: i128, x: i64, k: u32) -> i128 {
     if ARMV6M {
         ema_step_i64_words(acc, x, k)
     } else {
-        let d = (i128::from(x) << EMA_FRAC_BITS) - acc;
-        acc + ((d + (1 << (k - 1))) >> k)
+        // No wrap: the bounds of `ema_step_i64_words` (k in 1..=31).
+        let d = (i128::from(x) << EMA_FRAC_BITS).wrapping_sub(acc);
+        let half = 1i128.wrapping_shl(k.wrapping_sub(1));
+        acc.wrapping_add(d.wrapping_add(half).wrapping_shr(k))
     }
 }
 
@@ -155,10 +159,10 @@ fn ema_step_i64_words(acc: i128, x: i64, k: u32) -> i128 {
     let (d_lo, borrow) = x_lo.overflowing_sub(a_lo);
     let d_hi = x_hi.wrapping_sub(a_hi).wrapping_sub(i64::from(borrow));
     // + 2^(k−1), k − 1 ≤ 30.
-    let (e_lo, carry) = d_lo.overflowing_add(1 << (k - 1));
+    let (e_lo, carry) = d_lo.overflowing_add(1u32.wrapping_shl(k.wrapping_sub(1)));
     let e_hi = d_hi.wrapping_add(i64::from(carry));
-    // >> k: 32 − k is in 1..=31.
-    let s_lo = (e_lo >> k) | ((e_hi as u32) << (32 - k));
+    // >> k: 32 − k is in 1..=31 (the wrapping forms are the plain shifts).
+    let s_lo = e_lo.wrapping_shr(k) | (e_hi as u32).wrapping_shl(32u32.wrapping_sub(k));
     let s_hi = asr_i64(e_hi, k);
     let (r_lo, c) = a_lo.overflowing_add(s_lo);
     let r_hi = a_hi.wrapping_add(s_hi).wrapping_add(i64::from(c));
@@ -172,7 +176,8 @@ fn ema_output_i64(acc: i128) -> i64 {
     if ARMV6M {
         ema_output_i64_words(acc)
     } else {
-        let y = (acc + (1 << (EMA_FRAC_BITS - 1))) >> EMA_FRAC_BITS;
+        // |acc| ≤ 2^94 (the bounds above): adding the half cannot wrap.
+        let y = acc.wrapping_add(1 << (EMA_FRAC_BITS - 1)) >> EMA_FRAC_BITS;
         i64::try_from(y).unwrap_or(if y < 0 { i64::MIN } else { i64::MAX })
     }
 }
@@ -253,13 +258,15 @@ mod private {
         }
         #[inline]
         fn ema_step(acc: i64, x: i32, k: u32) -> i64 {
-            let d = x.ema_init() - acc;
-            // 2^(k−1) ≤ 2^15 as a 32-bit shift: no 64-bit shift routine.
-            acc + asr_i64(d + i64::from(1i32 << (k - 1)), k)
+            // No wrap (the bounds above); 2^(k−1) ≤ 2^15 as a 32-bit
+            // shift: no 64-bit shift routine.
+            let d = x.ema_init().wrapping_sub(acc);
+            let half = i64::from(1i32.wrapping_shl(k.wrapping_sub(1)));
+            acc.wrapping_add(asr_i64(d.wrapping_add(half), k))
         }
         #[inline]
         fn ema_output(acc: i64) -> i32 {
-            let y = (acc + (1 << (EMA_FRAC_BITS - 1))) >> EMA_FRAC_BITS;
+            let y = acc.wrapping_add(1 << (EMA_FRAC_BITS - 1)) >> EMA_FRAC_BITS;
             // In range by the hull invariant; saturate rather than wrap.
             i32::try_from(y).unwrap_or(if y < 0 { i32::MIN } else { i32::MAX })
         }
@@ -309,18 +316,19 @@ mod private {
         }
         #[inline]
         fn ema_step(acc: u32, x: u16, k: u32) -> u32 {
+            // No wrap (the bounds above; k in 1..=16).
             let xs = x.ema_init();
-            let half = 1u32 << (k - 1);
+            let half = 1u32.wrapping_shl(k.wrapping_sub(1));
             if xs >= acc {
-                acc + ((xs - acc + half) >> k)
+                acc.wrapping_add((xs - acc).wrapping_add(half).wrapping_shr(k))
             } else {
-                acc - ((acc - xs + half) >> k)
+                acc.wrapping_sub((acc - xs).wrapping_add(half).wrapping_shr(k))
             }
         }
         #[inline]
         fn ema_output(acc: u32) -> u16 {
             // ≤ (2^32 − 2^16 + 2^15) >> 16 = 2^16 − 1: always a u16.
-            ((acc + (1 << (U16_EMA_FRAC_BITS - 1))) >> U16_EMA_FRAC_BITS) as u16
+            (acc.wrapping_add(1 << (U16_EMA_FRAC_BITS - 1)) >> U16_EMA_FRAC_BITS) as u16
         }
         #[inline]
         fn ema_acc_f64(acc: u32) -> f64 {
@@ -341,12 +349,16 @@ mod private {
         }
         #[inline]
         fn ema_step(acc: i64, x: Shift, k: u32) -> i64 {
-            let d = x.ema_init() - acc;
-            acc + asr_i64(d + i64::from(1i32 << (k - 1)), k)
+            // No wrap (the bounds above; k in 1..=16).
+            let d = x.ema_init().wrapping_sub(acc);
+            let half = i64::from(1i32.wrapping_shl(k.wrapping_sub(1)));
+            acc.wrapping_add(asr_i64(d.wrapping_add(half), k))
         }
         #[inline]
         fn ema_output(acc: i64) -> Shift {
-            Shift::from_raw_q40((acc + (1 << (SHIFT_EMA_FRAC_BITS - 1))) >> SHIFT_EMA_FRAC_BITS)
+            Shift::from_raw_q40(
+                acc.wrapping_add(1 << (SHIFT_EMA_FRAC_BITS - 1)) >> SHIFT_EMA_FRAC_BITS,
+            )
         }
         #[inline]
         fn ema_acc_f64(acc: i64) -> f64 {

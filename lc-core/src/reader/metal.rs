@@ -130,8 +130,8 @@ impl MetalReader {
             self.learn(s, input.ring_count);
             self.learned = true;
         }
-        // Both within ±2^45: exact.
-        let delta = s.raw_q40() - self.base;
+        // Both within ±2^45: exact, cannot wrap.
+        let delta = s.raw_q40().wrapping_sub(self.base);
         let ring_drop = match (input.ring_count, self.ring_base) {
             (Some(rc), Some(base)) => Some(i32::from(base) - i32::from(rc)),
             _ => None,

@@ -84,7 +84,8 @@ impl Divider {
     /// largest code an ADC returns is N − 1.
     #[inline]
     pub const fn full_scale(&self) -> u32 {
-        1 << self.adc_bits
+        // adc_bits is 8..=24 (`new` checks it): the shift is in range.
+        1u32.wrapping_shl(self.adc_bits)
     }
 
     /// Checks a code and returns (numerator, denominator) of R/R_s as two

@@ -58,29 +58,33 @@ const THIRD_Q32: u32 = 0x5555_5555;
 /// (0 ≤ ln m < ln 2 + 2^-32).
 #[inline]
 fn ln_parts(x: NonZeroU32) -> (u32, u64) {
-    let z = leading_zeros_u32(x.get()); // x ≥ 1: z ≤ 31
-    let k = 31 - z;
-    let m = x.get() << z; // Q1.31, top bit set
-                          // The six bits after the leading one: m lies in [(64 + j)·2^25, (65 + j)·2^25).
+    // x ≥ 1: z ≤ 31, so neither the difference nor the shift wraps (the
+    // wrapping forms are the plain operations; the compiler cannot see z's
+    // range through `leading_zeros_u32`). So do the steps below, by the
+    // bounds in their comments.
+    let z = leading_zeros_u32(x.get());
+    let k = 31u32.wrapping_sub(z);
+    let m = x.get().wrapping_shl(z); // Q1.31, top bit set
+                                     // The six bits after the leading one: m lies in [(64 + j)·2^25, (65 + j)·2^25).
     let j = ((m >> 25) & 63) as usize; // masked to 6 bits: the cast is exact
     let r = R_Q31[j];
     // m·r ≥ (64 + j)·2^25 · 2^37/(64 + j) = 2^62, and
     // m·r < 2^62·(65 + j)/(64 + j) + 2^32 ≤ 2^62 + 2^56 + 2^32.
     let p = mul_u32_wide(m, r); // Q2.62
                                 // y = m·r − 1 in Q.37 (truncated): below 2^31 + 2^7, so the cast is exact.
-    let y = ((p - (1 << 62)) >> 25) as u32;
+    let y = (p.wrapping_sub(1 << 62) >> 25) as u32;
     // Horner, all terms non-negative since y < 1:
     // ln(1 + y) ≈ y − y·(y·(1/2 − y·(1/3 − y/4))).
-    let h3 = THIRD_Q32 - (y >> 7); // 1/3 − y/4, Q.32 (y/4 < 2^-8)
-                                   // y·h3 from their top bits: y >> 15 ≤ 2^16 and h3 >> 15 < 2^15.5, so
-                                   // the product fits u32 (< 2^31.5); in Q.39 it is y·h3 to within
-                                   // 2^-22.2, which moves ln(1 + y) by at most y²·2^-22.2 < 2^-34.2.
-                                   // Shifted to Q.32 it is below 2^25.
-    let h2 = (1 << 31) - (((y >> 15) * (h3 >> 15)) >> 7); // 1/2 − y·h3, Q.32
-                                                          // y·h2 < 2^-7, so below 2^30 in Q.37: the cast is exact.
+    let h3 = THIRD_Q32.wrapping_sub(y >> 7); // 1/3 − y/4, Q.32 (y/4 < 2^-8)
+                                             // y·h3 from their top bits: y >> 15 ≤ 2^16 and h3 >> 15 < 2^15.5, so
+                                             // the product fits u32 (< 2^31.5); in Q.39 it is y·h3 to within
+                                             // 2^-22.2, which moves ln(1 + y) by at most y²·2^-22.2 < 2^-34.2.
+                                             // Shifted to Q.32 it is below 2^25.
+    let h2 = (1u32 << 31).wrapping_sub((y >> 15).wrapping_mul(h3 >> 15) >> 7); // 1/2 − y·h3, Q.32
+                                                                               // y·h2 < 2^-7, so below 2^30 in Q.37: the cast is exact.
     let g = (mul_u32_wide(y, h2) >> 32) as u32; // Q.37
-    let ln1p = u64::from(y) - (mul_u32_wide(y, g) >> 37); // Q.37, y·g ≤ y
-    (k, (u64::from(NEG_LN_R_Q32[j]) << 5) + ln1p)
+    let ln1p = u64::from(y).wrapping_sub(mul_u32_wide(y, g) >> 37); // Q.37, y·g ≤ y
+    (k, (u64::from(NEG_LN_R_Q32[j]) << 5).wrapping_add(ln1p))
 }
 
 /// k·ln 2 in Q.37 rounded to nearest, for k in 0..=31: round(k · LN2_Q58 ·
@@ -153,7 +157,8 @@ fn k_ln2_q37(k: u32) -> u64 {
 pub fn ln_q37(x: u32) -> Option<u64> {
     let x = NonZeroU32::new(x)?;
     let (k, f) = ln_parts(x);
-    Some(k_ln2_q37(k) + f)
+    // Below 2^42 + 2^37 (the docs above): cannot wrap.
+    Some(k_ln2_q37(k).wrapping_add(f))
 }
 
 /// ln(a/b) in Q.37 from two logarithms, with the integer parts combined
@@ -164,13 +169,14 @@ pub(crate) fn ln_ratio_q37(a: NonZeroU32, b: NonZeroU32) -> i64 {
     let (ka, fa) = ln_parts(a);
     let (kb, fb) = ln_parts(b);
     // fa, fb < 2^37 and k·ln2 < 2^42 in Q.37: every cast below is exact.
-    let frac = fa as i64 - fb as i64;
+    // So none of the differences and sums below can wrap.
+    let frac = (fa as i64).wrapping_sub(fb as i64);
     let whole = if ka >= kb {
-        k_ln2_q37(ka - kb) as i64
+        k_ln2_q37(ka.wrapping_sub(kb)) as i64
     } else {
-        -(k_ln2_q37(kb - ka) as i64)
+        (k_ln2_q37(kb.wrapping_sub(ka)) as i64).wrapping_neg()
     };
-    whole + frac
+    whole.wrapping_add(frac)
 }
 
 #[cfg(test)]

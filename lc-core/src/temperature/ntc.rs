@@ -42,8 +42,12 @@ fn quotient_nearest(m: u32, sh: u32) -> Option<u64> {
     if m < 1 << 31 || !(32..=57).contains(&sh) {
         return None;
     }
-    // 100·Y < 2^39; the shift 63 − sh is in 6..=31.
-    Some(round_shr_u64(mul_u32_wide(reciprocal_q63(m), 100), 63 - sh))
+    // 100·Y < 2^39; the shift 63 − sh is in 6..=31 (checked above, so
+    // the difference cannot wrap).
+    Some(round_shr_u64(
+        mul_u32_wide(reciprocal_q63(m), 100),
+        63u32.wrapping_sub(sh),
+    ))
 }
 
 /// The cubic term's coefficient C = ±mant · 2^(−shift − 38), 2^31 ≤ mant <
@@ -87,8 +91,11 @@ impl Law {
     fn inverse_temperature_q60(&self, code: u32) -> Result<i64, TemperatureError> {
         let (num, den) = self.divider.operands(code)?;
         // Both terms are below 23 · 2^37 in magnitude (ln of a u32 is below
-        // 22.2): no overflow.
-        let l = self.ln_offset_q37 + ln_ratio_q37(num, den);
+        // 22.2): no overflow. The sums, differences and shift counts below
+        // cannot wrap either (the bounds in the comments, set by the
+        // constructors' limits on B and C); they are written in wrapping
+        // form because the compiler cannot see those limits.
+        let l = self.ln_offset_q37.wrapping_add(ln_ratio_q37(num, den));
         let lm = u32::try_from(round_shr_u64(l.unsigned_abs(), 10))
             .map_err(|_| TemperatureError::OutOfRange)?;
         let (t_mant, t_z, t_negative) = match self.cubic {
@@ -99,11 +106,11 @@ impl Law {
                 // C·L²·2^60 = (mant · m2) >> (z2 − 6 − e) = >> (shift + z2).
                 let (m2, z2) = normalise(mul_u32_wide(lm, lm));
                 // shift ≥ 9 (|C| ≤ 2^-16): below 2^55, the cast is exact.
-                let cl2 = round_shr_u64(mul_u32_wide(c.mant, m2), c.shift + z2) as i64;
+                let cl2 = round_shr_u64(mul_u32_wide(c.mant, m2), c.shift.wrapping_add(z2)) as i64;
                 let t = if c.negative {
-                    self.b_q60 - cl2
+                    self.b_q60.wrapping_sub(cl2)
                 } else {
-                    self.b_q60 + cl2
+                    self.b_q60.wrapping_add(cl2)
                 };
                 let (m, z) = normalise(t.unsigned_abs());
                 (m, z, t < 0)
@@ -115,9 +122,9 @@ impl Law {
         // 2^(32 − t_z − 27).
         let lt = round_shr_u64(mul_u32_wide(lm, t_mant), t_z.saturating_sub(5)) as i64;
         Ok(if (l < 0) != t_negative {
-            self.a_q60 - lt
+            self.a_q60.wrapping_sub(lt)
         } else {
-            self.a_q60 + lt
+            self.a_q60.wrapping_add(lt)
         })
     }
 
@@ -133,7 +140,8 @@ impl Law {
         // u > 0; u ≈ m · 2^(32 − z) with z in 10..=13 inside the limits.
         let (m, z) = normalise(u.unsigned_abs());
         // T · 100 · 2^16 = 100 · 2^(76 − (32 − z)) / m = 100 · 2^(44 + z) / m.
-        quotient_nearest(m, 44 + z).ok_or(TemperatureError::OutOfRange)
+        // z ≤ 64: the sum cannot wrap.
+        quotient_nearest(m, z.wrapping_add(44)).ok_or(TemperatureError::OutOfRange)
     }
 
     /// The reading, rounded to the nearest 0.01 °C.
@@ -142,7 +150,8 @@ impl Law {
         let q = self.centi_kelvin_q16(code)?;
         let ck =
             i32::try_from(round_shr_u64(q, FINE_BITS)).map_err(|_| TemperatureError::OutOfRange)?;
-        let c = CentiCelsius(ck - ZERO_C_CENTI_K);
+        // ck ≥ 0 (from a u64): the difference cannot wrap.
+        let c = CentiCelsius(ck.wrapping_sub(ZERO_C_CENTI_K));
         if c < MIN_READING || c > MAX_READING {
             return Err(TemperatureError::OutOfRange);
         }
@@ -174,8 +183,8 @@ impl Law {
 fn ln_ohm_ratio_q37(x_ohm: u32, y_ohm: u32) -> Result<i64, ConfigError> {
     let lx = ln_q37(x_ohm).ok_or(ConfigError::BadSeriesResistance)?;
     let ly = ln_q37(y_ohm).ok_or(ConfigError::BadR25)?;
-    // Both below 2^42: the casts are exact.
-    Ok(lx as i64 - ly as i64)
+    // Both below 2^42: the casts are exact and the difference cannot wrap.
+    Ok((lx as i64).wrapping_sub(ly as i64))
 }
 
 /// Step of the reading for one ADC code, T² · (d(1/T)/dL) · N/(c·(N − c)),
@@ -319,15 +328,18 @@ impl NtcSteinhartHart {
             let (f, e) = libm::frexp(c.abs());
             // f · 2^32 in [2^31, 2^32]: an integer after rounding, exact cast.
             let m = libm::round(f * 4_294_967_296.0) as u64;
+            // e ≥ −1 075 (frexp of a finite double): the sums below
+            // cannot saturate; saturating only says so to the compiler.
             let (m, e) = if m >> 32 != 0 {
-                (m >> 1, e + 1)
+                (m >> 1, e.saturating_add(1))
             } else {
                 (m, e)
             };
             let mant = u32::try_from(m).map_err(|_| ConfigError::BadCoefficients)?;
             // C = mant · 2^(e − 32): stored as shift = −e − 6 ≥ 9 (see
             // `Law::inverse_temperature_q60`).
-            let shift = u32::try_from(-e - 6).map_err(|_| ConfigError::BadCoefficients)?;
+            let shift = u32::try_from(0i32.saturating_sub(e).saturating_sub(6))
+                .map_err(|_| ConfigError::BadCoefficients)?;
             Some(Cubic {
                 mant,
                 shift,

@@ -19,9 +19,18 @@
 //!   companion and reference electrode, drift model, curve and volume
 //!   table, baseline, detector, ring-down), `Divider::new`, `NtcBeta::new` /
 //!   `convert`, `Median::push`, `Ema::new` / `update`, `Detector::new` /
-//!   `update`, and the CRC-32.
+//!   `update`, and the CRC-32;
+//! - the scanner, both multiplexers and both NTC conversions (`scan::digest`:
+//!   `Scanner`, `BinaryMux`, `EnabledMux`, `SingleInput`, `ReplaySource`,
+//!   `Divider::new`, `NtcBeta`, `NtcSteinhartHart::new` / `convert`,
+//!   `steinhart_hart_fit`).
 //!
-//! Every result feeds `pipeline::digest` and `readout::digest`, which are
+//! It links with overflow checks on as well (`--profile release-checked`,
+//! `run.sh panic-check`): no addition, subtraction, multiplication or
+//! shift on these paths can wrap or panic unseen.
+//!
+//! Every result feeds `pipeline::digest`, `readout::digest` and
+//! `scan::digest`, which are
 //! printed as hex over semihosting without `core::fmt` (its formatting
 //! machinery has panic paths of its own); `tests/emulator.rs` compares them
 //! with the host's.
@@ -32,6 +41,7 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use lc_firmware::pipeline::{self, CAPTURES, ROWS, UNITS, WIDENERS};
 use lc_firmware::readout::{self, BOARD, IMAGES, MALFORMED};
+use lc_firmware::scan::{self, LOG, NTC_CODES, PIN_BUDGETS};
 use lc_firmware::{exit, stdout};
 use panic_never as _;
 
@@ -49,6 +59,11 @@ fn main() -> ! {
         black_box(&MALFORMED[..]),
         black_box(readout::ROWS),
     );
+    let scan = scan::digest(
+        black_box(&LOG[..]),
+        black_box(&PIN_BUDGETS[..]),
+        black_box(&NTC_CODES[..]),
+    );
     let ok = match stdout() {
         Some(mut out) => {
             out.write_all(&hex_line(*b"digest 00000000\n", digest))
@@ -56,6 +71,7 @@ fn main() -> ! {
                 && out
                     .write_all(&hex_line(*b"readout 00000000\n", readout))
                     .is_ok()
+                && out.write_all(&hex_line(*b"scan 00000000\n", scan)).is_ok()
         }
         None => false,
     };

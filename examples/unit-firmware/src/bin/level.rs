@@ -1,0 +1,58 @@
+//! A whole level firmware: a capacitive probe with a reference electrode
+//! (the companion channel) in a coolant tank, level and volume.
+//!
+//! Copy this file to start a product; `proximity.rs` explains the steps
+//! (image in flash pages of its own, validate, build, read). What a level unit
+//! adds:
+//!
+//! - each reading takes two count pairs over the same gate: the probe's
+//!   and the reference electrode's, which is always submerged; the level
+//!   comes from the ratio of their shifts, so it does not move when the
+//!   liquid's permittivity drifts with temperature;
+//! - the image's volume table turns the level (0.1 mm) into a volume
+//!   (mL): `secondary` in the reading;
+//! - a reference electrode out of the liquid, or a missing reference pair,
+//!   is a sensor fault.
+//!
+//! Memory: measured by `tests/firmware_budget.rs` (docs/performance.md).
+//!
+//! **Not a safety-rated component.** A reading that protects people or
+//! machines needs a safety function designed to the applicable standards.
+#![no_std]
+#![no_main]
+
+use core::hint::black_box;
+use cortex_m_rt::entry;
+use lc_core::image::{Calibration, ReaderKind};
+use lc_core::reader::LevelReader;
+use lc_unit::{report::Line, script, Host};
+
+/// The calibration image, in flash pages of its own (see `proximity.rs`).
+#[link_section = ".calibration"]
+#[used]
+static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/level.lcim");
+const IMAGE_LEN: usize = include_bytes!("../../data/level.lcim").len();
+
+#[entry]
+fn main() -> ! {
+    let mut host = Host::open();
+    host.write(b"boot\n");
+    let image: &[u8] = black_box(&IMAGE);
+
+    let Ok(cal) = Calibration::parse(image) else {
+        host.fail(b"calibration image refused\n")
+    };
+    if cal.kind != ReaderKind::Level {
+        host.fail(b"not a level image\n")
+    }
+    let Ok(mut reader) = LevelReader::new(&cal) else {
+        host.fail(b"image has no usable curve\n")
+    };
+
+    for (i, input) in (0u32..).zip(black_box(&script::LEVEL)) {
+        let r = reader.read(input);
+        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        host.write(line.as_bytes());
+    }
+    host.finish()
+}

@@ -1,0 +1,58 @@
+//! A whole metal-detector firmware: baseline tracking, detection with
+//! hysteresis and debounce, and the class (ferrous or not) confirmed by
+//! the ring-down.
+//!
+//! Copy this file to start a product; `proximity.rs` explains the steps
+//! (image in flash pages of its own, validate, build, read). What a metal
+//! detector adds:
+//!
+//! - each reading takes a count pair and the ring count of a ring-down
+//!   after the gate (swings above the comparator's threshold);
+//! - the reader learns the background over its first readings: keep the
+//!   coil clear of metal at power-up;
+//! - the reading's `value` is the class code (`MetalClass`), `secondary`
+//!   the ring-count drop; the status is `NoTarget` while nothing is
+//!   present.
+//!
+//! Memory: measured by `tests/firmware_budget.rs` (docs/performance.md).
+//!
+//! **Not a safety-rated component.** A reading that protects people or
+//! machines needs a safety function designed to the applicable standards.
+#![no_std]
+#![no_main]
+
+use core::hint::black_box;
+use cortex_m_rt::entry;
+use lc_core::image::{Calibration, ReaderKind};
+use lc_core::reader::MetalReader;
+use lc_unit::{report::Line, script, Host};
+
+/// The calibration image, in flash pages of its own (see `proximity.rs`).
+#[link_section = ".calibration"]
+#[used]
+static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/metal.lcim");
+const IMAGE_LEN: usize = include_bytes!("../../data/metal.lcim").len();
+
+#[entry]
+fn main() -> ! {
+    let mut host = Host::open();
+    host.write(b"boot\n");
+    let image: &[u8] = black_box(&IMAGE);
+
+    let Ok(cal) = Calibration::parse(image) else {
+        host.fail(b"calibration image refused\n")
+    };
+    if cal.kind != ReaderKind::Metal {
+        host.fail(b"not a metal image\n")
+    }
+    let Ok(mut reader) = MetalReader::new(&cal) else {
+        host.fail(b"image has no usable metal parameters\n")
+    };
+
+    for (i, input) in (0u32..).zip(black_box(&script::METAL)) {
+        let r = reader.read(input);
+        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        host.write(line.as_bytes());
+    }
+    host.finish()
+}

@@ -1,0 +1,71 @@
+//! A whole proximity firmware: the calibration image in flash, validated
+//! once, a proximity reader built from it, then one reading per count pair.
+//!
+//! Copy this file to start a product. The steps:
+//!
+//! 1. **The image.** `lc-host calibrate` writes one image per unit
+//!    (`DEMO-01-0001.lcim`, docs/image-format.md); the end-of-line rig
+//!    writes it into the unit's flash. Here it is linked into a section of
+//!    its own, `.calibration`, which the linker script (build.rs) places at
+//!    the start of pages of its own, 0x7000 (the last 4 KiB of a 32 KiB
+//!    part): the rig can rewrite them without touching the program.
+//!    `include_bytes!` puts a development image there; a product may ship
+//!    them erased and let the rig write the image.
+//! 2. **Validate.** `Calibration::parse` checks the magic, format version,
+//!    length, CRC-32 and every field. A unit whose image fails must not
+//!    read: report it and stop (here: exit with a failure status).
+//! 3. **Build the reader.** `ProximityReader::new` checks that the image
+//!    has what a proximity reader needs and precomputes the curve. Check
+//!    the image's kind first: the typed reader does not.
+//! 4. **Read.** Per gate, the timer capture gives a count pair (sensor
+//!    cycles, reference ticks) and the NTC a temperature; `read` turns them
+//!    into a gap in micrometres with a status. A sensor fault is a status,
+//!    never a panic. Here the inputs come from a script (`lc_unit::script`)
+//!    and the readings go to the host over semihosting.
+//!
+//! Memory (measured by `tests/firmware_budget.rs`, docs/performance.md):
+//! everything lives in `main`'s frame; the stack sits at the bottom of RAM
+//! (build.rs) so an overflow faults instead of corrupting the statics.
+//!
+//! **Not a safety-rated component.** A reading that protects people or
+//! machines needs a safety function designed to the applicable standards.
+#![no_std]
+#![no_main]
+
+use core::hint::black_box;
+use cortex_m_rt::entry;
+use lc_core::image::{Calibration, ReaderKind};
+use lc_core::reader::ProximityReader;
+use lc_unit::{report::Line, script, Host};
+
+/// The calibration image, in flash pages of its own (see step 1).
+#[link_section = ".calibration"]
+#[used]
+static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/proximity.lcim");
+const IMAGE_LEN: usize = include_bytes!("../../data/proximity.lcim").len();
+
+#[entry]
+fn main() -> ! {
+    let mut host = Host::open();
+    host.write(b"boot\n");
+    // The bytes are read from flash at run time: `black_box` keeps the
+    // optimizer from using what it knows of this build's image.
+    let image: &[u8] = black_box(&IMAGE);
+
+    let Ok(cal) = Calibration::parse(image) else {
+        host.fail(b"calibration image refused\n")
+    };
+    if cal.kind != ReaderKind::Proximity {
+        host.fail(b"not a proximity image\n")
+    }
+    let Ok(mut reader) = ProximityReader::new(&cal) else {
+        host.fail(b"image has no usable curve\n")
+    };
+
+    for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
+        let r = reader.read(input);
+        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        host.write(line.as_bytes());
+    }
+    host.finish()
+}
