@@ -39,7 +39,7 @@ one() { # label, db, extra args...
         cat "$work/err.txt" >&2
         exit 1
     fi
-    read -r wall user sys < "$work/time.txt"
+    read -r wall user sys < <(tail -n 1 "$work/time.txt")
     printf '%-36s %7.2f s wall %8.0f units/s   cpu %6.2f s (%.0f units per cpu-second)   load %s\n' \
         "$label" "$wall" "$(echo "$units / $wall" | bc -l)" "$(echo "$user + $sys" | bc -l)" \
         "$(echo "$units / ($user + $sys)" | bc -l)" "$(cut -d' ' -f1 /proc/loadavg)"

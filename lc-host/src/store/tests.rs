@@ -1541,6 +1541,62 @@ fn a_read_only_store_reads_and_refuses_writes(b: Backend) {
     assert_eq!(ro.lots().unwrap()[0].attempts, 1);
 }
 
+/// The schema rules on either back end: a fresh database is migrated to
+/// the current version, reopening changes nothing, a newer schema and
+/// another program's tables are refused and left alone.
+fn schema_versions_are_checked(b: Backend) {
+    let dir = TempDir::on(b);
+    drop(Store::open(dir.db()).unwrap());
+    let mut q = sql_text(&dir);
+    let version = |q: &mut dyn FnMut(&str) -> String| {
+        if b == Backend::Postgres {
+            q("SELECT version::TEXT FROM lc_schema_version")
+        } else {
+            q("SELECT CAST(user_version AS TEXT) FROM pragma_user_version")
+        }
+    };
+    assert_eq!(version(&mut q), SCHEMA_VERSION.to_string());
+    let mut store = Store::open(dir.db()).unwrap();
+    store.record(&fail("A1", "L1", "r")).unwrap();
+    drop(store);
+    assert_eq!(version(&mut q), SCHEMA_VERSION.to_string());
+    let newer = i64::from(SCHEMA_VERSION) + 2;
+    match &dir.1 {
+        Some((url, schema)) => {
+            let mut c = postgres::Client::connect(url, postgres::NoTls).unwrap();
+            c.batch_execute(&format!("UPDATE {schema}.lc_schema_version SET version = {newer}"))
+                .unwrap();
+        }
+        None => raw(&dir.db())
+            .pragma_update(None, "user_version", newer)
+            .unwrap(),
+    }
+    for err in [
+        Store::open(dir.db()).unwrap_err(),
+        Store::open_read_only(dir.db()).unwrap_err(),
+    ] {
+        assert!(
+            matches!(err, StoreError::NewerSchema { found, .. } if found == newer),
+            "{err:?}"
+        );
+    }
+    assert_eq!(version(&mut q), newer.to_string());
+    // Another program's tables, no version: refused, nothing added.
+    let other = TempDir::on(b);
+    match &other.1 {
+        Some((url, schema)) => {
+            let mut c = postgres::Client::connect(url, postgres::NoTls).unwrap();
+            c.batch_execute(&format!("CREATE TABLE {schema}.customers (id INTEGER)"))
+                .unwrap();
+        }
+        None => raw(&other.db())
+            .execute_batch("CREATE TABLE customers (id INTEGER)")
+            .unwrap(),
+    }
+    let err = Store::open(other.db()).unwrap_err();
+    assert!(matches!(err, StoreError::ForeignDatabase { .. }), "{err:?}");
+}
+
 on_both_backends!(
     record_returns_what_is_stored,
     recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte,
@@ -1557,4 +1613,5 @@ on_both_backends!(
     a_group_commits_its_valid_attempts_in_order,
     traceability_round_trips,
     a_read_only_store_reads_and_refuses_writes,
+    schema_versions_are_checked,
 );
