@@ -532,7 +532,7 @@ mod tests {
     }
 
     /// A simulated log of the demo unit with every fault the simulator
-    /// injects, about 14 blocks long, with hand-made lines mixed in:
+    /// injects, at least three blocks long, with hand-made lines mixed in:
     /// comments, blank lines, CRLF ends, quoted and padded fields, unusual
     /// number spellings, bad rows, frequencies-free count rows.
     fn hostile_log() -> Vec<u8> {

@@ -3,8 +3,10 @@
 //!
 //! Formats (docs/formats.md): a header row; lines starting with `#` are
 //! comments; fields are trimmed; column names match without regard to case;
-//! columns may come in any order; unknown columns are ignored. Line numbers
-//! count every line of the file from 1.
+//! columns may come in any order. Line numbers count every line of the
+//! file from 1. [`CsvInput`] reads with the `csv` crate (rig logs);
+//! [`LineSplitter`] cuts one line at a time without copies (field logs,
+//! where speed matters).
 
 use std::io::Read;
 use std::path::{Path, PathBuf};

@@ -5,8 +5,10 @@
 //! or a measured frequency, column `frequency_hz`. Optional: `time_s`
 //! (seconds), `channel` (0–255), `temp_c` (°C), `ring_count`, and the
 //! companion channel's `comp_cycles` and `comp_ticks`. Column order is
-//! free; unknown columns are ignored; empty optional fields are allowed.
-//! Lines are counted from 1 (the header).
+//! free; unknown columns are ignored with a warning
+//! ([`FieldLogReader::warnings`]); a column named twice, a rig log's header
+//! and rows with more or fewer fields than the header are errors; empty
+//! optional fields are allowed. Lines are counted from 1.
 
 pub use crate::csvin::InputError as LogError;
 use crate::csvin::{LineSplitter, Row, SplitError};

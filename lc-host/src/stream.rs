@@ -77,9 +77,8 @@ pub enum RowClass {
     Fault,
 }
 
-/// The most worker threads a run may use. Each keeps about one block of
-/// up to 256 KiB of input alive with its parsed rows and output (under
-/// 2 MiB), so memory stays bounded whatever the machine.
+/// The most worker threads a run may use: memory stays bounded whatever
+/// the machine (see [`stream_log`]).
 pub const MAX_THREADS: usize = 16;
 
 /// Worker threads of a streaming run: 1 to [`MAX_THREADS`].
@@ -88,7 +87,7 @@ pub struct Threads(usize);
 
 /// A thread count outside 1 to [`MAX_THREADS`].
 #[derive(Clone, Copy, Debug, PartialEq, Eq, thiserror::Error)]
-#[error("{0} threads: give 1 to {MAX_THREADS} (each thread converts blocks of about 128 KiB; more threads than cores do not help)")]
+#[error("{0} threads: give 1 to {MAX_THREADS} (more threads than cores do not help)")]
 pub struct ThreadsError(pub usize);
 
 impl Threads {
@@ -122,8 +121,13 @@ impl Default for Threads {
     }
 }
 
-/// Input bytes per block: about 4 000 field-log rows.
-const BLOCK_BYTES: usize = 1 << 17;
+/// Input bytes per block: 512 KiB (about 16 000 field-log rows) with few
+/// threads, less with many, so that the `threads + 2` blocks alive hold at
+/// most about 4 MiB of input (with parsed rows and output, under 48 MiB).
+/// Large blocks mean few hand-overs between threads.
+fn block_bytes(threads: Threads) -> usize {
+    ((4 << 20) / (threads.get() + 2)).clamp(1 << 16, 1 << 19)
+}
 
 /// A block of input lines on its way through the stages.
 struct Block<T> {
@@ -174,8 +178,8 @@ struct Turn<F> {
 /// `progress` with the input line every 65 536 rows. Bad rows stop the run
 /// (rows before them are written) or are skipped, as `on_bad_row` says.
 ///
-/// At most `threads + 2` blocks of 128 to 256 KiB of input are alive at
-/// any time, with their parsed rows and output.
+/// At most `threads + 2` blocks are alive at any time, together about
+/// 4 MiB of input with their parsed rows and output: under 48 MiB.
 #[allow(clippy::too_many_arguments)]
 pub fn stream_log<R, W, T, S, F>(
     mut reader: FieldLogReader<R>,
@@ -298,7 +302,7 @@ where
             loop {
                 while !input_done {
                     let Some(mut block) = free.pop() else { break };
-                    match reader.next_block(&mut block.input, BLOCK_BYTES) {
+                    match reader.next_block(&mut block.input, block_bytes(threads)) {
                         Ok(Some(first_line)) => {
                             block.index = sent;
                             block.first_line = first_line;

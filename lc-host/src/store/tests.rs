@@ -1564,8 +1564,10 @@ fn schema_versions_are_checked(b: Backend) {
     match &dir.1 {
         Some((url, schema)) => {
             let mut c = postgres::Client::connect(url, postgres::NoTls).unwrap();
-            c.batch_execute(&format!("UPDATE {schema}.lc_schema_version SET version = {newer}"))
-                .unwrap();
+            c.batch_execute(&format!(
+                "UPDATE {schema}.lc_schema_version SET version = {newer}"
+            ))
+            .unwrap();
         }
         None => raw(&dir.db())
             .pragma_update(None, "user_version", newer)
