@@ -67,8 +67,8 @@ use std::sync::OnceLock;
 use std::thread;
 use std::time::{Duration, Instant};
 
-use lc_core::image::{Calibration, ReaderKind};
-use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader, Reading};
+use lc_core::image::{ImageBuf, ReaderKind};
+use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader};
 
 const TRIPLE: &str = "thumbv6m-none-eabi";
 const QEMU: &str = "qemu-system-arm";
@@ -128,26 +128,49 @@ fn image_bytes(ex: &Example) -> Vec<u8> {
 /// What the firmware prints before its stack line.
 fn host_output(ex: &Example) -> String {
     let bytes = image_bytes(ex);
-    let cal = Calibration::parse(&bytes).expect("the committed image is valid");
-    assert_eq!(cal.kind, ex.kind, "{}: image kind", ex.image);
-    let mut read: Box<dyn FnMut(&Input) -> Reading> = match ex.kind {
+    let buf = ImageBuf::from_bytes(&bytes).expect("the committed image fits");
+    let image = buf.image().expect("the committed image is valid");
+    assert_eq!(image.kind(), ex.kind, "{}: image kind", ex.image);
+    let lines: Vec<report::Line> = match ex.kind {
         ReaderKind::Proximity => {
-            let mut r = ProximityReader::new(&cal).expect("proximity reader");
-            Box::new(move |i| r.read(i))
+            let mut r = ProximityReader::new(&image).expect("proximity reader");
+            (0u32..)
+                .zip(ex.inputs)
+                .map(|(i, input)| {
+                    let r = r.read(input);
+                    report::Line::reading(i, r.gap, None, r.shift.raw_q40(), r.status)
+                })
+                .collect()
         }
         ReaderKind::Level => {
-            let mut r = LevelReader::new(&cal).expect("level reader");
-            Box::new(move |i| r.read(i))
+            let mut r = LevelReader::new(&image).expect("level reader");
+            (0u32..)
+                .zip(ex.inputs)
+                .map(|(i, input)| {
+                    let r = r.read(input);
+                    report::Line::reading(i, r.level, r.volume, r.axis.raw_q40(), r.status)
+                })
+                .collect()
         }
         ReaderKind::Metal => {
-            let mut r = MetalReader::new(&cal).expect("metal reader");
-            Box::new(move |i| r.read(i))
+            let mut r = MetalReader::new(&image).expect("metal reader");
+            (0u32..)
+                .zip(ex.inputs)
+                .map(|(i, input)| {
+                    let r = r.read(input);
+                    report::Line::reading(
+                        i,
+                        r.class as i32,
+                        r.ring_drop,
+                        r.delta.raw_q40(),
+                        r.status,
+                    )
+                })
+                .collect()
         }
     };
     let mut out = String::from("boot\n");
-    for (i, input) in (0u32..).zip(ex.inputs) {
-        let r = read(input);
-        let line = report::Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+    for line in &lines {
         out.push_str(std::str::from_utf8(line.as_bytes()).expect("ASCII line"));
     }
     out
