@@ -41,9 +41,10 @@
 //!   them; `examples/unit-firmware/run.sh images` does the same with the
 //!   CLI);
 //! - [`within_budget`]: flash and RAM within budget and a clean run in the
-//!   budget layout. **Ignored for now**: lc-core's current image and reader
-//!   API needs 15–19 KiB of flash and 4–13 KiB of stack (issue 13, which
-//!   this test is the acceptance check of). Run it with
+//!   budget layout. **Ignored for now**: with the in-place image API the
+//!   firmwares need 15.4–20.5 KiB of flash and about 1.5 KiB of stack
+//!   (docs/performance.md, "Footprint of the unit firmwares"; issue 13,
+//!   which this test is the acceptance check of). Run it with
 //!   `cargo test --test firmware_budget -- --ignored --nocapture`.
 //!
 //! `cargo test --test firmware_budget footprint -- --nocapture` prints
@@ -487,8 +488,8 @@ fn over_budget_runs_fail_loudly() {
 /// Flash ≤ budget, static RAM + peak stack ≤ budget, and a clean run with
 /// the host's readings in the budget layout.
 #[test]
-#[ignore = "lc-core's current image and reader API exceeds the issue 13 budgets; \
-            enable once the in-place image API lands"]
+#[ignore = "the firmwares still exceed the issue 13 budgets (flash 15.4-20.5 KiB, \
+            stack about 1.5 KiB): docs/performance.md, Footprint of the unit firmwares"]
 fn within_budget() {
     if !prerequisites() {
         return;

@@ -10,7 +10,7 @@
 //!   comes from the ratio of their shifts, so it does not move when the
 //!   liquid's permittivity drifts with temperature;
 //! - the image's volume table turns the level (0.1 mm) into a volume
-//!   (mL): `secondary` in the reading;
+//!   (mL): `volume` in the reading (`LevelReading`);
 //! - a reference electrode out of the liquid, or a missing reference pair,
 //!   is a sensor fault.
 //!

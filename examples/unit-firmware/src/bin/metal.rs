@@ -10,9 +10,10 @@
 //!   after the gate (swings above the comparator's threshold);
 //! - the reader learns the background over its first readings: keep the
 //!   coil clear of metal at power-up;
-//! - the reading's `value` is the class code (`MetalClass`), `secondary`
-//!   the ring-count drop; the status is `NoTarget` while nothing is
-//!   present.
+//! - the reading (`MetalReading`) is the class (`MetalClass`), the
+//!   ring-count drop and the shift minus the baseline; the status is
+//!   `NoTarget` while nothing is present. The printed line carries the
+//!   class code as its value.
 //!
 //! Memory: measured by `tests/firmware_budget.rs` (docs/performance.md).
 //!
