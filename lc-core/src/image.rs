@@ -415,6 +415,7 @@ fn framing(bytes: &[u8]) -> Result<(u16, usize), ImageError> {
 }
 
 /// The header's field checks, after the CRC.
+#[inline(always)]
 fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
     use ImageError::*;
     let t = |v: Option<u8>| v.ok_or(Truncated);
@@ -643,6 +644,7 @@ impl<'a> Image<'a> {
     }
 
     /// What the readers derive, checked here so that every reader builds.
+    #[inline(always)]
     fn from_parts(
         bytes: &'a [u8],
         h: &Header,
