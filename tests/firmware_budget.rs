@@ -42,7 +42,7 @@
 //!   CLI);
 //! - [`within_budget`]: flash and RAM within budget and a clean run in the
 //!   budget layout. **Ignored for now**: with the in-place image API the
-//!   firmwares need 15.4–20.5 KiB of flash and about 1.5 KiB of stack
+//!   firmwares need 14.6–20.0 KiB of flash and 1.3–1.5 KiB of stack
 //!   (docs/performance.md, "Footprint of the unit firmwares"; issue 13,
 //!   which this test is the acceptance check of). Run it with
 //!   `cargo test --test firmware_budget -- --ignored --nocapture`.
@@ -488,8 +488,8 @@ fn over_budget_runs_fail_loudly() {
 /// Flash ≤ budget, static RAM + peak stack ≤ budget, and a clean run with
 /// the host's readings in the budget layout.
 #[test]
-#[ignore = "the firmwares still exceed the issue 13 budgets (flash 15.4-20.5 KiB, \
-            stack about 1.5 KiB): docs/performance.md, Footprint of the unit firmwares"]
+#[ignore = "the firmwares still exceed the issue 13 budgets (flash 14.6-20.0 KiB, \
+            stack 1.3-1.5 KiB): docs/performance.md, Footprint of the unit firmwares"]
 fn within_budget() {
     if !prerequisites() {
         return;

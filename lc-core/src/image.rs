@@ -574,8 +574,8 @@ impl<'a> Image<'a> {
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
     /// image byte with the byte table), a few hundred per curve segment,
     /// and a few thousand for the header and the converters' checks
-    /// (about 21 500 instructions for a 32-node cubic image of 1 144 bytes,
-    /// 7 000 for the five-node demo image). Stack: a few hundred bytes
+    /// (about 21 200 instructions for a 32-node cubic image of 1 144 bytes,
+    /// 6 650 for the five-node demo image). Stack: a few hundred bytes
     /// besides the returned 248-byte `Image`.
     pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
         use ImageError::*;
