@@ -14,8 +14,7 @@
 //!   reachable), and its digests of every result equal the host's (the
 //!   scanner, multiplexers and NTC conversions of
 //!   `examples/firmware/src/scan.rs` included); the same with overflow
-//!   checks on (`release-checked` profile; ignored until curve.rs's last
-//!   checks are gone);
+//!   checks on (`release-checked` profile);
 //! - the `cost` binary runs to the end, and its `f32` versions of the
 //!   readers agree with the fixed readers.
 //!
@@ -379,9 +378,6 @@ fn panic_never_proof_links_and_matches_host() {
 /// addition, subtraction, multiplication or shift on the proof's paths can
 /// overflow unseen, and it computes the same digests.
 #[test]
-#[ignore = "curve.rs keeps 10 overflow checks (segment search, tangent terms, \
-            round_shr_to_u32); it is being rewritten with the in-place image API: \
-            enable after that merge"]
 fn panic_never_proof_links_with_overflow_checks() {
     if !prerequisites(false) {
         return;

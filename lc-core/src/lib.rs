@@ -117,7 +117,7 @@
 //! | `Divider` | 12 | | | |
 //!
 //! Start-up on a Cortex-M0 (`Image::new` and the reader, `run.sh cost`):
-//! about 24 000 instructions for a 32-node cubic proximity image, 9 400 for
+//! about 23 000 instructions for a 32-node cubic proximity image, 8 500 for
 //! the five-node demo image; stack of the two calls, a few hundred bytes
 //! besides the `Image`.
 //!

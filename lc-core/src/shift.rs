@@ -225,17 +225,21 @@ fn rounds_to(m: u32, e: u32, d: u128) -> bool {
     // m·d from 32 × 32-bit products of d's words (a 128-bit multiply is
     // several library calls on a Cortex-M0).
     let word = |k: u32| (d >> k) as u32; // the low 32 bits: exact
+                                         // The three partial products add up to m·d < 2^128 (d < 2^96, m <
+                                         // 2^32): the sums cannot wrap.
     let t = u128::from(mul_u32_wide(m, word(0)))
-        + (u128::from(mul_u32_wide(m, word(32))) << 32)
-        + (u128::from(mul_u32_wide(m, word(64))) << 64);
-    let p = 1u128 << e;
+        .wrapping_add(u128::from(mul_u32_wide(m, word(32))) << 32)
+        .wrapping_add(u128::from(mul_u32_wide(m, word(64))) << 64);
+    // e ≤ 127: the shift is in range (the wrapping form only states it).
+    let p = 1u128.wrapping_shl(e);
     let diff = t.abs_diff(p);
+    // diff ≤ d < 2^96 below: 2·diff cannot wrap.
     if diff > d {
         false
     } else if t >= p {
-        2 * diff <= d
+        diff.wrapping_mul(2) <= d
     } else {
-        2 * diff < d
+        diff.wrapping_mul(2) < d
     }
 }
 

@@ -109,3 +109,8 @@ pub fn stack_peak_bytes() -> u32 {
 fn panic(_: &core::panic::PanicInfo) -> ! {
     exit(false)
 }
+
+/// Bytes at a 4-byte aligned address: a calibration image as
+/// `lc_core::image::Image::new` reads it in place (by words).
+#[repr(C, align(4))]
+pub struct Aligned<T>(pub T);

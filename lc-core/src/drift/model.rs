@@ -98,18 +98,35 @@ impl TemperatureModel {
         let model = Self { reference, b1, b2 };
         // g is a parabola in ΔT: its extremes over the domain lie at the
         // ends or at the vertex −b1/(2·b2·2^-16).
-        let g_at = |t: i64| -> i128 {
-            let d = i128::from(t - i64::from(reference.0));
-            i128::from(b1) * d * (1 << 16) + i128::from(b2) * d * d
+        //
+        // In i64 (no 128-bit arithmetic on a 32-bit core): with the
+        // reference and t in the domain, |ΔT| ≤ 40 000 < 2^15.3, so
+        // |b1·ΔT·2^16| ≤ 2^31·40 000·2^16 < 5.63·10^18 and |b2·ΔT²| ≤
+        // 2^31·1.6·10^9 < 3.44·10^18: the sum and its magnitude stay below
+        // 9.07·10^18 < 2^63. None of the wrapping operations below wraps.
+        let g_at = |d: i64| -> u64 {
+            i64::from(b1)
+                .wrapping_mul(d)
+                .wrapping_mul(1 << 16)
+                .wrapping_add(i64::from(b2).wrapping_mul(d).wrapping_mul(d))
+                .unsigned_abs()
         };
-        let mut worst = g_at(i64::from(lo.0)).abs().max(g_at(i64::from(hi.0)).abs());
+        let delta = |t: i32| i64::from(t).wrapping_sub(i64::from(reference.0));
+        let mut worst = g_at(delta(lo.0)).max(g_at(delta(hi.0)));
         if b2 != 0 {
-            // Vertex in centi-kelvin from the reference: ΔT* = −b1·2^16/(2·b2).
-            let v = -(i128::from(b1) << 16) / (2 * i128::from(b2));
-            let t = i128::from(reference.0) + v;
-            if (i128::from(lo.0)..=i128::from(hi.0)).contains(&t) {
-                let d = v;
-                worst = worst.max((i128::from(b1) * d * (1 << 16) + i128::from(b2) * d * d).abs());
+            // Vertex in centi-kelvin from the reference: ΔT* = −b1·2^16/(2·b2)
+            // (|b1·2^16| < 2^47 and 0 < |2·b2| ≤ 2^32: the quotient fits, and
+            // |t| ≤ 2^47 + 30 000).
+            // (The division neither divides by zero nor overflows: the
+            // divisor is even and non-zero; `checked_div` only says so.)
+            let v = (i64::from(b1) << 16)
+                .wrapping_neg()
+                .checked_div(i64::from(b2).wrapping_mul(2))
+                .unwrap_or(i64::MAX);
+            let t = i64::from(reference.0).wrapping_add(v);
+            if (i64::from(lo.0)..=i64::from(hi.0)).contains(&t) {
+                // t in the domain: |v| ≤ 40 000, the bound above holds.
+                worst = worst.max(g_at(v));
             }
         }
         // g in units of 2^-56: |g| < 1/2 ⇔ < 2^55.
@@ -469,6 +486,28 @@ mod tests {
 
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(20_000))]
+
+        /// The i64 check of `new` accepts exactly what the 128-bit
+        /// computation of the worst |g| over the domain accepts.
+        #[test]
+        fn new_matches_wide_check(
+            r in -10_000i32..=30_000,
+            b1 in prop_oneof![any::<i32>(), -20_000_000i32..=20_000_000],
+            b2 in prop_oneof![any::<i32>(), -100_000i32..=100_000, -100i32..=100],
+        ) {
+            let (lo, hi) = TEMPERATURE_DOMAIN;
+            let g_at = |d: i128| i128::from(b1) * d * (1 << 16) + i128::from(b2) * d * d;
+            let d = |t: i32| i128::from(t) - i128::from(r);
+            let mut worst = g_at(d(lo.0)).abs().max(g_at(d(hi.0)).abs());
+            if b2 != 0 {
+                let v = -(i128::from(b1) << 16) / (2 * i128::from(b2));
+                if (i128::from(lo.0)..=i128::from(hi.0)).contains(&(i128::from(r) + v)) {
+                    worst = worst.max(g_at(v).abs());
+                }
+            }
+            let ok = TemperatureModel::new(CentiCelsius(r), b1, b2).is_ok();
+            prop_assert_eq!(ok, worst < 1 << 55);
+        }
 
         /// The offset form within its stated bound of 1/(1 + g) − 1 for
         /// the exact g, over the whole temperature domain; and the factor

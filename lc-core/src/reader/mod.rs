@@ -389,11 +389,12 @@ impl Front {
 
 /// Parts per billion of shift to Q23.40, rounded (start-up only).
 pub(crate) fn ppb_to_q40(ppb: u32) -> u64 {
-    // ppb · 2^40 / 1e9 < 2^32 · 2^40 / 2^29.9: fits u64.
-    let n = u128::from(ppb) << 40;
-    crate::fixed::round_div_u128(n, 1_000_000_000)
-        .and_then(|q| u64::try_from(q).ok())
-        .unwrap_or(u64::MAX)
+    // ppb · 2^40 / 10^9 = ppb · 2^31 / 5^9, in u64 (no 128-bit division
+    // on a 32-bit core): ppb · 2^31 + (5^9 − 1)/2 < 2^63. 5^9 is odd, so
+    // the quotient is never a tie: adding (5^9 − 1)/2 and truncating
+    // rounds to nearest, as rounding half up the exact quotient does.
+    const D: u64 = 1_953_125; // 5^9
+    (u64::from(ppb) << 31).wrapping_add(D / 2) / D
 }
 
 /// The metal reader's detector configuration from its parameters.
@@ -496,6 +497,24 @@ pub(crate) mod tests {
     use crate::image::{Calibration, Image, OutputScale, OutputUnit, Serial, Table};
     use crate::shift::RestPoint;
     use proptest::prelude::*;
+
+    proptest! {
+        /// `ppb_to_q40` in u64 is the correctly rounded ppb · 2^40 / 10^9
+        /// (the 128-bit division, half up).
+        #[test]
+        fn ppb_to_q40_is_the_rounded_quotient(ppb in any::<u32>()) {
+            let wide = crate::fixed::round_div_u128(u128::from(ppb) << 40, 1_000_000_000);
+            prop_assert_eq!(Some(u128::from(ppb_to_q40(ppb))), wide);
+        }
+    }
+
+    #[test]
+    fn ppb_to_q40_at_the_ends() {
+        for ppb in [0, 1, 2, 999_999_999, 1_000_000_000, u32::MAX - 1, u32::MAX] {
+            let wide = crate::fixed::round_div_u128(u128::from(ppb) << 40, 1_000_000_000);
+            assert_eq!(Some(u128::from(ppb_to_q40(ppb))), wide, "{ppb}");
+        }
+    }
 
     /// The validated image of a calibration (its buffer leaked: tests
     /// only).

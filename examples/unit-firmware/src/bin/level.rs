@@ -10,7 +10,7 @@
 //!   comes from the ratio of their shifts, so it does not move when the
 //!   liquid's permittivity drifts with temperature;
 //! - the image's volume table turns the level (0.1 mm) into a volume
-//!   (mL): `secondary` in the reading;
+//!   (mL): `volume` in the reading (`LevelReading`);
 //! - a reference electrode out of the liquid, or a missing reference pair,
 //!   is a sensor fault.
 //!
@@ -23,35 +23,32 @@
 
 use core::hint::black_box;
 use cortex_m_rt::entry;
-use lc_core::image::{Calibration, ReaderKind};
+use lc_core::image::Image;
 use lc_core::reader::LevelReader;
-use lc_unit::{report::Line, script, Host};
+use lc_unit::{report::Line, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see `proximity.rs`).
 #[link_section = ".calibration"]
 #[used]
-static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/level.lcim");
+static IMAGE: Aligned<[u8; IMAGE_LEN]> = Aligned(*include_bytes!("../../data/level.lcim"));
 const IMAGE_LEN: usize = include_bytes!("../../data/level.lcim").len();
 
 #[entry]
 fn main() -> ! {
     let mut host = Host::open();
     host.write(b"boot\n");
-    let image: &[u8] = black_box(&IMAGE);
+    let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(cal) = Calibration::parse(image) else {
+    let Ok(image) = Image::new(image) else {
         host.fail(b"calibration image refused\n")
     };
-    if cal.kind != ReaderKind::Level {
+    let Ok(mut reader) = LevelReader::new(&image) else {
         host.fail(b"not a level image\n")
-    }
-    let Ok(mut reader) = LevelReader::new(&cal) else {
-        host.fail(b"image has no usable curve\n")
     };
 
     for (i, input) in (0u32..).zip(black_box(&script::LEVEL)) {
         let r = reader.read(input);
-        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        let line = Line::reading(i, r.level, r.volume, r.axis.raw_q40(), r.status);
         host.write(line.as_bytes());
     }
     host.finish()

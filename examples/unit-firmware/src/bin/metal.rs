@@ -10,9 +10,10 @@
 //!   after the gate (swings above the comparator's threshold);
 //! - the reader learns the background over its first readings: keep the
 //!   coil clear of metal at power-up;
-//! - the reading's `value` is the class code (`MetalClass`), `secondary`
-//!   the ring-count drop; the status is `NoTarget` while nothing is
-//!   present.
+//! - the reading (`MetalReading`) is the class (`MetalClass`), the
+//!   ring-count drop and the shift minus the baseline; the status is
+//!   `NoTarget` while nothing is present. The printed line carries the
+//!   class code as its value.
 //!
 //! Memory: measured by `tests/firmware_budget.rs` (docs/performance.md).
 //!
@@ -23,35 +24,32 @@
 
 use core::hint::black_box;
 use cortex_m_rt::entry;
-use lc_core::image::{Calibration, ReaderKind};
+use lc_core::image::Image;
 use lc_core::reader::MetalReader;
-use lc_unit::{report::Line, script, Host};
+use lc_unit::{report::Line, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see `proximity.rs`).
 #[link_section = ".calibration"]
 #[used]
-static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/metal.lcim");
+static IMAGE: Aligned<[u8; IMAGE_LEN]> = Aligned(*include_bytes!("../../data/metal.lcim"));
 const IMAGE_LEN: usize = include_bytes!("../../data/metal.lcim").len();
 
 #[entry]
 fn main() -> ! {
     let mut host = Host::open();
     host.write(b"boot\n");
-    let image: &[u8] = black_box(&IMAGE);
+    let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(cal) = Calibration::parse(image) else {
+    let Ok(image) = Image::new(image) else {
         host.fail(b"calibration image refused\n")
     };
-    if cal.kind != ReaderKind::Metal {
+    let Ok(mut reader) = MetalReader::new(&image) else {
         host.fail(b"not a metal image\n")
-    }
-    let Ok(mut reader) = MetalReader::new(&cal) else {
-        host.fail(b"image has no usable metal parameters\n")
     };
 
     for (i, input) in (0u32..).zip(black_box(&script::METAL)) {
         let r = reader.read(input);
-        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        let line = Line::reading(i, r.class as i32, r.ring_drop, r.delta.raw_q40(), r.status);
         host.write(line.as_bytes());
     }
     host.finish()

@@ -9,14 +9,16 @@
 //!    its own, `.calibration`, which the linker script (build.rs) places at
 //!    the start of pages of its own, 0x7000 (the last 4 KiB of a 32 KiB
 //!    part): the rig can rewrite them without touching the program.
-//!    `include_bytes!` puts a development image there; a product may ship
-//!    them erased and let the rig write the image.
-//! 2. **Validate.** `Calibration::parse` checks the magic, format version,
-//!    length, CRC-32 and every field. A unit whose image fails must not
-//!    read: report it and stop (here: exit with a failure status).
-//! 3. **Build the reader.** `ProximityReader::new` checks that the image
-//!    has what a proximity reader needs and precomputes the curve. Check
-//!    the image's kind first: the typed reader does not.
+//!    `include_bytes!` puts a development image there, 4-byte aligned
+//!    ([`Aligned`]: the image is read in place by words); a product may
+//!    ship them erased and let the rig write the image. (Without a section
+//!    of its own, `lc_core::include_image!` embeds an image aligned.)
+//! 2. **Validate.** `Image::new` checks the magic, format version,
+//!    length, CRC-32, every field and every curve segment, in place: the
+//!    image stays in flash. A unit whose image fails must not read:
+//!    report it and stop (here: exit with a failure status).
+//! 3. **Build the reader.** `ProximityReader::new` checks the image's
+//!    kind and borrows its curve from flash; nothing is derived.
 //! 4. **Read.** Per gate, the timer capture gives a count pair (sensor
 //!    cycles, reference ticks) and the NTC a temperature; `read` turns them
 //!    into a gap in micrometres with a status. A sensor fault is a status,
@@ -34,14 +36,14 @@
 
 use core::hint::black_box;
 use cortex_m_rt::entry;
-use lc_core::image::{Calibration, ReaderKind};
+use lc_core::image::Image;
 use lc_core::reader::ProximityReader;
-use lc_unit::{report::Line, script, Host};
+use lc_unit::{report::Line, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see step 1).
 #[link_section = ".calibration"]
 #[used]
-static IMAGE: [u8; IMAGE_LEN] = *include_bytes!("../../data/proximity.lcim");
+static IMAGE: Aligned<[u8; IMAGE_LEN]> = Aligned(*include_bytes!("../../data/proximity.lcim"));
 const IMAGE_LEN: usize = include_bytes!("../../data/proximity.lcim").len();
 
 #[entry]
@@ -50,21 +52,18 @@ fn main() -> ! {
     host.write(b"boot\n");
     // The bytes are read from flash at run time: `black_box` keeps the
     // optimizer from using what it knows of this build's image.
-    let image: &[u8] = black_box(&IMAGE);
+    let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(cal) = Calibration::parse(image) else {
+    let Ok(image) = Image::new(image) else {
         host.fail(b"calibration image refused\n")
     };
-    if cal.kind != ReaderKind::Proximity {
+    let Ok(mut reader) = ProximityReader::new(&image) else {
         host.fail(b"not a proximity image\n")
-    }
-    let Ok(mut reader) = ProximityReader::new(&cal) else {
-        host.fail(b"image has no usable curve\n")
     };
 
     for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
         let r = reader.read(input);
-        let line = Line::reading(i, r.value, r.secondary, r.shift.raw_q40(), r.status);
+        let line = Line::reading(i, r.gap, None, r.shift.raw_q40(), r.status);
         host.write(line.as_bytes());
     }
     host.finish()
