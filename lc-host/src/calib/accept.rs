@@ -434,6 +434,42 @@ mod tests {
         assert_eq!(serde_json::from_str::<Finding>(&json).unwrap(), f);
     }
 
+    proptest::proptest! {
+        /// A finding read back from its JSON (as a results file carries
+        /// it) has the same text: the reasons can be rebuilt from the
+        /// typed fields alone. The text names the plan key, and the
+        /// measured value when there is one.
+        #[test]
+        fn text_survives_the_json_round_trip(
+            li in 0usize..11,
+            ui in 0usize..6,
+            measured in proptest::option::of(-1e9f64..1e9),
+            min in proptest::option::of(-1e9f64..1e9),
+            max in proptest::option::of(-1e9f64..1e9),
+            at in proptest::option::of((0u64..1_000_000, -1e3f64..1e3, -60f64..200.0)),
+        ) {
+            let units = [
+                PhysicalUnit::Hertz,
+                PhysicalUnit::Micrometre,
+                PhysicalUnit::Millimetre,
+                PhysicalUnit::PpmPerKelvin,
+                PhysicalUnit::PpmPerMillimetre,
+                PhysicalUnit::Count,
+            ];
+            let f = Finding {
+                limit: Limit::ALL[li],
+                measured,
+                min,
+                max,
+                unit: units[ui],
+                at: at.map(|(line, target_mm, temp_c)| RigPoint { line, target_mm, temp_c }),
+            };
+            let back: Finding = serde_json::from_str(&serde_json::to_string(&f).unwrap()).unwrap();
+            proptest::prop_assert_eq!(back.to_string(), f.to_string());
+            proptest::prop_assert!(f.to_string().contains(f.limit.key()));
+        }
+    }
+
     /// One vocabulary: a limit's code is its serde name, codes and plan
     /// keys are distinct, and every key names the `[limits]` table.
     #[test]
