@@ -418,7 +418,7 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
             page_error.get_or_insert(e);
         }
         if let Some(r) = results.as_mut() {
-            r.add(out, None);
+            r.add(out);
         }
     })
     .map_err(|e| classify(e.into()))?;

@@ -200,7 +200,7 @@ impl<'p> ReportWriter<'p> {
         let stem = self.unique_stem(&out.serial);
         let rows = result_rows(out, self.plan);
         let image = out.image_path.as_deref().and_then(ImageRef::of);
-        self.results.add(out, Some(image.clone()));
+        self.results.add_with_image(out, image.clone());
         if !out.passed {
             // Each limit the unit fails once, by its code; a unit no
             // finding explains counts under `other`.

@@ -154,10 +154,15 @@ impl ResultsWriter {
         }
     }
 
-    /// Adds one unit's line; `image` as [`ImageRef::of`] read it (`None`:
-    /// read it here).
-    pub fn add(&mut self, out: &UnitOutcome, image: Option<Option<ImageRef>>) {
-        let image = image.unwrap_or_else(|| out.image_path.as_deref().and_then(ImageRef::of));
+    /// Adds one unit's line, reading its image file (if any) for the
+    /// name, length and CRC-32.
+    pub fn add(&mut self, out: &UnitOutcome) {
+        let image = out.image_path.as_deref().and_then(ImageRef::of);
+        self.add_with_image(out, image);
+    }
+
+    /// Adds one unit's line with its image as [`ImageRef::of`] read it.
+    pub fn add_with_image(&mut self, out: &UnitOutcome, image: Option<ImageRef>) {
         let line = ResultLine::of(out, &self.lot, &self.trace, image);
         // Only strings, numbers (non-finite ones become null), options and
         // lists: serialising cannot fail.

@@ -73,8 +73,6 @@ fn describe(limit: Limit, plan: &Plan) -> String {
             "rig steps against the curve's direction (beyond three quantisation steps)".into()
         }
         Limit::RangeSteps => "calibrated range, in output steps".into(),
-        #[allow(unreachable_patterns)]
-        _ => limit.code().into(),
     }
 }
 
