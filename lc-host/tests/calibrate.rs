@@ -422,3 +422,148 @@ fn a_killed_lot_on_postgresql_resumes_to_a_clean_runs_state() {
     assert!(landed > 0, "no kill landed during the run");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// The per-unit results for a manufacturing execution system: one JSON
+/// line per unit attempt, in the report folder and at `--results`; codes
+/// from the one vocabulary of limit codes; a failed unit's findings carry
+/// measured value, bound and unit; every finding's text is its `Display`
+/// and one of the unit's recorded reasons; a passed unit's image is named
+/// with its CRC-32.
+#[test]
+fn results_file_for_a_manufacturing_execution_system() {
+    use lc_host::calib::accept::{Finding, Limit};
+    use sha2::Digest;
+    let dir = scratch("results");
+    let rig = simulate(&dir, 12, &["--bad-every", "5", "--corrupt-every", "6"]);
+    let out = lc_host()
+        .arg("calibrate")
+        .arg(&rig)
+        .arg("--plan")
+        .arg(plan())
+        .args([
+            "--lot",
+            "T1",
+            "--station",
+            "EOL-2",
+            "--operator",
+            "jm",
+            "--json",
+        ])
+        .arg("--db")
+        .arg(dir.join("u.db"))
+        .arg("--images")
+        .arg(dir.join("img"))
+        .arg("--report")
+        .arg(dir.join("rep"))
+        .arg("--results")
+        .arg(dir.join("mes.jsonl"))
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let report: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let hex = |b: &[u8]| -> String { b.iter().map(|x| format!("{x:02x}")).collect() };
+    let plan_sha = hex(&sha2::Sha256::digest(std::fs::read(plan()).unwrap()));
+    let rig_sha = hex(&sha2::Sha256::digest(std::fs::read(&rig).unwrap()));
+    let codes: Vec<&str> = Limit::ALL.iter().map(|l| l.code()).collect();
+
+    // Table: every unit's findings (typed, from --json) are among its
+    // reasons word for word.
+    let mut findings_seen = 0;
+    for u in report["units_list"].as_array().unwrap() {
+        let reasons: Vec<&str> = u["reasons"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| r.as_str().unwrap())
+            .collect();
+        for f in u["findings"].as_array().unwrap() {
+            let f: Finding = serde_json::from_value(f.clone()).unwrap();
+            assert!(
+                reasons.contains(&f.to_string().as_str()),
+                "{f} / {reasons:?}"
+            );
+            findings_seen += 1;
+        }
+    }
+    assert!(findings_seen >= 2, "the cracked capacitors fail a limit");
+
+    for file in [dir.join("rep/results.jsonl"), dir.join("mes.jsonl")] {
+        let text = std::fs::read_to_string(&file).unwrap();
+        let lines: Vec<serde_json::Value> = text
+            .lines()
+            .map(|l| serde_json::from_str(l).unwrap())
+            .collect();
+        assert_eq!(lines.len(), 12, "{}: one line per unit", file.display());
+        let mut failed_with_finding = 0;
+        for (v, u) in lines.iter().zip(report["units_list"].as_array().unwrap()) {
+            assert_eq!(v["serial"], u["serial"]);
+            assert_eq!(v["lot"], "T1");
+            assert_eq!(v["attempt"], 1);
+            assert_eq!(v["plan_sha256"], plan_sha.as_str());
+            assert_eq!(v["rig_sha256"], rig_sha.as_str());
+            assert_eq!(
+                (&v["station"], &v["operator"]),
+                (&"EOL-2".into(), &"jm".into())
+            );
+            assert!(v["tool"].as_str().unwrap().starts_with("lc-host "));
+            assert!(v["time_utc"].as_str().unwrap().ends_with('Z'));
+            let findings = v["findings"].as_array().unwrap();
+            match v["verdict"].as_str().unwrap() {
+                "pass" => {
+                    assert!(findings.is_empty() && v["other_reasons"] == serde_json::json!([]));
+                    let name = v["image"]["file"].as_str().unwrap();
+                    let bytes = std::fs::read(dir.join("img").join(name)).unwrap();
+                    let crc = lc_core::image::CRC32.checksum(&bytes);
+                    assert_eq!(v["image"]["crc32"], format!("{crc:08x}"));
+                    assert_eq!(v["image"]["bytes"], bytes.len());
+                }
+                "fail" => {
+                    assert!(v["image"].is_null());
+                    assert!(
+                        !findings.is_empty() || !v["other_reasons"].as_array().unwrap().is_empty()
+                    );
+                    failed_with_finding += usize::from(!findings.is_empty());
+                    for f in findings {
+                        let code = f["code"].as_str().unwrap();
+                        assert!(codes.contains(&code), "{code}");
+                        assert!(f["plan_key"].as_str().unwrap().starts_with("limits."));
+                        assert!(f["measured"].is_f64(), "{f}");
+                        assert!(f["min"].is_f64() || f["max"].is_f64(), "{f}");
+                        assert!(f["unit"].is_string(), "{f}");
+                        // The text is the finding's Display, rebuilt from
+                        // the line's own fields.
+                        let rebuilt: Finding = serde_json::from_value(serde_json::json!({
+                            "limit": f["code"], "measured": f["measured"], "min": f["min"],
+                            "max": f["max"], "unit": f["unit"], "at": f["at"],
+                        }))
+                        .unwrap();
+                        assert_eq!(f["text"], rebuilt.to_string());
+                    }
+                }
+                other => panic!("verdict {other}"),
+            }
+        }
+        assert_eq!(failed_with_finding, 4, "all four failed units fail a limit");
+    }
+    // A corrupted row: the bad_rows limit (the plan tolerates none), with
+    // the row's own message as a reason no limit names.
+    let text = std::fs::read_to_string(dir.join("mes.jsonl")).unwrap();
+    let line6: serde_json::Value = serde_json::from_str(text.lines().nth(5).unwrap()).unwrap();
+    assert_eq!(line6["serial"], "T1-0006");
+    assert_eq!(line6["findings"][0]["code"], "bad_rows");
+    assert_eq!(line6["findings"][0]["measured"], 1.0);
+    assert_eq!(line6["findings"][0]["max"], 0.0);
+    assert!(
+        line6["other_reasons"].to_string().contains("field `ticks`"),
+        "{line6}"
+    );
+    let line5: serde_json::Value = serde_json::from_str(text.lines().nth(4).unwrap()).unwrap();
+    assert_eq!(line5["findings"][0]["code"], "rest_frequency");
+    assert_eq!(line5["findings"][0]["unit"], "Hz");
+    std::fs::remove_dir_all(&dir).ok();
+}

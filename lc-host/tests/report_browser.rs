@@ -179,7 +179,7 @@ fn the_demo_report_opens_in_a_browser() {
         let page = format!("report/units/{unit}.html");
         let v = inspect(&chrome, &dir, &page);
         assert_eq!(v["images"], 3, "{unit}: curve, residual and drift plots");
-        assert_eq!(v["limit_rows"], 10, "{unit}: every limit of the demo plan");
+        assert_eq!(v["limit_rows"], 11, "{unit}: every limit of the demo plan");
         screenshot_is_not_blank(&chrome, &dir, &page);
     }
     let tank = inspect(&chrome, &dir, "report-tank/index.html");

@@ -1,7 +1,9 @@
-//! Acceptance: every limit of the plan against one unit's fit. Each failed
-//! limit is a typed [`Finding`]: which limit (and its plan key), the
-//! measured value, the bound, the physical unit, and where; its text is made
-//! from those fields, so a report can lay them out as it likes.
+//! Acceptance: every limit of the plan against one unit's fit. [`checks`]
+//! measures every limit the plan sets ([`limits`]) and says whether it
+//! holds; the failed ones are the unit's typed [`Finding`]s ([`judge`]):
+//! which limit (and its plan key), the measured value, the bound, the
+//! physical unit, and where. Their text is made from those fields, so a
+//! report can lay them out as it likes.
 
 use super::plan::Plan;
 use super::unit::UnitFit;
@@ -39,6 +41,39 @@ pub enum Limit {
 }
 
 impl Limit {
+    /// Every limit, in the order [`checks`] lists them.
+    pub const ALL: [Limit; 11] = [
+        Limit::BadRows,
+        Limit::MinSteps,
+        Limit::RestFrequency,
+        Limit::Q,
+        Limit::Sensitivity,
+        Limit::MaxResidual,
+        Limit::MaxCurveError,
+        Limit::Drift,
+        Limit::DriftSigma,
+        Limit::Monotonic,
+        Limit::RangeSteps,
+    ];
+
+    /// The limit's code: its serde name (`max_residual`, `drift`, …), the
+    /// one vocabulary of the reports and the results file.
+    pub fn code(self) -> &'static str {
+        match self {
+            Limit::BadRows => "bad_rows",
+            Limit::MinSteps => "min_steps",
+            Limit::RestFrequency => "rest_frequency",
+            Limit::Q => "q",
+            Limit::Sensitivity => "sensitivity",
+            Limit::MaxResidual => "max_residual",
+            Limit::MaxCurveError => "max_curve_error",
+            Limit::Drift => "drift",
+            Limit::DriftSigma => "drift_sigma",
+            Limit::Monotonic => "monotonic",
+            Limit::RangeSteps => "range_steps",
+        }
+    }
+
     /// The plan key that sets this limit.
     pub fn key(self) -> &'static str {
         match self {
@@ -201,16 +236,10 @@ impl std::fmt::Display for Finding {
     }
 }
 
-fn finding(
-    limit: Limit,
-    measured: Option<f64>,
-    min: Option<f64>,
-    max: Option<f64>,
-    unit: PhysicalUnit,
-) -> Finding {
+fn bound(limit: Limit, min: Option<f64>, max: Option<f64>, unit: PhysicalUnit) -> Finding {
     Finding {
         limit,
-        measured,
+        measured: None,
         min,
         max,
         unit,
@@ -218,153 +247,161 @@ fn finding(
     }
 }
 
-/// The limits a unit fails (empty: it passes them all). The bad rows'
-/// own messages are not findings: the caller lists them as reasons.
-pub fn judge(fit: &UnitFit, unit: &UnitLog, plan: &Plan) -> Vec<Finding> {
+/// Every limit the plan sets, with its bounds in its physical unit and no
+/// measured value, in the order [`checks`] and [`judge`] list them.
+pub fn limits(plan: &Plan) -> Vec<Finding> {
     use PhysicalUnit::*;
     let l = &plan.limits;
-    let step_um = plan.product.output_step_m * 1e6;
-    let mut out = Vec::new();
-    if unit.errors.len() > l.max_bad_rows {
-        out.push(finding(
-            Limit::BadRows,
-            Some(unit.errors.len() as f64),
-            None,
-            Some(l.max_bad_rows as f64),
-            Count,
-        ));
-    }
+    let mut out = vec![bound(
+        Limit::BadRows,
+        None,
+        Some(l.max_bad_rows as f64),
+        Count,
+    )];
     if let Some(n) = l.min_steps {
-        if fit.steps < n {
-            out.push(finding(
-                Limit::MinSteps,
-                Some(fit.steps as f64),
-                Some(n as f64),
-                None,
-                Count,
-            ));
-        }
+        out.push(bound(Limit::MinSteps, Some(n as f64), None, Count));
     }
     if let Some(r) = l.rest_frequency_hz {
-        if !r.contains(fit.rest_frequency_hz) {
-            out.push(finding(
-                Limit::RestFrequency,
-                Some(fit.rest_frequency_hz),
-                r.min,
-                r.max,
-                Hertz,
-            ));
-        }
+        out.push(bound(Limit::RestFrequency, r.min, r.max, Hertz));
     }
     if let Some(r) = l.q {
-        match fit.q {
-            Some((q, _, _)) if !r.contains(q) => {
-                out.push(finding(Limit::Q, Some(q), r.min, r.max, Count))
-            }
-            Some(_) => {}
-            None => out.push(finding(Limit::Q, None, r.min, r.max, Count)),
-        }
+        out.push(bound(Limit::Q, r.min, r.max, Count));
     }
-    if let Some(sens) = l.sensitivity {
-        let min = Some(sens.min_per_mm * 1e6);
-        match fit.sensitivity_per_mm {
-            Some(v) if v < sens.min_per_mm => {
-                let mut f = finding(
-                    Limit::Sensitivity,
-                    Some(v * 1e6),
-                    min,
-                    None,
-                    PpmPerMillimetre,
-                );
-                f.at = None;
-                out.push(f);
-            }
-            Some(_) => {}
-            None => out.push(finding(
-                Limit::Sensitivity,
-                None,
-                min,
-                None,
-                PpmPerMillimetre,
-            )),
-        }
-    }
-    if let Some(max) = l.max_residual_um {
-        if let Some(r) = fit.max_residual_um() {
-            if r > max {
-                let worst = fit
-                    .residuals
-                    .iter()
-                    .max_by(|a, b| a.residual_fixed.abs().total_cmp(&b.residual_fixed.abs()));
-                let mut f = finding(Limit::MaxResidual, Some(r), None, Some(max), Micrometre);
-                f.at = worst.map(|w| RigPoint {
-                    line: w.line,
-                    target_mm: w.target * step_um * 1e-3,
-                    temp_c: w.temp_c,
-                });
-                out.push(f);
-            }
-        }
-    }
-    if let (Some(max), Some(e)) = (l.max_curve_error_um, fit.curve_error) {
-        let e = e * step_um;
-        if e > max {
-            out.push(finding(
-                Limit::MaxCurveError,
-                Some(e),
-                None,
-                Some(max),
-                Micrometre,
-            ));
-        }
-    }
-    if let Some(r) = l.drift_ppm_per_k {
-        let b1 = fit.drift.b1_per_k * 1e6;
-        if !r.contains(b1) {
-            out.push(finding(Limit::Drift, Some(b1), r.min, r.max, PpmPerKelvin));
-        }
-    }
-    if let Some(max) = l.max_drift_sigma_ppm_per_k {
-        match fit.drift.sigma_b1_per_k {
-            Some(s) if s * 1e6 > max => out.push(finding(
-                Limit::DriftSigma,
-                Some(s * 1e6),
-                None,
-                Some(max),
-                PpmPerKelvin,
-            )),
-            Some(_) => {}
-            None if fit.drift.points > 0 => {}
-            None => out.push(finding(
-                Limit::DriftSigma,
-                None,
-                None,
-                Some(max),
-                PpmPerKelvin,
-            )),
-        }
-    }
-    if l.monotonic && fit.monotone_violations > 0 {
-        out.push(finding(
-            Limit::Monotonic,
-            Some(fit.monotone_violations as f64),
+    if let Some(s) = l.sensitivity {
+        out.push(bound(
+            Limit::Sensitivity,
+            Some(s.min_per_mm * 1e6),
             None,
-            Some(0.0),
-            Count,
+            PpmPerMillimetre,
         ));
     }
-    if let Some(span) = fit.range_steps() {
-        if span < l.min_range_steps as f64 {
-            out.push(finding(
-                Limit::RangeSteps,
-                Some(span),
-                Some(l.min_range_steps as f64),
-                None,
-                Count,
-            ));
-        }
+    if let Some(max) = l.max_residual_um {
+        out.push(bound(Limit::MaxResidual, None, Some(max), Micrometre));
     }
+    if let Some(max) = l.max_curve_error_um {
+        out.push(bound(Limit::MaxCurveError, None, Some(max), Micrometre));
+    }
+    if let Some(r) = l.drift_ppm_per_k {
+        out.push(bound(Limit::Drift, r.min, r.max, PpmPerKelvin));
+    }
+    if let Some(max) = l.max_drift_sigma_ppm_per_k {
+        out.push(bound(Limit::DriftSigma, None, Some(max), PpmPerKelvin));
+    }
+    if l.monotonic {
+        out.push(bound(Limit::Monotonic, None, Some(0.0), Count));
+    }
+    out.push(bound(
+        Limit::RangeSteps,
+        Some(f64::from(l.min_range_steps)),
+        None,
+        Count,
+    ));
     out
+}
+
+/// One limit of the plan measured on one unit.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Check {
+    /// The limit, the unit's value (`None`: not measurable, or not known
+    /// to the caller), the bound, the physical unit and the worst rig point,
+    /// as a [`Finding`] carries them.
+    pub value: Finding,
+    /// Whether the unit meets the limit.
+    pub passed: bool,
+}
+
+/// Every limit the plan sets (as [`limits`] lists them), measured on one
+/// unit's fit. `bad_rows` is the number of bad rig rows of the unit; `None`
+/// when the caller does not know it: that check then has no measured value
+/// and counts as passed (the unit's recorded findings say otherwise).
+pub fn checks(fit: &UnitFit, bad_rows: Option<usize>, plan: &Plan) -> Vec<Check> {
+    let l = &plan.limits;
+    let step_um = plan.product.output_step_m * 1e6;
+    let range = |b: &Finding| crate::calib::plan::Range {
+        min: b.min,
+        max: b.max,
+    };
+    limits(plan)
+        .into_iter()
+        .map(|mut value| {
+            let passed = match value.limit {
+                Limit::BadRows => {
+                    value.measured = bad_rows.map(|n| n as f64);
+                    bad_rows.is_none_or(|n| n <= l.max_bad_rows)
+                }
+                Limit::MinSteps => {
+                    value.measured = Some(fit.steps as f64);
+                    l.min_steps.is_none_or(|n| fit.steps >= n)
+                }
+                Limit::RestFrequency => {
+                    value.measured = Some(fit.rest_frequency_hz);
+                    range(&value).contains(fit.rest_frequency_hz)
+                }
+                Limit::Q => {
+                    value.measured = fit.q.map(|q| q.0);
+                    value.measured.is_some_and(|q| range(&value).contains(q))
+                }
+                Limit::Sensitivity => {
+                    value.measured = fit.sensitivity_per_mm.map(|v| v * 1e6);
+                    match (fit.sensitivity_per_mm, l.sensitivity) {
+                        (Some(v), Some(s)) => v >= s.min_per_mm,
+                        (Some(_), None) => true,
+                        (None, _) => false,
+                    }
+                }
+                Limit::MaxResidual => {
+                    value.measured = fit.max_residual_um();
+                    let worst = fit
+                        .residuals
+                        .iter()
+                        .max_by(|a, b| a.residual_fixed.abs().total_cmp(&b.residual_fixed.abs()));
+                    value.at = worst.map(|w| RigPoint {
+                        line: w.line,
+                        target_mm: w.target * step_um * 1e-3,
+                        temp_c: w.temp_c,
+                    });
+                    !matches!((value.measured, value.max), (Some(r), Some(max)) if r > max)
+                }
+                Limit::MaxCurveError => {
+                    value.measured = fit.curve_error.map(|e| e * step_um);
+                    !matches!((value.measured, value.max), (Some(e), Some(max)) if e > max)
+                }
+                Limit::Drift => {
+                    let b1 = fit.drift.b1_per_k * 1e6;
+                    value.measured = Some(b1);
+                    range(&value).contains(b1)
+                }
+                Limit::DriftSigma => {
+                    value.measured = fit.drift.sigma_b1_per_k.map(|s| s * 1e6);
+                    match (value.measured, value.max) {
+                        (Some(s), Some(max)) => s <= max,
+                        (Some(_), None) => true,
+                        (None, _) => fit.drift.points > 0,
+                    }
+                }
+                Limit::Monotonic => {
+                    value.measured = Some(fit.monotone_violations as f64);
+                    fit.monotone_violations == 0
+                }
+                Limit::RangeSteps => {
+                    value.measured = fit.range_steps();
+                    !matches!(value.measured, Some(span) if span < f64::from(l.min_range_steps))
+                }
+            };
+            Check { value, passed }
+        })
+        .collect()
+}
+
+/// The limits a unit fails (empty: it passes them all): the failed
+/// [`checks`]. The bad rows' own messages are not findings: the caller
+/// lists them as reasons.
+pub fn judge(fit: &UnitFit, unit: &UnitLog, plan: &Plan) -> Vec<Finding> {
+    checks(fit, Some(unit.errors.len()), plan)
+        .into_iter()
+        .filter(|c| !c.passed)
+        .map(|c| c.value)
+        .collect()
 }
 
 #[cfg(test)]
@@ -395,5 +432,76 @@ mod tests {
             "{json}"
         );
         assert_eq!(serde_json::from_str::<Finding>(&json).unwrap(), f);
+    }
+
+    proptest::proptest! {
+        /// A finding read back from its JSON (as a results file carries
+        /// it) has the same text: the reasons can be rebuilt from the
+        /// typed fields alone. The text names the plan key, and the
+        /// measured value when there is one.
+        #[test]
+        fn text_survives_the_json_round_trip(
+            li in 0usize..11,
+            ui in 0usize..6,
+            measured in proptest::option::of(-1e9f64..1e9),
+            min in proptest::option::of(-1e9f64..1e9),
+            max in proptest::option::of(-1e9f64..1e9),
+            at in proptest::option::of((0u64..1_000_000, -1e3f64..1e3, -60f64..200.0)),
+        ) {
+            let units = [
+                PhysicalUnit::Hertz,
+                PhysicalUnit::Micrometre,
+                PhysicalUnit::Millimetre,
+                PhysicalUnit::PpmPerKelvin,
+                PhysicalUnit::PpmPerMillimetre,
+                PhysicalUnit::Count,
+            ];
+            let f = Finding {
+                limit: Limit::ALL[li],
+                measured,
+                min,
+                max,
+                unit: units[ui],
+                at: at.map(|(line, target_mm, temp_c)| RigPoint { line, target_mm, temp_c }),
+            };
+            let back: Finding = serde_json::from_str(&serde_json::to_string(&f).unwrap()).unwrap();
+            proptest::prop_assert_eq!(back.to_string(), f.to_string());
+            proptest::prop_assert!(f.to_string().contains(f.limit.key()));
+        }
+    }
+
+    /// One vocabulary: a limit's code is its serde name, codes and plan
+    /// keys are distinct, and every key names the `[limits]` table.
+    #[test]
+    fn codes_are_the_serde_names() {
+        let mut codes = std::collections::HashSet::new();
+        let mut keys = std::collections::HashSet::new();
+        for l in Limit::ALL {
+            assert_eq!(
+                serde_json::to_string(&l).unwrap(),
+                format!("\"{}\"", l.code())
+            );
+            assert!(l.key().starts_with("limits."), "{}", l.key());
+            assert!(codes.insert(l.code()) && keys.insert(l.key()));
+        }
+    }
+
+    /// The plan's limits in the order of the checks, bounds in physical
+    /// units (sensitivity in ppm/mm), always the bad-rows and range limits.
+    #[test]
+    fn limits_of_the_demo_plan() {
+        let plan = Plan::parse(crate::demo::PLAN, std::path::Path::new("demo-plan.toml")).unwrap();
+        let l = limits(&plan);
+        assert_eq!(l.first().map(|f| f.limit), Some(Limit::BadRows));
+        assert_eq!(l.last().map(|f| f.limit), Some(Limit::RangeSteps));
+        assert!(l.iter().all(|f| f.measured.is_none() && f.at.is_none()));
+        let order: Vec<usize> = l
+            .iter()
+            .map(|f| Limit::ALL.iter().position(|a| *a == f.limit).unwrap())
+            .collect();
+        assert!(order.windows(2).all(|w| w[0] < w[1]), "{order:?}");
+        let s = l.iter().find(|f| f.limit == Limit::Sensitivity).unwrap();
+        assert_eq!(s.unit, PhysicalUnit::PpmPerMillimetre);
+        assert!(s.min.is_some_and(|v| v > 1.0), "{s:?}");
     }
 }

@@ -7,7 +7,7 @@ use lc_host::calib::lot::{
 };
 use lc_host::calib::plan::{Plan, PlanError};
 use lc_host::csvin::InputError;
-use lc_host::report::{rows::Traceability as ReportTrace, ReportWriter};
+use lc_host::report::{results::ResultsWriter, rows::Traceability as ReportTrace, ReportWriter};
 use lc_host::riglog::RigLogReader;
 use lc_host::store::{Store, StoreError};
 use std::collections::HashSet;
@@ -23,7 +23,10 @@ use std::process::ExitCode;
 /// and judges the unit against the plan's acceptance limits (stated in physical units).
 /// --report writes the lot report: an offline index.html (summary, limits, failures by
 /// reason, histograms, one row per unit) and a printable certificate page per unit, with
-/// SVG plots.
+/// SVG plots, and results.jsonl: one JSON object per unit attempt with its typed
+/// acceptance findings (limit code, measured value, bounds, unit) for a manufacturing
+/// execution system (docs/formats.md, "Unit results"). --results FILE writes that file
+/// alone, or to another place.
 /// Every attempt, pass or fail, becomes a unit record in the database with its
 /// traceability: the plan's text and SHA-256, the rig log's name and SHA-256, station,
 /// operator, tool version and UTC time. Units are committed in groups (one transaction per
@@ -90,6 +93,9 @@ pub struct Args {
     /// Folder for the lot report (index.html, a page per unit, SVG plots)
     #[arg(long)]
     report: Option<PathBuf>,
+    /// Write the per-unit results (JSON Lines, one object per unit attempt) to FILE
+    #[arg(long, value_name = "FILE")]
+    results: Option<PathBuf>,
     /// Most units whose plots the report draws (failed units first); every unit gets its page
     #[arg(long, default_value_t = 100)]
     max_unit_plots: usize,
@@ -337,6 +343,7 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
         station: env_or(&a.station, "LC_STATION"),
         operator: env_or(&a.operator, "LC_OPERATOR"),
     };
+    let stdin_len = stdin_bytes.as_ref().map(|b| b.len() as u64);
     let input: Box<dyn std::io::Read> = match stdin_bytes {
         Some(bytes) => Box::new(std::io::Cursor::new(bytes)),
         None => open_input(&a.rig_log, "rig log").map_err(config)?,
@@ -362,23 +369,35 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
         }
         _ => super::spinner("{spinner} {pos} units ({per_sec}) {msg}"),
     };
-    let mut html = match &a.report {
-        Some(dir) => {
-            let t = ReportTrace::now()
-                .with_plan_text(&a.plan.display().to_string(), &trace.plan_text)
-                .with_station(&trace.station, &trace.operator);
-            let t = if a.rig_log.as_os_str() == "-" {
-                t
-            } else {
-                t.with_rig_log(&a.rig_log)
-            };
-            Some(
-                ReportWriter::new(dir, &a.lot, &plan, t, a.max_unit_plots)
-                    .map_err(|e| (Exit::Io, e.into()))?,
-            )
+    let report_trace = {
+        let t = ReportTrace::now()
+            .with_plan_text(&a.plan.display().to_string(), &trace.plan_text)
+            .with_station(&trace.station, &trace.operator);
+        if a.rig_log.as_os_str() == "-" {
+            let sha: String = trace
+                .rig_sha256
+                .iter()
+                .map(|b| format!("{b:02x}"))
+                .collect();
+            ReportTrace {
+                rig_log: Some(("standard input".into(), stdin_len.map(|n| (n, sha)))),
+                ..t
+            }
+        } else {
+            t.with_rig_log(&a.rig_log)
         }
+    };
+    let mut html = match &a.report {
+        Some(dir) => Some(
+            ReportWriter::new(dir, &a.lot, &plan, report_trace.clone(), a.max_unit_plots)
+                .map_err(|e| (Exit::Io, e.into()))?,
+        ),
         None => None,
     };
+    let mut results = a
+        .results
+        .as_ref()
+        .map(|path| ResultsWriter::new(path, &a.lot, report_trace));
     let mut page_error = None;
     let run = LotRun {
         lot: &a.lot,
@@ -398,6 +417,9 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
         if let Some(Err(e)) = html.as_mut().map(|h| h.add(out)) {
             page_error.get_or_insert(e);
         }
+        if let Some(r) = results.as_mut() {
+            r.add(out);
+        }
     })
     .map_err(|e| classify(e.into()))?;
     bar.finish_and_clear();
@@ -407,6 +429,10 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
     if let Some(h) = html {
         let index = h.finish(&report).map_err(|e| (Exit::Io, e.into()))?;
         eprintln!("report: {}", index.display());
+    }
+    if let Some(r) = results {
+        let path = r.finish().map_err(|e| (Exit::Io, e.into()))?;
+        eprintln!("results: {}", path.display());
     }
     if a.json {
         let text = serde_json::to_string_pretty(&report).map_err(|e| (Exit::Io, e.into()))?;

@@ -62,6 +62,8 @@ figure img { max-width: 100%; height: auto; border: 1px solid var(--line); }
 figcaption { color: var(--muted); font-size: .88rem; }
 .grid { display: grid; grid-template-columns: repeat(auto-fill, minmax(520px, 1fr)); gap: 1rem; }
 .note { color: var(--muted); font-size: .9rem; }
+.key { color: var(--muted); font-family: ui-monospace, "DejaVu Sans Mono", monospace; font-size: .8rem; }
+.finding { color: var(--fail); font-size: .88rem; margin-top: .15rem; }
 .caution { margin-top: 2.5rem; padding: .6rem .9rem; border-left: 4px solid var(--fail); background: #fff8f3; font-size: .9rem; }
 dl.kv { display: grid; grid-template-columns: max-content 1fr; gap: .25rem 1.2rem; margin: 0; }
 dl.kv dt { color: var(--muted); } dl.kv dd { margin: 0; }

@@ -13,6 +13,8 @@
 //!   units/<serial>.html   one unit's certificate: verdict, every limit with
 //!                         the measured value, key figures, plots, traceability
 //!   units/<serial>-curve.svg, -residual.svg, -drift.svg
+//!   results.jsonl         one JSON object per unit attempt for a
+//!                         manufacturing execution system ([`results`])
 //! ```
 //!
 //! [`ReportWriter`] streams: each unit's page (and plots, for at most a
@@ -22,10 +24,12 @@
 //! is written whole or not at all ([`crate::atomic`]).
 //!
 //! The pages are made from [`rows::result_rows`], the one function that
-//! turns a unit's result into rows of code, measured value, bound and
-//! unit, and from [`rows::Traceability`].
+//! turns a unit's typed acceptance results into rows of code, measured
+//! value, bound and unit, and from [`rows::Traceability`]; the results file
+//! from the same findings ([`results::ResultLine`]).
 
 pub mod html;
+pub mod results;
 pub mod rows;
 
 use crate::atomic::write_bytes;
@@ -33,7 +37,8 @@ use crate::calib::lot::{file_stem, LotReport, UnitOutcome};
 use crate::calib::plan::{Kind, Plan};
 use crate::calib::report::{lot_plots, unit_plots, verdict, LengthUnit};
 use html::{badge, escape, figure, num, page, url, CAUTION};
-use rows::{limit_rows, result_rows, ResultRow, Traceability};
+use results::{ImageRef, ResultsWriter};
+use rows::{limit_rows, result_rows, ResultRow, Traceability, OTHER};
 use std::collections::{BTreeMap, HashSet};
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -71,6 +76,20 @@ pub fn utc_now() -> String {
         .duration_since(std::time::UNIX_EPOCH)
         .map_or(0, |d| d.as_secs());
     utc(secs)
+}
+
+/// The current time, UTC, as RFC 3339 (`YYYY-MM-DDThh:mm:ssZ`).
+pub fn utc_rfc3339_now() -> String {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map_or(0, |d| d.as_secs());
+    rfc3339(secs)
+}
+
+/// `secs` after the epoch as RFC 3339, UTC.
+fn rfc3339(secs: u64) -> String {
+    let t = utc(secs);
+    format!("{}T{}Z", &t[..10], &t[11..19])
 }
 
 /// `secs` after 1970-01-01 00:00:00 UTC as `YYYY-MM-DD hh:mm:ss UTC`
@@ -124,6 +143,7 @@ pub struct ReportWriter<'p> {
     units: Vec<UnitRow>,
     reasons: BTreeMap<&'static str, (String, usize)>,
     figures: Vec<(String, String)>,
+    results: ResultsWriter,
 }
 
 impl<'p> ReportWriter<'p> {
@@ -140,7 +160,9 @@ impl<'p> ReportWriter<'p> {
         for d in [dir.to_path_buf(), dir.join("plots"), dir.join("units")] {
             std::fs::create_dir_all(&d).map_err(io(&d))?;
         }
+        let results = ResultsWriter::new(&dir.join("results.jsonl"), lot, trace.clone());
         Ok(ReportWriter {
+            results,
             dir: dir.to_path_buf(),
             lot: lot.to_string(),
             plan,
@@ -177,27 +199,24 @@ impl<'p> ReportWriter<'p> {
     pub fn add(&mut self, out: &UnitOutcome) -> Result<(), ReportError> {
         let stem = self.unique_stem(&out.serial);
         let rows = result_rows(out, self.plan);
+        let image = out.image_path.as_deref().and_then(ImageRef::of);
+        self.results.add_with_image(out, image.clone());
         if !out.passed {
-            let failing: Vec<&ResultRow> =
-                rows.iter().filter(|r| r.passed == Some(false)).collect();
-            let mut codes: Vec<(&'static str, String)> = failing
+            // Each limit the unit fails once, by its code; a unit no
+            // finding explains counts under `other`.
+            let mut codes: Vec<(&'static str, String)> = Vec::new();
+            for r in rows
                 .iter()
-                .map(|r| {
-                    if r.code == "other" {
-                        (
-                            "other",
-                            "rig data or fit problem (see the unit's reasons)".into(),
-                        )
-                    } else {
-                        (r.code, r.text.clone())
-                    }
-                })
-                .collect();
-            codes.dedup_by_key(|c| c.0);
+                .filter(|r| r.passed == Some(false) && r.code != OTHER)
+            {
+                if !codes.iter().any(|c| c.0 == r.code) {
+                    codes.push((r.code, format!("{} ({})", r.text, r.plan_key)));
+                }
+            }
             if codes.is_empty() {
                 codes.push((
-                    "other",
-                    "rig data or fit problem (see the unit's reasons)".into(),
+                    OTHER,
+                    "rig data, fit or record problem (see the units' reasons)".into(),
                 ));
             }
             for (code, text) in codes {
@@ -220,7 +239,7 @@ impl<'p> ReportWriter<'p> {
             }
         }
         let page_name = format!("{stem}.html");
-        let html = self.unit_page(out, &rows, &plots, take);
+        let html = self.unit_page(out, &rows, &plots, take, image.as_ref());
         write(&self.dir.join("units").join(&page_name), &html)?;
         let len = LengthUnit::of(self.plan);
         let fit = out.fit.as_ref();
@@ -256,6 +275,7 @@ impl<'p> ReportWriter<'p> {
         rows: &[ResultRow],
         plots: &[(String, String)],
         plotted: bool,
+        image: Option<&ImageRef>,
     ) -> String {
         let mut b = String::new();
         let lot = escape(&self.lot);
@@ -283,17 +303,15 @@ impl<'p> ReportWriter<'p> {
                 Err(e) => format!("not recorded: {}", escape(e)),
             },
         );
-        let image = match &out.image_path {
-            Some(p) => {
-                let bytes = std::fs::read(p).unwrap_or_default();
-                format!(
-                    "{} ({} bytes, CRC-32 {:08x} over the whole file)",
-                    escape(&p.display().to_string()),
-                    bytes.len(),
-                    lc_core::image::CRC32.checksum(&bytes)
-                )
-            }
-            None => "none (a failed unit gets no image)".to_string(),
+        let image = match (&out.image_path, image) {
+            (Some(p), Some(i)) => format!(
+                "{} ({} bytes, CRC-32 {} over the whole file)",
+                escape(&p.display().to_string()),
+                i.bytes,
+                i.crc32
+            ),
+            (Some(p), None) => format!("{} (could not be read)", escape(&p.display().to_string())),
+            (None, _) => "none (a failed unit gets no image)".to_string(),
         };
         kv("calibration image", image);
         b.push_str("</dl>\n");
@@ -303,11 +321,18 @@ impl<'p> ReportWriter<'p> {
              <th class=\"num\">bound</th><th class=\"num\">measured</th><th>unit</th><th>result</th></tr></thead>\n<tbody>\n",
         );
         for r in rows {
+            let mut what = escape(&r.text);
+            if !r.plan_key.is_empty() {
+                let _ = write!(what, " <span class=\"key\">{}</span>", escape(r.plan_key));
+            }
+            if let Some(f) = &r.finding {
+                let _ = write!(what, "<div class=\"finding\">{}</div>", escape(f));
+            }
             let _ = writeln!(
                 b,
                 "<tr><td><code>{}</code></td><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td><td>{}</td></tr>",
                 r.code,
-                escape(&r.text),
+                what,
                 escape(&r.bound),
                 num(r.measured, decimals(r.code)),
                 escape(&r.unit),
@@ -409,8 +434,8 @@ impl<'p> ReportWriter<'p> {
         b
     }
 
-    /// Writes the lot's histograms and `index.html`; returns the index's
-    /// path.
+    /// Writes the lot's histograms, `results.jsonl` and `index.html`;
+    /// returns the index's path.
     pub fn finish(self, report: &LotReport) -> Result<PathBuf, ReportError> {
         let (plots, omitted) = lot_plots(report, self.plan);
         for p in &plots {
@@ -443,13 +468,14 @@ impl<'p> ReportWriter<'p> {
         }
         b.push_str("</div>\n");
 
-        b.push_str("<h2 id=\"limits\">Acceptance limits of the plan</h2>\n<table>\n<thead><tr><th>code</th><th>limit</th><th class=\"num\">bound</th><th>unit</th></tr></thead>\n<tbody>\n");
+        b.push_str("<h2 id=\"limits\">Acceptance limits of the plan</h2>\n<table>\n<thead><tr><th>code</th><th>limit</th><th>plan key</th><th class=\"num\">bound</th><th>unit</th></tr></thead>\n<tbody>\n");
         for r in limit_rows(self.plan) {
             let _ = writeln!(
                 b,
-                "<tr><td><code>{}</code></td><td>{}</td><td class=\"num\">{}</td><td>{}</td></tr>",
+                "<tr><td><code>{}</code></td><td>{}</td><td><code>{}</code></td><td class=\"num\">{}</td><td>{}</td></tr>",
                 r.code,
                 escape(&r.text),
+                escape(r.plan_key),
                 escape(&r.bound),
                 escape(&r.unit)
             );
@@ -531,6 +557,7 @@ impl<'p> ReportWriter<'p> {
         b.push_str(CAUTION);
         let html = page(&format!("Lot {} · calibration report", self.lot), &b);
         let index = self.dir.join("index.html");
+        self.results.finish()?;
         write(&index, &html)?;
         Ok(index)
     }
@@ -549,7 +576,7 @@ fn kind_name(k: Kind) -> &'static str {
 fn decimals(code: &str) -> usize {
     match code {
         "rest_frequency" => 4,
-        "monotonic" | "min_steps" | "bad_rows" => 0,
+        "monotonic" | "min_steps" | "bad_rows" | "range_steps" => 0,
         "q" | "sensitivity" => 1,
         _ => 2,
     }
@@ -616,14 +643,113 @@ mod tests {
             let html = std::fs::read_to_string(dir.join("units").join(p)).unwrap();
             assert!(!html.contains("<script>") && !html.contains("<b>"), "{p}");
         }
-        // Both failures are "other" (no limit row fails without a fit).
+        // Both failures are "other" (no finding).
         assert!(index.contains("<td><code>other</code></td>"));
+        let results = std::fs::read_to_string(dir.join("results.jsonl")).unwrap();
+        assert_eq!(results.lines().count(), 3);
+        for l in results.lines() {
+            let v: serde_json::Value = serde_json::from_str(l).unwrap();
+            assert_eq!(v["lot"], "L<1>");
+            assert_eq!(v["findings"], serde_json::json!([]));
+        }
         assert!(index.contains("<td class=\"num\">2</td>"));
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    /// A unit failing a limit: its row carries the finding's value, bound
+    /// and text in the display units, the bad rows' messages are `other`
+    /// rows, the Pareto counts it under the limit's code (not `other`), and
+    /// its results line carries the finding in physical units.
+    #[test]
+    fn findings_make_the_rows_pareto_and_results() {
+        use crate::calib::accept::{Finding, Limit, PhysicalUnit, RigPoint};
+        let dir = std::env::temp_dir().join(format!("lc-report-find-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        let plan = Plan::parse(crate::demo::PLAN, Path::new("demo-plan.toml")).unwrap();
+        let f = Finding {
+            limit: Limit::RestFrequency,
+            measured: Some(6.1e6),
+            min: Some(5.3e6),
+            max: Some(5.95e6),
+            unit: PhysicalUnit::Hertz,
+            at: None,
+        };
+        let r = Finding {
+            limit: Limit::MaxResidual,
+            measured: Some(12.5),
+            min: None,
+            max: Some(8.0),
+            unit: PhysicalUnit::Micrometre,
+            at: Some(RigPoint {
+                line: 40,
+                target_mm: 2.5,
+                temp_c: 60.0,
+            }),
+        };
+        let mut out = outcome("U-7", false, &[]);
+        out.reasons = vec![f.to_string(), r.to_string(), "line 9: bad row".into()];
+        out.findings = vec![f.clone(), r.clone()];
+        let rows = result_rows(&out, &plan);
+        let rest = rows.iter().find(|x| x.code == "rest_frequency").unwrap();
+        assert_eq!(rest.passed, Some(false));
+        assert_eq!(rest.measured, Some(6.1));
+        assert_eq!(
+            (rest.bound.as_str(), rest.unit.as_str()),
+            ("5.3 … 5.95", "MHz")
+        );
+        assert_eq!(rest.finding.as_deref(), Some(f.to_string().as_str()));
+        let other: Vec<&ResultRow> = rows.iter().filter(|x| x.code == OTHER).collect();
+        assert_eq!(other.len(), 1);
+        assert_eq!(other[0].text, "line 9: bad row");
+        // Not judged in this run (no fit): the other limits are unknown.
+        let q = rows.iter().find(|x| x.code == "q").unwrap();
+        assert_eq!(q.passed, None);
+
+        let mut w = ReportWriter::new(&dir, "L1", &plan, Traceability::now(), 4).unwrap();
+        w.add(&out).unwrap();
+        w.add(&outcome("U-8", true, &[])).unwrap();
+        let index = std::fs::read_to_string(
+            w.finish(&LotReport {
+                units: 2,
+                passed: 1,
+                failed: 1,
+                ..LotReport::default()
+            })
+            .unwrap(),
+        )
+        .unwrap();
+        let pareto = &index
+            [index.find("id=\"failures\"").unwrap()..index.find("id=\"distributions\"").unwrap()];
+        assert!(pareto.contains("<code>rest_frequency</code>"), "{pareto}");
+        assert!(pareto.contains("<code>max_residual</code>"), "{pareto}");
+        assert!(!pareto.contains("<code>other</code>"), "{pareto}");
+        let text = std::fs::read_to_string(dir.join("results.jsonl")).unwrap();
+        let lines: Vec<serde_json::Value> = text
+            .lines()
+            .map(|l| serde_json::from_str(l).unwrap())
+            .collect();
+        assert_eq!(lines.len(), 2);
+        assert_eq!(lines[0]["verdict"], "fail");
+        assert_eq!(lines[1]["verdict"], "pass");
+        let fl = &lines[0]["findings"];
+        assert_eq!(fl[0]["code"], "rest_frequency");
+        assert_eq!(fl[0]["plan_key"], "limits.rest_frequency_hz");
+        assert_eq!(fl[0]["measured"], 6.1e6);
+        assert_eq!(fl[0]["unit"], "Hz");
+        assert_eq!(fl[1]["unit"], "µm");
+        assert_eq!(fl[1]["max"], 8.0);
+        assert_eq!(fl[1]["at"]["line"], 40);
+        assert_eq!(fl[1]["text"], r.to_string());
+        assert_eq!(
+            lines[0]["other_reasons"],
+            serde_json::json!(["line 9: bad row"])
+        );
         std::fs::remove_dir_all(&dir).ok();
     }
 
     #[test]
     fn utc_dates() {
+        assert_eq!(rfc3339(1_700_000_000), "2023-11-14T22:13:20Z");
         assert_eq!(utc(0), "1970-01-01 00:00:00 UTC");
         assert_eq!(utc(951_782_400), "2000-02-29 00:00:00 UTC");
         assert_eq!(utc(1_700_000_000), "2023-11-14 22:13:20 UTC");

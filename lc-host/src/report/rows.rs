@@ -1,35 +1,49 @@
 //! The adapter between a unit's calibration result and the pages: one
 //! row per acceptance limit of the plan with its code, the measured value,
-//! the bound and the physical unit, and the traceability rows. The pages
-//! are made from these rows only, so a richer result (typed acceptance
-//! results, a recorded trail) changes this file alone.
+//! the bound and the physical unit, and the traceability rows. The rows
+//! are made from the station's typed results ([`crate::calib::accept`]):
+//! the plan's limits and their measured values from
+//! [`accept::checks`], the verdict of each from the unit's recorded
+//! [`Finding`]s, so the pages never judge a unit themselves.
 
+use crate::calib::accept::{self, Finding, Limit, PhysicalUnit, RigPoint};
 use crate::calib::lot::UnitOutcome;
 use crate::calib::plan::{Plan, Range};
 use crate::calib::report::{significant, LengthUnit};
-use crate::calib::unit::UnitFit;
+use std::collections::HashSet;
 use std::path::Path;
+
+/// The code of a reason no limit names (a fit that failed, counts the
+/// fault window rejected, a record or image that could not be written).
+pub const OTHER: &str = "other";
 
 /// One acceptance limit as the pages show it.
 #[derive(Clone, Debug, PartialEq)]
 pub struct ResultRow {
-    /// A stable code for the limit (machine-readable: `rest_frequency`,
-    /// `q`, `sensitivity`, `max_residual`, `curve_error`, `drift_b1`,
-    /// `drift_sigma`, `monotonic`, `min_steps`, `bad_rows`), or `other`
-    /// for a reason no limit names (a fit that failed, counts the fault
-    /// window rejected).
+    /// The limit's code ([`Limit::code`]: `rest_frequency`, `q`,
+    /// `max_residual`, `drift`, …), or [`OTHER`] for a reason no limit
+    /// names.
     pub code: &'static str,
-    /// What is checked, in words (or the reason, for `other`).
+    /// The plan key that sets the limit (empty for [`OTHER`]).
+    pub plan_key: &'static str,
+    /// What is checked, in words (or the reason, for [`OTHER`]).
     pub text: String,
+    /// For a failed limit, the finding's text (its `Display`): the same
+    /// words the unit's recorded reasons hold.
+    pub finding: Option<String>,
     /// The unit's value, in `unit`, when known.
     pub measured: Option<f64>,
     /// The bound in `unit`, as text ("5.3 … 5.95", "≤ 8").
     pub bound: String,
-    /// The physical unit of `measured` and `bound` (empty for a count or a
-    /// pure number).
+    /// The unit of `measured` and `bound` as shown: the finding's physical
+    /// unit, frequencies in MHz and lengths in the plan's display unit
+    /// (empty for a count or a pure number).
     pub unit: String,
-    /// Whether the unit meets it: `None` when it was not measured.
+    /// Whether the unit meets it: `None` when not known (a failed unit
+    /// not judged in this run).
     pub passed: Option<bool>,
+    /// The worst rig point, where one applies.
+    pub at: Option<RigPoint>,
 }
 
 /// A bound as text: nine significant digits at most, so a scaled limit
@@ -38,182 +52,118 @@ fn b(v: f64) -> f64 {
     significant(v, 9)
 }
 
-fn range_text(r: Range, k: f64) -> String {
-    Range {
-        min: r.min.map(|v| b(v * k)),
-        max: r.max.map(|v| b(v * k)),
+/// What a limit checks, in words.
+fn describe(limit: Limit, plan: &Plan) -> String {
+    match limit {
+        Limit::BadRows => "bad rig rows".into(),
+        Limit::MinSteps => "usable rig steps".into(),
+        Limit::RestFrequency => {
+            format!("rest frequency at {} °C", plan.product.reference_temp_c)
+        }
+        Limit::Q => "quality factor at rest (ring count)".into(),
+        Limit::Sensitivity => match plan.limits.sensitivity {
+            Some(s) => format!("sensitivity |ds/dx| at {} mm", s.at_mm),
+            None => "sensitivity |ds/dx|".into(),
+        },
+        Limit::MaxResidual => "largest |residual| through the firmware's arithmetic".into(),
+        Limit::MaxCurveError => "interpolation error of the written curve".into(),
+        Limit::Drift => "first-order drift coefficient b1".into(),
+        Limit::DriftSigma => "standard error of b1".into(),
+        Limit::Monotonic => {
+            "rig steps against the curve's direction (beyond three quantisation steps)".into()
+        }
+        Limit::RangeSteps => "calibrated range, in output steps".into(),
     }
-    .describe()
 }
 
-fn row(code: &'static str, text: impl Into<String>, bound: String, unit: &str) -> ResultRow {
-    ResultRow {
-        code,
-        text: text.into(),
-        measured: None,
-        bound,
-        unit: unit.to_string(),
-        passed: None,
-    }
-}
-
-/// The rows of every limit the plan sets, measured on `fit` when given.
-fn rows(plan: &Plan, fit: Option<&UnitFit>) -> Vec<ResultRow> {
-    let l = &plan.limits;
-    let len = LengthUnit::of(plan);
-    let mut out = Vec::new();
-    let mut push = |mut r: ResultRow, measured: Option<f64>, ok: &dyn Fn(f64) -> bool| {
-        r.measured = measured.filter(|v| v.is_finite());
-        r.passed = r.measured.map(ok);
-        out.push(r);
+/// A finding's values as a row: frequencies in MHz, lengths in the plan's
+/// display unit, everything else in the finding's own unit.
+fn row(plan: &Plan, v: &Finding, passed: Option<bool>, finding: Option<String>) -> ResultRow {
+    let (k, unit) = match v.unit {
+        PhysicalUnit::Hertz => (1e-6, "MHz"),
+        PhysicalUnit::Micrometre => {
+            let len = LengthUnit::of(plan);
+            (len.from_um(1.0), len.symbol)
+        }
+        u => (1.0, u.symbol()),
     };
-    if let Some(r) = l.rest_frequency_hz {
-        push(
-            row(
-                "rest_frequency",
-                format!("rest frequency at {} °C", plan.product.reference_temp_c),
-                range_text(r, 1e-6),
-                "MHz",
-            ),
-            fit.map(|f| f.rest_frequency_hz * 1e-6),
-            &|v| r.contains(v * 1e6),
-        );
+    ResultRow {
+        code: v.limit.code(),
+        plan_key: v.limit.key(),
+        text: describe(v.limit, plan),
+        finding,
+        measured: v.measured.filter(|m| m.is_finite()).map(|m| m * k),
+        bound: Range {
+            min: v.min.map(|x| b(x * k)),
+            max: v.max.map(|x| b(x * k)),
+        }
+        .describe(),
+        unit: unit.to_string(),
+        passed,
+        at: v.at,
     }
-    if let Some(r) = l.q {
-        push(
-            row(
-                "q",
-                "quality factor at rest (ring count)",
-                range_text(r, 1.0),
-                "",
-            ),
-            fit.and_then(|f| f.q.map(|q| q.0)),
-            &|v| r.contains(v),
-        );
-    }
-    if let Some(s) = l.sensitivity {
-        push(
-            row(
-                "sensitivity",
-                format!("sensitivity |ds/dx| at {} mm", s.at_mm),
-                format!("≥ {}", b(s.min_per_mm * 1e6)),
-                "ppm/mm",
-            ),
-            fit.and_then(|f| f.sensitivity_per_mm.map(|v| v * 1e6)),
-            &|v| v >= s.min_per_mm * 1e6,
-        );
-    }
-    if let Some(m) = l.max_residual_um {
-        let m = b(len.from_um(m));
-        push(
-            row(
-                "max_residual",
-                "largest |residual| through the firmware's arithmetic",
-                format!("≤ {m}"),
-                len.symbol,
-            ),
-            fit.and_then(|f| f.max_residual().map(|v| v * len.per_output)),
-            &|v| v <= m,
-        );
-    }
-    if let Some(m) = l.max_curve_error_um {
-        let m = b(len.from_um(m));
-        push(
-            row(
-                "curve_error",
-                "interpolation error of the written curve",
-                format!("≤ {m}"),
-                len.symbol,
-            ),
-            fit.and_then(|f| f.curve_error.map(|v| v * len.per_output)),
-            &|v| v <= m,
-        );
-    }
-    if let Some(r) = l.drift_ppm_per_k {
-        push(
-            row(
-                "drift_b1",
-                "first-order drift coefficient b1",
-                range_text(r, 1.0),
-                "ppm/K",
-            ),
-            fit.map(|f| f.drift.b1_per_k * 1e6),
-            &|v| r.contains(v),
-        );
-    }
-    if let Some(m) = l.max_drift_sigma_ppm_per_k {
-        push(
-            row(
-                "drift_sigma",
-                "standard error of b1",
-                format!("≤ {}", b(m)),
-                "ppm/K",
-            ),
-            fit.and_then(|f| f.drift.sigma_b1_per_k.map(|v| v * 1e6)),
-            &|v| v <= m,
-        );
-    }
-    if l.monotonic {
-        push(
-            row(
-                "monotonic",
-                "rig steps against the curve's direction (beyond three quantisation steps)",
-                "0".into(),
-                "",
-            ),
-            // A count of at most a few hundred steps: exact.
-            fit.map(|f| f.monotone_violations as f64),
-            &|v| v == 0.0,
-        );
-    }
-    if let Some(n) = l.min_steps {
-        push(
-            row("min_steps", "usable rig steps", format!("≥ {n}"), ""),
-            fit.map(|f| f.steps as f64),
-            &|v| v >= n as f64,
-        );
-    }
-    push(
-        row(
-            "bad_rows",
-            "bad rig rows",
-            format!("≤ {}", l.max_bad_rows),
-            "",
-        ),
-        None,
-        &|_| true,
-    );
-    out
 }
 
 /// The plan's limits as rows without measurements (for the lot page).
 pub fn limit_rows(plan: &Plan) -> Vec<ResultRow> {
-    rows(plan, None)
+    accept::limits(plan)
+        .iter()
+        .map(|v| row(plan, v, None, None))
+        .collect()
+}
+
+/// The unit's reasons that no finding made: a fit that failed, the bad
+/// rows' own messages, counts the fault window rejected, a record or
+/// image that could not be written, and every reason of a unit recorded
+/// earlier (whose findings this run does not have).
+pub fn other_reasons(out: &UnitOutcome) -> Vec<&str> {
+    let made: HashSet<String> = out.findings.iter().map(ToString::to_string).collect();
+    out.reasons
+        .iter()
+        .filter(|r| !made.contains(r.as_str()))
+        .map(String::as_str)
+        .collect()
 }
 
 /// One unit's result as rows: every limit of the plan with the unit's
-/// value and whether it holds; then, for a failed unit whose failure no
-/// limit row shows, one `other` row per reason. A passing unit meets every
-/// limit, including those not measured here (bad rig rows).
+/// value; a limit fails when the unit has a finding for it (the row then
+/// carries the finding's value, bound and text) and holds otherwise when
+/// the unit was judged (it has a fit) or passed. Then one [`OTHER`] row per
+/// reason no finding made ([`other_reasons`]).
 pub fn result_rows(out: &UnitOutcome, plan: &Plan) -> Vec<ResultRow> {
-    let mut r = rows(plan, out.fit.as_ref());
-    if out.passed {
-        for row in &mut r {
-            row.passed = Some(true);
+    let values: Vec<Finding> = match &out.fit {
+        Some(fit) => accept::checks(fit, None, plan)
+            .into_iter()
+            .map(|c| c.value)
+            .collect(),
+        None => accept::limits(plan),
+    };
+    let judged = out.passed || out.fit.is_some();
+    let mut rows: Vec<ResultRow> = values
+        .iter()
+        .map(|v| match out.findings.iter().find(|f| f.limit == v.limit) {
+            Some(f) => row(plan, f, Some(false), Some(f.to_string())),
+            None => row(plan, v, judged.then_some(true), None),
+        })
+        .collect();
+    // A finding of a limit the plan does not list (none today) still shows.
+    for f in &out.findings {
+        if !values.iter().any(|v| v.limit == f.limit) {
+            rows.push(row(plan, f, Some(false), Some(f.to_string())));
         }
-        return r;
     }
-    if !r.iter().any(|row| row.passed == Some(false)) {
-        r.extend(out.reasons.iter().map(|reason| ResultRow {
-            code: "other",
-            text: reason.clone(),
-            measured: None,
-            bound: String::new(),
-            unit: String::new(),
-            passed: Some(false),
-        }));
-    }
-    r
+    rows.extend(other_reasons(out).into_iter().map(|reason| ResultRow {
+        code: OTHER,
+        plan_key: "",
+        text: reason.to_string(),
+        finding: None,
+        measured: None,
+        bound: String::new(),
+        unit: String::new(),
+        passed: Some(false),
+        at: None,
+    }));
+    rows
 }
 
 /// What a report records about where a lot's result came from: the same
@@ -345,23 +295,31 @@ mod tests {
         assert_eq!(
             codes,
             [
+                "bad_rows",
+                "min_steps",
                 "rest_frequency",
                 "q",
                 "sensitivity",
                 "max_residual",
-                "curve_error",
-                "drift_b1",
+                "max_curve_error",
+                "drift",
                 "drift_sigma",
                 "monotonic",
-                "min_steps",
-                "bad_rows"
+                "range_steps"
             ]
         );
-        assert_eq!(rows[0].bound, "5.3 … 5.95");
+        let code = |c: &str| rows.iter().find(|r| r.code == c).unwrap();
+        assert_eq!(code("rest_frequency").bound, "5.3 … 5.95");
+        assert_eq!(code("rest_frequency").unit, "MHz");
+        assert_eq!(code("rest_frequency").plan_key, "limits.rest_frequency_hz");
         assert_eq!(
-            (rows[3].bound.as_str(), rows[3].unit.as_str()),
+            (
+                code("max_residual").bound.as_str(),
+                code("max_residual").unit.as_str()
+            ),
             ("≤ 8", "µm")
         );
+        assert_eq!(code("sensitivity").bound, "≥ 1000");
         assert!(rows
             .iter()
             .all(|r| r.measured.is_none() && r.passed.is_none()));
