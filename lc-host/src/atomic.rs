@@ -12,6 +12,11 @@
 //! | a directory, or a link that points nowhere | refused |
 //!
 //! [`refuse_same_file`] keeps a command from writing over its own input.
+//!
+//! A killed writer leaves its temporary file (`.NAME.PID.tmp`) behind; the
+//! next atomic write of the same target removes those of processes that are
+//! gone ([`remove_stale_temporaries`]), so a re-run after a kill leaves no
+//! leftovers.
 
 use std::io::{BufWriter, Write};
 use std::path::Path;
@@ -110,6 +115,9 @@ fn write_file_atomically<T, E: std::error::Error + 'static>(
         .file_name()
         .map_or_else(|| "output".into(), |n| n.to_string_lossy().into_owned());
     let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    // Leftovers of killed writers of this same target: best effort, a
+    // folder that cannot be listed fails at the create below anyway.
+    let _ = remove_stale_temporaries(dir, Some(&name));
     let result = (|| {
         let file = std::fs::File::create(&tmp).map_err(io("cannot create a temporary file"))?;
         let mut w = BufWriter::new(file);
@@ -125,6 +133,51 @@ fn write_file_atomically<T, E: std::error::Error + 'static>(
         let _ = std::fs::remove_file(&tmp);
     }
     result
+}
+
+/// Removes the temporary files (`.NAME.PID.tmp`) that writers killed
+/// before their rename left in `dir`, of every target or of the target
+/// `name` only: those whose process is gone (on systems without `/proc`,
+/// those older than an hour). Another running writer's file is kept.
+/// Returns how many were removed.
+///
+/// # Errors
+/// The folder cannot be listed.
+pub fn remove_stale_temporaries(dir: &Path, name: Option<&str>) -> std::io::Result<usize> {
+    let proc_fs = Path::new("/proc/self").exists();
+    let mut removed = 0;
+    for entry in std::fs::read_dir(dir)? {
+        let entry = entry?;
+        let file = entry.file_name();
+        let Some(file) = file.to_str() else { continue };
+        let Some((target, pid)) = file
+            .strip_prefix('.')
+            .and_then(|n| n.strip_suffix(".tmp"))
+            .and_then(|n| n.rsplit_once('.'))
+            .and_then(|(target, pid)| Some((target, pid.parse::<u32>().ok()?)))
+        else {
+            continue;
+        };
+        if name.is_some_and(|n| n != target) {
+            continue;
+        }
+        let stale = if pid == std::process::id() {
+            false
+        } else if proc_fs {
+            !Path::new("/proc").join(pid.to_string()).exists()
+        } else {
+            entry
+                .metadata()
+                .and_then(|m| m.modified())
+                .ok()
+                .and_then(|t| t.elapsed().ok())
+                .is_some_and(|age| age > std::time::Duration::from_secs(3600))
+        };
+        if stale && std::fs::remove_file(entry.path()).is_ok() {
+            removed += 1;
+        }
+    }
+    Ok(removed)
 }
 
 /// The output would overwrite the input.
@@ -197,6 +250,31 @@ mod tests {
         assert!(r.is_err());
         assert_eq!(std::fs::read(&target).unwrap(), b"first");
         assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1);
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    /// Issue 14, defect 9: a killed `convert` left its partial temporary
+    /// CSV beside the output for good. The next write of the same output
+    /// removes a dead writer's leftover; a live writer's (this process's
+    /// parent) and another target's stay.
+    #[test]
+    fn a_dead_writers_leftover_goes_with_the_next_write() {
+        let dir = scratch("leftover");
+        // A process id that is not running: past the kernel's pid range.
+        let dead = u32::MAX - 7;
+        let live = std::os::unix::process::parent_id();
+        let leftover = dir.join(format!(".out.csv.{dead}.tmp"));
+        let running = dir.join(format!(".out.csv.{live}.tmp"));
+        let other = dir.join(format!(".other.csv.{dead}.tmp"));
+        for f in [&leftover, &running, &other] {
+            std::fs::write(f, b"partial").unwrap();
+        }
+        write_bytes(&dir.join("out.csv"), b"whole").unwrap();
+        assert!(!leftover.exists(), "a dead writer's temporary was left");
+        assert!(running.exists() && other.exists());
+        assert_eq!(std::fs::read(dir.join("out.csv")).unwrap(), b"whole");
+        assert_eq!(remove_stale_temporaries(&dir, None).unwrap(), 1);
+        assert!(!other.exists() && running.exists());
         std::fs::remove_dir_all(&dir).ok();
     }
 

@@ -333,44 +333,13 @@ pub fn file_stem(serial: &str) -> String {
 }
 
 /// Removes temporary files that an interrupted writer left in `dir`
-/// (`.NAME.PID.tmp`, the atomic writer's pattern) whose process is gone.
-/// On systems without `/proc`, only files older than an hour are removed.
-/// Returns how many were removed.
+/// (`.NAME.PID.tmp`, the atomic writer's pattern) whose process is gone:
+/// [`crate::atomic::remove_stale_temporaries`] for every name.
 ///
 /// # Errors
 /// The folder cannot be listed.
 pub fn remove_stale_temporaries(dir: &Path) -> std::io::Result<usize> {
-    let proc_fs = Path::new("/proc/self").exists();
-    let mut removed = 0;
-    for entry in std::fs::read_dir(dir)? {
-        let entry = entry?;
-        let name = entry.file_name();
-        let Some(name) = name.to_str() else { continue };
-        let Some(pid) = name
-            .strip_prefix('.')
-            .and_then(|n| n.strip_suffix(".tmp"))
-            .and_then(|n| n.rsplit_once('.'))
-            .and_then(|(_, pid)| pid.parse::<u32>().ok())
-        else {
-            continue;
-        };
-        let stale = if pid == std::process::id() {
-            false
-        } else if proc_fs {
-            !Path::new("/proc").join(pid.to_string()).exists()
-        } else {
-            entry
-                .metadata()
-                .and_then(|m| m.modified())
-                .ok()
-                .and_then(|t| t.elapsed().ok())
-                .is_some_and(|age| age > Duration::from_secs(3600))
-        };
-        if stale && std::fs::remove_file(entry.path()).is_ok() {
-            removed += 1;
-        }
-    }
-    Ok(removed)
+    crate::atomic::remove_stale_temporaries(dir, None)
 }
 
 /// The record of one unit: parameters, residuals and raw rig points.
