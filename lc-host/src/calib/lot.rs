@@ -383,20 +383,18 @@ fn record_of(
     image: Option<Vec<u8>>,
     trace: Option<Trace>,
 ) -> NewAttempt {
-    let params = fit.map_or_else(
-        || serde_json::json!({}),
-        |f| {
-            let mut v = serde_json::to_value(f).unwrap_or_else(|_| serde_json::json!({}));
-            if let Some(o) = v.as_object_mut() {
-                o.remove("residuals");
-            }
-            v
-        },
-    );
-    let residuals = fit.map_or_else(
-        || serde_json::json!([]),
-        |f| serde_json::to_value(&f.residuals).unwrap_or_else(|_| serde_json::json!([])),
-    );
+    // One serialisation of the fit: its residuals move out of the params
+    // object into their own column.
+    let (params, residuals) = match fit.map(serde_json::to_value) {
+        Some(Ok(mut v)) => {
+            let residuals = v
+                .as_object_mut()
+                .and_then(|o| o.remove("residuals"))
+                .unwrap_or_else(|| serde_json::json!([]));
+            (v, residuals)
+        }
+        _ => (serde_json::json!({}), serde_json::json!([])),
+    };
     let mut rig: Vec<serde_json::Value> = unit.rows.iter().map(|r| r.to_json()).collect();
     rig.extend(
         unit.errors
