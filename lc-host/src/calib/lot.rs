@@ -5,8 +5,10 @@
 //! Order of effects per group of units: the group's attempts are committed
 //! in one transaction first (the records hold the image bytes), then each
 //! passing unit's image file is written atomically and each failing unit's
-//! image file is removed. A run killed at any moment loses at most the
-//! attempts of the group not yet committed, never part of one, and leaves
+//! image file is removed. The next group is fitted on a fitter thread
+//! meanwhile (a pipeline one group deep). A run killed at any moment loses
+//! at most the attempts not yet committed (the group being committed or
+//! read and the one being fitted), never part of one, and leaves
 //! no image file that disagrees with a committed record except those of the
 //! last committed group; a re-run of the same rig log against the same plan
 //! skips the units already recorded, brings their image files to their
