@@ -6,6 +6,15 @@
 #
 #   bash benches/station/throughput.sh [UNITS] [RUNS]   (default 10 000, 3)
 #
+# LC_HOST_BIN=path measures that build instead of this tree's release
+# build (to compare two builds side by side on the same rig log).
+#
+# Each run writes a fresh images folder; the folders are removed at the
+# end, not between runs: on ext4 without a journal, creating a file within
+# about 10 s of deleting many costs the kernel a scan past every recently
+# deleted inode (ext4's recently_deleted), which would charge one run for
+# the clean-up of the one before.
+#
 # Needs GNU time (/usr/bin/time, Debian package "time") and bc.
 # PostgreSQL: set LC_TEST_POSTGRES_URL (as .ci/run exports it) to also
 # measure against that server; each run uses a fresh database schema.
@@ -16,8 +25,12 @@ runs=${2:-3}
 work=${TMPDIR:-/tmp}/lc-station-bench
 rm -rf "$work"
 mkdir -p "$work"
-cargo build --release -q -p lc-host
-bin=$PWD/target/release/lc-host
+if [ -n "${LC_HOST_BIN:-}" ]; then
+    bin=$LC_HOST_BIN
+else
+    cargo build --release -q -p lc-host
+    bin=$PWD/target/release/lc-host
+fi
 plan=examples/data/demo-plan.toml
 
 "$bin" simulate rig --lot BENCH --units "$units" --seed 11 -o "$work/rig.csv"
@@ -29,11 +42,12 @@ echo "cores: $(nproc); load before: $(cut -d' ' -f1-3 /proc/loadavg)"
 # the CPU time what the run cost.
 one() { # label, db, extra args...
     local label=$1 db=$2; shift 2
-    rm -rf "$work/img"
+    run_no=$((${run_no:-0} + 1))
+    local img="$work/img-$run_no"
     local code=0
     /usr/bin/time -f "%e %U %S" -o "$work/time.txt" \
         "$bin" calibrate "$work/rig.csv" --plan "$plan" --lot BENCH --db "$db" \
-        --images "$work/img" "$@" > /dev/null 2> "$work/err.txt" || code=$?
+        --images "$img" "$@" > /dev/null 2> "$work/err.txt" || code=$?
     if [ "$code" -gt 1 ]; then
         echo "error: calibrate exited $code" >&2
         cat "$work/err.txt" >&2
@@ -64,3 +78,4 @@ if [ -n "${LC_TEST_POSTGRES_URL:-}" ]; then
 else
     echo "postgresql: skipped (set LC_TEST_POSTGRES_URL)"
 fi
+rm -rf "$work"/img-*

@@ -777,14 +777,25 @@ impl Store {
                 return Err(self.invalid(a, format!("{name} must be a JSON array")));
             }
         }
-        let json = |r: serde_json::Result<String>| {
-            r.map_err(|e| self.invalid(a, format!("cannot write JSON: {e}")))
+        // Each text written once into a buffer about its final size (a
+        // unit's rig points run to kilobytes).
+        let json = |v: &dyn erased::Json, capacity: usize| {
+            let mut buf = Vec::with_capacity(capacity);
+            v.write(&mut buf)
+                .map_err(|e| self.invalid(a, format!("cannot write JSON: {e}")))?;
+            String::from_utf8(buf).map_err(|e| self.invalid(a, format!("cannot write JSON: {e}")))
         };
         Ok([
-            json(serde_json::to_string(&a.reasons))?,
-            json(serde_json::to_string(&a.params))?,
-            json(serde_json::to_string(&a.residuals))?,
-            json(serde_json::to_string(&a.rig_points))?,
+            json(&a.reasons, 256)?,
+            json(&a.params, 1024)?,
+            json(
+                &a.residuals,
+                64 * (a.residuals.as_array().map_or(0, Vec::len) + 1),
+            )?,
+            json(
+                &a.rig_points,
+                192 * (a.rig_points.as_array().map_or(0, Vec::len) + 1),
+            )?,
         ])
     }
 
@@ -1481,5 +1492,18 @@ impl RawRecord {
             lot: self.common.lot,
             calibrated_at: self.common.calibrated_at,
         })
+    }
+}
+
+/// JSON writing for the columns' two kinds of value.
+mod erased {
+    /// A value written as JSON text.
+    pub(super) trait Json {
+        fn write(&self, out: &mut Vec<u8>) -> serde_json::Result<()>;
+    }
+    impl<T: serde::Serialize> Json for T {
+        fn write(&self, out: &mut Vec<u8>) -> serde_json::Result<()> {
+            serde_json::to_writer(out, self)
+        }
     }
 }

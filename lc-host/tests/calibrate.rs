@@ -356,6 +356,66 @@ pub fn kill_and_resume(
     landed
 }
 
+/// A lot's records and image files do not depend on how its units are
+/// grouped into transactions (and so on the fitting pipeline): one unit
+/// per transaction, a small odd group and the default give the same
+/// attempts (verdicts, reasons, fits, residuals, rig points) and the same
+/// image bytes.
+#[test]
+fn group_size_changes_no_record_or_image() {
+    let dir = scratch("groups");
+    let rig = simulate(&dir, 600, &["--bad-every", "7"]);
+    let mut outcomes = Vec::new();
+    for (name, extra) in [
+        ("one", &["--group-units", "1"][..]),
+        ("seven", &["--group-units", "7"][..]),
+        ("default", &[][..]),
+    ] {
+        let db = dir.join(format!("{name}.db"));
+        let images = dir.join(format!("{name}-img"));
+        let out = calibrate_cmd(&rig, db.to_str().unwrap(), &images, extra)
+            .output()
+            .unwrap();
+        assert_eq!(
+            out.status.code(),
+            Some(1),
+            "{name}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let lot = check_lot(db.to_str().unwrap(), &images);
+        let store = Store::open(db.to_str().unwrap()).unwrap();
+        let rig_points: Vec<String> = lot
+            .0
+            .keys()
+            .map(|s| {
+                store
+                    .attempt(s, Some(1))
+                    .unwrap()
+                    .unwrap()
+                    .rig_points
+                    .to_string()
+            })
+            .collect();
+        outcomes.push((name, lot, rig_points));
+    }
+    let (_, first, first_rig) = &outcomes[0];
+    assert_eq!(first.0.len(), 600);
+    assert!(
+        first.1.len() > 100 && first.1.len() < 600,
+        "{}",
+        first.1.len()
+    );
+    for (name, lot, rig) in &outcomes[1..] {
+        assert_eq!(
+            lot.0, first.0,
+            "{name}: records differ from one unit per transaction"
+        );
+        assert_eq!(lot.1, first.1, "{name}: image files differ");
+        assert_eq!(rig, first_rig, "{name}: rig points differ");
+    }
+    std::fs::remove_dir_all(&dir).ok();
+}
+
 /// SIGKILL at random moments of a lot on SQLite, each followed by a
 /// re-run: see [`kill_and_resume`]. CI runs `LC_KILLS` kills (default 12);
 /// `scripts/kill-test.sh` runs the full 100 on a 2 000-unit lot.

@@ -5,8 +5,10 @@
 //! Order of effects per group of units: the group's attempts are committed
 //! in one transaction first (the records hold the image bytes), then each
 //! passing unit's image file is written atomically and each failing unit's
-//! image file is removed. A run killed at any moment loses at most the
-//! attempts of the group not yet committed, never part of one, and leaves
+//! image file is removed. The next group is fitted on a fitter thread
+//! meanwhile (a pipeline one group deep). A run killed at any moment loses
+//! at most the attempts not yet committed (the group being committed or
+//! read and the one being fitted), never part of one, and leaves
 //! no image file that disagrees with a committed record except those of the
 //! last committed group; a re-run of the same rig log against the same plan
 //! skips the units already recorded, brings their image files to their
@@ -352,20 +354,18 @@ fn record_of(
     image: Option<Vec<u8>>,
     trace: Option<Trace>,
 ) -> NewAttempt {
-    let params = fit.map_or_else(
-        || serde_json::json!({}),
-        |f| {
-            let mut v = serde_json::to_value(f).unwrap_or_else(|_| serde_json::json!({}));
-            if let Some(o) = v.as_object_mut() {
-                o.remove("residuals");
-            }
-            v
-        },
-    );
-    let residuals = fit.map_or_else(
-        || serde_json::json!([]),
-        |f| serde_json::to_value(&f.residuals).unwrap_or_else(|_| serde_json::json!([])),
-    );
+    // One serialisation of the fit: its residuals move out of the params
+    // object into their own column.
+    let (params, residuals) = match fit.map(serde_json::to_value) {
+        Some(Ok(mut v)) => {
+            let residuals = v
+                .as_object_mut()
+                .and_then(|o| o.remove("residuals"))
+                .unwrap_or_else(|| serde_json::json!([]));
+            (v, residuals)
+        }
+        _ => (serde_json::json!({}), serde_json::json!([])),
+    };
     let mut rig: Vec<serde_json::Value> = unit.rows.iter().map(|r| r.to_json()).collect();
     rig.extend(
         unit.errors
@@ -641,55 +641,82 @@ pub fn run_lot<R: Read>(
     let mut pending_clash: Vec<Option<String>> = Vec::with_capacity(group_units);
     let mut first_pending = Instant::now();
 
-    for unit in reader.by_ref() {
-        if let Some(sel) = run.serials {
-            if !sel.contains(&unit.serial) {
-                report.not_selected += 1;
+    // A pipeline: a fitter thread fits and judges group N+1 (on every
+    // core) while this thread commits group N and files its images. A
+    // group leaves the pipeline in order; a kill loses only groups not yet
+    // committed, never part of one.
+    std::thread::scope(|s| -> Result<(), LotError> {
+        let (job_tx, job_rx) = std::sync::mpsc::sync_channel::<Job>(1);
+        let (done_tx, done_rx) = std::sync::mpsc::channel::<Vec<Judged>>();
+        let (lot, trace) = (run.lot, run.trace);
+        let fitter = s.spawn(move || {
+            for (units, clashes) in job_rx {
+                if done_tx
+                    .send(judge_group(&units, lot, plan, trace, &clashes))
+                    .is_err()
+                {
+                    break;
+                }
+            }
+        });
+        let mut pipe = Pipe {
+            jobs: Some(job_tx),
+            done: done_rx,
+            fitter: Some(fitter),
+            in_flight: std::collections::VecDeque::new(),
+        };
+        for unit in reader.by_ref() {
+            // A judged group waits at most GROUP_WAIT for its commit.
+            if pipe
+                .in_flight
+                .front()
+                .is_some_and(|t| t.elapsed() >= GROUP_WAIT)
+            {
+                pipe.drain(0, run, store, &mut report, &mut on_unit)?;
+            }
+            if let Some(sel) = run.serials {
+                if !sel.contains(&unit.serial) {
+                    report.not_selected += 1;
+                    continue;
+                }
+                seen_selected.insert(unit.serial.clone());
+            }
+            if let Some(&attempt) = already.get(&unit.serial) {
+                // Outcomes in rig-log order: earlier units first.
+                pipe.submit(&mut pending, &mut pending_clash)?;
+                pipe.drain(0, run, store, &mut report, &mut on_unit)?;
+                let out = already_recorded(store, run.images, &unit.serial, attempt)?;
+                on_unit(&out);
+                summarise(&mut report, out);
                 continue;
             }
-            seen_selected.insert(unit.serial.clone());
-        }
-        if let Some(&attempt) = already.get(&unit.serial) {
-            let out = already_recorded(store, run.images, &unit.serial, attempt)?;
-            on_unit(&out);
-            summarise(&mut report, out);
-            continue;
-        }
-        let name = image_file_name(&unit.serial);
-        let clash = match folded.get(&name.to_lowercase()) {
-            Some(other) if *other != unit.serial => Some(other.clone()),
-            Some(_) => None,
-            None => {
-                folded.insert(name.to_lowercase(), unit.serial.clone());
-                None
+            let name = image_file_name(&unit.serial);
+            let clash = match folded.get(&name.to_lowercase()) {
+                Some(other) if *other != unit.serial => Some(other.clone()),
+                Some(_) => None,
+                None => {
+                    folded.insert(name.to_lowercase(), unit.serial.clone());
+                    None
+                }
+            };
+            if pending.is_empty() {
+                first_pending = Instant::now();
             }
-        };
-        if pending.is_empty() {
-            first_pending = Instant::now();
+            pending.push(unit);
+            pending_clash.push(clash);
+            let full = pending.len() >= group_units;
+            if full || first_pending.elapsed() >= GROUP_WAIT {
+                pipe.submit(&mut pending, &mut pending_clash)?;
+                // Full groups: commit the previous one while this one is
+                // fitted; a group cut short by time: commit it now.
+                pipe.drain(usize::from(full), run, store, &mut report, &mut on_unit)?;
+            }
         }
-        pending.push(unit);
-        pending_clash.push(clash);
-        if pending.len() >= group_units || first_pending.elapsed() >= GROUP_WAIT {
-            flush_group(
-                &mut pending,
-                &mut pending_clash,
-                run,
-                plan,
-                store,
-                &mut report,
-                &mut on_unit,
-            )?;
-        }
-    }
-    flush_group(
-        &mut pending,
-        &mut pending_clash,
-        run,
-        plan,
-        store,
-        &mut report,
-        &mut on_unit,
-    )?;
+        pipe.submit(&mut pending, &mut pending_clash)?;
+        pipe.drain(0, run, store, &mut report, &mut on_unit)?;
+        pipe.finish();
+        Ok(())
+    })?;
     if let Some(e) = reader.take_file_error() {
         return Err(e.into());
     }
@@ -715,22 +742,88 @@ pub fn run_lot<R: Read>(
     Ok(report)
 }
 
-/// Judges, records (one transaction) and files a group of units.
-fn flush_group(
-    pending: &mut Vec<UnitLog>,
-    clashes: &mut Vec<Option<String>>,
+/// A group of units and their case clashes, to be fitted and judged.
+type Job = (Vec<UnitLog>, Vec<Option<String>>);
+
+/// The fitting side of [`run_lot`]'s pipeline: groups submitted, in order.
+struct Pipe<'s> {
+    jobs: Option<std::sync::mpsc::SyncSender<Job>>,
+    done: std::sync::mpsc::Receiver<Vec<Judged>>,
+    fitter: Option<std::thread::ScopedJoinHandle<'s, ()>>,
+    /// When each group not yet received was submitted, oldest first.
+    in_flight: std::collections::VecDeque<Instant>,
+}
+
+impl Pipe<'_> {
+    /// Hands the pending units (if any) to the fitter.
+    fn submit(
+        &mut self,
+        pending: &mut Vec<UnitLog>,
+        clashes: &mut Vec<Option<String>>,
+    ) -> Result<(), LotError> {
+        if pending.is_empty() {
+            return Ok(());
+        }
+        let job = (std::mem::take(pending), std::mem::take(clashes));
+        if self.jobs.as_ref().is_some_and(|j| j.send(job).is_ok()) {
+            self.in_flight.push_back(Instant::now());
+        } else {
+            self.fitter_failed();
+        }
+        Ok(())
+    }
+
+    /// Records and files judged groups, oldest first, until at most
+    /// `keep` are left in flight.
+    fn drain(
+        &mut self,
+        keep: usize,
+        run: &LotRun<'_>,
+        store: &mut Store,
+        report: &mut LotReport,
+        on_unit: &mut impl FnMut(&UnitOutcome),
+    ) -> Result<(), LotError> {
+        while self.in_flight.len() > keep {
+            let Ok(judged) = self.done.recv() else {
+                self.fitter_failed();
+                return Ok(());
+            };
+            self.in_flight.pop_front();
+            record_group(judged, run, store, report, on_unit)?;
+        }
+        Ok(())
+    }
+
+    /// Ends the fitter (every group drained).
+    fn finish(mut self) {
+        self.jobs = None;
+        if let Some(h) = self.fitter.take() {
+            if let Err(p) = h.join() {
+                std::panic::resume_unwind(p);
+            }
+        }
+    }
+
+    /// The fitter stopped without being asked to: its panic goes on here.
+    fn fitter_failed(&mut self) {
+        self.jobs = None;
+        if let Some(h) = self.fitter.take() {
+            if let Err(p) = h.join() {
+                std::panic::resume_unwind(p);
+            }
+        }
+        unreachable!("the fitter thread ends only when its jobs channel closes");
+    }
+}
+
+/// Records (one transaction) and files a judged group of units.
+fn record_group(
+    judged: Vec<Judged>,
     run: &LotRun<'_>,
-    plan: &Plan,
     store: &mut Store,
     report: &mut LotReport,
     on_unit: &mut impl FnMut(&UnitOutcome),
 ) -> Result<(), LotError> {
-    if pending.is_empty() {
-        return Ok(());
-    }
-    let judged = judge_group(pending, run.lot, plan, run.trace, clashes);
-    pending.clear();
-    clashes.clear();
     let (attempts, judged): (Vec<NewAttempt>, Vec<Judged>) = judged
         .into_iter()
         .map(|mut j| {
