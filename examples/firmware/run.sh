@@ -26,8 +26,13 @@ cargo="${CARGO:-cargo}"
 timeout_s="${LC_FIRMWARE_TIMEOUT:-60}"
 
 # RUSTFLAGS from the environment would replace the `-Tlink.x` flags of
-# .cargo/config.toml and break the link.
-unset RUSTFLAGS CARGO_ENCODED_RUSTFLAGS CARGO_BUILD_RUSTFLAGS
+# .cargo/config.toml and break the link, so they are set here whole: the
+# same `-Tlink.x`, and the checkout's path mapped to `/lc` so that the
+# panic locations, and with them the binaries' sizes, do not depend on where
+# the repository was cloned (scripts/perf-figures.sh checks the sizes).
+unset RUSTFLAGS CARGO_BUILD_RUSTFLAGS
+CARGO_ENCODED_RUSTFLAGS=$(printf -- '-Clink-arg=-Tlink.x\x1f--remap-path-prefix=%s=/lc' "$root")
+export CARGO_ENCODED_RUSTFLAGS
 
 die() {
     echo "run.sh: $*" >&2
