@@ -1,0 +1,56 @@
+#!/usr/bin/env bash
+# The C example firmwares for the Cortex-M0 of QEMU's microbit machine,
+# with Debian's ARM cross toolchain (apt-get install gcc-arm-none-eabi):
+# one proximity, level and metal unit each, linking lc-core's C API.
+#
+#   build.sh [LIB [OUT]]   build OUT/{proximity,level,metal}.elf
+#                          (LIB: liblc_core_capi.a for thumbv6m-none-eabi;
+#                          default: built here with cargo; OUT default:
+#                          <repo>/target/c-firmware)
+#   build.sh run BIN       build and run BIN in QEMU: one line per reading,
+#                          then its peak stack
+#
+# tests/c_firmware.rs builds them with this script, runs them and
+# compares their readings with the Rust firmwares' and the host's.
+set -euo pipefail
+
+here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
+root="$(cd "$here/../.." && pwd)"
+cc=${ARM_CC:-arm-none-eabi-gcc}
+
+build_lib() {
+    # What a product ships: opt-level "s", LTO, one codegen unit.
+    (cd "$root" && CARGO_TARGET_DIR="$root/target/capi" \
+        CARGO_PROFILE_RELEASE_OPT_LEVEL=s CARGO_PROFILE_RELEASE_LTO=true \
+        CARGO_PROFILE_RELEASE_CODEGEN_UNITS=1 \
+        cargo build -q --release -p lc-core-capi --lib --target thumbv6m-none-eabi)
+    echo "$root/target/capi/thumbv6m-none-eabi/release/liblc_core_capi.a"
+}
+
+if [[ "${1:-}" == run ]]; then
+    [[ $# -eq 2 ]] || { echo "usage: build.sh run proximity|level|metal" >&2; exit 2; }
+    "$0"
+    exec timeout 60 qemu-system-arm -machine microbit -cpu cortex-m0 \
+        -global nrf51-soc.sram-size=65536 \
+        -display none -monitor none -serial null \
+        -semihosting-config enable=on,target=native \
+        -kernel "$root/target/c-firmware/$2.elf" </dev/null
+fi
+
+lib="${1:-$(build_lib)}"
+out="${2:-$root/target/c-firmware}"
+mkdir -p "$out"
+command -v "$cc" >/dev/null 2>&1 ||
+    { echo "build.sh: $cc not found; install it with: apt-get install gcc-arm-none-eabi" >&2; exit 1; }
+
+cflags=(-mcpu=cortex-m0 -mthumb -std=gnu11 -Os -g -ffreestanding -ffunction-sections
+    -fdata-sections -Wall -Wextra -Werror -I "$root/lc-core/capi/include" -I "$here/src")
+for unit in proximity level metal; do
+    upper=$(tr '[:lower:]' '[:upper:]' <<<"$unit")
+    "$cc" "${cflags[@]}" -DUNIT_"$upper" \
+        -DLC_IMAGE_FILE="\"$root/examples/unit-firmware/data/$unit.lcim\"" \
+        "$here/src/main.c" "$here/src/board.c" "$here/src/report.c" "$here/src/script.c" \
+        "$here/src/image.S" \
+        -nostdlib -nostartfiles -T "$here/link.ld" -Wl,--gc-sections \
+        "$lib" -lgcc -o "$out/$unit.elf"
+done

@@ -1,0 +1,122 @@
+/* Start-up, vector table and semihosting for the Cortex-M0 of QEMU's
+   microbit machine, without a C library. */
+#include <stdint.h>
+
+#include "board.h"
+#include "report.h"
+
+extern uint32_t _stack_start, _stack_end, _sidata, _sdata, _edata, _sbss, _ebss;
+int main(void);
+
+/* ARM semihosting: operation in r0, argument block in r1, `bkpt 0xAB`. */
+static int32_t semihost(int32_t op, const void *arg) {
+  register int32_t r0 __asm__("r0") = op;
+  register const void *r1 __asm__("r1") = arg;
+  __asm__ volatile("bkpt 0xAB" : "+r"(r0) : "r"(r1) : "memory");
+  return r0;
+}
+
+#define SYS_OPEN 0x01
+#define SYS_WRITE 0x05
+#define SYS_EXIT 0x18
+#define ADP_STOPPED_APPLICATION_EXIT 0x20026
+#define ADP_STOPPED_RUN_TIME_ERROR 0x20023
+
+static int32_t out_handle = -1;
+static int out_ok;
+
+void host_open(void) {
+  /* ":tt" opened for writing (mode 4) is the host's standard output. */
+  const uint32_t args[3] = {(uint32_t)(uintptr_t) ":tt", 4u, 3u};
+  out_handle = semihost(SYS_OPEN, args);
+  out_ok = out_handle >= 0;
+}
+
+void host_write(const char *bytes, size_t len) {
+  if (out_handle < 0) {
+    out_ok = 0;
+    return;
+  }
+  const uint32_t args[3] = {(uint32_t)out_handle, (uint32_t)(uintptr_t)bytes, (uint32_t)len};
+  /* Returns the number of bytes not written. */
+  if (semihost(SYS_WRITE, args) != 0) {
+    out_ok = 0;
+  }
+}
+
+static void __attribute__((noreturn)) exit_with(int success) {
+  semihost(SYS_EXIT,
+           (const void *)(uintptr_t)(success ? ADP_STOPPED_APPLICATION_EXIT
+                                             : ADP_STOPPED_RUN_TIME_ERROR));
+  for (;;) {
+    __asm__ volatile("wfi");
+  }
+}
+
+void host_fail(const char *why) {
+  size_t n = 0;
+  while (why[n] != '\0') {
+    n++;
+  }
+  host_write(why, n);
+  exit_with(0);
+}
+
+uint32_t stack_peak_bytes(void) {
+  const volatile uint32_t *at = &_stack_end;
+  const uint32_t *top = &_stack_start;
+  while (at < top && *at == 0xCCCCCCCCu) {
+    at++;
+  }
+  return (uint32_t)((uintptr_t)top - (uintptr_t)at);
+}
+
+void host_finish(void) {
+  line_t line;
+  line_clear(&line);
+  line_text(&line, "stack ");
+  line_uint(&line, stack_peak_bytes());
+  line_text(&line, "\n");
+  host_write(line.buf, line.len);
+  exit_with(out_ok);
+}
+
+/* After the paint: initialised data, zeroed data, main. */
+void __attribute__((noreturn, used)) start(void) {
+  uint32_t *src = &_sidata;
+  for (uint32_t *dst = &_sdata; dst < &_edata;) {
+    *dst++ = *src++;
+  }
+  for (uint32_t *dst = &_sbss; dst < &_ebss;) {
+    *dst++ = 0u;
+  }
+  main();
+  exit_with(0);
+}
+
+/* Reset: paints the whole stack with 0xCCCCCCCC (before anything is
+   pushed, so the peak covers start-up), then start(). */
+void __attribute__((naked, noreturn)) Reset_Handler(void) {
+  __asm__ volatile("ldr r0, =_stack_end\n"
+                   "ldr r1, =_stack_start\n"
+                   "ldr r2, =0xCCCCCCCC\n"
+                   "1:\n"
+                   "cmp r0, r1\n"
+                   "bhs 2f\n"
+                   "str r2, [r0]\n"
+                   "adds r0, #4\n"
+                   "b 1b\n"
+                   "2:\n"
+                   "bl start\n"
+                   ".ltorg\n");
+}
+
+/* Any fault or unexpected interrupt ends the program with a failure. */
+void Default_Handler(void) { exit_with(0); }
+
+/* Initial stack pointer, reset, 14 system exceptions and the M0's 32
+   interrupts (the size of cortex-m-rt's table without a device crate). */
+__attribute__((section(".vector_table"), used)) static const uintptr_t vector_table[48] = {
+    (uintptr_t)&_stack_start, (uintptr_t)Reset_Handler,
+    [2 ... 47] = (uintptr_t)Default_Handler,
+};

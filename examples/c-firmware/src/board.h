@@ -1,0 +1,24 @@
+/* What the example firmwares need from the board: output to the host
+   over semihosting (the emulator's, or a debug probe's), the exit, and
+   the peak-stack report. In a product, replace host_write with a UART or
+   RTT logger. */
+#ifndef LC_EXAMPLE_BOARD_H
+#define LC_EXAMPLE_BOARD_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+/* Opens the host's standard output; writes are dropped without a host. */
+void host_open(void);
+/* Writes `len` bytes; a failed write is remembered for host_finish. */
+void host_write(const char *bytes, size_t len);
+/* Writes `why` and ends the program with a failure status. */
+void host_fail(const char *why) __attribute__((noreturn));
+/* Writes `stack <bytes>` (the peak stack) and ends the program: success
+   when every write succeeded. */
+void host_finish(void) __attribute__((noreturn));
+/* The deepest the stack has been since reset, bytes, start-up included:
+   the reset handler paints the stack with 0xCCCCCCCC before main. */
+uint32_t stack_peak_bytes(void);
+
+#endif

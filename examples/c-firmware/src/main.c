@@ -1,0 +1,97 @@
+/* A whole unit firmware in C over lc-core's C API: the calibration image
+   in flash, validated once, a reader built from it, then one reading per
+   input. Built three times (build.sh), one product each:
+   -DUNIT_PROXIMITY, -DUNIT_LEVEL or -DUNIT_METAL.
+
+   Copy this file to start a product. The steps:
+
+   1. The image. `lc-host calibrate` writes one image per unit; the
+      end-of-line rig writes it into the unit's flash. Here it sits in a
+      section of its own, .calibration, at the start of the last 4 KiB
+      page (link.ld, src/image.S), 4-byte aligned.
+   2. Validate. lc_image_validate checks the magic, format version,
+      length, CRC-32, every field and every curve segment, in place: the
+      image stays in flash. A unit whose image fails must not read.
+   3. Build the reader in storage of its own (here main's frame; a static
+      works as well): lc_*_reader_init checks the image's kind and
+      borrows the curve from flash. The lc_image_t is needed only until
+      then.
+   4. Read. Per gate, the timer capture gives a count pair and the NTC a
+      temperature; lc_*_read turns them into a reading with a status. A
+      sensor fault is a status, never an error code. Here the inputs come
+      from a script (script.c) and the readings go to the host over
+      semihosting, in the Rust unit firmwares' line format.
+
+   Not a safety-rated component: a reading that protects people or
+   machines needs a safety function designed to the applicable standards. */
+#include <stddef.h>
+#include <stdint.h>
+
+#include "board.h"
+#include "lc_core.h"
+#include "report.h"
+#include "script.h"
+
+/* The image's bounds (src/image.S). */
+extern const uint8_t lc_unit_image[], lc_unit_image_end[];
+
+int main(void) {
+  host_open();
+  host_write("boot\n", 5);
+  if (LC_CHECK_LAYOUT() != LC_OK) {
+    host_fail("lc_core.h does not match the library\n");
+  }
+
+  lc_image_t image;
+  if (lc_image_validate(&image, lc_unit_image, (size_t)(lc_unit_image_end - lc_unit_image)) !=
+      LC_OK) {
+    host_fail("calibration image refused\n");
+  }
+  line_t line;
+
+#if defined(UNIT_PROXIMITY)
+  lc_proximity_reader_t reader;
+  if (lc_proximity_reader_init(&reader, &image) != LC_OK) {
+    host_fail("not a proximity image\n");
+  }
+  for (size_t i = 0; i < script_proximity_len; i++) {
+    lc_proximity_reading_t r;
+    if (lc_proximity_read(&reader, &script_proximity[i], &r) != LC_OK) {
+      host_fail("bad input\n");
+    }
+    line_reading(&line, (uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
+    host_write(line.buf, line.len);
+  }
+#elif defined(UNIT_LEVEL)
+  lc_level_reader_t reader;
+  if (lc_level_reader_init(&reader, &image) != LC_OK) {
+    host_fail("not a level image\n");
+  }
+  for (size_t i = 0; i < script_level_len; i++) {
+    lc_level_reading_t r;
+    if (lc_level_read(&reader, &script_level[i], &r) != LC_OK) {
+      host_fail("bad input\n");
+    }
+    line_reading(&line, (uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status,
+                 r.fault);
+    host_write(line.buf, line.len);
+  }
+#elif defined(UNIT_METAL)
+  lc_metal_reader_t reader;
+  if (lc_metal_reader_init(&reader, &image) != LC_OK) {
+    host_fail("not a metal image\n");
+  }
+  for (size_t i = 0; i < script_metal_len; i++) {
+    lc_metal_reading_t r;
+    if (lc_metal_read(&reader, &script_metal[i], &r) != LC_OK) {
+      host_fail("bad input\n");
+    }
+    line_reading(&line, (uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop,
+                 r.delta_q40, r.status, r.fault);
+    host_write(line.buf, line.len);
+  }
+#else
+#error "build with -DUNIT_PROXIMITY, -DUNIT_LEVEL or -DUNIT_METAL"
+#endif
+  host_finish();
+}
