@@ -23,7 +23,7 @@ build_lib() {
     (cd "$root" && CARGO_TARGET_DIR="$root/target/capi" \
         CARGO_PROFILE_RELEASE_OPT_LEVEL=s CARGO_PROFILE_RELEASE_LTO=true \
         CARGO_PROFILE_RELEASE_CODEGEN_UNITS=1 \
-        cargo build -q --release -p lc-core-capi --lib --target thumbv6m-none-eabi)
+        cargo build -q --release -p lc-core-capi --lib --features crc-nibble --target thumbv6m-none-eabi)
     echo "$root/target/capi/thumbv6m-none-eabi/release/liblc_core_capi.a"
 }
 

@@ -97,7 +97,8 @@ void __attribute__((noreturn, used)) start(void) {
 /* Reset: paints the whole stack with 0xCCCCCCCC (before anything is
    pushed, so the peak covers start-up), then start(). */
 void __attribute__((naked, noreturn)) Reset_Handler(void) {
-  __asm__ volatile("ldr r0, =_stack_end\n"
+  __asm__ volatile(".syntax unified\n"
+                   "ldr r0, =_stack_end\n"
                    "ldr r1, =_stack_start\n"
                    "ldr r2, =0xCCCCCCCC\n"
                    "1:\n"

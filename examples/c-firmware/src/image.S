@@ -9,3 +9,5 @@ lc_unit_image:
   .incbin LC_IMAGE_FILE
   .global lc_unit_image_end
 lc_unit_image_end:
+
+  .section .note.GNU-stack, "", %progbits

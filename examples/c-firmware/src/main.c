@@ -35,6 +35,8 @@
 /* The image's bounds (src/image.S). */
 extern const uint8_t lc_unit_image[], lc_unit_image_end[];
 
+static size_t image_len(void) { return (size_t)(lc_unit_image_end - lc_unit_image); }
+
 int main(void) {
   host_open();
   host_write("boot\n", 5);
@@ -42,17 +44,20 @@ int main(void) {
     host_fail("lc_core.h does not match the library\n");
   }
 
-  lc_image_t image;
-  if (lc_image_validate(&image, lc_unit_image, (size_t)(lc_unit_image_end - lc_unit_image)) !=
-      LC_OK) {
-    host_fail("calibration image refused\n");
-  }
   line_t line;
 
 #if defined(UNIT_PROXIMITY)
   lc_proximity_reader_t reader;
-  if (lc_proximity_reader_init(&reader, &image) != LC_OK) {
-    host_fail("not a proximity image\n");
+  {
+    /* The validated image is needed only to build the reader: in a block
+       of its own, its stack is reused by the read loop. */
+    lc_image_t image;
+    if (lc_image_validate(&image, lc_unit_image, image_len()) != LC_OK) {
+      host_fail("calibration image refused\n");
+    }
+    if (lc_proximity_reader_init(&reader, &image) != LC_OK) {
+      host_fail("not a proximity image\n");
+    }
   }
   for (size_t i = 0; i < script_proximity_len; i++) {
     lc_proximity_reading_t r;
@@ -64,8 +69,16 @@ int main(void) {
   }
 #elif defined(UNIT_LEVEL)
   lc_level_reader_t reader;
-  if (lc_level_reader_init(&reader, &image) != LC_OK) {
-    host_fail("not a level image\n");
+  {
+    /* The validated image is needed only to build the reader: in a block
+       of its own, its stack is reused by the read loop. */
+    lc_image_t image;
+    if (lc_image_validate(&image, lc_unit_image, image_len()) != LC_OK) {
+      host_fail("calibration image refused\n");
+    }
+    if (lc_level_reader_init(&reader, &image) != LC_OK) {
+      host_fail("not a level image\n");
+    }
   }
   for (size_t i = 0; i < script_level_len; i++) {
     lc_level_reading_t r;
@@ -78,8 +91,16 @@ int main(void) {
   }
 #elif defined(UNIT_METAL)
   lc_metal_reader_t reader;
-  if (lc_metal_reader_init(&reader, &image) != LC_OK) {
-    host_fail("not a metal image\n");
+  {
+    /* The validated image is needed only to build the reader: in a block
+       of its own, its stack is reused by the read loop. */
+    lc_image_t image;
+    if (lc_image_validate(&image, lc_unit_image, image_len()) != LC_OK) {
+      host_fail("calibration image refused\n");
+    }
+    if (lc_metal_reader_init(&reader, &image) != LC_OK) {
+      host_fail("not a metal image\n");
+    }
   }
   for (size_t i = 0; i < script_metal_len; i++) {
     lc_metal_reading_t r;

@@ -33,7 +33,7 @@
 #[cfg(all(not(test), not(target_os = "none")))]
 extern crate std;
 
-use core::mem::{align_of, size_of};
+use core::mem::{align_of, size_of, MaybeUninit};
 use core::ptr;
 
 use lc_core::counting::{CountPair, FaultError, WindowError};
@@ -693,7 +693,8 @@ pub struct lc_image_info_t {
 // Storage.
 
 /// A value in caller-provided storage: a tag word that says the storage
-/// holds an initialised `T`, then the value.
+/// holds an initialised value, then the value (as the `Result` that built
+/// it, so that it is built in place).
 #[repr(C)]
 struct Slot<T> {
     tag: u32,
@@ -716,15 +717,16 @@ const TAG_METAL: u32 = 0x544D_434C; // "LCMT"
 const TAG_READER: u32 = 0x4452_434C; // "LCRD"
 
 /// cbindgen:ignore
-pub const LC_IMAGE_WORDS: usize = words::<Image<'static>>();
+pub const LC_IMAGE_WORDS: usize = words::<Result<Image<'static>, ImageError>>();
 /// cbindgen:ignore
-pub const LC_PROXIMITY_READER_WORDS: usize = words::<ProximityReader<'static>>();
+pub const LC_PROXIMITY_READER_WORDS: usize =
+    words::<Result<ProximityReader<'static>, ReaderError>>();
 /// cbindgen:ignore
-pub const LC_LEVEL_READER_WORDS: usize = words::<LevelReader<'static>>();
+pub const LC_LEVEL_READER_WORDS: usize = words::<Result<LevelReader<'static>, ReaderError>>();
 /// cbindgen:ignore
-pub const LC_METAL_READER_WORDS: usize = words::<MetalReader>();
+pub const LC_METAL_READER_WORDS: usize = words::<Result<MetalReader, ReaderError>>();
 /// cbindgen:ignore
-pub const LC_READER_WORDS: usize = words::<Reader<'static>>();
+pub const LC_READER_WORDS: usize = words::<Result<Reader<'static>, ReaderError>>();
 
 /// A validated calibration image (`lc_image_validate`): its derived
 /// constants and where its bytes are. Needed only while the readers are
@@ -779,11 +781,14 @@ const _: () = {
             assert!(align_of::<Slot<$t>>() <= LC_STORAGE_ALIGN);
         };
     }
-    holds!(lc_image_t, Image<'static>);
-    holds!(lc_proximity_reader_t, ProximityReader<'static>);
-    holds!(lc_level_reader_t, LevelReader<'static>);
-    holds!(lc_metal_reader_t, MetalReader);
-    holds!(lc_reader_t, Reader<'static>);
+    holds!(lc_image_t, Result<Image<'static>, ImageError>);
+    holds!(
+        lc_proximity_reader_t,
+        Result<ProximityReader<'static>, ReaderError>
+    );
+    holds!(lc_level_reader_t, Result<LevelReader<'static>, ReaderError>);
+    holds!(lc_metal_reader_t, Result<MetalReader, ReaderError>);
+    holds!(lc_reader_t, Result<Reader<'static>, ReaderError>);
 };
 
 /// The storage sizes and alignment of this build, bytes: what the
@@ -833,16 +838,49 @@ fn arg<T>(p: *const T) -> Result<(), lc_error_t> {
     }
 }
 
-/// Writes `value` into the storage at `p` (checked by [`arg`]) under
-/// `tag`.
+/// Builds a value in place in the storage at `p` (checked by [`arg`]):
+/// `make`'s `Result` is written straight into the storage (no copy of
+/// the value on the stack, which matters on a small part's stack), and
+/// the tag set to `tag` when it is `Ok`, to 0 when it is an error.
 ///
 /// # Safety
-/// `p` is valid for writes of `S`, which holds a `Slot<T>` (the `const`
-/// checks above).
-unsafe fn store<S, T>(p: *mut S, tag: u32, value: T) {
-    // SAFETY: the caller's contract; `S` is at least as large and as
-    // aligned as `Slot<T>`.
-    unsafe { ptr::write(p.cast::<Slot<T>>(), Slot { tag, value }) }
+/// `p` is valid for writes of `S`, which holds a `Slot<Result<T, E>>`
+/// (the `const` checks above).
+unsafe fn emplace<S, T, E: Copy>(
+    p: *mut S,
+    tag: u32,
+    make: impl FnOnce() -> Result<T, E>,
+) -> Result<(), E> {
+    let slot = p.cast::<Slot<Result<T, E>>>();
+    // SAFETY: the caller's contract: the slot's fields are in bounds and
+    // aligned; the value's bytes are written before they are read.
+    unsafe {
+        let value = &mut *ptr::addr_of_mut!((*slot).value).cast::<MaybeUninit<Result<T, E>>>();
+        let tag_at = ptr::addr_of_mut!((*slot).tag);
+        match fill(value, make) {
+            Ok(_) => {
+                tag_at.write(tag);
+                Ok(())
+            }
+            Err(e) => {
+                tag_at.write(0);
+                Err(*e)
+            }
+        }
+    }
+}
+
+/// `make`'s result written into `dst`. A function of its own, whose
+/// `dst` is a unique reference: the optimiser then has `make` build its
+/// result in `dst` itself, not in a temporary on the stack.
+#[inline(always)]
+fn fill<T, E>(
+    dst: &mut MaybeUninit<Result<T, E>>,
+    make: impl FnOnce() -> Result<T, E>,
+) -> &mut Result<T, E> {
+    *dst = MaybeUninit::new(make());
+    // SAFETY: written just above.
+    unsafe { dst.assume_init_mut() }
 }
 
 /// Marks the storage at `p` as not initialised.
@@ -859,17 +897,20 @@ unsafe fn clear<S>(p: *mut S) {
 /// # Safety
 /// `p` (checked by [`arg`]) is valid for reads and writes of `S` and not
 /// used elsewhere during the borrow; storage whose tag is `tag` was
-/// written by [`store`] with a `T`.
-unsafe fn load<'a, S, T>(p: *mut S, tag: u32) -> Result<&'a mut T, lc_error_t> {
-    let slot = p.cast::<Slot<T>>();
+/// written by [`emplace`] with a `Result<T, E>`.
+unsafe fn load<'a, S, T, E>(p: *mut S, tag: u32) -> Result<&'a mut T, lc_error_t> {
+    let slot = p.cast::<Slot<Result<T, E>>>();
     // SAFETY: the tag word is plain bytes, readable whatever the storage
-    // holds; with the right tag the slot holds a `T` (the caller's
+    // holds; with the right tag the slot holds an `Ok` (the caller's
     // contract).
     unsafe {
         if ptr::read(ptr::addr_of!((*slot).tag)) != tag {
             return Err(LC_ERR_NOT_INITIALISED);
         }
-        Ok(&mut *ptr::addr_of_mut!((*slot).value))
+        match &mut *ptr::addr_of_mut!((*slot).value) {
+            Ok(v) => Ok(v),
+            Err(_) => Err(LC_ERR_NOT_INITIALISED),
+        }
     }
 }
 
@@ -927,10 +968,8 @@ pub unsafe extern "C" fn lc_image_validate(
         // unchanged while the image is in use (the `'static` stands for
         // that promise).
         let bytes: &'static [u8] = unsafe { core::slice::from_raw_parts(bytes, len) };
-        let validated = Image::new(bytes).map_err(image_error)?;
-        // SAFETY: `image` checked; `lc_image_t` holds a `Slot<Image>`.
-        unsafe { store(image, TAG_IMAGE, validated) };
-        Ok(())
+        // SAFETY: `image` checked; `lc_image_t` holds the slot.
+        unsafe { emplace(image, TAG_IMAGE, || Image::new(bytes)) }.map_err(image_error)
     })
 }
 
@@ -941,7 +980,7 @@ pub unsafe extern "C" fn lc_image_validate(
 unsafe fn image_ref<'a>(image: *const lc_image_t) -> Result<&'a Image<'static>, lc_error_t> {
     arg(image)?;
     // SAFETY: `image` checked; only read through the shared reference.
-    unsafe { load::<_, Image<'static>>(image.cast_mut(), TAG_IMAGE).map(|i| &*i) }
+    unsafe { load::<_, Image<'static>, ImageError>(image.cast_mut(), TAG_IMAGE).map(|i| &*i) }
 }
 
 /// What a validated image holds: kind, serial, output scales, length,
@@ -1006,10 +1045,9 @@ pub unsafe extern "C" fn lc_proximity_reader_init(
         unsafe { clear(reader) };
         // SAFETY: the caller's contract.
         let image = unsafe { image_ref(image)? };
-        let r = ProximityReader::new(image).map_err(reader_error)?;
-        // SAFETY: `reader` checked; the storage holds a `Slot<ProximityReader>`.
-        unsafe { store(reader, TAG_PROXIMITY, r) };
-        Ok(())
+        // SAFETY: `reader` checked; the storage holds the slot.
+        unsafe { emplace(reader, TAG_PROXIMITY, || ProximityReader::new(image)) }
+            .map_err(reader_error)
     })
 }
 
@@ -1033,7 +1071,7 @@ pub unsafe extern "C" fn lc_proximity_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, ProximityReader<'static>>(reader, TAG_PROXIMITY)? };
+        let r = unsafe { load::<_, ProximityReader<'static>, ReaderError>(reader, TAG_PROXIMITY)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
@@ -1058,10 +1096,8 @@ pub unsafe extern "C" fn lc_level_reader_init(
         unsafe { clear(reader) };
         // SAFETY: the caller's contract.
         let image = unsafe { image_ref(image)? };
-        let r = LevelReader::new(image).map_err(reader_error)?;
-        // SAFETY: `reader` checked; the storage holds a `Slot<LevelReader>`.
-        unsafe { store(reader, TAG_LEVEL, r) };
-        Ok(())
+        // SAFETY: `reader` checked; the storage holds the slot.
+        unsafe { emplace(reader, TAG_LEVEL, || LevelReader::new(image)) }.map_err(reader_error)
     })
 }
 
@@ -1082,7 +1118,7 @@ pub unsafe extern "C" fn lc_level_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, LevelReader<'static>>(reader, TAG_LEVEL)? };
+        let r = unsafe { load::<_, LevelReader<'static>, ReaderError>(reader, TAG_LEVEL)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
@@ -1109,10 +1145,8 @@ pub unsafe extern "C" fn lc_metal_reader_init(
         unsafe { clear(reader) };
         // SAFETY: the caller's contract.
         let image = unsafe { image_ref(image)? };
-        let r = MetalReader::new(image).map_err(reader_error)?;
-        // SAFETY: `reader` checked; the storage holds a `Slot<MetalReader>`.
-        unsafe { store(reader, TAG_METAL, r) };
-        Ok(())
+        // SAFETY: `reader` checked; the storage holds the slot.
+        unsafe { emplace(reader, TAG_METAL, || MetalReader::new(image)) }.map_err(reader_error)
     })
 }
 
@@ -1133,7 +1167,7 @@ pub unsafe extern "C" fn lc_metal_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, MetalReader>(reader, TAG_METAL)? };
+        let r = unsafe { load::<_, MetalReader, ReaderError>(reader, TAG_METAL)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
@@ -1161,10 +1195,8 @@ pub unsafe extern "C" fn lc_reader_init(
         unsafe { clear(reader) };
         // SAFETY: the caller's contract.
         let image = unsafe { image_ref(image)? };
-        let r = Reader::new(image).map_err(reader_error)?;
-        // SAFETY: `reader` checked; the storage holds a `Slot<Reader>`.
-        unsafe { store(reader, TAG_READER, r) };
-        Ok(())
+        // SAFETY: `reader` checked; the storage holds the slot.
+        unsafe { emplace(reader, TAG_READER, || Reader::new(image)) }.map_err(reader_error)
     })
 }
 
@@ -1184,7 +1216,7 @@ pub unsafe extern "C" fn lc_reader_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, Reader<'static>>(reader, TAG_READER)? };
+        let r = unsafe { load::<_, Reader<'static>, ReaderError>(reader, TAG_READER)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.

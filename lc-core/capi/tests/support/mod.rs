@@ -64,7 +64,8 @@ pub fn have_target(triple: &str) -> bool {
 
 /// Builds `liblc_core_capi.a` for `triple` (the host when `None`) with
 /// what a product ships: opt-level "s", whole-program LTO, one codegen
-/// unit (the unit firmwares' profile). Returns the library's path.
+/// unit, the 64-byte CRC table (the unit firmwares' profile and lc-core
+/// features). Returns the library's path.
 pub fn build_lib(triple: Option<&str>) -> PathBuf {
     static LOCK: Mutex<()> = Mutex::new(());
     let _guard = LOCK.lock().unwrap_or_else(|e| e.into_inner());
@@ -86,6 +87,9 @@ pub fn build_lib(triple: Option<&str>) -> PathBuf {
             "-p",
             "lc-core-capi",
             "--lib",
+            // The unit firmwares' CRC table: 960 bytes less flash.
+            "--features",
+            "crc-nibble",
         ])
         .arg("--manifest-path")
         .arg(root.join("Cargo.toml"));
