@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The project's whole test suite: formatting, lints, docs, tests (host,
 # property, published checks, emulator), cross builds for Cortex-M0 and
-# Cortex-M4F with and without defmt, the panic-freedom proof, and that the
+# Cortex-M4F with and without defmt, the panic-freedom proof, the C API
+# (static libraries, proof, current header, sanitizers), and that the
 # measured figures of docs/performance.md are current.
 #
 #   bash scripts/check.sh
@@ -65,6 +66,20 @@ if [ "$have_targets" = yes ]; then
         cargo clippy --manifest-path examples/firmware/Cargo.toml --target "$t" --quiet -- -D warnings
     done
     cargo clippy --manifest-path examples/unit-firmware/Cargo.toml --target thumbv6m-none-eabi --quiet -- -D warnings
+    # The C API (lc-core/capi, docs/c-api.md): its static library for both
+    # cores and the host, and the panic-never proof of its entry points
+    # (a link fails if a panic path is reachable), without and with
+    # overflow checks.
+    for t in "${targets[@]}"; do
+        step "C API static library and panic-never proof for $t"
+        cargo clippy -p lc-core-capi --lib --target "$t" -- -D warnings
+        cargo build -p lc-core-capi --release --target "$t" --quiet
+        for p in release release-checked; do
+            (cd lc-core/capi/proof && env -u RUSTFLAGS CARGO_TARGET_DIR="$PWD/../../../target/capi-proof" \
+                cargo build --quiet --profile "$p" --target "$t")
+        done
+    done
+    cargo build -p lc-core-capi --release --quiet
 else
     missing "Cortex-M rust targets" "rustup target add ${targets[*]}"
 fi
@@ -98,6 +113,11 @@ if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then
     # budget assertion itself is tests/firmware_budget.rs::within_budget.
     cargo test --quiet --test firmware_budget footprint -- --nocapture
 fi
+step "C API header is current (lc-core/capi/include/lc_core.h)"
+# Also run by the test suite above (with the host C test under the
+# sanitizers and the C firmwares, tests/c_firmware.rs); named here because
+# a stale header must fail CI by name.
+cargo test --quiet -p lc-core-capi --test header
 totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
 
 if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then

@@ -29,6 +29,10 @@
 // The C names are the API.
 #![allow(non_camel_case_types)]
 
+// The proof's panic handler (lc-core/capi/proof).
+#[cfg(all(target_os = "none", feature = "panic-never"))]
+use panic_never as _;
+
 // The host library links std (its panic machinery; nothing else is used).
 #[cfg(all(not(test), not(target_os = "none")))]
 extern crate std;
@@ -1266,7 +1270,11 @@ pub unsafe extern "C" fn lc_check_layout(
 /// The library's panic handler on bare-metal targets: never reached (no
 /// entry point has a reachable panic path: lc-core/capi/proof), it stops
 /// in an endless loop.
-#[cfg(all(target_os = "none", feature = "panic-handler"))]
+#[cfg(all(
+    target_os = "none",
+    feature = "panic-handler",
+    not(feature = "panic-never")
+))]
 #[panic_handler]
 fn panic(_: &core::panic::PanicInfo) -> ! {
     loop {
