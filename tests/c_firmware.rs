@@ -439,7 +439,7 @@ fn c_firmware_matches_rust_and_host() {
         c.flash,
         rust.flash
     );
-    // RAM: issue 16 asks for 10 %; the C path measures 21 % more (1 524 B
+    // RAM: issue 16 asks for 10 %; the C path measures 20 % more (1 516 B
     // against 1 260 B with issue 13's API): each wrapper builds the
     // `Result` of `Image::new` (248 B) or of the reader's `new` on its own
     // stack before it moves it into the caller's storage, and the reader's

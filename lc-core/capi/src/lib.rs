@@ -8,7 +8,7 @@
 //! entry points with `panic-never`).
 //!
 //! The header, `include/lc_core.h`, is generated from this file by
-//! cbindgen (`tests/header.rs`; `LC_WRITE_HEADER=1` rewrites it) and
+//! cbindgen (`lc-core/capi/tests/header.rs`; `LC_WRITE_HEADER=1` rewrites it) and
 //! checked into the repository; docs/c-api.md is the C user's guide.
 //!
 //! Storage: every type the caller keeps (`lc_image_t`, the readers) is an

@@ -1,4 +1,4 @@
-//! The host C test (`tests/c/host_test.c`), compiled with the system C
+//! The host C test (`lc-core/capi/tests/c/host_test.c`), compiled with the system C
 //! compiler (`cc`, or `$CC`) against the host static library, under
 //! AddressSanitizer and UndefinedBehaviorSanitizer: every entry point
 //! with good and bad images, arguments and inputs. Its readings of the
@@ -115,7 +115,7 @@ fn host_c_test_under_sanitizers() {
         .arg(here.join("include"))
         .arg("-I")
         .arg(&example)
-        .arg(here.join("tests/c/host_test.c"))
+        .arg(here.join("tests").join("c").join("host_test.c"))
         .arg(example.join("report.c"))
         .arg(example.join("script.c"))
         .arg(&lib)
@@ -126,7 +126,10 @@ fn host_c_test_under_sanitizers() {
         .arg(&out)
         .status()
         .expect("run the C compiler");
-    assert!(status.success(), "compiling tests/c/host_test.c failed");
+    assert!(
+        status.success(),
+        "compiling lc-core/capi/tests/c/host_test.c failed"
+    );
     let imgs = images();
     let run = Command::new(&out)
         .args(imgs.iter().map(|(_, p)| p))

@@ -1,5 +1,5 @@
-//! Building the static library for the tests (`tests/header.rs`,
-//! `tests/host_c.rs`, and the root package's `tests/c_firmware.rs`, which
+//! Building the static library for the tests (`lc-core/capi/tests/header.rs`,
+//! `lc-core/capi/tests/host_c.rs`, and the root package's `tests/c_firmware.rs`, which
 //! includes this file), and reading its storage layout.
 #![allow(dead_code)]
 
