@@ -13,14 +13,20 @@
       length, CRC-32, every field and every curve segment, in place: the
       image stays in flash. A unit whose image fails must not read.
    3. Build the reader in storage of its own (here main's frame; a static
-      works as well): lc_*_reader_init checks the image's kind and
-      borrows the curve from flash. The lc_image_t is needed only until
-      then.
+      works as well): lc_*_reader_init validates the image again, checks
+      its kind and borrows the curve from flash. The lc_image_t (where the
+      image is) is needed only until then. Start-up and the read loop are
+      functions of their own, so that their locals are never on the
+      stack together.
    4. Read. Per gate, the timer capture gives a count pair and the NTC a
       temperature; lc_*_read turns them into a reading with a status. A
       sensor fault is a status, never an error code. Here the inputs come
       from a script (script.c) and the readings go to the host over
       semihosting, in the Rust unit firmwares' line format.
+
+   LC_CHECK_LAYOUT() (lc_core.h) checks at run time that the header and
+   the library are from one build; this example leaves it out, as the
+   Rust firmwares have no such call (about 110 bytes of flash).
 
    Not a safety-rated component: a reading that protects people or
    machines needs a safety function designed to the applicable standards. */
@@ -35,84 +41,91 @@
 /* The image's bounds (src/image.S). */
 extern const uint8_t lc_unit_image[], lc_unit_image_end[];
 
-static size_t image_len(void) { return (size_t)(lc_unit_image_end - lc_unit_image); }
-
-int main(void) {
-  host_open();
-  host_write("boot\n", 5);
-  if (LC_CHECK_LAYOUT() != LC_OK) {
-    host_fail("lc_core.h does not match the library\n");
+/* Where the image is, validated; the unit stops when it is refused. */
+static void validate(lc_image_t *image) {
+  if (lc_image_validate(image, lc_unit_image, (size_t)(lc_unit_image_end - lc_unit_image)) !=
+      LC_OK) {
+    host_fail("calibration image refused\n");
   }
-
-  line_t line;
+}
 
 #if defined(UNIT_PROXIMITY)
-  lc_proximity_reader_t reader;
-  {
-    /* The validated image is needed only to build the reader: in a block
-       of its own, its stack is reused by the read loop. */
-    lc_image_t image;
-    if (lc_image_validate(&image, lc_unit_image, image_len()) != LC_OK) {
-      host_fail("calibration image refused\n");
-    }
-    if (lc_proximity_reader_init(&reader, &image) != LC_OK) {
-      host_fail("not a proximity image\n");
-    }
+typedef lc_proximity_reader_t reader_t;
+
+static void __attribute__((noinline)) start(reader_t *reader) {
+  lc_image_t image;
+  validate(&image);
+  if (lc_proximity_reader_init(reader, &image) != LC_OK) {
+    host_fail("not a proximity image\n");
   }
+}
+
+static void __attribute__((noinline)) read_all(reader_t *reader) {
+  line_t line;
   for (size_t i = 0; i < script_proximity_len; i++) {
     lc_proximity_reading_t r;
-    if (lc_proximity_read(&reader, &script_proximity[i], &r) != LC_OK) {
+    if (lc_proximity_read(reader, &script_proximity[i], &r) != LC_OK) {
       host_fail("bad input\n");
     }
     line_reading(&line, (uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
     host_write(line.buf, line.len);
   }
+}
 #elif defined(UNIT_LEVEL)
-  lc_level_reader_t reader;
-  {
-    /* The validated image is needed only to build the reader: in a block
-       of its own, its stack is reused by the read loop. */
-    lc_image_t image;
-    if (lc_image_validate(&image, lc_unit_image, image_len()) != LC_OK) {
-      host_fail("calibration image refused\n");
-    }
-    if (lc_level_reader_init(&reader, &image) != LC_OK) {
-      host_fail("not a level image\n");
-    }
+typedef lc_level_reader_t reader_t;
+
+static void __attribute__((noinline)) start(reader_t *reader) {
+  lc_image_t image;
+  validate(&image);
+  if (lc_level_reader_init(reader, &image) != LC_OK) {
+    host_fail("not a level image\n");
   }
+}
+
+static void __attribute__((noinline)) read_all(reader_t *reader) {
+  line_t line;
   for (size_t i = 0; i < script_level_len; i++) {
     lc_level_reading_t r;
-    if (lc_level_read(&reader, &script_level[i], &r) != LC_OK) {
+    if (lc_level_read(reader, &script_level[i], &r) != LC_OK) {
       host_fail("bad input\n");
     }
     line_reading(&line, (uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status,
                  r.fault);
     host_write(line.buf, line.len);
   }
+}
 #elif defined(UNIT_METAL)
-  lc_metal_reader_t reader;
-  {
-    /* The validated image is needed only to build the reader: in a block
-       of its own, its stack is reused by the read loop. */
-    lc_image_t image;
-    if (lc_image_validate(&image, lc_unit_image, image_len()) != LC_OK) {
-      host_fail("calibration image refused\n");
-    }
-    if (lc_metal_reader_init(&reader, &image) != LC_OK) {
-      host_fail("not a metal image\n");
-    }
+typedef lc_metal_reader_t reader_t;
+
+static void __attribute__((noinline)) start(reader_t *reader) {
+  lc_image_t image;
+  validate(&image);
+  if (lc_metal_reader_init(reader, &image) != LC_OK) {
+    host_fail("not a metal image\n");
   }
+}
+
+static void __attribute__((noinline)) read_all(reader_t *reader) {
+  line_t line;
   for (size_t i = 0; i < script_metal_len; i++) {
     lc_metal_reading_t r;
-    if (lc_metal_read(&reader, &script_metal[i], &r) != LC_OK) {
+    if (lc_metal_read(reader, &script_metal[i], &r) != LC_OK) {
       host_fail("bad input\n");
     }
     line_reading(&line, (uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop,
                  r.delta_q40, r.status, r.fault);
     host_write(line.buf, line.len);
   }
+}
 #else
 #error "build with -DUNIT_PROXIMITY, -DUNIT_LEVEL or -DUNIT_METAL"
 #endif
+
+int main(void) {
+  host_open();
+  host_write("boot\n", 5);
+  reader_t reader;
+  start(&reader);
+  read_all(&reader);
   host_finish();
 }

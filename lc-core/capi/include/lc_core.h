@@ -29,14 +29,14 @@
 #if UINTPTR_MAX == 0xFFFFFFFFu
 /* 32-bit targets: Cortex-M0 (thumbv6m-none-eabi), Cortex-M4F
    (thumbv7em-none-eabihf). */
-#define LC_IMAGE_WORDS 32
+#define LC_IMAGE_WORDS 2
 #define LC_PROXIMITY_READER_WORDS 20
 #define LC_LEVEL_READER_WORDS 30
 #define LC_METAL_READER_WORDS 30
 #define LC_READER_WORDS 31
 #elif UINTPTR_MAX == 0xFFFFFFFFFFFFFFFFu
 /* 64-bit hosts. */
-#define LC_IMAGE_WORDS 41
+#define LC_IMAGE_WORDS 3
 #define LC_PROXIMITY_READER_WORDS 23
 #define LC_LEVEL_READER_WORDS 37
 #define LC_METAL_READER_WORDS 30
@@ -569,11 +569,15 @@ typedef uint8_t lc_metal_class_t;
 #endif // __cplusplus
 
 /*
- A validated calibration image (`lc_image_validate`): its derived
- constants and where its bytes are. Needed only while the readers are
- built (start-up; it may live on the stack); the readers borrow the
- image's bytes, not this. `LC_IMAGE_SIZE` bytes, aligned to
- `LC_STORAGE_ALIGN`; opaque.
+ A validated calibration image (`lc_image_validate`): where its bytes
+ are, no more (`LC_IMAGE_SIZE` bytes, aligned to `LC_STORAGE_ALIGN`;
+ opaque). Each `*_init` validates the bytes again and derives the
+ reader from them: the validated image's constants (248 bytes on a
+ 32-bit target) never sit in RAM beside the reader, which keeps the
+ start-up stack near the Rust firmware's, at the price of a second
+ validation per reader built (about 23 000 Cortex-M0 instructions for
+ a 32-node cubic image). Needed only while the readers are built; the
+ readers borrow the image's bytes, not this.
  */
 typedef struct lc_image_t {
   uint64_t opaque[LC_IMAGE_WORDS];
@@ -893,10 +897,10 @@ extern "C" {
 extern const struct lc_layout_t lc_core_capi_layout;
 
 /*
- Validates a calibration image in place and keeps what the readers
- need in `image`. Nothing is copied out of the image's bytes: they must
- stay where they are, unchanged, for as long as `image` or a reader
- built from it is used (in flash, for the unit's life).
+ Validates a calibration image in place and keeps where it is in
+ `image`. Nothing is copied out of the image's bytes: they must stay
+ where they are, unchanged, for as long as `image` or a reader built
+ from it is used (in flash, for the unit's life).
 
  `bytes`: the image, at a 4-byte aligned address; `len` may be longer
  than the image (a flash page): the header's length field decides.
@@ -925,9 +929,10 @@ lc_error_t lc_image_validate(struct lc_image_t *image,
 
 /*
  What a validated image holds: kind, serial, output scales, length,
- CRC, reference clock, gate. Errors: `LC_ERR_NULL_POINTER`,
- `LC_ERR_MISALIGNED_ARGUMENT`, `LC_ERR_NOT_INITIALISED` (`image` not
- validated).
+ CRC, reference clock, gate (the image is validated again: start-up
+ only). Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
+ `LC_ERR_NOT_INITIALISED` (`image` not validated), an
+ `LC_ERR_IMAGE_*` code when the bytes changed since.
 
  # Safety
  `image` points to `lc_image_t` storage, `info` to a writable
@@ -939,9 +944,10 @@ lc_error_t lc_image_info(const struct lc_image_t *image,
 /*
  Builds a proximity reader from a validated image into `reader`.
  Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
- `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`.
- Cost: a copy of the image's derived constants, no validation; the
- reader borrows the curve from the image's bytes.
+ `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`,
+ an `LC_ERR_IMAGE_*` code when the bytes changed since they were
+ validated. Cost: the image validated again (as `lc_image_validate`),
+ start-up only; the reader borrows the curve from the image's bytes.
 
  # Safety
  `reader` points to writable `lc_proximity_reader_t` storage, `image`
@@ -990,9 +996,9 @@ lc_error_t lc_level_read(struct lc_level_reader_t *reader,
 
 /*
  Builds a metal reader from a validated image into `reader`. Errors:
- as `lc_proximity_reader_init`. Cost: two small divisions (the
- thresholds), no validation; the reader needs nothing from the image
- afterwards.
+ as `lc_proximity_reader_init`. Cost: the image validated again and
+ two small divisions (the thresholds); the reader needs nothing from
+ the image afterwards.
 
  # Safety
  As `lc_proximity_reader_init`, with `lc_metal_reader_t` storage.

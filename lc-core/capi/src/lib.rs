@@ -696,6 +696,19 @@ pub struct lc_image_info_t {
 // ---------------------------------------------------------------------
 // Storage.
 
+/// What `lc_image_t` holds: the bytes of an image that validated.
+#[derive(Clone, Copy)]
+struct ImageRef {
+    bytes: &'static [u8],
+}
+
+/// Validates `bytes`; the `Image` itself is dropped (a function of its
+/// own: its 248 bytes are on the stack only while it runs).
+#[inline(never)]
+fn validated(bytes: &'static [u8]) -> Result<ImageRef, ImageError> {
+    Image::new(bytes).map(|_| ImageRef { bytes })
+}
+
 /// A value in caller-provided storage: a tag word that says the storage
 /// holds an initialised value, then the value (as the `Result` that built
 /// it, so that it is built in place).
@@ -721,7 +734,7 @@ const TAG_METAL: u32 = 0x544D_434C; // "LCMT"
 const TAG_READER: u32 = 0x4452_434C; // "LCRD"
 
 /// cbindgen:ignore
-pub const LC_IMAGE_WORDS: usize = words::<Result<Image<'static>, ImageError>>();
+pub const LC_IMAGE_WORDS: usize = words::<Result<ImageRef, ImageError>>();
 /// cbindgen:ignore
 pub const LC_PROXIMITY_READER_WORDS: usize =
     words::<Result<ProximityReader<'static>, ReaderError>>();
@@ -732,11 +745,15 @@ pub const LC_METAL_READER_WORDS: usize = words::<Result<MetalReader, ReaderError
 /// cbindgen:ignore
 pub const LC_READER_WORDS: usize = words::<Result<Reader<'static>, ReaderError>>();
 
-/// A validated calibration image (`lc_image_validate`): its derived
-/// constants and where its bytes are. Needed only while the readers are
-/// built (start-up; it may live on the stack); the readers borrow the
-/// image's bytes, not this. `LC_IMAGE_SIZE` bytes, aligned to
-/// `LC_STORAGE_ALIGN`; opaque.
+/// A validated calibration image (`lc_image_validate`): where its bytes
+/// are, no more (`LC_IMAGE_SIZE` bytes, aligned to `LC_STORAGE_ALIGN`;
+/// opaque). Each `*_init` validates the bytes again and derives the
+/// reader from them: the validated image's constants (248 bytes on a
+/// 32-bit target) never sit in RAM beside the reader, which keeps the
+/// start-up stack near the Rust firmware's, at the price of a second
+/// validation per reader built (about 23 000 Cortex-M0 instructions for
+/// a 32-node cubic image). Needed only while the readers are built; the
+/// readers borrow the image's bytes, not this.
 #[repr(C)]
 pub struct lc_image_t {
     opaque: [u64; LC_IMAGE_WORDS],
@@ -785,7 +802,7 @@ const _: () = {
             assert!(align_of::<Slot<$t>>() <= LC_STORAGE_ALIGN);
         };
     }
-    holds!(lc_image_t, Result<Image<'static>, ImageError>);
+    holds!(lc_image_t, Result<ImageRef, ImageError>);
     holds!(
         lc_proximity_reader_t,
         Result<ProximityReader<'static>, ReaderError>
@@ -929,10 +946,10 @@ fn code(f: impl FnOnce() -> Result<(), lc_error_t>) -> lc_error_t {
 // ---------------------------------------------------------------------
 // Entry points.
 
-/// Validates a calibration image in place and keeps what the readers
-/// need in `image`. Nothing is copied out of the image's bytes: they must
-/// stay where they are, unchanged, for as long as `image` or a reader
-/// built from it is used (in flash, for the unit's life).
+/// Validates a calibration image in place and keeps where it is in
+/// `image`. Nothing is copied out of the image's bytes: they must stay
+/// where they are, unchanged, for as long as `image` or a reader built
+/// from it is used (in flash, for the unit's life).
 ///
 /// `bytes`: the image, at a 4-byte aligned address; `len` may be longer
 /// than the image (a flash page): the header's length field decides.
@@ -973,24 +990,72 @@ pub unsafe extern "C" fn lc_image_validate(
         // that promise).
         let bytes: &'static [u8] = unsafe { core::slice::from_raw_parts(bytes, len) };
         // SAFETY: `image` checked; `lc_image_t` holds the slot.
-        unsafe { emplace(image, TAG_IMAGE, || Image::new(bytes)) }.map_err(image_error)
+        unsafe { emplace(image, TAG_IMAGE, || validated(bytes)) }.map_err(image_error)
     })
 }
 
-/// The validated image in `image`.
+/// The bytes of the validated image in `image`.
 ///
 /// # Safety
 /// As [`load`].
-unsafe fn image_ref<'a>(image: *const lc_image_t) -> Result<&'a Image<'static>, lc_error_t> {
+unsafe fn image_bytes(image: *const lc_image_t) -> Result<&'static [u8], lc_error_t> {
     arg(image)?;
-    // SAFETY: `image` checked; only read through the shared reference.
-    unsafe { load::<_, Image<'static>, ImageError>(image.cast_mut(), TAG_IMAGE).map(|i| &*i) }
+    // SAFETY: `image` checked; only read.
+    unsafe { load::<_, ImageRef, ImageError>(image.cast_mut(), TAG_IMAGE).map(|i| i.bytes) }
+}
+
+/// Validates the image in `image` again and builds a reader from it
+/// into `reader` with `new`. Two functions of their own, so that the
+/// validated image (on this frame) and the reader being built (on
+/// [`emplace_with`]'s) are on the stack only once `Image::new` has
+/// returned.
+///
+/// # Safety
+/// `reader` is valid for writes of `S`, which holds a
+/// `Slot<Result<T, ReaderError>>`; `image` as [`load`].
+#[inline(never)]
+unsafe fn build<S, T>(
+    reader: *mut S,
+    tag: u32,
+    image: *const lc_image_t,
+    new: impl FnOnce(&Image<'static>) -> Result<T, ReaderError>,
+) -> Result<(), lc_error_t> {
+    arg(reader)?;
+    // SAFETY: `reader` checked.
+    unsafe { clear(reader) };
+    // SAFETY: the caller's contract.
+    let bytes = unsafe { image_bytes(image)? };
+    // Borrowed where `Image::new` built it: moved out of the `Result` it
+    // would be on the stack twice.
+    let validated = Image::new(bytes);
+    let image = match &validated {
+        Ok(image) => image,
+        Err(e) => return Err(image_error(*e)),
+    };
+    // SAFETY: the caller's contract.
+    unsafe { emplace_with(reader, tag, image, new) }.map_err(reader_error)
+}
+
+/// [`emplace`] of `new(image)`.
+///
+/// # Safety
+/// As [`emplace`].
+#[inline(never)]
+unsafe fn emplace_with<S, T>(
+    p: *mut S,
+    tag: u32,
+    image: &Image<'static>,
+    new: impl FnOnce(&Image<'static>) -> Result<T, ReaderError>,
+) -> Result<(), ReaderError> {
+    // SAFETY: the caller's contract.
+    unsafe { emplace(p, tag, || new(image)) }
 }
 
 /// What a validated image holds: kind, serial, output scales, length,
-/// CRC, reference clock, gate. Errors: `LC_ERR_NULL_POINTER`,
-/// `LC_ERR_MISALIGNED_ARGUMENT`, `LC_ERR_NOT_INITIALISED` (`image` not
-/// validated).
+/// CRC, reference clock, gate (the image is validated again: start-up
+/// only). Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
+/// `LC_ERR_NOT_INITIALISED` (`image` not validated), an
+/// `LC_ERR_IMAGE_*` code when the bytes changed since.
 ///
 /// # Safety
 /// `image` points to `lc_image_t` storage, `info` to a writable
@@ -1002,8 +1067,13 @@ pub unsafe extern "C" fn lc_image_info(
 ) -> lc_error_t {
     code(|| {
         // SAFETY: the caller's contract.
-        let image = unsafe { image_ref(image)? };
+        let bytes = unsafe { image_bytes(image)? };
         arg(info)?;
+        let validated = Image::new(bytes);
+        let image = match &validated {
+            Ok(image) => image,
+            Err(e) => return Err(image_error(*e)),
+        };
         let mut serial = [0u8; 17];
         for (d, s) in serial.iter_mut().zip(image.serial().bytes().take(16)) {
             *d = s;
@@ -1030,9 +1100,10 @@ pub unsafe extern "C" fn lc_image_info(
 
 /// Builds a proximity reader from a validated image into `reader`.
 /// Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
-/// `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`.
-/// Cost: a copy of the image's derived constants, no validation; the
-/// reader borrows the curve from the image's bytes.
+/// `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`,
+/// an `LC_ERR_IMAGE_*` code when the bytes changed since they were
+/// validated. Cost: the image validated again (as `lc_image_validate`),
+/// start-up only; the reader borrows the curve from the image's bytes.
 ///
 /// # Safety
 /// `reader` points to writable `lc_proximity_reader_t` storage, `image`
@@ -1044,14 +1115,8 @@ pub unsafe extern "C" fn lc_proximity_reader_init(
     image: *const lc_image_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        // SAFETY: `reader` checked.
-        unsafe { clear(reader) };
-        // SAFETY: the caller's contract.
-        let image = unsafe { image_ref(image)? };
-        // SAFETY: `reader` checked; the storage holds the slot.
-        unsafe { emplace(reader, TAG_PROXIMITY, || ProximityReader::new(image)) }
-            .map_err(reader_error)
+        // SAFETY: the caller's contract; the storage holds the slot.
+        unsafe { build(reader, TAG_PROXIMITY, image, ProximityReader::new) }
     })
 }
 
@@ -1095,13 +1160,8 @@ pub unsafe extern "C" fn lc_level_reader_init(
     image: *const lc_image_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        // SAFETY: `reader` checked.
-        unsafe { clear(reader) };
-        // SAFETY: the caller's contract.
-        let image = unsafe { image_ref(image)? };
-        // SAFETY: `reader` checked; the storage holds the slot.
-        unsafe { emplace(reader, TAG_LEVEL, || LevelReader::new(image)) }.map_err(reader_error)
+        // SAFETY: the caller's contract; the storage holds the slot.
+        unsafe { build(reader, TAG_LEVEL, image, LevelReader::new) }
     })
 }
 
@@ -1132,9 +1192,9 @@ pub unsafe extern "C" fn lc_level_read(
 }
 
 /// Builds a metal reader from a validated image into `reader`. Errors:
-/// as `lc_proximity_reader_init`. Cost: two small divisions (the
-/// thresholds), no validation; the reader needs nothing from the image
-/// afterwards.
+/// as `lc_proximity_reader_init`. Cost: the image validated again and
+/// two small divisions (the thresholds); the reader needs nothing from
+/// the image afterwards.
 ///
 /// # Safety
 /// As `lc_proximity_reader_init`, with `lc_metal_reader_t` storage.
@@ -1144,13 +1204,8 @@ pub unsafe extern "C" fn lc_metal_reader_init(
     image: *const lc_image_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        // SAFETY: `reader` checked.
-        unsafe { clear(reader) };
-        // SAFETY: the caller's contract.
-        let image = unsafe { image_ref(image)? };
-        // SAFETY: `reader` checked; the storage holds the slot.
-        unsafe { emplace(reader, TAG_METAL, || MetalReader::new(image)) }.map_err(reader_error)
+        // SAFETY: the caller's contract; the storage holds the slot.
+        unsafe { build(reader, TAG_METAL, image, MetalReader::new) }
     })
 }
 
@@ -1194,13 +1249,8 @@ pub unsafe extern "C" fn lc_reader_init(
     image: *const lc_image_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        // SAFETY: `reader` checked.
-        unsafe { clear(reader) };
-        // SAFETY: the caller's contract.
-        let image = unsafe { image_ref(image)? };
-        // SAFETY: `reader` checked; the storage holds the slot.
-        unsafe { emplace(reader, TAG_READER, || Reader::new(image)) }.map_err(reader_error)
+        // SAFETY: the caller's contract; the storage holds the slot.
+        unsafe { build(reader, TAG_READER, image, Reader::new) }
     })
 }
 
