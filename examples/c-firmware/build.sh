@@ -51,6 +51,6 @@ for unit in proximity level metal; do
         -DLC_IMAGE_FILE="\"$root/examples/unit-firmware/data/$unit.lcim\"" \
         "$here/src/main.c" "$here/src/board.c" "$here/src/report.c" "$here/src/script.c" \
         "$here/src/image.S" \
-        -nostdlib -nostartfiles -T "$here/link.ld" -Wl,--gc-sections \
+        -nostdlib -nostartfiles -T "$here/link.ld" -Wl,--gc-sections -Wl,-z,noexecstack \
         "$lib" -lgcc -o "$out/$unit.elf"
 done
