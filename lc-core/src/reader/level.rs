@@ -101,7 +101,7 @@ impl LevelReading {
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LevelReader<'a> {
-    front: Front,
+    pub(super) front: Front,
     /// The reference electrode's converter (its fault window and
     /// temperature model are the probe's).
     reference: Option<ShiftConverter>,
@@ -154,6 +154,7 @@ impl<'a> LevelReader<'a> {
         };
         // The reference electrode shares the probe's fault window, gate and
         // temperature model: its check goes through the same accepted ticks.
+        let frozen = self.front.plausible.frozen.observe(input.pair);
         let s = self.front.raw_shift(input.pair)?;
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
         let r = self
@@ -163,7 +164,7 @@ impl<'a> LevelReader<'a> {
         // with h = 1/(1 + g) − 1 (`DriftFactor::offset`). Shifts lie below
         // 2^62 (Q.40 of r² < 2^22) and |h| ≤ 2^40: no overflow.
         let (s, r) = (s.raw_q40(), r.raw_q40());
-        let (s, r) = match input.temperature {
+        let (s, r) = match self.front.plausible.check(frozen, input.temperature)? {
             Some(t) => {
                 let h = self.offset(t);
                 (s.wrapping_sub(h), r.wrapping_sub(h))
@@ -172,6 +173,9 @@ impl<'a> LevelReader<'a> {
         };
         if r <= 0 {
             return Err(SensorFault::Reference);
+        }
+        if !super::plausible::reference_divisible(r) {
+            return Err(SensorFault::ReferenceLow);
         }
         div_q40_by_positive(s, r.unsigned_abs())
             .map(|q| LevelAxis::Ratio(ProbeRatio(q)))
@@ -187,6 +191,11 @@ impl<'a> LevelReader<'a> {
             Err(f) => return LevelReading::fault(f),
         };
         let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
+        if let (LevelAxis::Ratio(q), false) = (axis, v.status == CurveStatus::InRange) {
+            if !super::ratio_in_reach(q.0, &self.curve) {
+                return LevelReading::fault(SensorFault::ReferenceLow);
+            }
+        }
         let status = match v.status {
             CurveStatus::InRange => Status::Ok,
             CurveStatus::BelowRange => Status::BelowRange,

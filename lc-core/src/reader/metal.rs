@@ -59,7 +59,7 @@ impl MetalReading {
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct MetalReader {
-    front: Front,
+    pub(super) front: Front,
     params: MetalParams,
     baseline: Ema<Shift>,
     ring_baseline: Ema<u16>,

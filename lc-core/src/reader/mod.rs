@@ -49,6 +49,7 @@
 mod level;
 #[cfg(feature = "metal")]
 mod metal;
+mod plausible;
 #[cfg(feature = "proximity")]
 mod proximity;
 
@@ -56,6 +57,9 @@ mod proximity;
 pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
 #[cfg(feature = "metal")]
 pub use metal::{MetalReader, MetalReading};
+pub use plausible::{
+    ratio_in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40,
+};
 #[cfg(feature = "proximity")]
 pub use proximity::{ProximityReader, ProximityReading};
 
@@ -122,6 +126,21 @@ pub enum SensorFault {
     /// The level reference electrode shows no liquid (its shift is not
     /// positive), so the level ratio is undefined.
     Reference,
+    /// The same count pair [`FrozenCounter::limit`] times in a row: a
+    /// counter or capture that stopped updating (plausibility checks:
+    /// `reader/plausible.rs`).
+    Frozen,
+    /// A temperature outside the drift model's
+    /// [`TEMPERATURE_DOMAIN`](crate::drift::TEMPERATURE_DOMAIN), the image
+    /// having a drift model.
+    TemperatureOutOfDomain,
+    /// No temperature, the image having a drift model (a non-zero
+    /// coefficient).
+    TemperatureMissing,
+    /// The level reference electrode's shift is positive but too small to
+    /// divide by ([`MIN_REFERENCE_SHIFT_Q40`]), or the ratio lies beyond
+    /// the curve's reach ([`ratio_in_reach`]): a nearly dry electrode.
+    ReferenceLow,
 }
 
 /// A reading's status.
@@ -265,6 +284,8 @@ pub(crate) struct Front {
     /// The drift correction at the last temperature seen: temperature
     /// moves far more slowly than readings come.
     drift_cache: Option<(CentiCelsius, DriftFactor)>,
+    /// The plausibility checks' state (`reader/plausible.rs`).
+    pub(crate) plausible: plausible::Plausible,
 }
 
 impl Front {
@@ -282,6 +303,7 @@ impl Front {
             drift,
             accepted: gate.and_then(|g| window.accepted_ticks(g)),
             drift_cache: None,
+            plausible: plausible::Plausible::new(&drift),
         }
     }
 
@@ -358,6 +380,7 @@ impl Front {
     #[inline(always)]
     pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let pair = input.pair;
+        let frozen = self.plausible.frozen.observe(pair);
         let s = match self.companion {
             Some(c) => {
                 self.check(pair).map_err(SensorFault::Counts)?;
@@ -368,7 +391,7 @@ impl Front {
             }
             None => self.raw_shift(pair)?,
         };
-        Ok(match input.temperature {
+        Ok(match self.plausible.check(frozen, input.temperature)? {
             Some(t) => self.factor(t).apply(s),
             None => s,
         })
@@ -472,6 +495,22 @@ impl<'a> Reader<'a> {
             Reader::Metal(_) => ReaderKind::Metal,
             Reader::_Image(_, never) => match *never {},
         }
+    }
+
+    /// Sets the frozen-counter limit: the `limit`-th identical count pair
+    /// in a row is [`SensorFault::Frozen`]; 0 turns the check off; a new
+    /// reader has [`DEFAULT_FROZEN_LIMIT`] (`reader/plausible.rs`).
+    pub fn set_frozen_limit(&mut self, limit: u8) {
+        let front = match self {
+            #[cfg(feature = "proximity")]
+            Reader::Proximity(r) => &mut r.front,
+            #[cfg(feature = "level")]
+            Reader::Level(r) => &mut r.front,
+            #[cfg(feature = "metal")]
+            Reader::Metal(r) => &mut r.front,
+            Reader::_Image(_, never) => match *never {},
+        };
+        front.plausible.frozen = FrozenCounter::new(limit);
     }
 
     /// One reading.
@@ -729,6 +768,27 @@ pub(crate) mod tests {
         assert_eq!(read.status(), Status::SensorFault(SensorFault::Reference));
     }
 
+    /// A nearly dry reference electrode at a full tank was `above_range`;
+    /// it is a sensor fault of its own (issue 19, item 4).
+    #[test]
+    fn nearly_dry_reference_at_a_full_tank_is_a_fault() {
+        let mut r = reader(&level_cal(true, false));
+        // Full tank: the probe at its full shift 0.3·2.5 = 0.75; the
+        // reference electrode at 10 % and 0.5 % of its wet shift 0.3.
+        for (wet, want) in [
+            (1.0, Status::Ok),
+            (0.1, Status::SensorFault(SensorFault::ReferenceLow)),
+            (0.005, Status::SensorFault(SensorFault::ReferenceLow)),
+        ] {
+            let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.0 + 0.3 * wet)).round() as u32);
+            let read = r.read(&Input {
+                companion: Some(comp),
+                ..Input::counts(pair_for(0.74))
+            });
+            assert_eq!(read.status(), want, "wet {wet}: {read:?}");
+        }
+    }
+
     fn metal_cal(ring_drop: u16, relearn: u32) -> Calibration {
         let mut cal = demo_proximity().unwrap();
         cal.kind = ReaderKind::Metal;
@@ -816,6 +876,11 @@ pub(crate) mod tests {
                 ..Input::counts(pair_for(s))
             };
             let fixed = r.read(&input);
+            if !with_t {
+                // An image with a drift model needs a temperature.
+                prop_assert_eq!(fixed.status, Status::SensorFault(SensorFault::TemperatureMissing));
+                return Ok(());
+            }
             prop_assert_eq!(fixed.status, Status::Ok);
             let float = r.read_f64(&input);
             // Largest slope of the demo curve (its last segment).
@@ -850,6 +915,104 @@ pub(crate) mod tests {
                     .map_err(SensorFault::Counts)
                     .and_then(|_| front.converter.shift(pair).map_err(SensorFault::Shift));
                 prop_assert_eq!(fast, slow, "{:?}", pair);
+            }
+        }
+
+        /// The plausibility checks through every reader: with a drift
+        /// model, a reading is a temperature fault exactly when the
+        /// temperature is missing or outside the domain (and the pair
+        /// passes the window); without one the temperature is never
+        /// checked.
+        #[test]
+        fn temperature_faults_through_every_reader(t: Option<i32>, near in -4i32..4, which in 0usize..4, drift: bool) {
+            let mut cal = match which {
+                0 => demo_proximity().unwrap(),
+                1 => level_cal(true, false),
+                2 => level_cal(false, true),
+                _ => metal_cal(2, 10),
+            };
+            if drift {
+                cal.drift = crate::drift::TemperatureModel::from_f64(25.0, -3e-5, 2e-8).unwrap();
+            }
+            // Also the domain's ends and just beyond.
+            let t = t.map(|t| match t % 3 {
+                0 => t,
+                1 => -10_000 + near,
+                _ => 30_000 + near,
+            });
+            let mut r = reader(&cal);
+            let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.3)).round() as u32);
+            let input = Input {
+                companion: Some(comp),
+                temperature: t.map(CentiCelsius),
+                ring_count: Some(20),
+                ..Input::counts(pair_for(0.3))
+            };
+            let st = r.read(&input).status();
+            let want = match (drift, t) {
+                (false, _) => None,
+                (true, None) => Some(SensorFault::TemperatureMissing),
+                (true, Some(t)) if !(-10_000..=30_000).contains(&t) => Some(SensorFault::TemperatureOutOfDomain),
+                _ => None,
+            };
+            match want {
+                Some(f) => prop_assert_eq!(st, Status::SensorFault(f)),
+                None => prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?}", st),
+            }
+        }
+
+        /// The frozen counter through every reader: the limit-th identical
+        /// pair in a row and every one after it are `Frozen`, the readings
+        /// before are not; a new pair ends it.
+        #[test]
+        fn frozen_counter_through_every_reader(limit in 0u8..=255, s in -0.2f64..0.5, which in 0usize..4) {
+            let cal = match which {
+                0 => demo_proximity().unwrap(),
+                1 => level_cal(true, false),
+                2 => level_cal(false, true),
+                _ => metal_cal(2, 10),
+            };
+            let mut r = reader(&cal);
+            r.set_frozen_limit(limit);
+            let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.3)).round() as u32);
+            let input = Input {
+                companion: Some(comp),
+                ring_count: Some(20),
+                ..Input::counts(pair_for(s))
+            };
+            for i in 1..=300u32 {
+                let frozen = r.read(&input).status() == Status::SensorFault(SensorFault::Frozen);
+                prop_assert_eq!(frozen, limit > 1 && i >= u32::from(limit), "reading {}", i);
+            }
+            let next = Input { pair: CountPair::new(16_384, input.pair.ticks + 1), ..input };
+            prop_assert_ne!(r.read(&next).status(), Status::SensorFault(SensorFault::Frozen));
+        }
+
+        /// The reference electrode: a shift not positive is `Reference`, a
+        /// positive one below the floor `ReferenceLow`; above the floor, a
+        /// ratio beyond twice the curve's top (the demo curve spans
+        /// 0..=2.5) is `ReferenceLow`, one within reads.
+        #[test]
+        fn reference_too_small_to_divide_by(s_ref in -0.01f64..0.4, s_probe in 0.0f64..0.8) {
+            let mut r = reader(&level_cal(true, false));
+            let ticks = (150_000.0 * libm::sqrt(1.0 + s_ref)).round() as u32;
+            let comp = CountPair::new(16_384, ticks);
+            let st = r.read(&Input { companion: Some(comp), ..Input::counts(pair_for(s_probe)) }).status();
+            // The shifts as the reader forms them, from the rounded counts.
+            let r_q = (f64::from(ticks) / 150_000.0).powi(2) - 1.0;
+            let p_q = (f64::from(pair_for(s_probe).ticks) / 139_542.0).powi(2) - 1.0;
+            let floor = 2f64.powi(-8);
+            if r_q <= -1e-9 {
+                prop_assert_eq!(st, Status::SensorFault(SensorFault::Reference));
+            } else if r_q > 1e-9 && r_q < floor * (1.0 - 1e-6) {
+                prop_assert_eq!(st, Status::SensorFault(SensorFault::ReferenceLow));
+            } else if r_q > floor * (1.0 + 1e-6) {
+                let q = p_q / r_q;
+                if q > 5.0 * (1.0 + 1e-6) {
+                    prop_assert_eq!(st, Status::SensorFault(SensorFault::ReferenceLow));
+                } else if q < 5.0 * (1.0 - 1e-6) {
+                    prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?} q {}", st, q);
+                }
             }
         }
 

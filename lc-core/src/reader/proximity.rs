@@ -40,7 +40,7 @@ impl ProximityReading {
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ProximityReader<'a> {
-    front: Front,
+    pub(super) front: Front,
     curve: CurveRef<'a>,
 }
 
