@@ -98,6 +98,8 @@ if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then
     # budget assertion itself is tests/firmware_budget.rs::within_budget.
     cargo test --quiet --test firmware_budget footprint -- --nocapture
 fi
+step "fault campaign: 10^6 rows, 8 channels, confusion matrix (docs/faults.md)"
+cargo test -p lc-host --test fault_campaign -- --ignored --nocapture 2>&1 | tee -a "$log"
 totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
 
 if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then

@@ -191,10 +191,11 @@ impl<'a> LevelReader<'a> {
             Err(f) => return LevelReading::fault(f),
         };
         let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
-        if let (LevelAxis::Ratio(q), false) = (axis, v.status == CurveStatus::InRange) {
-            if !super::ratio_in_reach(q.0, &self.curve) {
-                return LevelReading::fault(SensorFault::ReferenceLow);
-            }
+        if v.status != CurveStatus::InRange && !super::in_reach(axis.raw_q40(), &self.curve) {
+            return LevelReading::fault(match axis {
+                LevelAxis::Ratio(_) => SensorFault::ReferenceLow,
+                LevelAxis::Shift(_) => SensorFault::OutOfReach,
+            });
         }
         let status = match v.status {
             CurveStatus::InRange => Status::Ok,

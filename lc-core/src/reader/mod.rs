@@ -58,7 +58,7 @@ pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
 #[cfg(feature = "metal")]
 pub use metal::{MetalReader, MetalReading};
 pub use plausible::{
-    ratio_in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40,
+    in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40,
 };
 #[cfg(feature = "proximity")]
 pub use proximity::{ProximityReader, ProximityReading};
@@ -139,8 +139,12 @@ pub enum SensorFault {
     TemperatureMissing,
     /// The level reference electrode's shift is positive but too small to
     /// divide by ([`MIN_REFERENCE_SHIFT_Q40`]), or the ratio lies beyond
-    /// the curve's reach ([`ratio_in_reach`]): a nearly dry electrode.
+    /// the curve's reach ([`in_reach`]): a nearly dry electrode.
     ReferenceLow,
+    /// The shift lies beyond the curve's span by more than the span's
+    /// width ([`in_reach`]): not this sensor's counts (a channel swap, a
+    /// wrong image).
+    OutOfReach,
 }
 
 /// A reading's status.
@@ -946,7 +950,7 @@ pub(crate) mod tests {
                 companion: Some(comp),
                 temperature: t.map(CentiCelsius),
                 ring_count: Some(20),
-                ..Input::counts(pair_for(0.3))
+                ..Input::counts(pair_for(0.1))
             };
             let st = r.read(&input).status();
             let want = match (drift, t) {
@@ -1013,6 +1017,25 @@ pub(crate) mod tests {
                 } else if q < 5.0 * (1.0 - 1e-6) {
                     prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?} q {}", st, q);
                 }
+            }
+        }
+
+        /// A shift beyond the curve's span by more than its width (the
+        /// demo proximity curve spans −0.329..−0.019: reach −0.639..0.291)
+        /// is `OutOfReach`; within it the reading has a value.
+        #[test]
+        fn out_of_reach_shifts(s in -0.75f64..20.0) {
+            let mut r = reader(&demo_proximity().unwrap());
+            let pair = pair_for(s);
+            let st = r.read(&Input::counts(pair)).status();
+            let q = (f64::from(pair.ticks) / 139_542.0).powi(2) - 1.0;
+            let (lo, hi) = (-0.3292370820418, -0.019099388737231493);
+            let (a, b) = (lo - (hi - lo), hi + (hi - lo));
+            if q < a - 1e-6 || q > b + 1e-6 {
+                // (or the fault window first, for the widest shifts)
+                prop_assert!(matches!(st, Status::SensorFault(SensorFault::OutOfReach | SensorFault::Counts(_))), "{:?} at {}", st, q);
+            } else if q > a + 1e-6 && q < b - 1e-6 {
+                prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?} at {}", st, q);
             }
         }
 

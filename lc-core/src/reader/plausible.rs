@@ -9,7 +9,8 @@
 //! | the same count pair [`FrozenCounter::limit`] times in a row | [`SensorFault::Frozen`] | last pair, run length, limit: 10 bytes |
 //! | a temperature outside the drift model's [`TEMPERATURE_DOMAIN`] | [`SensorFault::TemperatureOutOfDomain`] | — |
 //! | no temperature, the image having a drift model | [`SensorFault::TemperatureMissing`] | one flag |
-//! | level with a reference electrode: its shift below [`MIN_REFERENCE_SHIFT_Q40`], or a ratio out of the curve's reach ([`ratio_in_reach`]) | [`SensorFault::ReferenceLow`] | — |
+//! | level with a reference electrode: its shift below [`MIN_REFERENCE_SHIFT_Q40`], or a ratio out of the curve's reach ([`in_reach`]) | [`SensorFault::ReferenceLow`] | — |
+//! | proximity, level without a reference electrode: a shift out of the curve's reach ([`in_reach`]) | [`SensorFault::OutOfReach`] | — |
 //!
 //! - **Frozen counter.** A healthy reciprocal counter dithers: its ticks
 //!   over a gate carry the phase left over from the gate before, and the
@@ -54,17 +55,26 @@
 //!   ratio the curve cannot reach is also [`SensorFault::ReferenceLow`]: a
 //!   probe covered to the top gives at most the full tank's ratio, so a
 //!   ratio beyond the calibrated span by more than the span's own width
-//!   ([`ratio_in_reach`]) means the divisor has lost at least half its
+//!   ([`in_reach`]) means the divisor has lost at least half its
 //!   wetted shift: a nearly dry electrode, which read `above_range` at a
 //!   full tank. A ratio between the end of the span and that reach
 //!   (overfill, a coated probe, or an electrode drying by less than half)
 //!   reads below or above range as before.
+//! - **Out of reach.** A shift beyond the curve's calibrated span by more
+//!   than the span's own width is no reading of this sensor: a proximity
+//!   target changes L·C by tens of percent, not by a factor, and a level
+//!   probe cannot be wetter than full. It is what a channel swap (another
+//!   unit's counts under this channel), a wrong image or a replaced coil
+//!   gives, and it read `no_target` or `above_range` before. Readings
+//!   between the span's end and that reach (a target touching the coil,
+//!   drift at rest) read below or above range (or no target) as before.
 //!
 //! Cost per reading (Cortex-M0): the frozen check is two word compares, a
 //! saturating byte increment and a compare, and two stores; the
 //! temperature checks a flag test and two compares; the reference floor
-//! one 64-bit compare; the reach check runs only on a ratio already out of
-//! range. RAM: 11 bytes of [`FrozenCounter`] and flag in each reader's
+//! one 64-bit compare; the reach check runs only on a shift or ratio
+//! already out of the curve's range (two node reads from flash and a few
+//! compares). RAM: 11 bytes of [`FrozenCounter`] and flag in each reader's
 //! front (the crate docs, "Memory", give the readers' sizes).
 //!
 //! **Not a safety-rated component.** These checks catch the faults listed,
@@ -193,11 +203,13 @@ pub(crate) fn reference_divisible(r: i64) -> bool {
     r >= MIN_REFERENCE_SHIFT_Q40
 }
 
-/// Whether the ratio `q` (Q.40) lies within the curve's calibrated span
-/// extended by the span's width at each end: [x₀ − w, xₙ + w] with
-/// w = xₙ − x₀. Beyond it the reference electrode has lost at least half
-/// its shift (for a curve starting at q = 0, empty: q > 2·xₙ).
-pub fn ratio_in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
+/// Whether the curve input `q` (a shift or a ratio, Q.40) lies within the
+/// curve's calibrated span extended by the span's width at each end:
+/// [x₀ − w, xₙ + w] with w = xₙ − x₀. For a level ratio beyond it the
+/// reference electrode has lost at least half its shift (for a curve
+/// starting at q = 0, empty: q > 2·xₙ); for a shift, the counts are not
+/// this sensor's.
+pub fn in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
     let n = curve.len();
     let (Some(first), Some(last)) = (curve.node(0), curve.node(n.wrapping_sub(1))) else {
         return true;

@@ -73,6 +73,9 @@ impl<'a> ProximityReader<'a> {
             Err(f) => return ProximityReading::fault(f),
         };
         let v = self.curve.eval(s);
+        if v.status != CurveStatus::InRange && !super::in_reach(s.raw_q40(), &self.curve) {
+            return ProximityReading::fault(SensorFault::OutOfReach);
+        }
         // The far end of the table is the high one when the values rise.
         let status = match (v.status, self.curve.is_rising()) {
             (CurveStatus::InRange, _) => Status::Ok,
