@@ -141,11 +141,7 @@ fn run(spec: &CampaignSpec) -> Outcome {
 /// The matrix as a Markdown table: labels down, status words across, and
 /// flagged / total per label.
 fn table(o: &Outcome) -> String {
-    let mut words: Vec<&str> = o
-        .matrix
-        .values()
-        .flat_map(|m| m.keys().copied())
-        .collect();
+    let mut words: Vec<&str> = o.matrix.values().flat_map(|m| m.keys().copied()).collect();
     words.sort_by_key(|w| (w.starts_with("fault_"), *w));
     words.dedup();
     let mut s = format!("| label \\ status | {} | flagged |\n", words.join(" | "));

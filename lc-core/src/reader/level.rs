@@ -115,7 +115,7 @@ pub struct LevelReader<'a> {
 impl<'a> LevelReader<'a> {
     /// The reader of a level image ([`ReaderError::WrongKind`] for another
     /// kind). Cost: a copy of the image's derived constants, no
-    /// validation. RAM: 232 bytes on a 32-bit target, whatever the tables'
+    /// validation. RAM: 248 bytes on a 32-bit target, whatever the tables'
     /// node counts (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {

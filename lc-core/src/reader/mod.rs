@@ -57,9 +57,7 @@ mod proximity;
 pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
 #[cfg(feature = "metal")]
 pub use metal::{MetalReader, MetalReading};
-pub use plausible::{
-    in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40,
-};
+pub use plausible::{in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40};
 #[cfg(feature = "proximity")]
 pub use proximity::{ProximityReader, ProximityReading};
 
@@ -445,7 +443,7 @@ pub(crate) fn metal_builds(p: &MetalParams) -> bool {
 any_reader! {
 /// Any reader, built from an image: the one its kind names.
 ///
-/// RAM: the largest enabled reader plus a tag, 240 bytes on a 32-bit
+/// RAM: the largest enabled reader plus a tag, 256 bytes on a 32-bit
 /// target with all three (the crate docs, "Memory"); flash: every enabled
 /// reader's code.
 #[allow(clippy::large_enum_variant)] // one reader lives in RAM, the largest's size
@@ -784,7 +782,10 @@ pub(crate) mod tests {
             (0.1, Status::SensorFault(SensorFault::ReferenceLow)),
             (0.005, Status::SensorFault(SensorFault::ReferenceLow)),
         ] {
-            let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.0 + 0.3 * wet)).round() as u32);
+            let comp = CountPair::new(
+                16_384,
+                (150_000.0 * libm::sqrt(1.0 + 0.3 * wet)).round() as u32,
+            );
             let read = r.read(&Input {
                 companion: Some(comp),
                 ..Input::counts(pair_for(0.74))

@@ -48,7 +48,7 @@ impl<'a> ProximityReader<'a> {
     /// The reader of a proximity image ([`ReaderError::WrongKind`] for
     /// another kind). Cost: a copy of the image's derived constants, no
     /// validation (done by [`Image::new`]): under 2 000 Cortex-M0
-    /// instructions. RAM: 152 bytes on a 32-bit target, whatever the curve's
+    /// instructions. RAM: 168 bytes on a 32-bit target, whatever the curve's
     /// node count (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {

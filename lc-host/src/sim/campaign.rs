@@ -151,7 +151,10 @@ impl Unit {
             _ => return Err(CampaignError::Unsupported(k)),
         };
         let nodes = curve.nodes();
-        let (a, b) = (nodes[0].shift.to_f64(), nodes[nodes.len() - 1].shift.to_f64());
+        let (a, b) = (
+            nodes[0].shift.to_f64(),
+            nodes[nodes.len() - 1].shift.to_f64(),
+        );
         let (b1, b2) = cal.drift.coefficients_f64();
         Ok(Self {
             level,
@@ -301,9 +304,9 @@ pub fn write_campaign_log(
                 Kind::Drying => (len(&mut rng, 100.0, 2_000.0), k),
                 Kind::Swap => {
                     // A partner of the other kind, idle.
-                    let Some(p) = (0..n).find(|&p| {
-                        p != k && units[p].level != level && active[p].is_none()
-                    }) else {
+                    let Some(p) =
+                        (0..n).find(|&p| p != k && units[p].level != level && active[p].is_none())
+                    else {
                         continue;
                     };
                     (len(&mut rng, 10.0, 300.0), p)
@@ -355,8 +358,7 @@ pub fn write_campaign_log(
                         row.label = "ntc_short";
                     }
                     Kind::Spike => {
-                        row.temp =
-                            Some(SPIKES_C[(rng.uniform() * 4.0) as usize % SPIKES_C.len()]);
+                        row.temp = Some(SPIKES_C[(rng.uniform() * 4.0) as usize % SPIKES_C.len()]);
                         row.label = "temp_spike";
                     }
                     Kind::Drying => row.label = "reference_drying",
