@@ -108,6 +108,12 @@ impl CountsConfig {
         })
     }
 
+    /// Whether `pair` passes the fault window and forms a shift (the rows
+    /// the frozen-counter check counts).
+    pub fn passes(&self, pair: CountPair) -> bool {
+        self.window.check(pair).is_ok() && self.converter.shift(pair).is_ok()
+    }
+
     /// Converts one pair exactly as the firmware does.
     pub fn convert(&self, pair: CountPair) -> CountsRow {
         let mut row = CountsRow {
@@ -165,9 +171,11 @@ pub fn convert_log<R: Read, W: Write>(
     // The frozen-counter run of each channel, in input order, as each
     // channel's reader on the unit keeps it.
     let mut runs: Vec<FrozenCounter> = vec![FrozenCounter::default(); 257];
+    // Only pairs that pass the window and form a shift count, as in the
+    // reader.
     let in_order = move |row: &FieldRow| match row.pair() {
-        Some(pair) => runs[row.channel.map_or(256, usize::from)].observe(pair),
-        None => false,
+        Some(pair) if cfg.passes(pair) => runs[row.channel.map_or(256, usize::from)].observe(pair),
+        _ => false,
     };
     let format = |row: &FieldRow, frozen: &mut bool, out: &mut Vec<u8>| {
         let Some(pair) = row.pair() else {

@@ -39,16 +39,7 @@ fn channels() -> Vec<Calibration> {
         image("demo-proximity-32.lcim"),
         image("demo-level.lcim"),
     );
-    vec![
-        tc.clone(),
-        p32.clone(),
-        tc,
-        p32,
-        level.clone(),
-        level.clone(),
-        level.clone(),
-        level,
-    ]
+    vec![tc, p32, tc, p32, level, level, level, level]
 }
 
 /// label → status word → rows.
@@ -78,7 +69,7 @@ fn run(spec: &CampaignSpec) -> Outcome {
             .channels
             .iter()
             .enumerate()
-            .map(|(k, c)| (k as u8, c.clone()))
+            .map(|(k, c)| (k as u8, *c))
             .collect::<Vec<_>>(),
     )
     .expect("converter");

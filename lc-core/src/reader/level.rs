@@ -154,7 +154,6 @@ impl<'a> LevelReader<'a> {
         };
         // The reference electrode shares the probe's fault window, gate and
         // temperature model: its check goes through the same accepted ticks.
-        let frozen = self.front.plausible.frozen.observe(input.pair);
         let s = self.front.raw_shift(input.pair)?;
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
         let r = self
@@ -164,7 +163,7 @@ impl<'a> LevelReader<'a> {
         // with h = 1/(1 + g) − 1 (`DriftFactor::offset`). Shifts lie below
         // 2^62 (Q.40 of r² < 2^22) and |h| ≤ 2^40: no overflow.
         let (s, r) = (s.raw_q40(), r.raw_q40());
-        let (s, r) = match self.front.plausible.check(frozen, input.temperature)? {
+        let (s, r) = match self.front.plausible.check(input.pair, input.temperature)? {
             Some(t) => {
                 let h = self.offset(t);
                 (s.wrapping_sub(h), r.wrapping_sub(h))

@@ -382,7 +382,6 @@ impl Front {
     #[inline(always)]
     pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let pair = input.pair;
-        let frozen = self.plausible.frozen.observe(pair);
         let s = match self.companion {
             Some(c) => {
                 self.check(pair).map_err(SensorFault::Counts)?;
@@ -393,7 +392,7 @@ impl Front {
             }
             None => self.raw_shift(pair)?,
         };
-        Ok(match self.plausible.check(frozen, input.temperature)? {
+        Ok(match self.plausible.check(pair, input.temperature)? {
             Some(t) => self.factor(t).apply(s),
             None => s,
         })

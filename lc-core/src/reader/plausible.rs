@@ -31,7 +31,8 @@
 //!   [`Reader::set_frozen_limit`](super::Reader::set_frozen_limit) (0 turns
 //!   it off; the image format has no field for it). The first `limit − 1`
 //!   readings of a freeze cannot be told from a still input: they read
-//!   normally. Rows the fault window rejects neither count nor break a run.
+//!   normally. Rows the fault window rejects (or whose shift cannot be
+//!   formed) neither count nor break a run.
 //! - **Temperature domain.** The drift model is declared over −100 °C ..=
 //!   +300 °C ([`TEMPERATURE_DOMAIN`]); a temperature outside (an NTC
 //!   converter that does not refuse an open or shorted sensor, a logger's
@@ -172,16 +173,17 @@ impl Plausible {
         }
     }
 
-    /// After the fault window and the shift: the frozen verdict of the
-    /// pair ([`FrozenCounter::observe`], taken before the window), then the
-    /// temperature. Returns the temperature to compensate with.
+    /// After the fault window and the shift (so that rows the window
+    /// rejects neither count nor break a run, and nothing stays live across
+    /// the shift): the frozen check of `pair`, then the temperature.
+    /// Returns the temperature to compensate with.
     #[inline(always)]
     pub(crate) fn check(
-        &self,
-        frozen: bool,
+        &mut self,
+        pair: CountPair,
         t: Option<CentiCelsius>,
     ) -> Result<Option<CentiCelsius>, SensorFault> {
-        if frozen {
+        if self.frozen.observe(pair) {
             return Err(SensorFault::Frozen);
         }
         if !self.needs_temperature {
@@ -190,7 +192,10 @@ impl Plausible {
         let (lo, hi) = TEMPERATURE_DOMAIN;
         match t {
             None => Err(SensorFault::TemperatureMissing),
-            Some(c) if c.0 < lo.0 || c.0 > hi.0 => Err(SensorFault::TemperatureOutOfDomain),
+            // One subtraction and one unsigned compare: outside lo..=hi.
+            Some(c) if c.0.wrapping_sub(lo.0) as u32 > hi.0.wrapping_sub(lo.0) as u32 => {
+                Err(SensorFault::TemperatureOutOfDomain)
+            }
             Some(c) => Ok(Some(c)),
         }
     }
@@ -257,8 +262,13 @@ mod tests {
         #[test]
         fn temperature_checks(t: Option<i32>, b1 in -1000i32..1000, frozen: bool) {
             let drift = TemperatureModel::new(CentiCelsius(2_500), b1, 0).unwrap();
-            let p = Plausible::new(&drift);
-            let got = p.check(frozen, t.map(CentiCelsius));
+            let mut p = Plausible::new(&drift);
+            p.frozen = FrozenCounter::new(2);
+            if frozen {
+                // The pair's first reading: the second is frozen.
+                let _ = p.check(CountPair::new(1, 1), None);
+            }
+            let got = p.check(CountPair::new(1, 1), t.map(CentiCelsius));
             let want = if frozen {
                 Err(SensorFault::Frozen)
             } else if b1 == 0 {
@@ -277,8 +287,8 @@ mod tests {
     #[test]
     fn domain_ends_are_inside() {
         let drift = TemperatureModel::new(CentiCelsius(2_500), 5, 0).unwrap();
-        let p = Plausible::new(&drift);
-        for (t, ok) in [
+        let mut p = Plausible::new(&drift);
+        for (i, (t, ok)) in [
             (-10_001, false),
             (-10_000, true),
             (30_000, true),
@@ -286,11 +296,16 @@ mod tests {
             (-27_315, false),
             (i32::MAX, false),
             (i32::MIN, false),
-        ] {
-            assert_eq!(p.check(false, Some(CentiCelsius(t))).is_ok(), ok, "{t}");
+        ]
+        .into_iter()
+        .enumerate()
+        {
+            let pair = CountPair::new(1, i as u32);
+            assert_eq!(p.check(pair, Some(CentiCelsius(t))).is_ok(), ok, "{t}");
         }
         assert_eq!(
-            Plausible::new(&TemperatureModel::NONE).check(false, Some(CentiCelsius(i32::MAX))),
+            Plausible::new(&TemperatureModel::NONE)
+                .check(CountPair::new(1, 1), Some(CentiCelsius(i32::MAX))),
             Ok(Some(CentiCelsius(i32::MAX)))
         );
     }
