@@ -170,11 +170,13 @@ impl<'a> LevelReader<'a> {
             }
             None => (s, r),
         };
-        if r <= 0 {
-            return Err(SensorFault::Reference);
-        }
+        // One compare on the way through: dry (not positive) or too small.
         if !super::plausible::reference_divisible(r) {
-            return Err(SensorFault::ReferenceLow);
+            return Err(if r <= 0 {
+                SensorFault::Reference
+            } else {
+                SensorFault::ReferenceLow
+            });
         }
         div_q40_by_positive(s, r.unsigned_abs())
             .map(|q| LevelAxis::Ratio(ProbeRatio(q)))

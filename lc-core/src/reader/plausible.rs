@@ -213,7 +213,9 @@ pub(crate) fn reference_divisible(r: i64) -> bool {
 /// [x₀ − w, xₙ + w] with w = xₙ − x₀. For a level ratio beyond it the
 /// reference electrode has lost at least half its shift (for a curve
 /// starting at q = 0, empty: q > 2·xₙ); for a shift, the counts are not
-/// this sensor's.
+/// this sensor's. Out of line: it runs only on a reading already out of
+/// the curve's range, and keeps the readers' own code small.
+#[inline(never)]
 pub fn in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
     let n = curve.len();
     let (Some(first), Some(last)) = (curve.node(0), curve.node(n.wrapping_sub(1))) else {
