@@ -502,16 +502,15 @@ impl<'a> Reader<'a> {
     /// in a row is [`SensorFault::Frozen`]; 0 turns the check off; a new
     /// reader has [`DEFAULT_FROZEN_LIMIT`] (`reader/plausible.rs`).
     pub fn set_frozen_limit(&mut self, limit: u8) {
-        let front = match self {
+        match self {
             #[cfg(feature = "proximity")]
-            Reader::Proximity(r) => &mut r.front,
+            Reader::Proximity(r) => r.set_frozen_limit(limit),
             #[cfg(feature = "level")]
-            Reader::Level(r) => &mut r.front,
+            Reader::Level(r) => r.set_frozen_limit(limit),
             #[cfg(feature = "metal")]
-            Reader::Metal(r) => &mut r.front,
+            Reader::Metal(r) => r.set_frozen_limit(limit),
             Reader::_Image(_, never) => match *never {},
-        };
-        front.plausible.frozen = FrozenCounter::new(limit);
+        }
     }
 
     /// One reading.

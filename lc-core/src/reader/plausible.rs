@@ -227,6 +227,29 @@ pub fn in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
     q >= lo.saturating_sub(w) && q <= hi.saturating_add(w)
 }
 
+/// The frozen-counter limit of each typed reader (as
+/// [`Reader::set_frozen_limit`](super::Reader::set_frozen_limit)).
+macro_rules! frozen_limit {
+    ($($feature:literal $reader:ty),*) => {
+        $(
+            #[cfg(feature = $feature)]
+            impl $reader {
+                /// Sets the frozen-counter limit: the `limit`-th identical
+                /// count pair in a row is [`SensorFault::Frozen`]; 0 turns
+                /// the check off; a new reader has [`DEFAULT_FROZEN_LIMIT`].
+                pub fn set_frozen_limit(&mut self, limit: u8) {
+                    self.front.plausible.frozen = FrozenCounter::new(limit);
+                }
+            }
+        )*
+    };
+}
+frozen_limit!(
+    "proximity" super::ProximityReader<'_>,
+    "level" super::LevelReader<'_>,
+    "metal" super::MetalReader
+);
+
 #[cfg(test)]
 mod tests {
     use super::*;
