@@ -13,6 +13,12 @@
 //!   debounce, and classification ferrous / non-ferrous, confirmed by the
 //!   ring-down ([`MetalReading`]).
 //!
+//! Every reader also checks its inputs' plausibility (`reader/plausible.rs`,
+//! docs/faults.md): a frozen counter, a temperature outside the drift
+//! model's domain or missing although the image has a drift model, a
+//! reference electrode too small to divide by, a shift out of the curve's
+//! reach; each is a [`SensorFault`] of its own.
+//!
 //! Each is built from a validated [`Image`] and checks its kind; it holds
 //! only what changes at run time (drift cache, baselines, detector) and
 //! the few constants derived at start-up, and borrows its curves from the
