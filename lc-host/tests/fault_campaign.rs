@@ -6,8 +6,8 @@
 //! - `campaign_flags_every_fault_and_no_clean_row`: 200 000 rows, every
 //!   fault kind, always run.
 //! - `campaign_of_a_million_rows`: 10⁶ rows, `#[ignore]`d (about a minute
-//!   in a debug build); run it with
-//!   `cargo test --release -p lc-host --test fault_campaign -- --ignored --nocapture`.
+//!   in a debug build); `scripts/check.sh` runs it with
+//!   `cargo test -p lc-host --test fault_campaign -- --ignored --nocapture`.
 //!
 //! Acceptance (issue 19): every injected fault row flagged, no clean row
 //! flagged. `stuck_onset` rows (the first 254 rows of a frozen counter,
@@ -208,7 +208,7 @@ fn campaign_flags_every_fault_and_no_clean_row() {
 /// The acceptance run: 10⁶ rows, 8 channels. Prints the matrix of
 /// docs/faults.md.
 #[test]
-#[ignore = "10^6 rows: run with --release -- --ignored"]
+#[ignore = "10^6 rows, about a minute in a debug build: run with -- --ignored"]
 fn campaign_of_a_million_rows() {
     let spec = CampaignSpec::new(channels(), 1_000_000, 19);
     let o = run(&spec);
@@ -224,4 +224,110 @@ fn campaign_is_reproducible() {
     write_campaign_log(&spec, &mut a).unwrap();
     write_campaign_log(&spec, &mut b).unwrap();
     assert_eq!(a, b);
+}
+
+/// Converts a field log's text through one image; the status words.
+fn statuses(cal: Calibration, text: &str) -> Vec<&'static str> {
+    let mut conv = Converter::new(cal).expect("converter");
+    let mut words = Vec::new();
+    let reader = FieldLogReader::new(text.as_bytes(), Path::new("log.csv")).expect("header");
+    convert_log(
+        reader,
+        std::io::sink(),
+        &mut conv,
+        OnBadRow::Stop,
+        false,
+        |_| {},
+        |c| words.push(status_name(c.reading.status())),
+    )
+    .expect("convert");
+    words
+}
+
+/// Issue 19, item 4: a counter frozen at a plausible value (500 identical
+/// rows) read `ok` on every row; now from the 255th on it is a fault, in
+/// `convert` and in `counts` alike.
+#[test]
+fn a_counter_frozen_at_a_plausible_value_is_flagged() {
+    let mut text = String::from("time_s,cycles,ticks,temp_c\n");
+    for i in 0..500 {
+        text.push_str(&format!("{}.0,16384,131707,25.00\n", i));
+    }
+    let words = statuses(image("demo-proximity-tc.lcim"), &text);
+    assert!(words[..254].iter().all(|w| *w == "ok"), "{words:?}");
+    assert!(words[254..].iter().all(|w| *w == FAULT_FROZEN), "{words:?}");
+    let cfg = CountsConfig::new(
+        48_000_000,
+        lc_core::counting::CountPair::new(16_384, 139_542),
+        None,
+        None,
+    )
+    .expect("counts config");
+    let mut out = Vec::new();
+    let reader = FieldLogReader::new(text.as_bytes(), Path::new("log.csv")).expect("header");
+    counts::convert_log(reader, &mut out, &cfg, OnBadRow::Stop, false, |_| {}).expect("counts");
+    let counts_words: Vec<String> = std::str::from_utf8(&out)
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').nth(5).unwrap().to_string())
+        .collect();
+    assert!(counts_words[..254].iter().all(|w| w == "ok"));
+    assert!(counts_words[254..].iter().all(|w| w == FAULT_FROZEN));
+}
+
+/// Issue 19, item 4: temperatures of −273, 1 000 or 10⁷ °C were clamped to
+/// the drift model's domain and above about 2·10⁷ °C dropped, all reading
+/// `ok`; a missing temperature read uncompensated `ok`. Now each is a fault
+/// for an image with a drift model; the domain's ends still read.
+#[test]
+fn impossible_and_missing_temperatures_are_flagged() {
+    let temps = [
+        "-273.15", "1000", "1e7", "2.5e7", "3e7", "", "-100", "300", "25",
+    ];
+    let mut text = String::from("time_s,cycles,ticks,temp_c\n");
+    for (i, t) in temps.iter().enumerate() {
+        text.push_str(&format!("{i}.0,16384,{},{t}\n", 131_707 + i));
+    }
+    let words = statuses(image("demo-proximity-tc.lcim"), &text);
+    let domain = "fault_temperature_out_of_domain";
+    assert_eq!(
+        words,
+        [
+            domain,
+            domain,
+            domain,
+            domain,
+            domain,
+            "fault_temperature_missing",
+            "ok",
+            "ok",
+            "ok"
+        ]
+    );
+    // An image without a drift model ignores the temperature.
+    let words = statuses(image("demo-proximity.lcim"), &text);
+    assert!(words.iter().all(|w| *w == "ok"), "{words:?}");
+}
+
+/// Issue 19, item 4: a nearly dry reference electrode at a full tank read
+/// `above_range`; now it is a fault of its own.
+#[test]
+fn a_nearly_dry_reference_electrode_is_flagged() {
+    // The demo level unit at 390 mm, coolant at 20 °C: the reference
+    // electrode wet, with 10 % and 1 % of its shift left, and dry.
+    let text = "time_s,cycles,ticks,comp_cycles,comp_ticks,temp_c\n\
+                0,16384,660258,16384,548016,20.00\n\
+                1,16384,660259,16384,510613,20.00\n\
+                2,16384,660260,16384,506770,20.00\n\
+                3,16384,660261,16384,506000,20.00\n";
+    assert_eq!(
+        statuses(image("demo-level.lcim"), text),
+        [
+            "ok",
+            "fault_reference_low",
+            "fault_reference_low",
+            "fault_reference_dry"
+        ]
+    );
 }
