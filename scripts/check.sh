@@ -118,6 +118,8 @@ step "C API header is current (lc-core/capi/include/lc_core.h)"
 # sanitizers and the C firmwares, tests/c_firmware.rs); named here because
 # a stale header must fail CI by name.
 cargo test --quiet -p lc-core-capi --test header
+step "fault campaign: 10^6 rows, 8 channels, confusion matrix (docs/faults.md)"
+cargo test -p lc-host --test fault_campaign -- --ignored --nocapture 2>&1 | tee -a "$log"
 totals=$(awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } } END { printf "%d passed, %d failed", p, f }' "$log")
 
 if [ "$have_targets" = yes ] && command -v qemu-system-arm >/dev/null 2>&1; then

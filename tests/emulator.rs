@@ -15,6 +15,9 @@
 //!   scanner, multiplexers and NTC conversions of
 //!   `examples/firmware/src/scan.rs` included); the same with overflow
 //!   checks on (`release-checked` profile);
+//! - the `faults` binary (`examples/firmware/src/faults.rs`: a sample of
+//!   the fault campaign's rows, docs/faults.md) prints exactly the statuses
+//!   the same file gives on the host;
 //! - the `cost` binary runs to the end, and its `f32` versions of the
 //!   readers agree with the fixed readers.
 //!
@@ -23,6 +26,8 @@
 //! capture) and passes, unless the environment variable `CI` is set: then
 //! they fail, since CI must run them.
 
+#[path = "../examples/firmware/src/faults.rs"]
+mod faults;
 #[path = "../examples/firmware/src/pipeline.rs"]
 mod pipeline;
 #[path = "../examples/firmware/src/readout.rs"]
@@ -438,4 +443,155 @@ fn cost_runs_on_both_cores() {
         assert!(out.contains("0 class mismatches"), "{out}");
         assert!(out.ends_with("# end\n"), "{out}");
     }
+}
+
+fn host_faults() -> String {
+    let mut text = String::new();
+    faults::run(&mut text).expect("writing to a String cannot fail");
+    text
+}
+
+/// The fault sample gives each fault its own status on the host: every
+/// injected kind is a sensor fault from its first reading (a frozen
+/// counter from the readers' limit), the clean rows and the readings of a
+/// freeze before the limit are not, and a unit without a drift model
+/// ignores its temperature.
+#[test]
+fn host_fault_sample_flags_every_kind() {
+    let text = host_faults();
+    let line = |unit: &str, tag: &str| {
+        text.lines()
+            .find(|l| l.starts_with(&format!("{unit} {tag} ")))
+            .unwrap_or_else(|| panic!("no line {unit} {tag} in:\n{text}"))
+            .to_string()
+    };
+    let limit = lc_core::reader::DEFAULT_FROZEN_LIMIT;
+    for (unit, tag, want) in [
+        ("demo-proximity-tc", "clean", "first_fault=- status=Ok"),
+        (
+            "demo-proximity-tc",
+            "stuck",
+            &*format!("first_fault={limit} status=SensorFault(Frozen)"),
+        ),
+        (
+            "demo-proximity-tc",
+            "stuck_onset",
+            "first_fault=- status=Ok",
+        ),
+        (
+            "demo-proximity-tc",
+            "ntc_open",
+            "first_fault=1 status=SensorFault(TemperatureMissing)",
+        ),
+        (
+            "demo-proximity-tc",
+            "ntc_short",
+            "first_fault=1 status=SensorFault(TemperatureOutOfDomain)",
+        ),
+        (
+            "demo-proximity-tc",
+            "temp_spike-273.15",
+            "first_fault=1 status=SensorFault(TemperatureOutOfDomain)",
+        ),
+        (
+            "demo-proximity-tc",
+            "temp_spike1e7",
+            "first_fault=1 status=SensorFault(TemperatureOutOfDomain)",
+        ),
+        (
+            "demo-proximity-tc",
+            "temp_domain_end",
+            "first_fault=- status=Ok",
+        ),
+        (
+            "demo-proximity-tc",
+            "channel_swap-level-counts",
+            "first_fault=1 status=SensorFault(OutOfReach)",
+        ),
+        ("demo-proximity-32", "clean", "first_fault=- status=Ok"),
+        (
+            "demo-proximity-32",
+            "ntc_open",
+            "first_fault=1 status=SensorFault(TemperatureMissing)",
+        ),
+        (
+            "demo-proximity-32",
+            "stuck",
+            &*format!("first_fault={limit} status=SensorFault(Frozen)"),
+        ),
+        ("demo-level", "clean", "first_fault=- status=Ok"),
+        (
+            "demo-level",
+            "stuck",
+            &*format!("first_fault={limit} status=SensorFault(Frozen)"),
+        ),
+        (
+            "demo-level",
+            "ntc_open",
+            "first_fault=1 status=SensorFault(TemperatureMissing)",
+        ),
+        (
+            "demo-level",
+            "temp_spike1000",
+            "first_fault=1 status=SensorFault(TemperatureOutOfDomain)",
+        ),
+        (
+            "demo-level",
+            "reference_drying-10%",
+            "first_fault=1 status=SensorFault(ReferenceLow)",
+        ),
+        (
+            "demo-level",
+            "reference_drying-1%",
+            "first_fault=1 status=SensorFault(ReferenceLow)",
+        ),
+        (
+            "demo-level",
+            "channel_swap-proximity-counts",
+            "first_fault=1 status=SensorFault(Counts(FrequencyTooHigh))",
+        ),
+        (
+            "demo-metal",
+            "clean-no-drift-model",
+            "first_fault=- status=NoTarget",
+        ),
+        (
+            "demo-metal",
+            "temp_spike-no-drift-model",
+            "first_fault=- status=NoTarget",
+        ),
+        (
+            "demo-metal",
+            "stuck",
+            &*format!("first_fault={limit} status=SensorFault(Frozen)"),
+        ),
+    ] {
+        let l = line(unit, tag);
+        assert!(l.contains(want), "{l}: wanted {want}");
+    }
+    assert_eq!(text.lines().count(), faults::ROWS.len() + 2, "{text}");
+}
+
+fn check_faults(core: &Core) {
+    if !prerequisites(true) {
+        return;
+    }
+    let elf = build(core, "faults", &[]);
+    assert_same_text(
+        &host_faults(),
+        &emulate(core, &elf),
+        &format!("fault sample on {}", core.triple),
+    );
+}
+
+/// The fault sample's statuses on the emulated Cortex-M0 equal the host's.
+#[test]
+fn fault_sample_on_cortex_m0_matches_host() {
+    check_faults(&M0);
+}
+
+/// The fault sample's statuses on the emulated Cortex-M4F equal the host's.
+#[test]
+fn fault_sample_on_cortex_m4f_matches_host() {
+    check_faults(&M4F);
 }

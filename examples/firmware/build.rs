@@ -4,8 +4,8 @@
 //! On the M0 (`memory/microbit.x`) each binary gets a layout of its own, in
 //! `OUT_DIR/<bin>/memory.x`: the stack at the bottom of SRAM, below the
 //! statics (the last `STATIC_BYTES`), so an overflow faults instead of
-//! corrupting them. The pipeline and the panic-never proof have the
-//! board's 16 KiB; the measuring harnesses (`cost`, `profile`) a 64 KiB
+//! corrupting them. The pipeline, the fault sample and the panic-never
+//! proof have the board's 16 KiB; the measuring harnesses (`cost`, `profile`) a 64 KiB
 //! SRAM, which run.sh and tests/emulator.rs emulate for them.
 //!
 //! `LC_FIRMWARE_STACK_BYTES=N` (used by `run.sh stack`) makes the stack
@@ -14,8 +14,9 @@
 use std::{env, fs, path::PathBuf};
 
 /// The M0 binaries and their SRAM, bytes.
-const M0_BINS: [(&str, u32); 4] = [
+const M0_BINS: [(&str, u32); 5] = [
     ("pipeline", 16 * 1024),
+    ("faults", 16 * 1024),
     ("panic_proof", 16 * 1024),
     ("cost", 64 * 1024),
     ("profile", 64 * 1024),

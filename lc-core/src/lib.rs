@@ -100,10 +100,10 @@
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|
-//! | `ProximityReader` | 152 | | `Image` (start-up only) | 248 |
-//! | `LevelReader` | 232 | | `ImageBuf` (image copied to RAM) | 4 200 |
-//! | `MetalReader` | 232 | | `CurveRef` | 28 |
-//! | `Reader` (all three kinds) | 240 | | `Input` | 32 |
+//! | `ProximityReader` | 168 | | `Image` (start-up only) | 264 |
+//! | `LevelReader` | 248 | | `ImageBuf` (image copied to RAM) | 4 200 |
+//! | `MetalReader` | 248 | | `CurveRef` | 28 |
+//! | `Reader` (all three kinds) | 256 | | `Input` | 32 |
 //! | `ProximityReading` | 16 | | `Reading` | 32 |
 //! | `LevelReading` | 32 | | `MetalReading` | 24 |
 //! | `ShiftConverter` | 32 | | `Companion` | 32 |

@@ -14,6 +14,21 @@ use lc_core::temperature::CentiCelsius;
 use std::collections::BTreeMap;
 use std::io::{Read, Write};
 
+/// The status word of a frozen counter, in `convert` and `counts` alike.
+pub const FAULT_FROZEN: &str = "fault_counter_frozen";
+
+/// A logged temperature as the reader's input: a value beyond the `i32`
+/// range of hundredths of a degree, or not a number, becomes the nearest
+/// end of that range, so that the reader flags it as outside the drift
+/// model's domain instead of reading without a temperature.
+pub fn temperature_input(temp_c: f64) -> CentiCelsius {
+    CentiCelsius::from_f64(temp_c).unwrap_or(if temp_c > 0.0 {
+        CentiCelsius(i32::MAX)
+    } else {
+        CentiCelsius(i32::MIN)
+    })
+}
+
 /// A stable name for a reading's status, as written in CSV.
 pub fn status_name(s: Status) -> &'static str {
     match s {
@@ -34,6 +49,11 @@ pub fn status_name(s: Status) -> &'static str {
             SensorFault::Shift(_) => "fault_shift",
             SensorFault::Ratio(_) => "fault_companion_ratio",
             SensorFault::Reference => "fault_reference_dry",
+            SensorFault::ReferenceLow => "fault_reference_low",
+            SensorFault::OutOfReach => "fault_out_of_reach",
+            SensorFault::Frozen => FAULT_FROZEN,
+            SensorFault::TemperatureOutOfDomain => "fault_temperature_out_of_domain",
+            SensorFault::TemperatureMissing => "fault_temperature_missing",
         },
     }
 }
@@ -140,7 +160,7 @@ impl Twin {
         Input {
             pair: self.pair_of(row),
             companion: row.companion,
-            temperature: row.temp_c.and_then(CentiCelsius::from_f64),
+            temperature: row.temp_c.map(temperature_input),
             ring_count: row.ring_count,
         }
     }

@@ -7,6 +7,7 @@ use crate::stream::{fixed, opt, stream_log, RowClass, Threads};
 pub use crate::stream::{OnBadRow, RunError, Summary};
 use lc_core::counting::{CountPair, FaultError, FaultWindow, Gating};
 use lc_core::ratio::{frequency, period_ratio};
+use lc_core::reader::FrozenCounter;
 use lc_core::shift::{RestPoint, ShiftConverter, ShiftError};
 use std::io::{Read, Write};
 
@@ -30,6 +31,10 @@ pub enum RowStatus {
     Fault(FaultError),
     /// The shift could not be represented.
     Shift(ShiftError),
+    /// The same count pair [`lc_core::reader::DEFAULT_FROZEN_LIMIT`] times
+    /// in a row on one channel: a frozen counter, flagged as the unit's
+    /// reader flags it ([`lc_core::reader::FrozenCounter`]).
+    Frozen,
 }
 
 impl RowStatus {
@@ -45,6 +50,7 @@ impl RowStatus {
             RowStatus::Shift(ShiftError::ZeroCount) => "zero_count",
             RowStatus::Shift(ShiftError::OutOfRange) => "shift_out_of_range",
             RowStatus::Shift(ShiftError::BadRestPoint) => "bad_rest_point",
+            RowStatus::Frozen => crate::convert::FAULT_FROZEN,
         }
     }
 }
@@ -102,6 +108,12 @@ impl CountsConfig {
         })
     }
 
+    /// Whether `pair` passes the fault window and forms a shift (the rows
+    /// the frozen-counter check counts).
+    pub fn passes(&self, pair: CountPair) -> bool {
+        self.window.check(pair).is_ok() && self.converter.shift(pair).is_ok()
+    }
+
     /// Converts one pair exactly as the firmware does.
     pub fn convert(&self, pair: CountPair) -> CountsRow {
         let mut row = CountsRow {
@@ -156,11 +168,24 @@ pub fn convert_log<R: Read, W: Write>(
     } else {
         OUTPUT_HEADER.to_string()
     };
-    let format = |row: &FieldRow, _: &mut (), out: &mut Vec<u8>| {
+    // The frozen-counter run of each channel, in input order, as each
+    // channel's reader on the unit keeps it.
+    let mut runs: Vec<FrozenCounter> = vec![FrozenCounter::default(); 257];
+    // Only pairs that pass the window and form a shift count, as in the
+    // reader.
+    let in_order = move |row: &FieldRow| match row.pair() {
+        Some(pair) if cfg.passes(pair) => runs[row.channel.map_or(256, usize::from)].observe(pair),
+        _ => false,
+    };
+    let format = |row: &FieldRow, frozen: &mut bool, out: &mut Vec<u8>| {
         let Some(pair) = row.pair() else {
             return Err(RunError::NeedsCounts { line: row.line });
         };
-        let c = cfg.convert(pair);
+        let mut c = cfg.convert(pair);
+        // After the window and the shift, as the reader checks it.
+        if *frozen && c.status == RowStatus::Ok {
+            c.status = RowStatus::Frozen;
+        }
         write!(
             out,
             "{},{},{},{},{},{},{},{},{},{},{}",
@@ -187,7 +212,7 @@ pub fn convert_log<R: Read, W: Write>(
         }
         Ok(match c.status {
             RowStatus::Ok => RowClass::Ok,
-            RowStatus::Fault(_) => RowClass::Fault,
+            RowStatus::Fault(_) | RowStatus::Frozen => RowClass::Fault,
             RowStatus::Shift(_) => RowClass::OutOfRange,
         })
     };
@@ -197,7 +222,7 @@ pub fn convert_log<R: Read, W: Write>(
         &header,
         on_bad_row,
         Threads::default(),
-        |_| (),
+        in_order,
         format,
         progress,
         |_, _| {},

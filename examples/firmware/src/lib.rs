@@ -1,7 +1,8 @@
 //! Support for the firmware example binaries: the shared stage table
 //! ([`pipeline`]), the whole readout from calibration image to reading
 //! ([`readout`]), the scanner, multiplexers and NTC conversions
-//! ([`scan`]), host output over semihosting, exit, and the panic handler.
+//! ([`scan`]), a sample of the fault campaign's rows ([`faults`]), host
+//! output over semihosting, exit, and the panic handler.
 //!
 //! Runs on QEMU's `microbit` (Cortex-M0, `thumbv6m-none-eabi`) and
 //! `mps2-an386` (Cortex-M4F, `thumbv7em-none-eabihf`) machines; see
@@ -10,6 +11,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod faults;
 pub mod pipeline;
 pub mod readout;
 pub mod sizes;

@@ -43,8 +43,9 @@
 //!
 //! Temperatures come from the board's NTC ([`BOARD`]: 10 kΩ, B 3950 K, on a
 //! 12-bit ADC with a 10 kΩ series resistor), as ADC codes. A code the NTC
-//! converter refuses gives no temperature: the reading is then taken without
-//! drift compensation, and the line shows why.
+//! converter refuses gives no temperature, and the line shows why: a unit
+//! with a drift model then reads a sensor fault (`TemperatureMissing`), one
+//! without reads as before.
 //!
 //! **Not a safety-rated component.** These readings are a test table, not a
 //! measurement anyone should rely on for safety.

@@ -122,5 +122,10 @@ pub fn status_name(s: Status) -> &'static [u8] {
         Status::SensorFault(SensorFault::Shift(_)) => b"fault-shift",
         Status::SensorFault(SensorFault::Ratio(_)) => b"fault-ratio",
         Status::SensorFault(SensorFault::Reference) => b"fault-reference",
+        Status::SensorFault(SensorFault::ReferenceLow) => b"fault-reference-low",
+        Status::SensorFault(SensorFault::Frozen) => b"fault-frozen",
+        Status::SensorFault(SensorFault::TemperatureOutOfDomain) => b"fault-temperature-domain",
+        Status::SensorFault(SensorFault::TemperatureMissing) => b"fault-temperature-missing",
+        Status::SensorFault(SensorFault::OutOfReach) => b"fault-out-of-reach",
     }
 }

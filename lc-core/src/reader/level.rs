@@ -101,7 +101,7 @@ impl LevelReading {
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LevelReader<'a> {
-    front: Front,
+    pub(super) front: Front,
     /// The reference electrode's converter (its fault window and
     /// temperature model are the probe's).
     reference: Option<ShiftConverter>,
@@ -115,7 +115,7 @@ pub struct LevelReader<'a> {
 impl<'a> LevelReader<'a> {
     /// The reader of a level image ([`ReaderError::WrongKind`] for another
     /// kind). Cost: a copy of the image's derived constants, no
-    /// validation. RAM: 232 bytes on a 32-bit target, whatever the tables'
+    /// validation. RAM: 248 bytes on a 32-bit target, whatever the tables'
     /// node counts (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {
@@ -163,15 +163,20 @@ impl<'a> LevelReader<'a> {
         // with h = 1/(1 + g) − 1 (`DriftFactor::offset`). Shifts lie below
         // 2^62 (Q.40 of r² < 2^22) and |h| ≤ 2^40: no overflow.
         let (s, r) = (s.raw_q40(), r.raw_q40());
-        let (s, r) = match input.temperature {
+        let (s, r) = match self.front.plausible.check(input.pair, input.temperature)? {
             Some(t) => {
                 let h = self.offset(t);
                 (s.wrapping_sub(h), r.wrapping_sub(h))
             }
             None => (s, r),
         };
-        if r <= 0 {
-            return Err(SensorFault::Reference);
+        // One compare on the way through: dry (not positive) or too small.
+        if !super::plausible::reference_divisible(r) {
+            return Err(if r <= 0 {
+                SensorFault::Reference
+            } else {
+                SensorFault::ReferenceLow
+            });
         }
         div_q40_by_positive(s, r.unsigned_abs())
             .map(|q| LevelAxis::Ratio(ProbeRatio(q)))
@@ -187,6 +192,12 @@ impl<'a> LevelReader<'a> {
             Err(f) => return LevelReading::fault(f),
         };
         let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
+        if v.status != CurveStatus::InRange && !super::in_reach(axis.raw_q40(), &self.curve) {
+            return LevelReading::fault(match axis {
+                LevelAxis::Ratio(_) => SensorFault::ReferenceLow,
+                LevelAxis::Shift(_) => SensorFault::OutOfReach,
+            });
+        }
         let status = match v.status {
             CurveStatus::InRange => Status::Ok,
             CurveStatus::BelowRange => Status::BelowRange,

@@ -59,7 +59,7 @@ impl MetalReading {
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct MetalReader {
-    front: Front,
+    pub(super) front: Front,
     params: MetalParams,
     baseline: Ema<Shift>,
     ring_baseline: Ema<u16>,
@@ -77,7 +77,7 @@ pub struct MetalReader {
 impl MetalReader {
     /// The reader of a metal image ([`ReaderError::WrongKind`] for another
     /// kind). Cost: two small divisions (the thresholds to Q23.40), no
-    /// validation: about 8 400 Cortex-M0 instructions. RAM: 232 bytes on a
+    /// validation: about 8 400 Cortex-M0 instructions. RAM: 248 bytes on a
     /// 32-bit target (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'_>) -> Result<Self, ReaderError> {
         let params = match (image.kind(), image.metal()) {

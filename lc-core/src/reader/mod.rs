@@ -13,6 +13,12 @@
 //!   debounce, and classification ferrous / non-ferrous, confirmed by the
 //!   ring-down ([`MetalReading`]).
 //!
+//! Every reader also checks its inputs' plausibility (`reader/plausible.rs`,
+//! docs/faults.md): a frozen counter, a temperature outside the drift
+//! model's domain or missing although the image has a drift model, a
+//! reference electrode too small to divide by, a shift out of the curve's
+//! reach; each is a [`SensorFault`] of its own.
+//!
 //! Each is built from a validated [`Image`] and checks its kind; it holds
 //! only what changes at run time (drift cache, baselines, detector) and
 //! the few constants derived at start-up, and borrows its curves from the
@@ -49,6 +55,7 @@
 mod level;
 #[cfg(feature = "metal")]
 mod metal;
+mod plausible;
 #[cfg(feature = "proximity")]
 mod proximity;
 
@@ -56,6 +63,7 @@ mod proximity;
 pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
 #[cfg(feature = "metal")]
 pub use metal::{MetalReader, MetalReading};
+pub use plausible::{in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40};
 #[cfg(feature = "proximity")]
 pub use proximity::{ProximityReader, ProximityReading};
 
@@ -122,6 +130,25 @@ pub enum SensorFault {
     /// The level reference electrode shows no liquid (its shift is not
     /// positive), so the level ratio is undefined.
     Reference,
+    /// The same count pair [`FrozenCounter::limit`] times in a row: a
+    /// counter or capture that stopped updating (plausibility checks:
+    /// `reader/plausible.rs`).
+    Frozen,
+    /// A temperature outside the drift model's
+    /// [`TEMPERATURE_DOMAIN`](crate::drift::TEMPERATURE_DOMAIN), the image
+    /// having a drift model.
+    TemperatureOutOfDomain,
+    /// No temperature, the image having a drift model (a non-zero
+    /// coefficient).
+    TemperatureMissing,
+    /// The level reference electrode's shift is positive but too small to
+    /// divide by ([`MIN_REFERENCE_SHIFT_Q40`]), or the ratio lies beyond
+    /// the curve's reach ([`in_reach`]): a nearly dry electrode.
+    ReferenceLow,
+    /// The shift lies beyond the curve's span by more than the span's
+    /// width ([`in_reach`]): not this sensor's counts (a channel swap, a
+    /// wrong image).
+    OutOfReach,
 }
 
 /// A reading's status.
@@ -265,6 +292,8 @@ pub(crate) struct Front {
     /// The drift correction at the last temperature seen: temperature
     /// moves far more slowly than readings come.
     drift_cache: Option<(CentiCelsius, DriftFactor)>,
+    /// The plausibility checks' state (`reader/plausible.rs`).
+    pub(crate) plausible: plausible::Plausible,
 }
 
 impl Front {
@@ -282,6 +311,7 @@ impl Front {
             drift,
             accepted: gate.and_then(|g| window.accepted_ticks(g)),
             drift_cache: None,
+            plausible: plausible::Plausible::new(&drift),
         }
     }
 
@@ -368,7 +398,7 @@ impl Front {
             }
             None => self.raw_shift(pair)?,
         };
-        Ok(match input.temperature {
+        Ok(match self.plausible.check(pair, input.temperature)? {
             Some(t) => self.factor(t).apply(s),
             None => s,
         })
@@ -418,7 +448,7 @@ pub(crate) fn metal_builds(p: &MetalParams) -> bool {
 any_reader! {
 /// Any reader, built from an image: the one its kind names.
 ///
-/// RAM: the largest enabled reader plus a tag, 240 bytes on a 32-bit
+/// RAM: the largest enabled reader plus a tag, 256 bytes on a 32-bit
 /// target with all three (the crate docs, "Memory"); flash: every enabled
 /// reader's code.
 #[allow(clippy::large_enum_variant)] // one reader lives in RAM, the largest's size
@@ -470,6 +500,21 @@ impl<'a> Reader<'a> {
             Reader::Level(_) => ReaderKind::Level,
             #[cfg(feature = "metal")]
             Reader::Metal(_) => ReaderKind::Metal,
+            Reader::_Image(_, never) => match *never {},
+        }
+    }
+
+    /// Sets the frozen-counter limit: the `limit`-th identical count pair
+    /// in a row is [`SensorFault::Frozen`]; 0 turns the check off; a new
+    /// reader has [`DEFAULT_FROZEN_LIMIT`] (`reader/plausible.rs`).
+    pub fn set_frozen_limit(&mut self, limit: u8) {
+        match self {
+            #[cfg(feature = "proximity")]
+            Reader::Proximity(r) => r.set_frozen_limit(limit),
+            #[cfg(feature = "level")]
+            Reader::Level(r) => r.set_frozen_limit(limit),
+            #[cfg(feature = "metal")]
+            Reader::Metal(r) => r.set_frozen_limit(limit),
             Reader::_Image(_, never) => match *never {},
         }
     }
@@ -729,6 +774,30 @@ pub(crate) mod tests {
         assert_eq!(read.status(), Status::SensorFault(SensorFault::Reference));
     }
 
+    /// A nearly dry reference electrode at a full tank was `above_range`;
+    /// it is a sensor fault of its own (issue 19, item 4).
+    #[test]
+    fn nearly_dry_reference_at_a_full_tank_is_a_fault() {
+        let mut r = reader(&level_cal(true, false));
+        // Full tank: the probe at its full shift 0.3·2.5 = 0.75; the
+        // reference electrode at 10 % and 0.5 % of its wet shift 0.3.
+        for (wet, want) in [
+            (1.0, Status::Ok),
+            (0.1, Status::SensorFault(SensorFault::ReferenceLow)),
+            (0.005, Status::SensorFault(SensorFault::ReferenceLow)),
+        ] {
+            let comp = CountPair::new(
+                16_384,
+                (150_000.0 * libm::sqrt(1.0 + 0.3 * wet)).round() as u32,
+            );
+            let read = r.read(&Input {
+                companion: Some(comp),
+                ..Input::counts(pair_for(0.74))
+            });
+            assert_eq!(read.status(), want, "wet {wet}: {read:?}");
+        }
+    }
+
     fn metal_cal(ring_drop: u16, relearn: u32) -> Calibration {
         let mut cal = demo_proximity().unwrap();
         cal.kind = ReaderKind::Metal;
@@ -816,6 +885,11 @@ pub(crate) mod tests {
                 ..Input::counts(pair_for(s))
             };
             let fixed = r.read(&input);
+            if !with_t {
+                // An image with a drift model needs a temperature.
+                prop_assert_eq!(fixed.status, Status::SensorFault(SensorFault::TemperatureMissing));
+                return Ok(());
+            }
             prop_assert_eq!(fixed.status, Status::Ok);
             let float = r.read_f64(&input);
             // Largest slope of the demo curve (its last segment).
@@ -850,6 +924,123 @@ pub(crate) mod tests {
                     .map_err(SensorFault::Counts)
                     .and_then(|_| front.converter.shift(pair).map_err(SensorFault::Shift));
                 prop_assert_eq!(fast, slow, "{:?}", pair);
+            }
+        }
+
+        /// The plausibility checks through every reader: with a drift
+        /// model, a reading is a temperature fault exactly when the
+        /// temperature is missing or outside the domain (and the pair
+        /// passes the window); without one the temperature is never
+        /// checked.
+        #[test]
+        fn temperature_faults_through_every_reader(t: Option<i32>, near in -4i32..4, which in 0usize..4, drift: bool) {
+            let mut cal = match which {
+                0 => demo_proximity().unwrap(),
+                1 => level_cal(true, false),
+                2 => level_cal(false, true),
+                _ => metal_cal(2, 10),
+            };
+            if drift {
+                cal.drift = crate::drift::TemperatureModel::from_f64(25.0, -3e-5, 2e-8).unwrap();
+            }
+            // Also the domain's ends and just beyond.
+            let t = t.map(|t| match t % 3 {
+                0 => t,
+                1 => -10_000 + near,
+                _ => 30_000 + near,
+            });
+            let mut r = reader(&cal);
+            let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.3)).round() as u32);
+            let input = Input {
+                companion: Some(comp),
+                temperature: t.map(CentiCelsius),
+                ring_count: Some(20),
+                ..Input::counts(pair_for(0.1))
+            };
+            let st = r.read(&input).status();
+            let want = match (drift, t) {
+                (false, _) => None,
+                (true, None) => Some(SensorFault::TemperatureMissing),
+                (true, Some(t)) if !(-10_000..=30_000).contains(&t) => Some(SensorFault::TemperatureOutOfDomain),
+                _ => None,
+            };
+            match want {
+                Some(f) => prop_assert_eq!(st, Status::SensorFault(f)),
+                None => prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?}", st),
+            }
+        }
+
+        /// The frozen counter through every reader: the limit-th identical
+        /// pair in a row and every one after it are `Frozen`, the readings
+        /// before are not; a new pair ends it.
+        #[test]
+        fn frozen_counter_through_every_reader(limit in 0u8..=255, s in -0.2f64..0.5, which in 0usize..4) {
+            let cal = match which {
+                0 => demo_proximity().unwrap(),
+                1 => level_cal(true, false),
+                2 => level_cal(false, true),
+                _ => metal_cal(2, 10),
+            };
+            let mut r = reader(&cal);
+            r.set_frozen_limit(limit);
+            let comp = CountPair::new(16_384, (150_000.0 * libm::sqrt(1.3)).round() as u32);
+            let input = Input {
+                companion: Some(comp),
+                ring_count: Some(20),
+                ..Input::counts(pair_for(s))
+            };
+            for i in 1..=300u32 {
+                let frozen = r.read(&input).status() == Status::SensorFault(SensorFault::Frozen);
+                prop_assert_eq!(frozen, limit > 1 && i >= u32::from(limit), "reading {}", i);
+            }
+            let next = Input { pair: CountPair::new(16_384, input.pair.ticks + 1), ..input };
+            prop_assert_ne!(r.read(&next).status(), Status::SensorFault(SensorFault::Frozen));
+        }
+
+        /// The reference electrode: a shift not positive is `Reference`, a
+        /// positive one below the floor `ReferenceLow`; above the floor, a
+        /// ratio beyond twice the curve's top (the demo curve spans
+        /// 0..=2.5) is `ReferenceLow`, one within reads.
+        #[test]
+        fn reference_too_small_to_divide_by(s_ref in -0.01f64..0.4, s_probe in 0.0f64..0.8) {
+            let mut r = reader(&level_cal(true, false));
+            let ticks = (150_000.0 * libm::sqrt(1.0 + s_ref)).round() as u32;
+            let comp = CountPair::new(16_384, ticks);
+            let st = r.read(&Input { companion: Some(comp), ..Input::counts(pair_for(s_probe)) }).status();
+            // The shifts as the reader forms them, from the rounded counts.
+            let r_q = (f64::from(ticks) / 150_000.0).powi(2) - 1.0;
+            let p_q = (f64::from(pair_for(s_probe).ticks) / 139_542.0).powi(2) - 1.0;
+            let floor = 2f64.powi(-8);
+            if r_q <= -1e-9 {
+                prop_assert_eq!(st, Status::SensorFault(SensorFault::Reference));
+            } else if r_q > 1e-9 && r_q < floor * (1.0 - 1e-6) {
+                prop_assert_eq!(st, Status::SensorFault(SensorFault::ReferenceLow));
+            } else if r_q > floor * (1.0 + 1e-6) {
+                let q = p_q / r_q;
+                if q > 5.0 * (1.0 + 1e-6) {
+                    prop_assert_eq!(st, Status::SensorFault(SensorFault::ReferenceLow));
+                } else if q < 5.0 * (1.0 - 1e-6) {
+                    prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?} q {}", st, q);
+                }
+            }
+        }
+
+        /// A shift beyond the curve's span by more than its width (the
+        /// demo proximity curve spans −0.329..−0.019: reach −0.639..0.291)
+        /// is `OutOfReach`; within it the reading has a value.
+        #[test]
+        fn out_of_reach_shifts(s in -0.75f64..20.0) {
+            let mut r = reader(&demo_proximity().unwrap());
+            let pair = pair_for(s);
+            let st = r.read(&Input::counts(pair)).status();
+            let q = (f64::from(pair.ticks) / 139_542.0).powi(2) - 1.0;
+            let (lo, hi) = (-0.3292370820418, -0.019099388737231493);
+            let (a, b) = (lo - (hi - lo), hi + (hi - lo));
+            if q < a - 1e-6 || q > b + 1e-6 {
+                // (or the fault window first, for the widest shifts)
+                prop_assert!(matches!(st, Status::SensorFault(SensorFault::OutOfReach | SensorFault::Counts(_))), "{:?} at {}", st, q);
+            } else if q > a + 1e-6 && q < b - 1e-6 {
+                prop_assert!(!matches!(st, Status::SensorFault(_)), "{:?} at {}", st, q);
             }
         }
 

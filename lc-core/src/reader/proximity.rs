@@ -40,7 +40,7 @@ impl ProximityReading {
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ProximityReader<'a> {
-    front: Front,
+    pub(super) front: Front,
     curve: CurveRef<'a>,
 }
 
@@ -48,7 +48,7 @@ impl<'a> ProximityReader<'a> {
     /// The reader of a proximity image ([`ReaderError::WrongKind`] for
     /// another kind). Cost: a copy of the image's derived constants, no
     /// validation (done by [`Image::new`]): under 2 000 Cortex-M0
-    /// instructions. RAM: 152 bytes on a 32-bit target, whatever the curve's
+    /// instructions. RAM: 168 bytes on a 32-bit target, whatever the curve's
     /// node count (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {
@@ -73,6 +73,9 @@ impl<'a> ProximityReader<'a> {
             Err(f) => return ProximityReading::fault(f),
         };
         let v = self.curve.eval(s);
+        if v.status != CurveStatus::InRange && !super::in_reach(s.raw_q40(), &self.curve) {
+            return ProximityReading::fault(SensorFault::OutOfReach);
+        }
         // The far end of the table is the high one when the values rise.
         let status = match (v.status, self.curve.is_rising()) {
             (CurveStatus::InRange, _) => Status::Ok,
