@@ -388,6 +388,21 @@ pub enum lc_fault_t {
     /// The level reference electrode shows no liquid (its shift is not
     /// positive): the level ratio is undefined.
     LC_FAULT_REFERENCE = 0x40,
+    /// The level reference electrode's shift is positive but too small to
+    /// divide by, or the ratio lies beyond the curve's reach: a nearly dry
+    /// electrode.
+    LC_FAULT_REFERENCE_LOW = 0x41,
+    /// The same count pair the reader's frozen limit times in a row
+    /// (default 255): a counter or capture that stopped updating.
+    LC_FAULT_FROZEN = 0x50,
+    /// A temperature outside the drift model's domain, the image having a
+    /// drift model.
+    LC_FAULT_TEMPERATURE_OUT_OF_DOMAIN = 0x51,
+    /// No temperature, the image having a drift model.
+    LC_FAULT_TEMPERATURE_MISSING = 0x52,
+    /// The shift lies beyond the curve's span by more than the span's
+    /// width: not this sensor's counts (a channel swap, a wrong image).
+    LC_FAULT_OUT_OF_REACH = 0x53,
 }
 
 fn window_fault(e: FaultError, companion: bool) -> lc_fault_t {
@@ -435,6 +450,11 @@ fn status(s: Status) -> (lc_status_t, lc_fault_t) {
             LC_FAULT_RATIO_BAD_REST_POINT
         }
         SensorFault::Reference => LC_FAULT_REFERENCE,
+        SensorFault::ReferenceLow => LC_FAULT_REFERENCE_LOW,
+        SensorFault::Frozen => LC_FAULT_FROZEN,
+        SensorFault::TemperatureOutOfDomain => LC_FAULT_TEMPERATURE_OUT_OF_DOMAIN,
+        SensorFault::TemperatureMissing => LC_FAULT_TEMPERATURE_MISSING,
+        SensorFault::OutOfReach => LC_FAULT_OUT_OF_REACH,
     };
     (LC_STATUS_SENSOR_FAULT, fault)
 }
