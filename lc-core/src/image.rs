@@ -142,7 +142,8 @@ pub enum ImageError {
     /// A format-1 image: the host reads it and rewrites it in format 2
     /// (`lc-host inspect --rewrite OUT`).
     FormatOne,
-    /// The stated length disagrees with the table sizes.
+    /// The stated length disagrees with the table sizes, or a byte after
+    /// the stated length is not erased flash (0xFF).
     LengthMismatch,
     /// The image does not start at a 4-byte aligned address.
     Misaligned,
@@ -175,7 +176,9 @@ impl fmt::Display for ImageError {
             ImageError::FormatOne => f.write_str(
                 "format-1 image: rewrite it in format 2 with `lc-host inspect IMAGE --rewrite OUT`",
             ),
-            ImageError::LengthMismatch => f.write_str("stated length disagrees with the tables"),
+            ImageError::LengthMismatch => {
+                f.write_str("stated length disagrees with the tables, or bytes after it are not erased (0xFF)")
+            }
             ImageError::Misaligned => f.write_str("image not at a 4-byte aligned address"),
             ImageError::BadCrc => f.write_str("CRC mismatch: image corrupt"),
             ImageError::OutOfRange(field) => write!(f, "field {field:?} out of range"),
@@ -354,6 +357,7 @@ impl Bytes<'_> {
     fn u64(&self, span: Span) -> Option<u64> {
         self.get(span.at).map(u64::from_le_bytes)
     }
+    #[cfg(feature = "design")]
     fn i64(&self, span: Span) -> Option<i64> {
         self.get(span.at).map(i64::from_le_bytes)
     }
@@ -416,14 +420,16 @@ fn framing(bytes: &[u8]) -> Result<(u16, usize), ImageError> {
 
 /// The header's field checks, after the CRC.
 #[inline(always)]
-fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
+fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
     use ImageError::*;
     let t = |v: Option<u8>| v.ok_or(Truncated);
     let flags = t(r.u8(FLAGS))?;
+    // `accept` is a constant: the kinds it leaves out fold away, and with
+    // them their checks below.
     let kind = match r.u8(KIND) {
-        Some(1) => ReaderKind::Proximity,
-        Some(2) => ReaderKind::Level,
-        Some(3) => ReaderKind::Metal,
+        Some(1) if accept & ACCEPT_PROXIMITY != 0 => ReaderKind::Proximity,
+        Some(2) if accept & ACCEPT_LEVEL != 0 => ReaderKind::Level,
+        Some(3) if accept & ACCEPT_METAL != 0 => ReaderKind::Metal,
         _ => return Err(OutOfRange(Field::ReaderKind)),
     };
     if flags & !KNOWN_FLAGS != 0 {
@@ -532,52 +538,87 @@ fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
     })
 }
 
-/// A validated calibration image, read in place: the image's bytes
-/// (borrowed, normally from flash) and the few values the readers derive
-/// from them at start-up (the shift converter's reciprocal, the fault
-/// window's tick band).
+/// A validated calibration image, read in place: a borrowed view of the
+/// image's bytes (normally in flash), its kind and one byte of what
+/// validation found (the scale of each stored reciprocal).
 ///
-/// Built only by [`Image::new`], which checks everything; readers are
-/// built from it ([`ProximityReader::new`](crate::reader::ProximityReader::new)
+/// Built only by [`Image::new`] (or the one-kind [`Image::new_proximity`],
+/// [`Image::new_level`], [`Image::new_metal`]), which check everything; readers
+/// are built from it ([`ProximityReader::new`](crate::reader::ProximityReader::new)
 /// and the others, [`Reader::new`](crate::reader::Reader::new)) and borrow
 /// its curves for as long as the bytes live (`'static` for an image in
-/// flash).
+/// flash). Every accessor reads its field in place.
 ///
-/// Size: 248 bytes on a 32-bit target (the crate docs, "Memory"); it is
-/// meant to live on the start-up stack only, while the readers are built.
+/// Size: 12 bytes on a 32-bit target (the crate docs, "Memory").
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Image<'a> {
     bytes: &'a [u8],
     kind: ReaderKind,
-    front: Front,
-    /// Level: the reference electrode's converter.
-    reference: Option<ShiftConverter>,
-    output: OutputScale,
-    curve: Option<CurveRef<'a>>,
-    volume: Option<(CurveRef<'a>, OutputScale)>,
-    metal: Option<MetalParams>,
+    /// Bit i set: the i-th stored reciprocal (rest, gate, companion,
+    /// companion gate) is at the halved scale
+    /// (`ShiftConverter::halved`).
+    halved: u8,
 }
+
+/// The kinds a validation accepts, one bit per kind code.
+const ACCEPT_PROXIMITY: u8 = 1 << 1;
+const ACCEPT_LEVEL: u8 = 1 << 2;
+const ACCEPT_METAL: u8 = 1 << 3;
+const ACCEPT_ANY: u8 = ACCEPT_PROXIMITY | ACCEPT_LEVEL | ACCEPT_METAL;
 
 impl<'a> Image<'a> {
     /// Validates an image in place. `bytes` may be longer than the image
-    /// (a flash page): the header's length field decides. `bytes` must
-    /// start at a 4-byte aligned address.
+    /// (a flash page): the header's length field decides, and every byte
+    /// after the image must be erased flash (0xFF;
+    /// [`ImageError::LengthMismatch`] otherwise). `bytes` must start at a
+    /// 4-byte aligned address.
     ///
     /// Order of the checks (the first failing one is reported): length of
     /// the framing, magic, version, stated length against the node
-    /// counts and the bytes given, alignment, CRC-32, then each header
-    /// field, the consistency between fields and kind, the tables (nodes
-    /// and every segment's constants), and what the readers derive (shift
-    /// converter, companion ratio, metal detector).
+    /// counts and the bytes given, alignment, the bytes after the image,
+    /// CRC-32, then each header field, the consistency between fields
+    /// and kind, the tables (nodes and every segment's constants), and
+    /// what the readers derive (shift converter, companion ratio, metal
+    /// detector).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
     /// image byte with the byte table), a few hundred per curve segment,
     /// and a few thousand for the header and the converters' checks
-    /// (about 21 200 instructions for a 32-node cubic image of 1 144 bytes,
-    /// 6 650 for the five-node demo image). Stack: a few hundred bytes
-    /// besides the returned 248-byte `Image`.
+    /// (docs/performance.md, "Loading"). Stack: a few hundred bytes
+    /// besides the returned 12-byte `Image`.
+    ///
+    /// Flash: the checks of every kind. A firmware that runs one kind
+    /// calls [`Image::new_proximity`], [`Image::new_level`] or [`Image::new_metal`]
+    /// instead, and the linker leaves the other kinds' checks out.
     pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_ANY)
+    }
+
+    /// [`Image::new`] for a proximity unit's firmware: the same checks,
+    /// and an image of another kind is refused with
+    /// [`ImageError::OutOfRange`]`(`[`Field::ReaderKind`]`)`. Only the
+    /// proximity checks are linked in.
+    pub fn new_proximity(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_PROXIMITY)
+    }
+
+    /// [`Image::new`] for a level unit's firmware (see
+    /// [`Image::new_proximity`]).
+    pub fn new_level(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_LEVEL)
+    }
+
+    /// [`Image::new`] for a metal detector's firmware (see
+    /// [`Image::new_proximity`]).
+    pub fn new_metal(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_METAL)
+    }
+
+    /// The validation of the kinds in `accept` (a constant: the others'
+    /// checks fold away).
+    #[inline(always)]
+    fn check(bytes: &'a [u8], accept: u8) -> Result<Self, ImageError> {
         use ImageError::*;
         let (version, len) = framing(bytes)?;
         match version {
@@ -604,53 +645,49 @@ impl<'a> Image<'a> {
         if len != expected {
             return Err(LengthMismatch);
         }
-        let bytes = bytes.get(..len).ok_or(Truncated)?;
+        let (bytes, after) = bytes.split_at_checked(len).ok_or(Truncated)?;
         let words: &[u32] = bytemuck::try_cast_slice(bytes).map_err(|_| Misaligned)?;
+        if !erased(after) {
+            return Err(LengthMismatch);
+        }
         // The CRC by words (the length is a whole number of words).
         let (body, stored) = words.split_at(words.len().saturating_sub(1));
         if stored.first().map(|w| u32::from_le(*w)) != Some(crc::crc32_words(body)) {
             return Err(BadCrc);
         }
-        let h = header(Bytes(bytes))?;
-        if r.i64(CALIBRATED_AT).is_none() {
-            return Err(Truncated);
-        }
+        let h = header(Bytes(bytes), accept)?;
         // Tables: nodes, then segments, each table after the last.
         let table = |at: usize, n: usize, cubic: bool| {
             let w = words.get(at / 4..).unwrap_or(&[]);
             let segs = w.get(n * 3..).unwrap_or(&[]);
             CurveRef::from_words(w, segs, n, cubic)
         };
-        let curve = match h.kind {
-            ReaderKind::Metal => None,
-            _ => Some(table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?),
-        };
-        let volume = match h.volume_output {
-            Some(scale) => {
-                let v = table(
-                    HEADER_LEN + curve_len,
-                    volume_n,
-                    flags & FLAG_VOLUME_CUBIC != 0,
-                )
-                .map_err(BadVolume)?;
-                if !v.is_rising() {
-                    return Err(BadVolume(CurveError::NotMonotone));
-                }
-                Some((v, scale))
+        if h.kind != ReaderKind::Metal {
+            table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
+        }
+        if h.kind == ReaderKind::Level && h.volume_output.is_some() {
+            let v = table(
+                HEADER_LEN + curve_len,
+                volume_n,
+                flags & FLAG_VOLUME_CUBIC != 0,
+            )
+            .map_err(BadVolume)?;
+            if !v.is_rising() {
+                return Err(BadVolume(CurveError::NotMonotone));
             }
-            None => None,
-        };
-        Self::from_parts(bytes, &h, curve, volume)
+        }
+        let halved = Self::derived(bytes, &h)?;
+        Ok(Image {
+            bytes,
+            kind: h.kind,
+            halved,
+        })
     }
 
-    /// What the readers derive, checked here so that every reader builds.
+    /// What the readers derive, checked here so that every reader builds;
+    /// returns the scales of the stored reciprocals ([`Image::halved`]).
     #[inline(always)]
-    fn from_parts(
-        bytes: &'a [u8],
-        h: &Header,
-        curve: Option<CurveRef<'a>>,
-        volume: Option<(CurveRef<'a>, OutputScale)>,
-    ) -> Result<Self, ImageError> {
+    fn derived(bytes: &'a [u8], h: &Header) -> Result<u8, ImageError> {
         use ImageError::*;
         let gate = (h.gate_cycles > 0).then_some(h.gate_cycles);
         let r = Bytes(bytes);
@@ -664,45 +701,35 @@ impl<'a> Image<'a> {
             pair(REST_RECIPROCAL, GATE_RECIPROCAL),
         )
         .map_err(BadGate)?;
+        let mut halved = converter.halved();
         let companion_reciprocals = pair(COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL);
         // Proximity and metal: a companion coil (ratiometric shift, its
-        // ratio derived here: one division). Level: a reference electrode
-        // with its own converter.
-        let (companion, reference) = match (h.kind, h.companion_rest) {
-            (ReaderKind::Level, Some(c)) => (
-                None,
-                Some(
-                    ShiftConverter::with_reciprocals(
-                        c,
-                        Gating::Reciprocal,
-                        gate,
-                        companion_reciprocals,
-                    )
-                    .map_err(|_| OutOfRange(Field::CompanionRest))?,
-                ),
-            ),
+        // ratio derived by the reader: one division). Level: a reference
+        // electrode with its own converter.
+        match (h.kind, h.companion_rest) {
+            (ReaderKind::Level, Some(c)) => {
+                let reference = ShiftConverter::with_reciprocals(
+                    c,
+                    Gating::Reciprocal,
+                    gate,
+                    companion_reciprocals,
+                )
+                .map_err(|_| OutOfRange(Field::CompanionRest))?;
+                halved |= reference.halved() << 2;
+            }
             _ if companion_reciprocals != (0, 0) => {
                 return Err(OutOfRange(Field::CompanionRest));
             }
-            (_, None) => (None, None),
-            (_, Some(c)) => (
-                Some(Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?),
-                None,
-            ),
-        };
-        if h.metal.is_some_and(|p| !crate::reader::metal_builds(&p)) {
+            (_, None) => {}
+            (_, Some(c)) => {
+                Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?;
+            }
+        }
+        if h.kind == ReaderKind::Metal && h.metal.is_some_and(|p| !crate::reader::metal_builds(&p))
+        {
             return Err(OutOfRange(Field::Metal));
         }
-        Ok(Image {
-            bytes,
-            kind: h.kind,
-            front: Front::new(h.window, converter, companion, h.drift, gate),
-            reference,
-            output: h.output,
-            curve,
-            volume,
-            metal: h.metal,
-        })
+        Ok(halved)
     }
 
     /// The image's bytes (exactly its stated length).
@@ -737,53 +764,102 @@ impl<'a> Image<'a> {
     /// The configured reciprocal gate in sensor cycles, `None` when the
     /// image has none (stored as 0).
     pub fn gate(&self) -> Option<u32> {
-        self.front.gate()
+        let g = u32::from_le_bytes(self.field(GATE_CYCLES));
+        (g > 0).then_some(g)
     }
 
     /// The plausibility window.
     pub fn window(&self) -> FaultWindow {
-        self.front.window()
+        FaultWindow::from_checked(
+            self.reference_hz(),
+            u32::from_le_bytes(self.field(WINDOW_MIN_HZ)),
+            u32::from_le_bytes(self.field(WINDOW_MAX_HZ)),
+            u32::from_le_bytes(self.field(WINDOW_MIN_CYCLES)),
+        )
     }
 
     /// The unit's rest point.
     pub fn rest(&self) -> RestPoint {
-        self.front.converter().rest()
+        RestPoint::from_checked(PeriodRatio::from_raw_q44(u64::from_le_bytes(
+            self.field(REST),
+        )))
     }
 
     /// The companion channel's (level: the reference electrode's) rest
     /// point, when the unit has one.
     pub fn companion_rest(&self) -> Option<RestPoint> {
         let raw = u64::from_le_bytes(self.field(COMPANION_REST));
-        (raw != 0)
-            .then(|| RestPoint::from_ratio(PeriodRatio::from_raw_q44(raw)).ok())
-            .flatten()
+        (raw != 0).then(|| RestPoint::from_checked(PeriodRatio::from_raw_q44(raw)))
     }
 
     /// The temperature model ([`TemperatureModel::NONE`] when not fitted).
     pub fn drift(&self) -> TemperatureModel {
-        self.front.drift()
+        TemperatureModel::from_checked(
+            CentiCelsius(i32::from_le_bytes(self.field(DRIFT_REFERENCE))),
+            i32::from_le_bytes(self.field(DRIFT_B1)),
+            i32::from_le_bytes(self.field(DRIFT_B2)),
+        )
     }
 
     /// Scale of the output (gap, level).
     pub fn output(&self) -> OutputScale {
-        self.output
+        let [unit, exp] = self.field(OUTPUT);
+        scale_from(unit, exp).unwrap_or(OutputScale {
+            unit: OutputUnit::None,
+            decimal_exponent: 0,
+        })
+    }
+
+    /// A table's view, read in place (`None` for an empty table).
+    fn table(&self, at: usize, n: usize, cubic: bool) -> Option<CurveRef<'a>> {
+        let words: &'a [u32] = bytemuck::try_cast_slice(self.bytes).ok()?;
+        let w = words.get(at / 4..)?;
+        CurveRef::from_checked_words(w, w.get(n * 3..)?, n, cubic)
+    }
+
+    fn flags(&self) -> u8 {
+        self.field::<1>(FLAGS)[0]
     }
 
     /// The shift → value curve (proximity, level).
     pub fn curve(&self) -> Option<CurveRef<'a>> {
-        self.curve
+        let n = usize::from(self.field::<1>(CURVE_NODES)[0]);
+        self.table(HEADER_LEN, n, self.flags() & FLAG_CUBIC != 0)
     }
 
     /// The level → volume table and its scale (level only): its x axis is
     /// the level in the curve's output units, times 2^32, in the Q23.40
     /// field.
     pub fn volume(&self) -> Option<(CurveRef<'a>, OutputScale)> {
-        self.volume
+        let flags = self.flags();
+        if flags & FLAG_VOLUME == 0 {
+            return None;
+        }
+        let curve_n = usize::from(self.field::<1>(CURVE_NODES)[0]);
+        let n = usize::from(self.field::<1>(VOLUME_NODES)[0]);
+        let at = HEADER_LEN + table_len(curve_n, flags & FLAG_CUBIC != 0);
+        let [unit, exp] = self.field(VOLUME_OUTPUT);
+        Some((
+            self.table(at, n, flags & FLAG_VOLUME_CUBIC != 0)?,
+            scale_from(unit, exp)?,
+        ))
     }
 
     /// Metal parameters (metal only).
     pub fn metal(&self) -> Option<MetalParams> {
-        self.metal
+        if self.kind != ReaderKind::Metal {
+            return None;
+        }
+        let r = Bytes(self.bytes);
+        Some(MetalParams {
+            enter_ppb: r.u32(METAL_ENTER_PPB)?,
+            leave_ppb: r.u32(METAL_LEAVE_PPB)?,
+            enter_samples: r.u16(METAL_ENTER_SAMPLES)?,
+            leave_samples: r.u16(METAL_LEAVE_SAMPLES)?,
+            baseline_k: r.u8(METAL_BASELINE_K)?,
+            ring_drop: r.u16(METAL_RING_DROP)?,
+            relearn_readings: r.u32(METAL_RELEARN)?,
+        })
     }
 
     /// Calibration time, UTC, Unix seconds.
@@ -802,13 +878,59 @@ impl<'a> Image<'a> {
         u32::from_le_bytes(Bytes(self.bytes).get(at).unwrap_or([0; 4]))
     }
 
-    pub(crate) fn front(&self) -> &Front {
-        &self.front
+    /// The converter of the stored rest point (`reciprocals` its two
+    /// reciprocal fields, `shift` the place of their scales in
+    /// [`Image::halved`]), as validation checked it.
+    fn converter(&self, rest: RestPoint, reciprocals: (Span, Span), shift: u32) -> ShiftConverter {
+        let r = Bytes(self.bytes);
+        ShiftConverter::from_checked(
+            rest,
+            self.gate().unwrap_or(0),
+            (
+                r.u32(reciprocals.0).unwrap_or(0),
+                r.u32(reciprocals.1).unwrap_or(0),
+            ),
+            (self.halved >> shift) & 3,
+        )
     }
 
-    pub(crate) fn reference(&self) -> Option<ShiftConverter> {
-        self.reference
+    /// The reader front the image describes: fault window, shift
+    /// converter, companion coil, drift model. Built by each reader's
+    /// constructor (validation checked that it builds).
+    pub(crate) fn front(&self) -> Front {
+        let rest = self.rest();
+        let converter = self.converter(rest, (REST_RECIPROCAL, GATE_RECIPROCAL), 0);
+        let companion = match (self.kind, self.companion_rest()) {
+            (ReaderKind::Level, _) | (_, None) => None,
+            (_, Some(c)) => Companion::new(rest, c).ok(),
+        };
+        Front::new(
+            self.window(),
+            converter,
+            companion,
+            self.drift(),
+            self.gate(),
+        )
     }
+
+    /// Level: the reference electrode's converter.
+    pub(crate) fn reference(&self) -> Option<ShiftConverter> {
+        match self.kind {
+            ReaderKind::Level => Some(self.converter(
+                self.companion_rest()?,
+                (COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL),
+                2,
+            )),
+            _ => None,
+        }
+    }
+}
+
+/// Whether every byte is erased flash (0xFF): by words where the bytes
+/// are aligned (after a validated image they are).
+fn erased(bytes: &[u8]) -> bool {
+    let (head, words, tail) = bytemuck::pod_align_to::<u8, u32>(bytes);
+    head.iter().chain(tail).all(|&b| b == 0xFF) && words.iter().all(|&w| w == u32::MAX)
 }
 
 /// Embeds a calibration image file at a 4-byte aligned address, as
@@ -1110,7 +1232,7 @@ mod host {
             {
                 return Err(BadCrc);
             }
-            let h = header(Bytes(bytes))?;
+            let h = header(Bytes(bytes), ACCEPT_ANY)?;
             let read = |at: usize, n: usize, cubic: bool| -> Result<Table, CurveError> {
                 let mut nodes = [Node::default(); MAX_NODES];
                 let mut ders = [0i64; MAX_NODES];
@@ -1509,6 +1631,34 @@ mod tests {
             Err(ImageError::OutOfRange(Field::CurveNodes))
         );
         assert_eq!(case(&|i| i[HEADER_LEN + 3] ^= 1), Err(ImageError::BadCrc));
+        // Bytes after the stated length: erased flash (0xFF) only, however
+        // many and wherever the image ends.
+        for extra in [1, 3, 4, 5, 600] {
+            let mut page = img.clone();
+            page.resize(img.len() + extra, 0xFF);
+            let page = ImageBuf::from_bytes(&page).unwrap();
+            let image = Image::new(page.as_bytes()).unwrap();
+            assert_eq!(image.bytes(), &img[..]);
+            for at in [img.len(), img.len() + extra - 1] {
+                let mut dirty = page.clone();
+                dirty.as_bytes_mut()[at] = 0xFE;
+                assert_eq!(
+                    Image::new(dirty.as_bytes()),
+                    Err(ImageError::LengthMismatch),
+                    "{extra} bytes after, byte {at} programmed"
+                );
+            }
+        }
+        // A one-kind validation refuses the other kinds.
+        assert!(Image::new_proximity(bytes).is_ok());
+        assert_eq!(
+            Image::new_level(bytes),
+            Err(ImageError::OutOfRange(Field::ReaderKind))
+        );
+        assert_eq!(
+            Image::new_metal(bytes),
+            Err(ImageError::OutOfRange(Field::ReaderKind))
+        );
         let mut short = [0u8; 10];
         assert_eq!(
             demo_proximity().unwrap().encode(&mut short),

@@ -147,6 +147,12 @@ impl RestPoint {
         Ok(Self(ratio))
     }
 
+    /// A rest point [`RestPoint::from_ratio`] accepted before (a
+    /// validated image's field), built without the check.
+    pub(crate) const fn from_checked(ratio: PeriodRatio) -> Self {
+        Self(ratio)
+    }
+
     /// A rest point measured as one count pair.
     pub fn from_counts(pair: CountPair) -> Result<Self, ShiftError> {
         let ratio = period_ratio(pair).map_err(|_| ShiftError::BadRestPoint)?;
@@ -200,14 +206,7 @@ fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
     if d == 0 || d >> 96 != 0 || m >> 31 == 0 {
         return None;
     }
-    // Bit length of d from its halves (2^(bits−1) ≤ d < 2^bits, bits ≤ 96).
-    let (hi, lo) = ((d >> 64) as u64, d as u64);
-    let bits = if hi != 0 {
-        128 - hi.leading_zeros()
-    } else {
-        64 - lo.leading_zeros()
-    };
-    let e = bits + 31; // ≤ 127
+    let e = bit_len(d) + 31; // ≤ 127
     if rounds_to(m, e, d) {
         return Some((m, e));
     }
@@ -216,6 +215,28 @@ fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
     // m = 2^31 exactly when 2^32 − 1 is not the rounding at e.
     let halved = m > 1 << 31 || !rounds_to(u32::MAX, e, d);
     (halved && rounds_to(m, e - 1, d)).then_some((m, e - 1))
+}
+
+/// p·N for p < 2^64 from 32 × 32-bit products: no 128-bit multiply (a
+/// library call on a Cortex-M0).
+#[inline]
+fn times_gate(p: u128, n: u32) -> u128 {
+    // p < 2^64, n < 2^32: the two partial products sum below 2^96, the
+    // shift and the sum cannot wrap.
+    u128::from(mul_u32_wide(p as u32, n))
+        .wrapping_add(u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32)
+}
+
+/// Bit length of d < 2^96 from its halves: 2^(bits−1) ≤ d < 2^bits,
+/// bits ≤ 96 (0 for d = 0).
+#[inline]
+fn bit_len(d: u128) -> u32 {
+    let (hi, lo) = ((d >> 64) as u64, d as u64);
+    if hi != 0 {
+        128 - hi.leading_zeros()
+    } else {
+        64 - lo.leading_zeros()
+    }
 }
 
 /// Whether m = round(2^e / d), half up (`round_div_u128`'s rounding), for
@@ -303,16 +324,67 @@ impl ShiftConverter {
         let p = u128::from(rest.0.raw_q44());
         let inv = reciprocal_checked(rest_reciprocal, p).ok_or(ShiftError::BadRestPoint)?;
         let gate = if n > 0 {
-            // p·N from 32 × 32-bit products (p < 2^64): no 128-bit multiply.
-            let pn = u128::from(mul_u32_wide(p as u32, n))
-                + (u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32);
-            reciprocal_checked(gate_reciprocal, pn).ok_or(ShiftError::BadRestPoint)?
+            reciprocal_checked(gate_reciprocal, times_gate(p, n)).ok_or(ShiftError::BadRestPoint)?
         } else if gate_reciprocal == 0 {
             (0, 0)
         } else {
             return Err(ShiftError::BadRestPoint);
         };
         Self::from_reciprocals(rest, gating, n, inv, gate)
+    }
+
+    /// Which reciprocal is at the halved scale (bit 0: 1/p_rest, bit 1:
+    /// 1/(p_rest·N)): its exponent one below 31 + the bit length of its
+    /// divisor. With the mantissas, all [`ShiftConverter::from_checked`]
+    /// needs to rebuild this converter without the checks.
+    pub(crate) fn halved(&self) -> u8 {
+        let p = u128::from(self.rest.0.raw_q44());
+        // e − 44 = exp: the exponents are e = bit_len + 31 or one less.
+        let low = |exp: i32, d: u128| u8::from(exp.wrapping_add(44) != (bit_len(d) + 31) as i32);
+        let gate = if self.gate_cycles > 0 {
+            low(self.gate_exp, times_gate(p, self.gate_cycles))
+        } else {
+            0
+        };
+        low(self.inv_exp, p) | gate << 1
+    }
+
+    /// The converter [`ShiftConverter::with_reciprocals`] accepted before
+    /// (a validated image's rest point, gate of `gate_cycles` (0: none),
+    /// reciprocals and their scales, [`ShiftConverter::halved`]), with a
+    /// reciprocal gate, rebuilt without the checks: a count of leading
+    /// zeros per reciprocal.
+    pub(crate) fn from_checked(
+        rest: RestPoint,
+        gate_cycles: u32,
+        (inv_mant, gate_mant): (u32, u32),
+        halved: u8,
+    ) -> Self {
+        let p = u128::from(rest.0.raw_q44());
+        // bit_len ≤ 96: e ≤ 127 and the subtractions cannot wrap.
+        let exp = |d: u128, bit: u8| {
+            (bit_len(d) + 31).wrapping_sub(u32::from((halved >> bit) & 1)) as i32 - 44
+        };
+        let (gate_exp, fast_c) = if gate_cycles > 0 {
+            let ge = exp(times_gate(p, gate_cycles), 1);
+            let fast_c = match ge.wrapping_sub(33) {
+                c @ 1..=31 => c as u8, // 1..=31 fits u8
+                _ => 0,
+            };
+            (ge, fast_c)
+        } else {
+            (0, 0)
+        };
+        Self {
+            fast_c,
+            rest,
+            gating: Gating::Reciprocal,
+            inv_mant,
+            inv_exp: exp(p, 0),
+            gate_cycles,
+            gate_mant,
+            gate_exp,
+        }
     }
 
     /// The reciprocal mantissas (1/p_rest, 1/(p_rest·N); the second 0

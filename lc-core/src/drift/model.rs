@@ -87,6 +87,12 @@ impl TemperatureModel {
         b2: 0,
     };
 
+    /// A model [`TemperatureModel::new`] accepted before (a validated
+    /// image's fields), built without the checks.
+    pub(crate) const fn from_checked(reference: CentiCelsius, b1: i32, b2: i32) -> Self {
+        Self { reference, b1, b2 }
+    }
+
     /// A model with reference temperature `reference`, b1 in 2^-40 per
     /// centi-kelvin and b2 in 2^-56 per centi-kelvin². Checked: the
     /// reference lies in [`TEMPERATURE_DOMAIN`] and |g| < 1/2 across it.

@@ -120,7 +120,7 @@ impl<'a> LevelReader<'a> {
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {
             (ReaderKind::Level, Some(curve)) => Ok(Self {
-                front: *image.front(),
+                front: image.front(),
                 reference: image.reference(),
                 curve,
                 volume: image.volume().map(|(v, _)| v),

@@ -89,7 +89,7 @@ impl MetalReader {
         // validates builds its reader); the errors cannot occur.
         let not_built = ReaderError::NotBuilt(ReaderKind::Metal);
         Ok(Self {
-            front: *image.front(),
+            front: image.front(),
             params,
             baseline: Ema::new(k).map_err(|_| not_built)?,
             ring_baseline: Ema::new(k).map_err(|_| not_built)?,

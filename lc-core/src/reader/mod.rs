@@ -285,18 +285,6 @@ impl Front {
         }
     }
 
-    pub(crate) fn gate(&self) -> Option<u32> {
-        self.converter.gate_cycles()
-    }
-
-    pub(crate) fn window(&self) -> FaultWindow {
-        self.window
-    }
-
-    pub(crate) fn converter(&self) -> &ShiftConverter {
-        &self.converter
-    }
-
     pub(crate) fn drift(&self) -> TemperatureModel {
         self.drift
     }
@@ -832,7 +820,7 @@ pub(crate) mod tests {
         #[test]
         fn checked_shift_equals_check_then_shift(ticks: u32, near in 0u32..400_000, cycles: u32, level: bool) {
             let cal = if level { level_cal(true, false) } else { demo_proximity().unwrap() };
-            let front = *image(&cal).front();
+            let front = image(&cal).front();
             let gate = cal.gate().unwrap();
             let a = front.accepted.unwrap();
             let (lo, hi) = (a.min_ticks, a.max_ticks);

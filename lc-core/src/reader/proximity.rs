@@ -53,7 +53,7 @@ impl<'a> ProximityReader<'a> {
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {
             (ReaderKind::Proximity, Some(curve)) => Ok(Self {
-                front: *image.front(),
+                front: image.front(),
                 curve,
             }),
             (kind, _) => Err(ReaderError::WrongKind(kind)),

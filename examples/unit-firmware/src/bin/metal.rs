@@ -40,7 +40,7 @@ fn main() -> ! {
     host.write(b"boot\n");
     let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(image) = Image::new(image) else {
+    let Ok(image) = Image::new_metal(image) else {
         host.fail(b"calibration image refused\n")
     };
     let Ok(mut reader) = MetalReader::new(&image) else {

@@ -54,7 +54,7 @@ fn main() -> ! {
     // optimizer from using what it knows of this build's image.
     let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(image) = Image::new(image) else {
+    let Ok(image) = Image::new_proximity(image) else {
         host.fail(b"calibration image refused\n")
     };
     let Ok(mut reader) = ProximityReader::new(&image) else {
