@@ -495,20 +495,19 @@ impl<'a> CurveRef<'a> {
     }
 
     /// [`CurveRef::from_words`] of words that passed it (a validated
-    /// image's table), without the checks: what a reader's constructor
-    /// builds at start-up. `None` only where `from_words` would refuse the
-    /// node count or the words' presence.
+    /// image's table, `whole` what `from_words` found,
+    /// [`CurveRef::on_whole_levels`]), without the checks: what a reader's
+    /// constructor builds at start-up. `None` only where `from_words`
+    /// would refuse the node count or the words' presence.
     pub(crate) fn from_checked_words(
         nodes: &'a [u32],
         segs: &'a [u32],
         len: usize,
         cubic: bool,
+        whole: bool,
     ) -> Option<Self> {
         let mut c = Self::view_of(nodes, segs, len, cubic).ok()?;
-        // The same `whole` as `from_words` finds: nodes on whole levels,
-        // width shifts in 1..=32.
-        c.whole = (0..len).all(|i| record(c.nodes, i)[0] == 0)
-            && (0..len - 1).all(|i| (1..=32).contains(&(c.segment_words(i)[0] & 0xFF)));
+        c.whole = whole;
         Some(c)
     }
 

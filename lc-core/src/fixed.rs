@@ -642,7 +642,16 @@ mod tests {
 
     #[test]
     fn rounding_division() {
-        for (n, d) in [(0u128, 1u128), (1, 1), (7, 2), (5, 3), (u128::MAX, 1), (u128::MAX, u128::MAX), (1 << 127, 3), (12345, 1 << 100)] {
+        for (n, d) in [
+            (0u128, 1u128),
+            (1, 1),
+            (7, 2),
+            (5, 3),
+            (u128::MAX, 1),
+            (u128::MAX, u128::MAX),
+            (1 << 127, 3),
+            (12345, 1 << 100),
+        ] {
             assert_eq!(div_rem_u128_serial(n, d), Some((n / d, n % d)), "{n} / {d}");
         }
         assert_eq!(div_rem_u128_serial(5, 0), None);

@@ -176,9 +176,9 @@ impl fmt::Display for ImageError {
             ImageError::FormatOne => f.write_str(
                 "format-1 image: rewrite it in format 2 with `lc-host inspect IMAGE --rewrite OUT`",
             ),
-            ImageError::LengthMismatch => {
-                f.write_str("stated length disagrees with the tables, or bytes after it are not erased (0xFF)")
-            }
+            ImageError::LengthMismatch => f.write_str(
+                "stated length disagrees with the tables, or bytes after it are not erased (0xFF)",
+            ),
             ImageError::Misaligned => f.write_str("image not at a 4-byte aligned address"),
             ImageError::BadCrc => f.write_str("CRC mismatch: image corrupt"),
             ImageError::OutOfRange(field) => write!(f, "field {field:?} out of range"),
@@ -559,6 +559,9 @@ pub struct Image<'a> {
     /// companion gate) is at the halved scale
     /// (`ShiftConverter::halved`).
     halved: u8,
+    /// Bit 0: the curve is on whole levels, bit 1: the volume table
+    /// (`CurveRef::on_whole_levels`, found by the tables' checks).
+    whole: u8,
 }
 
 /// The kinds a validation accepts, one bit per kind code.
@@ -662,8 +665,10 @@ impl<'a> Image<'a> {
             let segs = w.get(n * 3..).unwrap_or(&[]);
             CurveRef::from_words(w, segs, n, cubic)
         };
+        let mut whole = 0;
         if h.kind != ReaderKind::Metal {
-            table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
+            let c = table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
+            whole |= u8::from(c.on_whole_levels());
         }
         if h.kind == ReaderKind::Level && h.volume_output.is_some() {
             let v = table(
@@ -675,12 +680,14 @@ impl<'a> Image<'a> {
             if !v.is_rising() {
                 return Err(BadVolume(CurveError::NotMonotone));
             }
+            whole |= u8::from(v.on_whole_levels()) << 1;
         }
         let halved = Self::derived(bytes, &h)?;
         Ok(Image {
             bytes,
             kind: h.kind,
             halved,
+            whole,
         })
     }
 
@@ -811,10 +818,10 @@ impl<'a> Image<'a> {
     }
 
     /// A table's view, read in place (`None` for an empty table).
-    fn table(&self, at: usize, n: usize, cubic: bool) -> Option<CurveRef<'a>> {
+    fn table(&self, at: usize, n: usize, cubic: bool, whole: bool) -> Option<CurveRef<'a>> {
         let words: &'a [u32] = bytemuck::try_cast_slice(self.bytes).ok()?;
         let w = words.get(at / 4..)?;
-        CurveRef::from_checked_words(w, w.get(n * 3..)?, n, cubic)
+        CurveRef::from_checked_words(w, w.get(n * 3..)?, n, cubic, whole)
     }
 
     fn flags(&self) -> u8 {
@@ -824,7 +831,12 @@ impl<'a> Image<'a> {
     /// The shift → value curve (proximity, level).
     pub fn curve(&self) -> Option<CurveRef<'a>> {
         let n = usize::from(self.field::<1>(CURVE_NODES)[0]);
-        self.table(HEADER_LEN, n, self.flags() & FLAG_CUBIC != 0)
+        self.table(
+            HEADER_LEN,
+            n,
+            self.flags() & FLAG_CUBIC != 0,
+            self.whole & 1 != 0,
+        )
     }
 
     /// The level → volume table and its scale (level only): its x axis is
@@ -840,7 +852,7 @@ impl<'a> Image<'a> {
         let at = HEADER_LEN + table_len(curve_n, flags & FLAG_CUBIC != 0);
         let [unit, exp] = self.field(VOLUME_OUTPUT);
         Some((
-            self.table(at, n, flags & FLAG_VOLUME_CUBIC != 0)?,
+            self.table(at, n, flags & FLAG_VOLUME_CUBIC != 0, self.whole & 2 != 0)?,
             scale_from(unit, exp)?,
         ))
     }
@@ -896,7 +908,9 @@ impl<'a> Image<'a> {
 
     /// The reader front the image describes: fault window, shift
     /// converter, companion coil, drift model. Built by each reader's
-    /// constructor (validation checked that it builds).
+    /// constructor (validation checked that it builds). Inlined: the front
+    /// is built in place in the reader, not copied into it.
+    #[inline(always)]
     pub(crate) fn front(&self) -> Front {
         let rest = self.rest();
         let converter = self.converter(rest, (REST_RECIPROCAL, GATE_RECIPROCAL), 0);

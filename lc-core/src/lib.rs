@@ -100,7 +100,7 @@
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|
-//! | `ProximityReader` | 152 | | `Image` (start-up only) | 248 |
+//! | `ProximityReader` | 152 | | `Image` | 12 |
 //! | `LevelReader` | 232 | | `ImageBuf` (image copied to RAM) | 4 200 |
 //! | `MetalReader` | 232 | | `CurveRef` | 28 |
 //! | `Reader` (all three kinds) | 240 | | `Input` | 32 |
@@ -116,10 +116,12 @@
 //! | `NtcBeta` | 72 | | `NtcSteinhartHart` | 80 |
 //! | `Divider` | 12 | | | |
 //!
-//! Start-up on a Cortex-M0 (`Image::new` and the reader, `run.sh cost`):
-//! about 23 000 instructions for a 32-node cubic proximity image, 8 500 for
-//! the five-node demo image; stack of the two calls, a few hundred bytes
-//! besides the `Image`.
+//! Start-up on a Cortex-M0 (`Image::new_proximity` and
+//! `ProximityReader::new`, `run.sh cost`): about 21 500 instructions for a
+//! 32-node cubic proximity image, 6 500 for the five-node demo image; stack
+//! of the two calls, a few hundred bytes. The `Image` is a 12-byte view of
+//! the bytes in flash; each reader builds its fault window, converters and
+//! drift model from the image's fields (checked once, by validation).
 //!
 //! ## Numeric contract
 //!

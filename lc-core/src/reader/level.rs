@@ -114,7 +114,8 @@ pub struct LevelReader<'a> {
 
 impl<'a> LevelReader<'a> {
     /// The reader of a level image ([`ReaderError::WrongKind`] for another
-    /// kind). Cost: a copy of the image's derived constants, no
+    /// kind). Cost: its front and converters built from the image's
+    /// fields, no
     /// validation. RAM: 232 bytes on a 32-bit target, whatever the tables'
     /// node counts (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {

@@ -268,6 +268,7 @@ pub(crate) struct Front {
 }
 
 impl Front {
+    #[inline(always)]
     pub(crate) fn new(
         window: FaultWindow,
         converter: ShiftConverter,

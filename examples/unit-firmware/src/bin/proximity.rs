@@ -13,9 +13,10 @@
 //!    ([`Aligned`]: the image is read in place by words); a product may
 //!    ship them erased and let the rig write the image. (Without a section
 //!    of its own, `lc_core::include_image!` embeds an image aligned.)
-//! 2. **Validate.** `Image::new` checks the magic, format version,
-//!    length, CRC-32, every field and every curve segment, in place: the
-//!    image stays in flash. A unit whose image fails must not read:
+//! 2. **Validate.** `Image::new_proximity` checks the magic, format
+//!    version, length, CRC-32, every field and every curve segment, in
+//!    place: the image stays in flash. (`Image::new` accepts every kind
+//!    and links every kind's checks; this firmware runs one.) A unit whose image fails must not read:
 //!    report it and stop (here: exit with a failure status).
 //! 3. **Build the reader.** `ProximityReader::new` checks the image's
 //!    kind and borrows its curve from flash; nothing is derived.
