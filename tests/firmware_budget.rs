@@ -132,49 +132,48 @@ fn host_output(ex: &Example) -> String {
     let buf = ImageBuf::from_bytes(&bytes).expect("the committed image fits");
     let image = buf.image().expect("the committed image is valid");
     assert_eq!(image.kind(), ex.kind, "{}: image kind", ex.image);
-    let lines: Vec<report::Line> = match ex.kind {
+    let mut out = Text(String::from("boot\n"));
+    match ex.kind {
         ReaderKind::Proximity => {
             let mut r = ProximityReader::new(&image).expect("proximity reader");
-            (0u32..)
-                .zip(ex.inputs)
-                .map(|(i, input)| {
-                    let r = r.read(input);
-                    report::Line::reading(i, r.gap, None, r.shift.raw_q40(), r.status)
-                })
-                .collect()
+            for (i, input) in (0u32..).zip(ex.inputs) {
+                let r = r.read(input);
+                report::reading(&mut out, i, r.gap, None, r.shift.raw_q40(), r.status);
+            }
         }
         ReaderKind::Level => {
             let mut r = LevelReader::new(&image).expect("level reader");
-            (0u32..)
-                .zip(ex.inputs)
-                .map(|(i, input)| {
-                    let r = r.read(input);
-                    report::Line::reading(i, r.level, r.volume, r.axis.raw_q40(), r.status)
-                })
-                .collect()
+            for (i, input) in (0u32..).zip(ex.inputs) {
+                let r = r.read(input);
+                report::reading(&mut out, i, r.level, r.volume, r.axis.raw_q40(), r.status);
+            }
         }
         ReaderKind::Metal => {
             let mut r = MetalReader::new(&image).expect("metal reader");
-            (0u32..)
-                .zip(ex.inputs)
-                .map(|(i, input)| {
-                    let r = r.read(input);
-                    report::Line::reading(
-                        i,
-                        r.class as i32,
-                        r.ring_drop,
-                        r.delta.raw_q40(),
-                        r.status,
-                    )
-                })
-                .collect()
+            for (i, input) in (0u32..).zip(ex.inputs) {
+                let r = r.read(input);
+                report::reading(
+                    &mut out,
+                    i,
+                    r.class as i32,
+                    r.ring_drop,
+                    r.delta.raw_q40(),
+                    r.status,
+                );
+            }
         }
-    };
-    let mut out = String::from("boot\n");
-    for line in &lines {
-        out.push_str(std::str::from_utf8(line.as_bytes()).expect("ASCII line"));
     }
-    out
+    out.0
+}
+
+/// The host's side of the firmware's output: the lines as text.
+struct Text(String);
+
+impl report::Sink for Text {
+    fn put(&mut self, bytes: &[u8]) {
+        self.0
+            .push_str(std::str::from_utf8(bytes).expect("ASCII pieces"));
+    }
 }
 
 // ---------------------------------------------------------------------

@@ -60,9 +60,11 @@ mod crc;
 
 pub use crc::{crc32, Crc32, CRC32};
 
-use crate::counting::{FaultWindow, Gating, WindowError};
+use crate::counting::{FaultWindow, WindowError};
 use crate::curve::{CurveError, CurveRef, MAX_NODES};
-use crate::drift::{Companion, DriftError, TemperatureModel};
+#[cfg(feature = "companion")]
+use crate::drift::Companion;
+use crate::drift::{DriftError, TemperatureModel};
 use crate::ratio::PeriodRatio;
 use crate::reader::Front;
 use crate::shift::{RestPoint, ShiftConverter, ShiftError};
@@ -292,16 +294,19 @@ impl Serial {
         Some(Self(s))
     }
 
+    #[cfg(feature = "design")]
     fn from_bytes(raw: [u8; 16]) -> Option<Self> {
-        let len = raw.iter().position(|&c| c == 0).unwrap_or(16);
+        Self::valid(&raw).then_some(Self(raw))
+    }
+
+    /// Whether the stored bytes are a serial: printable ASCII, then NUL
+    /// padding, at least one character.
+    fn valid(raw: &[u8]) -> bool {
+        let len = raw.iter().position(|&c| c == 0).unwrap_or(raw.len());
         let (text, pad) = raw.split_at(len);
-        if text.is_empty()
-            || !text.iter().all(|c| (0x20..=0x7E).contains(c))
-            || pad.iter().any(|&c| c != 0)
-        {
-            return None;
-        }
-        Some(Self(raw))
+        !text.is_empty()
+            && text.iter().all(|c| (0x20..=0x7E).contains(c))
+            && pad.iter().all(|&c| c == 0)
     }
 
     /// The serial as text.
@@ -351,6 +356,7 @@ impl Bytes<'_> {
     fn u32(&self, span: Span) -> Option<u32> {
         self.get(span.at).map(u32::from_le_bytes)
     }
+    #[cfg(feature = "design")]
     fn i32(&self, span: Span) -> Option<i32> {
         self.get(span.at).map(i32::from_le_bytes)
     }
@@ -360,6 +366,75 @@ impl Bytes<'_> {
     #[cfg(feature = "design")]
     fn i64(&self, span: Span) -> Option<i64> {
         self.get(span.at).map(i64::from_le_bytes)
+    }
+}
+
+/// The header's field reads: from bytes anywhere ([`Bytes`], the host's
+/// format-1 parser) or from the words of a validated, aligned image
+/// ([`Words`]: one word load per field, no byte assembly).
+trait Fields: Copy {
+    fn raw(&self) -> &[u8];
+    fn u8(&self, span: Span) -> Option<u8>;
+    fn u16(&self, span: Span) -> Option<u16>;
+    fn u32(&self, span: Span) -> Option<u32>;
+    fn u64(&self, span: Span) -> Option<u64>;
+    fn i32(&self, span: Span) -> Option<i32> {
+        self.u32(span).map(|v| v as i32) // the same 32 bits
+    }
+}
+
+impl Fields for Bytes<'_> {
+    fn raw(&self) -> &[u8] {
+        self.0
+    }
+    fn u8(&self, span: Span) -> Option<u8> {
+        Bytes::u8(self, span)
+    }
+    fn u16(&self, span: Span) -> Option<u16> {
+        Bytes::u16(self, span)
+    }
+    fn u32(&self, span: Span) -> Option<u32> {
+        Bytes::u32(self, span)
+    }
+    fn u64(&self, span: Span) -> Option<u64> {
+        Bytes::u64(self, span)
+    }
+}
+
+/// An aligned image's words (and the same bytes). Every field lies at a
+/// multiple of its size ([`layout`]): a `u32` or `u64` field is whole
+/// words, a `u8` or `u16` field inside one word.
+#[derive(Clone, Copy)]
+struct Words<'a>(&'a [u32]);
+
+impl Words<'_> {
+    #[inline(always)]
+    fn word(&self, at: usize) -> Option<u32> {
+        self.0.get(at / 4).map(|w| u32::from_le(*w))
+    }
+}
+
+impl Fields for Words<'_> {
+    fn raw(&self) -> &[u8] {
+        bytemuck::cast_slice(self.0)
+    }
+    #[inline(always)]
+    fn u8(&self, span: Span) -> Option<u8> {
+        // The byte's place in its little-endian word: the cast keeps it.
+        self.word(span.at).map(|w| (w >> (8 * (span.at % 4))) as u8)
+    }
+    #[inline(always)]
+    fn u16(&self, span: Span) -> Option<u16> {
+        self.word(span.at)
+            .map(|w| (w >> (8 * (span.at % 4))) as u16)
+    }
+    #[inline(always)]
+    fn u32(&self, span: Span) -> Option<u32> {
+        self.word(span.at)
+    }
+    #[inline(always)]
+    fn u64(&self, span: Span) -> Option<u64> {
+        Some(u64::from(self.word(span.at)?) | u64::from(self.word(span.at + 4)?) << 32)
     }
 }
 
@@ -390,6 +465,7 @@ fn scale_from(unit: u8, exp: u8) -> Option<OutputScale> {
 #[cfg_attr(not(feature = "design"), allow(dead_code))]
 struct Header {
     kind: ReaderKind,
+    #[cfg(feature = "design")]
     serial: Serial,
     reference_hz: u32,
     gate_cycles: u32,
@@ -420,7 +496,7 @@ fn framing(bytes: &[u8]) -> Result<(u16, usize), ImageError> {
 
 /// The header's field checks, after the CRC.
 #[inline(always)]
-fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
+fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
     use ImageError::*;
     let t = |v: Option<u8>| v.ok_or(Truncated);
     let flags = t(r.u8(FLAGS))?;
@@ -435,7 +511,12 @@ fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
     if flags & !KNOWN_FLAGS != 0 {
         return Err(OutOfRange(Field::Flags));
     }
-    let serial = Serial::from_bytes(r.get::<16>(SERIAL.at).ok_or(Truncated)?)
+    let raw = r.raw().get(SERIAL.at..SERIAL.end()).ok_or(Truncated)?;
+    if !Serial::valid(raw) {
+        return Err(OutOfRange(Field::Serial));
+    }
+    #[cfg(feature = "design")]
+    let serial = Serial::from_bytes(raw.try_into().map_err(|_| Truncated)?)
         .ok_or(OutOfRange(Field::Serial))?;
     let reference_hz = r.u32(REFERENCE_HZ).ok_or(Truncated)?;
     if reference_hz == 0 {
@@ -468,9 +549,13 @@ fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
         r.i32(DRIFT_B2).ok_or(Truncated)?,
     )
     .map_err(BadDrift)?;
-    let output = scale_from(t(r.u8(OUTPUT))?, t(r.get::<2>(OUTPUT.at).map(|b| b[1]))?)
-        .ok_or(OutOfRange(Field::Output))?;
-    let volume_raw = r.get::<2>(VOLUME_OUTPUT.at).ok_or(Truncated)?;
+    let second = |span: Span| Span {
+        at: span.at + 1,
+        len: 1,
+    };
+    let output =
+        scale_from(t(r.u8(OUTPUT))?, t(r.u8(second(OUTPUT)))?).ok_or(OutOfRange(Field::Output))?;
+    let volume_raw = [t(r.u8(VOLUME_OUTPUT))?, t(r.u8(second(VOLUME_OUTPUT)))?];
     let curve_n = usize::from(t(r.u8(CURVE_NODES))?);
     let volume_n = usize::from(t(r.u8(VOLUME_NODES))?);
     // Kind against tables.
@@ -517,7 +602,10 @@ fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
         }
         Some(p)
     } else {
-        let raw = r.get::<24>(METAL_ENTER_PPB.at).ok_or(Truncated)?;
+        let raw = r
+            .raw()
+            .get(METAL_ENTER_PPB.at..METAL_ENTER_PPB.at + 24)
+            .ok_or(Truncated)?;
         if raw.iter().any(|&b| b != 0) {
             return Err(OutOfRange(Field::Metal));
         }
@@ -525,6 +613,7 @@ fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
     };
     Ok(Header {
         kind,
+        #[cfg(feature = "design")]
         serial,
         reference_hz,
         gate_cycles,
@@ -553,7 +642,8 @@ fn header(r: Bytes<'_>, accept: u8) -> Result<Header, ImageError> {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Image<'a> {
-    bytes: &'a [u8],
+    /// The image's words (little endian), exactly its stated length.
+    words: &'a [u32],
     kind: ReaderKind,
     /// Bit i set: the i-th stored reciprocal (rest, gate, companion,
     /// companion gate) is at the halved scale
@@ -658,7 +748,7 @@ impl<'a> Image<'a> {
         if stored.first().map(|w| u32::from_le(*w)) != Some(crc::crc32_words(body)) {
             return Err(BadCrc);
         }
-        let h = header(Bytes(bytes), accept)?;
+        let h = header(Words(words), accept)?;
         // Tables: nodes, then segments, each table after the last.
         let table = |at: usize, n: usize, cubic: bool| {
             let w = words.get(at / 4..).unwrap_or(&[]);
@@ -682,9 +772,9 @@ impl<'a> Image<'a> {
             }
             whole |= u8::from(v.on_whole_levels()) << 1;
         }
-        let halved = Self::derived(bytes, &h)?;
+        let halved = Self::derived(words, &h)?;
         Ok(Image {
-            bytes,
+            words,
             kind: h.kind,
             halved,
             whole,
@@ -694,43 +784,41 @@ impl<'a> Image<'a> {
     /// What the readers derive, checked here so that every reader builds;
     /// returns the scales of the stored reciprocals ([`Image::halved`]).
     #[inline(always)]
-    fn derived(bytes: &'a [u8], h: &Header) -> Result<u8, ImageError> {
+    fn derived(words: &'a [u32], h: &Header) -> Result<u8, ImageError> {
         use ImageError::*;
-        let gate = (h.gate_cycles > 0).then_some(h.gate_cycles);
-        let r = Bytes(bytes);
+        let r = Words(words);
         let pair = |a: Span, b: Span| (r.u32(a).unwrap_or(0), r.u32(b).unwrap_or(0));
-        // The converters from their stored reciprocals, checked by
-        // multiplies: no 128-bit division at start-up.
-        let converter = ShiftConverter::with_reciprocals(
+        // The converters' stored reciprocals, checked by multiplies: no
+        // 128-bit division at start-up.
+        let mut halved = ShiftConverter::check_reciprocals(
             h.rest,
-            Gating::Reciprocal,
-            gate,
+            h.gate_cycles,
             pair(REST_RECIPROCAL, GATE_RECIPROCAL),
         )
         .map_err(BadGate)?;
-        let mut halved = converter.halved();
         let companion_reciprocals = pair(COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL);
         // Proximity and metal: a companion coil (ratiometric shift, its
         // ratio derived by the reader: one division). Level: a reference
         // electrode with its own converter.
         match (h.kind, h.companion_rest) {
             (ReaderKind::Level, Some(c)) => {
-                let reference = ShiftConverter::with_reciprocals(
-                    c,
-                    Gating::Reciprocal,
-                    gate,
-                    companion_reciprocals,
-                )
-                .map_err(|_| OutOfRange(Field::CompanionRest))?;
-                halved |= reference.halved() << 2;
+                let reference =
+                    ShiftConverter::check_reciprocals(c, h.gate_cycles, companion_reciprocals)
+                        .map_err(|_| OutOfRange(Field::CompanionRest))?;
+                halved |= reference << 2;
             }
             _ if companion_reciprocals != (0, 0) => {
                 return Err(OutOfRange(Field::CompanionRest));
             }
             (_, None) => {}
+            #[cfg(feature = "companion")]
             (_, Some(c)) => {
                 Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?;
             }
+            // Built without the companion coil's support: refused here, so
+            // that a validated image always builds its reader.
+            #[cfg(not(feature = "companion"))]
+            (_, Some(_)) => return Err(OutOfRange(Field::CompanionRest)),
         }
         if h.kind == ReaderKind::Metal && h.metal.is_some_and(|p| !crate::reader::metal_builds(&p))
         {
@@ -741,7 +829,7 @@ impl<'a> Image<'a> {
 
     /// The image's bytes (exactly its stated length).
     pub fn bytes(&self) -> &'a [u8] {
-        self.bytes
+        bytemuck::cast_slice(self.words)
     }
 
     /// Which reader the unit runs.
@@ -751,12 +839,27 @@ impl<'a> Image<'a> {
 
     /// A header field's bytes (the [`layout`] spans).
     fn field<const N: usize>(&self, span: Span) -> [u8; N] {
-        Bytes(self.bytes).get(span.at).unwrap_or([0; N])
+        Bytes(self.bytes()).get(span.at).unwrap_or([0; N])
+    }
+
+    /// A `u32` field (one word load).
+    fn u32(&self, span: Span) -> u32 {
+        Words(self.words).u32(span).unwrap_or(0)
+    }
+
+    /// A `u64` field (two word loads).
+    fn u64(&self, span: Span) -> u64 {
+        Words(self.words).u64(span).unwrap_or(0)
+    }
+
+    /// A `u8` field.
+    fn u8(&self, span: Span) -> u8 {
+        Words(self.words).u8(span).unwrap_or(0)
     }
 
     /// The unit serial.
     pub fn serial(&self) -> &'a str {
-        let raw = self.bytes.get(SERIAL.at..SERIAL.end()).unwrap_or(&[]);
+        let raw = self.bytes().get(SERIAL.at..SERIAL.end()).unwrap_or(&[]);
         let len = raw.iter().position(|&c| c == 0).unwrap_or(raw.len());
         raw.get(..len)
             .and_then(|t| core::str::from_utf8(t).ok())
@@ -765,13 +868,13 @@ impl<'a> Image<'a> {
 
     /// Reference clock of the counter, hertz.
     pub fn reference_hz(&self) -> u32 {
-        u32::from_le_bytes(self.field(REFERENCE_HZ))
+        self.u32(REFERENCE_HZ)
     }
 
     /// The configured reciprocal gate in sensor cycles, `None` when the
     /// image has none (stored as 0).
     pub fn gate(&self) -> Option<u32> {
-        let g = u32::from_le_bytes(self.field(GATE_CYCLES));
+        let g = self.u32(GATE_CYCLES);
         (g > 0).then_some(g)
     }
 
@@ -779,32 +882,30 @@ impl<'a> Image<'a> {
     pub fn window(&self) -> FaultWindow {
         FaultWindow::from_checked(
             self.reference_hz(),
-            u32::from_le_bytes(self.field(WINDOW_MIN_HZ)),
-            u32::from_le_bytes(self.field(WINDOW_MAX_HZ)),
-            u32::from_le_bytes(self.field(WINDOW_MIN_CYCLES)),
+            self.u32(WINDOW_MIN_HZ),
+            self.u32(WINDOW_MAX_HZ),
+            self.u32(WINDOW_MIN_CYCLES),
         )
     }
 
     /// The unit's rest point.
     pub fn rest(&self) -> RestPoint {
-        RestPoint::from_checked(PeriodRatio::from_raw_q44(u64::from_le_bytes(
-            self.field(REST),
-        )))
+        RestPoint::from_checked(PeriodRatio::from_raw_q44(self.u64(REST)))
     }
 
     /// The companion channel's (level: the reference electrode's) rest
     /// point, when the unit has one.
     pub fn companion_rest(&self) -> Option<RestPoint> {
-        let raw = u64::from_le_bytes(self.field(COMPANION_REST));
+        let raw = self.u64(COMPANION_REST);
         (raw != 0).then(|| RestPoint::from_checked(PeriodRatio::from_raw_q44(raw)))
     }
 
     /// The temperature model ([`TemperatureModel::NONE`] when not fitted).
     pub fn drift(&self) -> TemperatureModel {
         TemperatureModel::from_checked(
-            CentiCelsius(i32::from_le_bytes(self.field(DRIFT_REFERENCE))),
-            i32::from_le_bytes(self.field(DRIFT_B1)),
-            i32::from_le_bytes(self.field(DRIFT_B2)),
+            CentiCelsius(self.u32(DRIFT_REFERENCE) as i32),
+            self.u32(DRIFT_B1) as i32,
+            self.u32(DRIFT_B2) as i32,
         )
     }
 
@@ -819,18 +920,17 @@ impl<'a> Image<'a> {
 
     /// A table's view, read in place (`None` for an empty table).
     fn table(&self, at: usize, n: usize, cubic: bool, whole: bool) -> Option<CurveRef<'a>> {
-        let words: &'a [u32] = bytemuck::try_cast_slice(self.bytes).ok()?;
-        let w = words.get(at / 4..)?;
+        let w = self.words.get(at / 4..)?;
         CurveRef::from_checked_words(w, w.get(n * 3..)?, n, cubic, whole)
     }
 
     fn flags(&self) -> u8 {
-        self.field::<1>(FLAGS)[0]
+        self.u8(FLAGS)
     }
 
     /// The shift → value curve (proximity, level).
     pub fn curve(&self) -> Option<CurveRef<'a>> {
-        let n = usize::from(self.field::<1>(CURVE_NODES)[0]);
+        let n = usize::from(self.u8(CURVE_NODES));
         self.table(
             HEADER_LEN,
             n,
@@ -847,8 +947,8 @@ impl<'a> Image<'a> {
         if flags & FLAG_VOLUME == 0 {
             return None;
         }
-        let curve_n = usize::from(self.field::<1>(CURVE_NODES)[0]);
-        let n = usize::from(self.field::<1>(VOLUME_NODES)[0]);
+        let curve_n = usize::from(self.u8(CURVE_NODES));
+        let n = usize::from(self.u8(VOLUME_NODES));
         let at = HEADER_LEN + table_len(curve_n, flags & FLAG_CUBIC != 0);
         let [unit, exp] = self.field(VOLUME_OUTPUT);
         Some((
@@ -862,7 +962,7 @@ impl<'a> Image<'a> {
         if self.kind != ReaderKind::Metal {
             return None;
         }
-        let r = Bytes(self.bytes);
+        let r = Words(self.words);
         Some(MetalParams {
             enter_ppb: r.u32(METAL_ENTER_PPB)?,
             leave_ppb: r.u32(METAL_LEAVE_PPB)?,
@@ -886,22 +986,17 @@ impl<'a> Image<'a> {
 
     /// The image's stored CRC-32.
     pub fn crc(&self) -> u32 {
-        let at = self.bytes.len().saturating_sub(CRC_LEN);
-        u32::from_le_bytes(Bytes(self.bytes).get(at).unwrap_or([0; 4]))
+        self.words.last().map_or(0, |w| u32::from_le(*w))
     }
 
     /// The converter of the stored rest point (`reciprocals` its two
     /// reciprocal fields, `shift` the place of their scales in
     /// [`Image::halved`]), as validation checked it.
     fn converter(&self, rest: RestPoint, reciprocals: (Span, Span), shift: u32) -> ShiftConverter {
-        let r = Bytes(self.bytes);
         ShiftConverter::from_checked(
             rest,
             self.gate().unwrap_or(0),
-            (
-                r.u32(reciprocals.0).unwrap_or(0),
-                r.u32(reciprocals.1).unwrap_or(0),
-            ),
+            (self.u32(reciprocals.0), self.u32(reciprocals.1)),
             (self.halved >> shift) & 3,
         )
     }
@@ -914,10 +1009,14 @@ impl<'a> Image<'a> {
     pub(crate) fn front(&self) -> Front {
         let rest = self.rest();
         let converter = self.converter(rest, (REST_RECIPROCAL, GATE_RECIPROCAL), 0);
+        #[cfg(feature = "companion")]
         let companion = match (self.kind, self.companion_rest()) {
             (ReaderKind::Level, _) | (_, None) => None,
             (_, Some(c)) => Companion::new(rest, c).ok(),
         };
+        // Without the feature, validation refuses a companion coil.
+        #[cfg(not(feature = "companion"))]
+        let companion = None;
         Front::new(
             self.window(),
             converter,
@@ -1382,7 +1481,7 @@ mod host {
             // The converters' reciprocals, which the firmware checks
             // instead of dividing.
             let reciprocals = |rest: RestPoint| {
-                ShiftConverter::new(rest, Gating::Reciprocal, self.gate())
+                ShiftConverter::new(rest, crate::counting::Gating::Reciprocal, self.gate())
                     .map(|c| c.reciprocals())
                     .map_err(ImageError::BadGate)
             };

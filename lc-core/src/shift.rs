@@ -202,6 +202,7 @@ fn gate_of(gating: Gating, gate_cycles: Option<u32>) -> u32 {
 /// The exponent e when `m` is [`reciprocal_mantissa`]`(d)`'s mantissa
 /// (m = round(2^e / d), half up, 2^31 ≤ m < 2^32, e the one that
 /// function picks); `None` otherwise. Multiplies and compares only.
+#[inline(always)]
 fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
     if d == 0 || d >> 96 != 0 || m >> 31 == 0 {
         return None;
@@ -333,20 +334,32 @@ impl ShiftConverter {
         Self::from_reciprocals(rest, gating, n, inv, gate)
     }
 
-    /// Which reciprocal is at the halved scale (bit 0: 1/p_rest, bit 1:
-    /// 1/(p_rest·N)): its exponent one below 31 + the bit length of its
+    /// [`ShiftConverter::with_reciprocals`]'s checks for a reciprocal gate
+    /// of `gate_cycles` (0: none), without building the converter:
+    /// which reciprocal is at the halved scale (bit 0: 1/p_rest, bit 1:
+    /// 1/(p_rest·N)), its exponent one below 31 + the bit length of its
     /// divisor. With the mantissas, all [`ShiftConverter::from_checked`]
-    /// needs to rebuild this converter without the checks.
-    pub(crate) fn halved(&self) -> u8 {
-        let p = u128::from(self.rest.0.raw_q44());
-        // e − 44 = exp: the exponents are e = bit_len + 31 or one less.
-        let low = |exp: i32, d: u128| u8::from(exp.wrapping_add(44) != (bit_len(d) + 31) as i32);
-        let gate = if self.gate_cycles > 0 {
-            low(self.gate_exp, times_gate(p, self.gate_cycles))
-        } else {
-            0
+    /// needs to rebuild the converter without the checks.
+    pub(crate) fn check_reciprocals(
+        rest: RestPoint,
+        gate_cycles: u32,
+        (rest_reciprocal, gate_reciprocal): (u32, u32),
+    ) -> Result<u8, ShiftError> {
+        let p = u128::from(rest.0.raw_q44());
+        let halved = |m: u32, d: u128| {
+            reciprocal_checked(m, d)
+                .map(|(_, e)| u8::from(e != bit_len(d) + 31))
+                .ok_or(ShiftError::BadRestPoint)
         };
-        low(self.inv_exp, p) | gate << 1
+        let inv = halved(rest_reciprocal, p)?;
+        let gate = if gate_cycles > 0 {
+            halved(gate_reciprocal, times_gate(p, gate_cycles))?
+        } else if gate_reciprocal == 0 {
+            0
+        } else {
+            return Err(ShiftError::BadRestPoint);
+        };
+        Ok(inv | gate << 1)
     }
 
     /// The converter [`ShiftConverter::with_reciprocals`] accepted before

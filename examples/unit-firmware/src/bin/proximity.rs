@@ -39,7 +39,7 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use lc_core::image::Image;
 use lc_core::reader::ProximityReader;
-use lc_unit::{report::Line, script, Aligned, Host};
+use lc_unit::{report, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see step 1).
 #[link_section = ".calibration"]
@@ -64,8 +64,7 @@ fn main() -> ! {
 
     for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
         let r = reader.read(input);
-        let line = Line::reading(i, r.gap, None, r.shift.raw_q40(), r.status);
-        host.write(line.as_bytes());
+        report::reading(&mut host, i, r.gap, None, r.shift.raw_q40(), r.status);
     }
     host.finish()
 }
