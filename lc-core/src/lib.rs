@@ -79,6 +79,7 @@
 //! | `proximity` | yes | [`reader::ProximityReader`] |
 //! | `level` | yes | [`reader::LevelReader`] |
 //! | `metal` | yes | [`reader::MetalReader`] |
+//! | `companion` | yes | a companion coil beside a proximity or metal unit's sensor coil (ratiometric shift); without it `Image::new` refuses such an image, the ratio's start-up division is left out and each reader is 40 bytes smaller |
 //! | `scanner` | yes | [`scanner`]: channel scanner and multiplexers |
 //! | `ntc` | yes | NTC conversions in [`temperature`] (Beta, Steinhart–Hart) |
 //! | `crc-nibble` | no | CRC-32 from a 64-byte table instead of 1 KiB (about twice the start-up instructions per image byte) |
@@ -88,7 +89,10 @@
 //! A firmware names only what it runs, e.g.
 //! `lc-core = { version = "0.1", default-features = false, features = ["proximity"] }`.
 //! Code that is not called costs no flash either way; the features keep
-//! it out of the build and the API.
+//! it out of the build and the API. A firmware for one kind of unit also
+//! validates with that kind's constructor
+//! ([`image::Image::new_proximity`], `new_level`, `new_metal`): the other
+//! kinds' checks are then left out of its flash.
 //!
 //! ## Memory
 //!
@@ -96,7 +100,8 @@
 //! borrowed view of its curves, whatever the node count. `size_of` on a
 //! 32-bit target (Cortex-M0 and Cortex-M4F, the same), checked at compile
 //! time by the firmware example (`examples/firmware/src/sizes.rs`; a host
-//! build has 64-bit pointers and larger borrowing types):
+//! build has 64-bit pointers and larger borrowing types; the readers with
+//! the default features, 40 bytes less each without `companion`):
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|
