@@ -56,7 +56,9 @@
 //! ```
 
 use crate::counting::{CountPair, Gate, Gating};
-use crate::fixed::{mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64};
+use crate::fixed::{
+    leading_zeros_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64,
+};
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
 
@@ -228,15 +230,23 @@ fn times_gate(p: u128, n: u32) -> u128 {
         .wrapping_add(u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32)
 }
 
-/// Bit length of d < 2^96 from its halves: 2^(bits−1) ≤ d < 2^bits,
-/// bits ≤ 96 (0 for d = 0).
+/// Bit length of d from its 32-bit words: 2^(bits−1) ≤ d < 2^bits (0 for
+/// d = 0). On a Cortex-M0 a count of leading zeros of a `u64` is two
+/// library calls; [`leading_zeros_u32`] is a table lookup.
 #[inline]
 fn bit_len(d: u128) -> u32 {
-    let (hi, lo) = ((d >> 64) as u64, d as u64);
-    if hi != 0 {
-        128 - hi.leading_zeros()
+    // The words of d, the cast taking the low 32 bits of each shift.
+    let word = |k: u32| (d >> k) as u32;
+    // Each branch: 32·(i + 1) minus the leading zeros of a non-zero
+    // word i (below 32): no wrap.
+    if word(96) != 0 {
+        128 - leading_zeros_u32(word(96))
+    } else if word(64) != 0 {
+        96 - leading_zeros_u32(word(64))
+    } else if word(32) != 0 {
+        64 - leading_zeros_u32(word(32))
     } else {
-        64 - lo.leading_zeros()
+        32 - leading_zeros_u32(word(0))
     }
 }
 
@@ -712,6 +722,48 @@ mod tests {
     /// The stored-reciprocal check accepts exactly what
     /// `reciprocal_mantissa` computes: its mantissa with its exponent, and
     /// not the mantissa one off either way.
+    /// The word-wise bit length equals the native count, below and at
+    /// every word boundary.
+    #[test]
+    fn bit_len_is_the_native_bit_length() {
+        for k in 0..128u32 {
+            for d in [
+                1u128 << k,
+                (1u128 << k) - 1,
+                (1u128 << k) | 1,
+                u128::MAX >> k,
+            ] {
+                assert_eq!(bit_len(d), 128 - d.leading_zeros(), "{d:#x}");
+            }
+        }
+        assert_eq!(bit_len(0), 0);
+    }
+
+    /// A converter rebuilt from what validation found (`check_reciprocals`,
+    /// `from_checked`) is the one `new` builds.
+    #[test]
+    fn from_checked_rebuilds_the_converter() {
+        for (raw, n) in [
+            (1u64 << 36, 1),
+            (1 << 44, 4_096),
+            (u64::MAX, u32::MAX),
+            (139_542u64 << 30, 16_384),
+            (3 << 43, 0),
+        ] {
+            let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(raw)).unwrap();
+            let gate = (n > 0).then_some(n);
+            let c = ShiftConverter::new(rest, Gating::Reciprocal, gate).unwrap();
+            let halved = ShiftConverter::check_reciprocals(rest, n, c.reciprocals()).unwrap();
+            assert_eq!(
+                ShiftConverter::from_checked(rest, n, c.reciprocals(), halved),
+                c,
+                "{raw} {n}"
+            );
+            let (m, g) = c.reciprocals();
+            assert!(ShiftConverter::check_reciprocals(rest, n, (m ^ 1, g)).is_err());
+        }
+    }
+
     #[test]
     fn reciprocal_check_accepts_exactly_the_computed_mantissa() {
         let mut x = 0x9E37_79B9_7F4A_7C15u64;
