@@ -125,10 +125,21 @@ impl TemperatureModel {
             // |t| ≤ 2^47 + 30 000).
             // (The division neither divides by zero nor overflows: the
             // divisor is even and non-zero; `checked_div` only says so.)
-            let v = (i64::from(b1) << 16)
-                .wrapping_neg()
-                .checked_div(i64::from(b2).wrapping_mul(2))
-                .unwrap_or(i64::MAX);
+            // The truncating quotient from the magnitudes (a signed 64-bit
+            // division is one more library routine on a Cortex-M0): |n| <
+            // 2^47, 0 < |d| ≤ 2^32, so |q| < 2^47 and its negation cannot
+            // wrap.
+            let n = (i64::from(b1) << 16).wrapping_neg();
+            let d = i64::from(b2).wrapping_mul(2);
+            let q = n
+                .unsigned_abs()
+                .checked_div(d.unsigned_abs())
+                .map_or(i64::MAX, |q| q as i64); // q < 2^47: exact
+            let v = if (n < 0) != (d < 0) {
+                q.wrapping_neg()
+            } else {
+                q
+            };
             let t = i64::from(reference.0).wrapping_add(v);
             if (i64::from(lo.0)..=i64::from(hi.0)).contains(&t) {
                 // t in the domain: |v| ≤ 40 000, the bound above holds.
