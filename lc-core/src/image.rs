@@ -302,11 +302,17 @@ impl Serial {
     /// Whether the stored bytes are a serial: printable ASCII, then NUL
     /// padding, at least one character.
     fn valid(raw: &[u8]) -> bool {
-        let len = raw.iter().position(|&c| c == 0).unwrap_or(raw.len());
-        let (text, pad) = raw.split_at(len);
-        !text.is_empty()
-            && text.iter().all(|c| (0x20..=0x7E).contains(c))
-            && pad.iter().all(|&c| c == 0)
+        // One pass: after the first NUL only NULs.
+        let mut padding = false;
+        raw.first().is_some_and(|&c| c != 0)
+            && raw.iter().all(|&c| {
+                padding |= c == 0;
+                if padding {
+                    c == 0
+                } else {
+                    (0x20..=0x7E).contains(&c)
+                }
+            })
     }
 
     /// The serial as text.

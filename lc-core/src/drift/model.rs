@@ -110,11 +110,22 @@ impl TemperatureModel {
         // |b1·ΔT·2^16| ≤ 2^31·40 000·2^16 < 5.63·10^18 and |b2·ΔT²| ≤
         // 2^31·1.6·10^9 < 3.44·10^18: the sum and its magnitude stay below
         // 9.07·10^18 < 2^63. None of the wrapping operations below wraps.
+        //
+        // The products from 32 × 32-bit ones (a 64-bit multiply is a
+        // library call on a Cortex-M0): e = |ΔT| < 2^16 and e² < 2^31 fit
+        // `u32`, and `mul_i32_u32_wide` is exact: the same values as the
+        // 64-bit products.
         let g_at = |d: i64| -> u64 {
-            i64::from(b1)
-                .wrapping_mul(d)
+            let e = d.unsigned_abs() as u32; // ≤ 40 000: exact
+                                             // |b1·e| < 2^47: the negation cannot wrap.
+            let first = if d < 0 {
+                mul_i32_u32_wide(b1, e).wrapping_neg()
+            } else {
+                mul_i32_u32_wide(b1, e)
+            };
+            first
                 .wrapping_mul(1 << 16)
-                .wrapping_add(i64::from(b2).wrapping_mul(d).wrapping_mul(d))
+                .wrapping_add(mul_i32_u32_wide(b2, e.wrapping_mul(e)))
                 .unsigned_abs()
         };
         let delta = |t: i32| i64::from(t).wrapping_sub(i64::from(reference.0));
