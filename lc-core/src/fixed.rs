@@ -197,8 +197,9 @@ pub(crate) fn div_u64_u32(n: u64, d: u32) -> Option<(u32, u32)> {
         return None;
     }
     // m = d·2^z normalised, y ≈ 2^63/m: n/d = n·y·2^(z − 63).
+    // d ≠ 0: z ≤ 31, the shift is in range (the wrapping form states it).
     let z = leading_zeros_u32(d);
-    let y = reciprocal_q63(d << z);
+    let y = reciprocal_q63(d.wrapping_shl(z));
     // n·y / 2^32 from two 32 × 32-bit products (the low word of n_lo·y
     // dropped: under one unit of the estimate). n_hi < d ≤ 2^(32 − z)
     // and y < 2^32: the sum may reach 2^64 only for z = 0; then the
@@ -215,7 +216,8 @@ pub(crate) fn div_u64_u32(n: u64, d: u32) -> Option<(u32, u32)> {
     let est = if sh == 0 {
         s_lo
     } else {
-        (s_lo >> sh) | s_hi.wrapping_shl(32 - sh)
+        // sh in 1..=31 here.
+        s_lo.wrapping_shr(sh) | s_hi.wrapping_shl(32_u32.wrapping_sub(sh))
     };
     let mut q = if est_hi != 0 { u32::MAX } else { est };
     // r = n − q·d, |r| < 18·d < 2^37: as i64 from the wrapping difference.

@@ -206,18 +206,29 @@ fn gate_of(gating: Gating, gate_cycles: Option<u32>) -> u32 {
 /// function picks); `None` otherwise. Multiplies and compares only.
 #[inline(always)]
 fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
+    // e ≥ 31: taking one off cannot wrap.
+    reciprocal_scale(m, d).map(|(e, halved)| (m, e.wrapping_sub(u32::from(halved))))
+}
+
+/// [`reciprocal_checked`]'s finding as (31 + the bit length of d, whether
+/// the exponent is one below it): the product m·d formed once for both
+/// candidate exponents.
+#[inline(always)]
+fn reciprocal_scale(m: u32, d: u128) -> Option<(u32, bool)> {
     if d == 0 || d >> 96 != 0 || m >> 31 == 0 {
         return None;
     }
-    let e = bit_len(d) + 31; // ≤ 127
-    if rounds_to(m, e, d) {
-        return Some((m, e));
+    let e = bit_len(d).wrapping_add(31); // ≤ 127: no wrap
+    let t = times_words(m, d);
+    if product_rounds_to(t, e, d) {
+        return Some((e, false));
     }
     // `reciprocal_mantissa` takes e − 1 only when round(2^e / d) reaches
     // 2^32: certain when m > 2^31 at e − 1 (2^e / d ≥ 2m − 1), and for
     // m = 2^31 exactly when 2^32 − 1 is not the rounding at e.
     let halved = m > 1 << 31 || !rounds_to(u32::MAX, e, d);
-    (halved && rounds_to(m, e - 1, d)).then_some((m, e - 1))
+    // e ≥ 31: taking one off cannot wrap.
+    (halved && product_rounds_to(t, e.wrapping_sub(1), d)).then_some((e, true))
 }
 
 /// p·N for p < 2^64 from 32 × 32-bit products: no 128-bit multiply (a
@@ -240,13 +251,13 @@ fn bit_len(d: u128) -> u32 {
     // Each branch: 32·(i + 1) minus the leading zeros of a non-zero
     // word i (below 32): no wrap.
     if word(96) != 0 {
-        128 - leading_zeros_u32(word(96))
+        128_u32.wrapping_sub(leading_zeros_u32(word(96)))
     } else if word(64) != 0 {
-        96 - leading_zeros_u32(word(64))
+        96_u32.wrapping_sub(leading_zeros_u32(word(64)))
     } else if word(32) != 0 {
-        64 - leading_zeros_u32(word(32))
+        64_u32.wrapping_sub(leading_zeros_u32(word(32)))
     } else {
-        32 - leading_zeros_u32(word(0))
+        32_u32.wrapping_sub(leading_zeros_u32(word(0)))
     }
 }
 
@@ -254,14 +265,22 @@ fn bit_len(d: u128) -> u32 {
 /// e ≤ 127 and d < 2^96 (so m·d < 2^128): with t = m·d, t − 2^e ≤ d/2
 /// when t ≥ 2^e, 2^e − t < d/2 otherwise.
 fn rounds_to(m: u32, e: u32, d: u128) -> bool {
-    // m·d from 32 × 32-bit products of d's words (a 128-bit multiply is
-    // several library calls on a Cortex-M0).
+    product_rounds_to(times_words(m, d), e, d)
+}
+
+/// m·d for d < 2^96 from 32 × 32-bit products of d's words (a 128-bit
+/// multiply is several library calls on a Cortex-M0).
+fn times_words(m: u32, d: u128) -> u128 {
     let word = |k: u32| (d >> k) as u32; // the low 32 bits: exact
                                          // The three partial products add up to m·d < 2^128 (d < 2^96, m <
                                          // 2^32): the sums cannot wrap.
-    let t = u128::from(mul_u32_wide(m, word(0)))
+    u128::from(mul_u32_wide(m, word(0)))
         .wrapping_add(u128::from(mul_u32_wide(m, word(32))) << 32)
-        .wrapping_add(u128::from(mul_u32_wide(m, word(64))) << 64);
+        .wrapping_add(u128::from(mul_u32_wide(m, word(64))) << 64)
+}
+
+/// [`rounds_to`] of the product t = m·d.
+fn product_rounds_to(t: u128, e: u32, d: u128) -> bool {
     // e ≤ 127: the shift is in range (the wrapping form only states it).
     let p = 1u128.wrapping_shl(e);
     let diff = t.abs_diff(p);
@@ -357,8 +376,8 @@ impl ShiftConverter {
     ) -> Result<u8, ShiftError> {
         let p = u128::from(rest.0.raw_q44());
         let halved = |m: u32, d: u128| {
-            reciprocal_checked(m, d)
-                .map(|(_, e)| u8::from(e != bit_len(d) + 31))
+            reciprocal_scale(m, d)
+                .map(|(_, halved)| u8::from(halved))
                 .ok_or(ShiftError::BadRestPoint)
         };
         let inv = halved(rest_reciprocal, p)?;
@@ -386,7 +405,10 @@ impl ShiftConverter {
         let p = u128::from(rest.0.raw_q44());
         // bit_len ≤ 96: e ≤ 127 and the subtractions cannot wrap.
         let exp = |d: u128, bit: u8| {
-            (bit_len(d) + 31).wrapping_sub(u32::from((halved >> bit) & 1)) as i32 - 44
+            (bit_len(d)
+                .wrapping_add(31)
+                .wrapping_sub(u32::from((halved >> bit) & 1)) as i32)
+                .wrapping_sub(44)
         };
         let (gate_exp, fast_c) = if gate_cycles > 0 {
             let ge = exp(times_gate(p, gate_cycles), 1);
