@@ -184,59 +184,6 @@ fn div_rem_u128_serial(n: u128, d: u128) -> Option<(u128, u128)> {
     }
 }
 
-/// ⌊n / d⌋ and the remainder when the quotient fits `u32` (n < d·2^32);
-/// `None` otherwise or for d = 0. Exact: an estimate from
-/// [`reciprocal_q63`] (relative 2^-28, so within 17 of the quotient) and
-/// the remainder's correction, a few dozen instructions on a Cortex-M0
-/// where the library's 64-bit division takes several hundred. Start-up
-/// (the fault window's accepted ticks); a property test holds it equal to
-/// the native operators.
-pub(crate) fn div_u64_u32(n: u64, d: u32) -> Option<(u32, u32)> {
-    let (n_hi, n_lo) = ((n >> 32) as u32, n as u32); // exact halves
-    if d == 0 || n_hi >= d {
-        return None;
-    }
-    // m = d·2^z normalised, y ≈ 2^63/m: n/d = n·y·2^(z − 63).
-    // d ≠ 0: z ≤ 31, the shift is in range (the wrapping form states it).
-    let z = leading_zeros_u32(d);
-    let y = reciprocal_q63(d.wrapping_shl(z));
-    // n·y / 2^32 from two 32 × 32-bit products (the low word of n_lo·y
-    // dropped: under one unit of the estimate). n_hi < d ≤ 2^(32 − z)
-    // and y < 2^32: the sum may reach 2^64 only for z = 0; then the
-    // library's division.
-    let Some(s) = mul_u32_wide(n_hi, y).checked_add(mul_u32_wide(n_lo, y) >> 32) else {
-        let d = u64::from(d);
-        // n_hi < d: the quotient fits u32, the remainder is below d.
-        return Some(((n / d) as u32, (n % d) as u32));
-    };
-    // q ≈ s / 2^(31 − z), saturated to u32 (the quotient is below 2^32).
-    let sh = 31u32.wrapping_sub(z); // z ≤ 31
-    let (s_hi, s_lo) = ((s >> 32) as u32, s as u32);
-    let est_hi = s_hi.checked_shr(sh).unwrap_or(0);
-    let est = if sh == 0 {
-        s_lo
-    } else {
-        // sh in 1..=31 here.
-        s_lo.wrapping_shr(sh) | s_hi.wrapping_shl(32_u32.wrapping_sub(sh))
-    };
-    let mut q = if est_hi != 0 { u32::MAX } else { est };
-    // r = n − q·d, |r| < 18·d < 2^37: as i64 from the wrapping difference.
-    let mut r = n.wrapping_sub(mul_u32_wide(q, d)) as i64;
-    let d64 = i64::from(d);
-    while r < 0 {
-        // q > true quotient ≥ 0: q ≥ 1.
-        q = q.wrapping_sub(1);
-        r = r.wrapping_add(d64);
-    }
-    while r >= d64 {
-        // q < true quotient < 2^32: q + 1 cannot wrap.
-        q = q.wrapping_add(1);
-        r = r.wrapping_sub(d64);
-    }
-    // 0 ≤ r < d < 2^32: exact.
-    Some((q, r as u32))
-}
-
 /// `a · 2^32 / d` rounded to nearest, ties away from zero, or `None` when
 /// `d` is zero or the result does not fit 64 bits. Exact: two 64 ÷ 32-bit
 /// long-division steps with the remainder carried, the same result as the
@@ -539,15 +486,6 @@ mod tests {
         /// The shift-and-subtract 128-bit division (the ARMv6-M form of
         /// `round_div_u128`) equals the native operators.
         #[test]
-        fn div_u64_u32_equals_the_native_one(n: u64, d: u32, sh in 0u32..64, dsh in 0u32..32) {
-            for (n, d) in [(n, d), (n >> sh, d), (n, d >> dsh), (n >> sh, d >> dsh), (n, d | 1 << 31)] {
-                let native = (d != 0 && (n >> 32) < u64::from(d))
-                    .then(|| ((n / u64::from(d)) as u32, (n % u64::from(d)) as u32));
-                prop_assert_eq!(div_u64_u32(n, d), native, "{} / {}", n, d);
-            }
-        }
-
-        #[test]
         fn serial_division_equals_the_native_one(n: u128, d in 1u128.., sh in 0u32..128) {
             let d = (d >> sh).max(1);
             prop_assert_eq!(div_rem_u128_serial(n, d), Some((n / d, n % d)));
@@ -717,22 +655,6 @@ mod tests {
             assert_eq!(div_rem_u128_serial(n, d), Some((n / d, n % d)), "{n} / {d}");
         }
         assert_eq!(div_rem_u128_serial(5, 0), None);
-        for (n, d) in [
-            (0u64, 1u32),
-            ((u64::from(u32::MAX) << 32) - 1, u32::MAX),
-            (1 << 32, 2),
-            (u64::MAX >> 1, 1 << 31),
-            (12_345_678_901, 3),
-            (7, 1),
-        ] {
-            assert_eq!(
-                div_u64_u32(n, d),
-                Some(((n / u64::from(d)) as u32, (n % u64::from(d)) as u32)),
-                "{n} / {d}"
-            );
-        }
-        assert_eq!(div_u64_u32(1 << 32, 1), None);
-        assert_eq!(div_u64_u32(5, 0), None);
         assert_eq!(round_div_u128(7, 2), Some(4));
         assert_eq!(round_div_u128(5, 3), Some(2));
         assert_eq!(round_div_u128(4, 3), Some(1));

@@ -122,8 +122,8 @@
 //! | `Divider` | 12 | | | |
 //!
 //! Start-up on a Cortex-M0 (`Image::new_proximity` and
-//! `ProximityReader::new`, `run.sh cost`): about 20 400 instructions for a
-//! 32-node cubic proximity image, 5 400 for the five-node demo image; stack
+//! `ProximityReader::new`, `run.sh cost`): about 20 200 instructions for a
+//! 32-node cubic proximity image, 5 300 for the five-node demo image; stack
 //! of the two calls, a few hundred bytes. The `Image` is a 12-byte view of
 //! the bytes in flash; each reader builds its fault window, converters and
 //! drift model from the image's fields (checked once, by validation).

@@ -213,7 +213,7 @@ fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
 /// [`reciprocal_checked`]'s finding as (31 + the bit length of d, whether
 /// the exponent is one below it): the product m·d formed once for both
 /// candidate exponents.
-#[inline(always)]
+#[inline(never)]
 fn reciprocal_scale(m: u32, d: u128) -> Option<(u32, bool)> {
     if d == 0 || d >> 96 != 0 || m >> 31 == 0 {
         return None;
@@ -244,21 +244,21 @@ fn times_gate(p: u128, n: u32) -> u128 {
 /// Bit length of d from its 32-bit words: 2^(bits−1) ≤ d < 2^bits (0 for
 /// d = 0). On a Cortex-M0 a count of leading zeros of a `u64` is two
 /// library calls; [`leading_zeros_u32`] is a table lookup.
-#[inline]
+#[inline(never)]
 fn bit_len(d: u128) -> u32 {
-    // The words of d, the cast taking the low 32 bits of each shift.
-    let word = |k: u32| (d >> k) as u32;
-    // Each branch: 32·(i + 1) minus the leading zeros of a non-zero
-    // word i (below 32): no wrap.
-    if word(96) != 0 {
-        128_u32.wrapping_sub(leading_zeros_u32(word(96)))
-    } else if word(64) != 0 {
-        96_u32.wrapping_sub(leading_zeros_u32(word(64)))
-    } else if word(32) != 0 {
-        64_u32.wrapping_sub(leading_zeros_u32(word(32)))
-    } else {
-        32_u32.wrapping_sub(leading_zeros_u32(word(0)))
+    // The words of d, the casts taking the low 32 bits of each shift.
+    let w = [
+        d as u32,
+        (d >> 32) as u32,
+        (d >> 64) as u32,
+        (d >> 96) as u32,
+    ];
+    let mut i = 3;
+    while i > 0 && w[i] == 0 {
+        i -= 1;
     }
+    // i ≤ 3: 32·(i + 1) ≤ 128, minus at most 32 leading zeros: no wrap.
+    (32 * (i as u32 + 1)).wrapping_sub(leading_zeros_u32(w[i]))
 }
 
 /// Whether m = round(2^e / d), half up (`round_div_u128`'s rounding), for
@@ -280,6 +280,7 @@ fn times_words(m: u32, d: u128) -> u128 {
 }
 
 /// [`rounds_to`] of the product t = m·d.
+#[inline(never)]
 fn product_rounds_to(t: u128, e: u32, d: u128) -> bool {
     // e ≤ 127: the shift is in range (the wrapping form only states it).
     let p = 1u128.wrapping_shl(e);

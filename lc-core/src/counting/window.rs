@@ -1,7 +1,7 @@
 //! The fault window: which count pairs are plausible readings at all.
 
 use super::CountPair;
-use crate::fixed::{div_u64_u32, mul_u32_wide};
+use crate::fixed::mul_u32_wide;
 use core::fmt;
 
 /// Why a count pair is not a plausible reading.
@@ -175,16 +175,12 @@ impl FaultWindow {
         }
         let scaled = mul_u32_wide(self.reference_hz, gate_cycles);
         // f ≤ max ⇔ ticks ≥ f_ref·cycles/max; f ≥ min ⇔ ticks ≤ f_ref·cycles/min.
-        // The same values as `div_ceil` and `checked_div` in u64, from
-        // `div_u64_u32` (the library's 64-bit division is several hundred
-        // instructions on a Cortex-M0): a quotient beyond u32 leaves no
-        // band (lo) or saturates (hi).
-        let (q, r) = div_u64_u32(scaled, self.max_hz)?;
-        // q < 2^32: adding 1 in u64 cannot wrap.
-        let lo = u32::try_from(u64::from(q).wrapping_add(u64::from(r != 0)))
-            .ok()?
-            .max(1);
-        let hi = div_u64_u32(scaled, self.min_hz).map_or(u32::MAX, |(q, _)| q);
+        let lo = scaled.div_ceil(u64::from(self.max_hz)).max(1);
+        let hi = scaled
+            .checked_div(u64::from(self.min_hz))
+            .unwrap_or(u64::MAX);
+        let lo = u32::try_from(lo).ok()?;
+        let hi = u32::try_from(hi).unwrap_or(u32::MAX);
         (lo <= hi).then_some(AcceptedTicks {
             gate_cycles,
             min_ticks: lo,
