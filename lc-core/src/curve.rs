@@ -425,6 +425,44 @@ impl<'a> CurveRef<'a> {
         len: usize,
         cubic: bool,
     ) -> Result<Self, CurveError> {
+        let mut c = Self::view_of(nodes, segs, len, cubic)?;
+        // One pass, node after node: shifts increasing, each step of the
+        // table's direction (the direction of the first and last nodes: a
+        // step against it means the values rise and fall), each segment's
+        // constants. Each node's words are read once.
+        let mut whole = true;
+        let [lo, hi, y] = record(c.nodes, 0);
+        let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
+        whole &= lo == 0;
+        for i in 0..len - 1 {
+            // i < len − 1 ≤ 63: i + 1 cannot wrap.
+            let [lo, hi, y] = record(c.nodes, i.wrapping_add(1));
+            let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
+            whole &= lo == 0;
+            if x1 <= x0 {
+                return Err(CurveError::ShiftsNotIncreasing);
+            }
+            if (c.rising && y1 < y0) || (!c.rising && y1 > y0) {
+                return Err(CurveError::NotMonotone);
+            }
+            let seg = c.segment_words(i);
+            check_segment(seg, (x0, y0), (x1, y1), cubic, c.rising)?;
+            whole &= (1..=32).contains(&(seg[0] & 0xFF));
+            (x0, y0) = (x1, y1);
+        }
+        c.whole = whole;
+        Ok(c)
+    }
+
+    /// The view of `len` nodes and their segments, unchecked but for the
+    /// node count and the words' presence; its direction set.
+    #[inline(always)]
+    fn view_of(
+        nodes: &'a [u32],
+        segs: &'a [u32],
+        len: usize,
+        cubic: bool,
+    ) -> Result<Self, CurveError> {
         if len < 2 {
             return Err(CurveError::TooFewNodes);
         }
@@ -453,32 +491,24 @@ impl<'a> CurveRef<'a> {
             c.linear = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
         }
         c.rising = c.y(len - 1) >= c.y(0);
-        // One pass, node after node: shifts increasing, each step of the
-        // table's direction (the direction of the first and last nodes: a
-        // step against it means the values rise and fall), each segment's
-        // constants. Each node's words are read once.
-        let mut whole = true;
-        let [lo, hi, y] = record(c.nodes, 0);
-        let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
-        whole &= lo == 0;
-        for i in 0..len - 1 {
-            // i < len − 1 ≤ 63: i + 1 cannot wrap.
-            let [lo, hi, y] = record(c.nodes, i.wrapping_add(1));
-            let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
-            whole &= lo == 0;
-            if x1 <= x0 {
-                return Err(CurveError::ShiftsNotIncreasing);
-            }
-            if (c.rising && y1 < y0) || (!c.rising && y1 > y0) {
-                return Err(CurveError::NotMonotone);
-            }
-            let seg = c.segment_words(i);
-            check_segment(seg, (x0, y0), (x1, y1), cubic, c.rising)?;
-            whole &= (1..=32).contains(&(seg[0] & 0xFF));
-            (x0, y0) = (x1, y1);
-        }
-        c.whole = whole;
         Ok(c)
+    }
+
+    /// [`CurveRef::from_words`] of words that passed it (a validated
+    /// image's table, `whole` what `from_words` found,
+    /// [`CurveRef::on_whole_levels`]), without the checks: what a reader's
+    /// constructor builds at start-up. `None` only where `from_words`
+    /// would refuse the node count or the words' presence.
+    pub(crate) fn from_checked_words(
+        nodes: &'a [u32],
+        segs: &'a [u32],
+        len: usize,
+        cubic: bool,
+        whole: bool,
+    ) -> Option<Self> {
+        let mut c = Self::view_of(nodes, segs, len, cubic).ok()?;
+        c.whole = whole;
+        Some(c)
     }
 
     /// Number of nodes.

@@ -134,8 +134,11 @@ pub fn round_shr_u128(x: u128, sh: u32) -> u128 {
 /// calibration is loaded, never per reading.
 #[inline(never)]
 pub fn round_div_u128(n: u128, d: u128) -> Option<u128> {
-    let q = n.checked_div(d)?;
-    let r = n % d;
+    let (q, r) = if ARMV6M {
+        div_rem_u128_serial(n, d)?
+    } else {
+        (n.checked_div(d)?, n % d)
+    };
     // r < d, so d - r > 0; round up when r >= d - r, i.e. 2r >= d. That
     // needs d ≥ 2 (r = 0 for d = 1), so q ≤ n/2 and q + 1 cannot wrap.
     Some(if r >= d.wrapping_sub(r) {
@@ -143,6 +146,42 @@ pub fn round_div_u128(n: u128, d: u128) -> Option<u128> {
     } else {
         q
     })
+}
+
+/// `n / d` and `n % d` by shift and subtract, one quotient bit per step
+/// and only as many steps as the quotient has bits: on a Cortex-M0 a few
+/// hundred bytes of code instead of the library's 128-bit division (over
+/// a kilobyte), at start-up only. `None` when `d` is zero. Compiled
+/// everywhere; a property test holds it equal to the native operators.
+#[cfg_attr(not(test), allow(dead_code))]
+fn div_rem_u128_serial(n: u128, d: u128) -> Option<(u128, u128)> {
+    if d == 0 {
+        return None;
+    }
+    // Align d's top bit below n's: d·2^k ≤ n < d·2^(k+1).
+    let (mut dk, mut k) = (d, 0u32);
+    while dk <= n >> 1 {
+        // dk ≤ n/2 < 2^127: doubling cannot wrap; k < 128.
+        dk <<= 1;
+        k = k.wrapping_add(1);
+    }
+    let (mut q, mut r) = (0u128, n);
+    if dk > n {
+        return Some((0, n)); // n < d
+    }
+    loop {
+        // q < 2^(bits done) ≤ 2^128 / 2: the doubling cannot wrap.
+        q <<= 1;
+        if r >= dk {
+            r -= dk;
+            q |= 1;
+        }
+        if k == 0 {
+            return Some((q, r));
+        }
+        dk >>= 1;
+        k = k.wrapping_sub(1);
+    }
 }
 
 /// `a · 2^32 / d` rounded to nearest, ties away from zero, or `None` when
@@ -444,6 +483,17 @@ mod tests {
     use proptest::prelude::*;
 
     proptest! {
+        /// The shift-and-subtract 128-bit division (the ARMv6-M form of
+        /// `round_div_u128`) equals the native operators.
+        #[test]
+        fn serial_division_equals_the_native_one(n: u128, d in 1u128.., sh in 0u32..128) {
+            let d = (d >> sh).max(1);
+            prop_assert_eq!(div_rem_u128_serial(n, d), Some((n / d, n % d)));
+            prop_assert_eq!(div_rem_u128_serial(n >> sh, d), Some(((n >> sh) / d, (n >> sh) % d)));
+        }
+    }
+
+    proptest! {
         /// The ARMv6-M forms (binary-search count of leading zeros, shifts
         /// in words) equal the native operations.
         #[test]
@@ -592,6 +642,19 @@ mod tests {
 
     #[test]
     fn rounding_division() {
+        for (n, d) in [
+            (0u128, 1u128),
+            (1, 1),
+            (7, 2),
+            (5, 3),
+            (u128::MAX, 1),
+            (u128::MAX, u128::MAX),
+            (1 << 127, 3),
+            (12345, 1 << 100),
+        ] {
+            assert_eq!(div_rem_u128_serial(n, d), Some((n / d, n % d)), "{n} / {d}");
+        }
+        assert_eq!(div_rem_u128_serial(5, 0), None);
         assert_eq!(round_div_u128(7, 2), Some(4));
         assert_eq!(round_div_u128(5, 3), Some(2));
         assert_eq!(round_div_u128(4, 3), Some(1));

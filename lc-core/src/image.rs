@@ -60,9 +60,11 @@ mod crc;
 
 pub use crc::{crc32, Crc32, CRC32};
 
-use crate::counting::{FaultWindow, Gating, WindowError};
+use crate::counting::{FaultWindow, WindowError};
 use crate::curve::{CurveError, CurveRef, MAX_NODES};
-use crate::drift::{Companion, DriftError, TemperatureModel};
+#[cfg(feature = "companion")]
+use crate::drift::Companion;
+use crate::drift::{DriftError, TemperatureModel};
 use crate::ratio::PeriodRatio;
 use crate::reader::Front;
 use crate::shift::{RestPoint, ShiftConverter, ShiftError};
@@ -142,7 +144,8 @@ pub enum ImageError {
     /// A format-1 image: the host reads it and rewrites it in format 2
     /// (`lc-host inspect --rewrite OUT`).
     FormatOne,
-    /// The stated length disagrees with the table sizes.
+    /// The stated length disagrees with the table sizes, or a byte after
+    /// the stated length is not erased flash (0xFF).
     LengthMismatch,
     /// The image does not start at a 4-byte aligned address.
     Misaligned,
@@ -175,7 +178,9 @@ impl fmt::Display for ImageError {
             ImageError::FormatOne => f.write_str(
                 "format-1 image: rewrite it in format 2 with `lc-host inspect IMAGE --rewrite OUT`",
             ),
-            ImageError::LengthMismatch => f.write_str("stated length disagrees with the tables"),
+            ImageError::LengthMismatch => f.write_str(
+                "stated length disagrees with the tables, or bytes after it are not erased (0xFF)",
+            ),
             ImageError::Misaligned => f.write_str("image not at a 4-byte aligned address"),
             ImageError::BadCrc => f.write_str("CRC mismatch: image corrupt"),
             ImageError::OutOfRange(field) => write!(f, "field {field:?} out of range"),
@@ -289,16 +294,25 @@ impl Serial {
         Some(Self(s))
     }
 
+    #[cfg(feature = "design")]
     fn from_bytes(raw: [u8; 16]) -> Option<Self> {
-        let len = raw.iter().position(|&c| c == 0).unwrap_or(16);
-        let (text, pad) = raw.split_at(len);
-        if text.is_empty()
-            || !text.iter().all(|c| (0x20..=0x7E).contains(c))
-            || pad.iter().any(|&c| c != 0)
-        {
-            return None;
-        }
-        Some(Self(raw))
+        Self::valid(&raw).then_some(Self(raw))
+    }
+
+    /// Whether the stored bytes are a serial: printable ASCII, then NUL
+    /// padding, at least one character.
+    fn valid(raw: &[u8]) -> bool {
+        // One pass: after the first NUL only NULs.
+        let mut padding = false;
+        raw.first().is_some_and(|&c| c != 0)
+            && raw.iter().all(|&c| {
+                padding |= c == 0;
+                if padding {
+                    c == 0
+                } else {
+                    (0x20..=0x7E).contains(&c)
+                }
+            })
     }
 
     /// The serial as text.
@@ -348,14 +362,85 @@ impl Bytes<'_> {
     fn u32(&self, span: Span) -> Option<u32> {
         self.get(span.at).map(u32::from_le_bytes)
     }
+    #[cfg(feature = "design")]
     fn i32(&self, span: Span) -> Option<i32> {
         self.get(span.at).map(i32::from_le_bytes)
     }
     fn u64(&self, span: Span) -> Option<u64> {
         self.get(span.at).map(u64::from_le_bytes)
     }
+    #[cfg(feature = "design")]
     fn i64(&self, span: Span) -> Option<i64> {
         self.get(span.at).map(i64::from_le_bytes)
+    }
+}
+
+/// The header's field reads: from bytes anywhere ([`Bytes`], the host's
+/// format-1 parser) or from the words of a validated, aligned image
+/// ([`Words`]: one word load per field, no byte assembly).
+trait Fields: Copy {
+    fn raw(&self) -> &[u8];
+    fn u8(&self, span: Span) -> Option<u8>;
+    fn u16(&self, span: Span) -> Option<u16>;
+    fn u32(&self, span: Span) -> Option<u32>;
+    fn u64(&self, span: Span) -> Option<u64>;
+    fn i32(&self, span: Span) -> Option<i32> {
+        self.u32(span).map(|v| v as i32) // the same 32 bits
+    }
+}
+
+impl Fields for Bytes<'_> {
+    fn raw(&self) -> &[u8] {
+        self.0
+    }
+    fn u8(&self, span: Span) -> Option<u8> {
+        Bytes::u8(self, span)
+    }
+    fn u16(&self, span: Span) -> Option<u16> {
+        Bytes::u16(self, span)
+    }
+    fn u32(&self, span: Span) -> Option<u32> {
+        Bytes::u32(self, span)
+    }
+    fn u64(&self, span: Span) -> Option<u64> {
+        Bytes::u64(self, span)
+    }
+}
+
+/// An aligned image's words (and the same bytes). Every field lies at a
+/// multiple of its size ([`layout`]): a `u32` or `u64` field is whole
+/// words, a `u8` or `u16` field inside one word.
+#[derive(Clone, Copy)]
+struct Words<'a>(&'a [u32]);
+
+impl Words<'_> {
+    #[inline(always)]
+    fn word(&self, at: usize) -> Option<u32> {
+        self.0.get(at / 4).map(|w| u32::from_le(*w))
+    }
+}
+
+impl Fields for Words<'_> {
+    fn raw(&self) -> &[u8] {
+        bytemuck::cast_slice(self.0)
+    }
+    #[inline(always)]
+    fn u8(&self, span: Span) -> Option<u8> {
+        // The byte's place in its little-endian word: the cast keeps it.
+        self.word(span.at).map(|w| (w >> (8 * (span.at % 4))) as u8)
+    }
+    #[inline(always)]
+    fn u16(&self, span: Span) -> Option<u16> {
+        self.word(span.at)
+            .map(|w| (w >> (8 * (span.at % 4))) as u16)
+    }
+    #[inline(always)]
+    fn u32(&self, span: Span) -> Option<u32> {
+        self.word(span.at)
+    }
+    #[inline(always)]
+    fn u64(&self, span: Span) -> Option<u64> {
+        Some(u64::from(self.word(span.at)?) | u64::from(self.word(span.at + 4)?) << 32)
     }
 }
 
@@ -386,6 +471,7 @@ fn scale_from(unit: u8, exp: u8) -> Option<OutputScale> {
 #[cfg_attr(not(feature = "design"), allow(dead_code))]
 struct Header {
     kind: ReaderKind,
+    #[cfg(feature = "design")]
     serial: Serial,
     reference_hz: u32,
     gate_cycles: u32,
@@ -416,20 +502,27 @@ fn framing(bytes: &[u8]) -> Result<(u16, usize), ImageError> {
 
 /// The header's field checks, after the CRC.
 #[inline(always)]
-fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
+fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
     use ImageError::*;
     let t = |v: Option<u8>| v.ok_or(Truncated);
     let flags = t(r.u8(FLAGS))?;
+    // `accept` is a constant: the kinds it leaves out fold away, and with
+    // them their checks below.
     let kind = match r.u8(KIND) {
-        Some(1) => ReaderKind::Proximity,
-        Some(2) => ReaderKind::Level,
-        Some(3) => ReaderKind::Metal,
+        Some(1) if accept & ACCEPT_PROXIMITY != 0 => ReaderKind::Proximity,
+        Some(2) if accept & ACCEPT_LEVEL != 0 => ReaderKind::Level,
+        Some(3) if accept & ACCEPT_METAL != 0 => ReaderKind::Metal,
         _ => return Err(OutOfRange(Field::ReaderKind)),
     };
     if flags & !KNOWN_FLAGS != 0 {
         return Err(OutOfRange(Field::Flags));
     }
-    let serial = Serial::from_bytes(r.get::<16>(SERIAL.at).ok_or(Truncated)?)
+    let raw = r.raw().get(SERIAL.at..SERIAL.end()).ok_or(Truncated)?;
+    if !Serial::valid(raw) {
+        return Err(OutOfRange(Field::Serial));
+    }
+    #[cfg(feature = "design")]
+    let serial = Serial::from_bytes(raw.try_into().map_err(|_| Truncated)?)
         .ok_or(OutOfRange(Field::Serial))?;
     let reference_hz = r.u32(REFERENCE_HZ).ok_or(Truncated)?;
     if reference_hz == 0 {
@@ -462,9 +555,13 @@ fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
         r.i32(DRIFT_B2).ok_or(Truncated)?,
     )
     .map_err(BadDrift)?;
-    let output = scale_from(t(r.u8(OUTPUT))?, t(r.get::<2>(OUTPUT.at).map(|b| b[1]))?)
-        .ok_or(OutOfRange(Field::Output))?;
-    let volume_raw = r.get::<2>(VOLUME_OUTPUT.at).ok_or(Truncated)?;
+    let second = |span: Span| Span {
+        at: span.at + 1,
+        len: 1,
+    };
+    let output =
+        scale_from(t(r.u8(OUTPUT))?, t(r.u8(second(OUTPUT)))?).ok_or(OutOfRange(Field::Output))?;
+    let volume_raw = [t(r.u8(VOLUME_OUTPUT))?, t(r.u8(second(VOLUME_OUTPUT)))?];
     let curve_n = usize::from(t(r.u8(CURVE_NODES))?);
     let volume_n = usize::from(t(r.u8(VOLUME_NODES))?);
     // Kind against tables.
@@ -511,7 +608,10 @@ fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
         }
         Some(p)
     } else {
-        let raw = r.get::<24>(METAL_ENTER_PPB.at).ok_or(Truncated)?;
+        let raw = r
+            .raw()
+            .get(METAL_ENTER_PPB.at..METAL_ENTER_PPB.at + 24)
+            .ok_or(Truncated)?;
         if raw.iter().any(|&b| b != 0) {
             return Err(OutOfRange(Field::Metal));
         }
@@ -519,6 +619,7 @@ fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
     };
     Ok(Header {
         kind,
+        #[cfg(feature = "design")]
         serial,
         reference_hz,
         gate_cycles,
@@ -532,52 +633,91 @@ fn header(r: Bytes<'_>) -> Result<Header, ImageError> {
     })
 }
 
-/// A validated calibration image, read in place: the image's bytes
-/// (borrowed, normally from flash) and the few values the readers derive
-/// from them at start-up (the shift converter's reciprocal, the fault
-/// window's tick band).
+/// A validated calibration image, read in place: a borrowed view of the
+/// image's bytes (normally in flash), its kind and one byte of what
+/// validation found (the scale of each stored reciprocal).
 ///
-/// Built only by [`Image::new`], which checks everything; readers are
-/// built from it ([`ProximityReader::new`](crate::reader::ProximityReader::new)
+/// Built only by [`Image::new`] (or the one-kind [`Image::new_proximity`],
+/// [`Image::new_level`], [`Image::new_metal`]), which check everything; readers
+/// are built from it ([`ProximityReader::new`](crate::reader::ProximityReader::new)
 /// and the others, [`Reader::new`](crate::reader::Reader::new)) and borrow
 /// its curves for as long as the bytes live (`'static` for an image in
-/// flash).
+/// flash). Every accessor reads its field in place.
 ///
-/// Size: 248 bytes on a 32-bit target (the crate docs, "Memory"); it is
-/// meant to live on the start-up stack only, while the readers are built.
+/// Size: 12 bytes on a 32-bit target (the crate docs, "Memory").
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Image<'a> {
-    bytes: &'a [u8],
+    /// The image's words (little endian), exactly its stated length.
+    words: &'a [u32],
     kind: ReaderKind,
-    front: Front,
-    /// Level: the reference electrode's converter.
-    reference: Option<ShiftConverter>,
-    output: OutputScale,
-    curve: Option<CurveRef<'a>>,
-    volume: Option<(CurveRef<'a>, OutputScale)>,
-    metal: Option<MetalParams>,
+    /// Bit i set: the i-th stored reciprocal (rest, gate, companion,
+    /// companion gate) is at the halved scale
+    /// (`ShiftConverter::halved`).
+    halved: u8,
+    /// Bit 0: the curve is on whole levels, bit 1: the volume table
+    /// (`CurveRef::on_whole_levels`, found by the tables' checks).
+    whole: u8,
 }
+
+/// The kinds a validation accepts, one bit per kind code.
+const ACCEPT_PROXIMITY: u8 = 1 << 1;
+const ACCEPT_LEVEL: u8 = 1 << 2;
+const ACCEPT_METAL: u8 = 1 << 3;
+const ACCEPT_ANY: u8 = ACCEPT_PROXIMITY | ACCEPT_LEVEL | ACCEPT_METAL;
 
 impl<'a> Image<'a> {
     /// Validates an image in place. `bytes` may be longer than the image
-    /// (a flash page): the header's length field decides. `bytes` must
-    /// start at a 4-byte aligned address.
+    /// (a flash page): the header's length field decides, and every byte
+    /// after the image must be erased flash (0xFF;
+    /// [`ImageError::LengthMismatch`] otherwise). `bytes` must start at a
+    /// 4-byte aligned address.
     ///
     /// Order of the checks (the first failing one is reported): length of
     /// the framing, magic, version, stated length against the node
-    /// counts and the bytes given, alignment, CRC-32, then each header
-    /// field, the consistency between fields and kind, the tables (nodes
-    /// and every segment's constants), and what the readers derive (shift
-    /// converter, companion ratio, metal detector).
+    /// counts and the bytes given, alignment, the bytes after the image,
+    /// CRC-32, then each header field, the consistency between fields
+    /// and kind, the tables (nodes and every segment's constants), and
+    /// what the readers derive (shift converter, companion ratio, metal
+    /// detector).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
     /// image byte with the byte table), a few hundred per curve segment,
     /// and a few thousand for the header and the converters' checks
-    /// (about 21 200 instructions for a 32-node cubic image of 1 144 bytes,
-    /// 6 650 for the five-node demo image). Stack: a few hundred bytes
-    /// besides the returned 248-byte `Image`.
+    /// (docs/performance.md, "Loading"). Stack: a few hundred bytes
+    /// besides the returned 12-byte `Image`.
+    ///
+    /// Flash: the checks of every kind. A firmware that runs one kind
+    /// calls [`Image::new_proximity`], [`Image::new_level`] or [`Image::new_metal`]
+    /// instead, and the linker leaves the other kinds' checks out.
     pub fn new(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_ANY)
+    }
+
+    /// [`Image::new`] for a proximity unit's firmware: the same checks,
+    /// and an image of another kind is refused with
+    /// [`ImageError::OutOfRange`]`(`[`Field::ReaderKind`]`)`. Only the
+    /// proximity checks are linked in.
+    pub fn new_proximity(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_PROXIMITY)
+    }
+
+    /// [`Image::new`] for a level unit's firmware (see
+    /// [`Image::new_proximity`]).
+    pub fn new_level(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_LEVEL)
+    }
+
+    /// [`Image::new`] for a metal detector's firmware (see
+    /// [`Image::new_proximity`]).
+    pub fn new_metal(bytes: &'a [u8]) -> Result<Self, ImageError> {
+        Self::check(bytes, ACCEPT_METAL)
+    }
+
+    /// The validation of the kinds in `accept` (a constant: the others'
+    /// checks fold away).
+    #[inline(always)]
+    fn check(bytes: &'a [u8], accept: u8) -> Result<Self, ImageError> {
         use ImageError::*;
         let (version, len) = framing(bytes)?;
         match version {
@@ -604,110 +744,98 @@ impl<'a> Image<'a> {
         if len != expected {
             return Err(LengthMismatch);
         }
-        let bytes = bytes.get(..len).ok_or(Truncated)?;
+        let (bytes, after) = bytes.split_at_checked(len).ok_or(Truncated)?;
         let words: &[u32] = bytemuck::try_cast_slice(bytes).map_err(|_| Misaligned)?;
+        if !erased(after) {
+            return Err(LengthMismatch);
+        }
         // The CRC by words (the length is a whole number of words).
         let (body, stored) = words.split_at(words.len().saturating_sub(1));
         if stored.first().map(|w| u32::from_le(*w)) != Some(crc::crc32_words(body)) {
             return Err(BadCrc);
         }
-        let h = header(Bytes(bytes))?;
-        if r.i64(CALIBRATED_AT).is_none() {
-            return Err(Truncated);
-        }
+        let h = header(Words(words), accept)?;
         // Tables: nodes, then segments, each table after the last.
         let table = |at: usize, n: usize, cubic: bool| {
             let w = words.get(at / 4..).unwrap_or(&[]);
             let segs = w.get(n * 3..).unwrap_or(&[]);
             CurveRef::from_words(w, segs, n, cubic)
         };
-        let curve = match h.kind {
-            ReaderKind::Metal => None,
-            _ => Some(table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?),
-        };
-        let volume = match h.volume_output {
-            Some(scale) => {
-                let v = table(
-                    HEADER_LEN + curve_len,
-                    volume_n,
-                    flags & FLAG_VOLUME_CUBIC != 0,
-                )
-                .map_err(BadVolume)?;
-                if !v.is_rising() {
-                    return Err(BadVolume(CurveError::NotMonotone));
-                }
-                Some((v, scale))
+        let mut whole = 0;
+        if h.kind != ReaderKind::Metal {
+            let c = table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
+            whole |= u8::from(c.on_whole_levels());
+        }
+        if h.kind == ReaderKind::Level && h.volume_output.is_some() {
+            let v = table(
+                HEADER_LEN + curve_len,
+                volume_n,
+                flags & FLAG_VOLUME_CUBIC != 0,
+            )
+            .map_err(BadVolume)?;
+            if !v.is_rising() {
+                return Err(BadVolume(CurveError::NotMonotone));
             }
-            None => None,
-        };
-        Self::from_parts(bytes, &h, curve, volume)
+            whole |= u8::from(v.on_whole_levels()) << 1;
+        }
+        let halved = Self::derived(words, &h)?;
+        Ok(Image {
+            words,
+            kind: h.kind,
+            halved,
+            whole,
+        })
     }
 
-    /// What the readers derive, checked here so that every reader builds.
+    /// What the readers derive, checked here so that every reader builds;
+    /// returns the scales of the stored reciprocals ([`Image::halved`]).
     #[inline(always)]
-    fn from_parts(
-        bytes: &'a [u8],
-        h: &Header,
-        curve: Option<CurveRef<'a>>,
-        volume: Option<(CurveRef<'a>, OutputScale)>,
-    ) -> Result<Self, ImageError> {
+    fn derived(words: &'a [u32], h: &Header) -> Result<u8, ImageError> {
         use ImageError::*;
-        let gate = (h.gate_cycles > 0).then_some(h.gate_cycles);
-        let r = Bytes(bytes);
+        let r = Words(words);
         let pair = |a: Span, b: Span| (r.u32(a).unwrap_or(0), r.u32(b).unwrap_or(0));
-        // The converters from their stored reciprocals, checked by
-        // multiplies: no 128-bit division at start-up.
-        let converter = ShiftConverter::with_reciprocals(
+        // The converters' stored reciprocals, checked by multiplies: no
+        // 128-bit division at start-up.
+        let mut halved = ShiftConverter::check_reciprocals(
             h.rest,
-            Gating::Reciprocal,
-            gate,
+            h.gate_cycles,
             pair(REST_RECIPROCAL, GATE_RECIPROCAL),
         )
         .map_err(BadGate)?;
         let companion_reciprocals = pair(COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL);
         // Proximity and metal: a companion coil (ratiometric shift, its
-        // ratio derived here: one division). Level: a reference electrode
-        // with its own converter.
-        let (companion, reference) = match (h.kind, h.companion_rest) {
-            (ReaderKind::Level, Some(c)) => (
-                None,
-                Some(
-                    ShiftConverter::with_reciprocals(
-                        c,
-                        Gating::Reciprocal,
-                        gate,
-                        companion_reciprocals,
-                    )
-                    .map_err(|_| OutOfRange(Field::CompanionRest))?,
-                ),
-            ),
+        // ratio derived by the reader: one division). Level: a reference
+        // electrode with its own converter.
+        match (h.kind, h.companion_rest) {
+            (ReaderKind::Level, Some(c)) => {
+                let reference =
+                    ShiftConverter::check_reciprocals(c, h.gate_cycles, companion_reciprocals)
+                        .map_err(|_| OutOfRange(Field::CompanionRest))?;
+                halved |= reference << 2;
+            }
             _ if companion_reciprocals != (0, 0) => {
                 return Err(OutOfRange(Field::CompanionRest));
             }
-            (_, None) => (None, None),
-            (_, Some(c)) => (
-                Some(Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?),
-                None,
-            ),
-        };
-        if h.metal.is_some_and(|p| !crate::reader::metal_builds(&p)) {
+            (_, None) => {}
+            #[cfg(feature = "companion")]
+            (_, Some(c)) => {
+                Companion::new(h.rest, c).map_err(|_| OutOfRange(Field::CompanionRest))?;
+            }
+            // Built without the companion coil's support: refused here, so
+            // that a validated image always builds its reader.
+            #[cfg(not(feature = "companion"))]
+            (_, Some(_)) => return Err(OutOfRange(Field::CompanionRest)),
+        }
+        if h.kind == ReaderKind::Metal && h.metal.is_some_and(|p| !crate::reader::metal_builds(&p))
+        {
             return Err(OutOfRange(Field::Metal));
         }
-        Ok(Image {
-            bytes,
-            kind: h.kind,
-            front: Front::new(h.window, converter, companion, h.drift, gate),
-            reference,
-            output: h.output,
-            curve,
-            volume,
-            metal: h.metal,
-        })
+        Ok(halved)
     }
 
     /// The image's bytes (exactly its stated length).
     pub fn bytes(&self) -> &'a [u8] {
-        self.bytes
+        bytemuck::cast_slice(self.words)
     }
 
     /// Which reader the unit runs.
@@ -717,12 +845,27 @@ impl<'a> Image<'a> {
 
     /// A header field's bytes (the [`layout`] spans).
     fn field<const N: usize>(&self, span: Span) -> [u8; N] {
-        Bytes(self.bytes).get(span.at).unwrap_or([0; N])
+        Bytes(self.bytes()).get(span.at).unwrap_or([0; N])
+    }
+
+    /// A `u32` field (one word load).
+    fn u32(&self, span: Span) -> u32 {
+        Words(self.words).u32(span).unwrap_or(0)
+    }
+
+    /// A `u64` field (two word loads).
+    fn u64(&self, span: Span) -> u64 {
+        Words(self.words).u64(span).unwrap_or(0)
+    }
+
+    /// A `u8` field.
+    fn u8(&self, span: Span) -> u8 {
+        Words(self.words).u8(span).unwrap_or(0)
     }
 
     /// The unit serial.
     pub fn serial(&self) -> &'a str {
-        let raw = self.bytes.get(SERIAL.at..SERIAL.end()).unwrap_or(&[]);
+        let raw = self.bytes().get(SERIAL.at..SERIAL.end()).unwrap_or(&[]);
         let len = raw.iter().position(|&c| c == 0).unwrap_or(raw.len());
         raw.get(..len)
             .and_then(|t| core::str::from_utf8(t).ok())
@@ -731,59 +874,110 @@ impl<'a> Image<'a> {
 
     /// Reference clock of the counter, hertz.
     pub fn reference_hz(&self) -> u32 {
-        u32::from_le_bytes(self.field(REFERENCE_HZ))
+        self.u32(REFERENCE_HZ)
     }
 
     /// The configured reciprocal gate in sensor cycles, `None` when the
     /// image has none (stored as 0).
     pub fn gate(&self) -> Option<u32> {
-        self.front.gate()
+        let g = self.u32(GATE_CYCLES);
+        (g > 0).then_some(g)
     }
 
     /// The plausibility window.
     pub fn window(&self) -> FaultWindow {
-        self.front.window()
+        FaultWindow::from_checked(
+            self.reference_hz(),
+            self.u32(WINDOW_MIN_HZ),
+            self.u32(WINDOW_MAX_HZ),
+            self.u32(WINDOW_MIN_CYCLES),
+        )
     }
 
     /// The unit's rest point.
     pub fn rest(&self) -> RestPoint {
-        self.front.converter().rest()
+        RestPoint::from_checked(PeriodRatio::from_raw_q44(self.u64(REST)))
     }
 
     /// The companion channel's (level: the reference electrode's) rest
     /// point, when the unit has one.
     pub fn companion_rest(&self) -> Option<RestPoint> {
-        let raw = u64::from_le_bytes(self.field(COMPANION_REST));
-        (raw != 0)
-            .then(|| RestPoint::from_ratio(PeriodRatio::from_raw_q44(raw)).ok())
-            .flatten()
+        let raw = self.u64(COMPANION_REST);
+        (raw != 0).then(|| RestPoint::from_checked(PeriodRatio::from_raw_q44(raw)))
     }
 
     /// The temperature model ([`TemperatureModel::NONE`] when not fitted).
     pub fn drift(&self) -> TemperatureModel {
-        self.front.drift()
+        TemperatureModel::from_checked(
+            CentiCelsius(self.u32(DRIFT_REFERENCE) as i32),
+            self.u32(DRIFT_B1) as i32,
+            self.u32(DRIFT_B2) as i32,
+        )
     }
 
     /// Scale of the output (gap, level).
     pub fn output(&self) -> OutputScale {
-        self.output
+        let [unit, exp] = self.field(OUTPUT);
+        scale_from(unit, exp).unwrap_or(OutputScale {
+            unit: OutputUnit::None,
+            decimal_exponent: 0,
+        })
+    }
+
+    /// A table's view, read in place (`None` for an empty table).
+    fn table(&self, at: usize, n: usize, cubic: bool, whole: bool) -> Option<CurveRef<'a>> {
+        let w = self.words.get(at / 4..)?;
+        CurveRef::from_checked_words(w, w.get(n * 3..)?, n, cubic, whole)
+    }
+
+    fn flags(&self) -> u8 {
+        self.u8(FLAGS)
     }
 
     /// The shift → value curve (proximity, level).
     pub fn curve(&self) -> Option<CurveRef<'a>> {
-        self.curve
+        let n = usize::from(self.u8(CURVE_NODES));
+        self.table(
+            HEADER_LEN,
+            n,
+            self.flags() & FLAG_CUBIC != 0,
+            self.whole & 1 != 0,
+        )
     }
 
     /// The level → volume table and its scale (level only): its x axis is
     /// the level in the curve's output units, times 2^32, in the Q23.40
     /// field.
     pub fn volume(&self) -> Option<(CurveRef<'a>, OutputScale)> {
-        self.volume
+        let flags = self.flags();
+        if flags & FLAG_VOLUME == 0 {
+            return None;
+        }
+        let curve_n = usize::from(self.u8(CURVE_NODES));
+        let n = usize::from(self.u8(VOLUME_NODES));
+        let at = HEADER_LEN + table_len(curve_n, flags & FLAG_CUBIC != 0);
+        let [unit, exp] = self.field(VOLUME_OUTPUT);
+        Some((
+            self.table(at, n, flags & FLAG_VOLUME_CUBIC != 0, self.whole & 2 != 0)?,
+            scale_from(unit, exp)?,
+        ))
     }
 
     /// Metal parameters (metal only).
     pub fn metal(&self) -> Option<MetalParams> {
-        self.metal
+        if self.kind != ReaderKind::Metal {
+            return None;
+        }
+        let r = Words(self.words);
+        Some(MetalParams {
+            enter_ppb: r.u32(METAL_ENTER_PPB)?,
+            leave_ppb: r.u32(METAL_LEAVE_PPB)?,
+            enter_samples: r.u16(METAL_ENTER_SAMPLES)?,
+            leave_samples: r.u16(METAL_LEAVE_SAMPLES)?,
+            baseline_k: r.u8(METAL_BASELINE_K)?,
+            ring_drop: r.u16(METAL_RING_DROP)?,
+            relearn_readings: r.u32(METAL_RELEARN)?,
+        })
     }
 
     /// Calibration time, UTC, Unix seconds.
@@ -798,17 +992,64 @@ impl<'a> Image<'a> {
 
     /// The image's stored CRC-32.
     pub fn crc(&self) -> u32 {
-        let at = self.bytes.len().saturating_sub(CRC_LEN);
-        u32::from_le_bytes(Bytes(self.bytes).get(at).unwrap_or([0; 4]))
+        self.words.last().map_or(0, |w| u32::from_le(*w))
     }
 
-    pub(crate) fn front(&self) -> &Front {
-        &self.front
+    /// The converter of the stored rest point (`reciprocals` its two
+    /// reciprocal fields, `shift` the place of their scales in
+    /// [`Image::halved`]), as validation checked it.
+    fn converter(&self, rest: RestPoint, reciprocals: (Span, Span), shift: u32) -> ShiftConverter {
+        ShiftConverter::from_checked(
+            rest,
+            self.gate().unwrap_or(0),
+            (self.u32(reciprocals.0), self.u32(reciprocals.1)),
+            (self.halved >> shift) & 3,
+        )
     }
 
+    /// The reader front the image describes: fault window, shift
+    /// converter, companion coil, drift model. Built by each reader's
+    /// constructor (validation checked that it builds). Inlined: the front
+    /// is built in place in the reader, not copied into it.
+    #[inline(always)]
+    pub(crate) fn front(&self) -> Front {
+        let rest = self.rest();
+        let converter = self.converter(rest, (REST_RECIPROCAL, GATE_RECIPROCAL), 0);
+        #[cfg(feature = "companion")]
+        let companion = match (self.kind, self.companion_rest()) {
+            (ReaderKind::Level, _) | (_, None) => None,
+            (_, Some(c)) => Companion::new(rest, c).ok(),
+        };
+        // Without the feature, validation refuses a companion coil.
+        #[cfg(not(feature = "companion"))]
+        let companion = None;
+        Front::new(
+            self.window(),
+            converter,
+            companion,
+            self.drift(),
+            self.gate(),
+        )
+    }
+
+    /// Level: the reference electrode's converter.
     pub(crate) fn reference(&self) -> Option<ShiftConverter> {
-        self.reference
+        match self.kind {
+            ReaderKind::Level => Some(self.converter(
+                self.companion_rest()?,
+                (COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL),
+                2,
+            )),
+            _ => None,
+        }
     }
+}
+
+/// Whether every byte is erased flash (0xFF): by words where the bytes
+/// are aligned (after a validated image they are).
+fn erased(bytes: &[u8]) -> bool {
+    let (head, words, tail) = bytemuck::pod_align_to::<u8, u32>(bytes);
+    head.iter().chain(tail).all(|&b| b == 0xFF) && words.iter().all(|&w| w == u32::MAX)
 }
 
 /// Embeds a calibration image file at a 4-byte aligned address, as
@@ -1110,7 +1351,7 @@ mod host {
             {
                 return Err(BadCrc);
             }
-            let h = header(Bytes(bytes))?;
+            let h = header(Bytes(bytes), ACCEPT_ANY)?;
             let read = |at: usize, n: usize, cubic: bool| -> Result<Table, CurveError> {
                 let mut nodes = [Node::default(); MAX_NODES];
                 let mut ders = [0i64; MAX_NODES];
@@ -1246,7 +1487,7 @@ mod host {
             // The converters' reciprocals, which the firmware checks
             // instead of dividing.
             let reciprocals = |rest: RestPoint| {
-                ShiftConverter::new(rest, Gating::Reciprocal, self.gate())
+                ShiftConverter::new(rest, crate::counting::Gating::Reciprocal, self.gate())
                     .map(|c| c.reciprocals())
                     .map_err(ImageError::BadGate)
             };
@@ -1509,6 +1750,34 @@ mod tests {
             Err(ImageError::OutOfRange(Field::CurveNodes))
         );
         assert_eq!(case(&|i| i[HEADER_LEN + 3] ^= 1), Err(ImageError::BadCrc));
+        // Bytes after the stated length: erased flash (0xFF) only, however
+        // many and wherever the image ends.
+        for extra in [1, 3, 4, 5, 600] {
+            let mut page = img.clone();
+            page.resize(img.len() + extra, 0xFF);
+            let page = ImageBuf::from_bytes(&page).unwrap();
+            let image = Image::new(page.as_bytes()).unwrap();
+            assert_eq!(image.bytes(), &img[..]);
+            for at in [img.len(), img.len() + extra - 1] {
+                let mut dirty = page.clone();
+                dirty.as_bytes_mut()[at] = 0xFE;
+                assert_eq!(
+                    Image::new(dirty.as_bytes()),
+                    Err(ImageError::LengthMismatch),
+                    "{extra} bytes after, byte {at} programmed"
+                );
+            }
+        }
+        // A one-kind validation refuses the other kinds.
+        assert!(Image::new_proximity(bytes).is_ok());
+        assert_eq!(
+            Image::new_level(bytes),
+            Err(ImageError::OutOfRange(Field::ReaderKind))
+        );
+        assert_eq!(
+            Image::new_metal(bytes),
+            Err(ImageError::OutOfRange(Field::ReaderKind))
+        );
         let mut short = [0u8; 10];
         assert_eq!(
             demo_proximity().unwrap().encode(&mut short),

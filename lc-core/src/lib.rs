@@ -79,6 +79,7 @@
 //! | `proximity` | yes | [`reader::ProximityReader`] |
 //! | `level` | yes | [`reader::LevelReader`] |
 //! | `metal` | yes | [`reader::MetalReader`] |
+//! | `companion` | yes | a companion coil beside a proximity or metal unit's sensor coil (ratiometric shift); without it `Image::new` refuses such an image, the ratio's start-up division is left out and each reader is 40 bytes smaller |
 //! | `scanner` | yes | [`scanner`]: channel scanner and multiplexers |
 //! | `ntc` | yes | NTC conversions in [`temperature`] (Beta, Steinhart–Hart) |
 //! | `crc-nibble` | no | CRC-32 from a 64-byte table instead of 1 KiB (about twice the start-up instructions per image byte) |
@@ -88,7 +89,10 @@
 //! A firmware names only what it runs, e.g.
 //! `lc-core = { version = "0.1", default-features = false, features = ["proximity"] }`.
 //! Code that is not called costs no flash either way; the features keep
-//! it out of the build and the API.
+//! it out of the build and the API. A firmware for one kind of unit also
+//! validates with that kind's constructor
+//! ([`image::Image::new_proximity`], `new_level`, `new_metal`): the other
+//! kinds' checks are then left out of its flash.
 //!
 //! ## Memory
 //!
@@ -96,11 +100,12 @@
 //! borrowed view of its curves, whatever the node count. `size_of` on a
 //! 32-bit target (Cortex-M0 and Cortex-M4F, the same), checked at compile
 //! time by the firmware example (`examples/firmware/src/sizes.rs`; a host
-//! build has 64-bit pointers and larger borrowing types):
+//! build has 64-bit pointers and larger borrowing types; the readers with
+//! the default features, 40 bytes less each without `companion`):
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|
-//! | `ProximityReader` | 168 | | `Image` (start-up only) | 264 |
+//! | `ProximityReader` | 168 | | `Image` | 12 |
 //! | `LevelReader` | 248 | | `ImageBuf` (image copied to RAM) | 4 200 |
 //! | `MetalReader` | 248 | | `CurveRef` | 28 |
 //! | `Reader` (all three kinds) | 256 | | `Input` | 32 |
@@ -116,10 +121,12 @@
 //! | `NtcBeta` | 72 | | `NtcSteinhartHart` | 80 |
 //! | `Divider` | 12 | | | |
 //!
-//! Start-up on a Cortex-M0 (`Image::new` and the reader, `run.sh cost`):
-//! about 23 000 instructions for a 32-node cubic proximity image, 8 500 for
-//! the five-node demo image; stack of the two calls, a few hundred bytes
-//! besides the `Image`.
+//! Start-up on a Cortex-M0 (`Image::new_proximity` and
+//! `ProximityReader::new`, `run.sh cost`): about 20 200 instructions for a
+//! 32-node cubic proximity image, 5 300 for the five-node demo image; stack
+//! of the two calls, a few hundred bytes. The `Image` is a 12-byte view of
+//! the bytes in flash; each reader builds its fault window, converters and
+//! drift model from the image's fields (checked once, by validation).
 //!
 //! ## Numeric contract
 //!

@@ -56,7 +56,9 @@
 //! ```
 
 use crate::counting::{CountPair, Gate, Gating};
-use crate::fixed::{mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64};
+use crate::fixed::{
+    leading_zeros_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64,
+};
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
 
@@ -147,6 +149,12 @@ impl RestPoint {
         Ok(Self(ratio))
     }
 
+    /// A rest point [`RestPoint::from_ratio`] accepted before (a
+    /// validated image's field), built without the check.
+    pub(crate) const fn from_checked(ratio: PeriodRatio) -> Self {
+        Self(ratio)
+    }
+
     /// A rest point measured as one count pair.
     pub fn from_counts(pair: CountPair) -> Result<Self, ShiftError> {
         let ratio = period_ratio(pair).map_err(|_| ShiftError::BadRestPoint)?;
@@ -196,40 +204,84 @@ fn gate_of(gating: Gating, gate_cycles: Option<u32>) -> u32 {
 /// The exponent e when `m` is [`reciprocal_mantissa`]`(d)`'s mantissa
 /// (m = round(2^e / d), half up, 2^31 ≤ m < 2^32, e the one that
 /// function picks); `None` otherwise. Multiplies and compares only.
+#[inline(always)]
 fn reciprocal_checked(m: u32, d: u128) -> Option<(u32, u32)> {
+    // e ≥ 31: taking one off cannot wrap.
+    reciprocal_scale(m, d).map(|(e, halved)| (m, e.wrapping_sub(u32::from(halved))))
+}
+
+/// [`reciprocal_checked`]'s finding as (31 + the bit length of d, whether
+/// the exponent is one below it): the product m·d formed once for both
+/// candidate exponents.
+#[inline(never)]
+fn reciprocal_scale(m: u32, d: u128) -> Option<(u32, bool)> {
     if d == 0 || d >> 96 != 0 || m >> 31 == 0 {
         return None;
     }
-    // Bit length of d from its halves (2^(bits−1) ≤ d < 2^bits, bits ≤ 96).
-    let (hi, lo) = ((d >> 64) as u64, d as u64);
-    let bits = if hi != 0 {
-        128 - hi.leading_zeros()
-    } else {
-        64 - lo.leading_zeros()
-    };
-    let e = bits + 31; // ≤ 127
-    if rounds_to(m, e, d) {
-        return Some((m, e));
+    let e = bit_len(d).wrapping_add(31); // ≤ 127: no wrap
+    let t = times_words(m, d);
+    if product_rounds_to(t, e, d) {
+        return Some((e, false));
     }
     // `reciprocal_mantissa` takes e − 1 only when round(2^e / d) reaches
     // 2^32: certain when m > 2^31 at e − 1 (2^e / d ≥ 2m − 1), and for
     // m = 2^31 exactly when 2^32 − 1 is not the rounding at e.
     let halved = m > 1 << 31 || !rounds_to(u32::MAX, e, d);
-    (halved && rounds_to(m, e - 1, d)).then_some((m, e - 1))
+    // e ≥ 31: taking one off cannot wrap.
+    (halved && product_rounds_to(t, e.wrapping_sub(1), d)).then_some((e, true))
+}
+
+/// p·N for p < 2^64 from 32 × 32-bit products: no 128-bit multiply (a
+/// library call on a Cortex-M0).
+#[inline]
+fn times_gate(p: u128, n: u32) -> u128 {
+    // p < 2^64, n < 2^32: the two partial products sum below 2^96, the
+    // shift and the sum cannot wrap.
+    u128::from(mul_u32_wide(p as u32, n))
+        .wrapping_add(u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32)
+}
+
+/// Bit length of d from its 32-bit words: 2^(bits−1) ≤ d < 2^bits (0 for
+/// d = 0). On a Cortex-M0 a count of leading zeros of a `u64` is two
+/// library calls; [`leading_zeros_u32`] is a table lookup.
+#[inline(never)]
+fn bit_len(d: u128) -> u32 {
+    // The words of d, the casts taking the low 32 bits of each shift.
+    let w = [
+        d as u32,
+        (d >> 32) as u32,
+        (d >> 64) as u32,
+        (d >> 96) as u32,
+    ];
+    let mut i = 3;
+    while i > 0 && w[i] == 0 {
+        i -= 1;
+    }
+    // i ≤ 3: 32·(i + 1) ≤ 128, minus at most 32 leading zeros: no wrap.
+    (32 * (i as u32 + 1)).wrapping_sub(leading_zeros_u32(w[i]))
 }
 
 /// Whether m = round(2^e / d), half up (`round_div_u128`'s rounding), for
 /// e ≤ 127 and d < 2^96 (so m·d < 2^128): with t = m·d, t − 2^e ≤ d/2
 /// when t ≥ 2^e, 2^e − t < d/2 otherwise.
 fn rounds_to(m: u32, e: u32, d: u128) -> bool {
-    // m·d from 32 × 32-bit products of d's words (a 128-bit multiply is
-    // several library calls on a Cortex-M0).
+    product_rounds_to(times_words(m, d), e, d)
+}
+
+/// m·d for d < 2^96 from 32 × 32-bit products of d's words (a 128-bit
+/// multiply is several library calls on a Cortex-M0).
+fn times_words(m: u32, d: u128) -> u128 {
     let word = |k: u32| (d >> k) as u32; // the low 32 bits: exact
                                          // The three partial products add up to m·d < 2^128 (d < 2^96, m <
                                          // 2^32): the sums cannot wrap.
-    let t = u128::from(mul_u32_wide(m, word(0)))
+    u128::from(mul_u32_wide(m, word(0)))
         .wrapping_add(u128::from(mul_u32_wide(m, word(32))) << 32)
-        .wrapping_add(u128::from(mul_u32_wide(m, word(64))) << 64);
+        .wrapping_add(u128::from(mul_u32_wide(m, word(64))) << 64)
+}
+
+/// [`rounds_to`] of the product t = m·d.
+#[inline(never)]
+fn product_rounds_to(t: u128, e: u32, d: u128) -> bool {
     // e ≤ 127: the shift is in range (the wrapping form only states it).
     let p = 1u128.wrapping_shl(e);
     let diff = t.abs_diff(p);
@@ -303,16 +355,82 @@ impl ShiftConverter {
         let p = u128::from(rest.0.raw_q44());
         let inv = reciprocal_checked(rest_reciprocal, p).ok_or(ShiftError::BadRestPoint)?;
         let gate = if n > 0 {
-            // p·N from 32 × 32-bit products (p < 2^64): no 128-bit multiply.
-            let pn = u128::from(mul_u32_wide(p as u32, n))
-                + (u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32);
-            reciprocal_checked(gate_reciprocal, pn).ok_or(ShiftError::BadRestPoint)?
+            reciprocal_checked(gate_reciprocal, times_gate(p, n)).ok_or(ShiftError::BadRestPoint)?
         } else if gate_reciprocal == 0 {
             (0, 0)
         } else {
             return Err(ShiftError::BadRestPoint);
         };
         Self::from_reciprocals(rest, gating, n, inv, gate)
+    }
+
+    /// [`ShiftConverter::with_reciprocals`]'s checks for a reciprocal gate
+    /// of `gate_cycles` (0: none), without building the converter:
+    /// which reciprocal is at the halved scale (bit 0: 1/p_rest, bit 1:
+    /// 1/(p_rest·N)), its exponent one below 31 + the bit length of its
+    /// divisor. With the mantissas, all [`ShiftConverter::from_checked`]
+    /// needs to rebuild the converter without the checks.
+    pub(crate) fn check_reciprocals(
+        rest: RestPoint,
+        gate_cycles: u32,
+        (rest_reciprocal, gate_reciprocal): (u32, u32),
+    ) -> Result<u8, ShiftError> {
+        let p = u128::from(rest.0.raw_q44());
+        let halved = |m: u32, d: u128| {
+            reciprocal_scale(m, d)
+                .map(|(_, halved)| u8::from(halved))
+                .ok_or(ShiftError::BadRestPoint)
+        };
+        let inv = halved(rest_reciprocal, p)?;
+        let gate = if gate_cycles > 0 {
+            halved(gate_reciprocal, times_gate(p, gate_cycles))?
+        } else if gate_reciprocal == 0 {
+            0
+        } else {
+            return Err(ShiftError::BadRestPoint);
+        };
+        Ok(inv | gate << 1)
+    }
+
+    /// The converter [`ShiftConverter::with_reciprocals`] accepted before
+    /// (a validated image's rest point, gate of `gate_cycles` (0: none),
+    /// reciprocals and their scales, [`ShiftConverter::halved`]), with a
+    /// reciprocal gate, rebuilt without the checks: a count of leading
+    /// zeros per reciprocal.
+    pub(crate) fn from_checked(
+        rest: RestPoint,
+        gate_cycles: u32,
+        (inv_mant, gate_mant): (u32, u32),
+        halved: u8,
+    ) -> Self {
+        let p = u128::from(rest.0.raw_q44());
+        // bit_len ≤ 96: e ≤ 127 and the subtractions cannot wrap.
+        let exp = |d: u128, bit: u8| {
+            (bit_len(d)
+                .wrapping_add(31)
+                .wrapping_sub(u32::from((halved >> bit) & 1)) as i32)
+                .wrapping_sub(44)
+        };
+        let (gate_exp, fast_c) = if gate_cycles > 0 {
+            let ge = exp(times_gate(p, gate_cycles), 1);
+            let fast_c = match ge.wrapping_sub(33) {
+                c @ 1..=31 => c as u8, // 1..=31 fits u8
+                _ => 0,
+            };
+            (ge, fast_c)
+        } else {
+            (0, 0)
+        };
+        Self {
+            fast_c,
+            rest,
+            gating: Gating::Reciprocal,
+            inv_mant,
+            inv_exp: exp(p, 0),
+            gate_cycles,
+            gate_mant,
+            gate_exp,
+        }
     }
 
     /// The reciprocal mantissas (1/p_rest, 1/(p_rest·N); the second 0
@@ -627,6 +745,48 @@ mod tests {
     /// The stored-reciprocal check accepts exactly what
     /// `reciprocal_mantissa` computes: its mantissa with its exponent, and
     /// not the mantissa one off either way.
+    /// The word-wise bit length equals the native count, below and at
+    /// every word boundary.
+    #[test]
+    fn bit_len_is_the_native_bit_length() {
+        for k in 0..128u32 {
+            for d in [
+                1u128 << k,
+                (1u128 << k) - 1,
+                (1u128 << k) | 1,
+                u128::MAX >> k,
+            ] {
+                assert_eq!(bit_len(d), 128 - d.leading_zeros(), "{d:#x}");
+            }
+        }
+        assert_eq!(bit_len(0), 0);
+    }
+
+    /// A converter rebuilt from what validation found (`check_reciprocals`,
+    /// `from_checked`) is the one `new` builds.
+    #[test]
+    fn from_checked_rebuilds_the_converter() {
+        for (raw, n) in [
+            (1u64 << 36, 1),
+            (1 << 44, 4_096),
+            (u64::MAX, u32::MAX),
+            (139_542u64 << 30, 16_384),
+            (3 << 43, 0),
+        ] {
+            let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(raw)).unwrap();
+            let gate = (n > 0).then_some(n);
+            let c = ShiftConverter::new(rest, Gating::Reciprocal, gate).unwrap();
+            let halved = ShiftConverter::check_reciprocals(rest, n, c.reciprocals()).unwrap();
+            assert_eq!(
+                ShiftConverter::from_checked(rest, n, c.reciprocals(), halved),
+                c,
+                "{raw} {n}"
+            );
+            let (m, g) = c.reciprocals();
+            assert!(ShiftConverter::check_reciprocals(rest, n, (m ^ 1, g)).is_err());
+        }
+    }
+
     #[test]
     fn reciprocal_check_accepts_exactly_the_computed_mantissa() {
         let mut x = 0x9E37_79B9_7F4A_7C15u64;

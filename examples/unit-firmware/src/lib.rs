@@ -50,12 +50,16 @@ impl Host {
     /// Writes the peak stack (`stack <bytes>`, see [`stack_peak_bytes`])
     /// and ends the program: success when every line was written.
     pub fn finish(mut self) -> ! {
-        let mut line = report::Line::new();
-        line.text(b"stack ");
-        line.uint(stack_peak_bytes());
-        line.text(b"\n");
-        self.write(line.as_bytes());
+        self.write(b"stack ");
+        report::uint(&mut self, stack_peak_bytes());
+        self.write(b"\n");
         exit(self.ok)
+    }
+}
+
+impl report::Sink for Host {
+    fn put(&mut self, bytes: &[u8]) {
+        self.write(bytes);
     }
 }
 

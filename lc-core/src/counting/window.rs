@@ -102,6 +102,22 @@ impl AcceptedTicks {
 }
 
 impl FaultWindow {
+    /// A window [`FaultWindow::new`] accepted before (a validated image's
+    /// fields), built without the checks.
+    pub(crate) const fn from_checked(
+        reference_hz: u32,
+        min_hz: u32,
+        max_hz: u32,
+        min_cycles: u32,
+    ) -> Self {
+        Self {
+            reference_hz,
+            min_hz,
+            max_hz,
+            min_cycles,
+        }
+    }
+
     /// A window for a reference clock of `reference_hz`, a plausible sensor
     /// band `min_hz..=max_hz` and at least `min_cycles` sensor cycles per gate.
     pub const fn new(

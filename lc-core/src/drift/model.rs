@@ -87,6 +87,12 @@ impl TemperatureModel {
         b2: 0,
     };
 
+    /// A model [`TemperatureModel::new`] accepted before (a validated
+    /// image's fields), built without the checks.
+    pub(crate) const fn from_checked(reference: CentiCelsius, b1: i32, b2: i32) -> Self {
+        Self { reference, b1, b2 }
+    }
+
     /// A model with reference temperature `reference`, b1 in 2^-40 per
     /// centi-kelvin and b2 in 2^-56 per centi-kelvin². Checked: the
     /// reference lies in [`TEMPERATURE_DOMAIN`] and |g| < 1/2 across it.
@@ -104,11 +110,22 @@ impl TemperatureModel {
         // |b1·ΔT·2^16| ≤ 2^31·40 000·2^16 < 5.63·10^18 and |b2·ΔT²| ≤
         // 2^31·1.6·10^9 < 3.44·10^18: the sum and its magnitude stay below
         // 9.07·10^18 < 2^63. None of the wrapping operations below wraps.
+        //
+        // The products from 32 × 32-bit ones (a 64-bit multiply is a
+        // library call on a Cortex-M0): e = |ΔT| < 2^16 and e² < 2^31 fit
+        // `u32`, and `mul_i32_u32_wide` is exact: the same values as the
+        // 64-bit products.
         let g_at = |d: i64| -> u64 {
-            i64::from(b1)
-                .wrapping_mul(d)
+            let e = d.unsigned_abs() as u32; // ≤ 40 000: exact
+                                             // |b1·e| < 2^47: the negation cannot wrap.
+            let first = if d < 0 {
+                mul_i32_u32_wide(b1, e).wrapping_neg()
+            } else {
+                mul_i32_u32_wide(b1, e)
+            };
+            first
                 .wrapping_mul(1 << 16)
-                .wrapping_add(i64::from(b2).wrapping_mul(d).wrapping_mul(d))
+                .wrapping_add(mul_i32_u32_wide(b2, e.wrapping_mul(e)))
                 .unsigned_abs()
         };
         let delta = |t: i32| i64::from(t).wrapping_sub(i64::from(reference.0));
@@ -119,10 +136,21 @@ impl TemperatureModel {
             // |t| ≤ 2^47 + 30 000).
             // (The division neither divides by zero nor overflows: the
             // divisor is even and non-zero; `checked_div` only says so.)
-            let v = (i64::from(b1) << 16)
-                .wrapping_neg()
-                .checked_div(i64::from(b2).wrapping_mul(2))
-                .unwrap_or(i64::MAX);
+            // The truncating quotient from the magnitudes (a signed 64-bit
+            // division is one more library routine on a Cortex-M0): |n| <
+            // 2^47, 0 < |d| ≤ 2^32, so |q| < 2^47 and its negation cannot
+            // wrap.
+            let n = (i64::from(b1) << 16).wrapping_neg();
+            let d = i64::from(b2).wrapping_mul(2);
+            let q = n
+                .unsigned_abs()
+                .checked_div(d.unsigned_abs())
+                .map_or(i64::MAX, |q| q as i64); // q < 2^47: exact
+            let v = if (n < 0) != (d < 0) {
+                q.wrapping_neg()
+            } else {
+                q
+            };
             let t = i64::from(reference.0).wrapping_add(v);
             if (i64::from(lo.0)..=i64::from(hi.0)).contains(&t) {
                 // t in the domain: |v| ≤ 40 000, the bound above holds.

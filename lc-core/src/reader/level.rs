@@ -114,13 +114,14 @@ pub struct LevelReader<'a> {
 
 impl<'a> LevelReader<'a> {
     /// The reader of a level image ([`ReaderError::WrongKind`] for another
-    /// kind). Cost: a copy of the image's derived constants, no
+    /// kind). Cost: its front and converters built from the image's
+    /// fields, no
     /// validation. RAM: 248 bytes on a 32-bit target, whatever the tables'
     /// node counts (the crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {
             (ReaderKind::Level, Some(curve)) => Ok(Self {
-                front: *image.front(),
+                front: image.front(),
                 reference: image.reference(),
                 curve,
                 volume: image.volume().map(|(v, _)| v),

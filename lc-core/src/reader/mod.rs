@@ -284,6 +284,10 @@ impl core::error::Error for ReaderError {}
 pub(crate) struct Front {
     window: FaultWindow,
     converter: ShiftConverter,
+    /// Without the `companion` feature the field is left out (a
+    /// validated image has no companion coil then): 40 bytes less per
+    /// reader.
+    #[cfg(feature = "companion")]
     companion: Option<Companion>,
     drift: TemperatureModel,
     /// The tick counts the window accepts at the gate, for the
@@ -297,6 +301,7 @@ pub(crate) struct Front {
 }
 
 impl Front {
+    #[inline(always)]
     pub(crate) fn new(
         window: FaultWindow,
         converter: ShiftConverter,
@@ -304,9 +309,12 @@ impl Front {
         drift: TemperatureModel,
         gate: Option<u32>,
     ) -> Self {
+        #[cfg(not(feature = "companion"))]
+        let _ = companion; // always None: validation refused a companion coil
         Self {
             window,
             converter,
+            #[cfg(feature = "companion")]
             companion,
             drift,
             accepted: gate.and_then(|g| window.accepted_ticks(g)),
@@ -315,20 +323,17 @@ impl Front {
         }
     }
 
-    pub(crate) fn gate(&self) -> Option<u32> {
-        self.converter.gate_cycles()
-    }
-
-    pub(crate) fn window(&self) -> FaultWindow {
-        self.window
-    }
-
-    pub(crate) fn converter(&self) -> &ShiftConverter {
-        &self.converter
-    }
-
     pub(crate) fn drift(&self) -> TemperatureModel {
         self.drift
+    }
+
+    /// The companion coil, when the unit has one.
+    #[inline(always)]
+    fn companion(&self) -> Option<Companion> {
+        #[cfg(feature = "companion")]
+        return self.companion;
+        #[cfg(not(feature = "companion"))]
+        None
     }
 
     /// The fault window's check, through the accepted ticks when the pair
@@ -388,7 +393,7 @@ impl Front {
     #[inline(always)]
     pub(crate) fn shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
         let pair = input.pair;
-        let s = match self.companion {
+        let s = match self.companion() {
             Some(c) => {
                 self.check(pair).map_err(SensorFault::Counts)?;
                 let comp = input.companion.ok_or(SensorFault::Companion(None))?;
@@ -406,7 +411,7 @@ impl Front {
 
     /// `f64` twin of [`Front::shift`] (assumes the fault window passes).
     pub(crate) fn shift_f64(&self, input: &Input) -> f64 {
-        let s = match (self.companion, input.companion) {
+        let s = match (self.companion(), input.companion) {
             (Some(c), Some(comp)) => c.shift_f64(input.pair, comp),
             _ => self.converter.shift_f64(input.pair),
         };
@@ -906,7 +911,7 @@ pub(crate) mod tests {
         #[test]
         fn checked_shift_equals_check_then_shift(ticks: u32, near in 0u32..400_000, cycles: u32, level: bool) {
             let cal = if level { level_cal(true, false) } else { demo_proximity().unwrap() };
-            let front = *image(&cal).front();
+            let front = image(&cal).front();
             let gate = cal.gate().unwrap();
             let a = front.accepted.unwrap();
             let (lo, hi) = (a.min_ticks, a.max_ticks);

@@ -46,14 +46,16 @@ pub struct ProximityReader<'a> {
 
 impl<'a> ProximityReader<'a> {
     /// The reader of a proximity image ([`ReaderError::WrongKind`] for
-    /// another kind). Cost: a copy of the image's derived constants, no
-    /// validation (done by [`Image::new`]): under 2 000 Cortex-M0
-    /// instructions. RAM: 168 bytes on a 32-bit target, whatever the curve's
-    /// node count (the crate docs, "Memory"); stack: the same, once.
+    /// another kind). Cost: its front (fault window, converter, drift
+    /// model, the fault window's tick band at the gate) built from the
+    /// image's fields, no validation (done by [`Image::new`] or
+    /// [`Image::new_proximity`]): under 2 000 Cortex-M0 instructions. RAM:
+    /// 168 bytes on a 32-bit target, whatever the curve's node count (the
+    /// crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
         match (image.kind(), image.curve()) {
             (ReaderKind::Proximity, Some(curve)) => Ok(Self {
-                front: *image.front(),
+                front: image.front(),
                 curve,
             }),
             (kind, _) => Err(ReaderError::WrongKind(kind)),

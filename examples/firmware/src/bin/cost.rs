@@ -367,7 +367,6 @@ fn reader(unit: usize) -> Option<(Image<'static>, Reader<'static>)> {
     Some((image, reader))
 }
 
-
 /// A row of the full-reading table.
 fn row(out: &mut impl Write, label: &str, ticks: u32, tenths: i64) -> fmt::Result {
     writeln!(out, "{label:<46} {ticks:>9} {:>14}", Tenths(tenths))
@@ -417,7 +416,15 @@ fn proximity(
     per: &impl Fn(u32) -> i64,
 ) -> fmt::Result {
     proximity_of::<5>(out, PROXIMITY_TC, "", ntc, float_ntc, temperature, per)?;
-    proximity_of::<32>(out, PROXIMITY_32, " (32 cubic)", ntc, float_ntc, temperature, per)
+    proximity_of::<32>(
+        out,
+        PROXIMITY_32,
+        " (32 cubic)",
+        ntc,
+        float_ntc,
+        temperature,
+        per,
+    )
 }
 
 /// One proximity unit with an `N`-node curve against its `f32` version.
@@ -691,6 +698,17 @@ fn loading(out: &mut impl Write, scale: &Scale) -> fmt::Result {
         let mut label = Text::default();
         write!(label, "start-up (both) {}", image.name)?;
         row(out, label.as_str(), t, per(t))?;
+        // What a one-product firmware runs (examples/unit-firmware).
+        if checked[0].kind() == lc_core::image::ReaderKind::Proximity {
+            let t = time_cases(&mut nothing, &images, LOAD_ITERATIONS, |_, bytes| {
+                if let Ok(image) = Image::new_proximity(bytes) {
+                    let _ = black_box(lc_core::reader::ProximityReader::new(&image));
+                }
+            });
+            let mut label = Text::default();
+            write!(label, "start-up (proximity) {}", image.name)?;
+            row(out, label.as_str(), t, per(t))?;
+        }
     }
     // Where the start-up of the 32-node image goes.
     let Some(image) = IMAGES.get(PROXIMITY_32) else {

@@ -26,7 +26,7 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use lc_core::image::Image;
 use lc_core::reader::MetalReader;
-use lc_unit::{report::Line, script, Aligned, Host};
+use lc_unit::{report, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see `proximity.rs`).
 #[link_section = ".calibration"]
@@ -40,7 +40,7 @@ fn main() -> ! {
     host.write(b"boot\n");
     let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(image) = Image::new(image) else {
+    let Ok(image) = Image::new_metal(image) else {
         host.fail(b"calibration image refused\n")
     };
     let Ok(mut reader) = MetalReader::new(&image) else {
@@ -49,8 +49,14 @@ fn main() -> ! {
 
     for (i, input) in (0u32..).zip(black_box(&script::METAL)) {
         let r = reader.read(input);
-        let line = Line::reading(i, r.class as i32, r.ring_drop, r.delta.raw_q40(), r.status);
-        host.write(line.as_bytes());
+        report::reading(
+            &mut host,
+            i,
+            r.class as i32,
+            r.ring_drop,
+            r.delta.raw_q40(),
+            r.status,
+        );
     }
     host.finish()
 }

@@ -13,9 +13,10 @@
 //!    ([`Aligned`]: the image is read in place by words); a product may
 //!    ship them erased and let the rig write the image. (Without a section
 //!    of its own, `lc_core::include_image!` embeds an image aligned.)
-//! 2. **Validate.** `Image::new` checks the magic, format version,
-//!    length, CRC-32, every field and every curve segment, in place: the
-//!    image stays in flash. A unit whose image fails must not read:
+//! 2. **Validate.** `Image::new_proximity` checks the magic, format
+//!    version, length, CRC-32, every field and every curve segment, in
+//!    place: the image stays in flash. (`Image::new` accepts every kind
+//!    and links every kind's checks; this firmware runs one.) A unit whose image fails must not read:
 //!    report it and stop (here: exit with a failure status).
 //! 3. **Build the reader.** `ProximityReader::new` checks the image's
 //!    kind and borrows its curve from flash; nothing is derived.
@@ -38,7 +39,7 @@ use core::hint::black_box;
 use cortex_m_rt::entry;
 use lc_core::image::Image;
 use lc_core::reader::ProximityReader;
-use lc_unit::{report::Line, script, Aligned, Host};
+use lc_unit::{report, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see step 1).
 #[link_section = ".calibration"]
@@ -54,7 +55,7 @@ fn main() -> ! {
     // optimizer from using what it knows of this build's image.
     let image: &[u8] = black_box(&IMAGE.0);
 
-    let Ok(image) = Image::new(image) else {
+    let Ok(image) = Image::new_proximity(image) else {
         host.fail(b"calibration image refused\n")
     };
     let Ok(mut reader) = ProximityReader::new(&image) else {
@@ -63,8 +64,7 @@ fn main() -> ! {
 
     for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
         let r = reader.read(input);
-        let line = Line::reading(i, r.gap, None, r.shift.raw_q40(), r.status);
-        host.write(line.as_bytes());
+        report::reading(&mut host, i, r.gap, None, r.shift.raw_q40(), r.status);
     }
     host.finish()
 }
