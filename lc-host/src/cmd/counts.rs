@@ -99,7 +99,13 @@ pub fn run(a: Args) -> Result<()> {
         .map_err(|e| anyhow!("--reference-hz / --band: {e}"))?;
     let cfg = CountsConfig::new(a.reference_hz, a.rest, a.gate_cycles, Some(window))
         .context("--rest / --reference-hz")?;
+    if let Some(out) = &a.output {
+        lc_host::atomic::refuse_same_file(&a.input, out)?;
+    }
     let reader = FieldLogReader::new(open_input(&a.input, "field log")?, &a.input)?;
+    for w in reader.warnings() {
+        eprintln!("warning: {w}");
+    }
     let bar = spinner("{spinner} {pos} lines ({per_sec}) {elapsed}");
     let summary = with_output(a.output.as_deref(), |w| {
         Ok(convert_log(

@@ -1,0 +1,67 @@
+//! Issue 19 on the command line: `counts` like `convert` (header warnings,
+//! never over its input), `inspect`'s trailing bytes, `convert --float`
+//! for every reader, and output any CSV reader takes.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn lc_host(args: &[&std::ffi::OsStr]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_lc-host"))
+        .args(args)
+        .output()
+        .expect("run")
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("lc-host-check-{}-{name}", std::process::id()));
+    std::fs::remove_dir_all(&dir).ok();
+    std::fs::create_dir_all(&dir).expect("scratch dir");
+    dir
+}
+
+fn repo(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel)
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+fn counts(log: &Path, out: &Path) -> Output {
+    lc_host(&[
+        "counts".as_ref(),
+        log.as_os_str(),
+        "--reference-hz".as_ref(),
+        "48M".as_ref(),
+        "--rest".as_ref(),
+        "16384:139542".as_ref(),
+        "-o".as_ref(),
+        out.as_os_str(),
+    ])
+}
+
+/// Issue 19, item 5: `counts` wrote over its own input with exit 0, and
+/// said nothing about unknown columns.
+#[test]
+fn counts_refuses_its_input_as_output_and_warns_about_columns() {
+    let dir = scratch("counts");
+    let log = dir.join("log.csv");
+    std::fs::write(&log, "cycles,ticks,temp\n16384,139542,25\n").unwrap();
+    let o = counts(&log, &log);
+    assert!(!o.status.success(), "{}", stderr(&o));
+    assert!(stderr(&o).contains("log.csv"), "{}", stderr(&o));
+    assert_eq!(
+        std::fs::read_to_string(&log).unwrap(),
+        "cycles,ticks,temp\n16384,139542,25\n",
+        "the input is untouched"
+    );
+    let out = dir.join("out.csv");
+    let o = counts(&log, &out);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("warning:") && stderr(&o).contains("`temp_c`"),
+        "{}",
+        stderr(&o)
+    );
+    std::fs::remove_dir_all(&dir).ok();
+}
