@@ -65,3 +65,57 @@ fn counts_refuses_its_input_as_output_and_warns_about_columns() {
     );
     std::fs::remove_dir_all(&dir).ok();
 }
+
+fn inspect(image: &Path) -> Output {
+    lc_host(&["inspect".as_ref(), image.as_os_str()])
+}
+
+/// Issue 19, item 4: two images concatenated read as one valid image.
+/// Erased flash after an image is reported as such and accepted.
+#[test]
+fn inspect_reports_bytes_after_the_image() {
+    let dir = scratch("inspect");
+    // Images from `lc-host calibrate` (examples/unit-firmware/run.sh images).
+    let a = std::fs::read(repo("examples/unit-firmware/data/proximity.lcim")).unwrap();
+    let b = std::fs::read(repo("examples/unit-firmware/data/metal.lcim")).unwrap();
+    let plain = dir.join("plain.lcim");
+    std::fs::write(&plain, &a).unwrap();
+    let o = inspect(&plain);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(!String::from_utf8_lossy(&o.stdout).contains("erased"));
+
+    let two = dir.join("two.lcim");
+    std::fs::write(&two, [a.as_slice(), b.as_slice()].concat()).unwrap();
+    let o = inspect(&two);
+    assert!(!o.status.success(), "two images read as one");
+    assert!(
+        stderr(&o).contains(&format!(
+            "{} bytes follow the image's stated length",
+            b.len()
+        )),
+        "{}",
+        stderr(&o)
+    );
+    assert!(!String::from_utf8_lossy(&o.stdout).contains("valid"));
+
+    let page = dir.join("page.lcim");
+    let mut padded = a.clone();
+    let page_len = a.len().next_multiple_of(1024) + 1024;
+    padded.resize(page_len, 0xFF);
+    std::fs::write(&page, &padded).unwrap();
+    let o = inspect(&page);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        String::from_utf8_lossy(&o.stdout).contains(&format!(
+            "{} bytes of erased flash (0xFF)",
+            page_len - a.len()
+        )),
+        "{}",
+        String::from_utf8_lossy(&o.stdout)
+    );
+    // One byte that is not erased flash is data.
+    padded[a.len() + 100] = 0;
+    std::fs::write(&page, &padded).unwrap();
+    assert!(!inspect(&page).status.success());
+    std::fs::remove_dir_all(&dir).ok();
+}
