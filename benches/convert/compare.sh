@@ -82,7 +82,7 @@ if [ -n "${BASELINE:-}" ]; then
     cmp "$work/out-convert.csv" "$work/out-baseline.csv"
     echo "baseline output: byte-identical to convert's"
 fi
-"$py" "$here/pandas_convert.py" --check "$work/out-convert.csv" "$work/out-pandas.csv"
+"$py" "$here/pandas_convert.py" --check "$work/out-convert.csv" "$work/out-pandas.csv" "$work/image.json"
 
 median() { sort -n -k"$2" "$work/$1.runs" | awk -v c="$2" '{v[NR]=$c} END {print v[int((NR+1)/2)]}'; }
 echo "medians of $runs runs ($rows rows):"

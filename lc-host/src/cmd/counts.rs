@@ -42,8 +42,8 @@ pub struct Args {
     #[arg(long, value_name = "CYCLES", value_parser = count_u32::<1, { u32::MAX }>)]
     gate_cycles: Option<u32>,
     /// Plausible sensor band MIN_HZ:MAX_HZ (SI prefixes: 1M:20M); pairs
-    /// outside are reported as faults (frequency_too_low /
-    /// frequency_too_high), not converted
+    /// outside are reported as faults (fault_frequency_too_low /
+    /// fault_frequency_too_high), not converted
     #[arg(long, value_name = "MIN_HZ:MAX_HZ", value_parser = hz_band)]
     band: Option<(u32, u32)>,
     /// Fewest sensor cycles a gate may hold (too_few_cycles below)
