@@ -119,3 +119,63 @@ fn inspect_reports_bytes_after_the_image() {
     assert!(!inspect(&page).status.success());
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// Issue 19, item 6: `convert`'s output read by Python's `csv` module
+/// (comment lines filtered out, as its documentation suggests for
+/// commented files) and, where installed, by pandas with `comment="#"`:
+/// every row as wide as the header. Skipped without `python3`.
+#[test]
+fn python_reads_convert_output() {
+    let Ok(probe) = Command::new("python3").arg("--version").output() else {
+        eprintln!("python3 not found: skipped");
+        return;
+    };
+    if !probe.status.success() {
+        eprintln!("python3 not usable: skipped");
+        return;
+    }
+    let dir = scratch("python");
+    let out = dir.join("readings.csv");
+    let o = lc_host(&[
+        "convert".as_ref(),
+        repo("examples/data/demo-counts.csv").as_os_str(),
+        "--image".as_ref(),
+        repo("examples/unit-firmware/data/proximity.lcim").as_os_str(),
+        "--float".as_ref(),
+        "-o".as_ref(),
+        out.as_os_str(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let script = r##"
+import csv, sys
+with open(sys.argv[1], newline="") as f:
+    rows = list(csv.reader(line for line in f if not line.startswith("#")))
+header, body = rows[0], rows[1:]
+assert header[:5] == ["line", "time_s", "channel", "status", "gap_m"], header
+assert all(len(r) == len(header) for r in body), "ragged rows"
+assert any(r[3].startswith("fault_") for r in body)
+float(next(r for r in body if r[3] == "ok")[4])
+try:
+    import pandas
+except ImportError:
+    print(len(body))
+    sys.exit(0)
+df = pandas.read_csv(sys.argv[1], comment="#")
+assert list(df.columns) == header and len(df) == len(body)
+print(len(body))
+"##;
+    let py = Command::new("python3")
+        .arg("-c")
+        .arg(script)
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        py.status.success(),
+        "{}{}",
+        String::from_utf8_lossy(&py.stdout),
+        String::from_utf8_lossy(&py.stderr)
+    );
+    assert_eq!(String::from_utf8_lossy(&py.stdout).trim(), "201");
+    std::fs::remove_dir_all(&dir).ok();
+}
