@@ -706,7 +706,12 @@ pub fn verify(
                     for _ in 1..enter_samples.max(1) {
                         last = path.read(&mut m, &target);
                     }
-                    if faulted || matches!(first.status, Status::SensorFault(_)) {
+                    // A fault (on any reading of the sequence) leaves the
+                    // point out: it says nothing about the arithmetic.
+                    if faulted
+                        || matches!(first.status, Status::SensorFault(_))
+                        || matches!(last.status, Status::SensorFault(_))
+                    {
                         continue;
                     }
                     let d_ref = front_f64(pair, t_c) - front_f64(base, t_c);
