@@ -192,7 +192,10 @@ mod tests {
             "WORDS lists a word never written"
         );
         let doc = std::fs::read_to_string(
-            std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../docs/formats.md"),
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+                .parent()
+                .unwrap()
+                .join("docs/formats.md"),
         )
         .unwrap();
         for (w, _) in WORDS {
