@@ -12,7 +12,7 @@
 #   bash benches/convert/compare.sh [ROWS] [RUNS]     (default 10 000 000, 3)
 #
 # Environment: WORK (scratch directory, default /tmp/lc-convert-bench; the
-# field log of 10^7 rows is 316 MB and each output 430 MB), THREADS (passed
+# field log of 10^7 rows is 316 MB and each output 460 MB), THREADS (passed
 # to convert's --threads; default: one per core), BASELINE (another lc-host
 # binary to time as well; its output must be byte-identical).
 #
