@@ -959,6 +959,20 @@ mod tests {
         assert!(r.passed(), "{}", to_text(&r));
     }
 
+    /// A proximity or metal unit with a companion coil reads the ratio of
+    /// its two channels: verified with the companion at its rest point.
+    #[test]
+    fn readers_with_a_companion_coil_are_verified() {
+        for file in ["proximity", "metal"] {
+            let mut cal = image_file(&format!("examples/unit-firmware/data/{file}.lcim"));
+            cal.companion_rest = Some(
+                lc_core::shift::RestPoint::from_counts(CountPair::new(16_384, 150_000)).unwrap(),
+            );
+            let r = verify(&cal, &small(), &Firmware, &|_| {}).unwrap();
+            assert!(r.passed(), "{file}: {}", to_text(&r));
+        }
+    }
+
     /// Errors in the level ratio path and the metal path are caught.
     #[test]
     fn injected_errors_in_the_level_and_metal_paths_are_caught() {
