@@ -12,7 +12,7 @@
 #   bash benches/convert/compare.sh [ROWS] [RUNS]     (default 10 000 000, 3)
 #
 # Environment: WORK (scratch directory, default /tmp/lc-convert-bench; the
-# field log of 10^7 rows is 316 MB and each output 430 MB), THREADS (passed
+# field log of 10^7 rows is 316 MB and each output 460 MB), THREADS (passed
 # to convert's --threads; default: one per core), BASELINE (another lc-host
 # binary to time as well; its output must be byte-identical).
 #
@@ -82,7 +82,7 @@ if [ -n "${BASELINE:-}" ]; then
     cmp "$work/out-convert.csv" "$work/out-baseline.csv"
     echo "baseline output: byte-identical to convert's"
 fi
-"$py" "$here/pandas_convert.py" --check "$work/out-convert.csv" "$work/out-pandas.csv"
+"$py" "$here/pandas_convert.py" --check "$work/out-convert.csv" "$work/out-pandas.csv" "$work/image.json"
 
 median() { sort -n -k"$2" "$work/$1.runs" | awk -v c="$2" '{v[NR]=$c} END {print v[int((NR+1)/2)]}'; }
 echo "medians of $runs runs ($rows rows):"

@@ -14,8 +14,8 @@ use lc_core::counting::CountPair;
 use lc_core::image::Calibration;
 use lc_core::reader::{Input, Reader, Status};
 use lc_core::temperature::CentiCelsius;
-use lc_host::convert::{status_name, OUTPUT_HEADER};
-use lc_host::csvout::{push_fixed, push_int, push_int_opt, push_shortest};
+use lc_host::convert::{header_text, status_name, Converter};
+use lc_host::csvout::{push_fixed, push_int, push_int_opt, push_scaled, push_shortest};
 use std::io::{Read, Write};
 
 fn main() {
@@ -31,16 +31,13 @@ fn main() {
     let mut input = std::fs::File::open(field).expect("field log");
     let mut output = std::fs::File::create(out).expect("output");
 
-    let mut head = Vec::new();
-    writeln!(
-        head,
-        "# lc-host convert: unit {}, value in 1e{} {}\n{OUTPUT_HEADER}",
-        cal.serial.as_str(),
-        cal.output.decimal_exponent,
-        cal.output.unit.symbol(),
-    )
-    .expect("header");
+    // The comment line and the header, as convert writes them (once per
+    // run: not part of the per-row work).
+    let conv = Converter::new(cal).expect("converter");
+    let mut head = header_text(&conv, false, &[]).into_bytes();
+    head.push(b'\n');
     output.write_all(&head).expect("write");
+    let exp = cal.output.decimal_exponent;
 
     // Column positions from the header line.
     let mut cols: Option<[usize; 5]> = None;
@@ -111,10 +108,8 @@ fn main() {
             out.extend_from_slice(status_name(r.status()).as_bytes());
             out.push(b',');
             if !fault {
-                push_int(&mut out, r.output());
+                push_scaled(&mut out, i64::from(r.output()), exp);
             }
-            out.push(b',');
-            push_int_opt(&mut out, r.secondary());
             out.push(b',');
             if !fault {
                 push_fixed(

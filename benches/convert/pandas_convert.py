@@ -18,9 +18,11 @@ constants (`lc-host inspect --json IMAGE`):
 
 Usage:
     pandas_convert.py IMAGE.json FIELD.csv OUT.csv
-    pandas_convert.py --check OURS.csv THEIRS.csv
-The second form compares two outputs row for row (statuses, values within
-one output unit, shifts within 0.01 ppm) and prints the disagreements.
+    pandas_convert.py --check OURS.csv THEIRS.csv IMAGE.json
+The second form compares two outputs row for row (statuses, gaps within
+one output unit of the image's scale, shifts within 0.01 ppm) and prints
+the disagreements. Both write convert's columns: line, time_s, channel,
+status, gap_m (the gap in metres, docs/formats.md), shift_ppm.
 """
 import json
 import sys
@@ -55,10 +57,12 @@ def curve_eval(sc: np.ndarray, curve: dict) -> np.ndarray:
     xs = np.array([n["shift_q40"] for n in curve["nodes"]], dtype=float) / Q40
     ys = np.array([n["value"] for n in curve["nodes"]], dtype=float)
     cubic = curve["interpolation"] != "linear"
-    ders = np.array(curve["derivatives_q16"], dtype=float) / 65536.0 if cubic else None
+    # Each segment's tangent terms (D0, D1) = w·dy/ds at its ends, Q8
+    # output units, as the image stores them.
+    terms = np.array(curve["tangent_terms_q8"], dtype=float).reshape(-1, 2) / 256.0
     if xs[0] > xs[-1]:  # a Hermite segment is the same cubic read either way
         xs, ys = xs[::-1], ys[::-1]
-        ders = ders[::-1] if cubic else None
+        terms = -terms[::-1, ::-1]
     if not cubic:
         return np.interp(sc, xs, ys)
     # Cubic Hermite per segment, t = (s - x0)/h, D = h·dy/ds:
@@ -67,7 +71,7 @@ def curve_eval(sc: np.ndarray, curve: dict) -> np.ndarray:
     x0, h = xs[i], xs[i + 1] - xs[i]
     t = np.clip((sc - x0) / h, 0.0, 1.0)
     y0, dy = ys[i], ys[i + 1] - ys[i]
-    d0, d1 = h * ders[i], h * ders[i + 1]
+    d0, d1 = terms[i, 0], terms[i, 1]
     return y0 + t * (d0 + t * ((3 * dy - 2 * d0 - d1) + t * (d0 + d1 - 2 * dy)))
 
 
@@ -84,6 +88,8 @@ def convert(image_json: str, field_csv: str, out_csv: str) -> None:
     b2 = drift["b2_ppm_per_k2"] * 1e-6
     t_ref = drift["reference_c"]
     curve = image["curve"]
+    exp = image["output"]["decimal_exponent"]
+    gap = "gap" + {"m": "_m", "L": "_l", "%": "_percent", "": ""}[image["output"]["unit"]]
     xs = np.array([n["shift_q40"] for n in curve["nodes"]], dtype=float) / Q40
     rising = curve["nodes"][-1]["value"] > curve["nodes"][0]["value"]
 
@@ -130,23 +136,28 @@ def convert(image_json: str, field_csv: str, out_csv: str) -> None:
             "time_s": df["time_s"].to_numpy(),
             "channel": df["channel"].to_numpy(),
             "status": status,
-            "value": pa.array(value.astype(np.int64), mask=is_fault),
+            # The gap in its unit, on the image's scale (value · 10^exp).
+            gap: pa.array(np.round(value * 10.0**exp, max(0, -exp)), mask=is_fault),
             "shift_ppm": pa.array(np.round(sc * 1e6, 6), mask=is_fault),
         }
     )
     pacsv.write_csv(out, out_csv)
 
 
-def check(ours: str, theirs: str) -> None:
+def check(ours: str, theirs: str, image_json: str) -> None:
+    with open(image_json, encoding="utf-8") as f:
+        step = 10.0 ** json.load(f)["output"]["decimal_exponent"]
     a = pd.read_csv(ours, engine="pyarrow", skiprows=leading_comments(ours))
     b = pd.read_csv(theirs, engine="pyarrow")
     if len(a) != len(b):
         sys.exit(f"row counts differ: {len(a)} against {len(b)}")
     same_line = (a["line"].to_numpy() == b["line"].to_numpy()).all()
     status = a["status"].to_numpy() != b["status"].to_numpy()
-    va, vb = a["value"].to_numpy(dtype=float), b["value"].to_numpy(dtype=float)
+    col = next(c for c in a.columns if c.startswith("gap"))
+    va, vb = a[col].to_numpy(dtype=float), b[col].to_numpy(dtype=float)
     both = ~np.isnan(va) & ~np.isnan(vb)
-    dv = np.abs(va - vb)[both]
+    # In output units (one step of the image's scale).
+    dv = np.round(np.abs(va - vb)[both] / step, 6)
     ds = np.abs(a["shift_ppm"].to_numpy(dtype=float) - b["shift_ppm"].to_numpy(dtype=float))[both]
     print(
         f"agreement: {len(a)} rows, lines {'equal' if same_line else 'DIFFER'}, "
@@ -160,6 +171,6 @@ def check(ours: str, theirs: str) -> None:
 
 if __name__ == "__main__":
     if sys.argv[1] == "--check":
-        check(sys.argv[2], sys.argv[3])
+        check(sys.argv[2], sys.argv[3], sys.argv[4])
     else:
         convert(*sys.argv[1:4])

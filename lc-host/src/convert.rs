@@ -1,21 +1,19 @@
 //! Field logs to readings through a unit's calibration image, exactly as
 //! the firmware computes them: every row goes through lc-core's `Reader`.
 
-use crate::csvout::{push_fixed, push_fixed_opt, push_int, push_int_opt, push_shortest_opt};
+use crate::csvout::{
+    push_fixed, push_int, push_int_opt, push_scaled, push_scaled_f64, push_shortest_opt,
+};
 use crate::fieldlog::{FieldLogReader, FieldRow, Measurement};
 use crate::stream::{stream_log, OnBadRow, RowClass, RunError, Summary, Threads};
-use lc_core::counting::{CountPair, FaultError};
-use lc_core::image::Calibration;
+use lc_core::counting::CountPair;
+use lc_core::image::{Calibration, OutputUnit, ReaderKind};
 use lc_core::reader::{
-    Input, LevelReader, ProximityReader, Reader, ReaderError, Reading, SensorFault, Status,
+    Input, LevelReader, MetalClass, ProximityReader, Reader, ReaderError, Reading, Status,
 };
-use lc_core::shift::ShiftError;
 use lc_core::temperature::CentiCelsius;
 use std::collections::BTreeMap;
 use std::io::{Read, Write};
-
-/// The status word of a frozen counter, in `convert` and `counts` alike.
-pub const FAULT_FROZEN: &str = "fault_counter_frozen";
 
 /// A logged temperature as the reader's input: a value beyond the `i32`
 /// range of hundredths of a degree, or not a number, becomes the nearest
@@ -29,32 +27,18 @@ pub fn temperature_input(temp_c: f64) -> CentiCelsius {
     })
 }
 
-/// A stable name for a reading's status, as written in CSV.
+/// A stable name for a reading's status, as written in CSV: the project's
+/// one vocabulary ([`crate::status::status_word`]).
 pub fn status_name(s: Status) -> &'static str {
-    match s {
-        Status::Ok => "ok",
-        Status::BelowRange => "below_range",
-        Status::AboveRange => "above_range",
-        Status::NoTarget => "no_target",
-        Status::SensorFault(f) => match f {
-            SensorFault::Counts(e) | SensorFault::Companion(Some(e)) => match e {
-                FaultError::NoOscillation => "fault_no_oscillation",
-                FaultError::NoReference => "fault_no_reference",
-                FaultError::TooFewCycles => "fault_too_few_cycles",
-                FaultError::FrequencyTooLow => "fault_frequency_too_low",
-                FaultError::FrequencyTooHigh => "fault_frequency_too_high",
-            },
-            SensorFault::Companion(None) => "fault_companion_missing",
-            SensorFault::Shift(ShiftError::OutOfRange) => "fault_shift_out_of_range",
-            SensorFault::Shift(_) => "fault_shift",
-            SensorFault::Ratio(_) => "fault_companion_ratio",
-            SensorFault::Reference => "fault_reference_dry",
-            SensorFault::ReferenceLow => "fault_reference_low",
-            SensorFault::OutOfReach => "fault_out_of_reach",
-            SensorFault::Frozen => FAULT_FROZEN,
-            SensorFault::TemperatureOutOfDomain => "fault_temperature_out_of_domain",
-            SensorFault::TemperatureMissing => "fault_temperature_missing",
-        },
+    crate::status::status_word(s)
+}
+
+/// A metal class's name, as written in CSV.
+pub fn class_name(c: MetalClass) -> &'static str {
+    match c {
+        MetalClass::None => "none",
+        MetalClass::Ferrous => "ferrous",
+        MetalClass::NonFerrous => "non_ferrous",
     }
 }
 
@@ -124,14 +108,23 @@ pub enum SetupError {
     },
 }
 
+/// The `f64` twin of a reader, for the reference value: the reader of the
+/// image's own kind (metal has none: its class is a decision, not a
+/// value).
+#[derive(Debug)]
+enum F64Twin {
+    Proximity(ProximityReader<'static>),
+    Level(LevelReader<'static>),
+    None,
+}
+
 /// What a row needs besides the stateful reader: the calibration, the
-/// gate for logged frequencies, and the `f64` reference readers. Shared by
+/// gate for logged frequencies, and the `f64` reference reader. Shared by
 /// the formatting threads.
 #[derive(Debug)]
 struct Twin {
     calibration: Calibration,
-    proximity: Option<ProximityReader<'static>>,
-    level: Option<LevelReader<'static>>,
+    f64_twin: F64Twin,
     frequency_gate: u32,
 }
 
@@ -169,10 +162,10 @@ impl Twin {
     fn reference(&self, row: &FieldRow, reading: &Reading) -> Option<f64> {
         match reading.status() {
             Status::SensorFault(_) => None,
-            _ => match (&self.proximity, &self.level) {
-                (Some(p), _) => Some(p.read_f64(&self.input_of(row))),
-                (_, Some(l)) => Some(l.read_f64(&self.input_of(row)).0),
-                _ => None,
+            _ => match &self.f64_twin {
+                F64Twin::Proximity(p) => Some(p.read_f64(&self.input_of(row))),
+                F64Twin::Level(l) => Some(l.read_f64(&self.input_of(row)).0),
+                F64Twin::None => None,
             },
         }
     }
@@ -210,9 +203,14 @@ impl Converter {
                 Reader::new(&image).map_err(|error| SetupError::Reader { channel, error })?;
             let k = conv.twins.len();
             conv.readers.push(reader);
+            let f64_twin = match calibration.kind {
+                ReaderKind::Proximity => ProximityReader::new(&image).map(F64Twin::Proximity),
+                ReaderKind::Level => LevelReader::new(&image).map(F64Twin::Level),
+                ReaderKind::Metal => Ok(F64Twin::None),
+            }
+            .map_err(|error| SetupError::Reader { channel, error })?;
             conv.twins.push(Twin {
-                proximity: ProximityReader::new(&image).ok(),
-                level: LevelReader::new(&image).ok(),
+                f64_twin,
                 frequency_gate: calibration.gate().unwrap_or(16_384),
                 calibration,
             });
@@ -300,15 +298,224 @@ fn image_of(
         .or(default)
 }
 
-/// The CSV header of [`convert_log`].
-pub const OUTPUT_HEADER: &str = "line,time_s,channel,status,value,secondary,shift_ppm";
+/// What an output column of [`convert_log`] holds.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Field {
+    /// The reading (gap, level) in its unit: raw · 10^exp.
+    Value(i8),
+    /// A level's volume in its unit: raw · 10^exp.
+    Volume(i8),
+    /// The drift-compensated shift the curve was read at, ppm.
+    ShiftPpm,
+    /// The probe / reference-electrode ratio the curve was read at.
+    Ratio,
+    /// The metal class's name.
+    Class,
+    /// The metal reader's ring-count drop.
+    RingDrop,
+    /// Metal: shift − baseline, ppm.
+    DeltaPpm,
+    /// The `f64` reference of the value, in its unit.
+    ValueF64(i8),
+    /// The value minus its `f64` reference, in its unit.
+    Diff(i8),
+}
 
-/// Streams a field log through the converter into CSV. The first line is a
-/// comment naming the unit and the value's unit; with `with_f64`, two
-/// columns more: the f64 reference value and fixed − reference. `observe`
-/// sees every converted row in input order (for plots; `value_f64` only
-/// with `with_f64`); `progress` gets the input line every 65 536 rows.
-/// Rows are parsed and formatted on one thread per core (at most
+/// The suffix of a column holding values in `unit`.
+fn unit_suffix(unit: OutputUnit) -> &'static str {
+    match unit {
+        OutputUnit::None => "",
+        OutputUnit::Metre => "_m",
+        OutputUnit::Litre => "_l",
+        OutputUnit::Percent => "_percent",
+    }
+}
+
+/// The columns an image's readings fill, named for what they hold.
+fn product_columns(cal: &Calibration, with_f64: bool) -> Vec<(String, Field)> {
+    let exp = cal.output.decimal_exponent;
+    let value = |name: &str| format!("{name}{}", unit_suffix(cal.output.unit));
+    let with_twin = |mut cols: Vec<(String, Field)>, name: String| {
+        if with_f64 {
+            cols.push((format!("{name}_f64"), Field::ValueF64(exp)));
+            cols.push((format!("{name}_diff"), Field::Diff(exp)));
+        }
+        cols
+    };
+    match cal.kind {
+        ReaderKind::Proximity => {
+            let name = value("gap");
+            with_twin(
+                vec![
+                    (name.clone(), Field::Value(exp)),
+                    ("shift_ppm".to_string(), Field::ShiftPpm),
+                ],
+                name,
+            )
+        }
+        ReaderKind::Level => {
+            let name = value("level");
+            let mut cols = vec![(name.clone(), Field::Value(exp))];
+            if let Some((_, scale)) = cal.volume {
+                cols.push((
+                    format!("volume{}", unit_suffix(scale.unit)),
+                    Field::Volume(scale.decimal_exponent),
+                ));
+            }
+            cols.push(match cal.companion_rest {
+                Some(_) => ("ratio".to_string(), Field::Ratio),
+                None => ("shift_ppm".to_string(), Field::ShiftPpm),
+            });
+            with_twin(cols, name)
+        }
+        ReaderKind::Metal => vec![
+            ("class".to_string(), Field::Class),
+            ("ring_drop".to_string(), Field::RingDrop),
+            ("delta_ppm".to_string(), Field::DeltaPpm),
+        ],
+    }
+}
+
+/// The columns every row of [`convert_log`] starts with.
+pub const FIRST_COLUMNS: &str = "line,time_s,channel,status";
+
+/// A comment line's text with nothing a CSV reader could take for a field
+/// separator or a quote (a serial may hold any printable character).
+fn comment_text(text: &str) -> String {
+    text.chars()
+        .map(|c| {
+            if matches!(c, ',' | ';' | '\t' | '"') {
+                '_'
+            } else {
+                c
+            }
+        })
+        .collect()
+}
+
+/// The output layout of one run: the union of the images' columns, and for
+/// each image which of them its rows fill.
+struct Layout {
+    /// Column names after [`FIRST_COLUMNS`], then the kept input columns.
+    names: Vec<String>,
+    /// Per image: one entry per column of `names` (product columns only).
+    fields: Vec<Vec<Option<Field>>>,
+}
+
+impl Layout {
+    fn new(conv: &Converter, with_f64: bool) -> Self {
+        let per_image: Vec<Vec<(String, Field)>> = conv
+            .twins
+            .iter()
+            .map(|t| product_columns(&t.calibration, with_f64))
+            .collect();
+        // In image order: the default image first, then by channel.
+        let mut order: Vec<usize> = conv.default.into_iter().collect();
+        order.extend(conv.by_channel.values().copied());
+        let mut names: Vec<String> = Vec::new();
+        for &k in &order {
+            for (name, _) in &per_image[k] {
+                if !names.contains(name) {
+                    names.push(name.clone());
+                }
+            }
+        }
+        let fields = per_image
+            .iter()
+            .map(|cols| {
+                names
+                    .iter()
+                    .map(|n| cols.iter().find(|(c, _)| c == n).map(|&(_, f)| f))
+                    .collect()
+            })
+            .collect();
+        Self { names, fields }
+    }
+}
+
+/// The header of [`convert_log`]: a comment line per image naming the unit
+/// and its reader (no commas, semicolons, tabs or quotes: a plain CSV reader
+/// skipping `#` lines sees only the header and rows), then the column
+/// names. `kept`: the input columns passed through, by name.
+pub fn header_text(conv: &Converter, with_f64: bool, kept: &[String]) -> String {
+    let reader_words = |cal: &Calibration| match (cal.kind, cal.companion_rest, cal.volume) {
+        (ReaderKind::Proximity, None, _) => "proximity reader".to_string(),
+        (ReaderKind::Proximity, Some(_), _) => "proximity reader with companion coil".to_string(),
+        (ReaderKind::Level, r, v) => format!(
+            "level reader{}{}",
+            if r.is_some() {
+                " with reference electrode"
+            } else {
+                ""
+            },
+            match (r, v) {
+                (_, None) => "",
+                (Some(_), Some(_)) => " and volume table",
+                (None, Some(_)) => " with volume table",
+            }
+        ),
+        (ReaderKind::Metal, None, _) => "metal reader".to_string(),
+        (ReaderKind::Metal, Some(_), _) => "metal reader with companion coil".to_string(),
+    };
+    let line = |prefix: String, cal: &Calibration| {
+        comment_text(&format!(
+            "# lc-host convert: {prefix}unit {}: {}\n",
+            cal.serial.as_str(),
+            reader_words(cal)
+        ))
+    };
+    let mut text = String::new();
+    if let Some(k) = conv.default {
+        let prefix = if conv.by_channel.is_empty() {
+            String::new()
+        } else {
+            "other channels: ".to_string()
+        };
+        text += &line(prefix, &conv.twins[k].calibration);
+    }
+    for (ch, &k) in &conv.by_channel {
+        text += &line(format!("channel {ch}: "), &conv.twins[k].calibration);
+    }
+    text += FIRST_COLUMNS;
+    let layout = Layout::new(conv, with_f64);
+    for name in layout.names.iter().chain(kept) {
+        text.push(',');
+        text += name;
+    }
+    text
+}
+
+/// Appends field `i` (from 0) of a logged CSV line as it was written
+/// (quotes included, so it stays one field); nothing when the line has
+/// fewer fields.
+fn push_raw_field(out: &mut Vec<u8>, line: &[u8], i: usize) {
+    let (mut field, mut start, mut quoted) = (0, 0, false);
+    for (k, &b) in line.iter().enumerate() {
+        match b {
+            b'"' => quoted = !quoted,
+            b',' if !quoted => {
+                if field == i {
+                    out.extend_from_slice(&line[start..k]);
+                    return;
+                }
+                field += 1;
+                start = k + 1;
+            }
+            _ => {}
+        }
+    }
+    if field == i {
+        out.extend_from_slice(&line[start..]);
+    }
+}
+
+/// Streams a field log through the converter into CSV: a comment line per
+/// image, the header, and one row per reading with the columns of its
+/// image's product (docs/formats.md, "Readings"); with `with_f64`, the
+/// `f64` reference value and fixed − reference too. `observe` sees every
+/// converted row in input order (for plots; `value_f64` only with
+/// `with_f64`); `progress` gets the input line every 65 536 rows. Rows are
+/// parsed and formatted on one thread per core (at most
 /// [`crate::stream::MAX_THREADS`]); [`convert_log_threads`] chooses.
 pub fn convert_log<R: Read, W: Write>(
     reader: FieldLogReader<R>,
@@ -338,51 +545,42 @@ pub fn convert_log<R: Read, W: Write>(
 #[allow(clippy::too_many_arguments)]
 pub fn convert_log_threads<R: Read, W: Write>(
     reader: FieldLogReader<R>,
-    mut out: W,
+    out: W,
     conv: &mut Converter,
     on_bad_row: OnBadRow,
     with_f64: bool,
     threads: Threads,
     progress: impl FnMut(u64),
+    observe: impl FnMut(&Converted),
+) -> Result<Summary, RunError> {
+    convert_log_keeping(
+        reader, out, conv, on_bad_row, with_f64, false, threads, progress, observe,
+    )
+}
+
+/// [`convert_log_threads`], and with `keep_columns` the input's columns
+/// that are not field-log columns passed through after the output's own,
+/// as logged ([`FieldLogReader::unknown_columns`]).
+#[allow(clippy::too_many_arguments)]
+pub fn convert_log_keeping<R: Read, W: Write>(
+    reader: FieldLogReader<R>,
+    out: W,
+    conv: &mut Converter,
+    on_bad_row: OnBadRow,
+    with_f64: bool,
+    keep_columns: bool,
+    threads: Threads,
+    progress: impl FnMut(u64),
     mut observe: impl FnMut(&Converted),
 ) -> Result<Summary, RunError> {
-    let unit_line = |cal: &Calibration| {
-        format!(
-            "unit {}, value in 1e{} {}{}",
-            cal.serial.as_str(),
-            cal.output.decimal_exponent,
-            cal.output.unit.symbol(),
-            cal.volume.map_or(String::new(), |(_, s)| format!(
-                ", secondary (volume) in 1e{} {}",
-                s.decimal_exponent,
-                s.unit.symbol()
-            ))
-        )
-    };
-    if let Some(k) = conv.default {
-        let prefix = if conv.by_channel.is_empty() {
-            ""
-        } else {
-            "other channels: "
-        };
-        writeln!(
-            out,
-            "# lc-host convert: {prefix}{}",
-            unit_line(&conv.twins[k].calibration)
-        )?;
-    }
-    for (ch, &k) in &conv.by_channel {
-        writeln!(
-            out,
-            "# lc-host convert: channel {ch}: {}",
-            unit_line(&conv.twins[k].calibration)
-        )?;
-    }
-    let header = if with_f64 {
-        format!("{OUTPUT_HEADER},value_f64,diff")
+    let kept: Vec<(usize, String)> = if keep_columns {
+        reader.unknown_columns().to_vec()
     } else {
-        OUTPUT_HEADER.to_string()
+        Vec::new()
     };
+    let kept_names: Vec<String> = kept.iter().map(|(_, n)| n.clone()).collect();
+    let header = header_text(conv, with_f64, &kept_names);
+    let layout = Layout::new(conv, with_f64);
     let Converter {
         twins,
         readers,
@@ -391,18 +589,21 @@ pub fn convert_log_threads<R: Read, W: Write>(
         live,
     } = conv;
     let (twins, readers, by_channel, default) = (&*twins, &*readers, &*by_channel, *default);
+    let fields = &layout.fields;
+    let kept = &kept;
     stream_log(
         reader,
         out,
         &header,
         on_bad_row,
         threads,
+        !kept.is_empty(),
         |row| {
             let k = image_of(by_channel, default, row.channel)?;
             let unit = live[slot(row.channel)].get_or_insert_with(|| Box::new(readers[k].clone()));
             Some((unit.read(&twins[k].input_of(row)), None::<f64>, k))
         },
-        |row, state: &mut Option<(Reading, Option<f64>, usize)>, out| {
+        |row, state: &mut Option<(Reading, Option<f64>, usize)>, raw, out| {
             let Some((r, value_f64, k)) = state else {
                 return Err(RunError::NoImage {
                     line: row.line,
@@ -418,27 +619,51 @@ pub fn convert_log_threads<R: Read, W: Write>(
             push_int_opt(out, row.channel);
             out.push(b',');
             out.extend_from_slice(status_name(r.status()).as_bytes());
-            out.push(b',');
-            if !fault {
-                push_int(out, r.output());
-            }
-            out.push(b',');
-            push_int_opt(out, r.secondary());
-            out.push(b',');
-            if !fault {
-                push_fixed(
-                    out,
-                    lc_core::shift::Shift::from_raw_q40(r.curve_input_q40()).to_ppm_f64(),
-                    6,
-                );
-            }
             if with_f64 {
                 *value_f64 = twin.reference(row, r);
-                let diff = value_f64.map(|v| f64::from(r.output()) - v);
+            }
+            let q40 = r.curve_input_q40();
+            for field in &fields[*k] {
                 out.push(b',');
-                push_fixed_opt(out, *value_f64, 4);
+                let Some(field) = field else { continue };
+                if fault {
+                    continue;
+                }
+                match *field {
+                    Field::Value(exp) => push_scaled(out, i64::from(r.output()), exp),
+                    Field::Volume(exp) => {
+                        if let Some(v) = r.secondary() {
+                            push_scaled(out, i64::from(v), exp);
+                        }
+                    }
+                    Field::ShiftPpm | Field::DeltaPpm => push_fixed(
+                        out,
+                        lc_core::shift::Shift::from_raw_q40(q40).to_ppm_f64(),
+                        6,
+                    ),
+                    // Q23.40 to its value: 12 decimals hold every bit.
+                    Field::Ratio => push_fixed(out, q40 as f64 / 1_099_511_627_776.0, 12),
+                    Field::Class => {
+                        if let Reading::Metal(m) = r {
+                            out.extend_from_slice(class_name(m.class).as_bytes());
+                        }
+                    }
+                    Field::RingDrop => push_int_opt(out, r.secondary()),
+                    Field::ValueF64(exp) => {
+                        if let Some(v) = *value_f64 {
+                            push_scaled_f64(out, v, exp, 4);
+                        }
+                    }
+                    Field::Diff(exp) => {
+                        if let Some(v) = *value_f64 {
+                            push_scaled_f64(out, f64::from(r.output()) - v, exp, 4);
+                        }
+                    }
+                }
+            }
+            for (i, _) in kept {
                 out.push(b',');
-                push_fixed_opt(out, diff, 4);
+                push_raw_field(out, raw, *i);
             }
             Ok(match r.status() {
                 Status::Ok => RowClass::Ok,
@@ -487,20 +712,54 @@ mod tests {
         .unwrap();
         assert_eq!((s.rows, seen), (201, 201));
         let text = String::from_utf8(out).unwrap();
-        assert!(text.starts_with("# lc-host convert: unit DEMO-01-0007, value in 1e-6 m\nline,"));
+        assert!(
+            text.starts_with(
+                "# lc-host convert: unit DEMO-01-0007: proximity reader\n\
+                 line,time_s,channel,status,gap_m,shift_ppm,gap_m_f64,gap_m_diff\n"
+            ),
+            "{text}"
+        );
         assert!(text.contains(",fault_no_oscillation,") && text.contains(",fault_no_reference,"));
     }
 
+    /// raw·10^exp as an exact decimal, by integer division (independent of
+    /// `csvout`).
+    fn scaled(raw: i64, exp: i8) -> String {
+        if exp >= 0 {
+            return if raw == 0 {
+                "0".into()
+            } else {
+                format!("{raw}{}", "0".repeat(exp as usize))
+            };
+        }
+        let p = 10u64.pow(u32::from(exp.unsigned_abs()));
+        let a = raw.unsigned_abs();
+        format!(
+            "{}{}.{:0w$}",
+            if raw < 0 { "-" } else { "" },
+            a / p,
+            a % p,
+            w = usize::from(exp.unsigned_abs())
+        )
+    }
+
     /// The straightforward conversion: the row iterator, one row at a time
-    /// through `Converter::convert`, every field through `std::fmt`. The
-    /// parallel path must give exactly these bytes.
+    /// through `Converter::convert`, every field through `std::fmt`, the
+    /// columns written out per product. The parallel path must give
+    /// exactly these bytes.
     fn reference_output(cal: Calibration, log: &[u8], with_f64: bool) -> (Vec<u8>, Summary) {
         let reader = FieldLogReader::new(log, Path::new("log.csv")).unwrap();
         let mut conv = Converter::new(cal).unwrap();
         let mut out = Vec::new();
         let mut summary = Summary::default();
-        let opt = |v: Option<i32>| v.map_or(String::new(), |v| v.to_string());
-        let fixed = |v: Option<f64>| v.map_or(String::new(), |v| format!("{v:.4}"));
+        let exp = cal.output.decimal_exponent;
+        let f64_text = |v: f64| {
+            format!(
+                "{:.*}",
+                4 + usize::from(exp.unsigned_abs()),
+                v / 10f64.powi(-i32::from(exp))
+            )
+        };
         for row in reader {
             let row = match row {
                 Ok(row) => row,
@@ -515,30 +774,48 @@ mod tests {
             let fault = matches!(r.status(), Status::SensorFault(_));
             write!(
                 out,
-                "{},{},{},{},{},{},{}",
+                "{},{},{},{}",
                 row.line,
                 row.time_s.map_or(String::new(), |t| t.to_string()),
                 row.channel.map_or(String::new(), |c| c.to_string()),
                 status_name(r.status()),
-                if fault {
-                    String::new()
-                } else {
-                    r.output().to_string()
-                },
-                opt(r.secondary()),
-                if fault {
-                    String::new()
-                } else {
-                    format!(
-                        "{:.6}",
-                        lc_core::shift::Shift::from_raw_q40(r.curve_input_q40()).to_ppm_f64()
-                    )
-                },
             )
             .unwrap();
-            if with_f64 {
-                let diff = c.value_f64.map(|v| f64::from(r.output()) - v);
-                write!(out, ",{},{}", fixed(c.value_f64), fixed(diff)).unwrap();
+            let x = lc_core::shift::Shift::from_raw_q40(r.curve_input_q40());
+            let mut fields: Vec<String> = Vec::new();
+            let blank = |v: String| if fault { String::new() } else { v };
+            match r {
+                Reading::Proximity(p) => {
+                    fields.push(blank(scaled(i64::from(p.gap), exp)));
+                    fields.push(blank(format!("{:.6}", x.to_ppm_f64())));
+                }
+                Reading::Level(l) => {
+                    fields.push(blank(scaled(i64::from(l.level), exp)));
+                    if let Some((_, vs)) = cal.volume {
+                        fields.push(blank(l.volume.map_or(String::new(), |v| {
+                            scaled(i64::from(v), vs.decimal_exponent)
+                        })));
+                    }
+                    fields.push(blank(match cal.companion_rest {
+                        Some(_) => format!("{:.12}", x.raw_q40() as f64 / 1_099_511_627_776.0),
+                        None => format!("{:.6}", x.to_ppm_f64()),
+                    }));
+                }
+                Reading::Metal(m) => {
+                    fields.push(blank(class_name(m.class).to_string()));
+                    fields.push(blank(m.ring_drop.map_or(String::new(), |d| d.to_string())));
+                    fields.push(blank(format!("{:.6}", x.to_ppm_f64())));
+                }
+            }
+            if with_f64 && cal.kind != ReaderKind::Metal {
+                fields.push(c.value_f64.map_or(String::new(), f64_text));
+                fields.push(
+                    c.value_f64
+                        .map_or(String::new(), |v| f64_text(f64::from(r.output()) - v)),
+                );
+            }
+            for f in fields {
+                write!(out, ",{f}").unwrap();
             }
             out.push(b'\n');
             summary.rows += 1;
@@ -786,6 +1063,185 @@ mod tests {
             Converter::per_channel(None, &[(1, cal), (1, cal)]).unwrap_err(),
             SetupError::Twice(1)
         );
+    }
+
+    fn image_file(rel: &str) -> Calibration {
+        let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join(rel);
+        Calibration::parse(&std::fs::read(path).unwrap()).unwrap()
+    }
+
+    /// A level log of the tank probe TANK-01-0001 (the demo scenario's
+    /// simulator): levels 0 … 380 mm at 20 … 60 °C, probe and reference
+    /// electrode counted over 4 096 cycles at 48 MHz, with an extra column.
+    fn level_log() -> String {
+        let unit = crate::sim::level::level_units("TANK-01", 1, 1)
+            .pop()
+            .unwrap();
+        let g = crate::sim::level::LevelGeometry::DEMO;
+        let ticks = |f: f64| (4096.0 * 48e6 / f).round() as u32;
+        let mut log = String::from("time_s,cycles,ticks,comp_cycles,comp_ticks,temp_c,operator\n");
+        for i in 0..200u32 {
+            let h = 0.38 * f64::from(i) / 199.0;
+            let t = 20.0 + 40.0 * f64::from(i % 7) / 6.0;
+            let (fp, fr) = unit.frequencies(h, t, &g);
+            log += &format!("{i},4096,{},4096,{},{t},\"a, b\"\n", ticks(fp), ticks(fr));
+        }
+        log
+    }
+
+    fn converted(cal: Calibration, log: &str, with_f64: bool) -> (String, Vec<Converted>) {
+        let reader = FieldLogReader::new(log.as_bytes(), Path::new("l.csv")).unwrap();
+        let mut conv = Converter::new(cal).unwrap();
+        let mut out = Vec::new();
+        let mut rows = Vec::new();
+        convert_log_threads(
+            reader,
+            &mut out,
+            &mut conv,
+            OnBadRow::Stop,
+            with_f64,
+            Threads::new(2).unwrap(),
+            |_| {},
+            |c| rows.push(*c),
+        )
+        .unwrap();
+        (String::from_utf8(out).unwrap(), rows)
+    }
+
+    /// Issue 19, item 2: `--float` took a proximity twin for any image
+    /// with a curve (`value_f64` 300 on every level row). The level
+    /// image `lc-host calibrate` makes (examples/unit-firmware/data) gets
+    /// the level reader's twin: within a unit of the fixed value on every
+    /// row, and the level itself within 2 mm of the simulated one.
+    #[test]
+    fn float_reference_of_a_level_image_is_the_level_twin() {
+        let cal = image_file("examples/unit-firmware/data/level.lcim");
+        let (text, rows) = converted(cal, &level_log(), true);
+        assert!(
+            text.contains(
+                "\nline,time_s,channel,status,level_m,volume_l,ratio,level_m_f64,level_m_diff\n"
+            ),
+            "{text}"
+        );
+        let mut seen = std::collections::BTreeSet::new();
+        for (i, c) in rows.iter().enumerate() {
+            let Some(v) = c.value_f64 else {
+                // An empty tank: the reference electrode is dry.
+                assert!(matches!(c.reading.status(), Status::SensorFault(_)) && i < 10);
+                continue;
+            };
+            let fixed = f64::from(c.reading.output());
+            assert!((fixed - v).abs() <= 1.0, "line {}: {fixed} vs {v}", c.line);
+            let h_mm = 380.0 * i as f64 / 199.0;
+            if c.reading.status() == Status::Ok {
+                assert!((fixed / 10.0 - h_mm).abs() < 2.0, "{fixed} at {h_mm} mm");
+            }
+            seen.insert(v.round() as i64);
+        }
+        assert!(seen.len() > 150, "the reference follows the level");
+        // The columns hold what they say: metres, litres, the ratio.
+        let row: Vec<&str> = text.lines().nth(102).unwrap().split(',').collect();
+        let level: f64 = row[4].parse().unwrap();
+        assert!((level - 0.19).abs() < 0.002, "{row:?}");
+        assert!(row[4].len() == "0.1900".len(), "{row:?}");
+        let litres: f64 = row[5].parse().unwrap();
+        assert!((40.0..90.0).contains(&litres), "{row:?}");
+        let ratio: f64 = row[6].parse().unwrap();
+        assert!((1.0..20.0).contains(&ratio), "{row:?}");
+    }
+
+    /// Issue 19, item 6: the output reads with a plain CSV reader once
+    /// comment lines are skipped (no separator or quote in them), every row
+    /// as wide as the header; a metal image writes class names; unknown
+    /// input columns pass through with `keep_columns`.
+    #[test]
+    fn output_reads_with_any_csv_reader() {
+        let metal = image_file("examples/unit-firmware/data/metal.lcim");
+        let level = image_file("examples/unit-firmware/data/level.lcim");
+        let prox = image_file("examples/unit-firmware/data/proximity.lcim");
+        let check = |text: &str| {
+            for l in text.lines().filter(|l| l.starts_with('#')) {
+                assert!(!l.contains([',', ';', '\t', '"']), "{l}");
+            }
+            let body: String = text
+                .lines()
+                .filter(|l| !l.starts_with('#'))
+                .map(|l| format!("{l}\n"))
+                .collect();
+            let mut csv = csv::Reader::from_reader(body.as_bytes());
+            let width = csv.headers().unwrap().len();
+            let mut n = 0;
+            for rec in csv.records() {
+                assert_eq!(rec.unwrap().len(), width);
+                n += 1;
+            }
+            n
+        };
+        // Metal: a target passing over the demo coil, with ring counts.
+        let gate = metal.gate().unwrap();
+        let rest = metal.rest.to_f64();
+        let mut log = String::from("cycles,ticks,ring_count,temp_c\n");
+        for i in 0..300u32 {
+            let (s, ring) = if (100..140).contains(&i) {
+                (0.01, 10)
+            } else if (200..240).contains(&i) {
+                (-0.01, 10)
+            } else {
+                (0.0, 14)
+            };
+            let ticks = (f64::from(gate) * rest * (1.0f64 + s).sqrt()).round();
+            log += &format!("{gate},{ticks},{ring},25\n");
+        }
+        let (text, _) = converted(metal, &log, true);
+        assert_eq!(check(&text), 300);
+        assert!(
+            text.contains("\nline,time_s,channel,status,class,ring_drop,delta_ppm\n"),
+            "{text}"
+        );
+        for class in [",ok,ferrous,", ",ok,non_ferrous,", ",no_target,none,"] {
+            assert!(text.contains(class), "{class}: {text}");
+        }
+        // Level with its extra column kept, and a mixed two-channel log.
+        let log = level_log();
+        let reader = FieldLogReader::new(log.as_bytes(), Path::new("l.csv")).unwrap();
+        let mut conv = Converter::new(level).unwrap();
+        let mut out = Vec::new();
+        convert_log_keeping(
+            reader,
+            &mut out,
+            &mut conv,
+            OnBadRow::Stop,
+            false,
+            true,
+            Threads::new(3).unwrap(),
+            |_| {},
+            |_| {},
+        )
+        .unwrap();
+        let text = String::from_utf8(out).unwrap();
+        assert_eq!(check(&text), 200);
+        assert!(text.contains("\nline,time_s,channel,status,level_m,volume_l,ratio,operator\n"));
+        assert!(
+            text.lines().nth(3).unwrap().ends_with(",\"a, b\""),
+            "{text}"
+        );
+        let mixed = "channel,cycles,ticks\n0,16384,139542\n1,16384,139542\n";
+        let reader = FieldLogReader::new(mixed.as_bytes(), Path::new("m.csv")).unwrap();
+        let mut conv = Converter::per_channel(Some(prox), &[(1, metal)]).unwrap();
+        let mut out = Vec::new();
+        convert_log(
+            reader,
+            &mut out,
+            &mut conv,
+            OnBadRow::Stop,
+            true,
+            |_| {},
+            |_| {},
+        )
+        .unwrap();
+        let text = String::from_utf8(out).unwrap();
+        assert_eq!(check(&text), 2, "{text}");
+        assert!(text.contains("line,time_s,channel,status,gap_m,shift_ppm,gap_m_f64,gap_m_diff,class,ring_drop,delta_ppm\n"), "{text}");
     }
 
     #[test]

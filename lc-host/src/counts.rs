@@ -38,19 +38,14 @@ pub enum RowStatus {
 }
 
 impl RowStatus {
-    /// A short, stable name for logs and CSV.
+    /// A short, stable name for logs and CSV: the words `convert` writes
+    /// for the same conditions ([`crate::status`]).
     pub fn name(&self) -> &'static str {
         match self {
             RowStatus::Ok => "ok",
-            RowStatus::Fault(FaultError::NoOscillation) => "no_oscillation",
-            RowStatus::Fault(FaultError::NoReference) => "no_reference",
-            RowStatus::Fault(FaultError::TooFewCycles) => "too_few_cycles",
-            RowStatus::Fault(FaultError::FrequencyTooLow) => "frequency_too_low",
-            RowStatus::Fault(FaultError::FrequencyTooHigh) => "frequency_too_high",
-            RowStatus::Shift(ShiftError::ZeroCount) => "zero_count",
-            RowStatus::Shift(ShiftError::OutOfRange) => "shift_out_of_range",
-            RowStatus::Shift(ShiftError::BadRestPoint) => "bad_rest_point",
-            RowStatus::Frozen => crate::convert::FAULT_FROZEN,
+            RowStatus::Fault(e) => crate::status::fault_word(*e),
+            RowStatus::Shift(e) => crate::status::shift_word(*e),
+            RowStatus::Frozen => crate::status::FAULT_FROZEN,
         }
     }
 }
@@ -177,7 +172,7 @@ pub fn convert_log<R: Read, W: Write>(
         Some(pair) if cfg.passes(pair) => runs[row.channel.map_or(256, usize::from)].observe(pair),
         _ => false,
     };
-    let format = |row: &FieldRow, frozen: &mut bool, out: &mut Vec<u8>| {
+    let format = |row: &FieldRow, frozen: &mut bool, _: &[u8], out: &mut Vec<u8>| {
         let Some(pair) = row.pair() else {
             return Err(RunError::NeedsCounts { line: row.line });
         };
@@ -212,8 +207,7 @@ pub fn convert_log<R: Read, W: Write>(
         }
         Ok(match c.status {
             RowStatus::Ok => RowClass::Ok,
-            RowStatus::Fault(_) | RowStatus::Frozen => RowClass::Fault,
-            RowStatus::Shift(_) => RowClass::OutOfRange,
+            RowStatus::Fault(_) | RowStatus::Shift(_) | RowStatus::Frozen => RowClass::Fault,
         })
     };
     stream_log(
@@ -222,6 +216,7 @@ pub fn convert_log<R: Read, W: Write>(
         &header,
         on_bad_row,
         Threads::default(),
+        false,
         in_order,
         format,
         progress,
@@ -251,7 +246,7 @@ mod tests {
         let row = c.convert(CountPair::new(4096, 19_275));
         assert_eq!((row.status, row.shift_q40), (RowStatus::Ok, Some(0)));
         let row = c.convert(CountPair::new(0, 19_275));
-        assert_eq!(row.status.name(), "no_oscillation");
+        assert_eq!(row.status.name(), "fault_no_oscillation");
         assert_eq!(row.shift_q40, None);
         let row = c.convert(CountPair::new(4096, 19_180));
         let s = row.shift_ppm.unwrap();

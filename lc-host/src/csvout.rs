@@ -184,6 +184,39 @@ pub fn push_fixed(out: &mut Vec<u8>, v: f64, decimals: usize) {
     }
 }
 
+/// Appends raw·10^exp exactly, with −exp decimals when exp < 0 (an output
+/// value on its image's scale: raw 1234 at 10^-4 is `0.1234`).
+pub fn push_scaled(out: &mut Vec<u8>, raw: i64, exp: i8) {
+    if exp >= 0 {
+        push_int(out, raw);
+        if raw != 0 {
+            out.extend(std::iter::repeat_n(b'0', exp.unsigned_abs().into()));
+        }
+        return;
+    }
+    if raw < 0 {
+        out.push(b'-');
+    }
+    push_decimal(out, raw.unsigned_abs(), exp.unsigned_abs().into());
+}
+
+/// Appends v·10^exp (v in raw output units, an `f64` reference) with
+/// `decimals` more decimals than [`push_scaled`] writes for the same scale.
+pub fn push_scaled_f64(out: &mut Vec<u8>, v: f64, exp: i8, decimals: usize) {
+    let e = i32::from(exp);
+    // 10^|e| ≤ 10^18 is exact in f64: the scaling rounds once.
+    let scaled = if e < 0 {
+        v / 10f64.powi(-e)
+    } else {
+        v * 10f64.powi(e)
+    };
+    push_fixed(
+        out,
+        scaled,
+        (decimals + usize::from(exp.unsigned_abs())).min(19),
+    );
+}
+
 /// Appends an optional `f64` as [`push_fixed`] ("" for `None`).
 #[inline]
 pub fn push_fixed_opt(out: &mut Vec<u8>, v: Option<f64>, decimals: usize) {
@@ -242,6 +275,21 @@ mod tests {
         let mut out = Vec::new();
         push_fixed(&mut out, v, d);
         String::from_utf8(out).unwrap()
+    }
+
+    #[test]
+    fn scaled_examples() {
+        let f = |raw: i64, exp: i8| {
+            let mut out = Vec::new();
+            push_scaled(&mut out, raw, exp);
+            String::from_utf8(out).unwrap()
+        };
+        assert_eq!(f(1234, -4), "0.1234");
+        assert_eq!(f(-5, -6), "-0.000005");
+        assert_eq!(f(8000, -6), "0.008000");
+        assert_eq!(f(0, -3), "0.000");
+        assert_eq!(f(12, 2), "1200");
+        assert_eq!(f(2, 0), "2");
     }
 
     #[test]
@@ -307,6 +355,26 @@ mod tests {
         fn fixed_matches_std_near_ppm(q40 in -(1i64 << 45)..(1i64 << 45), d in 0usize..13) {
             let v = q40 as f64 / 1_099_511_627_776.0 * 1e6;
             prop_assert_eq!(fixed(v, d), format!("{v:.d$}"));
+        }
+
+        #[test]
+        fn scaled_is_the_exact_decimal(raw in any::<i32>(), exp in -18i8..=6) {
+            let mut out = Vec::new();
+            push_scaled(&mut out, i64::from(raw), exp);
+            let text = String::from_utf8(out).unwrap();
+            // The decimal reads back to raw·10^exp: as an exact rational,
+            // compare digit strings with the point removed.
+            let digits: String = text.chars().filter(|c| *c != '.' && *c != '-').collect();
+            let want = if exp >= 0 {
+                if raw == 0 { "0".to_string() } else { format!("{}{}", raw.unsigned_abs(), "0".repeat(exp as usize)) }
+            } else {
+                format!("{:0>width$}", raw.unsigned_abs(), width = (-exp) as usize + 1)
+            };
+            prop_assert_eq!(digits, want);
+            prop_assert_eq!(text.starts_with('-'), raw < 0);
+            if exp < 0 {
+                prop_assert_eq!(text.len() - text.find('.').unwrap() - 1, (-exp) as usize);
+            }
         }
 
         #[test]

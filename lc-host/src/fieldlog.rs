@@ -210,6 +210,8 @@ pub struct FieldLogReader<R: Read> {
     file: PathBuf,
     columns: Columns,
     warnings: Vec<String>,
+    /// Header columns that are not field-log columns: (index, name).
+    unknown: Vec<(usize, String)>,
     /// Bytes read and not yet handed out: `buf[pos..]`.
     buf: Vec<u8>,
     pos: usize,
@@ -240,6 +242,7 @@ impl<R: Read> FieldLogReader<R> {
                 width: 0,
             },
             warnings: Vec::new(),
+            unknown: Vec::new(),
             buf: Vec::with_capacity(READ_BYTES),
             pos: 0,
             line: 1,
@@ -269,6 +272,12 @@ impl<R: Read> FieldLogReader<R> {
         }
         let header = Header::check(&names, file, header_line)?;
         reader.warnings = header.warnings;
+        reader.unknown = names
+            .iter()
+            .enumerate()
+            .filter(|(_, n)| !COLUMNS.iter().any(|c| c.eq_ignore_ascii_case(n)))
+            .map(|(i, n)| (i, n.clone()))
+            .collect();
         let column = |name: &str| names.iter().position(|h| h.eq_ignore_ascii_case(name));
         let require = |name: &'static str| {
             column(name).ok_or_else(
@@ -312,6 +321,12 @@ impl<R: Read> FieldLogReader<R> {
     /// that are ignored, with the column they may have been meant as.
     pub fn warnings(&self) -> &[String] {
         &self.warnings
+    }
+
+    /// The header's columns that are not field-log columns, with their
+    /// index in a row (`convert --keep-columns` passes them through).
+    pub fn unknown_columns(&self) -> &[(usize, String)] {
+        &self.unknown
     }
 
     /// The resolved header.

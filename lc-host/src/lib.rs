@@ -51,6 +51,7 @@ pub mod quantity;
 pub mod report;
 pub mod riglog;
 pub mod sim;
+pub mod status;
 pub mod store;
 pub mod stream;
 pub mod svg;

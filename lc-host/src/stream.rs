@@ -143,6 +143,8 @@ struct Block<T> {
     classes: Vec<RowClass>,
     output: Vec<u8>,
     error: Option<RunError>,
+    /// Where each line of `input` starts (with `raw` lines only).
+    starts: Vec<usize>,
 }
 
 impl<T> Block<T> {
@@ -157,6 +159,7 @@ impl<T> Block<T> {
             classes: Vec::new(),
             output: Vec::new(),
             error: None,
+            starts: Vec::new(),
         }
     }
 }
@@ -177,6 +180,8 @@ struct Turn<F> {
 /// the blocks in input order, and calls `observe` for every row in order and
 /// `progress` with the input line every 65 536 rows. Bad rows stop the run
 /// (rows before them are written) or are skipped, as `on_bad_row` says.
+/// With `raw`, `format` also gets each row's line as logged (without its
+/// line end), to pass input fields through; otherwise an empty slice.
 ///
 /// At most `threads + 2` blocks are alive at any time, together about
 /// 4 MiB of input with their parsed rows and output: under 48 MiB.
@@ -187,6 +192,7 @@ pub fn stream_log<R, W, T, S, F>(
     header: &str,
     on_bad_row: OnBadRow,
     threads: Threads,
+    raw: bool,
     in_order: S,
     format: F,
     mut progress: impl FnMut(u64),
@@ -197,7 +203,7 @@ where
     W: Write,
     T: Send,
     S: FnMut(&FieldRow) -> T + Send,
-    F: Fn(&FieldRow, &mut T, &mut Vec<u8>) -> Result<RowClass, RunError> + Sync,
+    F: Fn(&FieldRow, &mut T, &[u8], &mut Vec<u8>) -> Result<RowClass, RunError> + Sync,
 {
     use std::collections::BTreeMap;
     use std::sync::mpsc;
@@ -265,12 +271,24 @@ where
                 turn_changed.notify_all();
             }
             // Formatting, in parallel.
+            block.starts.clear();
+            if raw {
+                block.starts.push(0);
+                block
+                    .starts
+                    .extend(memchr::memchr_iter(b'\n', &block.input).map(|k| k + 1));
+            }
             let mut states = block.states.iter_mut();
             for row in block.rows[..block.done].iter() {
                 let Ok(row) = row else { continue };
                 let Some(state) = states.next() else { break };
                 let start = block.output.len();
-                match format(row, state, &mut block.output) {
+                let text = if raw {
+                    raw_line(&block.input, &block.starts, row.line - block.first_line)
+                } else {
+                    &[]
+                };
+                match format(row, state, text, &mut block.output) {
                     Ok(class) => {
                         block.output.push(b'\n');
                         block.classes.push(class);
@@ -352,6 +370,19 @@ where
     })?;
     out.flush()?;
     Ok(summary)
+}
+
+/// Line `k` (from 0) of a block whose line starts are `starts`, without
+/// its line end.
+fn raw_line<'a>(input: &'a [u8], starts: &[usize], k: u64) -> &'a [u8] {
+    let Ok(k) = usize::try_from(k) else {
+        return &[];
+    };
+    let (Some(&a), b) = (starts.get(k), starts.get(k + 1)) else {
+        return &[];
+    };
+    let line = &input[a..b.map_or(input.len(), |&b| b - 1)];
+    line.strip_suffix(b"\r").unwrap_or(line)
 }
 
 /// Writes a finished block and counts it; returns the error that stops the

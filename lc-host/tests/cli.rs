@@ -53,7 +53,7 @@ fn converts_the_demo_log() {
     );
     let text = std::fs::read_to_string(&out).expect("output");
     assert_eq!(text.lines().count(), 202);
-    assert!(text.contains(",no_oscillation,") && text.contains(",no_reference,"));
+    assert!(text.contains(",fault_no_oscillation,") && text.contains(",fault_no_reference,"));
     // No temporary file is left beside the output.
     let leftovers: Vec<_> = std::fs::read_dir(&dir)
         .unwrap()

@@ -23,6 +23,24 @@ fn the_demo_runs_the_whole_job() {
         "{text}"
     );
     assert!(text.contains("Not a safety-rated component"));
+    // Issue 19, item 1: every image the demo makes is verified and passes:
+    // 22 proximity images (one of them in detail), the 8 tank probes (their
+    // level images failed before) and a metal unit.
+    assert!(
+        text.contains("32 of 32 images verified within every stage's bound"),
+        "{text}"
+    );
+    for (kind, n) in [
+        ("proximity", 22),
+        ("level with reference electrode", 8),
+        ("metal", 1),
+    ] {
+        let lines = text
+            .lines()
+            .filter(|l| l.contains(&format!(" {kind} ")) && l.ends_with(": pass"))
+            .count();
+        assert_eq!(lines, n, "{kind}: {text}");
+    }
     // It ends by pointing at the lot report.
     let last = text.lines().last().unwrap_or("");
     assert!(last.contains("report/index.html"), "{last}");
@@ -38,6 +56,8 @@ fn the_demo_runs_the_whole_job() {
         "report/units/DEMO-01-0012.html",
         "report/units/DEMO-01-0012-residual.svg",
         "report-tank/index.html",
+        "images/TANK-01-0008.lcim",
+        "images/METAL-01-0001.lcim",
     ] {
         assert!(dir.join(f).exists(), "{f} missing");
     }

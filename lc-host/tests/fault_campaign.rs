@@ -15,10 +15,11 @@
 //! neither.
 
 use lc_core::image::Calibration;
-use lc_host::convert::{convert_log, status_name, Converter, FAULT_FROZEN};
+use lc_host::convert::{convert_log, status_name, Converter};
 use lc_host::counts::{self, CountsConfig, OnBadRow};
 use lc_host::fieldlog::FieldLogReader;
 use lc_host::sim::campaign::{write_campaign_log, CampaignSpec, LABELS};
+use lc_host::status::FAULT_FROZEN;
 use std::collections::BTreeMap;
 use std::path::Path;
 

@@ -3,7 +3,7 @@
 use super::counts::{report, BadRow};
 use super::{load_image, open_input, spinner, with_output};
 use anyhow::{anyhow, Result};
-use lc_host::convert::{convert_log_threads, Converter, SetupError};
+use lc_host::convert::{convert_log_keeping, Converter, SetupError};
 use lc_host::fieldlog::FieldLogReader;
 use lc_host::stream::{Threads, MAX_THREADS};
 use lc_host::svg::{Quantity, TracePlot};
@@ -14,10 +14,14 @@ use std::path::PathBuf;
 /// Every row goes through exactly the code the firmware runs (lc-core's reader: fault
 /// window, shift, drift model, curve), so the CSV holds the readings the unit itself would
 /// have produced, bit for bit, with their status (ok, below_range, above_range, no_target,
-/// or the sensor fault). The input is a field log with count pairs (`cycles`, `ticks`) or
-/// frequencies (`frequency_hz`), optional `time_s`, `channel`, `temp_c`, `ring_count` and
-/// companion counts (docs/formats.md). Memory stays bounded (a few MiB per thread) whatever
-/// the log's size.
+/// or the sensor fault: fault_...). The input is a field log with count pairs (`cycles`,
+/// `ticks`) or frequencies (`frequency_hz`), optional `time_s`, `channel`, `temp_c`,
+/// `ring_count` and companion counts (`comp_cycles`, `comp_ticks`). The output's columns
+/// are named for what they hold, in physical units: `gap_m` and `shift_ppm` (proximity);
+/// `level_m`, `volume_l` and `ratio` or `shift_ppm` (level); `class` (none, ferrous,
+/// non_ferrous), `ring_drop` and `delta_ppm` (metal). Comment lines (`#`) name each unit
+/// and hold no commas. Every column: docs/formats.md. Memory stays bounded (a few MiB per
+/// thread) whatever the log's size.
 ///
 /// Example:
 ///
@@ -42,9 +46,14 @@ pub struct Args {
     /// whole or not at all
     #[arg(short, long)]
     output: Option<PathBuf>,
-    /// Add the f64 reference value and the difference fixed - f64
+    /// Add the f64 reference value and the difference fixed - f64 (proximity
+    /// and level; a metal class has no f64 twin)
     #[arg(long)]
     float: bool,
+    /// Pass the input's other columns (not field-log columns) through, as
+    /// logged, after the output's own
+    #[arg(long)]
+    keep_columns: bool,
     /// What to do with a row that does not parse
     #[arg(long, value_enum, default_value_t = BadRow::Stop)]
     on_bad_row: BadRow,
@@ -123,12 +132,13 @@ pub fn run(a: Args) -> Result<()> {
     // constant whatever the log's length.
     let mut trace = a.plot.as_ref().map(|_| Trace::default());
     let summary = with_output(a.output.as_deref(), |w| {
-        Ok(convert_log_threads(
+        Ok(convert_log_keeping(
             reader,
             w,
             &mut conv,
             a.on_bad_row.into(),
             a.float,
+            a.keep_columns,
             a.threads.unwrap_or_default(),
             |l| bar.set_position(l),
             |c| {

@@ -42,8 +42,8 @@ pub struct Args {
     #[arg(long, value_name = "CYCLES", value_parser = count_u32::<1, { u32::MAX }>)]
     gate_cycles: Option<u32>,
     /// Plausible sensor band MIN_HZ:MAX_HZ (SI prefixes: 1M:20M); pairs
-    /// outside are reported as faults (frequency_too_low /
-    /// frequency_too_high), not converted
+    /// outside are reported as faults (fault_frequency_too_low /
+    /// fault_frequency_too_high), not converted
     #[arg(long, value_name = "MIN_HZ:MAX_HZ", value_parser = hz_band)]
     band: Option<(u32, u32)>,
     /// Fewest sensor cycles a gate may hold (too_few_cycles below)
@@ -99,7 +99,13 @@ pub fn run(a: Args) -> Result<()> {
         .map_err(|e| anyhow!("--reference-hz / --band: {e}"))?;
     let cfg = CountsConfig::new(a.reference_hz, a.rest, a.gate_cycles, Some(window))
         .context("--rest / --reference-hz")?;
+    if let Some(out) = &a.output {
+        lc_host::atomic::refuse_same_file(&a.input, out)?;
+    }
     let reader = FieldLogReader::new(open_input(&a.input, "field log")?, &a.input)?;
+    for w in reader.warnings() {
+        eprintln!("warning: {w}");
+    }
     let bar = spinner("{spinner} {pos} lines ({per_sec}) {elapsed}");
     let summary = with_output(a.output.as_deref(), |w| {
         Ok(convert_log(

@@ -9,8 +9,11 @@ use std::path::PathBuf;
 /// at 0.5 – 8 mm) is stepped on a simulated rig at 25 °C and 60 °C and calibrated; one
 /// unit's image is inspected; that unit is logged for two hours on a warming press with
 /// faults injected, and the log is converted exactly as its firmware would; the image is
-/// verified over its whole domain and the readout is budgeted. Everything lands in the
-/// output folder: rig and field logs, images, the unit database, readings, SVG plots.
+/// verified over its whole domain and the readout is budgeted. Then eight level probes of a
+/// coolant tank and the same coil as a metal detector are calibrated. Every image made is
+/// verified (fixed point against f64, each reader's own path); the demo fails if any
+/// exceeds a bound. Everything lands in the output folder: rig and field logs, images, the
+/// unit database, readings, SVG plots.
 ///
 /// Example:
 ///

@@ -2,7 +2,7 @@
 
 use super::load_image;
 use anyhow::Context;
-use anyhow::Result;
+use anyhow::{bail, Result};
 use lc_core::image::{Calibration, ReaderKind, Table, CRC32};
 use std::path::PathBuf;
 
@@ -12,7 +12,10 @@ use std::path::PathBuf;
 /// field and every curve segment's stored constants; docs/image-format.md) and prints what
 /// it holds: format, reader, serial, calibration time and plan, counter set-up, rest point,
 /// drift model, output scale, curve nodes, volume table, metal parameters. A broken image
-/// is reported with the check that failed; the exit code is then 1.
+/// is reported with the check that failed; the exit code is then 1. Bytes after the
+/// image's stated length are reported: erased flash (0xFF, a flash page read back whole) is
+/// ignored; anything else (two images concatenated) is an error, since the file is then
+/// not one image.
 ///
 /// Format-1 images (written before the per-segment constants) are read too; the firmware
 /// refuses them. `--rewrite OUT` writes the same calibration in format 2, with the
@@ -193,13 +196,24 @@ pub fn run(a: Args) -> Result<()> {
         bytes.get(7).copied().unwrap_or(0),
     ]));
     let crc = CRC32.checksum(bytes.get(..len.saturating_sub(4)).unwrap_or(&[]));
-    if a.json {
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&to_json(&cal, format, crc, len))?
+    let trailing = Trailing::of(&bytes, len);
+    if let Trailing::Data(n) = trailing {
+        bail!(
+            "{}: {n} bytes follow the image's stated length of {len} bytes and are not erased              flash (0xFF): the file is not one image (two images concatenated, or other data);              cut it to its first {len} bytes, or export the image again with `lc-host units export`",
+            a.image.display()
         );
+    }
+    if a.json {
+        let mut json = to_json(&cal, format, crc, len);
+        json["trailing_erased_bytes"] = serde_json::json!(trailing.erased());
+        println!("{}", serde_json::to_string_pretty(&json)?);
     } else {
         print!("{}", to_text(&cal, format, crc, len));
+        if let Trailing::Erased(n) = trailing {
+            println!(
+                "  after it     {n} bytes of erased flash (0xFF) to the end of the file, ignored"
+            );
+        }
     }
     if let Some(out) = &a.rewrite {
         let mut new = cal;
@@ -219,6 +233,36 @@ pub fn run(a: Args) -> Result<()> {
         );
     }
     Ok(())
+}
+
+/// What follows an image's stated length in its file.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Trailing {
+    /// Nothing: the file is the image.
+    None,
+    /// Erased flash (0xFF bytes), as in a flash page read back whole.
+    Erased(usize),
+    /// Other bytes: not one image.
+    Data(usize),
+}
+
+impl Trailing {
+    /// What follows the first `len` bytes of `bytes`.
+    pub fn of(bytes: &[u8], len: usize) -> Self {
+        match bytes.get(len..) {
+            None | Some([]) => Trailing::None,
+            Some(rest) if rest.iter().all(|&b| b == 0xFF) => Trailing::Erased(rest.len()),
+            Some(rest) => Trailing::Data(rest.len()),
+        }
+    }
+
+    /// The erased bytes after the image (0 when none).
+    pub fn erased(self) -> usize {
+        match self {
+            Trailing::Erased(n) => n,
+            _ => 0,
+        }
+    }
 }
 
 /// Writes `cal` as a current-format image to `out` (whole or not at all).

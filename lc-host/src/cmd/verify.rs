@@ -8,13 +8,17 @@ use std::path::PathBuf;
 
 /// Sweep an image's whole input domain: fixed point against f64, stage by stage
 ///
-/// Feeds a dense grid (shift x temperature) plus random points, at least ten million
-/// readings by default, on all cores, through the firmware's fixed-point path and its f64
-/// twin: the shift, the drift model, the curve and the whole reading. Prints maximum and
-/// RMS error in output units, relative to the counter's quantisation step and to the
-/// bound lc-core documents, and where the worst case occurs. A level image with a reference
-/// electrode is read end to end with the reference held at a shift of 1. Exits with 1 when
-/// any stage exceeds its bound or compares no readings.
+/// Feeds a dense grid plus random points, at least ten million readings by default, on all
+/// cores, through the fixed-point path of the reader the image builds and its f64 twin,
+/// stage by stage and end to end, over that reader's own input domain: proximity and
+/// level without a reference electrode from the shift (shift, drift model, curve);
+/// level with a reference electrode from the probe / reference ratio and the reference
+/// electrode's shift (both shifts, the drift model's offset, curve); metal from the shift
+/// minus a baseline learned at rest (shift, drift model, delta, and the detected class
+/// against the one the f64 delta gives). Temperatures -40 to 125 °C. Prints maximum and
+/// RMS error, relative to the counter's quantisation step and to the bound lc-core
+/// documents, and where the worst case occurs. Exits with 1 when any stage exceeds its
+/// bound or compares no readings.
 ///
 /// Example:
 ///
