@@ -188,8 +188,9 @@ pub fn to_text(cal: &Calibration, format: u16, crc: u32, len: usize) -> String {
 }
 
 pub fn run(a: Args) -> Result<()> {
-    let cal = load_image(&a.image)?;
-    let bytes = std::fs::read(&a.image)?;
+    let loaded = load_image(&a.image);
+    let bytes = std::fs::read(&a.image)
+        .with_context(|| format!("{}: cannot read the image", a.image.display()))?;
     let format = Calibration::format_version(&bytes).unwrap_or(0);
     let len = usize::from(u16::from_le_bytes([
         bytes.get(6).copied().unwrap_or(0),
@@ -197,12 +198,18 @@ pub fn run(a: Args) -> Result<()> {
     ]));
     let crc = CRC32.checksum(bytes.get(..len.saturating_sub(4)).unwrap_or(&[]));
     let trailing = Trailing::of(&bytes, len);
-    if let Trailing::Data(n) = trailing {
+    // Bytes after a whole image: lc-core refuses them (unless erased); say
+    // what they are when the image before them is sound.
+    let whole_image_first = bytes
+        .get(..len)
+        .is_some_and(|b| Calibration::parse(b).is_ok());
+    if let (Trailing::Data(n), true) = (trailing, whole_image_first) {
         bail!(
-            "{}: {n} bytes follow the image's stated length of {len} bytes and are not erased              flash (0xFF): the file is not one image (two images concatenated, or other data);              cut it to its first {len} bytes, or export the image again with `lc-host units export`",
+            "{}: {n} bytes follow the image's stated length of {len} bytes and are not erased flash (0xFF): the file is not one image (two images concatenated, or other data); cut it to its first {len} bytes, or export the image again with `lc-host units export`",
             a.image.display()
         );
     }
+    let cal = loaded?;
     if a.json {
         let mut json = to_json(&cal, format, crc, len);
         json["trailing_erased_bytes"] = serde_json::json!(trailing.erased());
