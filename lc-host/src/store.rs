@@ -893,7 +893,10 @@ impl Store {
         }
         for (name, v) in [("residuals", &a.residuals), ("rig_points", &a.rig_points)] {
             if !starts(v, b'[') {
-                return Err(self.invalid(&a.serial, format!("{name} must be the text of a JSON array")));
+                return Err(self.invalid(
+                    &a.serial,
+                    format!("{name} must be the text of a JSON array"),
+                ));
             }
         }
         let reasons = serde_json::to_string(&a.reasons)
@@ -1007,7 +1010,9 @@ impl Store {
         let mut out = Vec::with_capacity(checked.len());
         let mut lots_added: Vec<&str> = Vec::new();
         {
-            let mut insert_lot = tx.prepare_cached(INSERT_LOT).map_err(err("adding the lot"))?;
+            let mut insert_lot = tx
+                .prepare_cached(INSERT_LOT)
+                .map_err(err("adding the lot"))?;
             let mut next_attempt = tx
                 .prepare_cached(NEXT_ATTEMPT)
                 .map_err(err("numbering the attempt"))?;
@@ -1075,6 +1080,50 @@ impl Store {
         }
         tx.commit().map_err(err("committing the attempts"))?;
         Ok(out)
+    }
+
+    /// Takes write-ahead-log checkpoints off the commits of this
+    /// connection (SQLite; nothing on PostgreSQL): a caller that commits
+    /// often and has idle moments calls [`Store::checkpoint`] in
+    /// them instead. [`Store::resume_checkpoints`] undoes it.
+    ///
+    /// # Errors
+    /// SQLite failures.
+    pub fn defer_checkpoints(&self) -> Result<(), StoreError> {
+        self.autocheckpoint(0)
+    }
+
+    /// Commits checkpoint the write-ahead log again (SQLite's default of
+    /// 1000 pages).
+    ///
+    /// # Errors
+    /// SQLite failures.
+    pub fn resume_checkpoints(&self) -> Result<(), StoreError> {
+        self.autocheckpoint(1000)
+    }
+
+    fn autocheckpoint(&self, pages: i64) -> Result<(), StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .pragma_update(None, "wal_autocheckpoint", pages)
+                .map_err(self.sqlite_err("setting wal_autocheckpoint")),
+            Conn::Postgres(_) => Ok(()),
+        }
+    }
+
+    /// A passive checkpoint of the write-ahead log (SQLite; nothing on
+    /// PostgreSQL): copies committed pages into the database file as far as
+    /// no reader needs them, without waiting for anyone.
+    ///
+    /// # Errors
+    /// SQLite failures.
+    pub fn checkpoint(&self) -> Result<(), StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .query_row("PRAGMA wal_checkpoint(PASSIVE)", [], |_| Ok(()))
+                .map_err(self.sqlite_err("checkpointing the write-ahead log")),
+            Conn::Postgres(_) => Ok(()),
+        }
     }
 
     /// The serials of the attempts recorded after row `id` (by any

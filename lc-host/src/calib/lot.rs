@@ -458,7 +458,8 @@ mod texts {
 
     fn text(buf: Vec<u8>) -> String {
         // serde_json writes UTF-8 only.
-        String::from_utf8(buf).unwrap_or_else(|e| String::from_utf8_lossy(e.as_bytes()).into_owned())
+        String::from_utf8(buf)
+            .unwrap_or_else(|e| String::from_utf8_lossy(e.as_bytes()).into_owned())
     }
 
     fn write(buf: &mut Vec<u8>, v: &impl Serialize) {
@@ -554,9 +555,12 @@ mod texts {
         }
         for e in &unit.errors {
             sep(&mut buf);
-            write(&mut buf, &Bad {
-                error: &e.to_string(),
-            });
+            write(
+                &mut buf,
+                &Bad {
+                    error: &e.to_string(),
+                },
+            );
         }
         buf.push(b']');
         text(buf)
@@ -881,63 +885,20 @@ pub fn run_lot<R: Read>(
         (Some(t), false) => store.recorded_from(&t.rig_sha256_hex(), &t.plan_sha256_hex())?,
         _ => HashMap::new(),
     };
-    let workers = std::thread::available_parallelism().map_or(1, usize::from);
-    let mut intake = Intake {
-        reader: &mut reader,
+    // The write-ahead log's checkpoints run while a group is fitted, not
+    // in its commit.
+    store.defer_checkpoints()?;
+    let out = groups(
+        &mut reader,
         run,
-        already: &already,
-        seen_selected: HashSet::new(),
-        folded: HashMap::new(),
-        not_selected: 0,
-        group_units: run.group_units.max(1),
-    };
-    // The group committed last, its image files not yet brought to its
-    // records (nor its outcomes reported).
-    let mut committed: Option<Committed> = None;
-    let mut next = Group::default();
-    intake.fill(&mut next, &|| false);
-    loop {
-        let mut group = std::mem::take(&mut next);
-        if group.units.is_empty() && group.after.is_none() {
-            break;
-        }
-        let ended = group.end;
-        // While the group is fitted: the previous group's image files,
-        // then the next group's units (until every unit of this group has
-        // been taken by a fitter).
-        let (judged, filed) = judge_group(&group, workers, run.lot, plan, run.trace, |taken| {
-            let filed = committed
-                .take()
-                .map_or(Ok(()), |c| file_group(c, run, store, &mut report, &mut on_unit));
-            if filed.is_ok() && !ended {
-                intake.fill(&mut next, taken);
-            }
-            filed
-        });
-        filed?;
-        let done = !judged.is_empty();
-        if done {
-            committed = Some(record_group(judged, store)?);
-        }
-        if let Some((serial, attempt)) = group.after.take() {
-            // Outcomes in rig-log order: the group's first.
-            if let Some(c) = committed.take() {
-                file_group(c, run, store, &mut report, &mut on_unit)?;
-            }
-            let out = already_recorded(store, run.images, &serial, attempt)?;
-            on_unit(&out);
-            summarise(&mut report, out);
-        }
-        if !ended {
-            intake.fill(&mut next, &|| false);
-        }
-    }
-    if let Some(c) = committed.take() {
-        file_group(c, run, store, &mut report, &mut on_unit)?;
-    }
-    report.not_selected = intake.not_selected;
-    let seen_selected = std::mem::take(&mut intake.seen_selected);
-    drop(intake);
+        plan,
+        store,
+        &already,
+        &mut report,
+        &mut on_unit,
+    );
+    store.resume_checkpoints()?;
+    let seen_selected = out?;
     if let Some(e) = reader.take_file_error() {
         return Err(e.into());
     }
@@ -961,6 +922,88 @@ pub fn run_lot<R: Read>(
         0.0
     };
     Ok(report)
+}
+
+/// Units committed between two checkpoints of the write-ahead log (a unit
+/// takes one or two pages; SQLite's own default is every 1000 pages).
+const CHECKPOINT_UNITS: usize = 600;
+
+/// The groups of [`run_lot`]: returns the selected serials seen.
+fn groups<R: Read>(
+    reader: &mut RigLogReader<R>,
+    run: &LotRun<'_>,
+    plan: &Plan,
+    store: &mut Store,
+    already: &HashMap<String, u32>,
+    report: &mut LotReport,
+    on_unit: &mut impl FnMut(&UnitOutcome),
+) -> Result<HashSet<String>, LotError> {
+    let workers = std::thread::available_parallelism().map_or(1, usize::from);
+    let mut since_checkpoint = 0;
+    let mut intake = Intake {
+        reader,
+        run,
+        already,
+        seen_selected: HashSet::new(),
+        folded: HashMap::new(),
+        not_selected: 0,
+        group_units: run.group_units.max(1),
+    };
+    // The group committed last, its image files not yet brought to its
+    // records (nor its outcomes reported).
+    let mut committed: Option<Committed> = None;
+    let mut next = Group::default();
+    intake.fill(&mut next, &|| false);
+    loop {
+        let mut group = std::mem::take(&mut next);
+        if group.units.is_empty() && group.after.is_none() {
+            break;
+        }
+        let ended = group.end;
+        // While the group is fitted: the previous group's image files,
+        // then the next group's units (until every unit of this group has
+        // been taken by a fitter).
+        let (judged, filed) = judge_group(&group, workers, run.lot, plan, run.trace, |taken| {
+            let filed = committed
+                .take()
+                .map_or(Ok(()), |c| file_group(c, run, store, report, on_unit));
+            // Checkpoints while the cores fit.
+            let filed = filed.and_then(|()| {
+                if since_checkpoint >= CHECKPOINT_UNITS {
+                    since_checkpoint = 0;
+                    store.checkpoint()?;
+                }
+                Ok(())
+            });
+            if filed.is_ok() && !ended {
+                intake.fill(&mut next, taken);
+            }
+            filed
+        });
+        filed?;
+        let done = !judged.is_empty();
+        if done {
+            since_checkpoint += judged.len();
+            committed = Some(record_group(judged, store)?);
+        }
+        if let Some((serial, attempt)) = group.after.take() {
+            // Outcomes in rig-log order: the group's first.
+            if let Some(c) = committed.take() {
+                file_group(c, run, store, report, on_unit)?;
+            }
+            let out = already_recorded(store, run.images, &serial, attempt)?;
+            on_unit(&out);
+            summarise(report, out);
+        }
+        if !ended {
+            intake.fill(&mut next, &|| false);
+        }
+    }
+    if let Some(c) = committed.take() {
+        file_group(c, run, store, report, on_unit)?;
+    }
+    report.not_selected = intake.not_selected;
+    Ok(intake.seen_selected)
 }
 
 /// A committed group: its attempts (with their images) and where each
@@ -1190,10 +1233,7 @@ mod tests {
         write_rig_log(&spec, &mut log).unwrap();
         let mut level = Vec::new();
         crate::sim::level::write_level_rig_log("LX", 12, 3, &mut level).unwrap();
-        let cases = [
-            (log, crate::demo::PLAN),
-            (level, crate::demo::LEVEL_PLAN),
-        ];
+        let cases = [(log, crate::demo::PLAN), (level, crate::demo::LEVEL_PLAN)];
         let mut fits = 0;
         for (bytes, plan_text) in cases {
             let plan = Plan::parse(plan_text, Path::new("plan.toml")).unwrap();
