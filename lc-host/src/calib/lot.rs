@@ -567,10 +567,12 @@ mod texts {
     }
 }
 
-/// One unit judged, not yet recorded.
+/// One unit judged, not yet recorded (its fit boxed: a fit with its
+/// calibration runs to kilobytes, and judged units move through a few
+/// vectors).
 struct Judged {
     serial: String,
-    fit: Option<UnitFit>,
+    fit: Option<Box<UnitFit>>,
     reasons: Vec<String>,
     findings: Vec<Finding>,
     attempt: AttemptText,
@@ -649,7 +651,7 @@ fn judge_unit(
     );
     Judged {
         serial: unit.serial.clone(),
-        fit,
+        fit: fit.map(Box::new),
         reasons,
         findings,
         attempt,
@@ -1091,7 +1093,7 @@ fn file_group(
             serial: j.serial,
             reasons: j.reasons,
             findings: j.findings,
-            fit: j.fit,
+            fit: j.fit.map(|f| *f),
             recorded,
             image_path: None,
             image_error: None,
