@@ -8,6 +8,8 @@
 #
 # LC_HOST_BIN=path measures that build instead of this tree's release
 # build (to compare two builds side by side on the same rig log).
+# LC_STATION_ONE_UNIT=0 skips the run with one unit per transaction (for
+# interleaving short runs of two builds).
 #
 # Each run writes a fresh images folder; the folders are removed at the
 # end, not between runs: on ext4 without a journal, creating a file within
@@ -54,17 +56,19 @@ one() { # label, db, extra args...
         exit 1
     fi
     read -r wall user sys < <(tail -n 1 "$work/time.txt")
-    printf '%-36s %7.2f s wall %8.0f units/s   cpu %6.2f s (%.0f units per cpu-second)   load %s\n' \
+    printf '%-36s %7.2f s wall %8.0f units/s   cpu %6.2f s (%.3f ms a unit)   load %s\n' \
         "$label" "$wall" "$(echo "$units / $wall" | bc -l)" "$(echo "$user + $sys" | bc -l)" \
-        "$(echo "$units / ($user + $sys)" | bc -l)" "$(cut -d' ' -f1 /proc/loadavg)"
+        "$(echo "1000 * ($user + $sys) / $units" | bc -l)" "$(cut -d' ' -f1 /proc/loadavg)"
 }
 
 for r in $(seq 1 "$runs"); do
     rm -f "$work"/units.db*
     one "sqlite, groups of 256 (run $r)" "$work/units.db"
 done
-rm -f "$work"/units.db*
-one "sqlite, one unit per transaction" "$work/units.db" --group-units 1
+if [ "${LC_STATION_ONE_UNIT:-1}" != 0 ]; then
+    rm -f "$work"/units.db*
+    one "sqlite, one unit per transaction" "$work/units.db" --group-units 1
+fi
 
 if [ -n "${LC_TEST_POSTGRES_URL:-}" ]; then
     for r in $(seq 1 "$runs"); do

@@ -146,6 +146,67 @@ pub struct NewAttempt {
     pub trace: Option<Trace>,
 }
 
+/// One calibration attempt to record whose JSON columns are JSON text
+/// already: [`Store::record_texts`]. The rules of [`NewAttempt`] hold;
+/// `params` is the text of a JSON object, `residuals` and `rig_points`
+/// the texts of JSON arrays, stored as given.
+#[derive(Clone, Debug, PartialEq)]
+pub struct AttemptText {
+    /// The unit's serial number.
+    pub serial: String,
+    /// The lot the unit is calibrated in.
+    pub lot: String,
+    /// Pass or fail.
+    pub result: AttemptResult,
+    /// Why the unit failed (or remarks on a pass), one sentence each.
+    pub reasons: Vec<String>,
+    /// Fitted parameters: the text of a JSON object.
+    pub params: String,
+    /// Fit residuals: the text of a JSON array.
+    pub residuals: String,
+    /// The raw rig rows of this unit: the text of a JSON array.
+    pub rig_points: String,
+    /// The calibration image bytes; `None` for a failed unit.
+    pub image: Option<Vec<u8>>,
+    /// CRC-32/ISO-HDLC of the whole `image`; `None` exactly when `image` is.
+    pub image_crc: Option<u32>,
+    /// Where the attempt came from.
+    pub trace: Option<Trace>,
+}
+
+/// The columns of an attempt other than its JSON, borrowed.
+#[derive(Clone, Copy)]
+struct Head<'a> {
+    serial: &'a str,
+    lot: &'a str,
+    result: AttemptResult,
+    reasons: &'a [String],
+    image: Option<&'a [u8]>,
+    image_crc: Option<u32>,
+    trace: Option<&'a Trace>,
+}
+
+impl<'a> Head<'a> {
+    fn of(a: &'a NewAttempt) -> Self {
+        Head {
+            serial: &a.serial,
+            lot: &a.lot,
+            result: a.result,
+            reasons: &a.reasons,
+            image: a.image.as_deref(),
+            image_crc: a.image_crc,
+            trace: a.trace.as_ref(),
+        }
+    }
+}
+
+/// An attempt that passed the checks, with the texts of its JSON columns
+/// (reasons, params, residuals, rig points).
+pub(crate) struct Checked<'a> {
+    head: Head<'a>,
+    json: [std::borrow::Cow<'a, str>; 4],
+}
+
 /// The traceability of one attempt: what it was judged against, from which
 /// measurements, where and by whom. The plan's full text is kept once per
 /// distinct plan ([`Store::register_plan`]); attempts name it by hash.
@@ -698,62 +759,57 @@ impl Store {
         }
     }
 
-    fn invalid(&self, a: &NewAttempt, problem: impl Into<String>) -> StoreError {
+    fn invalid(&self, serial: &str, problem: impl Into<String>) -> StoreError {
         StoreError::InvalidAttempt {
             path: self.path.clone(),
-            serial: a.serial.clone(),
+            serial: serial.to_owned(),
             problem: problem.into(),
         }
     }
 
-    /// Checks the rules of [`NewAttempt`]; returns the JSON texts of
-    /// reasons, params, residuals and rig points.
-    fn check(&self, a: &NewAttempt) -> Result<[String; 4], StoreError> {
-        check_name("serial", &a.serial).map_err(|p| self.invalid(a, p))?;
-        check_name("lot", &a.lot).map_err(|p| self.invalid(a, p))?;
-        match (a.result, &a.image, a.image_crc) {
+    /// Checks the rules of [`NewAttempt`] on the columns other than the
+    /// JSON ones.
+    fn check_head(&self, a: Head<'_>) -> Result<(), StoreError> {
+        let invalid = |p: String| self.invalid(a.serial, p);
+        check_name("serial", a.serial).map_err(invalid)?;
+        check_name("lot", a.lot).map_err(invalid)?;
+        match (a.result, a.image, a.image_crc) {
             (AttemptResult::Fail, None, None) if a.reasons.is_empty() => {
-                return Err(self.invalid(
-                    a,
-                    "a failed attempt needs at least one reason: say which limit it broke",
+                return Err(invalid(
+                    "a failed attempt needs at least one reason: say which limit it broke".into(),
                 ));
             }
             (AttemptResult::Fail, None, None) => {}
             (AttemptResult::Fail, _, _) => {
-                return Err(self.invalid(
-                    a,
-                    "a failed attempt has no calibration image: pass image and image_crc as None",
+                return Err(invalid(
+                    "a failed attempt has no calibration image: pass image and image_crc as None"
+                        .into(),
                 ));
             }
             (AttemptResult::Pass, Some(image), Some(crc)) => {
                 let actual = lc_core::image::CRC32.checksum(image);
                 if actual != crc {
-                    return Err(self.invalid(
-                        a,
-                        format!(
-                            "image_crc is 0x{crc:08X} but the CRC-32/ISO-HDLC of the {}-byte image is 0x{actual:08X}: pass lc_core::image::CRC32.checksum(&image), the CRC over every byte of the image (not the image's own CRC field)",
-                            image.len()
-                        ),
-                    ));
+                    return Err(invalid(format!(
+                        "image_crc is 0x{crc:08X} but the CRC-32/ISO-HDLC of the {}-byte image is 0x{actual:08X}: pass lc_core::image::CRC32.checksum(&image), the CRC over every byte of the image (not the image's own CRC field)",
+                        image.len()
+                    )));
                 }
             }
             (AttemptResult::Pass, _, _) => {
-                return Err(self.invalid(
-                    a,
-                    "a passing attempt needs its calibration image and the image's CRC-32",
+                return Err(invalid(
+                    "a passing attempt needs its calibration image and the image's CRC-32".into(),
                 ));
             }
         }
-        if let Some(t) = &a.trace {
+        if let Some(t) = a.trace {
             for (name, v) in [
                 ("plan_sha256", &t.plan_sha256),
                 ("rig_sha256", &t.rig_sha256),
             ] {
                 if !is_sha256_hex(v) {
-                    return Err(self.invalid(
-                        a,
-                        format!("trace.{name} {v:?} is not 64 lower-case hex digits: pass sha256_hex of the file's bytes"),
-                    ));
+                    return Err(invalid(format!(
+                        "trace.{name} {v:?} is not 64 lower-case hex digits: pass sha256_hex of the file's bytes"
+                    )));
                 }
             }
             for (name, v) in [
@@ -762,19 +818,29 @@ impl Store {
                 ("operator", &t.operator),
             ] {
                 if v.chars().any(char::is_control) {
-                    return Err(self.invalid(
-                        a,
-                        format!("trace.{name} {v:?} contains a control character: remove it"),
-                    ));
+                    return Err(invalid(format!(
+                        "trace.{name} {v:?} contains a control character: remove it"
+                    )));
                 }
             }
         }
+        Ok(())
+    }
+
+    /// Checks the rules of [`NewAttempt`]; returns the attempt with the
+    /// JSON texts of reasons, params, residuals and rig points.
+    fn check<'a>(&self, a: &'a NewAttempt) -> Result<Checked<'a>, StoreError> {
+        let head = Head::of(a);
+        self.check_head(head)?;
         if !a.params.is_object() {
-            return Err(self.invalid(a, "params must be a JSON object (name → fitted value)"));
+            return Err(self.invalid(
+                &a.serial,
+                "params must be a JSON object (name → fitted value)",
+            ));
         }
         for (name, v) in [("residuals", &a.residuals), ("rig_points", &a.rig_points)] {
             if !v.is_array() {
-                return Err(self.invalid(a, format!("{name} must be a JSON array")));
+                return Err(self.invalid(&a.serial, format!("{name} must be a JSON array")));
             }
         }
         // Each text written once into a buffer about its final size (a
@@ -782,21 +848,68 @@ impl Store {
         let json = |v: &dyn erased::Json, capacity: usize| {
             let mut buf = Vec::with_capacity(capacity);
             v.write(&mut buf)
-                .map_err(|e| self.invalid(a, format!("cannot write JSON: {e}")))?;
-            String::from_utf8(buf).map_err(|e| self.invalid(a, format!("cannot write JSON: {e}")))
+                .map_err(|e| self.invalid(&a.serial, format!("cannot write JSON: {e}")))?;
+            String::from_utf8(buf)
+                .map(std::borrow::Cow::Owned)
+                .map_err(|e| self.invalid(&a.serial, format!("cannot write JSON: {e}")))
         };
-        Ok([
-            json(&a.reasons, 256)?,
-            json(&a.params, 1024)?,
-            json(
-                &a.residuals,
-                64 * (a.residuals.as_array().map_or(0, Vec::len) + 1),
-            )?,
-            json(
-                &a.rig_points,
-                192 * (a.rig_points.as_array().map_or(0, Vec::len) + 1),
-            )?,
-        ])
+        Ok(Checked {
+            head,
+            json: [
+                json(&a.reasons, 256)?,
+                json(&a.params, 1024)?,
+                json(
+                    &a.residuals,
+                    64 * (a.residuals.as_array().map_or(0, Vec::len) + 1),
+                )?,
+                json(
+                    &a.rig_points,
+                    192 * (a.rig_points.as_array().map_or(0, Vec::len) + 1),
+                )?,
+            ],
+        })
+    }
+
+    /// Checks the rules of [`AttemptText`]: those of [`NewAttempt`], with
+    /// the JSON texts checked by their first character only (the
+    /// database's own constraints check the rest).
+    fn check_text<'a>(&self, a: &'a AttemptText) -> Result<Checked<'a>, StoreError> {
+        let head = Head {
+            serial: &a.serial,
+            lot: &a.lot,
+            result: a.result,
+            reasons: &a.reasons,
+            image: a.image.as_deref(),
+            image_crc: a.image_crc,
+            trace: a.trace.as_ref(),
+        };
+        self.check_head(head)?;
+        let starts = |t: &str, c: u8| t.trim_start().as_bytes().first() == Some(&c);
+        if !starts(&a.params, b'{') {
+            return Err(self.invalid(
+                &a.serial,
+                "params must be the text of a JSON object (name → fitted value)",
+            ));
+        }
+        for (name, v) in [("residuals", &a.residuals), ("rig_points", &a.rig_points)] {
+            if !starts(v, b'[') {
+                return Err(self.invalid(
+                    &a.serial,
+                    format!("{name} must be the text of a JSON array"),
+                ));
+            }
+        }
+        let reasons = serde_json::to_string(&a.reasons)
+            .map_err(|e| self.invalid(&a.serial, format!("cannot write JSON: {e}")))?;
+        Ok(Checked {
+            head,
+            json: [
+                reasons.into(),
+                a.params.as_str().into(),
+                a.residuals.as_str().into(),
+                a.rig_points.as_str().into(),
+            ],
+        })
     }
 
     /// Records one calibration attempt in one transaction: creates the lot
@@ -812,7 +925,7 @@ impl Store {
     pub fn record(&mut self, a: &NewAttempt) -> Result<AttemptRecord, StoreError> {
         let mut out = self.record_batch(std::slice::from_ref(a))?;
         let r = out.pop().unwrap_or_else(|| {
-            Err(self.invalid(a, "no result for the attempt (a bug: report it)"))
+            Err(self.invalid(&a.serial, "no result for the attempt (a bug: report it)"))
         })?;
         Ok(AttemptRecord {
             id: r.id,
@@ -852,13 +965,38 @@ impl Store {
         &mut self,
         batch: &[NewAttempt],
     ) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
-        let checked: Vec<Result<[String; 4], StoreError>> =
+        let checked: Vec<Result<Checked<'_>, StoreError>> =
             batch.iter().map(|a| self.check(a)).collect();
+        self.insert_checked(checked)
+    }
+
+    /// [`Store::record_batch`] for attempts whose JSON columns are text
+    /// already (a station writes them straight from its fits, without
+    /// building JSON values). The texts must be JSON: a text that is not
+    /// fails the database's constraints, and with it the whole group.
+    ///
+    /// # Errors
+    /// As [`Store::record_batch`].
+    pub fn record_texts(
+        &mut self,
+        batch: &[AttemptText],
+    ) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
+        let checked: Vec<Result<Checked<'_>, StoreError>> =
+            batch.iter().map(|a| self.check_text(a)).collect();
+        self.insert_checked(checked)
+    }
+
+    /// One transaction for a group of checked attempts (see
+    /// [`Store::record_batch`]).
+    fn insert_checked(
+        &mut self,
+        checked: Vec<Result<Checked<'_>, StoreError>>,
+    ) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
         let path = &self.path;
         let conn = match &mut self.conn {
             Conn::Sqlite(c) => c,
             Conn::Postgres(c) => {
-                return pg::record_batch(c.get_mut(), path, batch, checked, || {
+                return pg::record_batch(c.get_mut(), path, checked, || {
                     timestamp::rfc3339_utc(SystemTime::now())
                 })
             }
@@ -869,49 +1007,60 @@ impl Store {
             .map_err(err("locking the database"))?;
         // Under the write lock, so time stamps follow the attempt order.
         let calibrated_at = timestamp::rfc3339_utc(SystemTime::now());
-        let mut out = Vec::with_capacity(batch.len());
+        let mut out = Vec::with_capacity(checked.len());
         let mut lots_added: Vec<&str> = Vec::new();
-        for (a, json) in batch.iter().zip(checked) {
-            let [reasons, params, residuals, rig_points] = match json {
-                Ok(j) => j,
-                Err(e) => {
-                    out.push(Err(e));
-                    continue;
-                }
-            };
-            if !lots_added.contains(&a.lot.as_str()) {
-                tx.prepare_cached(INSERT_LOT)
-                    .and_then(|mut s| s.execute(params![a.lot, calibrated_at]))
-                    .map_err(err("adding the lot"))?;
-                lots_added.push(&a.lot);
-            }
-            let next: i64 = tx
+        {
+            let mut insert_lot = tx
+                .prepare_cached(INSERT_LOT)
+                .map_err(err("adding the lot"))?;
+            let mut next_attempt = tx
                 .prepare_cached(NEXT_ATTEMPT)
-                .and_then(|mut s| s.query_row([&a.serial], |r| r.get(0)))
                 .map_err(err("numbering the attempt"))?;
-            let Ok(attempt) = u32::try_from(next) else {
-                out.push(Err(StoreError::InvalidAttempt {
-                    path: path.clone(),
-                    serial: a.serial.clone(),
-                    problem: format!(
-                        "attempt number {next} is out of range: this serial has too many attempts"
-                    ),
-                }));
-                continue;
-            };
-            let t = a.trace.as_ref();
-            tx.prepare_cached(INSERT_ATTEMPT)
-                .and_then(|mut s| {
-                    s.execute(params![
+            let mut insert = tx
+                .prepare_cached(INSERT_ATTEMPT)
+                .map_err(err("inserting the attempt"))?;
+            for c in checked {
+                let Checked {
+                    head: a,
+                    json: [reasons, params, residuals, rig_points],
+                } = match c {
+                    Ok(c) => c,
+                    Err(e) => {
+                        out.push(Err(e));
+                        continue;
+                    }
+                };
+                if !lots_added.contains(&a.lot) {
+                    insert_lot
+                        .execute(params![a.lot, calibrated_at])
+                        .map_err(err("adding the lot"))?;
+                    lots_added.push(a.lot);
+                }
+                let next: i64 = next_attempt
+                    .query_row([a.serial], |r| r.get(0))
+                    .map_err(err("numbering the attempt"))?;
+                let Ok(attempt) = u32::try_from(next) else {
+                    out.push(Err(StoreError::InvalidAttempt {
+                        path: path.clone(),
+                        serial: a.serial.to_owned(),
+                        problem: format!(
+                            "attempt number {next} is out of range: this serial has too many attempts"
+                        ),
+                    }));
+                    continue;
+                };
+                let t = a.trace;
+                insert
+                    .execute(params![
                         a.serial,
                         a.lot,
                         attempt,
                         calibrated_at,
                         a.result.as_str(),
-                        reasons,
-                        params,
-                        residuals,
-                        rig_points,
+                        &*reasons,
+                        &*params,
+                        &*residuals,
+                        &*rig_points,
                         a.image,
                         a.image_crc,
                         TOOL_VERSION,
@@ -921,16 +1070,87 @@ impl Store {
                         t.map(|t| &t.station),
                         t.map(|t| &t.operator),
                     ])
-                })
-                .map_err(err("inserting the attempt"))?;
-            out.push(Ok(Recorded {
-                id: tx.last_insert_rowid(),
-                attempt,
-                calibrated_at: calibrated_at.clone(),
-            }));
+                    .map_err(err("inserting the attempt"))?;
+                out.push(Ok(Recorded {
+                    id: tx.last_insert_rowid(),
+                    attempt,
+                    calibrated_at: calibrated_at.clone(),
+                }));
+            }
         }
         tx.commit().map_err(err("committing the attempts"))?;
         Ok(out)
+    }
+
+    /// Takes write-ahead-log checkpoints off the commits of this
+    /// connection (SQLite; nothing on PostgreSQL): a caller that commits
+    /// often and has idle moments calls [`Store::checkpoint`] in
+    /// them instead. [`Store::resume_checkpoints`] undoes it.
+    ///
+    /// # Errors
+    /// SQLite failures.
+    pub fn defer_checkpoints(&self) -> Result<(), StoreError> {
+        self.autocheckpoint(0)
+    }
+
+    /// Commits checkpoint the write-ahead log again (SQLite's default of
+    /// 1000 pages).
+    ///
+    /// # Errors
+    /// SQLite failures.
+    pub fn resume_checkpoints(&self) -> Result<(), StoreError> {
+        self.autocheckpoint(1000)
+    }
+
+    fn autocheckpoint(&self, pages: i64) -> Result<(), StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .pragma_update(None, "wal_autocheckpoint", pages)
+                .map_err(self.sqlite_err("setting wal_autocheckpoint")),
+            Conn::Postgres(_) => Ok(()),
+        }
+    }
+
+    /// A passive checkpoint of the write-ahead log (SQLite; nothing on
+    /// PostgreSQL): copies committed pages into the database file as far as
+    /// no reader needs them, without waiting for anyone.
+    ///
+    /// # Errors
+    /// SQLite failures.
+    pub fn checkpoint(&self) -> Result<(), StoreError> {
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .query_row("PRAGMA wal_checkpoint(PASSIVE)", [], |_| Ok(()))
+                .map_err(self.sqlite_err("checkpointing the write-ahead log")),
+            Conn::Postgres(_) => Ok(()),
+        }
+    }
+
+    /// The serials of the attempts recorded after row `id` (by any
+    /// writer), each once: a station that recorded a group up to `id`
+    /// asks, under [`Store::exclusive`], which of its units another
+    /// station has recorded since (usually none).
+    ///
+    /// # Errors
+    /// Database failures.
+    pub fn serials_recorded_after(&self, id: i64) -> Result<Vec<String>, StoreError> {
+        let sql = "SELECT DISTINCT serial FROM attempts WHERE id > ?1";
+        match &self.conn {
+            Conn::Sqlite(c) => c
+                .prepare_cached(sql)
+                .and_then(|mut s| {
+                    s.query_map([id], |r| r.get(0))?
+                        .collect::<rusqlite::Result<Vec<String>>>()
+                })
+                .map_err(self.sqlite_err("reading the latest attempts")),
+            Conn::Postgres(c) => Ok(c
+                .borrow_mut()
+                .query(&pg::dollars(sql), &[&id])
+                .map_err(pg::err(&self.path, "reading the latest attempts"))?
+                .iter()
+                .map(|r| r.get(0))
+                .collect()),
+        }
     }
 
     /// Runs `f` while holding the database's write lock, so that no other

@@ -2,18 +2,20 @@
 //! groups (one transaction per group), the images folder brought to the
 //! latest verdicts, and the lot's statistics.
 //!
-//! Order of effects per group of units: the group's attempts are committed
-//! in one transaction first (the records hold the image bytes), then each
-//! passing unit's image file is written atomically and each failing unit's
-//! image file is removed. The next group is fitted on a fitter thread
-//! meanwhile (a pipeline one group deep). A run killed at any moment loses
-//! at most the attempts not yet committed (the group being committed or
-//! read and the one being fitted), never part of one, and leaves
-//! no image file that disagrees with a committed record except those of the
-//! last committed group; a re-run of the same rig log against the same plan
-//! skips the units already recorded, brings their image files to their
-//! latest records, and calibrates the rest ([`LotRun::reattempt`] judges
-//! them again instead).
+//! Order of effects per group of units: the group is fitted and judged
+//! (on every core), its attempts are committed in one transaction (the
+//! records hold the image bytes), then each passing unit's image file is
+//! written atomically and each failing unit's image file is removed, under
+//! the database's write lock. The image files of one group are written,
+//! and the next group's units read from the rig log, while the next group
+//! is fitted; no unit is judged before the group ahead of it is committed.
+//! So a run killed at any moment loses at most the units of the one group
+//! not yet committed (at most [`LotRun::group_units`]), never part of one,
+//! and leaves no image file that disagrees with a committed record except
+//! those of the last committed group; a re-run of the same rig log against
+//! the same plan skips the units already recorded, brings their image
+//! files to their latest records, and calibrates the rest
+//! ([`LotRun::reattempt`] judges them again instead).
 //!
 //! The images folder holds exactly one file per unit whose latest attempt
 //! passed, named by [`image_file_name`], an injective encoding of the
@@ -23,7 +25,7 @@ use super::accept::{judge, Finding};
 use super::plan::Plan;
 use super::unit::{fit_unit, UnitFit};
 use crate::riglog::{RigLogReader, UnitLog};
-use crate::store::{hex, AttemptResult, NewAttempt, Store, StoreError, Trace};
+use crate::store::{hex, AttemptResult, AttemptText, Store, StoreError, Trace};
 use lc_core::image::{CRC32, MAX_IMAGE_LEN};
 use std::collections::{HashMap, HashSet};
 use std::io::Read;
@@ -31,7 +33,8 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant, SystemTime};
 
 /// Units per transaction (at most): a kill loses at most this many units'
-/// work, and a commit costs about as much as a few units' fits.
+/// work (the group not yet committed), and a commit costs about as much as
+/// a few units' fits.
 pub const DEFAULT_GROUP_UNITS: usize = 256;
 
 /// Longest a judged unit waits for its group's commit (a slow rig log
@@ -344,7 +347,9 @@ pub fn remove_stale_temporaries(dir: &Path) -> std::io::Result<usize> {
     crate::atomic::remove_stale_temporaries(dir, None)
 }
 
-/// The record of one unit: parameters, residuals and raw rig points.
+/// The record of one unit: parameters, residuals and raw rig points,
+/// their JSON texts written straight from the fit and the rig rows
+/// ([`texts`]).
 fn record_of(
     unit: &UnitLog,
     lot: &str,
@@ -353,27 +358,13 @@ fn record_of(
     reasons: &[String],
     image: Option<Vec<u8>>,
     trace: Option<Trace>,
-) -> NewAttempt {
-    // One serialisation of the fit: its residuals move out of the params
-    // object into their own column.
-    let (params, residuals) = match fit.map(serde_json::to_value) {
-        Some(Ok(mut v)) => {
-            let residuals = v
-                .as_object_mut()
-                .and_then(|o| o.remove("residuals"))
-                .unwrap_or_else(|| serde_json::json!([]));
-            (v, residuals)
-        }
-        _ => (serde_json::json!({}), serde_json::json!([])),
+) -> AttemptText {
+    let (params, residuals) = match fit {
+        Some(f) => (texts::params(f), texts::residuals(&f.residuals)),
+        None => ("{}".to_string(), "[]".to_string()),
     };
-    let mut rig: Vec<serde_json::Value> = unit.rows.iter().map(|r| r.to_json()).collect();
-    rig.extend(
-        unit.errors
-            .iter()
-            .map(|e| serde_json::json!({"error": e.to_string()})),
-    );
     let image_crc = image.as_deref().map(|b| CRC32.checksum(b));
-    NewAttempt {
+    AttemptText {
         serial: unit.serial.clone(),
         lot: lot.to_string(),
         result: if passed {
@@ -384,36 +375,207 @@ fn record_of(
         reasons: reasons.to_vec(),
         params,
         residuals,
-        rig_points: serde_json::Value::Array(rig),
+        rig_points: texts::rig_points(unit),
         image,
         image_crc,
         trace,
     }
 }
 
-/// An empty attempt, left where a judged unit's attempt was moved out.
-fn placeholder() -> NewAttempt {
-    NewAttempt {
-        serial: String::new(),
-        lot: String::new(),
-        result: AttemptResult::Fail,
-        reasons: Vec::new(),
-        params: serde_json::Value::Null,
-        residuals: serde_json::Value::Null,
-        rig_points: serde_json::Value::Null,
-        image: None,
-        image_crc: None,
-        trace: None,
+/// The JSON texts of a unit's record, written straight from the fit and
+/// the rig rows without building `serde_json::Value`s: the same bytes as
+/// a `Value` gives (objects with their keys in byte order, numbers as
+/// `serde_json` writes them, `null` for a number that is not finite), so
+/// that records do not depend on the path. The test
+/// `texts_equal_the_value_path` holds them to that.
+mod texts {
+    use super::{UnitFit, UnitLog};
+    use crate::calib::unit::Residual;
+    use serde::Serialize;
+
+    /// [`crate::calib::unit::DriftFit`], keys in byte order.
+    #[derive(Serialize)]
+    struct Drift<'a> {
+        b1_per_k: f64,
+        b2_per_k2: f64,
+        points: usize,
+        reference_c: f64,
+        sigma_b1_per_k: Option<f64>,
+        sigma_b2_per_k2: Option<f64>,
+        temperatures: &'a [f64],
+    }
+
+    /// [`UnitFit`] without its residuals, keys in byte order.
+    #[derive(Serialize)]
+    struct Params<'a> {
+        companion_rest_ratio: Option<f64>,
+        curve_error: Option<f64>,
+        drift: Drift<'a>,
+        monotone_violations: usize,
+        nodes: &'a [(f64, i32)],
+        output_step_m: f64,
+        q: Option<(f64, f64, f64)>,
+        rest_frequency_hz: f64,
+        rest_ratio: f64,
+        sensitivity_per_mm: Option<f64>,
+        serial: &'a str,
+        steps: usize,
+    }
+
+    /// [`Residual`], keys in byte order.
+    #[derive(Serialize)]
+    struct Res {
+        line: u64,
+        residual_f64: f64,
+        residual_fixed: f64,
+        shift_ppm: f64,
+        target: f64,
+        temp_c: f64,
+        value_f64: f64,
+        value_fixed: i32,
+    }
+
+    /// One rig row ([`crate::riglog::RigRow::to_json`]), keys in byte
+    /// order.
+    #[derive(Serialize)]
+    struct Row {
+        comp_cycles: Option<u32>,
+        comp_ticks: Option<u32>,
+        cycles: u32,
+        line: u64,
+        ring_count: Option<u16>,
+        step: u32,
+        target_m: Option<f64>,
+        temp_c: f64,
+        ticks: u32,
+    }
+
+    /// A bad rig row.
+    #[derive(Serialize)]
+    struct Bad<'a> {
+        error: &'a str,
+    }
+
+    fn text(buf: Vec<u8>) -> String {
+        // serde_json writes UTF-8 only.
+        String::from_utf8(buf)
+            .unwrap_or_else(|e| String::from_utf8_lossy(e.as_bytes()).into_owned())
+    }
+
+    fn write(buf: &mut Vec<u8>, v: &impl Serialize) {
+        // Writing into a Vec fails only for a map key that is not a
+        // string, which these types have none of.
+        let _ = serde_json::to_writer(&mut *buf, v);
+    }
+
+    /// The fit's parameters: a JSON object.
+    pub(super) fn params(f: &UnitFit) -> String {
+        let d = &f.drift;
+        let mut buf = Vec::with_capacity(1024);
+        write(
+            &mut buf,
+            &Params {
+                companion_rest_ratio: f.companion_rest_ratio,
+                curve_error: f.curve_error,
+                drift: Drift {
+                    b1_per_k: d.b1_per_k,
+                    b2_per_k2: d.b2_per_k2,
+                    points: d.points,
+                    reference_c: d.reference_c,
+                    sigma_b1_per_k: d.sigma_b1_per_k,
+                    sigma_b2_per_k2: d.sigma_b2_per_k2,
+                    temperatures: &d.temperatures,
+                },
+                monotone_violations: f.monotone_violations,
+                nodes: &f.nodes,
+                output_step_m: f.output_step_m,
+                q: f.q,
+                rest_frequency_hz: f.rest_frequency_hz,
+                rest_ratio: f.rest_ratio,
+                sensitivity_per_mm: f.sensitivity_per_mm,
+                serial: &f.serial,
+                steps: f.steps,
+            },
+        );
+        text(buf)
+    }
+
+    /// The fit's residuals: a JSON array.
+    pub(super) fn residuals(rs: &[Residual]) -> String {
+        let mut buf = Vec::with_capacity(192 * rs.len() + 2);
+        buf.push(b'[');
+        for (i, r) in rs.iter().enumerate() {
+            if i > 0 {
+                buf.push(b',');
+            }
+            write(
+                &mut buf,
+                &Res {
+                    line: r.line,
+                    residual_f64: r.residual_f64,
+                    residual_fixed: r.residual_fixed,
+                    shift_ppm: r.shift_ppm,
+                    target: r.target,
+                    temp_c: r.temp_c,
+                    value_f64: r.value_f64,
+                    value_fixed: r.value_fixed,
+                },
+            );
+        }
+        buf.push(b']');
+        text(buf)
+    }
+
+    /// The unit's rig rows, then its bad rows' errors: a JSON array.
+    pub(super) fn rig_points(unit: &UnitLog) -> String {
+        let mut buf = Vec::with_capacity(160 * (unit.rows.len() + unit.errors.len()) + 2);
+        buf.push(b'[');
+        let mut first = true;
+        let mut sep = |buf: &mut Vec<u8>| {
+            if !std::mem::take(&mut first) {
+                buf.push(b',');
+            }
+        };
+        for r in &unit.rows {
+            sep(&mut buf);
+            write(
+                &mut buf,
+                &Row {
+                    comp_cycles: r.companion.map(|c| c.cycles),
+                    comp_ticks: r.companion.map(|c| c.ticks),
+                    cycles: r.pair.cycles,
+                    line: r.line,
+                    ring_count: r.ring_count,
+                    step: r.step,
+                    target_m: r.target_m,
+                    temp_c: r.temp_c,
+                    ticks: r.pair.ticks,
+                },
+            );
+        }
+        for e in &unit.errors {
+            sep(&mut buf);
+            write(
+                &mut buf,
+                &Bad {
+                    error: &e.to_string(),
+                },
+            );
+        }
+        buf.push(b']');
+        text(buf)
     }
 }
 
-/// One unit judged, not yet recorded.
+/// One unit judged, not yet recorded (its fit boxed: a fit with its
+/// calibration runs to kilobytes, and judged units move through a few
+/// vectors).
 struct Judged {
     serial: String,
-    fit: Option<UnitFit>,
+    fit: Option<Box<UnitFit>>,
     reasons: Vec<String>,
     findings: Vec<Finding>,
-    attempt: NewAttempt,
+    attempt: AttemptText,
 }
 
 /// Fits and judges one unit, and builds its image when it passes.
@@ -422,6 +584,7 @@ fn judge_unit(
     lot: &str,
     plan: &Plan,
     trace: Option<&Traceability>,
+    trace_row: &Option<Trace>,
     name_clash: Option<&str>,
 ) -> Judged {
     let (fit, mut reasons) = match fit_unit(unit, plan) {
@@ -484,11 +647,11 @@ fn judge_unit(
         passed,
         &reasons,
         image,
-        trace.map(Traceability::trace),
+        trace_row.clone(),
     );
     Judged {
         serial: unit.serial.clone(),
-        fit,
+        fit: fit.map(Box::new),
         reasons,
         findings,
         attempt,
@@ -559,46 +722,130 @@ pub fn calibrate_lot<R: Read>(
     run_lot(reader, &LotRun::new(lot, images), plan, store, on_unit)
 }
 
-/// Fits a group of units, on every core: units are independent.
-fn judge_group(
-    units: &[UnitLog],
+/// Fits and judges a group of units on `workers` threads (units are
+/// independent; each thread takes the next unit not yet taken), in the
+/// group's order. Runs `meanwhile` on the calling thread during the fits,
+/// with a test of whether every unit has been taken.
+fn judge_group<T>(
+    group: &Group,
+    workers: usize,
     lot: &str,
     plan: &Plan,
     trace: Option<&Traceability>,
-    clashes: &[Option<String>],
-) -> Vec<Judged> {
-    let threads = std::thread::available_parallelism()
-        .map_or(1, usize::from)
-        .min(units.len().max(1));
-    if threads <= 1 {
-        return units
-            .iter()
-            .zip(clashes)
-            .map(|(u, c)| judge_unit(u, lot, plan, trace, c.as_deref()))
-            .collect();
-    }
-    let chunk = units.len().div_ceil(threads);
+    meanwhile: impl FnOnce(&dyn Fn() -> bool) -> T,
+) -> (Vec<Judged>, T) {
+    let n = group.units.len();
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let trace_row = trace.map(Traceability::trace);
     std::thread::scope(|s| {
-        let handles: Vec<_> = units
-            .chunks(chunk)
-            .zip(clashes.chunks(chunk))
-            .map(|(us, cs)| {
+        let handles: Vec<_> = (0..workers.min(n))
+            .map(|_| {
+                let (next, trace_row) = (&next, &trace_row);
                 s.spawn(move || {
-                    us.iter()
-                        .zip(cs)
-                        .map(|(u, c)| judge_unit(u, lot, plan, trace, c.as_deref()))
-                        .collect::<Vec<_>>()
+                    let mut out = Vec::new();
+                    loop {
+                        let i = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                        let Some(unit) = group.units.get(i) else {
+                            break;
+                        };
+                        let clash = group.clashes.get(i).and_then(Option::as_deref);
+                        out.push((i, judge_unit(unit, lot, plan, trace, trace_row, clash)));
+                    }
+                    out
                 })
             })
             .collect();
-        handles
-            .into_iter()
-            .flat_map(|h| match h.join() {
-                Ok(v) => v,
+        let other = meanwhile(&|| next.load(std::sync::atomic::Ordering::Relaxed) >= n);
+        let mut slots: Vec<Option<Judged>> = (0..n).map(|_| None).collect();
+        for h in handles {
+            match h.join() {
+                Ok(v) => {
+                    for (i, j) in v {
+                        slots[i] = Some(j);
+                    }
+                }
                 Err(p) => std::panic::resume_unwind(p),
-            })
-            .collect()
+            }
+        }
+        (slots.into_iter().flatten().collect(), other)
     })
+}
+
+/// The units read for the next group.
+#[derive(Default)]
+struct Group {
+    /// Units to be judged, in rig-log order.
+    units: Vec<UnitLog>,
+    /// Per unit, the serial of this run it clashes with in letter case.
+    clashes: Vec<Option<String>>,
+    /// A unit already recorded (serial, latest attempt) that ends the
+    /// group: its outcome follows the group's.
+    after: Option<(String, u32)>,
+    /// The rig log has ended.
+    end: bool,
+    /// When the first unit was read.
+    first: Option<Instant>,
+}
+
+impl Group {
+    /// Full, cut short by [`GROUP_WAIT`], ended by an already recorded
+    /// unit or by the end of the rig log.
+    fn complete(&self, group_units: usize) -> bool {
+        self.end
+            || self.after.is_some()
+            || self.units.len() >= group_units
+            || self.first.is_some_and(|t| t.elapsed() >= GROUP_WAIT)
+    }
+}
+
+/// Reads the rig log's units into groups: the serial selection, the
+/// units already recorded, and the letter-case clashes of image names.
+struct Intake<'a, R: Read> {
+    reader: &'a mut RigLogReader<R>,
+    run: &'a LotRun<'a>,
+    already: &'a HashMap<String, u32>,
+    seen_selected: HashSet<String>,
+    /// Lower-cased image names of this run's units, for the case clash.
+    folded: HashMap<String, String>,
+    not_selected: usize,
+    group_units: usize,
+}
+
+impl<R: Read> Intake<'_, R> {
+    /// Reads units into `g` until it is complete or `stop()` says so.
+    fn fill(&mut self, g: &mut Group, stop: &dyn Fn() -> bool) {
+        while !g.complete(self.group_units) && !stop() {
+            let Some(unit) = self.reader.next() else {
+                g.end = true;
+                break;
+            };
+            if let Some(sel) = self.run.serials {
+                if !sel.contains(&unit.serial) {
+                    self.not_selected += 1;
+                    continue;
+                }
+                self.seen_selected.insert(unit.serial.clone());
+            }
+            if let Some(&attempt) = self.already.get(&unit.serial) {
+                g.after = Some((unit.serial, attempt));
+                break;
+            }
+            let name = image_file_name(&unit.serial).to_lowercase();
+            let clash = match self.folded.get(&name) {
+                Some(other) if *other != unit.serial => Some(other.clone()),
+                Some(_) => None,
+                None => {
+                    self.folded.insert(name, unit.serial.clone());
+                    None
+                }
+            };
+            if g.units.is_empty() {
+                g.first = Some(Instant::now());
+            }
+            g.units.push(unit);
+            g.clashes.push(clash);
+        }
+    }
 }
 
 /// Calibrates the units of a rig log as a station does: selects units,
@@ -607,6 +854,13 @@ fn judge_group(
 /// commits each group in one transaction, then brings the images folder
 /// to the verdicts. `on_unit` sees each outcome (for a progress bar and
 /// plots) before it is summarised.
+///
+/// One group at a time is judged and not yet committed: while a group is
+/// fitted (on every core), this thread brings the images folder to the
+/// group committed before and reads the next group's units from the rig
+/// log, neither of which judges anything. A kill therefore loses at most
+/// the units of one group (the one being fitted or committed), never part
+/// of one.
 ///
 /// # Errors
 /// [`LotError`] for the database, the rig log's file and the images
@@ -633,90 +887,20 @@ pub fn run_lot<R: Read>(
         (Some(t), false) => store.recorded_from(&t.rig_sha256_hex(), &t.plan_sha256_hex())?,
         _ => HashMap::new(),
     };
-    let mut seen_selected: HashSet<String> = HashSet::new();
-    // Lower-cased image names of this run's units, for the case clash.
-    let mut folded: HashMap<String, String> = HashMap::new();
-    let group_units = run.group_units.max(1);
-    let mut pending: Vec<UnitLog> = Vec::with_capacity(group_units);
-    let mut pending_clash: Vec<Option<String>> = Vec::with_capacity(group_units);
-    let mut first_pending = Instant::now();
-
-    // A pipeline: a fitter thread fits and judges group N+1 (on every
-    // core) while this thread commits group N and files its images. A
-    // group leaves the pipeline in order; a kill loses only groups not yet
-    // committed, never part of one.
-    std::thread::scope(|s| -> Result<(), LotError> {
-        let (job_tx, job_rx) = std::sync::mpsc::sync_channel::<Job>(1);
-        let (done_tx, done_rx) = std::sync::mpsc::channel::<Vec<Judged>>();
-        let (lot, trace) = (run.lot, run.trace);
-        let fitter = s.spawn(move || {
-            for (units, clashes) in job_rx {
-                if done_tx
-                    .send(judge_group(&units, lot, plan, trace, &clashes))
-                    .is_err()
-                {
-                    break;
-                }
-            }
-        });
-        let mut pipe = Pipe {
-            jobs: Some(job_tx),
-            done: done_rx,
-            fitter: Some(fitter),
-            in_flight: std::collections::VecDeque::new(),
-        };
-        for unit in reader.by_ref() {
-            // A judged group waits at most GROUP_WAIT for its commit.
-            if pipe
-                .in_flight
-                .front()
-                .is_some_and(|t| t.elapsed() >= GROUP_WAIT)
-            {
-                pipe.drain(0, run, store, &mut report, &mut on_unit)?;
-            }
-            if let Some(sel) = run.serials {
-                if !sel.contains(&unit.serial) {
-                    report.not_selected += 1;
-                    continue;
-                }
-                seen_selected.insert(unit.serial.clone());
-            }
-            if let Some(&attempt) = already.get(&unit.serial) {
-                // Outcomes in rig-log order: earlier units first.
-                pipe.submit(&mut pending, &mut pending_clash)?;
-                pipe.drain(0, run, store, &mut report, &mut on_unit)?;
-                let out = already_recorded(store, run.images, &unit.serial, attempt)?;
-                on_unit(&out);
-                summarise(&mut report, out);
-                continue;
-            }
-            let name = image_file_name(&unit.serial);
-            let clash = match folded.get(&name.to_lowercase()) {
-                Some(other) if *other != unit.serial => Some(other.clone()),
-                Some(_) => None,
-                None => {
-                    folded.insert(name.to_lowercase(), unit.serial.clone());
-                    None
-                }
-            };
-            if pending.is_empty() {
-                first_pending = Instant::now();
-            }
-            pending.push(unit);
-            pending_clash.push(clash);
-            let full = pending.len() >= group_units;
-            if full || first_pending.elapsed() >= GROUP_WAIT {
-                pipe.submit(&mut pending, &mut pending_clash)?;
-                // Full groups: commit the previous one while this one is
-                // fitted; a group cut short by time: commit it now.
-                pipe.drain(usize::from(full), run, store, &mut report, &mut on_unit)?;
-            }
-        }
-        pipe.submit(&mut pending, &mut pending_clash)?;
-        pipe.drain(0, run, store, &mut report, &mut on_unit)?;
-        pipe.finish();
-        Ok(())
-    })?;
+    // The write-ahead log's checkpoints run while a group is fitted, not
+    // in its commit.
+    store.defer_checkpoints()?;
+    let out = groups(
+        &mut reader,
+        run,
+        plan,
+        store,
+        &already,
+        &mut report,
+        &mut on_unit,
+    );
+    store.resume_checkpoints()?;
+    let seen_selected = out?;
     if let Some(e) = reader.take_file_error() {
         return Err(e.into());
     }
@@ -742,121 +926,165 @@ pub fn run_lot<R: Read>(
     Ok(report)
 }
 
-/// A group of units and their case clashes, to be fitted and judged.
-type Job = (Vec<UnitLog>, Vec<Option<String>>);
+/// Units committed between two checkpoints of the write-ahead log (a unit
+/// takes one or two pages; SQLite's own default is every 1000 pages).
+const CHECKPOINT_UNITS: usize = 600;
 
-/// The fitting side of [`run_lot`]'s pipeline: groups submitted, in order.
-struct Pipe<'s> {
-    jobs: Option<std::sync::mpsc::SyncSender<Job>>,
-    done: std::sync::mpsc::Receiver<Vec<Judged>>,
-    fitter: Option<std::thread::ScopedJoinHandle<'s, ()>>,
-    /// When each group not yet received was submitted, oldest first.
-    in_flight: std::collections::VecDeque<Instant>,
+/// The groups of [`run_lot`]: returns the selected serials seen.
+fn groups<R: Read>(
+    reader: &mut RigLogReader<R>,
+    run: &LotRun<'_>,
+    plan: &Plan,
+    store: &mut Store,
+    already: &HashMap<String, u32>,
+    report: &mut LotReport,
+    on_unit: &mut impl FnMut(&UnitOutcome),
+) -> Result<HashSet<String>, LotError> {
+    let workers = std::thread::available_parallelism().map_or(1, usize::from);
+    let mut since_checkpoint = 0;
+    let mut intake = Intake {
+        reader,
+        run,
+        already,
+        seen_selected: HashSet::new(),
+        folded: HashMap::new(),
+        not_selected: 0,
+        group_units: run.group_units.max(1),
+    };
+    // The group committed last, its image files not yet brought to its
+    // records (nor its outcomes reported).
+    let mut committed: Option<Committed> = None;
+    let mut next = Group::default();
+    intake.fill(&mut next, &|| false);
+    loop {
+        let mut group = std::mem::take(&mut next);
+        if group.units.is_empty() && group.after.is_none() {
+            break;
+        }
+        let ended = group.end;
+        // While the group is fitted: the previous group's image files,
+        // then the next group's units (until every unit of this group has
+        // been taken by a fitter).
+        let (judged, filed) = judge_group(&group, workers, run.lot, plan, run.trace, |taken| {
+            let filed = committed
+                .take()
+                .map_or(Ok(()), |c| file_group(c, run, store, report, on_unit));
+            // Checkpoints while the cores fit.
+            let filed = filed.and_then(|()| {
+                if since_checkpoint >= CHECKPOINT_UNITS {
+                    since_checkpoint = 0;
+                    store.checkpoint()?;
+                }
+                Ok(())
+            });
+            if filed.is_ok() && !ended {
+                intake.fill(&mut next, taken);
+            }
+            filed
+        });
+        filed?;
+        let done = !judged.is_empty();
+        if done {
+            since_checkpoint += judged.len();
+            committed = Some(record_group(judged, store)?);
+        }
+        if let Some((serial, attempt)) = group.after.take() {
+            // Outcomes in rig-log order: the group's first.
+            if let Some(c) = committed.take() {
+                file_group(c, run, store, report, on_unit)?;
+            }
+            let out = already_recorded(store, run.images, &serial, attempt)?;
+            on_unit(&out);
+            summarise(report, out);
+        }
+        if !ended {
+            intake.fill(&mut next, &|| false);
+        }
+    }
+    if let Some(c) = committed.take() {
+        file_group(c, run, store, report, on_unit)?;
+    }
+    report.not_selected = intake.not_selected;
+    Ok(intake.seen_selected)
 }
 
-impl Pipe<'_> {
-    /// Hands the pending units (if any) to the fitter.
-    fn submit(
-        &mut self,
-        pending: &mut Vec<UnitLog>,
-        clashes: &mut Vec<Option<String>>,
-    ) -> Result<(), LotError> {
-        if pending.is_empty() {
-            return Ok(());
-        }
-        let job = (std::mem::take(pending), std::mem::take(clashes));
-        if self.jobs.as_ref().is_some_and(|j| j.send(job).is_ok()) {
-            self.in_flight.push_back(Instant::now());
-        } else {
-            self.fitter_failed();
-        }
-        Ok(())
-    }
-
-    /// Records and files judged groups, oldest first, until at most
-    /// `keep` are left in flight.
-    fn drain(
-        &mut self,
-        keep: usize,
-        run: &LotRun<'_>,
-        store: &mut Store,
-        report: &mut LotReport,
-        on_unit: &mut impl FnMut(&UnitOutcome),
-    ) -> Result<(), LotError> {
-        while self.in_flight.len() > keep {
-            let Ok(judged) = self.done.recv() else {
-                self.fitter_failed();
-                return Ok(());
-            };
-            self.in_flight.pop_front();
-            record_group(judged, run, store, report, on_unit)?;
-        }
-        Ok(())
-    }
-
-    /// Ends the fitter (every group drained).
-    fn finish(mut self) {
-        self.jobs = None;
-        if let Some(h) = self.fitter.take() {
-            if let Err(p) = h.join() {
-                std::panic::resume_unwind(p);
-            }
-        }
-    }
-
-    /// The fitter stopped without being asked to: its panic goes on here.
-    fn fitter_failed(&mut self) {
-        self.jobs = None;
-        if let Some(h) = self.fitter.take() {
-            if let Err(p) = h.join() {
-                std::panic::resume_unwind(p);
-            }
-        }
-        unreachable!("the fitter thread ends only when its jobs channel closes");
-    }
-}
-
-/// Records (one transaction) and files a judged group of units.
-fn record_group(
+/// A committed group: its attempts (with their images) and where each
+/// landed, its image files not yet brought to the records.
+struct Committed {
     judged: Vec<Judged>,
+    results: Vec<Result<crate::store::Recorded, StoreError>>,
+}
+
+/// Records a judged group of units in one transaction.
+fn record_group(mut judged: Vec<Judged>, store: &mut Store) -> Result<Committed, LotError> {
+    let attempts: Vec<AttemptText> = judged
+        .iter_mut()
+        .map(|j| std::mem::replace(&mut j.attempt, placeholder()))
+        .collect();
+    let results = store.record_texts(&attempts)?;
+    for (j, a) in judged.iter_mut().zip(attempts) {
+        j.attempt = a;
+    }
+    Ok(Committed { judged, results })
+}
+
+/// Brings the image files of a committed group to each unit's latest
+/// record and reports the group's outcomes. The latest records are read
+/// under the write lock (another station may have recorded a later
+/// attempt since the commit): one query for the serials recorded after the
+/// group; a unit none recorded since has its own attempt as its latest.
+fn file_group(
+    c: Committed,
     run: &LotRun<'_>,
     store: &mut Store,
     report: &mut LotReport,
     on_unit: &mut impl FnMut(&UnitOutcome),
 ) -> Result<(), LotError> {
-    let (attempts, judged): (Vec<NewAttempt>, Vec<Judged>) = judged
-        .into_iter()
-        .map(|mut j| {
-            let a = std::mem::replace(&mut j.attempt, placeholder());
-            (a, j)
-        })
-        .unzip();
-    let results = store.record_batch(&attempts)?;
-    // The image files follow each unit's latest record (another station
-    // may have recorded a later attempt), read under the write lock.
+    let Committed { judged, results } = c;
     let synced: Vec<Option<Result<Option<PathBuf>, String>>> = match run.images {
         None => judged.iter().map(|_| None).collect(),
-        Some(dir) => store.exclusive(|s| {
-            judged
-                .iter()
-                .zip(&results)
-                .map(|(j, rec): (&Judged, _)| {
-                    rec.is_ok().then(|| match s.image(&j.serial, None) {
-                        Ok(latest) => sync_image(dir, &j.serial, latest.as_deref()),
-                        Err(e) => Err(format!("image file not brought to the latest record: {e}")),
+        Some(dir) => {
+            let last_id = results.iter().flatten().map(|r| r.id).max();
+            // A serial twice in the group has its later attempt as its
+            // latest: read it from the database like a superseded one.
+            let mut count: HashMap<&str, usize> = HashMap::new();
+            for j in &judged {
+                *count.entry(j.serial.as_str()).or_default() += 1;
+            }
+            store.exclusive(|s| -> Result<_, StoreError> {
+                let later: HashSet<String> = match last_id {
+                    Some(id) => s.serials_recorded_after(id)?.into_iter().collect(),
+                    None => HashSet::new(),
+                };
+                Ok(judged
+                    .iter()
+                    .zip(&results)
+                    .map(|(j, rec)| {
+                        rec.is_ok().then(|| {
+                            if later.contains(&j.serial) || count[j.serial.as_str()] > 1 {
+                                match s.image(&j.serial, None) {
+                                    Ok(latest) => sync_image(dir, &j.serial, latest.as_deref()),
+                                    Err(e) => Err(format!(
+                                        "image file not brought to the latest record: {e}"
+                                    )),
+                                }
+                            } else {
+                                sync_image(dir, &j.serial, j.attempt.image.as_deref())
+                            }
+                        })
                     })
-                })
-                .collect()
-        })?,
+                    .collect())
+            })??
+        }
     };
-    for (((j, rec), sync), attempt) in judged.into_iter().zip(results).zip(synced).zip(&attempts) {
+    for ((j, rec), sync) in judged.into_iter().zip(results).zip(synced) {
         let recorded = match rec {
             Ok(r) => Ok(r.attempt),
             Err(StoreError::InvalidAttempt { problem, .. }) => Err(problem),
             Err(e) => return Err(e.into()),
         };
         let mut out = UnitOutcome {
-            passed: attempt.result == AttemptResult::Pass && recorded.is_ok(),
+            passed: j.attempt.result == AttemptResult::Pass && recorded.is_ok(),
             disposition: if recorded.is_ok() {
                 Disposition::Judged
             } else {
@@ -865,7 +1093,7 @@ fn record_group(
             serial: j.serial,
             reasons: j.reasons,
             findings: j.findings,
-            fit: j.fit,
+            fit: j.fit.map(|f| *f),
             recorded,
             image_path: None,
             image_error: None,
@@ -883,6 +1111,22 @@ fn record_group(
         summarise(report, out);
     }
     Ok(())
+}
+
+/// An empty attempt, left where a judged unit's attempt was moved out.
+fn placeholder() -> AttemptText {
+    AttemptText {
+        serial: String::new(),
+        lot: String::new(),
+        result: AttemptResult::Fail,
+        reasons: Vec::new(),
+        params: String::new(),
+        residuals: String::new(),
+        rig_points: String::new(),
+        image: None,
+        image_crc: None,
+        trace: None,
+    }
 }
 
 /// A unit already recorded from this rig log against this plan: its
@@ -974,6 +1218,56 @@ fn summarise(report: &mut LotReport, out: UnitOutcome) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The record texts written straight from the fits equal, byte for
+    /// byte, those of the earlier path through `serde_json::Value`
+    /// (`to_value` of the fit without its residuals, the residuals, and
+    /// `RigRow::to_json` of each row followed by `{"error": …}` for each
+    /// bad row), on simulated proximity and level lots with bad units,
+    /// corrupted rows and failing fits.
+    #[test]
+    fn texts_equal_the_value_path() {
+        use crate::sim::rig::{write_rig_log, LotSpec};
+        let mut spec = LotSpec::demo("TX", 60, 5);
+        spec.bad_capacitor_every = 4;
+        spec.corrupt_row_every = 7;
+        let mut log = Vec::new();
+        write_rig_log(&spec, &mut log).unwrap();
+        let mut level = Vec::new();
+        crate::sim::level::write_level_rig_log("LX", 12, 3, &mut level).unwrap();
+        let cases = [(log, crate::demo::PLAN), (level, crate::demo::LEVEL_PLAN)];
+        let mut fits = 0;
+        for (bytes, plan_text) in cases {
+            let plan = Plan::parse(plan_text, Path::new("plan.toml")).unwrap();
+            let reader = RigLogReader::new(bytes.as_slice(), Path::new("rig.csv")).unwrap();
+            for unit in reader {
+                let (params, residuals) = match fit_unit(&unit, &plan) {
+                    Ok((f, _)) => {
+                        fits += 1;
+                        let mut v = serde_json::to_value(&f).unwrap();
+                        let r = v.as_object_mut().unwrap().remove("residuals").unwrap();
+                        assert_eq!(texts::params(&f), v.to_string(), "{}", unit.serial);
+                        assert_eq!(texts::residuals(&f.residuals), r.to_string());
+                        (v.to_string(), r.to_string())
+                    }
+                    Err(_) => ("{}".into(), "[]".into()),
+                };
+                let mut rig: Vec<serde_json::Value> =
+                    unit.rows.iter().map(|r| r.to_json()).collect();
+                rig.extend(
+                    unit.errors
+                        .iter()
+                        .map(|e| serde_json::json!({"error": e.to_string()})),
+                );
+                let want = serde_json::Value::Array(rig).to_string();
+                assert_eq!(texts::rig_points(&unit), want, "{}", unit.serial);
+                let a = record_of(&unit, "L", None, false, &["r".into()], None, None);
+                assert_eq!(a.rig_points, want);
+                assert!(!params.is_empty() && !residuals.is_empty());
+            }
+        }
+        assert!(fits > 50, "{fits}");
+    }
 
     /// Issue 14, defect 3: `S-01/0001` and `S-01_0001` had one file.
     #[test]

@@ -30,8 +30,8 @@ use std::process::ExitCode;
 /// Every attempt, pass or fail, becomes a unit record in the database with its
 /// traceability: the plan's text and SHA-256, the rig log's name and SHA-256, station,
 /// operator, tool version and UTC time. Units are committed in groups (one transaction per
-/// group, the next group fitted meanwhile): an interrupted run loses at most the two groups
-/// not yet committed, never part of a unit.
+/// group; a group is fitted only after the one before it is committed): an interrupted run
+/// loses at most the one group not yet committed (--group-units units), never part of a unit.
 ///
 /// The images folder always equals the latest verdicts: a passing unit's image is written,
 /// a failing unit's old image is removed; an image that cannot be written fails the unit.
@@ -88,7 +88,7 @@ pub struct Args {
     /// Operator identifier recorded with every attempt [default: $LC_OPERATOR, else empty]
     #[arg(long)]
     operator: Option<String>,
-    /// Units per database transaction (a kill loses at most the two groups not yet committed)
+    /// Units per database transaction (a kill loses at most the one group not yet committed)
     #[arg(long, default_value_t = DEFAULT_GROUP_UNITS as u32, value_parser = clap::value_parser!(u32).range(1..=100_000))]
     group_units: u32,
     /// Folder for the lot report (index.html, a page per unit, SVG plots)

@@ -12,7 +12,7 @@
 //!   (`public` unless the URL sets `options=-csearch_path=NAME`).
 
 use super::{
-    NewAttempt, RawCommon, RawRecord, RawSummary, RawTrace, Recorded, StoreError, BUSY_TIMEOUT,
+    Checked, RawCommon, RawRecord, RawSummary, RawTrace, Recorded, StoreError, BUSY_TIMEOUT,
     TOOL_VERSION,
 };
 use postgres::{Client, NoTls, Row};
@@ -255,8 +255,7 @@ pub(crate) fn dollars(sql: &str) -> String {
 pub(crate) fn record_batch(
     client: &mut Client,
     path: &Path,
-    batch: &[NewAttempt],
-    checked: Vec<Result<[String; 4], StoreError>>,
+    checked: Vec<Result<Checked<'_>, StoreError>>,
     calibrated_at: impl FnOnce() -> String,
 ) -> Result<Vec<Result<Recorded, StoreError>>, StoreError> {
     let mut tx = client
@@ -274,20 +273,25 @@ pub(crate) fn record_batch(
     let insert = tx
         .prepare(&format!("{} RETURNING id", dollars(super::INSERT_ATTEMPT)))
         .map_err(err(path, "inserting the attempt"))?;
-    let mut out = Vec::with_capacity(batch.len());
+    let mut out = Vec::with_capacity(checked.len());
     let mut lots_added: Vec<&str> = Vec::new();
-    for (a, json) in batch.iter().zip(checked) {
-        let [reasons, params, residuals, rig_points] = match json {
-            Ok(j) => j,
+    for c in checked {
+        let Checked {
+            head: a,
+            json: [reasons, params, residuals, rig_points],
+        } = match c {
+            Ok(c) => c,
             Err(e) => {
                 out.push(Err(e));
                 continue;
             }
         };
-        if !lots_added.contains(&a.lot.as_str()) {
+        let (reasons, params, residuals, rig_points) =
+            (&*reasons, &*params, &*residuals, &*rig_points);
+        if !lots_added.contains(&a.lot) {
             tx.execute(&insert_lot, &[&a.lot, &calibrated_at])
                 .map_err(err(path, "adding the lot"))?;
-            lots_added.push(&a.lot);
+            lots_added.push(a.lot);
         }
         let next: i32 = tx
             .query_one(&next_attempt, &[&a.serial])
@@ -296,12 +300,12 @@ pub(crate) fn record_batch(
         let Ok(attempt) = u32::try_from(next) else {
             out.push(Err(StoreError::InvalidAttempt {
                 path: path.to_path_buf(),
-                serial: a.serial.clone(),
+                serial: a.serial.to_owned(),
                 problem: format!("attempt number {next} is out of range"),
             }));
             continue;
         };
-        let t = a.trace.as_ref();
+        let t = a.trace;
         let crc = a.image_crc.map(i64::from);
         let row = tx
             .query_one(

@@ -1599,8 +1599,88 @@ fn schema_versions_are_checked(b: Backend) {
     assert!(matches!(err, StoreError::ForeignDatabase { .. }), "{err:?}");
 }
 
+/// The text path ([`Store::record_texts`]) stores what
+/// [`Store::record_batch`] stores for the same attempt, refuses what it
+/// refuses (per attempt), and [`Store::serials_recorded_after`] names the
+/// serials recorded after a row.
+fn texts_record_like_values(b: Backend) {
+    let dir = TempDir::on(b);
+    let mut store = Store::open(dir.db()).unwrap();
+    let mut rng = Rng(11);
+    let a = synthetic(&mut rng, "T-1", "L", true);
+    let text = |a: &NewAttempt| AttemptText {
+        serial: a.serial.clone(),
+        lot: a.lot.clone(),
+        result: a.result,
+        reasons: a.reasons.clone(),
+        params: a.params.to_string(),
+        residuals: a.residuals.to_string(),
+        rig_points: a.rig_points.to_string(),
+        image: a.image.clone(),
+        image_crc: a.image_crc,
+        trace: a.trace.clone(),
+    };
+    let first = store.record_batch(std::slice::from_ref(&a)).unwrap();
+    let mut bad = text(&a);
+    bad.params = "[1]".into();
+    let mut no_reason = text(&fail("T-2", "L", "x"));
+    no_reason.reasons.clear();
+    let out = store
+        .record_texts(&[text(&a), bad, no_reason, text(&fail("T-3", "L", "y"))])
+        .unwrap();
+    assert!(
+        matches!(out[1], Err(StoreError::InvalidAttempt { .. })),
+        "{:?}",
+        out[1]
+    );
+    assert!(
+        matches!(out[2], Err(StoreError::InvalidAttempt { .. })),
+        "{:?}",
+        out[2]
+    );
+    let (one, two) = (
+        store.attempt("T-1", Some(1)).unwrap().unwrap(),
+        store.attempt("T-1", Some(2)).unwrap().unwrap(),
+    );
+    assert_eq!(out[0].as_ref().unwrap().attempt, 2);
+    assert_eq!(
+        (
+            one.params,
+            one.residuals,
+            one.rig_points,
+            one.image,
+            one.reasons
+        ),
+        (
+            two.params,
+            two.residuals,
+            two.rig_points,
+            two.image,
+            two.reasons
+        )
+    );
+    let after = first[0].as_ref().unwrap().id;
+    let mut later = store.serials_recorded_after(after).unwrap();
+    later.sort();
+    assert_eq!(later, ["T-1", "T-3"]);
+    let last = out[3].as_ref().unwrap().id;
+    assert!(store.serials_recorded_after(last).unwrap().is_empty());
+    // Text that is not JSON fails the group: nothing of it is written.
+    let mut broken = text(&fail("T-4", "L", "z"));
+    broken.rig_points = "[{".into();
+    assert!(store
+        .record_texts(&[text(&fail("T-5", "L", "z")), broken])
+        .is_err());
+    assert!(store.attempt("T-5", None).unwrap().is_none());
+    // Checkpoints may be taken off the commits and run on demand.
+    store.defer_checkpoints().unwrap();
+    store.checkpoint().unwrap();
+    store.resume_checkpoints().unwrap();
+}
+
 on_both_backends!(
     record_returns_what_is_stored,
+    texts_record_like_values,
     recalibration_adds_attempt_2_and_keeps_attempt_1_byte_for_byte,
     attempts_are_numbered_per_serial_across_lots,
     invalid_attempts_are_refused_and_nothing_is_written,
