@@ -7,7 +7,7 @@
 //! A frame is a record body (kind, sequence number, fixed-length payload,
 //! CRC-32) stuffed with COBS so that it holds no zero byte, then one
 //! `0x00` delimiter. The [`Encoder`] numbers the frames and writes each one
-//! with one `write_all` into an [`embedded_io::Write`] sink;
+//! whole into an [`embedded_io::Write`] sink;
 //! [`Record::parse`] and [`unstuff`] are the receiving side's pieces
 //! (lc-host's tolerant decoder is built on them).
 //!
@@ -311,23 +311,54 @@ impl Encoder {
         stuff(body.as_slice())
     }
 
-    /// Sends `record` as one frame with one `write_all`, and returns its
-    /// sequence number. A failed write still uses the number: the receiver
+    /// Sends `record` as one frame and returns its sequence number. The
+    /// frame goes to the sink by `write` calls until it is all written
+    /// (not by `write_all`, whose default panics on a sink that accepts
+    /// nothing). A failed write still uses the number: the receiver
     /// counts the frame as dropped (and what arrived of it as bad).
     ///
     /// # Errors
-    /// The sink's error.
+    /// The sink's error, or [`SendError::Stalled`] when it accepted no
+    /// byte of what was left.
     pub fn send<W: embedded_io::Write>(
         &mut self,
         sink: &mut W,
         record: &Record,
-    ) -> Result<u16, W::Error> {
+    ) -> Result<u16, SendError<W::Error>> {
         let sequence = self.sequence;
         let frame = self.encode(record);
-        sink.write_all(frame.as_bytes())?;
+        let mut rest = frame.as_bytes();
+        while !rest.is_empty() {
+            match sink.write(rest) {
+                Ok(0) => return Err(SendError::Stalled),
+                Ok(n) => rest = rest.get(n..).unwrap_or(&[]),
+                Err(e) => return Err(SendError::Sink(e)),
+            }
+        }
         Ok(sequence)
     }
 }
+
+/// Why [`Encoder::send`] did not write a whole frame.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum SendError<E> {
+    /// The sink's own error.
+    Sink(E),
+    /// The sink accepted no byte (a `write` returned 0).
+    Stalled,
+}
+
+impl<E: fmt::Debug> fmt::Display for SendError<E> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            SendError::Sink(e) => write!(f, "the byte sink failed: {e:?}"),
+            SendError::Stalled => f.write_str("the byte sink accepted no byte"),
+        }
+    }
+}
+
+impl<E: fmt::Debug> core::error::Error for SendError<E> {}
 
 /// A record body being built.
 struct Body {
@@ -634,7 +665,11 @@ pub fn status_code(status: Status) -> u8 {
             SensorFault::Companion(None) => 0x25,
             SensorFault::Shift(e) => 0x30 | shift_index(e),
             SensorFault::Ratio(CompanionError::GateMismatch) => 0x40,
-            SensorFault::Ratio(CompanionError::Shift(e)) => 0x41 + shift_index(e),
+            SensorFault::Ratio(CompanionError::Shift(e)) => match e {
+                ShiftError::ZeroCount => 0x41,
+                ShiftError::OutOfRange => 0x42,
+                ShiftError::BadRestPoint => 0x43,
+            },
             SensorFault::Reference => 0x50,
         },
     }
@@ -653,7 +688,9 @@ pub fn status_of_code(code: u8) -> Option<Status> {
         0x25 => SensorFault::Companion(None),
         0x30..=0x32 => SensorFault::Shift(*SHIFTS.get(low)?),
         0x40 => SensorFault::Ratio(CompanionError::GateMismatch),
-        0x41..=0x43 => SensorFault::Ratio(CompanionError::Shift(*SHIFTS.get(low - 1)?)),
+        0x41 => SensorFault::Ratio(CompanionError::Shift(ShiftError::ZeroCount)),
+        0x42 => SensorFault::Ratio(CompanionError::Shift(ShiftError::OutOfRange)),
+        0x43 => SensorFault::Ratio(CompanionError::Shift(ShiftError::BadRestPoint)),
         0x50 => SensorFault::Reference,
         _ => return None,
     };
