@@ -12,8 +12,8 @@
 
 pub mod pipeline;
 pub mod readout;
-pub mod scan;
 pub mod sizes;
+pub mod scan;
 
 use cortex_m_semihosting::{debug, hio};
 

@@ -13,8 +13,8 @@ use lc_core::drift::{Companion, DriftFactor, TemperatureModel};
 use lc_core::filter::{Ema, Median};
 use lc_core::image::{Image, ImageBuf, MetalParams};
 use lc_core::reader::{
-    Input, LevelReader, LevelReading, MetalReader, MetalReading, ProximityReader, ProximityReading,
-    Reader, Reading,
+    Input, LevelReader, LevelReading, MetalReader, MetalReading, ProximityReader,
+    ProximityReading, Reader, Reading,
 };
 use lc_core::shift::{RestPoint, Shift, ShiftConverter};
 use lc_core::temperature::{CentiCelsius, Divider, NtcBeta, NtcSteinhartHart};
@@ -69,10 +69,7 @@ const EXPECTED: [usize; 30] = [
 const _: () = {
     let mut i = 0;
     while i < SIZES.len() {
-        assert!(
-            SIZES[i].1 == EXPECTED[i],
-            "a firmware type's size changed: update sizes.rs and lc-core's Memory table"
-        );
+        assert!(SIZES[i].1 == EXPECTED[i], "a firmware type's size changed: update sizes.rs and lc-core's Memory table");
         i += 1;
     }
     assert!(NTC_SIZES[0].1 == 12 && NTC_SIZES[1].1 == 80);

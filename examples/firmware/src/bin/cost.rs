@@ -367,6 +367,7 @@ fn reader(unit: usize) -> Option<(Image<'static>, Reader<'static>)> {
     Some((image, reader))
 }
 
+
 /// A row of the full-reading table.
 fn row(out: &mut impl Write, label: &str, ticks: u32, tenths: i64) -> fmt::Result {
     writeln!(out, "{label:<46} {ticks:>9} {:>14}", Tenths(tenths))
@@ -416,15 +417,7 @@ fn proximity(
     per: &impl Fn(u32) -> i64,
 ) -> fmt::Result {
     proximity_of::<5>(out, PROXIMITY_TC, "", ntc, float_ntc, temperature, per)?;
-    proximity_of::<32>(
-        out,
-        PROXIMITY_32,
-        " (32 cubic)",
-        ntc,
-        float_ntc,
-        temperature,
-        per,
-    )
+    proximity_of::<32>(out, PROXIMITY_32, " (32 cubic)", ntc, float_ntc, temperature, per)
 }
 
 /// One proximity unit with an `N`-node curve against its `f32` version.
