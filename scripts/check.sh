@@ -65,6 +65,7 @@ if [ "$have_targets" = yes ]; then
         cargo clippy --manifest-path examples/firmware/Cargo.toml --target "$t" --quiet -- -D warnings
     done
     cargo clippy --manifest-path examples/unit-firmware/Cargo.toml --target thumbv6m-none-eabi --quiet -- -D warnings
+    cargo clippy --manifest-path examples/link-firmware/Cargo.toml --target thumbv6m-none-eabi --quiet -- -D warnings
 else
     missing "Cortex-M rust targets" "rustup target add ${targets[*]}"
 fi
