@@ -781,8 +781,8 @@ mod tests {
         for body in [vec![7u8; 300], vec![0u8; 10], vec![]] {
             let mut out = vec![0u8; 400];
             let mut enc = vec![];
-            // Reference COBS (Cheshire & Baker 1999, the algorithm as
-            // published), written out here independently.
+            // Reference COBS, written out independently from the paper:
+            // docs/references.md, Cheshire & Baker 1999 (from memory).
             let mut block = vec![];
             for &b in &body {
                 if b == 0 {
