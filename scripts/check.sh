@@ -55,7 +55,7 @@ if [ "$have_targets" = yes ]; then
     done
     # Each reader alone, none at all, and the small CRC table: what a
     # firmware that names only its reader builds (lib.rs, "Cargo features").
-    for f in proximity level metal "" "proximity,crc-nibble" "scanner,ntc"; do
+    for f in proximity level metal "" "proximity,crc-nibble" "scanner,ntc" "link" "proximity,link"; do
         step "lc-core for thumbv6m-none-eabi, --no-default-features --features '$f'"
         cargo clippy -p lc-core --lib --target thumbv6m-none-eabi --no-default-features \
             --features "$f" -- -D warnings
