@@ -4,7 +4,7 @@
 //! `lc_core::link`) to whoever listens (`lc-host listen`).
 //!
 //! On QEMU's `microbit` the nRF51 UART is connected to the host with
-//! `-serial tcp:...` (`tests/link_firmware.rs`, `run.sh`). The script:
+//! `-serial tcp:...` (`lc-host/tests/link_firmware.rs`, `run.sh`). The script:
 //! 300 gates over two channels (the demo proximity image, a target
 //! sweeping through the curve, the temperature drifting), with sensor
 //! faults (a dead oscillator every 40th gate, a lost reference every 53rd)
