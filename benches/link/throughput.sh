@@ -28,8 +28,8 @@ run() {
         rm -rf "$work/rec"
         local t0 t1 frames
         t0=$(date +%s.%N)
-        frames=$("$bin" listen "$work/replay.lclink" --image "$image" --json "$@" |
-            awk -F: '/"frames"/ { gsub(/[ ,]/, "", $2); print $2; exit }')
+        frames=$("$bin" listen "$work/replay.lclink" --image "$image" --json "$@" 2>/dev/null |
+            awk -F: '/"frames"/ && !done { gsub(/[ ,]/, "", $2); print $2; done = 1 }')
         t1=$(date +%s.%N)
         local rate
         rate=$(awk -v f="$frames" -v a="$t0" -v b="$t1" 'BEGIN { printf "%.0f", f / (b - a) }')

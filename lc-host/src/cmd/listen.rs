@@ -166,23 +166,32 @@ pub fn run_cmd(a: Args) -> Result<()> {
     }
     let ended = ended?;
     let summary = summary?;
-    if a.json {
-        println!("{}", serde_json::to_string_pretty(&summary)?);
+    let text = if a.json {
+        format!("{}\n", serde_json::to_string_pretty(&summary)?)
     } else {
-        print_summary(&summary, ended, &source);
+        summary_text(&summary, ended, &source)
+    };
+    // A reader that went away (a closed pipe) is no error of the session.
+    match std::io::stdout().lock().write_all(text.as_bytes()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => {
+            Err(e).context("cannot write the summary")
+        }
+        _ => Ok(()),
     }
-    Ok(())
 }
 
-fn print_summary(s: &Summary, ended: Ended, source: &Source) {
+fn summary_text(s: &Summary, ended: Ended, source: &Source) -> String {
+    use std::fmt::Write as _;
+    let mut out = String::new();
     let l = s.link;
     let rate = if s.seconds > 0.0 {
         l.frames as f64 / s.seconds
     } else {
         0.0
     };
-    println!(
-        "{} {}: {:.1} s, {} bytes, {} frames ({rate:.0}/s), {} bad, {} dropped, {} reconnects",
+    let _ = writeln!(
+        out,
+        "{} {}: {:.1} s, {} bytes, {} frames ({rate:.0}/s), {} bad, {} dropped, {} reconnects, {} restarts",
         source.name(),
         if ended == Ended::Stopped {
             "stopped"
@@ -194,9 +203,11 @@ fn print_summary(s: &Summary, ended: Ended, source: &Source) {
         l.frames,
         l.bad,
         l.dropped,
-        s.reconnects
+        s.reconnects,
+        s.restarts
     );
-    println!(
+    let _ = writeln!(
+        out,
         "units {}; {} count pairs, {} converted; {} unit readings ({} sensor faults): \
          host agrees on {}, differs on {}, {} without their count pair",
         if s.units.is_empty() {
@@ -213,18 +224,20 @@ fn print_summary(s: &Summary, ended: Ended, source: &Source) {
         s.unmatched
     );
     if s.ntc_codes > 0 {
-        println!(
+        let _ = writeln!(
+            out,
             "{} count pairs carried an NTC code: recorded without a temperature",
             s.ntc_codes
         );
     }
     for p in &s.field_logs {
-        println!("field log: {}", p.display());
+        let _ = writeln!(out, "field log: {}", p.display());
     }
     for p in &s.raw {
-        println!("raw stream: {}", p.display());
+        let _ = writeln!(out, "raw stream: {}", p.display());
     }
-    println!("Not a safety-rated component (see README, Cautions).");
+    let _ = writeln!(out, "Not a safety-rated component (see README, Cautions).");
+    out
 }
 
 struct View {

@@ -209,6 +209,8 @@ pub struct Summary {
     pub ntc_codes: u64,
     /// Times the link was reopened.
     pub reconnects: u64,
+    /// Start hellos of the unit already talking (it restarted).
+    pub restarts: u64,
     /// Units heard (serials, in order of first hello).
     pub units: Vec<String>,
     /// Field-log segments finished.
@@ -585,16 +587,21 @@ impl Session {
             self.summary.units.push(serial.clone());
         }
         let image = self.image_for(&serial, h.image_crc)?;
-        self.notes.push(format!(
-            "unit {serial} (image CRC {:08x}){}{}",
-            h.image_crc,
-            if h.start { ", started" } else { "" },
-            if image.is_some() {
-                ""
-            } else {
-                ": no image, count pairs are recorded but not converted"
-            }
-        ));
+        if same {
+            // The same unit, restarted: counted, not noted each time.
+            self.summary.restarts += 1;
+        } else {
+            self.notes.push(format!(
+                "unit {serial} (image CRC {:08x}){}{}",
+                h.image_crc,
+                if h.start { ", started" } else { "" },
+                if image.is_some() {
+                    ""
+                } else {
+                    ": no image, count pairs are recorded but not converted"
+                }
+            ));
+        }
         // A new unit or a restarted one: new readers, a new field-log
         // segment (a segment is one run of one unit, as `convert` reads it).
         self.unit = Some(Unit {
