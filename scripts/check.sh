@@ -56,7 +56,7 @@ if [ "$have_targets" = yes ]; then
     done
     # Each reader alone, none at all, and the small CRC table: what a
     # firmware that names only its reader builds (lib.rs, "Cargo features").
-    for f in proximity level metal "" "proximity,crc-nibble" "scanner,ntc"; do
+    for f in proximity level metal "" "proximity,crc-nibble" "scanner,ntc" "link" "proximity,link"; do
         step "lc-core for thumbv6m-none-eabi, --no-default-features --features '$f'"
         cargo clippy -p lc-core --lib --target thumbv6m-none-eabi --no-default-features \
             --features "$f" -- -D warnings
@@ -66,6 +66,7 @@ if [ "$have_targets" = yes ]; then
         cargo clippy --manifest-path examples/firmware/Cargo.toml --target "$t" --quiet -- -D warnings
     done
     cargo clippy --manifest-path examples/unit-firmware/Cargo.toml --target thumbv6m-none-eabi --quiet -- -D warnings
+    cargo clippy --manifest-path examples/link-firmware/Cargo.toml --target thumbv6m-none-eabi --quiet -- -D warnings
     # The C API (lc-core/capi, docs/c-api.md): its static library for both
     # cores and the host, and the panic-never proof of its entry points
     # (a link fails if a panic path is reachable), without and with

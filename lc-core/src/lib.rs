@@ -84,6 +84,7 @@
 //! | `ntc` | yes | NTC conversions in [`temperature`] (Beta, Steinhart–Hart) |
 //! | `crc-nibble` | no | CRC-32 from a 64-byte table instead of 1 KiB (about twice the start-up instructions per image byte) |
 //! | `design` | no | design-time `f64` physics, owned curves and volume tables, the image writer and format-1 reader (enabled by lc-host) |
+//! | `link` | no | `link`: the live link's encoder (docs/link.md), into an `embedded-io` sink; 4 bytes of state |
 //! | `defmt` | no | `defmt::Format` on public types |
 //!
 //! A firmware names only what it runs, e.g.
@@ -179,6 +180,8 @@ mod fixed;
 #[cfg(feature = "design")]
 pub mod geometry;
 pub mod image;
+#[cfg(feature = "link")]
+pub mod link;
 pub mod ratio;
 pub mod reader;
 #[cfg(feature = "design")]

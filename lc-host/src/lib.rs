@@ -18,6 +18,8 @@
 //!   resistance and Q, the tank capacitor, the pull of a metal target.
 //! - [`report`]: the lot report (offline HTML) and unit certificates;
 //!   [`export`]: calibration images as Intel HEX, C arrays, padded binaries.
+//! - [`link`]: the live link's tolerant decoder and the listener behind
+//!   `lc-host listen` (docs/link.md).
 //! - [`sim`]: simulated rig and field logs; [`svg`]: plots for reports;
 //!   [`stream`], [`csvin`], [`csvout`], [`atomic`]: streaming CSV in and
 //!   out, atomic files.
@@ -45,6 +47,7 @@ pub mod csvout;
 pub mod demo;
 pub mod export;
 pub mod fieldlog;
+pub mod link;
 pub mod liquid;
 pub mod ntc;
 pub mod quantity;

@@ -7,6 +7,7 @@ pub mod convert;
 pub mod counts;
 pub mod demo;
 pub mod inspect;
+pub mod listen;
 pub mod loops;
 pub mod ntc;
 pub mod probe;

@@ -24,6 +24,10 @@
 //!   `Scanner`, `BinaryMux`, `EnabledMux`, `SingleInput`, `ReplaySource`,
 //!   `Divider::new`, `NtcBeta`, `NtcSteinhartHart::new` / `convert`,
 //!   `steinhart_hart_fit`).
+//! - the live link's encoder (`link_proof`): `Encoder::send` of hello,
+//!   count-pair and reading records into a byte sink that fills up,
+//!   `Counts::of_input`, `ReadingRecord::of_reading`; its result goes to
+//!   `black_box` only, so the printed digests stay as they were.
 //!
 //! It links with overflow checks on as well (`--profile release-checked`,
 //! `run.sh panic-check`): no addition, subtraction, multiplication or
@@ -64,6 +68,10 @@ fn main() -> ! {
         black_box(&PIN_BUDGETS[..]),
         black_box(&NTC_CODES[..]),
     );
+    black_box(link_proof(
+        black_box(readout::ROWS),
+        black_box(readout::ROWS),
+    ));
     let ok = match stdout() {
         Some(mut out) => {
             out.write_all(&hex_line(*b"digest 00000000\n", digest))
@@ -92,4 +100,61 @@ fn hex_line<const N: usize>(mut line: [u8; N], value: u32) -> [u8; N] {
         }
     }
     line
+}
+
+/// Every encoding path of `lc_core::link`: a hello, then each readout row
+/// as a count-pair record (NTC code, or a temperature, companion and ring
+/// count as the row has them) and a reading record of the row's values,
+/// into a 256-byte sink that runs full part-way, so the sink's error path
+/// is reached too. Returns the bytes' sum.
+#[inline(never)]
+fn link_proof(rows: &[readout::Row], more: &[readout::Row]) -> u32 {
+    use lc_core::image::ReaderKind;
+    use lc_core::link::{Counts, Encoder, Hello, ReadingRecord, Record, Thermal};
+    use lc_core::reader::{Input, Status};
+    use lc_core::temperature::CentiCelsius;
+    let mut wire = [0u8; 256];
+    let mut sink: &mut [u8] = &mut wire;
+    let mut enc = Encoder::new();
+    let mut failed = 0u32;
+    let hello = Record::Hello(Hello::new(black_box(b"DEMO-01-0001"), 0x1234_5678));
+    failed = failed.wrapping_add(u32::from(enc.send(&mut sink, &hello).is_err()));
+    // Channels wrap at 256 (a `0u8..` range or `enumerate` would count
+    // with a checked addition under overflow checks).
+    let mut ch = 0u8;
+    for row in rows.iter().chain(more) {
+        ch = ch.wrapping_add(1);
+        let input = Input {
+            pair: row.pair,
+            companion: row.companion,
+            temperature: Some(CentiCelsius(i32::from(ch))),
+            ring_count: row.ring,
+        };
+        let mut counts = Counts::of_input(ch, &input);
+        if let Some(code) = row.ntc_code {
+            counts.thermal = Thermal::NtcCode(code);
+        }
+        let seq = match enc.send(&mut sink, &Record::Counts(counts)) {
+            Ok(seq) => seq,
+            Err(_) => {
+                failed = failed.wrapping_add(1);
+                enc.next_sequence()
+            }
+        };
+        let reading = ReadingRecord {
+            channel: ch,
+            kind: ReaderKind::Proximity,
+            status: Status::Ok,
+            of_sequence: seq,
+            value: i32::from(row.ring.unwrap_or(0)),
+            secondary: row.ntc_code.map(|c| i32::from(c as u16)),
+            curve_input_q40: i64::from(row.pair.ticks),
+        };
+        failed = failed.wrapping_add(u32::from(
+            enc.send(&mut sink, &Record::Reading(black_box(reading)))
+                .is_err(),
+        ));
+    }
+    wire.iter()
+        .fold(failed, |acc, &b| acc.wrapping_add(u32::from(b)))
 }
