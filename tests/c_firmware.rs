@@ -158,28 +158,20 @@ fn host_output(unit: &Unit) -> String {
     let buf = ImageBuf::from_bytes(&bytes).expect("the committed image fits");
     let image = buf.image().expect("the committed image is valid");
     let mut out = String::from("boot\n");
-    let mut push = |line: report::Line| {
-        out.push_str(std::str::from_utf8(line.as_bytes()).expect("ASCII line"));
-    };
+    let mut push = |pieces: Text| out.push_str(&pieces.0);
     match unit.name {
         "proximity" => {
             let mut r = ProximityReader::new(&image).expect("proximity reader");
             for (i, input) in (0u32..).zip(unit.inputs) {
                 let x = r.read(input);
-                push(report::Line::reading(
-                    i,
-                    x.gap,
-                    None,
-                    x.shift.raw_q40(),
-                    x.status,
-                ));
+                push(Text::reading(i, x.gap, None, x.shift.raw_q40(), x.status));
             }
         }
         "level" => {
             let mut r = LevelReader::new(&image).expect("level reader");
             for (i, input) in (0u32..).zip(unit.inputs) {
                 let x = r.read(input);
-                push(report::Line::reading(
+                push(Text::reading(
                     i,
                     x.level,
                     x.volume,
@@ -192,7 +184,7 @@ fn host_output(unit: &Unit) -> String {
             let mut r = MetalReader::new(&image).expect("metal reader");
             for (i, input) in (0u32..).zip(unit.inputs) {
                 let x = r.read(input);
-                push(report::Line::reading(
+                push(Text::reading(
                     i,
                     x.class as i32,
                     x.ring_drop,
@@ -445,4 +437,29 @@ fn c_firmware_matches_rust_and_host() {
         c.ram(),
         rust.ram()
     );
+}
+
+/// One reading's line as the firmwares write it (`report::reading`), as
+/// text.
+struct Text(String);
+
+impl Text {
+    fn reading(
+        i: u32,
+        value: i32,
+        secondary: Option<i32>,
+        q40: i64,
+        status: lc_core::reader::Status,
+    ) -> Self {
+        let mut t = Text(String::new());
+        report::reading(&mut t, i, value, secondary, q40, status);
+        t
+    }
+}
+
+impl report::Sink for Text {
+    fn put(&mut self, bytes: &[u8]) {
+        self.0
+            .push_str(std::str::from_utf8(bytes).expect("ASCII pieces"));
+    }
 }

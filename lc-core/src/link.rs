@@ -671,6 +671,11 @@ pub fn status_code(status: Status) -> u8 {
                 ShiftError::BadRestPoint => 0x43,
             },
             SensorFault::Reference => 0x50,
+            SensorFault::ReferenceLow => 0x51,
+            SensorFault::Frozen => 0x60,
+            SensorFault::TemperatureOutOfDomain => 0x61,
+            SensorFault::TemperatureMissing => 0x62,
+            SensorFault::OutOfReach => 0x63,
         },
     }
 }
@@ -692,6 +697,11 @@ pub fn status_of_code(code: u8) -> Option<Status> {
         0x42 => SensorFault::Ratio(CompanionError::Shift(ShiftError::OutOfRange)),
         0x43 => SensorFault::Ratio(CompanionError::Shift(ShiftError::BadRestPoint)),
         0x50 => SensorFault::Reference,
+        0x51 => SensorFault::ReferenceLow,
+        0x60 => SensorFault::Frozen,
+        0x61 => SensorFault::TemperatureOutOfDomain,
+        0x62 => SensorFault::TemperatureMissing,
+        0x63 => SensorFault::OutOfReach,
         _ => return None,
     };
     Some(Status::SensorFault(fault))
@@ -720,6 +730,11 @@ mod tests {
             Status::NoTarget,
             Status::SensorFault(SensorFault::Companion(None)),
             Status::SensorFault(SensorFault::Reference),
+            Status::SensorFault(SensorFault::ReferenceLow),
+            Status::SensorFault(SensorFault::Frozen),
+            Status::SensorFault(SensorFault::TemperatureOutOfDomain),
+            Status::SensorFault(SensorFault::TemperatureMissing),
+            Status::SensorFault(SensorFault::OutOfReach),
             Status::SensorFault(SensorFault::Ratio(CompanionError::GateMismatch)),
         ];
         for e in FAULTS {
@@ -743,7 +758,7 @@ mod tests {
             assert!(seen.insert(c), "{c:#x} twice");
             assert_eq!(status_of_code(c), Some(s));
         }
-        assert_eq!(seen.len(), 23);
+        assert_eq!(seen.len(), 28);
         for c in 0..=255u8 {
             if let Some(s) = status_of_code(c) {
                 assert_eq!(status_code(s), c);

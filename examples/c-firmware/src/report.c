@@ -55,7 +55,22 @@ const char *status_name(lc_status_t status, lc_fault_t fault) {
   default:
     break;
   }
-  /* A sensor fault: the fault code's high nibble is its group. */
+  /* The plausibility faults by code; the others by their group, the fault
+     code's high nibble. */
+  switch (fault) {
+  case LC_FAULT_REFERENCE_LOW:
+    return "fault-reference-low";
+  case LC_FAULT_FROZEN:
+    return "fault-frozen";
+  case LC_FAULT_TEMPERATURE_OUT_OF_DOMAIN:
+    return "fault-temperature-domain";
+  case LC_FAULT_TEMPERATURE_MISSING:
+    return "fault-temperature-missing";
+  case LC_FAULT_OUT_OF_REACH:
+    return "fault-out-of-reach";
+  default:
+    break;
+  }
   switch (fault >> 4) {
   case 0x0:
     return "fault-counts";

@@ -36,28 +36,20 @@ fn images() -> [(&'static str, PathBuf); 3] {
 /// lc-core's readings of the script, in the firmwares' line format.
 fn rust_lines(kind: &str, image: &Image<'_>, inputs: &[Input]) -> String {
     let mut out = String::new();
-    let mut push = |line: report::Line| {
-        out.push_str(std::str::from_utf8(line.as_bytes()).expect("ASCII"));
-    };
+    let mut push = |pieces: Text| out.push_str(&pieces.0);
     match kind {
         "proximity" => {
             let mut r = ProximityReader::new(image).expect("proximity image");
             for (i, input) in (0u32..).zip(inputs) {
                 let x = r.read(input);
-                push(report::Line::reading(
-                    i,
-                    x.gap,
-                    None,
-                    x.shift.raw_q40(),
-                    x.status,
-                ));
+                push(Text::reading(i, x.gap, None, x.shift.raw_q40(), x.status));
             }
         }
         "level" => {
             let mut r = LevelReader::new(image).expect("level image");
             for (i, input) in (0u32..).zip(inputs) {
                 let x = r.read(input);
-                push(report::Line::reading(
+                push(Text::reading(
                     i,
                     x.level,
                     x.volume,
@@ -70,7 +62,7 @@ fn rust_lines(kind: &str, image: &Image<'_>, inputs: &[Input]) -> String {
             let mut r = MetalReader::new(image).expect("metal image");
             for (i, input) in (0u32..).zip(inputs) {
                 let x = r.read(input);
-                push(report::Line::reading(
+                push(Text::reading(
                     i,
                     x.class as i32,
                     x.ring_drop,
@@ -161,4 +153,29 @@ fn host_c_test_under_sanitizers() {
         stdout, expected,
         "the C API's readings differ from lc-core's"
     );
+}
+
+/// One reading's line as the firmwares write it (`report::reading`), as
+/// text.
+struct Text(String);
+
+impl Text {
+    fn reading(
+        i: u32,
+        value: i32,
+        secondary: Option<i32>,
+        q40: i64,
+        status: lc_core::reader::Status,
+    ) -> Self {
+        let mut t = Text(String::new());
+        report::reading(&mut t, i, value, secondary, q40, status);
+        t
+    }
+}
+
+impl report::Sink for Text {
+    fn put(&mut self, bytes: &[u8]) {
+        self.0
+            .push_str(std::str::from_utf8(bytes).expect("ASCII pieces"));
+    }
 }
