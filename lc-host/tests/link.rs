@@ -317,7 +317,7 @@ fn converted(field_log: &Path, image: &Path) -> Vec<(u8, String, String)> {
         .filter(|l| !l.starts_with('#') && !l.starts_with("line,"))
         .map(|l| {
             let f: Vec<&str> = l.split(',').collect();
-            (f[2].parse().unwrap(), f[3].to_string(), f[4].to_string())
+            (f[2].parse().unwrap(), f[3].to_string(), raw_units(f[4]))
         })
         .collect()
 }
@@ -522,4 +522,17 @@ fn the_image_comes_from_the_unit_database_by_serial_and_crc() {
         (Some(0), Some(10))
     );
     std::fs::remove_dir_all(&dir).unwrap();
+}
+
+/// A value column of `lc-host convert` (physical units, the image's exact
+/// decimal digits) as the reading's raw integer: the digits without the
+/// decimal point ("0.001216" m is 1216 µm). Empty stays empty.
+fn raw_units(s: &str) -> String {
+    if s.is_empty() {
+        return String::new();
+    }
+    s.replace('.', "")
+        .parse::<i64>()
+        .expect("a decimal value")
+        .to_string()
 }
