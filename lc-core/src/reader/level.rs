@@ -193,7 +193,7 @@ impl<'a> LevelReader<'a> {
             Err(f) => return LevelReading::fault(f),
         };
         let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
-        if v.status != CurveStatus::InRange && !super::in_reach(axis.raw_q40(), &self.curve) {
+        if !self.curve.within_reach(axis.raw_q40(), v.status) {
             return LevelReading::fault(match axis {
                 LevelAxis::Ratio(_) => SensorFault::ReferenceLow,
                 LevelAxis::Shift(_) => SensorFault::OutOfReach,
