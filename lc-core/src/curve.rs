@@ -708,18 +708,25 @@ impl<'a> CurveRef<'a> {
     /// states it (the shifts strictly increase, so the low end is node 0's
     /// and only the end `q` passed needs a compare). Inlined into the
     /// readers: the nodes are read only on a reading out of range.
+    ///
+    /// The compares are on the distances, which are positive and exact as
+    /// `u64` (x₀ < xₙ; below the range q < x₀, above it q > xₙ): q ≥ x₀ − w
+    /// is x₀ − q ≤ w, and q ≤ xₙ + w is q − xₙ ≤ w, with the saturating
+    /// bounds' result wherever x₀ − w or xₙ + w leaves the `i64` range
+    /// (then every q is within), and no 64-bit saturation on the way.
     #[inline(always)]
     pub(crate) fn within_reach(&self, q: i64, status: CurveStatus) -> bool {
         let last_i = self.len().saturating_sub(1);
+        let width = |x0: i64, xn: i64| xn.wrapping_sub(x0) as u64;
         match status {
             CurveStatus::InRange => true,
             CurveStatus::BelowRange => {
                 let (x0, xn) = (self.x(0), self.x(last_i));
-                q >= x0.saturating_sub(xn.saturating_sub(x0))
+                x0.wrapping_sub(q) as u64 <= width(x0, xn)
             }
             CurveStatus::AboveRange => {
                 let (x0, xn) = (self.x(0), self.x(last_i));
-                q <= xn.saturating_add(xn.saturating_sub(x0))
+                q.wrapping_sub(xn) as u64 <= width(x0, xn)
             }
         }
     }

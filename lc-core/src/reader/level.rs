@@ -144,7 +144,8 @@ impl<'a> LevelReader<'a> {
     /// The offset at a new temperature, cached.
     #[inline(never)]
     fn new_offset(&mut self, t: CentiCelsius) -> i64 {
-        let h = self.front.drift().factor(t).offset().raw_q40();
+        // `t` passed the plausibility check: inside the model's domain.
+        let h = self.front.drift().factor_in_domain(t).offset().raw_q40();
         self.offset_cache = Some((t, h));
         h
     }

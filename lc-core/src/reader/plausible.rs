@@ -145,12 +145,15 @@ impl FrozenCounter {
     /// Counts `pair`; `true` when it makes a run of at least `limit`.
     #[inline(always)]
     pub fn observe(&mut self, pair: CountPair) -> bool {
-        if pair == self.last {
-            self.run = self.run.saturating_add(1);
-        } else {
+        if pair != self.last {
+            // A run of one is never frozen (a limit of 0 or 1 is off): the
+            // common path stores the pair and returns, no compare of the
+            // limit.
             self.last = pair;
             self.run = 1;
+            return false;
         }
+        self.run = self.run.saturating_add(1);
         self.limit > 1 && self.run >= self.limit
     }
 }
@@ -176,7 +179,9 @@ impl Plausible {
     /// After the fault window and the shift (so that rows the window
     /// rejects neither count nor break a run, and nothing stays live across
     /// the shift): the frozen check of `pair`, then the temperature.
-    /// Returns the temperature to compensate with.
+    /// Returns the temperature to compensate with: `None` when the image
+    /// has no drift model (its correction is none at every temperature),
+    /// otherwise the temperature, inside the domain.
     #[inline(always)]
     pub(crate) fn check(
         &mut self,
@@ -187,7 +192,9 @@ impl Plausible {
             return Err(SensorFault::Frozen);
         }
         if !self.needs_temperature {
-            return Ok(t);
+            // No drift model: its correction is none at any temperature,
+            // so there is nothing to compensate (and nothing to check).
+            return Ok(None);
         }
         let (lo, hi) = TEMPERATURE_DOMAIN;
         match t {
@@ -297,7 +304,7 @@ mod tests {
             let want = if frozen {
                 Err(SensorFault::Frozen)
             } else if b1 == 0 {
-                Ok(t.map(CentiCelsius))
+                Ok(None)
             } else {
                 match t {
                     None => Err(SensorFault::TemperatureMissing),
@@ -331,7 +338,7 @@ mod tests {
         assert_eq!(
             Plausible::new(&TemperatureModel::NONE)
                 .check(CountPair::new(1, 1), Some(CentiCelsius(i32::MAX))),
-            Ok(Some(CentiCelsius(i32::MAX)))
+            Ok(None)
         );
     }
 }
