@@ -145,7 +145,9 @@ impl FrozenCounter {
     /// Counts `pair`; `true` when it makes a run of at least `limit`.
     #[inline(always)]
     pub fn observe(&mut self, pair: CountPair) -> bool {
-        if pair != self.last {
+        // The ticks first: a gated counter's cycles are the gate on every
+        // reading, its ticks what changes.
+        if pair.ticks != self.last.ticks || pair.cycles != self.last.cycles {
             // A run of one is never frozen (a limit of 0 or 1 is off): the
             // common path stores the pair and returns, no compare of the
             // limit.
