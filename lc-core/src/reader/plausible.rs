@@ -70,13 +70,15 @@
 //!   between the span's end and that reach (a target touching the coil,
 //!   drift at rest) read below or above range (or no target) as before.
 //!
-//! Cost per reading (Cortex-M0): the frozen check is two word compares, a
-//! saturating byte increment and a compare, and two stores; the
-//! temperature checks a flag test and two compares; the reference floor
-//! one 64-bit compare; the reach check runs only on a shift or ratio
-//! already out of the curve's range (two node reads from flash and a few
-//! compares). RAM: 11 bytes of [`FrozenCounter`] and flag in each reader's
-//! front (the crate docs, "Memory", give the readers' sizes).
+//! Cost per reading (Cortex-M0): the frozen check is two word compares
+//! and, on a new pair, three stores (on a repeated one a saturating byte
+//! increment and a compare); the temperature checks a flag test and two
+//! compares (without a drift model none, and no drift correction); the
+//! reference floor one 64-bit compare; the reach check runs only on a
+//! shift or ratio already out of the curve's range (two node reads from
+//! flash and a few compares). RAM: 11 bytes of [`FrozenCounter`] and flag
+//! in each reader's front (the crate docs, "Memory", give the readers'
+//! sizes); measured figures in docs/faults.md.
 //!
 //! **Not a safety-rated component.** These checks catch the faults listed,
 //! not every fault; where a reading protects people or machines, the
@@ -222,8 +224,9 @@ pub(crate) fn reference_divisible(r: i64) -> bool {
 /// [x₀ − w, xₙ + w] with w = xₙ − x₀. For a level ratio beyond it the
 /// reference electrode has lost at least half its shift (for a curve
 /// starting at q = 0, empty: q > 2·xₙ); for a shift, the counts are not
-/// this sensor's. Out of line: it runs only on a reading already out of
-/// the curve's range, and keeps the readers' own code small.
+/// this sensor's. The readers run the same check inlined, on a reading
+/// already out of the curve's range (only the end it passed is compared,
+/// on unsigned distances; property-tested equal to this function).
 #[inline(never)]
 pub fn in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
     let n = curve.len();
