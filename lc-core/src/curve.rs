@@ -702,6 +702,35 @@ impl<'a> CurveRef<'a> {
         self.in_segment(&seg, y0, y1, d)
     }
 
+    /// Whether `q`, of status `status` in [`CurveRef::eval`], lies within
+    /// the curve's span extended by the span's width at each end: the
+    /// readers' reach check, as [`in_reach`](crate::reader::in_reach)
+    /// states it (the shifts strictly increase, so the low end is node 0's
+    /// and only the end `q` passed needs a compare). Inlined into the
+    /// readers: the nodes are read only on a reading out of range.
+    ///
+    /// The compares are on the distances, which are positive and exact as
+    /// `u64` (x₀ < xₙ; below the range q < x₀, above it q > xₙ): q ≥ x₀ − w
+    /// is x₀ − q ≤ w, and q ≤ xₙ + w is q − xₙ ≤ w, with the saturating
+    /// bounds' result wherever x₀ − w or xₙ + w leaves the `i64` range
+    /// (then every q is within), and no 64-bit saturation on the way.
+    #[inline(always)]
+    pub(crate) fn within_reach(&self, q: i64, status: CurveStatus) -> bool {
+        let last_i = self.len().saturating_sub(1);
+        let width = |x0: i64, xn: i64| xn.wrapping_sub(x0) as u64;
+        match status {
+            CurveStatus::InRange => true,
+            CurveStatus::BelowRange => {
+                let (x0, xn) = (self.x(0), self.x(last_i));
+                x0.wrapping_sub(q) as u64 <= width(x0, xn)
+            }
+            CurveStatus::AboveRange => {
+                let (x0, xn) = (self.x(0), self.x(last_i));
+                q.wrapping_sub(xn) as u64 <= width(x0, xn)
+            }
+        }
+    }
+
     /// [`CurveRef::eval`] at the whole level `v`, that is at
     /// `geometry::level_to_shift(v)` = v·2^32 on the axis, for a curve on
     /// whole levels ([`CurveRef::on_whole_levels`]; otherwise the general
@@ -1235,7 +1264,7 @@ mod owned {
 /// 0..=95, larger gives 0). On a 32-bit core the shift is done on the two
 /// words, never as a 64-bit library call, and the common shifts, 1..=32,
 /// take one test. Exact under that condition; wraps (no panic) otherwise.
-#[inline]
+#[inline(always)]
 fn round_shr_to_u32(x: u64, sh: u8) -> u32 {
     let (hi, lo) = ((x >> 32) as u32, x as u32);
     let sh = u32::from(sh);
@@ -1764,6 +1793,26 @@ mod tests {
             off[k] = Node::new(Shift::from_raw_q40(off[k].shift.raw_q40() + 1), off[k].value);
             if let Ok(c) = Curve::linear(&off) {
                 prop_assert!(!c.on_whole_levels());
+            }
+        }
+
+        /// The readers' inlined reach check equals `in_reach` on every
+        /// reading out of range.
+        #[test]
+        fn within_reach_is_in_reach((nodes, _) in table(), raw: i64, near: i64) {
+            prop_assume!(nodes.len() >= 2);
+            let Ok(c) = Curve::linear(&nodes) else { return Ok(()) };
+            let view = c.view();
+            let (first, last) = (nodes[0].shift.raw_q40(), nodes[nodes.len() - 1].shift.raw_q40());
+            let w = last.saturating_sub(first);
+            let (lo, hi) = (first.saturating_sub(w), last.saturating_add(w));
+            let ends = [lo, lo.saturating_sub(1), hi, hi.saturating_add(1), first.saturating_sub(1), last.saturating_add(1)];
+            let span = w.saturating_mul(4).max(1);
+            let nears = [first.saturating_add(near % span), last.saturating_add(near % span)];
+            for q in [raw].into_iter().chain(nears).chain(ends) {
+                let status = view.eval(Shift::from_raw_q40(q)).status;
+                let want = status == CurveStatus::InRange || crate::reader::in_reach(q, &view);
+                prop_assert_eq!(view.within_reach(q, status), want, "at {}", q);
             }
         }
 

@@ -285,7 +285,14 @@ fn leading_zeros_words(x: u64) -> u32 {
 /// ratio ([`div_q40`]) and the NTC conversion use it.
 #[inline]
 pub(crate) fn normalise(v: u64) -> (u32, u32) {
-    let Some((z, top, round)) = normalise_parts(v) else {
+    normalise_inline(v)
+}
+
+/// [`normalise`], always inlined: the level reader's ratio, where the
+/// call and its spills would be paid on every reading.
+#[inline(always)]
+fn normalise_inline(v: u64) -> (u32, u32) {
+    let Some((z, top, round)) = normalise_parts_inline(v) else {
         return (0, 32);
     };
     match top.checked_add(round) {
@@ -305,6 +312,12 @@ pub(crate) fn normalise(v: u64) -> (u32, u32) {
 /// caller adds `round` to `top` and, on a carry out, takes 2^31 at z − 1.
 #[inline]
 pub(crate) fn normalise_parts(v: u64) -> Option<(u32, u32, u32)> {
+    normalise_parts_inline(v)
+}
+
+/// [`normalise_parts`], always inlined.
+#[inline(always)]
+fn normalise_parts_inline(v: u64) -> Option<(u32, u32, u32)> {
     let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
     if hi != 0 {
         // 0..=31 for hi ≠ 0: no shift count below is out of range (the
@@ -377,6 +390,12 @@ const RECIPROCAL_NODES: [u32; 259] = {
 /// from 1/T use it.
 #[inline]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
+    reciprocal_q63_inline(m)
+}
+
+/// [`reciprocal_q63`], always inlined (the level reader's ratio).
+#[inline(always)]
+fn reciprocal_q63_inline(m: u32) -> u32 {
     // Normalised by contract. Bits 23..30 pick the interval j, bits 0..22
     // the place u = f/2^23.
     let m = m | (1 << 31);
@@ -433,7 +452,7 @@ pub fn div_q40(a: i64, b: i64) -> Option<i64> {
 /// [`div_q40`] for a positive divisor (the level reader's reference shift,
 /// checked positive first), without the divisor's sign and zero tests; a
 /// zero `b` divides by 1.
-#[inline]
+#[inline(always)]
 pub(crate) fn div_q40_by_positive(a: i64, b: u64) -> Option<i64> {
     let q = quotient_q40(a.unsigned_abs(), b | u64::from(b == 0))?;
     Some(if a < 0 { -q } else { q })
@@ -445,10 +464,10 @@ pub(crate) fn div_q40_by_positive(a: i64, b: u64) -> Option<i64> {
 fn quotient_q40(a: u64, b: u64) -> Option<i64> {
     // a, b ≤ 2^63: a ≈ ma · 2^(32 − za), b ≈ mb · 2^(32 − zb); a = 0 gives
     // ma = 0 and so q = 0.
-    let (ma, za) = normalise(a);
-    let (mb, zb) = normalise(b);
+    let (ma, za) = normalise_inline(a);
+    let (mb, zb) = normalise_inline(b);
     // ma·Y ≈ ma·2^63/mb lies in [2^62, 2^64).
-    let p = mul_u32_wide(ma, reciprocal_q63(mb));
+    let p = mul_u32_wide(ma, reciprocal_q63_inline(mb));
     // a/b ≈ p · 2^(zb − za − 63); in Q.40: p · 2^(zb − za − 23). z ≤ 63.
     // z ≤ 63 each (normalise's contract): the difference cannot wrap.
     let sh = (zb as i32).wrapping_sub(za as i32).wrapping_sub(23);

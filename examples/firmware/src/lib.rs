@@ -14,8 +14,8 @@
 pub mod faults;
 pub mod pipeline;
 pub mod readout;
-pub mod sizes;
 pub mod scan;
+pub mod sizes;
 
 use cortex_m_semihosting::{debug, hio};
 

@@ -224,8 +224,14 @@ impl TemperatureModel {
     /// e times the high word modulo 2^32, which is exact for the high word
     /// of g because |g| < 2^55 (checked at construction). No operand or
     /// product is negated, and on a Cortex-M0 it is five multiplies.
+    #[inline(always)]
     fn g31(&self, t: CentiCelsius) -> i32 {
-        let d = self.delta(t);
+        self.g31_of_delta(self.delta(t))
+    }
+
+    /// [`TemperatureModel::g31`] of ΔT = `d` (|d| ≤ 40 000).
+    #[inline(always)]
+    fn g31_of_delta(&self, d: i32) -> i32 {
         let e = d.unsigned_abs(); // ≤ 40 000 < 2^16
 
         // J = (σ·b1 + (b2 >> 16)·e)·2^16 + (b2 & 0xFFFF)·e, |J| < 2^48.
@@ -261,6 +267,20 @@ impl TemperatureModel {
         }
         // g in Q31: |g| < 1/2 → |g31| ≤ 2^30.
         DriftFactor { g31: self.g31(t) }
+    }
+
+    /// [`TemperatureModel::factor`] for a temperature already checked
+    /// inside [`TEMPERATURE_DOMAIN`] (the readers' plausibility check does
+    /// it before compensating): the clamp left out, and the test for a
+    /// model without coefficients (whose g31 is 0 anyway: `NONE`), the
+    /// same factor.
+    #[inline(always)]
+    pub(crate) fn factor_in_domain(&self, t: CentiCelsius) -> DriftFactor {
+        // In the domain, as the reference is (`new` refuses one outside):
+        // the difference cannot wrap and equals `delta`'s.
+        DriftFactor {
+            g31: self.g31_of_delta(t.0.wrapping_sub(self.reference.0)),
+        }
     }
 
     /// The compensated shift at temperature `t` (clamped to
@@ -590,6 +610,15 @@ mod tests {
             let Ok(m) = TemperatureModel::new(CentiCelsius(r), b1, b2) else { return Ok(()) };
             let t = CentiCelsius(t);
             prop_assert_eq!(i64::from(m.g31(t)), round_asr(m.g_q56(t), 25));
+        }
+
+        /// The readers' factor without the clamp equals the factor at
+        /// every temperature of the domain.
+        #[test]
+        fn factor_in_domain_is_factor(r in -10_000i32..=30_000, b1 in -(1i32 << 24)..(1 << 24), b2 in -(1i32 << 25)..(1 << 25), t in -10_000i32..=30_000) {
+            let Ok(m) = TemperatureModel::new(CentiCelsius(r), b1, b2) else { return Ok(()) };
+            prop_assert_eq!(m.factor_in_domain(CentiCelsius(t)), m.factor(CentiCelsius(t)));
+            prop_assert_eq!(TemperatureModel::NONE.factor_in_domain(CentiCelsius(t)), TemperatureModel::NONE.factor(CentiCelsius(t)));
         }
 
         /// Arbitrary inputs never panic; any accepted model keeps |g| < 1/2.

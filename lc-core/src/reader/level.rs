@@ -144,7 +144,8 @@ impl<'a> LevelReader<'a> {
     /// The offset at a new temperature, cached.
     #[inline(never)]
     fn new_offset(&mut self, t: CentiCelsius) -> i64 {
-        let h = self.front.drift().factor(t).offset().raw_q40();
+        // `t` passed the plausibility check: inside the model's domain.
+        let h = self.front.drift().factor_in_domain(t).offset().raw_q40();
         self.offset_cache = Some((t, h));
         h
     }
@@ -193,7 +194,7 @@ impl<'a> LevelReader<'a> {
             Err(f) => return LevelReading::fault(f),
         };
         let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
-        if v.status != CurveStatus::InRange && !super::in_reach(axis.raw_q40(), &self.curve) {
+        if !self.curve.within_reach(axis.raw_q40(), v.status) {
             return LevelReading::fault(match axis {
                 LevelAxis::Ratio(_) => SensorFault::ReferenceLow,
                 LevelAxis::Shift(_) => SensorFault::OutOfReach,

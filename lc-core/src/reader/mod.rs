@@ -375,12 +375,14 @@ impl Front {
         self.checked_shift(&self.converter, pair, SensorFault::Counts)
     }
 
-    /// The drift correction at `t`, from the cache when `t` is unchanged.
+    /// The drift correction at `t`, from the cache when `t` is unchanged;
+    /// `t` passed the plausibility check (inside the drift model's domain,
+    /// or the image has no drift model).
     pub(crate) fn factor(&mut self, t: CentiCelsius) -> DriftFactor {
         match self.drift_cache {
             Some((last, f)) if last == t => f,
             _ => {
-                let f = self.drift.factor(t);
+                let f = self.drift.factor_in_domain(t);
                 self.drift_cache = Some((t, f));
                 f
             }

@@ -70,13 +70,15 @@
 //!   between the span's end and that reach (a target touching the coil,
 //!   drift at rest) read below or above range (or no target) as before.
 //!
-//! Cost per reading (Cortex-M0): the frozen check is two word compares, a
-//! saturating byte increment and a compare, and two stores; the
-//! temperature checks a flag test and two compares; the reference floor
-//! one 64-bit compare; the reach check runs only on a shift or ratio
-//! already out of the curve's range (two node reads from flash and a few
-//! compares). RAM: 11 bytes of [`FrozenCounter`] and flag in each reader's
-//! front (the crate docs, "Memory", give the readers' sizes).
+//! Cost per reading (Cortex-M0): the frozen check is two word compares
+//! and, on a new pair, three stores (on a repeated one a saturating byte
+//! increment and a compare); the temperature checks a flag test and two
+//! compares (without a drift model none, and no drift correction); the
+//! reference floor one 64-bit compare; the reach check runs only on a
+//! shift or ratio already out of the curve's range (two node reads from
+//! flash and a few compares). RAM: 11 bytes of [`FrozenCounter`] and flag
+//! in each reader's front (the crate docs, "Memory", give the readers'
+//! sizes); measured figures in docs/faults.md.
 //!
 //! **Not a safety-rated component.** These checks catch the faults listed,
 //! not every fault; where a reading protects people or machines, the
@@ -145,12 +147,17 @@ impl FrozenCounter {
     /// Counts `pair`; `true` when it makes a run of at least `limit`.
     #[inline(always)]
     pub fn observe(&mut self, pair: CountPair) -> bool {
-        if pair == self.last {
-            self.run = self.run.saturating_add(1);
-        } else {
+        // The ticks first: a gated counter's cycles are the gate on every
+        // reading, its ticks what changes.
+        if pair.ticks != self.last.ticks || pair.cycles != self.last.cycles {
+            // A run of one is never frozen (a limit of 0 or 1 is off): the
+            // common path stores the pair and returns, no compare of the
+            // limit.
             self.last = pair;
             self.run = 1;
+            return false;
         }
+        self.run = self.run.saturating_add(1);
         self.limit > 1 && self.run >= self.limit
     }
 }
@@ -176,7 +183,9 @@ impl Plausible {
     /// After the fault window and the shift (so that rows the window
     /// rejects neither count nor break a run, and nothing stays live across
     /// the shift): the frozen check of `pair`, then the temperature.
-    /// Returns the temperature to compensate with.
+    /// Returns the temperature to compensate with: `None` when the image
+    /// has no drift model (its correction is none at every temperature),
+    /// otherwise the temperature, inside the domain.
     #[inline(always)]
     pub(crate) fn check(
         &mut self,
@@ -187,7 +196,9 @@ impl Plausible {
             return Err(SensorFault::Frozen);
         }
         if !self.needs_temperature {
-            return Ok(t);
+            // No drift model: its correction is none at any temperature,
+            // so there is nothing to compensate (and nothing to check).
+            return Ok(None);
         }
         let (lo, hi) = TEMPERATURE_DOMAIN;
         match t {
@@ -213,8 +224,9 @@ pub(crate) fn reference_divisible(r: i64) -> bool {
 /// [x₀ − w, xₙ + w] with w = xₙ − x₀. For a level ratio beyond it the
 /// reference electrode has lost at least half its shift (for a curve
 /// starting at q = 0, empty: q > 2·xₙ); for a shift, the counts are not
-/// this sensor's. Out of line: it runs only on a reading already out of
-/// the curve's range, and keeps the readers' own code small.
+/// this sensor's. The readers run the same check inlined, on a reading
+/// already out of the curve's range (only the end it passed is compared,
+/// on unsigned distances; property-tested equal to this function).
 #[inline(never)]
 pub fn in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
     let n = curve.len();
@@ -297,7 +309,7 @@ mod tests {
             let want = if frozen {
                 Err(SensorFault::Frozen)
             } else if b1 == 0 {
-                Ok(t.map(CentiCelsius))
+                Ok(None)
             } else {
                 match t {
                     None => Err(SensorFault::TemperatureMissing),
@@ -331,7 +343,7 @@ mod tests {
         assert_eq!(
             Plausible::new(&TemperatureModel::NONE)
                 .check(CountPair::new(1, 1), Some(CentiCelsius(i32::MAX))),
-            Ok(Some(CentiCelsius(i32::MAX)))
+            Ok(None)
         );
     }
 }

@@ -75,7 +75,7 @@ impl<'a> ProximityReader<'a> {
             Err(f) => return ProximityReading::fault(f),
         };
         let v = self.curve.eval(s);
-        if v.status != CurveStatus::InRange && !super::in_reach(s.raw_q40(), &self.curve) {
+        if !self.curve.within_reach(s.raw_q40(), v.status) {
             return ProximityReading::fault(SensorFault::OutOfReach);
         }
         // The far end of the table is the high one when the values rise.

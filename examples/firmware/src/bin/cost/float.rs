@@ -54,9 +54,9 @@ impl<const N: usize> FloatCurve<N> {
         // The segment's tangent terms w·dy/dx, as the image stores them
         // (Q8 output units): independent of the x unit.
         let terms = |i: usize| {
-            table
-                .tangent_terms_q8(i)
-                .map_or((0.0, 0.0), |(a, b)| (f64::from(a) / 256.0, f64::from(b) / 256.0))
+            table.tangent_terms_q8(i).map_or((0.0, 0.0), |(a, b)| {
+                (f64::from(a) / 256.0, f64::from(b) / 256.0)
+            })
         };
         for i in 0..N {
             // f64 → f32: rounds to nearest, as an f32 calibration would.
