@@ -30,17 +30,17 @@
 /* 32-bit targets: Cortex-M0 (thumbv6m-none-eabi), Cortex-M4F
    (thumbv7em-none-eabihf). */
 #define LC_IMAGE_WORDS 2
-#define LC_PROXIMITY_READER_WORDS 20
-#define LC_LEVEL_READER_WORDS 30
-#define LC_METAL_READER_WORDS 30
-#define LC_READER_WORDS 31
+#define LC_PROXIMITY_READER_WORDS 18
+#define LC_LEVEL_READER_WORDS 28
+#define LC_METAL_READER_WORDS 28
+#define LC_READER_WORDS 29
 #elif UINTPTR_MAX == 0xFFFFFFFFFFFFFFFFu
 /* 64-bit hosts. */
 #define LC_IMAGE_WORDS 3
-#define LC_PROXIMITY_READER_WORDS 23
-#define LC_LEVEL_READER_WORDS 37
-#define LC_METAL_READER_WORDS 30
-#define LC_READER_WORDS 38
+#define LC_PROXIMITY_READER_WORDS 21
+#define LC_LEVEL_READER_WORDS 35
+#define LC_METAL_READER_WORDS 28
+#define LC_READER_WORDS 36
 #else
 #error "lc_core.h: storage sizes are known for 32-bit and 64-bit targets only"
 #endif
@@ -530,6 +530,31 @@ enum lc_fault_t
    positive): the level ratio is undefined.
    */
   LC_FAULT_REFERENCE = 64,
+  /*
+   The level reference electrode's shift is positive but too small to
+   divide by, or the ratio lies beyond the curve's reach: a nearly dry
+   electrode.
+   */
+  LC_FAULT_REFERENCE_LOW = 65,
+  /*
+   The same count pair the reader's frozen limit times in a row
+   (default 255): a counter or capture that stopped updating.
+   */
+  LC_FAULT_FROZEN = 80,
+  /*
+   A temperature outside the drift model's domain, the image having a
+   drift model.
+   */
+  LC_FAULT_TEMPERATURE_OUT_OF_DOMAIN = 81,
+  /*
+   No temperature, the image having a drift model.
+   */
+  LC_FAULT_TEMPERATURE_MISSING = 82,
+  /*
+   The shift lies beyond the curve's span by more than the span's
+   width: not this sensor's counts (a channel swap, a wrong image).
+   */
+  LC_FAULT_OUT_OF_REACH = 83,
 };
 #ifndef __cplusplus
 #if __STDC_VERSION__ >= 202311L
