@@ -9,12 +9,14 @@
       end-of-line rig writes it into the unit's flash. Here it sits in a
       section of its own, .calibration, at the start of the last 4 KiB
       page (link.ld, src/image.S), 4-byte aligned.
-   2. Validate. lc_image_validate checks the magic, format version,
-      length, CRC-32, every field and every curve segment, in place: the
-      image stays in flash. A unit whose image fails must not read.
+   2. Validate. lc_image_validate_proximity (_level, _metal) checks the
+      magic, format version, length, CRC-32, every field and every curve
+      segment, in place, and the image's kind: the image stays in flash,
+      and only this kind's checks are linked in (lc_image_validate checks
+      any kind). A unit whose image fails must not read.
    3. Build the reader in storage of its own (here main's frame; a static
-      works as well): lc_*_reader_init validates the image again, checks
-      its kind and borrows the curve from flash. The lc_image_t (where the
+      works as well): lc_*_reader_init checks its kind and borrows the
+      curve from flash. The lc_image_t (where the
       image is) is needed only until then. Start-up and the read loop are
       functions of their own, so that their locals are never on the
       stack together.
@@ -41,10 +43,18 @@
 /* The image's bounds (src/image.S). */
 extern const uint8_t lc_unit_image[], lc_unit_image_end[];
 
-/* Where the image is, validated; the unit stops when it is refused. */
+/* This unit's kind of image, validated in place; the unit stops when it
+   is refused. */
+#if defined(UNIT_PROXIMITY)
+#define VALIDATE lc_image_validate_proximity
+#elif defined(UNIT_LEVEL)
+#define VALIDATE lc_image_validate_level
+#else
+#define VALIDATE lc_image_validate_metal
+#endif
+
 static void validate(lc_image_t *image) {
-  if (lc_image_validate(image, lc_unit_image, (size_t)(lc_unit_image_end - lc_unit_image)) !=
-      LC_OK) {
+  if (VALIDATE(image, lc_unit_image, (size_t)(lc_unit_image_end - lc_unit_image)) != LC_OK) {
     host_fail("calibration image refused\n");
   }
 }

@@ -36,7 +36,7 @@
 #define LC_READER_WORDS 29
 #elif UINTPTR_MAX == 0xFFFFFFFFFFFFFFFFu
 /* 64-bit hosts. */
-#define LC_IMAGE_WORDS 3
+#define LC_IMAGE_WORDS 4
 #define LC_PROXIMITY_READER_WORDS 21
 #define LC_LEVEL_READER_WORDS 35
 #define LC_METAL_READER_WORDS 28
@@ -594,15 +594,12 @@ typedef uint8_t lc_metal_class_t;
 #endif // __cplusplus
 
 /*
- A validated calibration image (`lc_image_validate`): where its bytes
- are, no more (`LC_IMAGE_SIZE` bytes, aligned to `LC_STORAGE_ALIGN`;
- opaque). Each `*_init` validates the bytes again and derives the
- reader from them: the validated image's constants (248 bytes on a
- 32-bit target) never sit in RAM beside the reader, which keeps the
- start-up stack near the Rust firmware's, at the price of a second
- validation per reader built (about 23 000 Cortex-M0 instructions for
- a 32-node cubic image). Needed only while the readers are built; the
- readers borrow the image's bytes, not this.
+ A validated calibration image (`lc_image_validate` or a one-kind
+ `lc_image_validate_*`): a view of its bytes read in place, no more
+ (`LC_IMAGE_SIZE` bytes, aligned to `LC_STORAGE_ALIGN`; opaque). Each
+ `*_init` builds its reader from it without validating again. Needed
+ only while the readers are built; the readers borrow the image's
+ bytes, not this.
  */
 typedef struct lc_image_t {
   uint64_t opaque[LC_IMAGE_WORDS];
@@ -953,11 +950,45 @@ lc_error_t lc_image_validate(struct lc_image_t *image,
                              size_t len);
 
 /*
+ [`lc_image_validate`] for a proximity unit's firmware: the same checks,
+ an image of another kind refused (`LC_ERR_IMAGE_FIELD_OUT_OF_RANGE`,
+ the reader kind), and only the proximity checks linked in (the other
+ kinds' code stays out of the firmware's flash).
+
+ # Safety
+ As [`lc_image_validate`].
+ */
+lc_error_t lc_image_validate_proximity(struct lc_image_t *image,
+                                       const uint8_t *bytes,
+                                       size_t len);
+
+/*
+ [`lc_image_validate`] for a level unit's firmware (as
+ [`lc_image_validate_proximity`]).
+
+ # Safety
+ As [`lc_image_validate`].
+ */
+lc_error_t lc_image_validate_level(struct lc_image_t *image,
+                                   const uint8_t *bytes,
+                                   size_t len);
+
+/*
+ [`lc_image_validate`] for a metal detector's firmware (as
+ [`lc_image_validate_proximity`]).
+
+ # Safety
+ As [`lc_image_validate`].
+ */
+lc_error_t lc_image_validate_metal(struct lc_image_t *image,
+                                   const uint8_t *bytes,
+                                   size_t len);
+
+/*
  What a validated image holds: kind, serial, output scales, length,
- CRC, reference clock, gate (the image is validated again: start-up
- only). Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
- `LC_ERR_NOT_INITIALISED` (`image` not validated), an
- `LC_ERR_IMAGE_*` code when the bytes changed since.
+ CRC, reference clock, gate, read from the image's bytes. Errors:
+ `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
+ `LC_ERR_NOT_INITIALISED` (`image` not validated).
 
  # Safety
  `image` points to `lc_image_t` storage, `info` to a writable
@@ -969,10 +1000,10 @@ lc_error_t lc_image_info(const struct lc_image_t *image,
 /*
  Builds a proximity reader from a validated image into `reader`.
  Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
- `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`,
- an `LC_ERR_IMAGE_*` code when the bytes changed since they were
- validated. Cost: the image validated again (as `lc_image_validate`),
- start-up only; the reader borrows the curve from the image's bytes.
+ `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`.
+ Cost: the reader's front built from the image's fields (no
+ validation; start-up only); the reader borrows the curve from the
+ image's bytes.
 
  # Safety
  `reader` points to writable `lc_proximity_reader_t` storage, `image`
@@ -1021,8 +1052,7 @@ lc_error_t lc_level_read(struct lc_level_reader_t *reader,
 
 /*
  Builds a metal reader from a validated image into `reader`. Errors:
- as `lc_proximity_reader_init`. Cost: the image validated again and
- two small divisions (the thresholds); the reader needs nothing from
+ as `lc_proximity_reader_init`. Cost: two small divisions (the thresholds); the reader needs nothing from
  the image afterwards.
 
  # Safety

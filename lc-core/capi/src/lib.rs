@@ -716,17 +716,21 @@ pub struct lc_image_info_t {
 // ---------------------------------------------------------------------
 // Storage.
 
-/// What `lc_image_t` holds: the bytes of an image that validated.
+/// What `lc_image_t` holds: the view of an image that validated (12
+/// bytes on a 32-bit target: where the bytes are, and the kind).
 #[derive(Clone, Copy)]
 struct ImageRef {
-    bytes: &'static [u8],
+    image: Image<'static>,
 }
 
-/// Validates `bytes`; the `Image` itself is dropped (a function of its
-/// own: its 248 bytes are on the stack only while it runs).
+/// Validates `bytes` with `check` (`Image::new` or a one-kind
+/// `Image::new_*`).
 #[inline(never)]
-fn validated(bytes: &'static [u8]) -> Result<ImageRef, ImageError> {
-    Image::new(bytes).map(|_| ImageRef { bytes })
+fn validated(
+    bytes: &'static [u8],
+    check: fn(&'static [u8]) -> Result<Image<'static>, ImageError>,
+) -> Result<ImageRef, ImageError> {
+    check(bytes).map(|image| ImageRef { image })
 }
 
 /// A value in caller-provided storage: a tag word that says the storage
@@ -765,15 +769,12 @@ pub const LC_METAL_READER_WORDS: usize = words::<Result<MetalReader, ReaderError
 /// cbindgen:ignore
 pub const LC_READER_WORDS: usize = words::<Result<Reader<'static>, ReaderError>>();
 
-/// A validated calibration image (`lc_image_validate`): where its bytes
-/// are, no more (`LC_IMAGE_SIZE` bytes, aligned to `LC_STORAGE_ALIGN`;
-/// opaque). Each `*_init` validates the bytes again and derives the
-/// reader from them: the validated image's constants (248 bytes on a
-/// 32-bit target) never sit in RAM beside the reader, which keeps the
-/// start-up stack near the Rust firmware's, at the price of a second
-/// validation per reader built (about 23 000 Cortex-M0 instructions for
-/// a 32-node cubic image). Needed only while the readers are built; the
-/// readers borrow the image's bytes, not this.
+/// A validated calibration image (`lc_image_validate` or a one-kind
+/// `lc_image_validate_*`): a view of its bytes read in place, no more
+/// (`LC_IMAGE_SIZE` bytes, aligned to `LC_STORAGE_ALIGN`; opaque). Each
+/// `*_init` builds its reader from it without validating again. Needed
+/// only while the readers are built; the readers borrow the image's
+/// bytes, not this.
 #[repr(C)]
 pub struct lc_image_t {
     opaque: [u64; LC_IMAGE_WORDS],
@@ -997,6 +998,67 @@ pub unsafe extern "C" fn lc_image_validate(
     bytes: *const u8,
     len: usize,
 ) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe { validate_with(image, bytes, len, Image::new) }
+}
+
+/// [`lc_image_validate`] for a proximity unit's firmware: the same checks,
+/// an image of another kind refused (`LC_ERR_IMAGE_FIELD_OUT_OF_RANGE`,
+/// the reader kind), and only the proximity checks linked in (the other
+/// kinds' code stays out of the firmware's flash).
+///
+/// # Safety
+/// As [`lc_image_validate`].
+#[no_mangle]
+pub unsafe extern "C" fn lc_image_validate_proximity(
+    image: *mut lc_image_t,
+    bytes: *const u8,
+    len: usize,
+) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe { validate_with(image, bytes, len, Image::new_proximity) }
+}
+
+/// [`lc_image_validate`] for a level unit's firmware (as
+/// [`lc_image_validate_proximity`]).
+///
+/// # Safety
+/// As [`lc_image_validate`].
+#[no_mangle]
+pub unsafe extern "C" fn lc_image_validate_level(
+    image: *mut lc_image_t,
+    bytes: *const u8,
+    len: usize,
+) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe { validate_with(image, bytes, len, Image::new_level) }
+}
+
+/// [`lc_image_validate`] for a metal detector's firmware (as
+/// [`lc_image_validate_proximity`]).
+///
+/// # Safety
+/// As [`lc_image_validate`].
+#[no_mangle]
+pub unsafe extern "C" fn lc_image_validate_metal(
+    image: *mut lc_image_t,
+    bytes: *const u8,
+    len: usize,
+) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe { validate_with(image, bytes, len, Image::new_metal) }
+}
+
+/// The validation entry points' body, `check` the lc-core validation.
+///
+/// # Safety
+/// As [`lc_image_validate`].
+unsafe fn validate_with(
+    image: *mut lc_image_t,
+    bytes: *const u8,
+    len: usize,
+    check: fn(&'static [u8]) -> Result<Image<'static>, ImageError>,
+) -> lc_error_t {
     code(|| {
         arg(image)?;
         // SAFETY: `image` checked; its first word is the tag.
@@ -1010,25 +1072,22 @@ pub unsafe extern "C" fn lc_image_validate(
         // that promise).
         let bytes: &'static [u8] = unsafe { core::slice::from_raw_parts(bytes, len) };
         // SAFETY: `image` checked; `lc_image_t` holds the slot.
-        unsafe { emplace(image, TAG_IMAGE, || validated(bytes)) }.map_err(image_error)
+        unsafe { emplace(image, TAG_IMAGE, || validated(bytes, check)) }.map_err(image_error)
     })
 }
 
-/// The bytes of the validated image in `image`.
+/// The validated image in `image`.
 ///
 /// # Safety
 /// As [`load`].
-unsafe fn image_bytes(image: *const lc_image_t) -> Result<&'static [u8], lc_error_t> {
+unsafe fn image_of(image: *const lc_image_t) -> Result<Image<'static>, lc_error_t> {
     arg(image)?;
     // SAFETY: `image` checked; only read.
-    unsafe { load::<_, ImageRef, ImageError>(image.cast_mut(), TAG_IMAGE).map(|i| i.bytes) }
+    unsafe { load::<_, ImageRef, ImageError>(image.cast_mut(), TAG_IMAGE).map(|i| i.image) }
 }
 
-/// Validates the image in `image` again and builds a reader from it
-/// into `reader` with `new`. Two functions of their own, so that the
-/// validated image (on this frame) and the reader being built (on
-/// [`emplace_with`]'s) are on the stack only once `Image::new` has
-/// returned.
+/// Builds a reader from the validated image in `image` into `reader`
+/// with `new` (the reader built in place, in [`emplace_with`]'s frame).
 ///
 /// # Safety
 /// `reader` is valid for writes of `S`, which holds a
@@ -1044,16 +1103,9 @@ unsafe fn build<S, T>(
     // SAFETY: `reader` checked.
     unsafe { clear(reader) };
     // SAFETY: the caller's contract.
-    let bytes = unsafe { image_bytes(image)? };
-    // Borrowed where `Image::new` built it: moved out of the `Result` it
-    // would be on the stack twice.
-    let validated = Image::new(bytes);
-    let image = match &validated {
-        Ok(image) => image,
-        Err(e) => return Err(image_error(*e)),
-    };
+    let image = unsafe { image_of(image)? };
     // SAFETY: the caller's contract.
-    unsafe { emplace_with(reader, tag, image, new) }.map_err(reader_error)
+    unsafe { emplace_with(reader, tag, &image, new) }.map_err(reader_error)
 }
 
 /// [`emplace`] of `new(image)`.
@@ -1072,10 +1124,9 @@ unsafe fn emplace_with<S, T>(
 }
 
 /// What a validated image holds: kind, serial, output scales, length,
-/// CRC, reference clock, gate (the image is validated again: start-up
-/// only). Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
-/// `LC_ERR_NOT_INITIALISED` (`image` not validated), an
-/// `LC_ERR_IMAGE_*` code when the bytes changed since.
+/// CRC, reference clock, gate, read from the image's bytes. Errors:
+/// `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
+/// `LC_ERR_NOT_INITIALISED` (`image` not validated).
 ///
 /// # Safety
 /// `image` points to `lc_image_t` storage, `info` to a writable
@@ -1087,13 +1138,8 @@ pub unsafe extern "C" fn lc_image_info(
 ) -> lc_error_t {
     code(|| {
         // SAFETY: the caller's contract.
-        let bytes = unsafe { image_bytes(image)? };
+        let image = unsafe { image_of(image)? };
         arg(info)?;
-        let validated = Image::new(bytes);
-        let image = match &validated {
-            Ok(image) => image,
-            Err(e) => return Err(image_error(*e)),
-        };
         let mut serial = [0u8; 17];
         for (d, s) in serial.iter_mut().zip(image.serial().bytes().take(16)) {
             *d = s;
@@ -1120,10 +1166,10 @@ pub unsafe extern "C" fn lc_image_info(
 
 /// Builds a proximity reader from a validated image into `reader`.
 /// Errors: `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
-/// `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`,
-/// an `LC_ERR_IMAGE_*` code when the bytes changed since they were
-/// validated. Cost: the image validated again (as `lc_image_validate`),
-/// start-up only; the reader borrows the curve from the image's bytes.
+/// `LC_ERR_NOT_INITIALISED` (`image` not validated), `LC_ERR_WRONG_KIND`.
+/// Cost: the reader's front built from the image's fields (no
+/// validation; start-up only); the reader borrows the curve from the
+/// image's bytes.
 ///
 /// # Safety
 /// `reader` points to writable `lc_proximity_reader_t` storage, `image`
@@ -1212,8 +1258,7 @@ pub unsafe extern "C" fn lc_level_read(
 }
 
 /// Builds a metal reader from a validated image into `reader`. Errors:
-/// as `lc_proximity_reader_init`. Cost: the image validated again and
-/// two small divisions (the thresholds); the reader needs nothing from
+/// as `lc_proximity_reader_init`. Cost: two small divisions (the thresholds); the reader needs nothing from
 /// the image afterwards.
 ///
 /// # Safety

@@ -13,7 +13,7 @@
 //! cargo build --profile release-checked --target thumbv7em-none-eabihf
 //! ```
 //!
-//! Entry points: `lc_image_validate`, `lc_image_info`,
+//! Entry points: `lc_image_validate` (and its one-kind variants), `lc_image_info`,
 //! `lc_proximity_reader_init` / `lc_proximity_read`, `lc_level_reader_init`
 //! / `lc_level_read`, `lc_metal_reader_init` / `lc_metal_read`,
 //! `lc_reader_init` / `lc_reader_read`, `lc_check_layout`. It is only
@@ -52,6 +52,9 @@ fn main() -> ! {
     unsafe {
         let bytes = black_box(BYTES.as_ptr().cast::<u8>());
         sum ^= lc_image_validate(image, bytes, black_box(32)) as u32;
+        sum ^= lc_image_validate_proximity(image, bytes, black_box(32)) as u32;
+        sum ^= lc_image_validate_level(image, bytes, black_box(32)) as u32;
+        sum ^= lc_image_validate_metal(image, bytes, black_box(32)) as u32;
         sum ^= lc_image_info(image, black_box(info.as_mut_ptr())) as u32;
         let prox = black_box(prox.as_mut_ptr());
         let level = black_box(level.as_mut_ptr());

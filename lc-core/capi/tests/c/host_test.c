@@ -364,6 +364,32 @@ int main(int argc, char **argv) {
     printf("== %s\n", names[k]);
     read_script(kinds[k], &images[k], inputs[k], counts[k]);
   }
+  /* The one-kind validations: each accepts its own kind, refuses the
+     others, and checks the arguments as lc_image_validate does. */
+  typedef lc_error_t (*validate_fn)(lc_image_t *, const uint8_t *, size_t);
+  static const validate_fn one_kind[3] = {lc_image_validate_proximity, lc_image_validate_level,
+                                          lc_image_validate_metal};
+  for (int v = 0; v < 3; v++) {
+    for (int k = 0; k < 3; k++) {
+      lc_image_t image;
+      lc_error_t e = one_kind[v](&image, bytes[k], lens[k]);
+      if (v == k) {
+        EXPECT(e, LC_OK);
+        lc_image_info_t info;
+        EXPECT(lc_image_info(&image, &info), LC_OK);
+        CHECK(info.kind == kinds[k]);
+      } else {
+        EXPECT(e, LC_ERR_IMAGE_FIELD_READER_KIND);
+        lc_proximity_reader_t reader;
+        EXPECT(lc_proximity_reader_init(&reader, &image), LC_ERR_NOT_INITIALISED);
+      }
+    }
+    lc_image_t image;
+    EXPECT(one_kind[v](NULL, bytes[v], lens[v]), LC_ERR_NULL_POINTER);
+    EXPECT(one_kind[v](&image, NULL, lens[v]), LC_ERR_NULL_POINTER);
+    EXPECT(one_kind[v](&image, bytes[v], SIZE_MAX), LC_ERR_BAD_LENGTH);
+    EXPECT(one_kind[v](&image, bytes[v], 10), LC_ERR_IMAGE_TRUNCATED);
+  }
   for (int k = 0; k < 3; k++) {
     bad_images(bytes[k], lens[k]);
   }
