@@ -13,6 +13,7 @@
 //!   log `lc-host convert` reads giving the unit's readings; a TCP link
 //!   that drops and comes back.
 
+mod support;
 use lc_core::counting::CountPair;
 use lc_core::image::{Calibration, ReaderKind};
 use lc_core::link::{Counts, Encoder, Hello, ReadingRecord, Record, Thermal};
@@ -21,6 +22,7 @@ use lc_core::temperature::CentiCelsius;
 use lc_host::link::{Decoder, Event};
 use std::path::{Path, PathBuf};
 use std::process::Command;
+use support::raw_units;
 
 /// SplitMix64: the tests' own seeded source of damage (its constants are
 /// common practice; any fixed seeded generator would do).
@@ -522,17 +524,4 @@ fn the_image_comes_from_the_unit_database_by_serial_and_crc() {
         (Some(0), Some(10))
     );
     std::fs::remove_dir_all(&dir).unwrap();
-}
-
-/// A value column of `lc-host convert` (physical units, the image's exact
-/// decimal digits) as the reading's raw integer: the digits without the
-/// decimal point ("0.001216" m is 1216 µm). Empty stays empty.
-fn raw_units(s: &str) -> String {
-    if s.is_empty() {
-        return String::new();
-    }
-    s.replace('.', "")
-        .parse::<i64>()
-        .expect("a decimal value")
-        .to_string()
 }

@@ -15,6 +15,7 @@
 //! Needs `qemu-system-arm` and the `thumbv6m-none-eabi` target: skipped
 //! with a note without them, a failure with `CI` set.
 
+mod support;
 use std::env;
 use std::ffi::OsString;
 use std::io::{BufRead, BufReader};
@@ -22,6 +23,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::sync::mpsc;
 use std::time::Duration;
+use support::raw_units;
 
 const TRIPLE: &str = "thumbv6m-none-eabi";
 
@@ -263,17 +265,4 @@ fn firmware_streams_and_the_listener_records_its_readings() {
         rows.len()
     );
     std::fs::remove_dir_all(&record).unwrap();
-}
-
-/// A value column of `lc-host convert` (physical units, the image's exact
-/// decimal digits) as the reading's raw integer: the digits without the
-/// decimal point ("0.001216" m is 1216 µm). Empty stays empty.
-fn raw_units(s: &str) -> String {
-    if s.is_empty() {
-        return String::new();
-    }
-    s.replace('.', "")
-        .parse::<i64>()
-        .expect("a decimal value")
-        .to_string()
 }
