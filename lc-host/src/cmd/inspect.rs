@@ -199,15 +199,18 @@ pub fn run(a: Args) -> Result<()> {
     let crc = CRC32.checksum(bytes.get(..len.saturating_sub(4)).unwrap_or(&[]));
     let trailing = Trailing::of(&bytes, len);
     // Bytes after a whole image: lc-core refuses them (unless erased); say
-    // what they are when the image before them is sound.
-    let whole_image_first = bytes
-        .get(..len)
-        .is_some_and(|b| Calibration::parse(b).is_ok());
-    if let (Trailing::Data(n), true) = (trailing, whole_image_first) {
-        bail!(
+    // what they are when the image before them is sound (validated again
+    // only in that case).
+    if let Trailing::Data(n) = trailing {
+        if bytes
+            .get(..len)
+            .is_some_and(|b| Calibration::parse(b).is_ok())
+        {
+            bail!(
             "{}: {n} bytes follow the image's stated length of {len} bytes and are not erased flash (0xFF): the file is not one image (two images concatenated, or other data); cut it to its first {len} bytes, or export the image again with `lc-host units export`",
-            a.image.display()
-        );
+                a.image.display()
+            );
+        }
     }
     let cal = loaded?;
     if a.json {
