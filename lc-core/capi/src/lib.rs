@@ -734,8 +734,8 @@ fn validated(
 }
 
 /// A value in caller-provided storage: a tag word that says the storage
-/// holds an initialised value, then the value (as the `Result` that built
-/// it, so that it is built in place).
+/// holds an initialised value, then the value (a reader is built in it in
+/// place, by lc-core's `init` constructors).
 #[repr(C)]
 struct Slot<T> {
     tag: u32,
@@ -758,16 +758,15 @@ const TAG_METAL: u32 = 0x544D_434C; // "LCMT"
 const TAG_READER: u32 = 0x4452_434C; // "LCRD"
 
 /// cbindgen:ignore
-pub const LC_IMAGE_WORDS: usize = words::<Result<ImageRef, ImageError>>();
+pub const LC_IMAGE_WORDS: usize = words::<ImageRef>();
 /// cbindgen:ignore
-pub const LC_PROXIMITY_READER_WORDS: usize =
-    words::<Result<ProximityReader<'static>, ReaderError>>();
+pub const LC_PROXIMITY_READER_WORDS: usize = words::<ProximityReader<'static>>();
 /// cbindgen:ignore
-pub const LC_LEVEL_READER_WORDS: usize = words::<Result<LevelReader<'static>, ReaderError>>();
+pub const LC_LEVEL_READER_WORDS: usize = words::<LevelReader<'static>>();
 /// cbindgen:ignore
-pub const LC_METAL_READER_WORDS: usize = words::<Result<MetalReader, ReaderError>>();
+pub const LC_METAL_READER_WORDS: usize = words::<MetalReader>();
 /// cbindgen:ignore
-pub const LC_READER_WORDS: usize = words::<Result<Reader<'static>, ReaderError>>();
+pub const LC_READER_WORDS: usize = words::<Reader<'static>>();
 
 /// A validated calibration image (`lc_image_validate` or a one-kind
 /// `lc_image_validate_*`): a view of its bytes read in place, no more
@@ -823,14 +822,11 @@ const _: () = {
             assert!(align_of::<Slot<$t>>() <= LC_STORAGE_ALIGN);
         };
     }
-    holds!(lc_image_t, Result<ImageRef, ImageError>);
-    holds!(
-        lc_proximity_reader_t,
-        Result<ProximityReader<'static>, ReaderError>
-    );
-    holds!(lc_level_reader_t, Result<LevelReader<'static>, ReaderError>);
-    holds!(lc_metal_reader_t, Result<MetalReader, ReaderError>);
-    holds!(lc_reader_t, Result<Reader<'static>, ReaderError>);
+    holds!(lc_image_t, ImageRef);
+    holds!(lc_proximity_reader_t, ProximityReader<'static>);
+    holds!(lc_level_reader_t, LevelReader<'static>);
+    holds!(lc_metal_reader_t, MetalReader);
+    holds!(lc_reader_t, Reader<'static>);
 };
 
 /// The storage sizes and alignment of this build, bytes: what the
@@ -880,49 +876,27 @@ fn arg<T>(p: *const T) -> Result<(), lc_error_t> {
     }
 }
 
-/// Builds a value in place in the storage at `p` (checked by [`arg`]):
-/// `make`'s `Result` is written straight into the storage (no copy of
-/// the value on the stack, which matters on a small part's stack), and
-/// the tag set to `tag` when it is `Ok`, to 0 when it is an error.
+/// The value slot of the storage at `p` (checked by [`arg`]), to be
+/// written.
 ///
 /// # Safety
-/// `p` is valid for writes of `S`, which holds a `Slot<Result<T, E>>`
-/// (the `const` checks above).
-unsafe fn emplace<S, T, E: Copy>(
-    p: *mut S,
-    tag: u32,
-    make: impl FnOnce() -> Result<T, E>,
-) -> Result<(), E> {
-    let slot = p.cast::<Slot<Result<T, E>>>();
+/// `p` is valid for writes of `S`, which holds a `Slot<T>` (the `const`
+/// checks above), and not used elsewhere during the borrow.
+unsafe fn slot<'a, S, T>(p: *mut S) -> &'a mut MaybeUninit<T> {
+    let slot = p.cast::<Slot<T>>();
     // SAFETY: the caller's contract: the slot's fields are in bounds and
-    // aligned; the value's bytes are written before they are read.
-    unsafe {
-        let value = &mut *ptr::addr_of_mut!((*slot).value).cast::<MaybeUninit<Result<T, E>>>();
-        let tag_at = ptr::addr_of_mut!((*slot).tag);
-        match fill(value, make) {
-            Ok(_) => {
-                tag_at.write(tag);
-                Ok(())
-            }
-            Err(e) => {
-                tag_at.write(0);
-                Err(*e)
-            }
-        }
-    }
+    // aligned; `MaybeUninit` makes no claim on the bytes.
+    unsafe { &mut *ptr::addr_of_mut!((*slot).value).cast::<MaybeUninit<T>>() }
 }
 
-/// `make`'s result written into `dst`. A function of its own, whose
-/// `dst` is a unique reference: the optimiser then has `make` build its
-/// result in `dst` itself, not in a temporary on the stack.
-#[inline(always)]
-fn fill<T, E>(
-    dst: &mut MaybeUninit<Result<T, E>>,
-    make: impl FnOnce() -> Result<T, E>,
-) -> &mut Result<T, E> {
-    *dst = MaybeUninit::new(make());
-    // SAFETY: written just above.
-    unsafe { dst.assume_init_mut() }
+/// Marks the storage at `p` as holding an initialised value (written
+/// into [`slot`]).
+///
+/// # Safety
+/// `p` as for [`slot`]; the value has been written.
+unsafe fn set_tag<S, T>(p: *mut S, tag: u32) {
+    // SAFETY: the caller's contract: the tag is the slot's first field.
+    unsafe { ptr::addr_of_mut!((*p.cast::<Slot<T>>()).tag).write(tag) }
 }
 
 /// Marks the storage at `p` as not initialised.
@@ -938,21 +912,18 @@ unsafe fn clear<S>(p: *mut S) {
 ///
 /// # Safety
 /// `p` (checked by [`arg`]) is valid for reads and writes of `S` and not
-/// used elsewhere during the borrow; storage whose tag is `tag` was
-/// written by [`emplace`] with a `Result<T, E>`.
-unsafe fn load<'a, S, T, E>(p: *mut S, tag: u32) -> Result<&'a mut T, lc_error_t> {
-    let slot = p.cast::<Slot<Result<T, E>>>();
+/// used elsewhere during the borrow; storage whose tag is `tag` holds an
+/// initialised `T` (written through [`slot`], then [`set_tag`]).
+unsafe fn load<'a, S, T>(p: *mut S, tag: u32) -> Result<&'a mut T, lc_error_t> {
+    let slot = p.cast::<Slot<T>>();
     // SAFETY: the tag word is plain bytes, readable whatever the storage
-    // holds; with the right tag the slot holds an `Ok` (the caller's
+    // holds; with the right tag the slot holds a `T` (the caller's
     // contract).
     unsafe {
         if ptr::read(ptr::addr_of!((*slot).tag)) != tag {
             return Err(LC_ERR_NOT_INITIALISED);
         }
-        match &mut *ptr::addr_of_mut!((*slot).value) {
-            Ok(v) => Ok(v),
-            Err(_) => Err(LC_ERR_NOT_INITIALISED),
-        }
+        Ok(&mut *ptr::addr_of_mut!((*slot).value))
     }
 }
 
@@ -1071,8 +1042,14 @@ unsafe fn validate_with(
         // unchanged while the image is in use (the `'static` stands for
         // that promise).
         let bytes: &'static [u8] = unsafe { core::slice::from_raw_parts(bytes, len) };
-        // SAFETY: `image` checked; `lc_image_t` holds the slot.
-        unsafe { emplace(image, TAG_IMAGE, || validated(bytes, check)) }.map_err(image_error)
+        let value = validated(bytes, check).map_err(image_error)?;
+        // SAFETY: `image` checked; `lc_image_t` holds the slot; the value
+        // written, then the tag.
+        unsafe {
+            slot(image).write(value);
+            set_tag::<_, ImageRef>(image, TAG_IMAGE);
+        }
+        Ok(())
     })
 }
 
@@ -1083,44 +1060,41 @@ unsafe fn validate_with(
 unsafe fn image_of(image: *const lc_image_t) -> Result<Image<'static>, lc_error_t> {
     arg(image)?;
     // SAFETY: `image` checked; only read.
-    unsafe { load::<_, ImageRef, ImageError>(image.cast_mut(), TAG_IMAGE).map(|i| i.image) }
+    unsafe { load::<_, ImageRef>(image.cast_mut(), TAG_IMAGE).map(|i| i.image) }
 }
 
 /// Builds a reader from the validated image in `image` into `reader`
-/// with `new` (the reader built in place, in [`emplace_with`]'s frame).
+/// with `init`, after checking the image's kind against `kind` (`None`:
+/// any kind). `init` writes the reader straight into the storage (an
+/// lc-core `init` constructor): no `Result` holding a reader is made, and
+/// no copy of the reader.
 ///
 /// # Safety
-/// `reader` is valid for writes of `S`, which holds a
-/// `Slot<Result<T, ReaderError>>`; `image` as [`load`].
+/// `reader` is valid for writes of `S`, which holds a `Slot<T>`; `image`
+/// as [`load`].
 #[inline(never)]
 unsafe fn build<S, T>(
     reader: *mut S,
     tag: u32,
     image: *const lc_image_t,
-    new: impl FnOnce(&Image<'static>) -> Result<T, ReaderError>,
+    kind: Option<ReaderKind>,
+    init: impl FnOnce(&mut MaybeUninit<T>, &Image<'static>) -> Result<(), ReaderError>,
 ) -> Result<(), lc_error_t> {
     arg(reader)?;
     // SAFETY: `reader` checked.
     unsafe { clear(reader) };
     // SAFETY: the caller's contract.
     let image = unsafe { image_of(image)? };
-    // SAFETY: the caller's contract.
-    unsafe { emplace_with(reader, tag, &image, new) }.map_err(reader_error)
-}
-
-/// [`emplace`] of `new(image)`.
-///
-/// # Safety
-/// As [`emplace`].
-#[inline(never)]
-unsafe fn emplace_with<S, T>(
-    p: *mut S,
-    tag: u32,
-    image: &Image<'static>,
-    new: impl FnOnce(&Image<'static>) -> Result<T, ReaderError>,
-) -> Result<(), ReaderError> {
-    // SAFETY: the caller's contract.
-    unsafe { emplace(p, tag, || new(image)) }
+    if kind.is_some_and(|k| k != image.kind()) {
+        return Err(LC_ERR_WRONG_KIND);
+    }
+    // SAFETY: the caller's contract: `reader` holds a `Slot<T>`, and its
+    // tag is set only once `init` has written the reader.
+    unsafe {
+        init(slot(reader), &image).map_err(reader_error)?;
+        set_tag::<_, T>(reader, tag);
+    }
+    Ok(())
 }
 
 /// What a validated image holds: kind, serial, output scales, length,
@@ -1182,7 +1156,15 @@ pub unsafe extern "C" fn lc_proximity_reader_init(
 ) -> lc_error_t {
     code(|| {
         // SAFETY: the caller's contract; the storage holds the slot.
-        unsafe { build(reader, TAG_PROXIMITY, image, ProximityReader::new) }
+        unsafe {
+            build(
+                reader,
+                TAG_PROXIMITY,
+                image,
+                Some(ReaderKind::Proximity),
+                |s, i| ProximityReader::init(s, i).map(|_| ()),
+            )
+        }
     })
 }
 
@@ -1206,7 +1188,7 @@ pub unsafe extern "C" fn lc_proximity_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, ProximityReader<'static>, ReaderError>(reader, TAG_PROXIMITY)? };
+        let r = unsafe { load::<_, ProximityReader<'static>>(reader, TAG_PROXIMITY)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
@@ -1227,7 +1209,11 @@ pub unsafe extern "C" fn lc_level_reader_init(
 ) -> lc_error_t {
     code(|| {
         // SAFETY: the caller's contract; the storage holds the slot.
-        unsafe { build(reader, TAG_LEVEL, image, LevelReader::new) }
+        unsafe {
+            build(reader, TAG_LEVEL, image, Some(ReaderKind::Level), |s, i| {
+                LevelReader::init(s, i).map(|_| ())
+            })
+        }
     })
 }
 
@@ -1248,7 +1234,7 @@ pub unsafe extern "C" fn lc_level_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, LevelReader<'static>, ReaderError>(reader, TAG_LEVEL)? };
+        let r = unsafe { load::<_, LevelReader<'static>>(reader, TAG_LEVEL)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
@@ -1270,7 +1256,11 @@ pub unsafe extern "C" fn lc_metal_reader_init(
 ) -> lc_error_t {
     code(|| {
         // SAFETY: the caller's contract; the storage holds the slot.
-        unsafe { build(reader, TAG_METAL, image, MetalReader::new) }
+        unsafe {
+            build(reader, TAG_METAL, image, Some(ReaderKind::Metal), |s, i| {
+                MetalReader::init(s, i).map(|_| ())
+            })
+        }
     })
 }
 
@@ -1291,7 +1281,7 @@ pub unsafe extern "C" fn lc_metal_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, MetalReader, ReaderError>(reader, TAG_METAL)? };
+        let r = unsafe { load::<_, MetalReader>(reader, TAG_METAL)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
@@ -1315,7 +1305,12 @@ pub unsafe extern "C" fn lc_reader_init(
 ) -> lc_error_t {
     code(|| {
         // SAFETY: the caller's contract; the storage holds the slot.
-        unsafe { build(reader, TAG_READER, image, Reader::new) }
+        unsafe {
+            build(reader, TAG_READER, image, None, |s, i| {
+                s.write(Reader::new(i)?);
+                Ok(())
+            })
+        }
     })
 }
 
@@ -1335,7 +1330,7 @@ pub unsafe extern "C" fn lc_reader_read(
         arg(input)?;
         arg(reading)?;
         // SAFETY: checked; the caller's contract.
-        let r = unsafe { load::<_, Reader<'static>, ReaderError>(reader, TAG_READER)? };
+        let r = unsafe { load::<_, Reader<'static>>(reader, TAG_READER)? };
         // SAFETY: `input` checked.
         let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.

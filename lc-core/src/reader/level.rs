@@ -1,5 +1,7 @@
 //! Capacitive level: shift (or the probe / reference ratio) → level → volume.
 
+use core::mem::MaybeUninit;
+
 use super::{Front, Input, ReaderError, SensorFault, Status};
 use crate::curve::{CurveRef, CurveStatus};
 use crate::fixed::div_q40_by_positive;
@@ -127,6 +129,30 @@ impl<'a> LevelReader<'a> {
                 volume: image.volume().map(|(v, _)| v),
                 offset_cache: None,
             }),
+            (kind, _) => Err(ReaderError::WrongKind(kind)),
+        }
+    }
+
+    /// [`LevelReader::new`] built in place, in storage the caller provides
+    /// (a static, a C API's opaque storage): the kind is checked first,
+    /// then the reader is written straight into `slot`, so no
+    /// `Result<Self, _>` and no second copy of the reader is made. Returns
+    /// the reader in `slot`; on [`ReaderError::WrongKind`] `slot` is left
+    /// as it was (uninitialised). Cost: as [`LevelReader::new`]. RAM:
+    /// `slot` (248 bytes on a 32-bit target, the crate docs, "Memory");
+    /// stack: the front's builders only (no reader-sized temporary).
+    pub fn init<'s>(
+        slot: &'s mut MaybeUninit<Self>,
+        image: &Image<'a>,
+    ) -> Result<&'s mut Self, ReaderError> {
+        match (image.kind(), image.curve()) {
+            (ReaderKind::Level, Some(curve)) => Ok(slot.write(Self {
+                front: image.front(),
+                reference: image.reference(),
+                curve,
+                volume: image.volume().map(|(v, _)| v),
+                offset_cache: None,
+            })),
             (kind, _) => Err(ReaderError::WrongKind(kind)),
         }
     }

@@ -1,5 +1,7 @@
 //! Metal detection: baseline, detection, classification.
 
+use core::mem::MaybeUninit;
+
 use super::{metal_detector, Front, Input, MetalClass, ReaderError, SensorFault, Status};
 use crate::detector::{Detector, Presence};
 use crate::filter::{shift_domain, Ema};
@@ -100,6 +102,43 @@ impl MetalReader {
             class: MetalClass::None,
             present_for: 0,
         })
+    }
+
+    /// [`MetalReader::new`] built in place, in storage the caller provides
+    /// (a static, a C API's opaque storage): the kind is checked and the
+    /// fallible parts (the averages, the detector) are built first, then
+    /// the reader is written straight into `slot`, so no `Result<Self, _>`
+    /// and no second copy of the reader is made. Returns the reader in
+    /// `slot`; on an error `slot` is left as it was (uninitialised). Cost:
+    /// as [`MetalReader::new`]. RAM: `slot` (248 bytes on a 32-bit target,
+    /// the crate docs, "Memory"); stack: the parts built first (under 100
+    /// bytes), no reader-sized temporary.
+    pub fn init<'s>(
+        slot: &'s mut MaybeUninit<Self>,
+        image: &Image<'_>,
+    ) -> Result<&'s mut Self, ReaderError> {
+        let params = match (image.kind(), image.metal()) {
+            (ReaderKind::Metal, Some(p)) => p,
+            (kind, _) => return Err(ReaderError::WrongKind(kind)),
+        };
+        let k = u32::from(params.baseline_k);
+        // As in `new`: validation built these once already.
+        let not_built = ReaderError::NotBuilt(ReaderKind::Metal);
+        let baseline = Ema::new(k).map_err(|_| not_built)?;
+        let ring_baseline = Ema::new(k).map_err(|_| not_built)?;
+        let detector = Detector::new(metal_detector(&params)).map_err(|_| not_built)?;
+        Ok(slot.write(Self {
+            front: image.front(),
+            params,
+            baseline,
+            ring_baseline,
+            base: 0,
+            ring_base: None,
+            learned: false,
+            detector,
+            class: MetalClass::None,
+            present_for: 0,
+        }))
     }
 
     /// Whether a target is present.

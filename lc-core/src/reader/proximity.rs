@@ -1,5 +1,7 @@
 //! Inductive proximity: shift → gap.
 
+use core::mem::MaybeUninit;
+
 use super::{Front, Input, ReaderError, SensorFault, Status};
 use crate::curve::{CurveRef, CurveStatus};
 use crate::image::{Image, ReaderKind};
@@ -58,6 +60,27 @@ impl<'a> ProximityReader<'a> {
                 front: image.front(),
                 curve,
             }),
+            (kind, _) => Err(ReaderError::WrongKind(kind)),
+        }
+    }
+
+    /// [`ProximityReader::new`] built in place, in storage the caller
+    /// provides (a static, a C API's opaque storage): the kind is checked
+    /// first, then the reader is written straight into `slot`, so no
+    /// `Result<Self, _>` and no second copy of the reader is made. Returns
+    /// the reader in `slot`; on [`ReaderError::WrongKind`] `slot` is left
+    /// as it was (uninitialised). Cost: as [`ProximityReader::new`]. RAM:
+    /// `slot` (168 bytes on a 32-bit target, the crate docs, "Memory");
+    /// stack: the front's builders only (no reader-sized temporary).
+    pub fn init<'s>(
+        slot: &'s mut MaybeUninit<Self>,
+        image: &Image<'a>,
+    ) -> Result<&'s mut Self, ReaderError> {
+        match (image.kind(), image.curve()) {
+            (ReaderKind::Proximity, Some(curve)) => Ok(slot.write(Self {
+                front: image.front(),
+                curve,
+            })),
             (kind, _) => Err(ReaderError::WrongKind(kind)),
         }
     }
