@@ -19,11 +19,14 @@ root="$(cd "$here/../.." && pwd)"
 cc=${ARM_CC:-arm-none-eabi-gcc}
 
 build_lib() {
-    # What a product ships: opt-level "s", LTO, one codegen unit.
+    # What a product ships: opt-level "s", LTO, one codegen unit. `cargo
+    # rustc --crate-type staticlib`: with the package's two crate types
+    # (staticlib, rlib) Cargo would leave LTO out.
     (cd "$root" && CARGO_TARGET_DIR="$root/target/capi" \
         CARGO_PROFILE_RELEASE_OPT_LEVEL=s CARGO_PROFILE_RELEASE_LTO=true \
         CARGO_PROFILE_RELEASE_CODEGEN_UNITS=1 \
-        cargo build -q --release -p lc-core-capi --lib --features crc-nibble --target thumbv6m-none-eabi)
+        cargo rustc -q --release -p lc-core-capi --lib --crate-type staticlib \
+        --features crc-nibble --target thumbv6m-none-eabi)
     echo "$root/target/capi/thumbv6m-none-eabi/release/liblc_core_capi.a"
 }
 
@@ -43,7 +46,10 @@ mkdir -p "$out"
 command -v "$cc" >/dev/null 2>&1 ||
     { echo "build.sh: $cc not found; install it with: apt-get install gcc-arm-none-eabi" >&2; exit 1; }
 
-cflags=(-mcpu=cortex-m0 -mthumb -std=gnu11 -Os -g -ffreestanding -ffunction-sections
+# The Rust unit firmwares' care in C: -Os (opt-level "s"), LTO over the
+# C files (-flto; the library is one LTO unit of its own), a section per
+# function and object, unused ones dropped (--gc-sections).
+cflags=(-mcpu=cortex-m0 -mthumb -std=gnu11 -Os -flto -g -ffreestanding -ffunction-sections
     -fdata-sections -Wall -Wextra -Werror -I "$root/lc-core/capi/include" -I "$here/src")
 for unit in proximity level metal; do
     upper=$(tr '[:lower:]' '[:upper:]' <<<"$unit")

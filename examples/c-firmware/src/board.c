@@ -53,12 +53,16 @@ static void __attribute__((noreturn)) exit_with(int success) {
   }
 }
 
-void host_fail(const char *why) {
+void host_puts(const char *s) {
   size_t n = 0;
-  while (why[n] != '\0') {
+  while (s[n] != '\0') {
     n++;
   }
-  host_write(why, n);
+  host_write(s, n);
+}
+
+void host_fail(const char *why) {
+  host_puts(why);
   exit_with(0);
 }
 
@@ -72,12 +76,9 @@ uint32_t stack_peak_bytes(void) {
 }
 
 void host_finish(void) {
-  line_t line;
-  line_clear(&line);
-  line_text(&line, "stack ");
-  line_uint(&line, stack_peak_bytes());
-  line_text(&line, "\n");
-  host_write(line.buf, line.len);
+  PUT("stack ");
+  put_uint(stack_peak_bytes());
+  PUT("\n");
   exit_with(out_ok);
 }
 

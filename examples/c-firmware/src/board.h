@@ -12,6 +12,8 @@
 void host_open(void);
 /* Writes `len` bytes; a failed write is remembered for host_finish. */
 void host_write(const char *bytes, size_t len);
+/* Writes the NUL-terminated string `s`. */
+void host_puts(const char *s);
 /* Writes `why` and ends the program with a failure status. */
 void host_fail(const char *why) __attribute__((noreturn));
 /* Writes `stack <bytes>` (the peak stack) and ends the program: success

@@ -71,14 +71,12 @@ static void __attribute__((noinline)) start(reader_t *reader) {
 }
 
 static void __attribute__((noinline)) read_all(reader_t *reader) {
-  line_t line;
   for (size_t i = 0; i < script_proximity_len; i++) {
     lc_proximity_reading_t r;
     if (lc_proximity_read(reader, &script_proximity[i], &r) != LC_OK) {
       host_fail("bad input\n");
     }
-    line_reading(&line, (uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
-    host_write(line.buf, line.len);
+    put_reading((uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
   }
 }
 #elif defined(UNIT_LEVEL)
@@ -93,15 +91,12 @@ static void __attribute__((noinline)) start(reader_t *reader) {
 }
 
 static void __attribute__((noinline)) read_all(reader_t *reader) {
-  line_t line;
   for (size_t i = 0; i < script_level_len; i++) {
     lc_level_reading_t r;
     if (lc_level_read(reader, &script_level[i], &r) != LC_OK) {
       host_fail("bad input\n");
     }
-    line_reading(&line, (uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status,
-                 r.fault);
-    host_write(line.buf, line.len);
+    put_reading((uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status, r.fault);
   }
 }
 #elif defined(UNIT_METAL)
@@ -116,15 +111,13 @@ static void __attribute__((noinline)) start(reader_t *reader) {
 }
 
 static void __attribute__((noinline)) read_all(reader_t *reader) {
-  line_t line;
   for (size_t i = 0; i < script_metal_len; i++) {
     lc_metal_reading_t r;
     if (lc_metal_read(reader, &script_metal[i], &r) != LC_OK) {
       host_fail("bad input\n");
     }
-    line_reading(&line, (uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop,
-                 r.delta_q40, r.status, r.fault);
-    host_write(line.buf, line.len);
+    put_reading((uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop, r.delta_q40,
+                r.status, r.fault);
   }
 }
 #else

@@ -1,45 +1,31 @@
 #include "report.h"
 
-void line_clear(line_t *line) { line->len = 0; }
-
-void line_text(line_t *line, const char *text) {
-  for (; *text != '\0'; text++) {
-    if (line->len < LINE_CAPACITY) {
-      line->buf[line->len++] = *text;
-    }
-  }
-}
-
-void line_uint(line_t *line, uint32_t v) {
-  char digits[11];
-  size_t start = sizeof digits - 1;
-  digits[start] = '\0';
+void put_uint(uint32_t v) {
+  char digits[10];
+  unsigned start = sizeof digits;
   do {
     digits[--start] = (char)('0' + v % 10u);
     v /= 10u;
   } while (v != 0u);
-  line_text(line, &digits[start]);
+  host_write(&digits[start], sizeof digits - start);
 }
 
-void line_int(line_t *line, int32_t v) {
+void put_int(int32_t v) {
   if (v < 0) {
-    line_text(line, "-");
-    /* The magnitude in uint32_t: exact for INT32_MIN too. */
-    line_uint(line, 0u - (uint32_t)v);
-  } else {
-    line_uint(line, (uint32_t)v);
+    PUT("-");
   }
+  /* The magnitude in uint32_t: exact for INT32_MIN too. */
+  put_uint(v < 0 ? 0u - (uint32_t)v : (uint32_t)v);
 }
 
-void line_hex64(line_t *line, int64_t v) {
-  static const char hex[] = "0123456789abcdef";
-  uint64_t u = (uint64_t)v;
-  char digits[17];
-  for (int i = 0; i < 16; i++) {
-    digits[i] = hex[(u >> (4 * (15 - i))) & 0xFu];
+void put_hex64(int64_t v) {
+  char digits[16];
+  for (unsigned i = 0; i < 16u; i++) {
+    /* A nibble (< 16), from the most significant down. */
+    unsigned nibble = (unsigned)(v >> (4u * (15u - i))) & 0xFu;
+    digits[i] = (char)(nibble < 10u ? '0' + nibble : 'a' - 10u + nibble);
   }
-  digits[16] = '\0';
-  line_text(line, digits);
+  host_write(digits, sizeof digits);
 }
 
 const char *status_name(lc_status_t status, lc_fault_t fault) {
@@ -85,22 +71,21 @@ const char *status_name(lc_status_t status, lc_fault_t fault) {
   }
 }
 
-void line_reading(line_t *line, uint32_t index, int32_t value, int has_secondary,
-                  int32_t secondary, int64_t q40, lc_status_t status, lc_fault_t fault) {
-  line_clear(line);
-  line_text(line, "reading ");
-  line_uint(line, index);
-  line_text(line, " value ");
-  line_int(line, value);
-  line_text(line, " secondary ");
+void put_reading(uint32_t index, int32_t value, int has_secondary, int32_t secondary,
+                 int64_t q40, lc_status_t status, lc_fault_t fault) {
+  PUT("reading ");
+  put_uint(index);
+  PUT(" value ");
+  put_int(value);
+  PUT(" secondary ");
   if (has_secondary) {
-    line_int(line, secondary);
+    put_int(secondary);
   } else {
-    line_text(line, "-");
+    PUT("-");
   }
-  line_text(line, " shift ");
-  line_hex64(line, q40);
-  line_text(line, " status ");
-  line_text(line, status_name(status, fault));
-  line_text(line, "\n");
+  PUT(" shift ");
+  put_hex64(q40);
+  PUT(" status ");
+  host_puts(status_name(status, fault));
+  PUT("\n");
 }

@@ -1,5 +1,6 @@
 /* One text line per reading, the line format of the Rust unit firmwares
-   (examples/unit-firmware/src/report.rs), without printf:
+   (examples/unit-firmware/src/report.rs), without printf and, as they do,
+   without a line buffer (RAM): the pieces go to the host one by one.
 
      reading <i> value <v> secondary <v|-> shift <Q23.40 as 16 hex digits> status <name>
 
@@ -8,34 +9,32 @@
 #ifndef LC_EXAMPLE_REPORT_H
 #define LC_EXAMPLE_REPORT_H
 
-#include <stddef.h>
 #include <stdint.h>
 
+#include "board.h"
 #include "lc_core.h"
 
-/* Room for the longest line. */
-#define LINE_CAPACITY 112
+/* Writes a string literal (its length known at compile time). */
+#define PUT(literal) host_write((literal), sizeof(literal) - 1u)
 
-typedef struct line {
-  char buf[LINE_CAPACITY];
-  size_t len;
-} line_t;
-
-void line_clear(line_t *line);
-void line_text(line_t *line, const char *text);
-void line_uint(line_t *line, uint32_t v);
-void line_int(line_t *line, int32_t v);
-void line_hex64(line_t *line, int64_t v);
+/* Writes `v` in decimal. */
+void put_uint(uint32_t v);
+/* Writes `v` in decimal. */
+void put_int(int32_t v);
+/* Writes the 64 bits of `v` as 16 hex digits (two's complement). */
+void put_hex64(int64_t v);
 
 /* The line of reading number `index`: its value, its secondary value
-   when `has_secondary`, the raw Q23.40 value it came from and its status
-   (with the fault's group on a sensor fault). */
-void line_reading(line_t *line, uint32_t index, int32_t value, int has_secondary,
-                  int32_t secondary, int64_t q40, lc_status_t status, lc_fault_t fault);
+   when `has_secondary`, the raw Q23.40 value it came from and its
+   status. */
+void put_reading(uint32_t index, int32_t value, int has_secondary, int32_t secondary,
+                 int64_t q40, lc_status_t status, lc_fault_t fault);
 
 /* A short name for each status: "ok", "below-range", "above-range",
-   "no-target", "fault-counts", "fault-companion", "fault-shift",
-   "fault-ratio", "fault-reference". */
+   "no-target", and per sensor fault "fault-counts", "fault-companion",
+   "fault-shift", "fault-ratio", "fault-reference", "fault-reference-low",
+   "fault-frozen", "fault-temperature-domain",
+   "fault-temperature-missing", "fault-out-of-reach". */
 const char *status_name(lc_status_t status, lc_fault_t fault);
 
 #endif

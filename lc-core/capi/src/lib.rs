@@ -723,16 +723,6 @@ struct ImageRef {
     image: Image<'static>,
 }
 
-/// Validates `bytes` with `check` (`Image::new` or a one-kind
-/// `Image::new_*`).
-#[inline(never)]
-fn validated(
-    bytes: &'static [u8],
-    check: fn(&'static [u8]) -> Result<Image<'static>, ImageError>,
-) -> Result<ImageRef, ImageError> {
-    check(bytes).map(|image| ImageRef { image })
-}
-
 /// A value in caller-provided storage: a tag word that says the storage
 /// holds an initialised value, then the value (a reader is built in it in
 /// place, by lc-core's `init` constructors).
@@ -852,9 +842,9 @@ pub struct lc_layout_t {
 }
 
 /// The layout of this build (the header generator reads it from the
-/// built Cortex-M library; `lc_check_layout` from C).
+/// built Cortex-M library; `lc_check_layout` from C). Exported, not
+/// `#[used]`: a firmware that never reads it leaves it out of its flash.
 #[no_mangle]
-#[used]
 pub static lc_core_capi_layout: lc_layout_t = lc_layout_t {
     magic: [0x414C_434C, 0x5455_4F59],
     storage_align: LC_STORAGE_ALIGN as u32,
@@ -864,6 +854,28 @@ pub static lc_core_capi_layout: lc_layout_t = lc_layout_t {
     metal_reader_size: size_of::<lc_metal_reader_t>() as u32,
     reader_size: size_of::<lc_reader_t>() as u32,
 };
+
+/// Whether `p` is not aligned for `T` (its low address bits; 0 when
+/// aligned), for [`args!`].
+#[inline(always)]
+fn misaligned<T>(p: *const T) -> usize {
+    p as usize & (align_of::<T>() - 1)
+}
+
+/// Checks pointer arguments together: `LC_ERR_NULL_POINTER` when one is
+/// NULL, else `LC_ERR_MISALIGNED_ARGUMENT` when one is not aligned for
+/// its type. One test for each error, whatever the number of arguments.
+macro_rules! args {
+    ($($p:expr),+) => {
+        if false $(| $p.is_null())+ {
+            Err(LC_ERR_NULL_POINTER)
+        } else if 0 $(| misaligned($p))+ != 0 {
+            Err(LC_ERR_MISALIGNED_ARGUMENT)
+        } else {
+            Ok(())
+        }
+    };
+}
 
 /// Checks a pointer argument: not NULL, aligned for `T`.
 fn arg<T>(p: *const T) -> Result<(), lc_error_t> {
@@ -1028,7 +1040,7 @@ unsafe fn validate_with(
     image: *mut lc_image_t,
     bytes: *const u8,
     len: usize,
-    check: fn(&'static [u8]) -> Result<Image<'static>, ImageError>,
+    check: impl FnOnce(&'static [u8]) -> Result<Image<'static>, ImageError>,
 ) -> lc_error_t {
     code(|| {
         arg(image)?;
@@ -1042,7 +1054,9 @@ unsafe fn validate_with(
         // unchanged while the image is in use (the `'static` stands for
         // that promise).
         let bytes: &'static [u8] = unsafe { core::slice::from_raw_parts(bytes, len) };
-        let value = validated(bytes, check).map_err(image_error)?;
+        let value = check(bytes)
+            .map(|image| ImageRef { image })
+            .map_err(image_error)?;
         // SAFETY: `image` checked; `lc_image_t` holds the slot; the value
         // written, then the tag.
         unsafe {
@@ -1184,9 +1198,7 @@ pub unsafe extern "C" fn lc_proximity_read(
     reading: *mut lc_proximity_reading_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        arg(input)?;
-        arg(reading)?;
+        args!(reader, input, reading)?;
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, ProximityReader<'static>>(reader, TAG_PROXIMITY)? };
         // SAFETY: `input` checked.
@@ -1230,9 +1242,7 @@ pub unsafe extern "C" fn lc_level_read(
     reading: *mut lc_level_reading_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        arg(input)?;
-        arg(reading)?;
+        args!(reader, input, reading)?;
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, LevelReader<'static>>(reader, TAG_LEVEL)? };
         // SAFETY: `input` checked.
@@ -1277,9 +1287,7 @@ pub unsafe extern "C" fn lc_metal_read(
     reading: *mut lc_metal_reading_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        arg(input)?;
-        arg(reading)?;
+        args!(reader, input, reading)?;
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, MetalReader>(reader, TAG_METAL)? };
         // SAFETY: `input` checked.
@@ -1326,9 +1334,7 @@ pub unsafe extern "C" fn lc_reader_read(
     reading: *mut lc_reading_t,
 ) -> lc_error_t {
     code(|| {
-        arg(reader)?;
-        arg(input)?;
-        arg(reading)?;
+        args!(reader, input, reading)?;
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, Reader<'static>>(reader, TAG_READER)? };
         // SAFETY: `input` checked.

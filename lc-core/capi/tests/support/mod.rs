@@ -63,8 +63,8 @@ pub fn have_target(triple: &str) -> bool {
 }
 
 /// Builds `liblc_core_capi.a` for `triple` (the host when `None`) with
-/// what a product ships: opt-level "s", whole-program LTO, one codegen
-/// unit, the 64-byte CRC table (the unit firmwares' profile and lc-core
+/// what a product ships: opt-level "s", LTO over the library and
+/// lc-core, one codegen unit, the 64-byte CRC table (the unit firmwares' profile and lc-core
 /// features). Returns the library's path.
 pub fn build_lib(triple: Option<&str>) -> PathBuf {
     static LOCK: Mutex<()> = Mutex::new(());
@@ -80,13 +80,18 @@ pub fn build_lib(triple: Option<&str>) -> PathBuf {
         .env_remove("RUSTFLAGS")
         .env_remove("CARGO_ENCODED_RUSTFLAGS")
         .env_remove("CARGO_BUILD_RUSTFLAGS")
+        // `cargo rustc --crate-type staticlib`: the package's crate types
+        // (staticlib and rlib) would make Cargo leave out LTO; a
+        // staticlib alone is built with it, as one optimised unit.
         .args([
-            "build",
+            "rustc",
             "--quiet",
             "--release",
             "-p",
             "lc-core-capi",
             "--lib",
+            "--crate-type",
+            "staticlib",
             // The unit firmwares' CRC table: 960 bytes less flash.
             "--features",
             "crc-nibble",
