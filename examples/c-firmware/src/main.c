@@ -9,17 +9,18 @@
       end-of-line rig writes it into the unit's flash. Here it sits in a
       section of its own, .calibration, at the start of the last 4 KiB
       page (link.ld, src/image.S), 4-byte aligned.
-   2. Validate. lc_image_validate_proximity (_level, _metal) checks the
-      magic, format version, length, CRC-32, every field and every curve
-      segment, in place, and the image's kind: the image stays in flash,
-      and only this kind's checks are linked in (lc_image_validate checks
-      any kind). A unit whose image fails must not read.
-   3. Build the reader in storage of its own (here main's frame; a static
-      works as well): lc_*_reader_init checks its kind and borrows the
-      curve from flash. The lc_image_t (where the
-      image is) is needed only until then. Start-up and the read loop are
-      functions of their own, so that their locals are never on the
-      stack together.
+   2. Validate and build the reader, in one call:
+      lc_proximity_reader_open (lc_level_reader_open, lc_metal_reader_open)
+      checks the magic, format version, length, CRC-32, every field and
+      every curve segment, in place, and the image's kind (the image stays in flash,
+      and only this kind's checks are linked in), then builds the reader
+      in storage of its own (here main's frame; a static works as well),
+      borrowing the curve from flash. A unit whose image fails must not
+      read. (lc_image_validate_proximity then lc_proximity_reader_init do
+      the same in two steps, with an lc_image_t between them for
+      lc_image_info; lc_image_validate and lc_reader_init take any kind.)
+   3. Start-up and the read loop are functions of their own, so that
+      their locals are never on the stack together.
    4. Read. Per gate, the timer capture gives a count pair and the NTC a
       temperature; lc_*_read turns them into a reading with a status. A
       sensor fault is a status, never an error code. Here the inputs come
@@ -43,30 +44,18 @@
 /* The image's bounds (src/image.S). */
 extern const uint8_t lc_unit_image[], lc_unit_image_end[];
 
-/* This unit's kind of image, validated in place; the unit stops when it
-   is refused. */
-#if defined(UNIT_PROXIMITY)
-#define VALIDATE lc_image_validate_proximity
-#elif defined(UNIT_LEVEL)
-#define VALIDATE lc_image_validate_level
-#else
-#define VALIDATE lc_image_validate_metal
-#endif
-
-static void validate(lc_image_t *image) {
-  if (VALIDATE(image, lc_unit_image, (size_t)(lc_unit_image_end - lc_unit_image)) != LC_OK) {
-    host_fail("calibration image refused\n");
-  }
-}
+/* The image's length as the linker placed it (a flash page may be
+   longer: the image's own length field decides). */
+#define IMAGE_LEN ((size_t)(lc_unit_image_end - lc_unit_image))
 
 #if defined(UNIT_PROXIMITY)
 typedef lc_proximity_reader_t reader_t;
 
+/* Validates this unit's image and builds its reader; the unit stops when
+   the image is refused. */
 static void __attribute__((noinline)) start(reader_t *reader) {
-  lc_image_t image;
-  validate(&image);
-  if (lc_proximity_reader_init(reader, &image) != LC_OK) {
-    host_fail("not a proximity image\n");
+  if (lc_proximity_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
+    host_fail("calibration image refused\n");
   }
 }
 
@@ -83,10 +72,8 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
 typedef lc_level_reader_t reader_t;
 
 static void __attribute__((noinline)) start(reader_t *reader) {
-  lc_image_t image;
-  validate(&image);
-  if (lc_level_reader_init(reader, &image) != LC_OK) {
-    host_fail("not a level image\n");
+  if (lc_level_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
+    host_fail("calibration image refused\n");
   }
 }
 
@@ -103,10 +90,8 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
 typedef lc_metal_reader_t reader_t;
 
 static void __attribute__((noinline)) start(reader_t *reader) {
-  lc_image_t image;
-  validate(&image);
-  if (lc_metal_reader_init(reader, &image) != LC_OK) {
-    host_fail("not a metal image\n");
+  if (lc_metal_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
+    host_fail("calibration image refused\n");
   }
 }
 

@@ -1046,14 +1046,8 @@ unsafe fn validate_with(
         arg(image)?;
         // SAFETY: `image` checked; its first word is the tag.
         unsafe { clear(image) };
-        arg(bytes)?;
-        if len > isize::MAX as usize {
-            return Err(LC_ERR_BAD_LENGTH);
-        }
-        // SAFETY: the caller's contract: `len` readable bytes that stay
-        // unchanged while the image is in use (the `'static` stands for
-        // that promise).
-        let bytes: &'static [u8] = unsafe { core::slice::from_raw_parts(bytes, len) };
+        // SAFETY: the caller's contract.
+        let bytes = unsafe { image_bytes(bytes, len)? };
         let value = check(bytes)
             .map(|image| ImageRef { image })
             .map_err(image_error)?;
@@ -1062,6 +1056,56 @@ unsafe fn validate_with(
         unsafe {
             slot(image).write(value);
             set_tag::<_, ImageRef>(image, TAG_IMAGE);
+        }
+        Ok(())
+    })
+}
+
+/// The image's bytes as a slice, after the argument checks
+/// (`LC_ERR_NULL_POINTER`, `LC_ERR_BAD_LENGTH`).
+///
+/// # Safety
+/// `bytes` points to `len` readable bytes that stay unchanged while the
+/// image or a reader built from it is used (the `'static` stands for that
+/// promise).
+#[inline(always)]
+unsafe fn image_bytes(bytes: *const u8, len: usize) -> Result<&'static [u8], lc_error_t> {
+    arg(bytes)?;
+    if len > isize::MAX as usize {
+        return Err(LC_ERR_BAD_LENGTH);
+    }
+    // SAFETY: checked; the caller's contract.
+    Ok(unsafe { core::slice::from_raw_parts(bytes, len) })
+}
+
+/// The `lc_*_reader_open` entry points' body: `reader` checked and
+/// marked not initialised, the image's bytes validated with `check` (a
+/// one-kind validation), the reader built in place with `init`, then
+/// marked initialised with `tag`.
+///
+/// # Safety
+/// `reader` is valid for writes of `S`, which holds a `Slot<T>`; `bytes`
+/// as [`image_bytes`].
+#[inline(always)]
+unsafe fn open<S, T>(
+    reader: *mut S,
+    tag: u32,
+    bytes: *const u8,
+    len: usize,
+    check: impl FnOnce(&'static [u8]) -> Result<Image<'static>, ImageError>,
+    init: impl FnOnce(&mut MaybeUninit<T>, &Image<'static>) -> Result<(), ReaderError>,
+) -> lc_error_t {
+    code(|| {
+        arg(reader)?;
+        // SAFETY: `reader` checked; its first word is the tag.
+        unsafe { clear(reader) };
+        // SAFETY: the caller's contract.
+        let image = check(unsafe { image_bytes(bytes, len)? }).map_err(image_error)?;
+        // SAFETY: the caller's contract: `reader` holds a `Slot<T>`, and
+        // its tag is set only once `init` has written the reader.
+        unsafe {
+            init(slot(reader), &image).map_err(reader_error)?;
+            set_tag::<_, T>(reader, tag);
         }
         Ok(())
     })
@@ -1182,6 +1226,39 @@ pub unsafe extern "C" fn lc_proximity_reader_init(
     })
 }
 
+/// Validates a proximity image in place and builds the proximity reader from
+/// it, in one call: [`lc_image_validate_proximity`] then
+/// [`lc_proximity_reader_init`], without an `lc_image_t`. For a firmware
+/// that needs nothing else from the image (no `lc_image_info`); it links
+/// less code than the two calls. `bytes` and `len` as for
+/// `lc_image_validate`: the bytes stay where they are, unchanged, for as
+/// long as the reader is used. Errors: those of the two calls (`reader`
+/// checked first, then `bytes`); an image of another kind is
+/// `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
+/// initialised.
+///
+/// # Safety
+/// `reader` points to writable `lc_proximity_reader_t` storage; `bytes` to `len`
+/// readable bytes that stay unchanged while the reader is used.
+#[no_mangle]
+pub unsafe extern "C" fn lc_proximity_reader_open(
+    reader: *mut lc_proximity_reader_t,
+    bytes: *const u8,
+    len: usize,
+) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe {
+        open(
+            reader,
+            TAG_PROXIMITY,
+            bytes,
+            len,
+            Image::new_proximity,
+            |s, i| ProximityReader::init(s, i).map(|_| ()),
+        )
+    }
+}
+
 /// One proximity reading: `input` in, `reading` out (written only on
 /// `LC_OK`). A sensor fault is a reading's status, not an error. Errors:
 /// `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
@@ -1229,6 +1306,34 @@ pub unsafe extern "C" fn lc_level_reader_init(
     })
 }
 
+/// Validates a level image in place and builds the level reader from
+/// it, in one call: [`lc_image_validate_level`] then
+/// [`lc_level_reader_init`], without an `lc_image_t`. For a firmware
+/// that needs nothing else from the image (no `lc_image_info`); it links
+/// less code than the two calls. `bytes` and `len` as for
+/// `lc_image_validate`: the bytes stay where they are, unchanged, for as
+/// long as the reader is used. Errors: those of the two calls (`reader`
+/// checked first, then `bytes`); an image of another kind is
+/// `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
+/// initialised.
+///
+/// # Safety
+/// `reader` points to writable `lc_level_reader_t` storage; `bytes` to `len`
+/// readable bytes that stay unchanged while the reader is used.
+#[no_mangle]
+pub unsafe extern "C" fn lc_level_reader_open(
+    reader: *mut lc_level_reader_t,
+    bytes: *const u8,
+    len: usize,
+) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe {
+        open(reader, TAG_LEVEL, bytes, len, Image::new_level, |s, i| {
+            LevelReader::init(s, i).map(|_| ())
+        })
+    }
+}
+
 /// One level reading (the level, and the volume when the image has a
 /// volume table). Errors: as `lc_proximity_read`.
 ///
@@ -1272,6 +1377,34 @@ pub unsafe extern "C" fn lc_metal_reader_init(
             })
         }
     })
+}
+
+/// Validates a metal image in place and builds the metal reader from
+/// it, in one call: [`lc_image_validate_metal`] then
+/// [`lc_metal_reader_init`], without an `lc_image_t`. For a firmware
+/// that needs nothing else from the image (no `lc_image_info`); it links
+/// less code than the two calls. `bytes` and `len` as for
+/// `lc_image_validate`: the bytes stay where they are, unchanged, for as
+/// long as the reader is used. Errors: those of the two calls (`reader`
+/// checked first, then `bytes`); an image of another kind is
+/// `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
+/// initialised.
+///
+/// # Safety
+/// `reader` points to writable `lc_metal_reader_t` storage; `bytes` to `len`
+/// readable bytes that stay unchanged while the reader is used.
+#[no_mangle]
+pub unsafe extern "C" fn lc_metal_reader_open(
+    reader: *mut lc_metal_reader_t,
+    bytes: *const u8,
+    len: usize,
+) -> lc_error_t {
+    // SAFETY: the caller's contract, as this function's.
+    unsafe {
+        open(reader, TAG_METAL, bytes, len, Image::new_metal, |s, i| {
+            MetalReader::init(s, i).map(|_| ())
+        })
+    }
 }
 
 /// One metal reading; updates the baseline and the detector. Errors: as

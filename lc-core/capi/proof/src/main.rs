@@ -15,7 +15,9 @@
 //!
 //! Entry points: `lc_image_validate` (and its one-kind variants), `lc_image_info`,
 //! `lc_proximity_reader_init` / `lc_proximity_read`, `lc_level_reader_init`
-//! / `lc_level_read`, `lc_metal_reader_init` / `lc_metal_read`,
+//! / `lc_level_read`, `lc_metal_reader_init` / `lc_metal_read`, the
+//! one-call `lc_proximity_reader_open`, `lc_level_reader_open` and
+//! `lc_metal_reader_open`,
 //! `lc_reader_init` / `lc_reader_read`, `lc_check_layout`. It is only
 //! linked, never run: the arguments are opaque, not meaningful.
 #![no_std]
@@ -64,6 +66,9 @@ fn main() -> ! {
         sum ^= lc_level_reader_init(level, image) as u32;
         sum ^= lc_metal_reader_init(metal, image) as u32;
         sum ^= lc_reader_init(any, image) as u32;
+        sum ^= lc_proximity_reader_open(prox, bytes, black_box(32)) as u32;
+        sum ^= lc_level_reader_open(level, bytes, black_box(32)) as u32;
+        sum ^= lc_metal_reader_open(metal, bytes, black_box(32)) as u32;
         for _ in 0..black_box(4) {
             sum ^= lc_proximity_read(prox, input, black_box(pr.as_mut_ptr())) as u32;
             sum ^= lc_level_read(level, input, black_box(lr.as_mut_ptr())) as u32;

@@ -73,7 +73,11 @@ static void reseal(uint8_t *img, size_t len) {
 /* The image's stated length (bytes 6-7, little-endian). */
 static size_t stated_len(const uint8_t *img) { return (size_t)img[6] | ((size_t)img[7] << 8); }
 
-static void print_line(const line_t *line) { fwrite(line->buf, 1, line->len, stdout); }
+/* The firmwares' output (board.h), here the standard output: report.c
+   writes each reading's line through it. */
+void host_write(const char *bytes, size_t len) { fwrite(bytes, 1, len, stdout); }
+
+void host_puts(const char *s) { fputs(s, stdout); }
 
 /* The scripted inputs through the typed reader and the generic one: the
    same readings, printed once. */
@@ -96,7 +100,6 @@ static void read_script(lc_kind_t kind, const lc_image_t *image, const lc_input_
     break;
   }
   for (size_t i = 0; i < n; i++) {
-    line_t line;
     lc_reading_t r;
     EXPECT(lc_reader_read(&any, &inputs[i], &r), LC_OK);
     CHECK(r.kind == kind);
@@ -105,27 +108,25 @@ static void read_script(lc_kind_t kind, const lc_image_t *image, const lc_input_
       EXPECT(lc_proximity_read(&prox, &inputs[i], &p), LC_OK);
       CHECK(p.gap == r.value && p.shift_q40 == r.q40 && p.status == r.status &&
             p.fault == r.fault && !r.has_secondary);
-      line_reading(&line, (uint32_t)i, p.gap, 0, 0, p.shift_q40, p.status, p.fault);
+      put_reading((uint32_t)i, p.gap, 0, 0, p.shift_q40, p.status, p.fault);
     } else if (kind == LC_KIND_LEVEL) {
       lc_level_reading_t l;
       EXPECT(lc_level_read(&level, &inputs[i], &l), LC_OK);
       CHECK(l.level == r.value && l.axis_q40 == r.q40 && l.status == r.status &&
             l.fault == r.fault && l.has_volume == r.has_secondary &&
             (!l.has_volume || l.volume == r.secondary));
-      line_reading(&line, (uint32_t)i, l.level, l.has_volume, l.volume, l.axis_q40, l.status,
-                   l.fault);
+      put_reading((uint32_t)i, l.level, l.has_volume, l.volume, l.axis_q40, l.status, l.fault);
     } else {
       lc_metal_reading_t m;
       EXPECT(lc_metal_read(&metal, &inputs[i], &m), LC_OK);
       CHECK((int32_t)m.metal_class == r.value && m.delta_q40 == r.q40 &&
             m.status == r.status && m.fault == r.fault && m.has_ring_drop == r.has_secondary &&
             (!m.has_ring_drop || m.ring_drop == r.secondary));
-      line_reading(&line, (uint32_t)i, (int32_t)m.metal_class, m.has_ring_drop, m.ring_drop,
-                   m.delta_q40, m.status, m.fault);
+      put_reading((uint32_t)i, (int32_t)m.metal_class, m.has_ring_drop, m.ring_drop,
+                  m.delta_q40, m.status, m.fault);
     }
     CHECK(r.status == LC_STATUS_SENSOR_FAULT ? r.fault != LC_FAULT_NONE
                                               : r.fault == LC_FAULT_NONE);
-    print_line(&line);
   }
 }
 
@@ -330,6 +331,94 @@ static void bad_arguments(const lc_image_t *prox_image, const lc_image_t *level_
   }
 }
 
+/* The one-call lc_*_reader_open: each builds its own kind's reader, whose
+   readings equal those of the reader built in two steps; it refuses the
+   other kinds, bad images and bad arguments as the two calls do, and a
+   failed call leaves the reader not initialised. */
+static void open_readers(uint8_t *const bytes[3], const size_t lens[3],
+                         const lc_input_t *const inputs[3], const size_t counts[3]) {
+  static uint64_t block[64];
+  void *misaligned = (unsigned char *)block + 4;
+  lc_proximity_reader_t prox, prox2;
+  lc_level_reader_t level, level2;
+  lc_metal_reader_t metal, metal2;
+  lc_image_t image;
+  lc_input_t in = {{16384u, 139506u}, {0u, 0u}, 0, 0u, 0u};
+
+  EXPECT(lc_proximity_reader_open(&prox, bytes[0], lens[0]), LC_OK);
+  EXPECT(lc_image_validate_proximity(&image, bytes[0], lens[0]), LC_OK);
+  EXPECT(lc_proximity_reader_init(&prox2, &image), LC_OK);
+  for (size_t i = 0; i < counts[0]; i++) {
+    lc_proximity_reading_t a, b;
+    EXPECT(lc_proximity_read(&prox, &inputs[0][i], &a), LC_OK);
+    EXPECT(lc_proximity_read(&prox2, &inputs[0][i], &b), LC_OK);
+    CHECK(memcmp(&a, &b, sizeof a) == 0);
+  }
+  EXPECT(lc_level_reader_open(&level, bytes[1], lens[1]), LC_OK);
+  EXPECT(lc_image_validate_level(&image, bytes[1], lens[1]), LC_OK);
+  EXPECT(lc_level_reader_init(&level2, &image), LC_OK);
+  for (size_t i = 0; i < counts[1]; i++) {
+    lc_level_reading_t a, b;
+    EXPECT(lc_level_read(&level, &inputs[1][i], &a), LC_OK);
+    EXPECT(lc_level_read(&level2, &inputs[1][i], &b), LC_OK);
+    CHECK(a.level == b.level && a.axis_q40 == b.axis_q40 && a.volume == b.volume &&
+          a.has_volume == b.has_volume && a.axis_is_ratio == b.axis_is_ratio &&
+          a.status == b.status && a.fault == b.fault);
+  }
+  EXPECT(lc_metal_reader_open(&metal, bytes[2], lens[2]), LC_OK);
+  EXPECT(lc_image_validate_metal(&image, bytes[2], lens[2]), LC_OK);
+  EXPECT(lc_metal_reader_init(&metal2, &image), LC_OK);
+  for (size_t i = 0; i < counts[2]; i++) {
+    lc_metal_reading_t a, b;
+    EXPECT(lc_metal_read(&metal, &inputs[2][i], &a), LC_OK);
+    EXPECT(lc_metal_read(&metal2, &inputs[2][i], &b), LC_OK);
+    CHECK(a.delta_q40 == b.delta_q40 && a.ring_drop == b.ring_drop &&
+          a.has_ring_drop == b.has_ring_drop && a.metal_class == b.metal_class &&
+          a.status == b.status && a.fault == b.fault);
+  }
+
+  /* Other kinds: refused, and the reader left not initialised. */
+  lc_proximity_reading_t pr;
+  lc_level_reading_t lr;
+  lc_metal_reading_t mr;
+  EXPECT(lc_proximity_reader_open(&prox, bytes[1], lens[1]), LC_ERR_IMAGE_FIELD_READER_KIND);
+  EXPECT(lc_proximity_read(&prox, &in, &pr), LC_ERR_NOT_INITIALISED);
+  EXPECT(lc_level_reader_open(&level, bytes[2], lens[2]), LC_ERR_IMAGE_FIELD_READER_KIND);
+  EXPECT(lc_level_read(&level, &in, &lr), LC_ERR_NOT_INITIALISED);
+  EXPECT(lc_metal_reader_open(&metal, bytes[0], lens[0]), LC_ERR_IMAGE_FIELD_READER_KIND);
+  EXPECT(lc_metal_read(&metal, &in, &mr), LC_ERR_NOT_INITIALISED);
+
+  /* Bad images: the codes of the validation. */
+  size_t len = stated_len(bytes[0]);
+  uint8_t *img = malloc(len);
+  memcpy(img, bytes[0], len);
+  img[20] ^= 1;
+  EXPECT(lc_proximity_reader_open(&prox, img, len), LC_ERR_IMAGE_BAD_CRC);
+  EXPECT(lc_proximity_read(&prox, &in, &pr), LC_ERR_NOT_INITIALISED);
+  EXPECT(lc_proximity_reader_open(&prox, bytes[0], 10), LC_ERR_IMAGE_TRUNCATED);
+  /* Exactly len - 1 bytes: a read past them is a heap overflow. */
+  uint8_t *exact = malloc(len - 1);
+  memcpy(exact, bytes[0], len - 1);
+  EXPECT(lc_proximity_reader_open(&prox, exact, len - 1), LC_ERR_IMAGE_TRUNCATED);
+  free(exact);
+  free(img);
+
+  /* Bad arguments. */
+  EXPECT(lc_proximity_reader_open(NULL, bytes[0], lens[0]), LC_ERR_NULL_POINTER);
+  EXPECT(lc_level_reader_open(NULL, bytes[1], lens[1]), LC_ERR_NULL_POINTER);
+  EXPECT(lc_metal_reader_open(NULL, bytes[2], lens[2]), LC_ERR_NULL_POINTER);
+  EXPECT(lc_proximity_reader_open(&prox, NULL, lens[0]), LC_ERR_NULL_POINTER);
+  EXPECT(lc_level_reader_open(&level, NULL, lens[1]), LC_ERR_NULL_POINTER);
+  EXPECT(lc_metal_reader_open(&metal, NULL, lens[2]), LC_ERR_NULL_POINTER);
+  EXPECT(lc_proximity_reader_open(&prox, bytes[0], SIZE_MAX), LC_ERR_BAD_LENGTH);
+  EXPECT(lc_proximity_reader_open((lc_proximity_reader_t *)misaligned, bytes[0], lens[0]),
+         LC_ERR_MISALIGNED_ARGUMENT);
+  EXPECT(lc_level_reader_open((lc_level_reader_t *)misaligned, bytes[1], lens[1]),
+         LC_ERR_MISALIGNED_ARGUMENT);
+  EXPECT(lc_metal_reader_open((lc_metal_reader_t *)misaligned, bytes[2], lens[2]),
+         LC_ERR_MISALIGNED_ARGUMENT);
+}
+
 int main(int argc, char **argv) {
   if (argc != 4) {
     fprintf(stderr, "usage: host_test PROXIMITY.lcim LEVEL.lcim METAL.lcim\n");
@@ -390,6 +479,7 @@ int main(int argc, char **argv) {
     EXPECT(one_kind[v](&image, bytes[v], SIZE_MAX), LC_ERR_BAD_LENGTH);
     EXPECT(one_kind[v](&image, bytes[v], 10), LC_ERR_IMAGE_TRUNCATED);
   }
+  open_readers(bytes, lens, inputs, counts);
   for (int k = 0; k < 3; k++) {
     bad_images(bytes[k], lens[k]);
   }
