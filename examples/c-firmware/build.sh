@@ -3,9 +3,12 @@
 # with Debian's ARM cross toolchain (apt-get install gcc-arm-none-eabi):
 # one proximity, level and metal unit each, linking lc-core's C API.
 #
-#   build.sh [LIB [OUT]]   build OUT/{proximity,level,metal}.elf
-#                          (LIB: liblc_core_capi.a for thumbv6m-none-eabi;
-#                          default: built here with cargo; OUT default:
+#   build.sh [LIBS [OUT]]  build OUT/{proximity,level,metal}.elf, each
+#                          linking LIBS/<unit>/liblc_core_capi.a: the
+#                          library for thumbv6m-none-eabi built with that
+#                          unit's reader alone (cargo feature; default:
+#                          built here with cargo into
+#                          <repo>/target/capi/units; OUT default:
 #                          <repo>/target/c-firmware)
 #   build.sh run BIN       build and run BIN in QEMU: one line per reading,
 #                          then its peak stack
@@ -18,16 +21,27 @@ here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 root="$(cd "$here/../.." && pwd)"
 cc=${ARM_CC:-arm-none-eabi-gcc}
 
-build_lib() {
-    # What a product ships: opt-level "s", LTO, one codegen unit. `cargo
-    # rustc --crate-type staticlib`: with the package's two crate types
+units=(proximity level metal)
+
+build_libs() {
+    # What a product ships: opt-level "s", LTO, one codegen unit, and the
+    # unit's own entry points only (`--no-default-features --features
+    # panic-handler,<unit>`: lc_<unit>_reader_open, lc_<unit>_read), so
+    # that the library is optimised for them alone. `cargo rustc
+    # --crate-type staticlib`: with the package's two crate types
     # (staticlib, rlib) Cargo would leave LTO out.
-    (cd "$root" && CARGO_TARGET_DIR="$root/target/capi" \
-        CARGO_PROFILE_RELEASE_OPT_LEVEL=s CARGO_PROFILE_RELEASE_LTO=true \
-        CARGO_PROFILE_RELEASE_CODEGEN_UNITS=1 \
-        cargo rustc -q --release -p lc-core-capi --lib --crate-type staticlib \
-        --features crc-nibble --target thumbv6m-none-eabi)
-    echo "$root/target/capi/thumbv6m-none-eabi/release/liblc_core_capi.a"
+    local libs="$root/target/capi/units" unit
+    for unit in "${units[@]}"; do
+        (cd "$root" && CARGO_TARGET_DIR="$root/target/capi" \
+            CARGO_PROFILE_RELEASE_OPT_LEVEL=s CARGO_PROFILE_RELEASE_LTO=true \
+            CARGO_PROFILE_RELEASE_CODEGEN_UNITS=1 \
+            cargo rustc -q --release -p lc-core-capi --lib --crate-type staticlib \
+            --no-default-features --features "panic-handler,crc-nibble,$unit" \
+            --target thumbv6m-none-eabi)
+        mkdir -p "$libs/$unit"
+        cp "$root/target/capi/thumbv6m-none-eabi/release/liblc_core_capi.a" "$libs/$unit/"
+    done
+    echo "$libs"
 }
 
 if [[ "${1:-}" == run ]]; then
@@ -40,7 +54,7 @@ if [[ "${1:-}" == run ]]; then
         -kernel "$root/target/c-firmware/$2.elf" </dev/null
 fi
 
-lib="${1:-$(build_lib)}"
+libs="${1:-$(build_libs)}"
 out="${2:-$root/target/c-firmware}"
 mkdir -p "$out"
 command -v "$cc" >/dev/null 2>&1 ||
@@ -51,12 +65,12 @@ command -v "$cc" >/dev/null 2>&1 ||
 # function and object, unused ones dropped (--gc-sections).
 cflags=(-mcpu=cortex-m0 -mthumb -std=gnu11 -Os -flto -g -ffreestanding -ffunction-sections
     -fdata-sections -Wall -Wextra -Werror -I "$root/lc-core/capi/include" -I "$here/src")
-for unit in proximity level metal; do
+for unit in "${units[@]}"; do
     upper=$(tr '[:lower:]' '[:upper:]' <<<"$unit")
     "$cc" "${cflags[@]}" -DUNIT_"$upper" \
         -DLC_IMAGE_FILE="\"$root/examples/unit-firmware/data/$unit.lcim\"" \
         "$here/src/main.c" "$here/src/board.c" "$here/src/report.c" "$here/src/script.c" \
         "$here/src/image.S" \
         -nostdlib -nostartfiles -T "$here/link.ld" -Wl,--gc-sections -Wl,-z,noexecstack \
-        "$lib" -lgcc -o "$out/$unit.elf"
+        "$libs/$unit/liblc_core_capi.a" -lgcc -o "$out/$unit.elf"
 done

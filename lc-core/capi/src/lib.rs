@@ -11,6 +11,14 @@
 //! cbindgen (`lc-core/capi/tests/header.rs`; `LC_WRITE_HEADER=1` rewrites it) and
 //! checked into the repository; docs/c-api.md is the C user's guide.
 //!
+//! Features: the entry points come in groups, each a cargo feature (all
+//! on by default): `proximity`, `level`, `metal` (each reader's one-call
+//! `lc_<kind>_reader_open` and its `lc_<kind>_read`) and `image` (the
+//! two-step path over an `lc_image_t`, and the any-kind reader). A
+//! firmware builds the library with its own group alone, so that the
+//! library is optimised for the entry points it calls, as a Rust
+//! firmware's whole-program build is.
+//!
 //! Storage: every type the caller keeps (`lc_image_t`, the readers) is an
 //! array of `uint64_t` words sized from `core::mem::size_of` of the Rust
 //! type it holds plus a tag word, so it follows lc-core's layout. The
@@ -28,6 +36,17 @@
 #![deny(unsafe_op_in_unsafe_fn)]
 // The C names are the API.
 #![allow(non_camel_case_types)]
+// A library built for one product (some of the features `proximity`,
+// `level`, `metal`, `image` off) leaves some helpers unused.
+#![cfg_attr(
+    not(all(
+        feature = "proximity",
+        feature = "level",
+        feature = "metal",
+        feature = "image"
+    )),
+    allow(dead_code, unused_imports)
+)]
 
 // The proof's panic handler (lc-core/capi/proof).
 #[cfg(all(target_os = "none", feature = "panic-never"))]
@@ -971,10 +990,13 @@ fn code(f: impl FnOnce() -> Result<(), lc_error_t>) -> lc_error_t {
 /// Cost on a Cortex-M0: about 6 instructions per image byte (the CRC)
 /// plus a few hundred per curve segment; start-up only.
 ///
+/// Library feature: `image` (docs/c-api.md).
+///
 /// # Safety
 /// `image` points to writable `lc_image_t` storage; `bytes` to `len`
 /// readable bytes that stay unchanged while `image` or its readers are
 /// used.
+#[cfg(feature = "image")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_image_validate(
     image: *mut lc_image_t,
@@ -990,8 +1012,11 @@ pub unsafe extern "C" fn lc_image_validate(
 /// the reader kind), and only the proximity checks linked in (the other
 /// kinds' code stays out of the firmware's flash).
 ///
+/// Library features: `image` and `proximity` (docs/c-api.md).
+///
 /// # Safety
 /// As [`lc_image_validate`].
+#[cfg(all(feature = "image", feature = "proximity"))]
 #[no_mangle]
 pub unsafe extern "C" fn lc_image_validate_proximity(
     image: *mut lc_image_t,
@@ -1005,8 +1030,11 @@ pub unsafe extern "C" fn lc_image_validate_proximity(
 /// [`lc_image_validate`] for a level unit's firmware (as
 /// [`lc_image_validate_proximity`]).
 ///
+/// Library features: `image` and `level` (docs/c-api.md).
+///
 /// # Safety
 /// As [`lc_image_validate`].
+#[cfg(all(feature = "image", feature = "level"))]
 #[no_mangle]
 pub unsafe extern "C" fn lc_image_validate_level(
     image: *mut lc_image_t,
@@ -1020,8 +1048,11 @@ pub unsafe extern "C" fn lc_image_validate_level(
 /// [`lc_image_validate`] for a metal detector's firmware (as
 /// [`lc_image_validate_proximity`]).
 ///
+/// Library features: `image` and `metal` (docs/c-api.md).
+///
 /// # Safety
 /// As [`lc_image_validate`].
+#[cfg(all(feature = "image", feature = "metal"))]
 #[no_mangle]
 pub unsafe extern "C" fn lc_image_validate_metal(
     image: *mut lc_image_t,
@@ -1104,11 +1135,23 @@ unsafe fn open<S, T>(
         // SAFETY: the caller's contract: `reader` holds a `Slot<T>`, and
         // its tag is set only once `init` has written the reader.
         unsafe {
-            init(slot(reader), &image).map_err(reader_error)?;
+            initialise(slot(reader), &image, init)?;
             set_tag::<_, T>(reader, tag);
         }
         Ok(())
     })
+}
+
+/// `init` of the reader in `slot`: a function of its own, so that its
+/// frame (the reader's parts as they are built) and the validation's are
+/// never on the stack together.
+#[inline(never)]
+fn initialise<T>(
+    slot: &mut MaybeUninit<T>,
+    image: &Image<'static>,
+    init: impl FnOnce(&mut MaybeUninit<T>, &Image<'static>) -> Result<(), ReaderError>,
+) -> Result<(), lc_error_t> {
+    init(slot, image).map_err(reader_error)
 }
 
 /// The validated image in `image`.
@@ -1160,9 +1203,12 @@ unsafe fn build<S, T>(
 /// `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
 /// `LC_ERR_NOT_INITIALISED` (`image` not validated).
 ///
+/// Library feature: `image` (docs/c-api.md).
+///
 /// # Safety
 /// `image` points to `lc_image_t` storage, `info` to a writable
 /// `lc_image_info_t`.
+#[cfg(feature = "image")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_image_info(
     image: *const lc_image_t,
@@ -1203,10 +1249,13 @@ pub unsafe extern "C" fn lc_image_info(
 /// validation; start-up only); the reader borrows the curve from the
 /// image's bytes.
 ///
+/// Library features: `image` and `proximity` (docs/c-api.md).
+///
 /// # Safety
 /// `reader` points to writable `lc_proximity_reader_t` storage, `image`
 /// to `lc_image_t` storage; the image's bytes stay unchanged while the
 /// reader is used.
+#[cfg(all(feature = "image", feature = "proximity"))]
 #[no_mangle]
 pub unsafe extern "C" fn lc_proximity_reader_init(
     reader: *mut lc_proximity_reader_t,
@@ -1237,9 +1286,12 @@ pub unsafe extern "C" fn lc_proximity_reader_init(
 /// `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
 /// initialised.
 ///
+/// Library feature: `proximity` (docs/c-api.md).
+///
 /// # Safety
-/// `reader` points to writable `lc_proximity_reader_t` storage; `bytes` to `len`
-/// readable bytes that stay unchanged while the reader is used.
+/// `reader` points to writable `lc_proximity_reader_t` storage; `bytes` to
+/// `len` readable bytes that stay unchanged while the reader is used.
+#[cfg(feature = "proximity")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_proximity_reader_open(
     reader: *mut lc_proximity_reader_t,
@@ -1264,10 +1316,13 @@ pub unsafe extern "C" fn lc_proximity_reader_open(
 /// `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
 /// `LC_ERR_NOT_INITIALISED`, `LC_ERR_BAD_INPUT_FLAGS`.
 ///
+/// Library feature: `proximity` (docs/c-api.md).
+///
 /// # Safety
 /// `reader` points to `lc_proximity_reader_t` storage not used by
 /// another call at the same time, `input` to an `lc_input_t`, `reading`
 /// to a writable `lc_proximity_reading_t`.
+#[cfg(feature = "proximity")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_proximity_read(
     reader: *mut lc_proximity_reader_t,
@@ -1289,8 +1344,11 @@ pub unsafe extern "C" fn lc_proximity_read(
 /// Builds a level reader from a validated image into `reader`. Errors:
 /// as `lc_proximity_reader_init`.
 ///
+/// Library features: `image` and `level` (docs/c-api.md).
+///
 /// # Safety
 /// As `lc_proximity_reader_init`, with `lc_level_reader_t` storage.
+#[cfg(all(feature = "image", feature = "level"))]
 #[no_mangle]
 pub unsafe extern "C" fn lc_level_reader_init(
     reader: *mut lc_level_reader_t,
@@ -1317,9 +1375,12 @@ pub unsafe extern "C" fn lc_level_reader_init(
 /// `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
 /// initialised.
 ///
+/// Library feature: `level` (docs/c-api.md).
+///
 /// # Safety
-/// `reader` points to writable `lc_level_reader_t` storage; `bytes` to `len`
-/// readable bytes that stay unchanged while the reader is used.
+/// `reader` points to writable `lc_level_reader_t` storage; `bytes` to
+/// `len` readable bytes that stay unchanged while the reader is used.
+#[cfg(feature = "level")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_level_reader_open(
     reader: *mut lc_level_reader_t,
@@ -1337,9 +1398,12 @@ pub unsafe extern "C" fn lc_level_reader_open(
 /// One level reading (the level, and the volume when the image has a
 /// volume table). Errors: as `lc_proximity_read`.
 ///
+/// Library feature: `level` (docs/c-api.md).
+///
 /// # Safety
 /// As `lc_proximity_read`, with `lc_level_reader_t` storage and an
 /// `lc_level_reading_t`.
+#[cfg(feature = "level")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_level_read(
     reader: *mut lc_level_reader_t,
@@ -1362,8 +1426,11 @@ pub unsafe extern "C" fn lc_level_read(
 /// as `lc_proximity_reader_init`. Cost: two small divisions (the thresholds); the reader needs nothing from
 /// the image afterwards.
 ///
+/// Library features: `image` and `metal` (docs/c-api.md).
+///
 /// # Safety
 /// As `lc_proximity_reader_init`, with `lc_metal_reader_t` storage.
+#[cfg(all(feature = "image", feature = "metal"))]
 #[no_mangle]
 pub unsafe extern "C" fn lc_metal_reader_init(
     reader: *mut lc_metal_reader_t,
@@ -1390,9 +1457,12 @@ pub unsafe extern "C" fn lc_metal_reader_init(
 /// `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
 /// initialised.
 ///
+/// Library feature: `metal` (docs/c-api.md).
+///
 /// # Safety
-/// `reader` points to writable `lc_metal_reader_t` storage; `bytes` to `len`
-/// readable bytes that stay unchanged while the reader is used.
+/// `reader` points to writable `lc_metal_reader_t` storage; `bytes` to
+/// `len` readable bytes that stay unchanged while the reader is used.
+#[cfg(feature = "metal")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_metal_reader_open(
     reader: *mut lc_metal_reader_t,
@@ -1410,9 +1480,12 @@ pub unsafe extern "C" fn lc_metal_reader_open(
 /// One metal reading; updates the baseline and the detector. Errors: as
 /// `lc_proximity_read`.
 ///
+/// Library feature: `metal` (docs/c-api.md).
+///
 /// # Safety
 /// As `lc_proximity_read`, with `lc_metal_reader_t` storage and an
 /// `lc_metal_reading_t`.
+#[cfg(feature = "metal")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_metal_read(
     reader: *mut lc_metal_reader_t,
@@ -1437,8 +1510,11 @@ pub unsafe extern "C" fn lc_metal_read(
 /// `LC_ERR_MISALIGNED_ARGUMENT`, `LC_ERR_NOT_INITIALISED`,
 /// `LC_ERR_NOT_BUILT`.
 ///
+/// Library feature: `image` (docs/c-api.md).
+///
 /// # Safety
 /// As `lc_proximity_reader_init`, with `lc_reader_t` storage.
+#[cfg(feature = "image")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_reader_init(
     reader: *mut lc_reader_t,
@@ -1457,9 +1533,12 @@ pub unsafe extern "C" fn lc_reader_init(
 
 /// One reading of any reader. Errors: as `lc_proximity_read`.
 ///
+/// Library feature: `image` (docs/c-api.md).
+///
 /// # Safety
 /// As `lc_proximity_read`, with `lc_reader_t` storage and an
 /// `lc_reading_t`.
+#[cfg(feature = "image")]
 #[no_mangle]
 pub unsafe extern "C" fn lc_reader_read(
     reader: *mut lc_reader_t,

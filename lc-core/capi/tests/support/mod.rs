@@ -67,6 +67,19 @@ pub fn have_target(triple: &str) -> bool {
 /// lc-core, one codegen unit, the 64-byte CRC table (the unit firmwares' profile and lc-core
 /// features). Returns the library's path.
 pub fn build_lib(triple: Option<&str>) -> PathBuf {
+    build(triple, None)
+}
+
+/// [`build_lib`] with one unit's entry points alone (`--no-default-features
+/// --features panic-handler,crc-nibble,<unit>`: `lc_<unit>_reader_open`,
+/// `lc_<unit>_read`), what that unit's firmware links; copied to
+/// `<target dir>/capi/units/<unit>/liblc_core_capi.a` (the path
+/// `examples/c-firmware/build.sh` reads).
+pub fn build_unit_lib(triple: &str, unit: &str) -> PathBuf {
+    build(Some(triple), Some(unit))
+}
+
+fn build(triple: Option<&str>, unit: Option<&str>) -> PathBuf {
     static LOCK: Mutex<()> = Mutex::new(());
     let _guard = LOCK.lock().unwrap_or_else(|e| e.into_inner());
     let cargo = env::var_os("CARGO").unwrap_or_else(|| OsString::from("cargo"));
@@ -92,12 +105,18 @@ pub fn build_lib(triple: Option<&str>) -> PathBuf {
             "--lib",
             "--crate-type",
             "staticlib",
-            // The unit firmwares' CRC table: 960 bytes less flash.
-            "--features",
-            "crc-nibble",
         ])
         .arg("--manifest-path")
         .arg(root.join("Cargo.toml"));
+    // The unit firmwares' CRC table: 960 bytes less flash.
+    match unit {
+        Some(u) => cmd.args([
+            "--no-default-features",
+            "--features",
+            &format!("panic-handler,crc-nibble,{u}"),
+        ]),
+        None => cmd.args(["--features", "crc-nibble"]),
+    };
     if let Some(t) = triple {
         cmd.args(["--target", t]);
     }
@@ -114,6 +133,15 @@ pub fn build_lib(triple: Option<&str>) -> PathBuf {
     }
     lib.push("release/liblc_core_capi.a");
     assert!(lib.is_file(), "{} was built", lib.display());
+    // A unit's library is copied while the lock is held: the next build
+    // (other features) writes the same file.
+    if let Some(u) = unit {
+        let dir = target_dir().join("units").join(u);
+        fs::create_dir_all(&dir).expect("create the library folder");
+        let copy = dir.join("liblc_core_capi.a");
+        fs::copy(&lib, &copy).expect("copy the library");
+        return copy;
+    }
     lib
 }
 
