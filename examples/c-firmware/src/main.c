@@ -29,7 +29,7 @@
 
    LC_CHECK_LAYOUT() (lc_core.h) checks at run time that the header and
    the library are from one build; this example leaves it out, as the
-   Rust firmwares have no such call (about 110 bytes of flash).
+   Rust firmwares have no such call (about 150 bytes of flash).
 
    Not a safety-rated component: a reading that protects people or
    machines needs a safety function designed to the applicable standards. */
