@@ -75,7 +75,8 @@ use lc_core::temperature::CentiCelsius;
 
 /// The result of every function: `LC_OK` (0) or why it failed. A failed
 /// call changes nothing the caller passed, except that a failed
-/// `lc_image_validate` or `*_init` marks its storage as not initialised.
+/// `lc_image_validate`, `*_init` or `*_open` marks its storage as not
+/// initialised.
 ///
 /// Codes 1-15 are argument errors, 16-31 reader errors, 32 and above
 /// image errors: the image's checks in the order they run (the first
