@@ -78,7 +78,8 @@
 /*
  The result of every function: `LC_OK` (0) or why it failed. A failed
  call changes nothing the caller passed, except that a failed
- `lc_image_validate` or `*_init` marks its storage as not initialised.
+ `lc_image_validate`, `*_init` or `*_open` marks its storage as not
+ initialised.
 
  Codes 1-15 are argument errors, 16-31 reader errors, 32 and above
  image errors: the image's checks in the order they run (the first
@@ -914,7 +915,8 @@ extern "C" {
 
 /*
  The layout of this build (the header generator reads it from the
- built Cortex-M library; `lc_check_layout` from C).
+ built Cortex-M library; `lc_check_layout` from C). Exported, not
+ `#[used]`: a firmware that never reads it leaves it out of its flash.
  */
 extern const struct lc_layout_t lc_core_capi_layout;
 
@@ -940,6 +942,8 @@ extern const struct lc_layout_t lc_core_capi_layout;
  Cost on a Cortex-M0: about 6 instructions per image byte (the CRC)
  plus a few hundred per curve segment; start-up only.
 
+ Library feature: `image` (docs/c-api.md).
+
  # Safety
  `image` points to writable `lc_image_t` storage; `bytes` to `len`
  readable bytes that stay unchanged while `image` or its readers are
@@ -955,6 +959,8 @@ lc_error_t lc_image_validate(struct lc_image_t *image,
  the reader kind), and only the proximity checks linked in (the other
  kinds' code stays out of the firmware's flash).
 
+ Library features: `image` and `proximity` (docs/c-api.md).
+
  # Safety
  As [`lc_image_validate`].
  */
@@ -966,6 +972,8 @@ lc_error_t lc_image_validate_proximity(struct lc_image_t *image,
  [`lc_image_validate`] for a level unit's firmware (as
  [`lc_image_validate_proximity`]).
 
+ Library features: `image` and `level` (docs/c-api.md).
+
  # Safety
  As [`lc_image_validate`].
  */
@@ -976,6 +984,8 @@ lc_error_t lc_image_validate_level(struct lc_image_t *image,
 /*
  [`lc_image_validate`] for a metal detector's firmware (as
  [`lc_image_validate_proximity`]).
+
+ Library features: `image` and `metal` (docs/c-api.md).
 
  # Safety
  As [`lc_image_validate`].
@@ -989,6 +999,8 @@ lc_error_t lc_image_validate_metal(struct lc_image_t *image,
  CRC, reference clock, gate, read from the image's bytes. Errors:
  `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
  `LC_ERR_NOT_INITIALISED` (`image` not validated).
+
+ Library feature: `image` (docs/c-api.md).
 
  # Safety
  `image` points to `lc_image_t` storage, `info` to a writable
@@ -1005,6 +1017,8 @@ lc_error_t lc_image_info(const struct lc_image_t *image,
  validation; start-up only); the reader borrows the curve from the
  image's bytes.
 
+ Library features: `image` and `proximity` (docs/c-api.md).
+
  # Safety
  `reader` points to writable `lc_proximity_reader_t` storage, `image`
  to `lc_image_t` storage; the image's bytes stay unchanged while the
@@ -1014,10 +1028,34 @@ lc_error_t lc_proximity_reader_init(struct lc_proximity_reader_t *reader,
                                     const struct lc_image_t *image);
 
 /*
+ Validates a proximity image in place and builds the proximity reader from
+ it, in one call: [`lc_image_validate_proximity`] then
+ [`lc_proximity_reader_init`], without an `lc_image_t`. For a firmware
+ that needs nothing else from the image (no `lc_image_info`); it links
+ less code than the two calls. `bytes` and `len` as for
+ `lc_image_validate`: the bytes stay where they are, unchanged, for as
+ long as the reader is used. Errors: those of the two calls (`reader`
+ checked first, then `bytes`); an image of another kind is
+ `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
+ initialised.
+
+ Library feature: `proximity` (docs/c-api.md).
+
+ # Safety
+ `reader` points to writable `lc_proximity_reader_t` storage; `bytes` to
+ `len` readable bytes that stay unchanged while the reader is used.
+ */
+lc_error_t lc_proximity_reader_open(struct lc_proximity_reader_t *reader,
+                                    const uint8_t *bytes,
+                                    size_t len);
+
+/*
  One proximity reading: `input` in, `reading` out (written only on
  `LC_OK`). A sensor fault is a reading's status, not an error. Errors:
  `LC_ERR_NULL_POINTER`, `LC_ERR_MISALIGNED_ARGUMENT`,
  `LC_ERR_NOT_INITIALISED`, `LC_ERR_BAD_INPUT_FLAGS`.
+
+ Library feature: `proximity` (docs/c-api.md).
 
  # Safety
  `reader` points to `lc_proximity_reader_t` storage not used by
@@ -1032,6 +1070,8 @@ lc_error_t lc_proximity_read(struct lc_proximity_reader_t *reader,
  Builds a level reader from a validated image into `reader`. Errors:
  as `lc_proximity_reader_init`.
 
+ Library features: `image` and `level` (docs/c-api.md).
+
  # Safety
  As `lc_proximity_reader_init`, with `lc_level_reader_t` storage.
  */
@@ -1039,8 +1079,32 @@ lc_error_t lc_level_reader_init(struct lc_level_reader_t *reader,
                                 const struct lc_image_t *image);
 
 /*
+ Validates a level image in place and builds the level reader from
+ it, in one call: [`lc_image_validate_level`] then
+ [`lc_level_reader_init`], without an `lc_image_t`. For a firmware
+ that needs nothing else from the image (no `lc_image_info`); it links
+ less code than the two calls. `bytes` and `len` as for
+ `lc_image_validate`: the bytes stay where they are, unchanged, for as
+ long as the reader is used. Errors: those of the two calls (`reader`
+ checked first, then `bytes`); an image of another kind is
+ `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
+ initialised.
+
+ Library feature: `level` (docs/c-api.md).
+
+ # Safety
+ `reader` points to writable `lc_level_reader_t` storage; `bytes` to
+ `len` readable bytes that stay unchanged while the reader is used.
+ */
+lc_error_t lc_level_reader_open(struct lc_level_reader_t *reader,
+                                const uint8_t *bytes,
+                                size_t len);
+
+/*
  One level reading (the level, and the volume when the image has a
  volume table). Errors: as `lc_proximity_read`.
+
+ Library feature: `level` (docs/c-api.md).
 
  # Safety
  As `lc_proximity_read`, with `lc_level_reader_t` storage and an
@@ -1055,6 +1119,8 @@ lc_error_t lc_level_read(struct lc_level_reader_t *reader,
  as `lc_proximity_reader_init`. Cost: two small divisions (the thresholds); the reader needs nothing from
  the image afterwards.
 
+ Library features: `image` and `metal` (docs/c-api.md).
+
  # Safety
  As `lc_proximity_reader_init`, with `lc_metal_reader_t` storage.
  */
@@ -1062,8 +1128,32 @@ lc_error_t lc_metal_reader_init(struct lc_metal_reader_t *reader,
                                 const struct lc_image_t *image);
 
 /*
+ Validates a metal image in place and builds the metal reader from
+ it, in one call: [`lc_image_validate_metal`] then
+ [`lc_metal_reader_init`], without an `lc_image_t`. For a firmware
+ that needs nothing else from the image (no `lc_image_info`); it links
+ less code than the two calls. `bytes` and `len` as for
+ `lc_image_validate`: the bytes stay where they are, unchanged, for as
+ long as the reader is used. Errors: those of the two calls (`reader`
+ checked first, then `bytes`); an image of another kind is
+ `LC_ERR_IMAGE_FIELD_READER_KIND`. A failed call leaves `reader` not
+ initialised.
+
+ Library feature: `metal` (docs/c-api.md).
+
+ # Safety
+ `reader` points to writable `lc_metal_reader_t` storage; `bytes` to
+ `len` readable bytes that stay unchanged while the reader is used.
+ */
+lc_error_t lc_metal_reader_open(struct lc_metal_reader_t *reader,
+                                const uint8_t *bytes,
+                                size_t len);
+
+/*
  One metal reading; updates the baseline and the detector. Errors: as
  `lc_proximity_read`.
+
+ Library feature: `metal` (docs/c-api.md).
 
  # Safety
  As `lc_proximity_read`, with `lc_metal_reader_t` storage and an
@@ -1080,6 +1170,8 @@ lc_error_t lc_metal_read(struct lc_metal_reader_t *reader,
  `LC_ERR_MISALIGNED_ARGUMENT`, `LC_ERR_NOT_INITIALISED`,
  `LC_ERR_NOT_BUILT`.
 
+ Library feature: `image` (docs/c-api.md).
+
  # Safety
  As `lc_proximity_reader_init`, with `lc_reader_t` storage.
  */
@@ -1088,6 +1180,8 @@ lc_error_t lc_reader_init(struct lc_reader_t *reader,
 
 /*
  One reading of any reader. Errors: as `lc_proximity_read`.
+
+ Library feature: `image` (docs/c-api.md).
 
  # Safety
  As `lc_proximity_read`, with `lc_reader_t` storage and an
