@@ -15,36 +15,66 @@ pub trait Sink {
     fn put(&mut self, bytes: &[u8]);
 }
 
-/// Appends `v` in decimal.
-pub fn uint(out: &mut impl Sink, mut v: u32) {
-    let mut digits = [0u8; 10];
-    let mut start = digits.len();
-    while let Some(d) = start.checked_sub(1).and_then(|i| digits.get_mut(i)) {
-        // v % 10 < 10: the cast is exact.
-        *d = b'0' + (v % 10) as u8;
-        start -= 1;
-        v /= 10;
-        if v == 0 {
-            break;
+/// Powers of ten, largest first: the decimal digits come from repeated
+/// subtraction. Cortex-M0 has no divide instruction, and `v / 10` would
+/// link the runtime's division routine (about 500 bytes) for a few
+/// numbers a line.
+const POWERS_OF_TEN: [u32; 10] = [
+    1_000_000_000,
+    100_000_000,
+    10_000_000,
+    1_000_000,
+    100_000,
+    10_000,
+    1_000,
+    100,
+    10,
+    1,
+];
+
+/// Appends `-` when `negative`, then `magnitude` in decimal.
+fn decimal(out: &mut impl Sink, negative: bool, mut magnitude: u32) {
+    // A sign and at most 10 digits (u32::MAX = 4 294 967 295).
+    let mut text = [b'-'; 11];
+    let mut len = usize::from(negative);
+    for p in POWERS_OF_TEN {
+        let mut digit = b'0';
+        // At most 9 rounds (4 for 10^9): magnitude < 10 * p here, except
+        // for p = 10^9, where magnitude <= u32::MAX < 5 * 10^9.
+        while magnitude >= p {
+            magnitude -= p;
+            digit += 1;
+        }
+        // No leading zeros; the last digit always (0 is "0").
+        if len > usize::from(negative) || digit != b'0' || p == 1 {
+            if let Some(slot) = text.get_mut(len) {
+                *slot = digit;
+                len += 1;
+            }
         }
     }
-    out.put(digits.get(start..).unwrap_or(&[]));
+    out.put(text.get(..len).unwrap_or(&[]));
+}
+
+/// Appends `v` in decimal.
+pub fn uint(out: &mut impl Sink, v: u32) {
+    decimal(out, false, v);
 }
 
 /// Appends `v` in decimal.
 pub fn int(out: &mut impl Sink, v: i32) {
-    if v < 0 {
-        out.put(b"-");
-    }
-    uint(out, v.unsigned_abs());
+    decimal(out, v < 0, v.unsigned_abs());
 }
 
 /// Appends the 64 bits of `v` as 16 hex digits (two's complement).
 pub fn hex64(out: &mut impl Sink, v: i64) {
+    // Two 32-bit halves: M0 has no 64-bit shift instruction.
+    let (high, low) = ((v >> 32) as u32, v as u32);
     let mut digits = [0u8; 16];
-    for (i, d) in (0..16u32).rev().zip(digits.iter_mut()) {
+    for (i, d) in digits.iter_mut().enumerate() {
+        let word = if i < 8 { high } else { low };
         // A nibble (< 16): the cast is exact.
-        let nibble = ((v >> (4 * i)) & 0xF) as u8;
+        let nibble = ((word >> (28 - 4 * (i % 8))) & 0xF) as u8;
         *d = if nibble < 10 {
             b'0' + nibble
         } else {

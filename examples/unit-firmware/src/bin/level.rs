@@ -46,8 +46,8 @@ fn main() -> ! {
         host.fail(b"not a level image\n")
     };
 
-    for (i, input) in (0u32..).zip(black_box(&script::LEVEL)) {
-        let r = reader.read(input);
+    for (i, gate) in (0u32..).zip(black_box(&script::LEVEL_GATES)) {
+        let r = reader.read(&gate.input());
         report::reading(&mut host, i, r.level, r.volume, r.axis.raw_q40(), r.status);
     }
     host.finish()

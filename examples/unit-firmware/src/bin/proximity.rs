@@ -23,12 +23,16 @@
 //! 4. **Read.** Per gate, the timer capture gives a count pair (sensor
 //!    cycles, reference ticks) and the NTC a temperature; `read` turns them
 //!    into a gap in micrometres with a status. A sensor fault is a status,
-//!    never a panic. Here the inputs come from a script (`lc_unit::script`)
-//!    and the readings go to the host over semihosting.
+//!    never a panic. Here the registers' values come from a script
+//!    (`lc_unit::script`: one row of a few bytes a gate, turned into an
+//!    `Input` per reading, as the firmware would do with its capture
+//!    registers) and the readings go to the host over semihosting.
 //!
 //! Memory (measured by `tests/firmware_budget.rs`, docs/performance.md):
 //! everything lives in `main`'s frame; the stack sits at the bottom of RAM
 //! (build.rs) so an overflow faults instead of corrupting the statics.
+//! With less RAM to spare, run the steps in functions of their own, so
+//! the stack holds one step's working memory at a time (`metal.rs`).
 //!
 //! **Not a safety-rated component.** A reading that protects people or
 //! machines needs a safety function designed to the applicable standards.
@@ -62,8 +66,8 @@ fn main() -> ! {
         host.fail(b"not a proximity image\n")
     };
 
-    for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
-        let r = reader.read(input);
+    for (i, gate) in (0u32..).zip(black_box(&script::PROXIMITY_GATES)) {
+        let r = reader.read(&gate.input());
         report::reading(&mut host, i, r.gap, None, r.shift.raw_q40(), r.status);
     }
     host.finish()
