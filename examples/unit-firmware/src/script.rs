@@ -9,7 +9,7 @@
 //! the gate length, or fewer when the oscillator stalled), the reference
 //! ticks captured, the NTC's temperature, the ring count. The firmware
 //! turns one row into an [`Input`] per reading ([`ProximityGate::input`],
-//! [`LevelGate::input`], [`MetalGate::input`]): 8 or 12 bytes a row in
+//! [`LevelGate::input`], [`MetalGate::input`]): 8 to 12 bytes a row in
 //! flash instead of the 32 of an `Input`. [`PROXIMITY`], [`LEVEL`] and
 //! [`METAL`] are the same rows as `Input`s, for the host tests.
 
@@ -150,14 +150,17 @@ pub const LEVEL_GATES: [LevelGate; 10] = [
     level(212_771, NO_CAPTURE, 2_497),
 ];
 
-/// One gate of a metal detector: sensor cycles, reference ticks and the
-/// ring count of the ring-down after the gate.
+/// One gate of a metal detector: sensor cycles, reference ticks, the
+/// temperature (0.01 °C) for the drift model and the ring count of the
+/// ring-down after the gate.
 #[derive(Clone, Copy)]
 pub struct MetalGate {
     /// Reference clock ticks captured over the gate.
     pub ticks: u32,
     /// Sensor cycles counted over the gate.
     pub cycles: u16,
+    /// Temperature in 0.01 °C, or [`NO_TEMPERATURE`].
+    pub centi_c: i16,
     /// Swings above the comparator's threshold, or [`NO_RING_COUNT`].
     pub ring_count: u16,
 }
@@ -172,16 +175,19 @@ impl MetalGate {
         };
         Input {
             ring_count,
+            temperature: temperature(self.centi_c),
             ..Input::counts(CountPair::new(self.cycles as u32, self.ticks))
         }
     }
 }
 
-/// A metal gate of full length with its ring count.
+/// A metal gate of full length at 25.02 °C (the rig's temperature) with
+/// its ring count.
 const fn metal(ticks: u32, ring_count: u16) -> MetalGate {
     MetalGate {
         ticks,
         cycles: GATE,
+        centi_c: 2_502,
         ring_count,
     }
 }
@@ -210,6 +216,7 @@ pub const METAL_GATES: [MetalGate; 18] = [
     MetalGate {
         ticks: 139_506,
         cycles: 0,
+        centi_c: 2_502,
         ring_count: NO_RING_COUNT,
     },
 ];

@@ -6,8 +6,10 @@
 //! (image in flash pages of its own, validate, build, read). What a metal
 //! detector adds:
 //!
-//! - each reading takes a count pair and the ring count of a ring-down
-//!   after the gate (swings above the comparator's threshold);
+//! - each reading takes a count pair, the ring count of a ring-down
+//!   after the gate (swings above the comparator's threshold) and, as
+//!   the image holds a drift model, the temperature (without it the
+//!   reading is a `TemperatureMissing` fault);
 //! - the reader learns the background over its first readings: keep the
 //!   coil clear of metal at power-up;
 //! - the reading (`MetalReading`) is the class (`MetalClass`), the
