@@ -19,13 +19,13 @@
 //!
 //! Memory (measured by `tests/firmware_budget.rs`, docs/performance.md):
 //! a metal detector's part may have 512 bytes of RAM, and the reader alone
-//! takes half of it. So the steps run in functions of their own (kept out
+//! takes over 200 bytes of it. So the steps run in functions of their own (kept out
 //! of line), and the stack holds one step's working memory at a time:
 //!
 //! - `validate` runs before the reader exists;
 //! - `build` writes the reader into `run`'s frame (its return slot);
-//!   `run` then uses it in place, by reference (`match &mut built`:
-//!   moving it out would copy its 248 bytes into a second slot);
+//!   `run` then uses it in place, by reference (`match &mut built`, as
+//!   in `proximity.rs`);
 //! - `run` reads, with the reader and one `Input` on its frame.
 //!
 //! The peak stack is then `main` + the deepest of validation, `run` +

@@ -19,7 +19,9 @@
 //!    and links every kind's checks; this firmware runs one.) A unit whose image fails must not read:
 //!    report it and stop (here: exit with a failure status).
 //! 3. **Build the reader.** `ProximityReader::new` checks the image's
-//!    kind and borrows its curve from flash; nothing is derived.
+//!    kind and borrows its curve from flash; nothing is derived. Use the
+//!    reader where it was built (`match &mut built`): moved out of its
+//!    `Result`, it would be copied.
 //! 4. **Read.** Per gate, the timer capture gives a count pair (sensor
 //!    cycles, reference ticks) and the NTC a temperature; `read` turns them
 //!    into a gap in micrometres with a status. A sensor fault is a status,
@@ -62,8 +64,13 @@ fn main() -> ! {
     let Ok(image) = Image::new_proximity(image) else {
         host.fail(b"calibration image refused\n")
     };
-    let Ok(mut reader) = ProximityReader::new(&image) else {
-        host.fail(b"not a proximity image\n")
+    // The reader is used in place, by reference: moving it out of the
+    // `Result` (`let Ok(mut reader) = …`) would copy it into a second
+    // slot of the frame (and may call `memcpy`).
+    let mut built = ProximityReader::new(&image);
+    let reader = match &mut built {
+        Ok(reader) => reader,
+        Err(_) => host.fail(b"not a proximity image\n"),
     };
 
     for (i, gate) in (0u32..).zip(black_box(&script::PROXIMITY_GATES)) {
