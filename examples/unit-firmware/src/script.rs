@@ -75,9 +75,11 @@ const fn prox(ticks: u32, centi_c: i16) -> ProximityGate {
 }
 
 /// Proximity (DEMO-01-0001): no target, the plate from 8 mm to 0.5 mm at
-/// 25 °C, three gaps at 60 °C, one pair without a temperature, a stalled
-/// oscillator and a pair far outside the fault window.
-pub const PROXIMITY_GATES: [ProximityGate; 12] = [
+/// 25 °C, three gaps at 60 °C, a gate cut short at half its cycles (the
+/// timer's time-out: the shift's general path, with its division), one
+/// pair without a temperature, a stalled oscillator and a pair far outside
+/// the fault window.
+pub const PROXIMITY_GATES: [ProximityGate; 13] = [
     prox(139_506, 2_502),
     prox(134_663, 2_502),
     prox(128_656, 2_502),
@@ -88,6 +90,11 @@ pub const PROXIMITY_GATES: [ProximityGate; 12] = [
     prox(131_393, 6_000),
     prox(114_580, 6_000),
     prox(79_505, 6_000),
+    ProximityGate {
+        ticks: 59_330,
+        cycles: GATE / 2,
+        centi_c: 2_502,
+    },
     prox(122_035, NO_TEMPERATURE),
     prox(0, 2_502),
 ];
@@ -135,9 +142,10 @@ const fn level(ticks: u32, reference_ticks: u32, centi_c: i16) -> LevelGate {
 
 /// Level (TANK-01-0001, coolant tank of 400 mm): empty, 30 mm, 104 mm,
 /// 202.67 mm, 301.33 mm and full at 25 °C; 54.67 mm and 252 mm at 50 °C,
-/// where the coolant's permittivity has fallen; a reference electrode out
-/// of the liquid; the reference pair missing.
-pub const LEVEL_GATES: [LevelGate; 10] = [
+/// where the coolant's permittivity has fallen; 104 mm over a gate cut
+/// short at half its cycles (the shifts' general path, with its division);
+/// a reference electrode out of the liquid; the reference pair missing.
+pub const LEVEL_GATES: [LevelGate; 11] = [
     level(185_943, 184_574, 2_497),
     level(194_063, 190_072, 2_497),
     level(212_771, 190_071, 2_497),
@@ -146,6 +154,12 @@ pub const LEVEL_GATES: [LevelGate; 10] = [
     level(275_164, 190_071, 2_497),
     level(198_944, 189_459, 4_994),
     level(240_151, 189_458, 4_994),
+    LevelGate {
+        ticks: 106_386,
+        reference_ticks: 95_036,
+        cycles: LEVEL_GATE / 2,
+        centi_c: 2_497,
+    },
     level(212_771, 184_574, 2_497),
     level(212_771, NO_CAPTURE, 2_497),
 ];
@@ -194,8 +208,10 @@ const fn metal(ticks: u32, ring_count: u16) -> MetalGate {
 
 /// Metal (DEMO-01-0001 as a detector): background, an aluminium plate at
 /// 8 mm (L down, ring count 31 → 28) for six readings, background again,
-/// then a stalled oscillator (no cycles, no ring-down).
-pub const METAL_GATES: [MetalGate; 18] = [
+/// the background over a gate cut short at half its cycles (the shift's
+/// general path, with its division), then a stalled oscillator (no
+/// cycles, no ring-down).
+pub const METAL_GATES: [MetalGate; 19] = [
     metal(139_506, 31),
     metal(139_507, 31),
     metal(139_506, 31),
@@ -213,6 +229,12 @@ pub const METAL_GATES: [MetalGate; 18] = [
     metal(139_506, 31),
     metal(139_506, 31),
     metal(139_506, 31),
+    MetalGate {
+        ticks: 69_753,
+        cycles: GATE / 2,
+        centi_c: 2_502,
+        ring_count: 31,
+    },
     MetalGate {
         ticks: 139_506,
         cycles: 0,
@@ -236,10 +258,10 @@ macro_rules! inputs {
 }
 
 /// [`PROXIMITY_GATES`] as the reader's inputs.
-pub const PROXIMITY: [Input; 12] = inputs!(PROXIMITY_GATES, 12);
+pub const PROXIMITY: [Input; 13] = inputs!(PROXIMITY_GATES, 13);
 
 /// [`LEVEL_GATES`] as the reader's inputs.
-pub const LEVEL: [Input; 10] = inputs!(LEVEL_GATES, 10);
+pub const LEVEL: [Input; 11] = inputs!(LEVEL_GATES, 11);
 
 /// [`METAL_GATES`] as the reader's inputs.
-pub const METAL: [Input; 18] = inputs!(METAL_GATES, 18);
+pub const METAL: [Input; 19] = inputs!(METAL_GATES, 19);
