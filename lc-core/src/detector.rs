@@ -197,7 +197,6 @@ impl<T: Copy + Ord> Detector<T> {
 
     /// Feeds one sample; returns the event when this sample switched the
     /// state.
-    #[inline]
     pub fn update(&mut self, x: T) -> Option<Event> {
         let (beyond, needed) = match self.presence {
             Presence::Absent => (
@@ -229,6 +228,41 @@ impl<T: Copy + Ord> Detector<T> {
             Presence::Absent => (Presence::Present, Event::Entered),
             Presence::Present => (Presence::Absent, Event::Left),
         };
+        self.presence = presence;
+        Some(event)
+    }
+
+    /// [`Detector::update`] of a detector built [`Polarity::Rising`] (the
+    /// metal reader's): the same result, with the polarity's test left
+    /// out.
+    #[inline]
+    pub(crate) fn update_rising(&mut self, x: T) -> Option<Event> {
+        let beyond = match self.presence {
+            Presence::Absent => x >= self.enter_threshold,
+            Presence::Present => x <= self.leave_threshold,
+        };
+        self.advance(beyond)
+    }
+
+    /// The debounce after the comparison: `beyond` counts towards the
+    /// switch out of the current state.
+    #[inline(always)]
+    fn advance(&mut self, beyond: bool) -> Option<Event> {
+        if !beyond {
+            self.run = 0;
+            return None;
+        }
+        let (needed, presence, event) = match self.presence {
+            Presence::Absent => (self.enter_samples, Presence::Present, Event::Entered),
+            Presence::Present => (self.leave_samples, Presence::Absent, Event::Left),
+        };
+        // run < needed ≤ u16::MAX, so this never wraps.
+        let run = self.run.wrapping_add(1);
+        if run < needed {
+            self.run = run;
+            return None;
+        }
+        self.run = 0;
         self.presence = presence;
         Some(event)
     }
@@ -490,6 +524,18 @@ mod tests {
             let mut d = Detector::new(config).unwrap();
             let got: Vec<_> = xs.iter().map(|&x| d.update(x)).collect();
             prop_assert_eq!(got, reference(&config, &xs));
+        }
+
+        /// `update_rising` equals `update` on a rising detector.
+        #[test]
+        fn update_rising_equals_update(config in config(), xs in prop::collection::vec(-40i32..40, 0..300)) {
+            let config = DetectorConfig { polarity: Polarity::Rising, enter_threshold: config.enter_threshold.max(config.leave_threshold), leave_threshold: config.enter_threshold.min(config.leave_threshold) - 1, ..config };
+            let mut a = Detector::new(config).unwrap();
+            let mut b = a;
+            for &x in &xs {
+                prop_assert_eq!(a.update_rising(x), b.update(x));
+                prop_assert_eq!(a, b);
+            }
         }
 
         /// Events alternate, the first is Entered, and they are never closer

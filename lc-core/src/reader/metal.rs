@@ -163,7 +163,8 @@ impl MetalReader {
             None => false,
         };
         let signal = if lossy { delta.unsigned_abs() } else { 0 };
-        let event = self.detector.update(signal);
+        // The detector is rising (`metal_detector`).
+        let event = self.detector.update_rising(signal);
         if self.detector.is_present() {
             if event.is_some() {
                 self.class = if delta > 0 {
