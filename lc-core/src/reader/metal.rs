@@ -89,6 +89,13 @@ pub struct MetalReader {
 
 /// [`MetalReader::baseline`] before the first sample.
 const UNLEARNED: i64 = i64::MIN;
+/// Whether a baseline state is [`UNLEARNED`], from its high word alone:
+/// a learned state is at least −2^62 + 2^16, its high word at least −2^30.
+#[inline(always)]
+fn unlearned(baseline: i64) -> bool {
+    (baseline >> 32) as i32 == i32::MIN
+}
+
 /// [`MetalReader::ring_baseline`] before the first ring count.
 const RING_UNLEARNED: u32 = u32::MAX;
 
@@ -140,7 +147,7 @@ impl MetalReader {
     #[inline(always)]
     fn track(&mut self, s: i64, ring_count: Option<u16>) -> MetalReading {
         let k = u32::from(self.k);
-        if self.baseline == UNLEARNED {
+        if unlearned(self.baseline) {
             // The first reading (after start or a relearn) is the
             // background; the ring count's average starts with it (it is
             // unlearned too then).
