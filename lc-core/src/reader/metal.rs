@@ -82,8 +82,9 @@ pub struct MetalReader {
     relearn: u32,
     /// `ring_drop` of the image.
     ring_drop: u16,
-    /// `baseline_k` of the image, in 1..=16.
-    k: u8,
+    /// `baseline_k` of the image minus one, in 0..=15 (so that the
+    /// compiler sees k in 1..=16 and its shifts need no masks).
+    k_minus_1: u8,
     class: MetalClass,
 }
 
@@ -121,7 +122,7 @@ impl MetalReader {
             present_for: 0,
             relearn: params.relearn_readings,
             ring_drop: params.ring_drop,
-            k: params.baseline_k,
+            k_minus_1: params.baseline_k.wrapping_sub(1),
             class: MetalClass::None,
         })
     }
@@ -146,7 +147,8 @@ impl MetalReader {
     /// Q23.40, in the baseline's domain).
     #[inline(always)]
     fn track(&mut self, s: i64, ring_count: Option<u16>) -> MetalReading {
-        let k = u32::from(self.k);
+        // k − 1 ≤ 15 (validation): the mask changes nothing.
+        let k = u32::from(self.k_minus_1 & 15) + 1;
         if unlearned(self.baseline) {
             // The first reading (after start or a relearn) is the
             // background; the ring count's average starts with it (it is
