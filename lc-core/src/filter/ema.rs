@@ -104,7 +104,7 @@ const K_MAX: u32 = 16;
 ///
 /// The metal reader's two baselines (a shift and a ring count, learning on
 /// five readings of eight; the same arithmetic on bare states, the shift's
-/// biased so that its output is a plain shift) cost 38 instructions per
+/// biased so that its output is a plain shift) cost 29 instructions per
 /// reading together in the benchmark (`run.sh profile m0`).
 ///
 /// ```
