@@ -102,7 +102,7 @@
 //! 32-bit target (Cortex-M0 and Cortex-M4F, the same), checked at compile
 //! time by the firmware example (`examples/firmware/src/sizes.rs`; a host
 //! build has 64-bit pointers and larger borrowing types; the readers with
-//! the default features, 40 bytes less each without `companion`):
+//! the default features, 32 bytes less each without `companion`):
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|

@@ -285,8 +285,8 @@ pub(crate) struct Front {
     window: FaultWindow,
     converter: ShiftConverter,
     /// Without the `companion` feature the field is left out (a
-    /// validated image has no companion coil then): 40 bytes less per
-    /// reader.
+    /// validated image has no companion coil then): 32 bytes less per
+    /// reader on a 32-bit target.
     #[cfg(feature = "companion")]
     companion: Option<Companion>,
     drift: TemperatureModel,
