@@ -151,55 +151,68 @@ impl<T: Copy + Ord> DetectorConfig<T> {
         }
         Ok(())
     }
-
-    /// The sample counts towards entering.
-    #[inline]
-    fn enters(&self, x: T) -> bool {
-        match self.polarity {
-            Polarity::Rising => x >= self.enter_threshold,
-            Polarity::Falling => x <= self.enter_threshold,
-        }
-    }
-
-    /// The sample counts towards leaving.
-    #[inline]
-    fn leaves(&self, x: T) -> bool {
-        match self.polarity {
-            Polarity::Rising => x <= self.leave_threshold,
-            Polarity::Falling => x >= self.leave_threshold,
-        }
-    }
 }
 
 /// Hysteresis and debounce presence detector. See the
 /// [module docs](self) for the rule.
+///
+/// The configuration's fields are held side by side with the state (no
+/// padding between a nested configuration and the state): 16 bytes for
+/// `Detector<i32>`, 24 for `Detector<u64>`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Detector<T> {
-    config: DetectorConfig<T>,
-    presence: Presence,
+    enter_threshold: T,
+    leave_threshold: T,
     /// Consecutive samples beyond the threshold that leads out of the
     /// current state; always below that state's debounce count.
     run: u16,
+    enter_samples: u16,
+    leave_samples: u16,
+    presence: Presence,
+    polarity: Polarity,
 }
 
 impl<T: Copy + Ord> Detector<T> {
     /// A detector in state `Absent`, after checking `config`.
     pub fn new(config: DetectorConfig<T>) -> Result<Self, DetectorError> {
         config.validate()?;
-        Ok(Self {
-            config,
-            presence: Presence::Absent,
+        Ok(Self::new_unchecked(config))
+    }
+
+    /// [`Detector::new`] of a configuration known to validate (the metal
+    /// reader's, checked by the image's validation).
+    #[inline]
+    pub(crate) const fn new_unchecked(config: DetectorConfig<T>) -> Self {
+        Self {
+            enter_threshold: config.enter_threshold,
+            leave_threshold: config.leave_threshold,
+            enter_samples: config.enter_samples,
+            leave_samples: config.leave_samples,
             run: 0,
-        })
+            polarity: config.polarity,
+            presence: Presence::Absent,
+        }
     }
 
     /// Feeds one sample; returns the event when this sample switched the
     /// state.
     pub fn update(&mut self, x: T) -> Option<Event> {
         let (beyond, needed) = match self.presence {
-            Presence::Absent => (self.config.enters(x), self.config.enter_samples),
-            Presence::Present => (self.config.leaves(x), self.config.leave_samples),
+            Presence::Absent => (
+                match self.polarity {
+                    Polarity::Rising => x >= self.enter_threshold,
+                    Polarity::Falling => x <= self.enter_threshold,
+                },
+                self.enter_samples,
+            ),
+            Presence::Present => (
+                match self.polarity {
+                    Polarity::Rising => x <= self.leave_threshold,
+                    Polarity::Falling => x >= self.leave_threshold,
+                },
+                self.leave_samples,
+            ),
         };
         if !beyond {
             self.run = 0;
@@ -215,6 +228,41 @@ impl<T: Copy + Ord> Detector<T> {
             Presence::Absent => (Presence::Present, Event::Entered),
             Presence::Present => (Presence::Absent, Event::Left),
         };
+        self.presence = presence;
+        Some(event)
+    }
+
+    /// [`Detector::update`] of a detector built [`Polarity::Rising`] (the
+    /// metal reader's): the same result, with the polarity's test left
+    /// out.
+    #[inline]
+    pub(crate) fn update_rising(&mut self, x: T) -> Option<Event> {
+        let beyond = match self.presence {
+            Presence::Absent => x >= self.enter_threshold,
+            Presence::Present => x <= self.leave_threshold,
+        };
+        self.advance(beyond)
+    }
+
+    /// The debounce after the comparison: `beyond` counts towards the
+    /// switch out of the current state.
+    #[inline(always)]
+    fn advance(&mut self, beyond: bool) -> Option<Event> {
+        if !beyond {
+            self.run = 0;
+            return None;
+        }
+        let (needed, presence, event) = match self.presence {
+            Presence::Absent => (self.enter_samples, Presence::Present, Event::Entered),
+            Presence::Present => (self.leave_samples, Presence::Absent, Event::Left),
+        };
+        // run < needed ≤ u16::MAX, so this never wraps.
+        let run = self.run.wrapping_add(1);
+        if run < needed {
+            self.run = run;
+            return None;
+        }
+        self.run = 0;
         self.presence = presence;
         Some(event)
     }
@@ -240,8 +288,14 @@ impl<T: Copy + Ord> Detector<T> {
 
     /// The configuration.
     #[inline]
-    pub const fn config(&self) -> &DetectorConfig<T> {
-        &self.config
+    pub const fn config(&self) -> DetectorConfig<T> {
+        DetectorConfig {
+            polarity: self.polarity,
+            enter_threshold: self.enter_threshold,
+            leave_threshold: self.leave_threshold,
+            enter_samples: self.enter_samples,
+            leave_samples: self.leave_samples,
+        }
     }
 
     /// Back to `Absent` with no pending samples.
@@ -470,6 +524,18 @@ mod tests {
             let mut d = Detector::new(config).unwrap();
             let got: Vec<_> = xs.iter().map(|&x| d.update(x)).collect();
             prop_assert_eq!(got, reference(&config, &xs));
+        }
+
+        /// `update_rising` equals `update` on a rising detector.
+        #[test]
+        fn update_rising_equals_update(config in config(), xs in prop::collection::vec(-40i32..40, 0..300)) {
+            let config = DetectorConfig { polarity: Polarity::Rising, enter_threshold: config.enter_threshold.max(config.leave_threshold), leave_threshold: config.enter_threshold.min(config.leave_threshold) - 1, ..config };
+            let mut a = Detector::new(config).unwrap();
+            let mut b = a;
+            for &x in &xs {
+                prop_assert_eq!(a.update_rising(x), b.update(x));
+                prop_assert_eq!(a, b);
+            }
         }
 
         /// Events alternate, the first is Entered, and they are never closer

@@ -102,13 +102,13 @@
 //! 32-bit target (Cortex-M0 and Cortex-M4F, the same), checked at compile
 //! time by the firmware example (`examples/firmware/src/sizes.rs`; a host
 //! build has 64-bit pointers and larger borrowing types; the readers with
-//! the default features, 40 bytes less each without `companion`):
+//! the default features, 32 bytes less each without `companion`):
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|
 //! | `ProximityReader` | 168 | | `Image` | 12 |
 //! | `LevelReader` | 248 | | `ImageBuf` (image copied to RAM) | 4 200 |
-//! | `MetalReader` | 248 | | `CurveRef` | 28 |
+//! | `MetalReader` | 184 | | `CurveRef` | 28 |
 //! | `Reader` (all three kinds) | 256 | | `Input` | 32 |
 //! | `ProximityReading` | 16 | | `Reading` | 32 |
 //! | `LevelReading` | 32 | | `MetalReading` | 24 |
@@ -118,7 +118,7 @@
 //! | `CountPair`, `Gate`, `Shift`, `RestPoint` | 8 each | | `CentiCelsius` | 4 |
 //! | `Node` | 16 | | `CurveValue` | 8 |
 //! | `MetalParams` | 20 | | `Median<i32, 3>` | 32 |
-//! | `Ema<i32>` | 24 | | `Detector<i32>` | 20 |
+//! | `Ema<i32>` | 24 | | `Detector<i32>` | 16 |
 //! | `NtcBeta` | 72 | | `NtcSteinhartHart` | 80 |
 //! | `Divider` | 12 | | | |
 //!

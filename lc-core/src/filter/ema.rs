@@ -103,9 +103,9 @@ const K_MAX: u32 = 16;
 ///   through the stack there.
 ///
 /// The metal reader's two baselines (a shift and a ring count, learning on
-/// five readings of eight) cost 68 instructions per reading together in
-/// the benchmark (`run.sh profile m0`; 129 with the 128-bit shift state
-/// and the 64-bit state of an `i32` ring count they had before).
+/// five readings of eight; the same arithmetic on bare states, the shift's
+/// biased so that its output is a plain shift) cost 29 instructions per
+/// reading together in the benchmark (`run.sh profile m0`).
 ///
 /// ```
 /// use lc_core::filter::{Ema, EmaF64};

@@ -385,6 +385,71 @@ pub(crate) fn shift_domain(raw: i64) -> i64 {
     }
 }
 
+/// The [`Ema`] of [`Shift`] samples held as its state plus 2^16 (half an
+/// output LSB at F = 17), for a reader that wants the output after every
+/// sample: the output round(state · 2^-17) is then `biased >> 17`, with no
+/// rounding step. The same recursion as [`Ema::update`], bit for bit
+/// (tests below). The functions take raw Q40 shifts already in the domain
+/// ([`shift_domain`]).
+pub(crate) mod biased_shift_ema {
+    use super::{asr_i64, SHIFT_EMA_FRAC_BITS};
+
+    /// The bias, 2^16.
+    const BIAS: i64 = 1 << (SHIFT_EMA_FRAC_BITS - 1);
+
+    /// The biased state of a first sample: raw·2^17 + 2^16 (|raw| ≤ 2^45:
+    /// no wrap; the low 17 bits of raw·2^17 are zero, so the OR adds).
+    #[inline(always)]
+    pub(crate) fn init(raw: i64) -> i64 {
+        (raw << SHIFT_EMA_FRAC_BITS) | BIAS
+    }
+
+    /// One step on the biased state `b`: b + round((raw·2^17 − (b − 2^16))
+    /// · 2^-k), ties toward +∞, k in 1..=16. The operand of the shift is
+    /// the unbiased step's d + 2^(k−1), exactly, and within its bounds
+    /// (`Sealed for Shift`): nothing wraps.
+    #[inline(always)]
+    pub(crate) fn step(b: i64, raw: i64, k: u32) -> i64 {
+        // 2^16 + 2^(k−1), k − 1 ≤ 15: disjoint bits, the OR adds.
+        let c = (1u32 << (SHIFT_EMA_FRAC_BITS - 1)) | 1u32.wrapping_shl(k.wrapping_sub(1));
+        let e = (raw << SHIFT_EMA_FRAC_BITS)
+            .wrapping_sub(b)
+            .wrapping_add(i64::from(c));
+        b.wrapping_add(asr_i64(e, k))
+    }
+
+    /// The output of a biased state, round(state · 2^-17), ties toward +∞.
+    #[inline(always)]
+    pub(crate) fn output(b: i64) -> i64 {
+        b >> SHIFT_EMA_FRAC_BITS
+    }
+}
+
+/// The [`Ema`] of `u16` samples (ring counts) as its bare state, for a
+/// reader that keeps the weight exponent and whether it has started
+/// itself: the same functions as [`Ema::update`] and [`Ema::value`].
+pub(crate) mod u16_ema {
+    use super::private::Sealed;
+
+    /// The state of a first sample, x·2^16.
+    #[inline(always)]
+    pub(crate) fn init(x: u16) -> u32 {
+        x.ema_init()
+    }
+
+    /// One step, k in 1..=16.
+    #[inline(always)]
+    pub(crate) fn step(acc: u32, x: u16, k: u32) -> u32 {
+        <u16 as Sealed>::ema_step(acc, x, k)
+    }
+
+    /// The output, round(acc · 2^-16), ties toward +∞.
+    #[inline(always)]
+    pub(crate) fn output(acc: u32) -> u16 {
+        <u16 as Sealed>::ema_output(acc)
+    }
+}
+
 /// [`shift_domain`] outside the domain: −2^45 below, 2^45 − 1 above.
 #[cold]
 #[inline(never)]
@@ -462,6 +527,50 @@ mod tests {
     }
 
     proptest! {
+        /// The biased state of the metal reader's baseline gives the
+        /// outputs of `Ema<Shift>`, sample for sample, over the whole
+        /// domain (and beyond it, clamped) and every k.
+        #[test]
+        fn biased_shift_ema_equals_ema(
+            k in 1u32..=16,
+            xs in prop::collection::vec(prop_oneof![
+                -(1i64 << 45)..(1i64 << 45),
+                -(1i64 << 20)..(1i64 << 20),
+                any::<i64>(),
+                Just(-(1i64 << 45)),
+                Just((1i64 << 45) - 1),
+            ], 1..200),
+        ) {
+            let mut ema = Ema::<Shift>::new(k).unwrap();
+            let mut b = None;
+            for &x in &xs {
+                let raw = shift_domain(x);
+                let want = ema.update(Shift::from_raw_q40(x)).raw_q40();
+                let next = match b {
+                    None => biased_shift_ema::init(raw),
+                    Some(b) => biased_shift_ema::step(b, raw, k),
+                };
+                b = Some(next);
+                prop_assert_eq!(biased_shift_ema::output(next), want);
+            }
+        }
+
+        /// The bare `u16` state gives the outputs of `Ema<u16>`.
+        #[test]
+        fn bare_u16_ema_equals_ema(k in 1u32..=16, xs in prop::collection::vec(any::<u16>(), 1..200)) {
+            let mut ema = Ema::<u16>::new(k).unwrap();
+            let mut acc = None;
+            for &x in &xs {
+                let want = ema.update(x);
+                let next = match acc {
+                    None => u16_ema::init(x),
+                    Some(a) => u16_ema::step(a, x, k),
+                };
+                acc = Some(next);
+                prop_assert_eq!(u16_ema::output(next), want);
+            }
+        }
+
         /// The ARMv6-M shift in halves equals the native shift.
         #[test]
         fn asr_halves_is_exact(x: i64, k in 1u32..=31) {

@@ -4,8 +4,8 @@ use core::mem::MaybeUninit;
 
 use super::{metal_detector, Front, Input, MetalClass, ReaderError, SensorFault, Status};
 use crate::detector::{Detector, Presence};
-use crate::filter::{shift_domain, Ema};
-use crate::image::{Image, MetalParams, ReaderKind};
+use crate::filter::{biased_shift_ema, shift_domain, u16_ema};
+use crate::image::{Image, ReaderKind};
 use crate::shift::Shift;
 
 /// A metal reading.
@@ -37,11 +37,11 @@ impl MetalReading {
 /// A metal detector on one coil.
 ///
 /// - **Baseline**: an exponential average of the shift (weight 2^-k,
-///   [`Ema<Shift>`](Ema): 17 fraction bits below the shift's LSB, shifts
-///   clamped to −32 ≤ s < 32, far beyond any reading), learned while no
-///   target is present and frozen while one is; a target that stays
-///   present for `relearn_readings` readings becomes the new background
-///   (the baseline jumps to the current shift).
+///   [`Ema<Shift>`](crate::filter::Ema): 17 fraction bits below the
+///   shift's LSB, shifts clamped to −32 ≤ s < 32, far beyond any reading),
+///   learned while no target is present and frozen while one is; a target
+///   that stays present for `relearn_readings` readings becomes the new
+///   background (the baseline jumps to the current shift).
 /// - **Detection**: |shift − baseline| against the enter and leave
 ///   thresholds with debounce ([`Detector`]).
 /// - **Classification**: the sign of shift − baseline when the target
@@ -49,7 +49,7 @@ impl MetalReading {
 /// - **Ring-down**: when the calibration sets `ring_drop` and the unit
 ///   reports ring counts, the count learned with the baseline minus the
 ///   current count is the loss signal (the ring count's own average,
-///   [`Ema<u16>`](Ema)). Both metal classes add loss, so a
+///   [`Ema<u16>`](crate::filter::Ema)). Both metal classes add loss, so a
 ///   reading counts towards detection only when its shift is beyond the
 ///   threshold *and* the ring count has dropped by at least `ring_drop`: a
 ///   shift without loss (drift, a dielectric, a hand) is not metal.
@@ -58,49 +58,74 @@ impl MetalReading {
 /// shift minus the baseline; the status is [`Status::NoTarget`] while
 /// nothing is present. It holds no curve: it needs nothing from the image
 /// after start-up.
+///
+/// RAM: the front (fault window, shift converter, drift model and its
+/// cache, plausibility state), the two averages' states, the detector
+/// (thresholds in Q23.40, debounce counts and state), and the three
+/// parameters read per reading (k, `ring_drop`, `relearn_readings`):
+/// 152 bytes on a 32-bit target without the `companion` feature, 184 with
+/// it (the crate docs, "Memory").
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct MetalReader {
     pub(super) front: Front,
-    params: MetalParams,
-    baseline: Ema<Shift>,
-    ring_baseline: Ema<u16>,
-    /// The two baselines' current outputs (`baseline.value()`, 0 before
-    /// the first sample, and `ring_baseline.value()`), kept as they change:
-    /// each output is a rounding of a wide state, wanted on every reading.
-    base: i64,
-    ring_base: Option<u16>,
-    learned: bool,
+    /// The shift baseline's state plus 2^16 (`filter::biased_shift_ema`:
+    /// the output is `baseline >> 17`); [`UNLEARNED`] before the first
+    /// sample and after a relearn (a state is at least −2^62 + 2^16).
+    baseline: i64,
     detector: Detector<u64>,
-    class: MetalClass,
+    /// The ring count's average, its `Ema<u16>` state (ring count ·
+    /// 2^16); [`RING_UNLEARNED`] before the first ring count learned (a
+    /// state is at most 2^32 − 2^16).
+    ring_baseline: u32,
+    /// Readings present in a row, up to `relearn` (saturating).
     present_for: u32,
+    /// `relearn_readings` of the image.
+    relearn: u32,
+    /// `ring_drop` of the image.
+    ring_drop: u16,
+    /// `baseline_k` of the image minus one, in 0..=15 (so that the
+    /// compiler sees k in 1..=16 and its shifts need no masks).
+    k_minus_1: u8,
+    class: MetalClass,
 }
+
+/// [`MetalReader::baseline`] before the first sample.
+const UNLEARNED: i64 = i64::MIN;
+/// Whether a baseline state is [`UNLEARNED`], from its high word alone:
+/// a learned state is at least −2^62 + 2^16, its high word at least −2^30.
+#[inline(always)]
+fn unlearned(baseline: i64) -> bool {
+    (baseline >> 32) as i32 == i32::MIN
+}
+
+/// [`MetalReader::ring_baseline`] before the first ring count.
+const RING_UNLEARNED: u32 = u32::MAX;
 
 impl MetalReader {
     /// The reader of a metal image ([`ReaderError::WrongKind`] for another
     /// kind). Cost: two small divisions (the thresholds to Q23.40), no
-    /// validation: about 2 700 Cortex-M0 instructions. RAM: 248 bytes on a
-    /// 32-bit target (the crate docs, "Memory"); stack: the same, once.
+    /// validation. RAM: 152 bytes on a 32-bit target, 184 with the
+    /// `companion` feature (the crate docs, "Memory"); stack: the same,
+    /// once.
     pub fn new(image: &Image<'_>) -> Result<Self, ReaderError> {
         let params = match (image.kind(), image.metal()) {
             (ReaderKind::Metal, Some(p)) => p,
             (kind, _) => return Err(ReaderError::WrongKind(kind)),
         };
-        let k = u32::from(params.baseline_k);
-        // The image's validation built these once already (an image that
-        // validates builds its reader); the errors cannot occur.
-        let not_built = ReaderError::NotBuilt(ReaderKind::Metal);
         Ok(Self {
             front: image.front(),
-            params,
-            baseline: Ema::new(k).map_err(|_| not_built)?,
-            ring_baseline: Ema::new(k).map_err(|_| not_built)?,
-            base: 0,
-            ring_base: None,
-            learned: false,
-            detector: Detector::new(metal_detector(&params)).map_err(|_| not_built)?,
-            class: MetalClass::None,
+            baseline: UNLEARNED,
+            // The image's validation checked the parameters
+            // (`metal_builds`): the thresholds ordered, the debounce counts
+            // and k in range.
+            detector: Detector::new_unchecked(metal_detector(&params)),
+            ring_baseline: RING_UNLEARNED,
             present_for: 0,
+            relearn: params.relearn_readings,
+            ring_drop: params.ring_drop,
+            k_minus_1: params.baseline_k.wrapping_sub(1),
+            class: MetalClass::None,
         })
     }
 
@@ -146,57 +171,61 @@ impl MetalReader {
         self.detector.presence()
     }
 
-    /// Feeds the baselines (the ring count's when the unit reports one)
-    /// and keeps their outputs.
-    #[inline(always)]
-    fn learn(&mut self, s: Shift, ring_count: Option<u16>) {
-        self.base = self.baseline.update(s).raw_q40();
-        if let Some(rc) = ring_count {
-            self.ring_base = Some(self.ring_baseline.update(rc));
-        }
-    }
-
     /// One reading; updates the baseline and the detector.
     #[inline(never)]
     pub fn read(&mut self, input: &Input) -> MetalReading {
-        let s = match self.front.shift(input) {
+        match self.front.shift(input) {
             // In the baseline's domain (|s| < 32, far beyond any reading),
             // so that the difference below is exact.
-            Ok(s) => Shift::from_raw_q40(shift_domain(s.raw_q40())),
-            Err(f) => return MetalReading::fault(f),
-        };
-        if !self.learned {
-            self.learn(s, input.ring_count);
-            self.learned = true;
+            Ok(s) => self.track(shift_domain(s.raw_q40()), input.ring_count),
+            Err(f) => MetalReading::fault(f),
+        }
+    }
+
+    /// Baselines, detection and classification of the shift `s` (raw
+    /// Q23.40, in the baseline's domain).
+    #[inline(always)]
+    fn track(&mut self, s: i64, ring_count: Option<u16>) -> MetalReading {
+        // k − 1 ≤ 15 (validation): the mask changes nothing.
+        let k = u32::from(self.k_minus_1 & 15) + 1;
+        if unlearned(self.baseline) {
+            // The first reading (after start or a relearn) is the
+            // background; the ring count's average starts with it (it is
+            // unlearned too then).
+            self.baseline = biased_shift_ema::init(s);
+            if let Some(rc) = ring_count {
+                self.ring_baseline = u16_ema::init(rc);
+            }
         }
         // Both within ±2^45: exact, cannot wrap.
-        let delta = s.raw_q40().wrapping_sub(self.base);
-        let ring_drop = match (input.ring_count, self.ring_base) {
-            (Some(rc), Some(base)) => Some(i32::from(base) - i32::from(rc)),
+        let delta = s.wrapping_sub(biased_shift_ema::output(self.baseline));
+        let ring_drop = match ring_count {
+            Some(rc) if self.ring_baseline != RING_UNLEARNED => {
+                Some(i32::from(u16_ema::output(self.ring_baseline)) - i32::from(rc))
+            }
             _ => None,
         };
-        let lossy = self.params.ring_drop == 0
-            || ring_drop.is_some_and(|d| d >= i32::from(self.params.ring_drop));
+        let lossy = match ring_drop {
+            _ if self.ring_drop == 0 => true,
+            Some(d) => d >= i32::from(self.ring_drop),
+            None => false,
+        };
         let signal = if lossy { delta.unsigned_abs() } else { 0 };
-        let event = self.detector.update(signal);
-        let present = self.detector.presence() == Presence::Present;
-        if event.is_some() && present {
-            self.class = if delta > 0 {
-                MetalClass::Ferrous
-            } else {
-                MetalClass::NonFerrous
-            };
-        }
-        if present {
+        // The detector is rising (`metal_detector`).
+        let event = self.detector.update_rising(signal);
+        if self.detector.is_present() {
+            if event.is_some() {
+                self.class = if delta > 0 {
+                    MetalClass::Ferrous
+                } else {
+                    MetalClass::NonFerrous
+                };
+            }
             self.present_for = self.present_for.saturating_add(1);
-            if self.params.relearn_readings > 0 && self.present_for >= self.params.relearn_readings
-            {
+            if self.relearn > 0 && self.present_for >= self.relearn {
                 // The target has become the background.
-                self.baseline.reset();
-                self.ring_baseline.reset();
-                self.base = 0;
-                self.ring_base = None;
-                self.learned = false;
+                self.baseline = UNLEARNED;
+                self.ring_baseline = RING_UNLEARNED;
                 self.detector.reset();
                 self.present_for = 0;
                 self.class = MetalClass::None;
@@ -204,7 +233,15 @@ impl MetalReader {
         } else {
             self.present_for = 0;
             self.class = MetalClass::None;
-            self.learn(s, input.ring_count);
+            // Learn: the baseline has its first sample already.
+            self.baseline = biased_shift_ema::step(self.baseline, s, k);
+            if let Some(rc) = ring_count {
+                self.ring_baseline = if self.ring_baseline == RING_UNLEARNED {
+                    u16_ema::init(rc)
+                } else {
+                    u16_ema::step(self.ring_baseline, rc, k)
+                };
+            }
         }
         let status = if self.class == MetalClass::None {
             Status::NoTarget
@@ -216,6 +253,206 @@ impl MetalReader {
             ring_drop,
             delta: Shift::from_raw_q40(delta),
             status,
+        }
+    }
+}
+
+#[cfg(all(test, feature = "design"))]
+mod tests {
+    use super::*;
+    use crate::counting::CountPair;
+    use crate::detector::{DetectorConfig, Polarity};
+    use crate::filter::Ema;
+    use crate::image::tests_support::demo_proximity;
+    use crate::image::{Calibration, MetalParams};
+    use crate::reader::{ppb_to_q40, Front};
+    use proptest::prelude::*;
+
+    /// The reader as it was first written, from the public filters and
+    /// detector (`Ema<Shift>`, `Ema<u16>`, `Detector<u64>`) and their
+    /// outputs kept as they change: the reference the compact reader
+    /// must equal reading for reading.
+    struct Reference {
+        front: Front,
+        params: MetalParams,
+        baseline: Ema<Shift>,
+        ring_baseline: Ema<u16>,
+        base: i64,
+        ring_base: Option<u16>,
+        learned: bool,
+        detector: Detector<u64>,
+        class: MetalClass,
+        present_for: u32,
+    }
+
+    impl Reference {
+        fn new(front: Front, params: MetalParams) -> Self {
+            let k = u32::from(params.baseline_k);
+            Self {
+                front,
+                params,
+                baseline: Ema::new(k).unwrap(),
+                ring_baseline: Ema::new(k).unwrap(),
+                base: 0,
+                ring_base: None,
+                learned: false,
+                detector: Detector::new(DetectorConfig {
+                    polarity: Polarity::Rising,
+                    enter_threshold: ppb_to_q40(params.enter_ppb),
+                    leave_threshold: ppb_to_q40(params.leave_ppb),
+                    enter_samples: params.enter_samples,
+                    leave_samples: params.leave_samples,
+                })
+                .unwrap(),
+                class: MetalClass::None,
+                present_for: 0,
+            }
+        }
+
+        fn learn(&mut self, s: Shift, ring_count: Option<u16>) {
+            self.base = self.baseline.update(s).raw_q40();
+            if let Some(rc) = ring_count {
+                self.ring_base = Some(self.ring_baseline.update(rc));
+            }
+        }
+
+        fn read(&mut self, input: &Input) -> MetalReading {
+            let s = match self.front.shift(input) {
+                Ok(s) => Shift::from_raw_q40(shift_domain(s.raw_q40())),
+                Err(f) => return MetalReading::fault(f),
+            };
+            if !self.learned {
+                self.learn(s, input.ring_count);
+                self.learned = true;
+            }
+            let delta = s.raw_q40() - self.base;
+            let ring_drop = match (input.ring_count, self.ring_base) {
+                (Some(rc), Some(base)) => Some(i32::from(base) - i32::from(rc)),
+                _ => None,
+            };
+            let lossy = self.params.ring_drop == 0
+                || ring_drop.is_some_and(|d| d >= i32::from(self.params.ring_drop));
+            let signal = if lossy { delta.unsigned_abs() } else { 0 };
+            let event = self.detector.update(signal);
+            let present = self.detector.presence() == Presence::Present;
+            if event.is_some() && present {
+                self.class = if delta > 0 {
+                    MetalClass::Ferrous
+                } else {
+                    MetalClass::NonFerrous
+                };
+            }
+            if present {
+                self.present_for = self.present_for.saturating_add(1);
+                if self.params.relearn_readings > 0
+                    && self.present_for >= self.params.relearn_readings
+                {
+                    self.baseline.reset();
+                    self.ring_baseline.reset();
+                    self.base = 0;
+                    self.ring_base = None;
+                    self.learned = false;
+                    self.detector.reset();
+                    self.present_for = 0;
+                    self.class = MetalClass::None;
+                }
+            } else {
+                self.present_for = 0;
+                self.class = MetalClass::None;
+                self.learn(s, input.ring_count);
+            }
+            let status = if self.class == MetalClass::None {
+                Status::NoTarget
+            } else {
+                Status::Ok
+            };
+            MetalReading {
+                class: self.class,
+                ring_drop,
+                delta: Shift::from_raw_q40(delta),
+                status,
+            }
+        }
+    }
+
+    fn image(cal: &Calibration) -> Image<'static> {
+        let buf = Box::leak(Box::new(cal.to_image_buf().unwrap()));
+        buf.image().unwrap()
+    }
+
+    fn params() -> impl Strategy<Value = MetalParams> {
+        (
+            1u32..3_000_000,
+            1u32..100,
+            1u16..5,
+            1u16..5,
+            1u8..=16,
+            prop_oneof![Just(0u16), 1u16..8],
+            prop_oneof![Just(0u32), 1u32..40],
+        )
+            .prop_map(
+                |(enter, gap_pct, n_in, n_out, k, ring_drop, relearn)| MetalParams {
+                    enter_ppb: enter,
+                    leave_ppb: enter - (enter / 100 * gap_pct).clamp(1, enter),
+                    enter_samples: n_in,
+                    leave_samples: n_out,
+                    baseline_k: k,
+                    ring_drop,
+                    relearn_readings: relearn,
+                },
+            )
+    }
+
+    /// One reading's input: ticks near the demo rest point (shifts within
+    /// about ±3e-3), now and then a stalled counter (a fault) or a wild
+    /// pair; a ring count or none.
+    fn input() -> impl Strategy<Value = Input> {
+        (
+            prop_oneof![
+                8 => (-200i32..200).prop_map(|d| CountPair::new(16_384, 139_542u32.wrapping_add_signed(d))),
+                1 => (0u32..3, any::<u32>()).prop_map(|(c, t)| CountPair::new(c, t)),
+            ],
+            prop_oneof![
+                4 => (10u16..30).prop_map(Some),
+                1 => Just(None),
+                1 => any::<u16>().prop_map(Some),
+            ],
+        )
+            .prop_map(|(pair, ring_count)| Input {
+                ring_count,
+                ..Input::counts(pair)
+            })
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2_000))]
+
+        /// The compact reader equals the reference, reading for reading
+        /// (class, ring drop, delta, status and presence), over arbitrary
+        /// parameters and inputs with targets coming and going, faults,
+        /// missing ring counts and relearns.
+        #[test]
+        fn equals_the_reference(params in params(), inputs in prop::collection::vec(input(), 1..300), steps in prop::collection::vec(-2_000i32..2_000, 0..6)) {
+            let mut cal = demo_proximity().unwrap();
+            cal.kind = ReaderKind::Metal;
+            cal.curve = None;
+            cal.metal = Some(params);
+            let mut reader = MetalReader::new(&image(&cal)).unwrap();
+            let mut reference = Reference::new(reader.front, params);
+            // Targets: a few step changes of the ticks over stretches of
+            // the sequence.
+            let stretch = inputs.len() / (steps.len() + 1) + 1;
+            for (i, input) in inputs.iter().enumerate() {
+                let offset = steps.get(i / stretch).copied().unwrap_or(0);
+                let mut input = *input;
+                if input.pair.cycles == 16_384 {
+                    input.pair.ticks = input.pair.ticks.wrapping_add_signed(offset);
+                }
+                let got = reader.read(&input);
+                let want = reference.read(&input);
+                prop_assert_eq!(got, want, "reading {}", i);
+                prop_assert_eq!(reader.presence(), reference.detector.presence(), "reading {}", i);
+            }
         }
     }
 }

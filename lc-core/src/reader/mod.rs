@@ -68,7 +68,7 @@ pub use plausible::{in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE
 pub use proximity::{ProximityReader, ProximityReading};
 
 use crate::counting::{AcceptedTicks, CountPair, FaultError, FaultWindow};
-use crate::detector::{Detector, DetectorConfig, Polarity};
+use crate::detector::{DetectorConfig, Polarity};
 use crate::drift::{Companion, CompanionError, DriftFactor, TemperatureModel};
 #[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
 use crate::image::Image;
@@ -285,8 +285,8 @@ pub(crate) struct Front {
     window: FaultWindow,
     converter: ShiftConverter,
     /// Without the `companion` feature the field is left out (a
-    /// validated image has no companion coil then): 40 bytes less per
-    /// reader.
+    /// validated image has no companion coil then): 32 bytes less per
+    /// reader on a 32-bit target.
     #[cfg(feature = "companion")]
     companion: Option<Companion>,
     drift: TemperatureModel,
@@ -446,10 +446,16 @@ pub(crate) fn metal_detector(p: &MetalParams) -> DetectorConfig<u64> {
 }
 
 /// Whether the metal reader accepts these parameters (image validation:
-/// an image that validates builds its reader).
+/// an image that validates builds its reader): its detector's
+/// configuration validates and k is in 1..=16. Without the divisions:
+/// [`ppb_to_q40`] is strictly increasing (it scales by 2^40/10^9 > 1
+/// before rounding), so the thresholds in Q23.40 are ordered exactly when
+/// the ppb values are (`MetalReader::new` relies on this check).
 pub(crate) fn metal_builds(p: &MetalParams) -> bool {
-    Detector::new(metal_detector(p)).is_ok()
-        && crate::filter::Ema::<Shift>::new(u32::from(p.baseline_k)).is_ok()
+    p.leave_ppb < p.enter_ppb
+        && p.enter_samples > 0
+        && p.leave_samples > 0
+        && (1..=16).contains(&p.baseline_k)
 }
 
 any_reader! {
@@ -557,6 +563,39 @@ pub(crate) mod tests {
         fn ppb_to_q40_is_the_rounded_quotient(ppb in any::<u32>()) {
             let wide = crate::fixed::round_div_u128(u128::from(ppb) << 40, 1_000_000_000);
             prop_assert_eq!(Some(u128::from(ppb_to_q40(ppb))), wide);
+        }
+
+        /// `metal_builds` (comparisons of the ppb values) accepts exactly
+        /// the parameters whose detector and baseline build (the
+        /// thresholds converted to Q23.40 first); near-equal thresholds
+        /// too.
+        #[test]
+        fn metal_builds_equals_building(
+            enter_ppb: u32,
+            near in -2i64..=2,
+            far: u32,
+            enter_samples in 0u16..3,
+            leave_samples in 0u16..3,
+            baseline_k in 0u8..=18,
+            use_near: bool,
+        ) {
+            let leave_ppb = if use_near {
+                u32::try_from(i64::from(enter_ppb) + near).unwrap_or(enter_ppb)
+            } else {
+                far
+            };
+            let p = MetalParams {
+                enter_ppb,
+                leave_ppb,
+                enter_samples,
+                leave_samples,
+                baseline_k,
+                ring_drop: 0,
+                relearn_readings: 0,
+            };
+            let builds = crate::detector::Detector::new(metal_detector(&p)).is_ok()
+                && crate::filter::Ema::<Shift>::new(u32::from(p.baseline_k)).is_ok();
+            prop_assert_eq!(metal_builds(&p), builds);
         }
     }
 
