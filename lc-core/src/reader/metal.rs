@@ -130,14 +130,13 @@ impl MetalReader {
     }
 
     /// [`MetalReader::new`] built in place, in storage the caller provides
-    /// (a static, a C API's opaque storage): the kind is checked and the
-    /// fallible parts (the averages, the detector) are built first, then
-    /// the reader is written straight into `slot`, so no `Result<Self, _>`
+    /// (a static, a C API's opaque storage): the kind is checked first,
+    /// then the reader is written straight into `slot`, so no `Result<Self, _>`
     /// and no second copy of the reader is made. Returns the reader in
     /// `slot`; on an error `slot` is left as it was (uninitialised). Cost:
-    /// as [`MetalReader::new`]. RAM: `slot` (248 bytes on a 32-bit target,
-    /// the crate docs, "Memory"); stack: the parts built first (under 100
-    /// bytes), no reader-sized temporary.
+    /// as [`MetalReader::new`]. RAM: `slot` (152 bytes on a 32-bit target,
+    /// 184 with the `companion` feature; the crate docs, "Memory"); stack:
+    /// no reader-sized temporary.
     pub fn init<'s>(
         slot: &'s mut MaybeUninit<Self>,
         image: &Image<'_>,
@@ -146,23 +145,17 @@ impl MetalReader {
             (ReaderKind::Metal, Some(p)) => p,
             (kind, _) => return Err(ReaderError::WrongKind(kind)),
         };
-        let k = u32::from(params.baseline_k);
-        // As in `new`: validation built these once already.
-        let not_built = ReaderError::NotBuilt(ReaderKind::Metal);
-        let baseline = Ema::new(k).map_err(|_| not_built)?;
-        let ring_baseline = Ema::new(k).map_err(|_| not_built)?;
-        let detector = Detector::new(metal_detector(&params)).map_err(|_| not_built)?;
+        // As in `new`: validation checked the parameters (`metal_builds`).
         Ok(slot.write(Self {
             front: image.front(),
-            params,
-            baseline,
-            ring_baseline,
-            base: 0,
-            ring_base: None,
-            learned: false,
-            detector,
-            class: MetalClass::None,
+            baseline: UNLEARNED,
+            detector: Detector::new_unchecked(metal_detector(&params)),
+            ring_baseline: RING_UNLEARNED,
             present_for: 0,
+            relearn: params.relearn_readings,
+            ring_drop: params.ring_drop,
+            k_minus_1: params.baseline_k.wrapping_sub(1),
+            class: MetalClass::None,
         }))
     }
 
