@@ -700,9 +700,9 @@ impl<'a> CurveRef<'a> {
             }
             len -= half;
         }
-        // i is a segment (< 63): i + 1 is its last node, no wrap.
-        match nodes.get(i..i.wrapping_add(2)) {
-            Some([n0, n1]) => Ok((i, n0, n1)),
+        // i is a segment (< 63): node i + 1 is there too.
+        match nodes.get(i..) {
+            Some([n0, n1, ..]) => Ok((i, n0, n1)),
             _ => Err(CurveValue {
                 value: node_y(first),
                 status: CurveStatus::InRange,
