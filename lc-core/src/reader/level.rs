@@ -266,12 +266,34 @@ impl<'a> LevelReader<'a> {
 /// One channel's shift through the front's fault window (a window fault
 /// is [`SensorFault::Counts`]): the probe's with the front's converter, the
 /// reference electrode's with its own. Out of line: one copy of the
-/// window check and the shift for both channels.
+/// window check and the shift for both channels. `Front::checked_shift`
+/// with the general [`ShiftConverter::shift`] behind the full check
+/// instead of its inlined gate case: the same results (`shift` has the
+/// gate case too), one copy of the gate case less, and a pair of the
+/// common path (in the gate's tick band) never gets there.
 #[inline(never)]
 fn channel_shift(
     front: &Front,
     conv: &ShiftConverter,
     pair: CountPair,
 ) -> Result<Shift, SensorFault> {
-    front.checked_shift(conv, pair, SensorFault::Counts)
+    if let Some(a) = &front.accepted {
+        if a.contains(pair) {
+            return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
+        }
+    }
+    checked_shift_slow(front, conv, pair)
+}
+
+/// [`channel_shift`] of a pair outside the gate's tick band: the full
+/// window check, then the general shift.
+#[cold]
+#[inline(never)]
+fn checked_shift_slow(
+    front: &Front,
+    conv: &ShiftConverter,
+    pair: CountPair,
+) -> Result<Shift, SensorFault> {
+    front.window.check(pair).map_err(SensorFault::Counts)?;
+    conv.shift(pair).map_err(SensorFault::Shift)
 }
