@@ -734,10 +734,34 @@ impl<'a> CurveRef<'a> {
 
     /// [`CurveRef::eval`] at the raw Q23.40 point `s`, out of line: the
     /// level reader evaluates its level curve and its volume table (at
-    /// level · 2^32) through this one copy.
+    /// level · 2^32) through this one copy. A whole level on a curve on
+    /// whole levels takes [`CurveRef::eval_whole`]'s search and offset in
+    /// 32-bit words (the same value and status); both searches end in the
+    /// one interpolation.
     #[inline(never)]
     pub(crate) fn eval_shared(&self, s: i64) -> CurveValue {
-        self.eval(Shift::from_raw_q40(s))
+        let (hi, lo) = ((s >> 32) as i32, s as u32);
+        // The segment, its nodes, and the offset: whole levels r, or the
+        // shift's u = s − x0.
+        let found = if self.whole && lo == 0 {
+            self.locate(hi, node_level)
+                .map(|(i, n0, n1)| (i, n0, n1, Ok(hi.wrapping_sub(node_level(n0)) as u32)))
+        } else {
+            self.locate(s, node_x)
+                .map(|(i, n0, n1)| (i, n0, n1, Err(s.wrapping_sub(node_x(n0)) as u64)))
+        };
+        let (i, n0, n1, offset) = match found {
+            Ok(segment) => segment,
+            Err(end) => return end,
+        };
+        let seg = self.segment_constants(i);
+        let d = match offset {
+            // `eval_whole`'s offset: on whole levels sh is in 1..=32.
+            Ok(r) => r.wrapping_shl(32 - u32::from(seg.sh).min(32)),
+            // `eval`'s offset.
+            Err(u) => round_shr_to_u32(u, seg.sh).min((1 << 31) - 1),
+        };
+        self.in_segment(&seg, node_y(n0), node_y(n1), d)
     }
 
     /// Whether `q`, of status `status` in [`CurveRef::eval`], lies within
@@ -1800,6 +1824,8 @@ mod tests {
                 let inside = lo + ((hi - lo) as f64 * q) as i64;
                 let near = nodes[(raw.unsigned_abs() % nodes.len() as u64) as usize].shift.raw_q40() + nudge;
                 for s in [inside, near, raw] {
+                    // The level reader's out-of-line copy too.
+                    prop_assert_eq!(c.view().eval_shared(s), c.eval(Shift::from_raw_q40(s)), "at {}", s);
                     let s = Shift::from_raw_q40(s);
                     prop_assert_eq!(c.eval(s), eval_reference(&c, s), "at {:?}", s);
                 }
@@ -1822,7 +1848,14 @@ mod tests {
                 let inside = lo + (f64::from(hi - lo) * q) as i32;
                 let near = level(&nodes[(raw.unsigned_abs() as usize) % nodes.len()]) + nudge;
                 for v in [inside, near, raw, lo - 1, hi, hi + 1] {
-                    prop_assert_eq!(c.view().eval_whole(v), c.eval(Shift::from_raw_q40(i64::from(v) << 32)), "at {}", v);
+                    let at = i64::from(v) << 32;
+                    prop_assert_eq!(c.view().eval_whole(v), c.eval(Shift::from_raw_q40(at)), "at {}", v);
+                    // The level reader's out-of-line evaluation, which takes
+                    // the whole-level path here, and the general one just
+                    // off the level.
+                    prop_assert_eq!(c.view().eval_shared(at), c.eval(Shift::from_raw_q40(at)), "at {}", v);
+                    let off_level = at.wrapping_add(i64::from(nudge));
+                    prop_assert_eq!(c.view().eval_shared(off_level), c.eval(Shift::from_raw_q40(off_level)), "at {} + {}", v, nudge);
                 }
             }
             let mut off = nodes.clone();
