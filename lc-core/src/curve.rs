@@ -215,6 +215,24 @@ fn record<const N: usize>(r: &[[u32; N]], i: usize) -> [u32; N] {
     r.get(i).copied().unwrap_or([0; N]).map(u32::from_le)
 }
 
+/// A node's shift, raw Q23.40, from its words.
+#[inline(always)]
+fn node_x(n: &[u32; NODE_WORDS]) -> i64 {
+    ((u64::from(u32::from_le(n[1])) << 32) | u64::from(u32::from_le(n[0]))) as i64
+}
+
+/// A node's shift's high word: the level of a volume table's node.
+#[inline(always)]
+fn node_level(n: &[u32; NODE_WORDS]) -> i32 {
+    u32::from_le(n[1]) as i32
+}
+
+/// A node's value.
+#[inline(always)]
+fn node_y(n: &[u32; NODE_WORDS]) -> i32 {
+    u32::from_le(n[2]) as i32
+}
+
 /// `x · 2^sh` for `sh` ≤ 62 and a result below 2^64, in 32-bit halves
 /// (on a Cortex-M0 a 64-bit shift is a library call).
 #[inline]
@@ -559,12 +577,6 @@ impl<'a> CurveRef<'a> {
         ((u64::from(hi) << 32) | u64::from(lo)) as i64
     }
 
-    /// Node `i`'s shift's high word: the level of a volume table's node.
-    #[inline(always)]
-    fn x_high(&self, i: usize) -> i32 {
-        record(self.nodes, i)[1] as i32
-    }
-
     /// Node `i`'s value.
     #[inline(always)]
     fn y(&self, i: usize) -> i32 {
@@ -632,49 +644,70 @@ impl<'a> CurveRef<'a> {
         Some((seg.c1_q8, i32::try_from(d1).ok()?))
     }
 
-    /// Index of the segment holding `v` (key(i) ≤ v < key(i+1)) for
-    /// key(0) ≤ v < key(last) (clamped into the table otherwise): halving
-    /// search with a fixed trip count per table size (3 steps for 5 nodes,
-    /// 5 for 32).
+    /// Where `v` lies on the nodes' keys `key` (the shift, or a volume
+    /// table's level): `Err` with the first node's value below the table,
+    /// the last node's at or above its last node (with the status);
+    /// inside, `Ok` with the segment `i` holding it (key(i) ≤ v <
+    /// key(i+1)) and its two nodes. Halving search with a fixed trip count
+    /// per table size (2 steps for 5 nodes, 5 for 32, 6 for 64), each a
+    /// node read and a compare: the index stays inside the nodes by the
+    /// loop's invariant, and the node is read by `get`, so no step copies
+    /// a default record.
     #[inline(always)]
-    fn segment_by<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> usize {
-        let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
-        while len > 1 {
-            let half = len / 2;
-            // i + half < i + len ≤ the segment count ≤ 63 (the
-            // invariant of the loop): the sums cannot wrap.
-            if key(i.wrapping_add(half)) <= v {
-                i = i.wrapping_add(half);
-            }
-            len -= half;
-        }
-        i
-    }
-
-    /// The value of `v` outside the table on the nodes' keys `key(i)`, or
-    /// at its last node: the first node's below it, the last node's at or
-    /// above it, with the status; `None` inside.
-    #[inline(always)]
-    fn outside<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> Option<CurveValue> {
-        let last_i = self.len().saturating_sub(1);
-        if v < key(0) {
-            return Some(CurveValue {
-                value: self.y(0),
+    fn locate<K: PartialOrd>(
+        &self,
+        v: K,
+        key: impl Fn(&[u32; NODE_WORDS]) -> K,
+    ) -> Result<(usize, &'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS]), CurveValue> {
+        let nodes = self.nodes;
+        // A curve has at least two nodes (`view_of`); the other arm only
+        // keeps the function total.
+        let [first, .., last] = nodes else {
+            return Err(CurveValue {
+                value: 0,
+                status: CurveStatus::InRange,
+            });
+        };
+        if v < key(first) {
+            return Err(CurveValue {
+                value: node_y(first),
                 status: CurveStatus::BelowRange,
             });
         }
-        let last = key(last_i);
-        if v >= last {
-            return Some(CurveValue {
-                value: self.y(last_i),
-                status: if v == last {
+        let at_last = key(last);
+        if v >= at_last {
+            return Err(CurveValue {
+                value: node_y(last),
+                status: if v == at_last {
                     CurveStatus::InRange
                 } else {
                     CurveStatus::AboveRange
                 },
             });
         }
-        None
+        // key(first) ≤ v < key(last): the segment among the n − 1.
+        let (mut i, mut len) = (0usize, nodes.len().wrapping_sub(1));
+        while len > 1 {
+            let half = len / 2;
+            // i + half < i + len ≤ the segment count ≤ 63 (the
+            // invariant of the loop): the sum cannot wrap, and the node
+            // is always there.
+            let mid = i.wrapping_add(half);
+            if let Some(n) = nodes.get(mid) {
+                if key(n) <= v {
+                    i = mid;
+                }
+            }
+            len -= half;
+        }
+        // i is a segment (< 63): node i + 1 is there too.
+        match nodes.get(i..) {
+            Some([n0, n1, ..]) => Ok((i, n0, n1)),
+            _ => Err(CurveValue {
+                value: node_y(first),
+                status: CurveStatus::InRange,
+            }),
+        }
     }
 
     /// The value at shift `s`, rounded to nearest; clamped with a status
@@ -686,20 +719,49 @@ impl<'a> CurveRef<'a> {
     #[inline(always)]
     pub fn eval(&self, s: Shift) -> CurveValue {
         let s = s.raw_q40();
-        if let Some(end) = self.outside(s, |i| self.x(i)) {
-            return end;
-        }
-        // x[0] ≤ s < x[last].
-        let i = self.segment_by(s, |i| self.x(i));
+        let (i, n0, n1) = match self.locate(s, node_x) {
+            Ok(segment) => segment,
+            Err(end) => return end,
+        };
         let seg = self.segment_constants(i);
-        // i is a segment (< 63): i + 1 is its last node, no wrap.
-        let (y0, y1) = (self.y(i), self.y(i.wrapping_add(1)));
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
         // (s − x0)·2^-sh rounded, below 2^31 (d = 2^31 only when s rounds up
         // to x1: held at 2^31 − 1, still exact below).
-        let u = s.wrapping_sub(self.x(i)) as u64; // < w: exact
+        let u = s.wrapping_sub(node_x(n0)) as u64; // < w: exact
         let d = round_shr_to_u32(u, seg.sh).min((1 << 31) - 1);
-        self.in_segment(&seg, y0, y1, d)
+        self.in_segment(&seg, node_y(n0), node_y(n1), d)
+    }
+
+    /// [`CurveRef::eval`] at the raw Q23.40 point `s`, out of line: the
+    /// level reader evaluates its level curve and its volume table (at
+    /// level · 2^32) through this one copy. A whole level on a curve on
+    /// whole levels takes [`CurveRef::eval_whole`]'s search and offset in
+    /// 32-bit words (the same value and status); both searches end in the
+    /// one interpolation.
+    #[inline(never)]
+    pub(crate) fn eval_shared(&self, s: i64) -> CurveValue {
+        let (hi, lo) = ((s >> 32) as i32, s as u32);
+        // The segment, its nodes, and the offset: whole levels r, or the
+        // shift's u = s − x0.
+        let found = if self.whole && lo == 0 {
+            self.locate(hi, node_level)
+                .map(|(i, n0, n1)| (i, n0, n1, Ok(hi.wrapping_sub(node_level(n0)) as u32)))
+        } else {
+            self.locate(s, node_x)
+                .map(|(i, n0, n1)| (i, n0, n1, Err(s.wrapping_sub(node_x(n0)) as u64)))
+        };
+        let (i, n0, n1, offset) = match found {
+            Ok(segment) => segment,
+            Err(end) => return end,
+        };
+        let seg = self.segment_constants(i);
+        let d = match offset {
+            // `eval_whole`'s offset: on whole levels sh is in 1..=32.
+            Ok(r) => r.wrapping_shl(32 - u32::from(seg.sh).min(32)),
+            // `eval`'s offset.
+            Err(u) => round_shr_to_u32(u, seg.sh).min((1 << 31) - 1),
+        };
+        self.in_segment(&seg, node_y(n0), node_y(n1), d)
     }
 
     /// Whether `q`, of status `status` in [`CurveRef::eval`], lies within
@@ -743,20 +805,17 @@ impl<'a> CurveRef<'a> {
         if !self.whole {
             return self.eval(Shift::from_raw_q40(i64::from(v) << 32));
         }
-        let level = |i: usize| self.x_high(i);
-        if let Some(end) = self.outside(v, level) {
-            return end;
-        }
-        let i = self.segment_by(v, level);
+        let (i, n0, n1) = match self.locate(v, node_level) {
+            Ok(segment) => segment,
+            Err(end) => return end,
+        };
         let seg = self.segment_constants(i);
-        // i is a segment (< 63): i + 1 is its last node, no wrap.
-        let (y0, y1) = (self.y(i), self.y(i.wrapping_add(1)));
         // 0 ≤ r < the segment's width in levels < 2^(sh − 1), sh ≤ 32.
-        let r = v.wrapping_sub(level(i)) as u32;
+        let r = v.wrapping_sub(node_level(n0)) as u32;
         // On whole levels every segment's sh is in 1..=32 (validated), so
         // the shift amount is below 32; the wrapping shift only states it.
         let d = r.wrapping_shl(32 - u32::from(seg.sh).min(32));
-        self.in_segment(&seg, y0, y1, d)
+        self.in_segment(&seg, node_y(n0), node_y(n1), d)
     }
 
     /// The value in the segment `seg` from y0 to y1 at d = (s − x0)·2^-sh
@@ -815,7 +874,9 @@ impl<'a> CurveRef<'a> {
         if raw <= self.x(0) || raw >= self.x(last) {
             return 0.5;
         }
-        let i = self.segment_by(raw, |i| self.x(i));
+        let Ok((i, _, _)) = self.locate(raw, node_x) else {
+            return 0.5;
+        };
         let dy = (f64::from(self.y(i + 1)) - f64::from(self.y(i))).abs();
         let (d0, d1) = self.tangent_terms_q8(i).unwrap_or((0, 0));
         let (d0, d1) = (f64::from(d0) / 256.0, f64::from(d1) / 256.0);
@@ -1763,6 +1824,8 @@ mod tests {
                 let inside = lo + ((hi - lo) as f64 * q) as i64;
                 let near = nodes[(raw.unsigned_abs() % nodes.len() as u64) as usize].shift.raw_q40() + nudge;
                 for s in [inside, near, raw] {
+                    // The level reader's out-of-line copy too.
+                    prop_assert_eq!(c.view().eval_shared(s), c.eval(Shift::from_raw_q40(s)), "at {}", s);
                     let s = Shift::from_raw_q40(s);
                     prop_assert_eq!(c.eval(s), eval_reference(&c, s), "at {:?}", s);
                 }
@@ -1785,7 +1848,14 @@ mod tests {
                 let inside = lo + (f64::from(hi - lo) * q) as i32;
                 let near = level(&nodes[(raw.unsigned_abs() as usize) % nodes.len()]) + nudge;
                 for v in [inside, near, raw, lo - 1, hi, hi + 1] {
-                    prop_assert_eq!(c.view().eval_whole(v), c.eval(Shift::from_raw_q40(i64::from(v) << 32)), "at {}", v);
+                    let at = i64::from(v) << 32;
+                    prop_assert_eq!(c.view().eval_whole(v), c.eval(Shift::from_raw_q40(at)), "at {}", v);
+                    // The level reader's out-of-line evaluation, which takes
+                    // the whole-level path here, and the general one just
+                    // off the level.
+                    prop_assert_eq!(c.view().eval_shared(at), c.eval(Shift::from_raw_q40(at)), "at {}", v);
+                    let off_level = at.wrapping_add(i64::from(nudge));
+                    prop_assert_eq!(c.view().eval_shared(off_level), c.eval(Shift::from_raw_q40(off_level)), "at {} + {}", v, nudge);
                 }
             }
             let mut off = nodes.clone();

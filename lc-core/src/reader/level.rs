@@ -3,6 +3,7 @@
 use core::mem::MaybeUninit;
 
 use super::{Front, Input, ReaderError, SensorFault, Status};
+use crate::counting::CountPair;
 use crate::curve::{CurveRef, CurveStatus};
 use crate::fixed::div_q40_by_positive;
 use crate::image::{Image, ReaderKind};
@@ -66,17 +67,6 @@ pub struct LevelReading {
     pub axis: LevelAxis,
     /// Status.
     pub status: Status,
-}
-
-impl LevelReading {
-    const fn fault(f: SensorFault) -> Self {
-        Self {
-            level: 0,
-            volume: None,
-            axis: LevelAxis::Shift(Shift::ZERO),
-            status: Status::SensorFault(f),
-        }
-    }
 }
 
 /// Level from a capacitive probe in parallel with the tank capacitor.
@@ -176,17 +166,29 @@ impl<'a> LevelReader<'a> {
         h
     }
 
+    /// The level curve's input: the probe's drift-compensated shift, or
+    /// with a reference electrode the ratio of both channels' shifts.
+    /// Both channels go through one out-of-line [`channel_shift`].
+    #[inline(always)]
     fn curve_input(&mut self, input: &Input) -> Result<LevelAxis, SensorFault> {
+        let s = channel_shift(&self.front, &self.front.converter, input.pair)?;
         let Some(conv) = &self.reference else {
-            return self.front.shift(input).map(LevelAxis::Shift);
+            // `Front::shift` without a companion coil (a level image has
+            // none): the plausibility checks, then the drift correction.
+            return Ok(LevelAxis::Shift(
+                match self.front.plausible.check(input.pair, input.temperature)? {
+                    Some(t) => self.front.factor(t).apply(s),
+                    None => s,
+                },
+            ));
         };
         // The reference electrode shares the probe's fault window, gate and
         // temperature model: its check goes through the same accepted ticks.
-        let s = self.front.raw_shift(input.pair)?;
         let pair = input.companion.ok_or(SensorFault::Companion(None))?;
-        let r = self
-            .front
-            .checked_shift(conv, pair, |e| SensorFault::Companion(Some(e)))?;
+        let r = channel_shift(&self.front, conv, pair).map_err(|f| match f {
+            SensorFault::Counts(e) => SensorFault::Companion(Some(e)),
+            f => f,
+        })?;
         // Both compensated: ((1+s)(1+g) − 1)/((1+r)(1+g) − 1) = (s − h)/(r − h)
         // with h = 1/(1 + g) − 1 (`DriftFactor::offset`). Shifts lie below
         // 2^62 (Q.40 of r² < 2^22) and |h| ≤ 2^40: no overflow.
@@ -212,16 +214,43 @@ impl<'a> LevelReader<'a> {
     }
 
     /// One reading: the level, and the volume when the image has a volume
-    /// table.
+    /// table. The level curve and the volume table go through one
+    /// out-of-line copy of [`CurveRef::eval`], the volume table at the
+    /// level's point of its axis (level · 2^32: the same value and status
+    /// as [`CurveRef::eval_whole`]).
     #[inline(never)]
     pub fn read(&mut self, input: &Input) -> LevelReading {
-        let axis = match self.curve_input(input) {
-            Ok(x) => x,
-            Err(f) => return LevelReading::fault(f),
+        // One exit for readings and faults alike: a fault's fields are
+        // values merged into the one store of the reading, not a separate
+        // run of zero stores (which the compiler turns into a call of
+        // `memset`, 158 bytes of library code on ARMv6-M).
+        let (level, volume, axis, status) = match self.evaluate(input) {
+            Ok(reading) => reading,
+            Err(f) => (
+                0,
+                None,
+                LevelAxis::Shift(Shift::ZERO),
+                Status::SensorFault(f),
+            ),
         };
-        let v = self.curve.eval(Shift::from_raw_q40(axis.raw_q40()));
+        LevelReading {
+            level,
+            volume,
+            axis,
+            status,
+        }
+    }
+
+    /// The reading's fields, or the sensor fault.
+    #[inline(always)]
+    fn evaluate(
+        &mut self,
+        input: &Input,
+    ) -> Result<(i32, Option<i32>, LevelAxis, Status), SensorFault> {
+        let axis = self.curve_input(input)?;
+        let v = self.curve.eval_shared(axis.raw_q40());
         if !self.curve.within_reach(axis.raw_q40(), v.status) {
-            return LevelReading::fault(match axis {
+            return Err(match axis {
                 LevelAxis::Ratio(_) => SensorFault::ReferenceLow,
                 LevelAxis::Shift(_) => SensorFault::OutOfReach,
             });
@@ -231,15 +260,11 @@ impl<'a> LevelReader<'a> {
             CurveStatus::BelowRange => Status::BelowRange,
             CurveStatus::AboveRange => Status::AboveRange,
         };
-        LevelReading {
-            level: v.value,
-            volume: self
-                .volume
-                .as_ref()
-                .map(|vol| vol.eval_whole(v.value).value),
-            axis,
-            status,
-        }
+        let volume = self
+            .volume
+            .as_ref()
+            .map(|vol| vol.eval_shared(i64::from(v.value) << 32).value);
+        Ok((v.value, volume, axis, status))
     }
 
     /// `f64` twin: (level, volume) in output units, unrounded (assumes the
@@ -262,4 +287,39 @@ impl<'a> LevelReader<'a> {
         let volume = self.volume.as_ref().map(|v| v.eval_f64(level / 256.0));
         (level, volume)
     }
+}
+
+/// One channel's shift through the front's fault window (a window fault
+/// is [`SensorFault::Counts`]): the probe's with the front's converter, the
+/// reference electrode's with its own. Out of line: one copy of the
+/// window check and the shift for both channels. `Front::checked_shift`
+/// with the general [`ShiftConverter::shift`] behind the full check
+/// instead of its inlined gate case: the same results (`shift` has the
+/// gate case too), one copy of the gate case less, and a pair of the
+/// common path (in the gate's tick band) never gets there.
+#[inline(never)]
+fn channel_shift(
+    front: &Front,
+    conv: &ShiftConverter,
+    pair: CountPair,
+) -> Result<Shift, SensorFault> {
+    if let Some(a) = &front.accepted {
+        if a.contains(pair) {
+            return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
+        }
+    }
+    checked_shift_slow(front, conv, pair)
+}
+
+/// [`channel_shift`] of a pair outside the gate's tick band: the full
+/// window check, then the general shift.
+#[cold]
+#[inline(never)]
+fn checked_shift_slow(
+    front: &Front,
+    conv: &ShiftConverter,
+    pair: CountPair,
+) -> Result<Shift, SensorFault> {
+    front.window.check(pair).map_err(SensorFault::Counts)?;
+    conv.shift(pair).map_err(SensorFault::Shift)
 }
