@@ -33,6 +33,9 @@ impl Host {
     }
 
     /// Writes `bytes`; a failed write is remembered for [`Host::finish`].
+    /// Kept out of line: a line of output is a dozen writes, each a call
+    /// of a few bytes instead of this body inlined.
+    #[inline(never)]
     pub fn write(&mut self, bytes: &[u8]) {
         let written = match &mut self.out {
             Some(out) => out.write_all(bytes).is_ok(),

@@ -42,12 +42,15 @@ fn main() -> ! {
     let Ok(image) = Image::new_level(image) else {
         host.fail(b"calibration image refused\n")
     };
-    let Ok(mut reader) = LevelReader::new(&image) else {
-        host.fail(b"not a level image\n")
+    // Used in place (see `proximity.rs`, step 3).
+    let mut built = LevelReader::new(&image);
+    let reader = match &mut built {
+        Ok(reader) => reader,
+        Err(_) => host.fail(b"not a level image\n"),
     };
 
-    for (i, input) in (0u32..).zip(black_box(&script::LEVEL)) {
-        let r = reader.read(input);
+    for (i, gate) in (0u32..).zip(black_box(&script::LEVEL_GATES)) {
+        let r = reader.read(&gate.input());
         report::reading(&mut host, i, r.level, r.volume, r.axis.raw_q40(), r.status);
     }
     host.finish()

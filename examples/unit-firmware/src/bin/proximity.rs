@@ -19,16 +19,22 @@
 //!    and links every kind's checks; this firmware runs one.) A unit whose image fails must not read:
 //!    report it and stop (here: exit with a failure status).
 //! 3. **Build the reader.** `ProximityReader::new` checks the image's
-//!    kind and borrows its curve from flash; nothing is derived.
+//!    kind and borrows its curve from flash; nothing is derived. Use the
+//!    reader where it was built (`match &mut built`): moved out of its
+//!    `Result`, it would be copied.
 //! 4. **Read.** Per gate, the timer capture gives a count pair (sensor
 //!    cycles, reference ticks) and the NTC a temperature; `read` turns them
 //!    into a gap in micrometres with a status. A sensor fault is a status,
-//!    never a panic. Here the inputs come from a script (`lc_unit::script`)
-//!    and the readings go to the host over semihosting.
+//!    never a panic. Here the registers' values come from a script
+//!    (`lc_unit::script`: one row of a few bytes a gate, turned into an
+//!    `Input` per reading, as the firmware would do with its capture
+//!    registers) and the readings go to the host over semihosting.
 //!
 //! Memory (measured by `tests/firmware_budget.rs`, docs/performance.md):
 //! everything lives in `main`'s frame; the stack sits at the bottom of RAM
 //! (build.rs) so an overflow faults instead of corrupting the statics.
+//! With less RAM to spare, run the steps in functions of their own, so
+//! the stack holds one step's working memory at a time (`metal.rs`).
 //!
 //! **Not a safety-rated component.** A reading that protects people or
 //! machines needs a safety function designed to the applicable standards.
@@ -58,12 +64,17 @@ fn main() -> ! {
     let Ok(image) = Image::new_proximity(image) else {
         host.fail(b"calibration image refused\n")
     };
-    let Ok(mut reader) = ProximityReader::new(&image) else {
-        host.fail(b"not a proximity image\n")
+    // The reader is used in place, by reference: moving it out of the
+    // `Result` (`let Ok(mut reader) = …`) would copy it into a second
+    // slot of the frame (and may call `memcpy`).
+    let mut built = ProximityReader::new(&image);
+    let reader = match &mut built {
+        Ok(reader) => reader,
+        Err(_) => host.fail(b"not a proximity image\n"),
     };
 
-    for (i, input) in (0u32..).zip(black_box(&script::PROXIMITY)) {
-        let r = reader.read(input);
+    for (i, gate) in (0u32..).zip(black_box(&script::PROXIMITY_GATES)) {
+        let r = reader.read(&gate.input());
         report::reading(&mut host, i, r.gap, None, r.shift.raw_q40(), r.status);
     }
     host.finish()
