@@ -57,7 +57,7 @@ typedef lc_proximity_reader_t reader_t;
    the image is refused. */
 static void __attribute__((noinline)) start(reader_t *reader) {
   if (lc_proximity_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
-    host_fail("calibration image refused\n");
+    FAIL("calibration image refused\n");
   }
 }
 
@@ -67,7 +67,7 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
     proximity_input(&script_proximity[i], &in);
     lc_proximity_reading_t r;
     if (lc_proximity_read(reader, &in, &r) != LC_OK) {
-      host_fail("bad input\n");
+      FAIL("bad input\n");
     }
     put_reading((uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
   }
@@ -77,7 +77,7 @@ typedef lc_level_reader_t reader_t;
 
 static void __attribute__((noinline)) start(reader_t *reader) {
   if (lc_level_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
-    host_fail("calibration image refused\n");
+    FAIL("calibration image refused\n");
   }
 }
 
@@ -87,7 +87,7 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
     level_input(&script_level[i], &in);
     lc_level_reading_t r;
     if (lc_level_read(reader, &in, &r) != LC_OK) {
-      host_fail("bad input\n");
+      FAIL("bad input\n");
     }
     put_reading((uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status, r.fault);
   }
@@ -97,7 +97,7 @@ typedef lc_metal_reader_t reader_t;
 
 static void __attribute__((noinline)) start(reader_t *reader) {
   if (lc_metal_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
-    host_fail("calibration image refused\n");
+    FAIL("calibration image refused\n");
   }
 }
 
@@ -107,7 +107,7 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
     metal_input(&script_metal[i], &in);
     lc_metal_reading_t r;
     if (lc_metal_read(reader, &in, &r) != LC_OK) {
-      host_fail("bad input\n");
+      FAIL("bad input\n");
     }
     put_reading((uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop, r.delta_q40,
                 r.status, r.fault);

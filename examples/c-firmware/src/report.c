@@ -42,13 +42,15 @@ void put_int(int32_t v) {
 
 void put_hex64(int64_t v) {
   /* Two 32-bit halves: the M0 has no 64-bit shift instruction. */
-  const uint32_t words[2] = {(uint32_t)((uint64_t)v >> 32), (uint32_t)v};
-  for (unsigned w = 0; w < 2u; w++) {
-    for (unsigned i = 8; i-- > 0u;) {
-      /* A nibble (< 16), from the most significant down. */
-      unsigned nibble = (words[w] >> (4u * i)) & 0xFu;
-      put_byte((char)(nibble < 10u ? '0' + nibble : 'a' - 10u + nibble));
+  uint32_t word = (uint32_t)((uint64_t)v >> 32);
+  for (unsigned i = 0; i < 16u; i++) {
+    if (i == 8u) {
+      word = (uint32_t)v;
     }
+    /* The top nibble (< 16), then the next one up. */
+    unsigned nibble = word >> 28;
+    word <<= 4;
+    put_byte((char)(nibble < 10u ? '0' + nibble : 'a' - 10u + nibble));
   }
 }
 
@@ -71,15 +73,18 @@ void put_status(lc_status_t status, lc_fault_t fault) {
     number = group < 4u ? 4u + group : 2u * group + low;
   }
   /* The name is the part of names after `number` line ends, up to and
-     including the next (an unknown number: the last name's end). */
-  const char *at = names, *end = names + sizeof names - 1u;
-  for (; number != 0u && at < end; at++) {
+     including the next (an unknown code: the last name). */
+  if (number > 13u) {
+    number = 13u;
+  }
+  const char *at = names;
+  for (; number != 0u; at++) {
     if (*at == '\n') {
       number--;
     }
   }
   const char *start = at;
-  while (at < end && *at++ != '\n') {
+  while (*at++ != '\n') {
   }
   host_write(start, (size_t)(at - start));
 }
