@@ -710,7 +710,7 @@ pub struct lc_input_t {
 }
 
 impl lc_input_t {
-    fn to_input(&self) -> Result<Input, lc_error_t> {
+    fn to_input(self) -> Result<Input, lc_error_t> {
         const ALL: u8 = LC_INPUT_COMPANION | LC_INPUT_TEMPERATURE | LC_INPUT_RING_COUNT;
         if self.flags & !ALL != 0 {
             return Err(LC_ERR_BAD_INPUT_FLAGS);
@@ -1525,7 +1525,7 @@ pub unsafe extern "C" fn lc_proximity_read(
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, ProximityReader<'static>>(reader, TAG_PROXIMITY)? };
         // SAFETY: `input` checked.
-        let input = unsafe { &*input }.to_input()?;
+        let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
         unsafe { ptr::write(reading, r.read(&input).into()) };
         Ok(())
@@ -1606,7 +1606,7 @@ pub unsafe extern "C" fn lc_level_read(
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, LevelReader<'static>>(reader, TAG_LEVEL)? };
         // SAFETY: `input` checked.
-        let input = unsafe { &*input }.to_input()?;
+        let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
         unsafe { ptr::write(reading, r.read(&input).into()) };
         Ok(())
@@ -1688,7 +1688,7 @@ pub unsafe extern "C" fn lc_metal_read(
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, MetalReader>(reader, TAG_METAL)? };
         // SAFETY: `input` checked.
-        let input = unsafe { &*input }.to_input()?;
+        let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
         unsafe { ptr::write(reading, r.read(&input).into()) };
         Ok(())
@@ -1741,7 +1741,7 @@ pub unsafe extern "C" fn lc_reader_read(
         // SAFETY: checked; the caller's contract.
         let r = unsafe { load::<_, Reader<'static>>(reader, TAG_READER)? };
         // SAFETY: `input` checked.
-        let input = unsafe { &*input }.to_input()?;
+        let input = unsafe { ptr::read(input) }.to_input()?;
         // SAFETY: `reading` checked.
         unsafe { ptr::write(reading, r.read(&input).into()) };
         Ok(())
