@@ -53,16 +53,8 @@ static void __attribute__((noreturn)) exit_with(int success) {
   }
 }
 
-void host_puts(const char *s) {
-  size_t n = 0;
-  while (s[n] != '\0') {
-    n++;
-  }
-  host_write(s, n);
-}
-
-void host_fail(const char *why) {
-  host_puts(why);
+void host_fail(const char *why, size_t len) {
+  host_write(why, len);
   exit_with(0);
 }
 

@@ -12,10 +12,11 @@
 void host_open(void);
 /* Writes `len` bytes; a failed write is remembered for host_finish. */
 void host_write(const char *bytes, size_t len);
-/* Writes the NUL-terminated string `s`. */
-void host_puts(const char *s);
-/* Writes `why` and ends the program with a failure status. */
-void host_fail(const char *why) __attribute__((noreturn));
+/* Writes the `len` bytes of `why` and ends the program with a failure
+   status. */
+void host_fail(const char *why, size_t len) __attribute__((noreturn));
+/* host_fail with a string literal (its length known at compile time). */
+#define FAIL(literal) host_fail((literal), sizeof(literal) - 1u)
 /* Writes `stack <bytes>` (the peak stack) and ends the program: success
    when every write succeeded. */
 void host_finish(void) __attribute__((noreturn));

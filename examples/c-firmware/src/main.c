@@ -24,7 +24,9 @@
    4. Read. Per gate, the timer capture gives a count pair and the NTC a
       temperature; lc_*_read turns them into a reading with a status. A
       sensor fault is a status, never an error code. Here the inputs come
-      from a script (script.c) and the readings go to the host over
+      from a script (script.c: one row of a few bytes a gate, turned into
+      an lc_input_t per reading, as the firmware would do with its capture
+      registers) and the readings go to the host over
       semihosting, in the Rust unit firmwares' line format.
 
    LC_CHECK_LAYOUT() (lc_core.h) checks at run time that the header and
@@ -55,15 +57,17 @@ typedef lc_proximity_reader_t reader_t;
    the image is refused. */
 static void __attribute__((noinline)) start(reader_t *reader) {
   if (lc_proximity_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
-    host_fail("calibration image refused\n");
+    FAIL("calibration image refused\n");
   }
 }
 
 static void __attribute__((noinline)) read_all(reader_t *reader) {
   for (size_t i = 0; i < script_proximity_len; i++) {
+    lc_input_t in;
+    proximity_input(&script_proximity[i], &in);
     lc_proximity_reading_t r;
-    if (lc_proximity_read(reader, &script_proximity[i], &r) != LC_OK) {
-      host_fail("bad input\n");
+    if (lc_proximity_read(reader, &in, &r) != LC_OK) {
+      FAIL("bad input\n");
     }
     put_reading((uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
   }
@@ -73,15 +77,17 @@ typedef lc_level_reader_t reader_t;
 
 static void __attribute__((noinline)) start(reader_t *reader) {
   if (lc_level_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
-    host_fail("calibration image refused\n");
+    FAIL("calibration image refused\n");
   }
 }
 
 static void __attribute__((noinline)) read_all(reader_t *reader) {
   for (size_t i = 0; i < script_level_len; i++) {
+    lc_input_t in;
+    level_input(&script_level[i], &in);
     lc_level_reading_t r;
-    if (lc_level_read(reader, &script_level[i], &r) != LC_OK) {
-      host_fail("bad input\n");
+    if (lc_level_read(reader, &in, &r) != LC_OK) {
+      FAIL("bad input\n");
     }
     put_reading((uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status, r.fault);
   }
@@ -91,15 +97,17 @@ typedef lc_metal_reader_t reader_t;
 
 static void __attribute__((noinline)) start(reader_t *reader) {
   if (lc_metal_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
-    host_fail("calibration image refused\n");
+    FAIL("calibration image refused\n");
   }
 }
 
 static void __attribute__((noinline)) read_all(reader_t *reader) {
   for (size_t i = 0; i < script_metal_len; i++) {
+    lc_input_t in;
+    metal_input(&script_metal[i], &in);
     lc_metal_reading_t r;
-    if (lc_metal_read(reader, &script_metal[i], &r) != LC_OK) {
-      host_fail("bad input\n");
+    if (lc_metal_read(reader, &in, &r) != LC_OK) {
+      FAIL("bad input\n");
     }
     put_reading((uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop, r.delta_q40,
                 r.status, r.fault);

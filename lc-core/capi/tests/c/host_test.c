@@ -434,8 +434,25 @@ int main(int argc, char **argv) {
 
   static const lc_kind_t kinds[3] = {LC_KIND_PROXIMITY, LC_KIND_LEVEL, LC_KIND_METAL};
   static const char *names[3] = {"proximity", "level", "metal"};
-  const lc_input_t *inputs[3] = {script_proximity, script_level, script_metal};
+  /* The scripts' gate rows as the readers' inputs, expanded as the
+     example firmwares expand them (script.h). */
+  enum { MAX_ROWS = 64 };
+  static lc_input_t rows[3][MAX_ROWS];
   const size_t counts[3] = {script_proximity_len, script_level_len, script_metal_len};
+  if (counts[0] > MAX_ROWS || counts[1] > MAX_ROWS || counts[2] > MAX_ROWS) {
+    fprintf(stderr, "a script has more than %d rows\n", MAX_ROWS);
+    return 2;
+  }
+  for (size_t i = 0; i < counts[0]; i++) {
+    proximity_input(&script_proximity[i], &rows[0][i]);
+  }
+  for (size_t i = 0; i < counts[1]; i++) {
+    level_input(&script_level[i], &rows[1][i]);
+  }
+  for (size_t i = 0; i < counts[2]; i++) {
+    metal_input(&script_metal[i], &rows[2][i]);
+  }
+  const lc_input_t *inputs[3] = {rows[0], rows[1], rows[2]};
   uint8_t *bytes[3];
   size_t lens[3];
   lc_image_t images[3];
