@@ -469,14 +469,11 @@ impl<'a> CurveRef<'a> {
         if len > MAX_NODES {
             return Err(CurveError::TooManyNodes);
         }
-        let stride = if cubic {
-            CUBIC_SEGMENT_WORDS
-        } else {
-            LINEAR_SEGMENT_WORDS
-        };
         let short = CurveError::TooFewNodes;
+        // Each slice's length a constant times the record count: the casts'
+        // divisions by the record size fold away (on a Cortex-M0 a
+        // division by a stride chosen at run time is a library call).
         let nodes = nodes.get(..len * NODE_WORDS).ok_or(short)?;
-        let segs = segs.get(..(len - 1) * stride).ok_or(short)?;
         let nodes: &[[u32; NODE_WORDS]] = bytemuck::try_cast_slice(nodes).map_err(|_| short)?;
         let mut c = CurveRef {
             nodes,
@@ -486,8 +483,10 @@ impl<'a> CurveRef<'a> {
             whole: false,
         };
         if cubic {
+            let segs = segs.get(..(len - 1) * CUBIC_SEGMENT_WORDS).ok_or(short)?;
             c.cubic = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
         } else {
+            let segs = segs.get(..(len - 1) * LINEAR_SEGMENT_WORDS).ok_or(short)?;
             c.linear = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
         }
         c.rising = c.y(len - 1) >= c.y(0);
