@@ -470,10 +470,13 @@ impl<'a> CurveRef<'a> {
             return Err(CurveError::TooManyNodes);
         }
         let short = CurveError::TooFewNodes;
-        // Each slice's length a constant times the record count: the casts'
-        // divisions by the record size fold away (on a Cortex-M0 a
-        // division by a stride chosen at run time is a library call).
-        let nodes = nodes.get(..len * NODE_WORDS).ok_or(short)?;
+        // The casts divide each slice's length by its record size; with
+        // the length a constant times a count the compiler sees cannot
+        // wrap (through `u8`: len ≤ 64, the casts are exact), those
+        // divisions fold away instead of calling the library's 32-bit
+        // division on a Cortex-M0.
+        let (len8, segments8) = (len as u8, (len - 1) as u8);
+        let nodes = nodes.get(..usize::from(len8) * NODE_WORDS).ok_or(short)?;
         let nodes: &[[u32; NODE_WORDS]] = bytemuck::try_cast_slice(nodes).map_err(|_| short)?;
         let mut c = CurveRef {
             nodes,
@@ -483,10 +486,14 @@ impl<'a> CurveRef<'a> {
             whole: false,
         };
         if cubic {
-            let segs = segs.get(..(len - 1) * CUBIC_SEGMENT_WORDS).ok_or(short)?;
+            let segs = segs
+                .get(..usize::from(segments8) * CUBIC_SEGMENT_WORDS)
+                .ok_or(short)?;
             c.cubic = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
         } else {
-            let segs = segs.get(..(len - 1) * LINEAR_SEGMENT_WORDS).ok_or(short)?;
+            let segs = segs
+                .get(..usize::from(segments8) * LINEAR_SEGMENT_WORDS)
+                .ok_or(short)?;
             c.linear = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
         }
         c.rising = c.y(len - 1) >= c.y(0);

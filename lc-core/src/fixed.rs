@@ -199,7 +199,7 @@ pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
     let (q2, r2) = div.div_rem(u64::from(r1) << 32);
     let q = (q1 << 32) | q2;
     // r2 < d: d − r2 cannot wrap.
-    if r2 >= d - r2 {
+    if r2 >= d.wrapping_sub(r2) {
         q.checked_add(1)
     } else {
         Some(q)
@@ -222,11 +222,13 @@ pub(crate) fn div_rem_u64_u32(n: u64, d: u32) -> Option<(u64, u32)> {
 /// about 400) and 300 to 700 instructions a call. Here instead: the divisor
 /// is normalised (shifted left by its leading zeros s, top bit set) and
 /// its reciprocal v = ⌊(2^64 − 1)/d_n⌋ − 2^32 is formed once
-/// ([`reciprocal_word`], about 60 instructions, no division); each
+/// ([`reciprocal_word`], about 100 instructions, no division); each
 /// division is then the dividend shifted left by s as three words and two
-/// 2-by-1-word steps ([`div_step`], about 30 instructions each: one
+/// 2-by-1-word steps ([`div_step`], about 45 instructions each: one
 /// 32 × 32 → 64-bit product, one 32-bit product and two conditional
-/// corrections), the remainder shifted back. That is the method of N.
+/// corrections; one step when the quotient is below 2^32), the remainder
+/// shifted back. About 300 instructions for a 64-bit quotient, including
+/// the reciprocal; about 580 bytes of code. That is the method of N.
 /// Möller and T. Granlund, "Improved division by invariant integers", IEEE
 /// Transactions on Computers 60(2), 2011 (their Algorithm 4 for each step).
 /// Elsewhere the native operators. Both forms are compiled everywhere and
@@ -358,10 +360,10 @@ fn div_step(u1: u32, u0: u32, d: u32, v: u32) -> (u32, u32) {
 /// - the remainder (2^64 − 1) − V·d, exact, raises V by one while it is
 ///   at least d (at most twice).
 ///
-/// About 60 instructions on a Cortex-M0: nine products of 16-bit-sized
+/// About 100 instructions on a Cortex-M0: nine products of 16-bit-sized
 /// factors and one 32 × 32 → 64-bit product. The result, and every bound
 /// stated in [`reciprocal_word_steps`], hold for every normalised d
-/// (`reciprocal_word_exhaustive`, an ignored test of about a minute in
+/// (`reciprocal_word_exhaustive`, an ignored test of a few minutes in
 /// release; `reciprocal_word_sweep` checks every 61st d on every test run).
 #[inline]
 fn reciprocal_word(d: u32) -> u32 {
@@ -874,7 +876,7 @@ mod tests {
     }
 
     /// Every normalised divisor: the reciprocal exact, the intermediate
-    /// bounds held, at most two raises. About a minute in release:
+    /// bounds held, at most two raises. A few minutes in release:
     /// `cargo test --release -p lc-core reciprocal_word_exhaustive -- --ignored`.
     #[test]
     #[ignore]
