@@ -248,8 +248,11 @@ pub(crate) struct Divisor {
 }
 
 impl Divisor {
-    /// `d` prepared, `None` when it is zero.
-    #[inline]
+    /// `d` prepared, `None` when it is zero. On ARMv6-M out of line (one
+    /// copy of the reciprocal for every caller); elsewhere it only
+    /// stores `d`.
+    #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+    #[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
     pub(crate) fn new(d: u32) -> Option<Self> {
         if d == 0 {
             return None;
@@ -283,7 +286,8 @@ impl Divisor {
 
     /// [`Divisor::div_rem`] by the reciprocal (compiled everywhere so host
     /// tests hold it equal to the operators; the reciprocal is formed here
-    /// when `new` left it out).
+    /// when `new` left it out). Out of line: one copy for every caller.
+    #[inline(never)]
     fn div_rem_steps(self, n: u64) -> (u64, u32) {
         let (s, dn) = (self.shift, self.normalised);
         let v = if ARMV6M {
@@ -570,12 +574,36 @@ fn normalise_parts_inline(v: u64) -> Option<(u32, u32, u32)> {
 }
 
 /// `x` shifted left by its leading zeros z (top bit set) and z; (0, 64)
-/// for x = 0. In 32-bit words on ARMv6-M ([`leading_zeros_u64`],
-/// [`shl_u64`]): no library call. Exact.
+/// for x = 0. On ARMv6-M in 32-bit words ([`shl_to_top_words`]): no
+/// library call. Exact.
 #[inline]
 pub(crate) fn shl_to_top(x: u64) -> (u64, u32) {
-    let z = leading_zeros_u64(x);
-    (shl_u64(x, z), z)
+    if ARMV6M {
+        shl_to_top_words(x)
+    } else {
+        let z = x.leading_zeros();
+        (x.checked_shl(z).unwrap_or(0), z)
+    }
+}
+
+/// [`shl_to_top`] in words: a zero high word takes the low one (32 more
+/// zeros), then one count and one two-word shift (compiled everywhere so
+/// host tests hold it equal to the native operations).
+#[inline]
+fn shl_to_top_words(x: u64) -> (u64, u32) {
+    let (mut hi, mut lo, mut z) = ((x >> 32) as u32, x as u32, 0u32); // exact halves
+    if hi == 0 {
+        (hi, lo, z) = (lo, 0, 32);
+    }
+    // k ≤ 31 for hi ≠ 0; k = 32 only for x = 0, where every word is 0.
+    let k = leading_zeros_u32(hi);
+    if k != 0 {
+        // 1 ≤ k ≤ 32: the shift counts are in range or shift a zero word.
+        hi = hi.wrapping_shl(k) | lo.wrapping_shr(32u32.wrapping_sub(k));
+        lo = lo.wrapping_shl(k);
+    }
+    // z ≤ 32 and k ≤ 32: the sum cannot wrap.
+    ((u64::from(hi) << 32) | u64::from(lo), z.wrapping_add(k))
 }
 
 /// `x << sh` for `sh` in 0..=63, in 32-bit words on ARMv6-M (no library
@@ -763,7 +791,7 @@ mod tests {
             prop_assert_eq!(shl_u64(x, sh), x << sh);
             prop_assert_eq!(shr_u64_words(x, sh), x >> sh);
             let y = (x >> sh).max(1);
-            prop_assert_eq!(shl_to_top(y), (y << y.leading_zeros(), y.leading_zeros()));
+            prop_assert_eq!(shl_to_top_words(y), (y << y.leading_zeros(), y.leading_zeros()));
         }
 
         /// The reciprocal within its stated 2^-28 for any normalised m,
@@ -961,10 +989,14 @@ mod tests {
 
     #[test]
     fn shifted_to_the_top() {
-        assert_eq!(shl_to_top(0), (0, 64));
-        assert_eq!(shl_to_top(1), (1 << 63, 63));
-        assert_eq!(shl_to_top(u64::MAX), (u64::MAX, 0));
-        assert_eq!(shl_to_top(3 << 31), (3 << 62, 31));
+        for f in [shl_to_top, shl_to_top_words] {
+            assert_eq!(f(0), (0, 64));
+            assert_eq!(f(1), (1 << 63, 63));
+            assert_eq!(f(u64::MAX), (u64::MAX, 0));
+            assert_eq!(f(3 << 31), (3 << 62, 31));
+            assert_eq!(f(1 << 32), (1 << 63, 31));
+            assert_eq!(f(u64::from(u32::MAX)), (u64::from(u32::MAX) << 32, 32));
+        }
     }
 
     #[test]

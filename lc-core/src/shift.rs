@@ -517,13 +517,21 @@ impl ShiftConverter {
             }
             return square_to_shift(x, self.gate_exp);
         }
+        self.shift_by_division(ticks, cycles)
+    }
+
+    /// The division path of [`ShiftConverter::shift`], for non-zero ticks
+    /// and cycles. Out of line: inlined, its registers cost the
+    /// configured-gate path spills on a Cortex-M0.
+    #[inline(never)]
+    fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
         // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
         let (x, z) = shl_to_top(mul_u32_wide(ticks, self.inv_mant));
         // x ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
         // z ≤ 32 and |inv_exp| < 2^8 (a rest point's scale): the sum
         // cannot wrap.
         let exp = self.inv_exp.wrapping_add(z as i32);
-        // cycles ≥ 1 (above): the division is always there.
+        // cycles ≥ 1: the division is always there.
         let q = div_rem_u64_u32(x, cycles).map_or(0, |(q, _)| q);
         square_to_shift(q, exp)
     }
