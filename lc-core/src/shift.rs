@@ -521,9 +521,9 @@ impl ShiftConverter {
     }
 
     /// The division path of [`ShiftConverter::shift`], for non-zero ticks
-    /// and cycles. Out of line: inlined, its registers cost the
-    /// configured-gate path spills on a Cortex-M0.
-    #[inline(never)]
+    /// and cycles. Out of line on ARMv6-M: inlined, its registers cost
+    /// the configured-gate path spills on a Cortex-M0.
+    #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
     fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
         // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
         let (x, z) = shl_to_top(mul_u32_wide(ticks, self.inv_mant));
