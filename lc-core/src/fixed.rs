@@ -228,9 +228,10 @@ pub(crate) fn div_rem_u64_u32(n: u64, d: u32) -> Option<(u64, u32)> {
 /// 32 × 32 → 64-bit product, one 32-bit product and two conditional
 /// corrections; one step when the quotient is below 2^32), the remainder
 /// shifted back. About 300 instructions for a 64-bit quotient, including
-/// the reciprocal; about 580 bytes of code. That is the method of N.
-/// Möller and T. Granlund, "Improved division by invariant integers", IEEE
-/// Transactions on Computers 60(2), 2011 (their Algorithm 4 for each step).
+/// the reciprocal; about 580 bytes of code. Each step is the 2-by-1
+/// division with a precomputed reciprocal of N. Möller and T. Granlund,
+/// "Improved division by invariant integers", IEEE Transactions on
+/// Computers 60(2), 2011; the reciprocal is computed here (below).
 /// Elsewhere the native operators. Both forms are compiled everywhere and
 /// held equal by the tests (every normalised divisor's reciprocal in an
 /// ignored exhaustive test; dividends and divisors of every size in
@@ -295,9 +296,10 @@ impl Divisor {
         } else {
             reciprocal_word(dn)
         };
-        let (hi, lo) = ((n >> 32) as u32, n as u32); // exact halves
-                                                     // n · 2^s as three words; the top one is below 2^s ≤ 2^31 ≤ dn, as
-                                                     // each step needs. (s ≤ 31: the shifts below are in range.)
+        // n's exact halves, then n · 2^s as three words; the top one is
+        // below 2^s ≤ 2^31 ≤ dn, as each step needs. (s ≤ 31: the shifts
+        // below are in range.)
+        let (hi, lo) = ((n >> 32) as u32, n as u32);
         let (n2, n1, n0) = if s == 0 {
             (0, hi, lo)
         } else {
@@ -324,7 +326,7 @@ impl Divisor {
 /// One 2-by-1-word division step: (u1 · 2^32 + u0) / d and its remainder,
 /// for a normalised d (top bit set), u1 < d (so the quotient is below
 /// 2^32) and v = ⌊(2^64 − 1)/d⌋ − 2^32 ([`reciprocal_word`]). Möller and
-/// Granlund's Algorithm 4: the estimate u1 + 1 + ⌊(v · u1 + u0)/2^32⌋
+/// Granlund's 2-by-1 division: the estimate u1 + 1 + ⌊(v · u1 + u0)/2^32⌋
 /// (word arithmetic, modulo 2^32) is at most one above or below the
 /// quotient's and its remainder, taken modulo 2^32, tells which; the
 /// second correction is rare. Exact under those preconditions (the
