@@ -426,6 +426,27 @@ fn check_segment(
     Ok(())
 }
 
+/// The first `count` records of `N` words of `words` (`None` when there
+/// are fewer), for `count` ≤ 64.
+///
+/// The cast divides the slice's length by the record size. Left to
+/// itself, the optimizer narrows count · N (it knows count ≤ 64) to 16
+/// bits and loses the product, so that division stays, a call of the
+/// library's 32-bit division on a Cortex-M0. With the count passed
+/// through `black_box` as a `u16` (exact: count ≤ 64) the product
+/// visibly cannot wrap and the division folds away; cutting the records
+/// to `count` then tells the compiler their length again.
+#[inline(always)]
+fn records<const N: usize>(words: &[u32], count: usize) -> Option<&[[u32; N]]>
+where
+    [u32; N]: bytemuck::Pod,
+{
+    let n = usize::from(core::hint::black_box(count as u16));
+    // n < 2^16 and N ≤ 5: the product cannot wrap.
+    let typed: &[[u32; N]] = bytemuck::try_cast_slice(words.get(..n * N)?).ok()?;
+    typed.get(..count)
+}
+
 impl<'a> CurveRef<'a> {
     /// The curve of `len` nodes in `nodes` (three words each: x's low and
     /// high words, y) with their segment constants in `segs` (two words
@@ -487,26 +508,23 @@ impl<'a> CurveRef<'a> {
         if len > MAX_NODES {
             return Err(CurveError::TooManyNodes);
         }
-        let stride = if cubic {
-            CUBIC_SEGMENT_WORDS
-        } else {
-            LINEAR_SEGMENT_WORDS
-        };
         let short = CurveError::TooFewNodes;
+        // (The nodes' cast divides by 12, which folds: len · 3 stays a
+        // product the compiler sees.)
         let nodes = nodes.get(..len * NODE_WORDS).ok_or(short)?;
-        let segs = segs.get(..(len - 1) * stride).ok_or(short)?;
-        let nodes: &[[u32; NODE_WORDS]] = bytemuck::try_cast_slice(nodes).map_err(|_| short)?;
+        // len − 1 ≥ 1: no wrap.
+        let segments = len.wrapping_sub(1);
         let mut c = CurveRef {
-            nodes,
+            nodes: bytemuck::try_cast_slice(nodes).map_err(|_| short)?,
             linear: &[],
             cubic: &[],
             rising: true,
             whole: false,
         };
         if cubic {
-            c.cubic = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
+            c.cubic = records(segs, segments).ok_or(short)?;
         } else {
-            c.linear = bytemuck::try_cast_slice(segs).map_err(|_| short)?;
+            c.linear = records(segs, segments).ok_or(short)?;
         }
         c.rising = c.y(len - 1) >= c.y(0);
         Ok(c)

@@ -187,25 +187,263 @@ fn div_rem_u128_serial(n: u128, d: u128) -> Option<(u128, u128)> {
 /// `a · 2^32 / d` rounded to nearest, ties away from zero, or `None` when
 /// `d` is zero or the result does not fit 64 bits. Exact: two 64 ÷ 32-bit
 /// long-division steps with the remainder carried, the same result as the
-/// 128-bit division at a fraction of its cost on a 32-bit core.
+/// 128-bit division at a fraction of its cost on a 32-bit core; on
+/// ARMv6-M both steps divide by one [`Divisor`] (one reciprocal).
 pub fn round_div_shl32(a: u64, d: u32) -> Option<u64> {
-    if d == 0 {
-        return None;
-    }
-    let d = u64::from(d);
-    let (q1, r1) = (a / d, a % d);
+    let div = Divisor::new(d)?;
+    let (q1, r1) = div.div_rem(a);
     if q1 >> 32 != 0 {
         return None; // a/d ≥ 2^32: the result is ≥ 2^64
     }
     // r1 < d < 2^32, so r1 · 2^32 fits and its quotient is below 2^32.
-    let n2 = r1 << 32;
-    let (q2, r2) = (n2 / d, n2 % d);
+    let (q2, r2) = div.div_rem(u64::from(r1) << 32);
     let q = (q1 << 32) | q2;
-    if r2 >= d - r2 {
+    // r2 < d: d − r2 cannot wrap.
+    if r2 >= d.wrapping_sub(r2) {
         q.checked_add(1)
     } else {
         Some(q)
     }
+}
+
+/// `n / d` and `n % d` for a `u64` dividend and a `u32` divisor, `None`
+/// when `d` is zero. Exact, as the operators are; on ARMv6-M without the
+/// library's 64-bit division (see [`Divisor`]). To divide several values by
+/// one divisor, form the [`Divisor`] once.
+#[inline]
+pub(crate) fn div_rem_u64_u32(n: u64, d: u32) -> Option<(u64, u32)> {
+    Divisor::new(d).map(|div| div.div_rem(n))
+}
+
+/// A non-zero `u32` divisor prepared for exact division of `u64` values.
+///
+/// ARMv6-M has no divide instruction, and there the compiler's 64-bit
+/// division is a library routine of about 900 bytes (plus its 32-bit one,
+/// about 400) and 300 to 700 instructions a call. Here instead: the divisor
+/// is normalised (shifted left by its leading zeros s, top bit set) and
+/// its reciprocal v = ⌊(2^64 − 1)/d_n⌋ − 2^32 is formed once
+/// ([`reciprocal_word`], about 100 instructions, no division); each
+/// division is then the dividend shifted left by s as three words and two
+/// 2-by-1-word steps ([`div_step`], about 45 instructions each: one
+/// 32 × 32 → 64-bit product, one 32-bit product and two conditional
+/// corrections; one step when the quotient is below 2^32), the remainder
+/// shifted back. About 300 instructions for a 64-bit quotient, including
+/// the reciprocal; about 580 bytes of code. Each step is the 2-by-1
+/// division with a precomputed reciprocal of N. Möller and T. Granlund,
+/// "Improved division by invariant integers", IEEE Transactions on
+/// Computers 60(2), 2011; the reciprocal is computed here (below).
+/// Elsewhere the native operators. Both forms are compiled everywhere and
+/// held equal by the tests (every normalised divisor's reciprocal in an
+/// ignored exhaustive test; dividends and divisors of every size in
+/// property tests).
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Divisor {
+    /// The divisor, ≥ 1.
+    d: u32,
+    /// Its leading zeros s, 0..=31.
+    shift: u32,
+    /// d · 2^s, in 2^31..2^32.
+    normalised: u32,
+    /// ⌊(2^64 − 1)/(d · 2^s)⌋ − 2^32 (ARMv6-M only; 0 elsewhere).
+    reciprocal: u32,
+}
+
+impl Divisor {
+    /// `d` prepared, `None` when it is zero. On ARMv6-M out of line (one
+    /// copy of the reciprocal for every caller); elsewhere it only
+    /// stores `d`.
+    #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+    #[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
+    pub(crate) fn new(d: u32) -> Option<Self> {
+        if d == 0 {
+            return None;
+        }
+        let shift = leading_zeros_u32(d); // 0..=31 for d ≠ 0
+        let normalised = d.wrapping_shl(shift);
+        let reciprocal = if ARMV6M {
+            reciprocal_word(normalised)
+        } else {
+            0
+        };
+        Some(Divisor {
+            d,
+            shift,
+            normalised,
+            reciprocal,
+        })
+    }
+
+    /// `n / d` and `n % d`. Exact.
+    #[inline]
+    pub(crate) fn div_rem(self, n: u64) -> (u64, u32) {
+        if ARMV6M {
+            self.div_rem_steps(n)
+        } else {
+            let d = u64::from(self.d);
+            // d ≥ 1 (`new`); the remainder is below d < 2^32.
+            (n / d, (n % d) as u32)
+        }
+    }
+
+    /// [`Divisor::div_rem`] by the reciprocal (compiled everywhere so host
+    /// tests hold it equal to the operators; the reciprocal is formed here
+    /// when `new` left it out). Out of line: one copy for every caller.
+    #[inline(never)]
+    fn div_rem_steps(self, n: u64) -> (u64, u32) {
+        let (s, dn) = (self.shift, self.normalised);
+        let v = if ARMV6M {
+            self.reciprocal
+        } else {
+            reciprocal_word(dn)
+        };
+        // n's exact halves, then n · 2^s as three words; the top one is
+        // below 2^s ≤ 2^31 ≤ dn, as each step needs. (s ≤ 31: the shifts
+        // below are in range.)
+        let (hi, lo) = ((n >> 32) as u32, n as u32);
+        let (n2, n1, n0) = if s == 0 {
+            (0, hi, lo)
+        } else {
+            let back = 32u32.wrapping_sub(s);
+            (
+                hi.wrapping_shr(back),
+                hi.wrapping_shl(s) | lo.wrapping_shr(back),
+                lo.wrapping_shl(s),
+            )
+        };
+        // The high quotient word is 0 when n's high word is below d: one
+        // step then (every quotient below 2^32).
+        let (q1, r) = if n2 == 0 && n1 < dn {
+            (0, n1)
+        } else {
+            div_step(n2, n1, dn, v)
+        };
+        let (q0, r) = div_step(r, n0, dn, v);
+        // r = (n · 2^s) mod dn = (n mod d) · 2^s: the shift back is exact.
+        ((u64::from(q1) << 32) | u64::from(q0), r.wrapping_shr(s))
+    }
+}
+
+/// One 2-by-1-word division step: (u1 · 2^32 + u0) / d and its remainder,
+/// for a normalised d (top bit set), u1 < d (so the quotient is below
+/// 2^32) and v = ⌊(2^64 − 1)/d⌋ − 2^32 ([`reciprocal_word`]). Möller and
+/// Granlund's 2-by-1 division: the estimate u1 + 1 + ⌊(v · u1 + u0)/2^32⌋
+/// (word arithmetic, modulo 2^32) is at most one above or below the
+/// quotient's and its remainder, taken modulo 2^32, tells which; the
+/// second correction is rare. Exact under those preconditions (the
+/// property tests), and panic-free for any input (wrapping word
+/// arithmetic). Out of line: one copy serves both steps (and the results
+/// come back in two registers).
+#[inline(never)]
+fn div_step(u1: u32, u0: u32, d: u32, v: u32) -> (u32, u32) {
+    let p = mul_u32_wide(v, u1).wrapping_add((u64::from(u1) << 32) | u64::from(u0));
+    let (q1, q0) = ((p >> 32) as u32, p as u32); // exact halves
+    let q1 = q1.wrapping_add(1);
+    let r = u0.wrapping_sub(q1.wrapping_mul(d));
+    let (q1, r) = if r > q0 {
+        (q1.wrapping_sub(1), r.wrapping_add(d))
+    } else {
+        (q1, r)
+    };
+    if r >= d {
+        (q1.wrapping_add(1), r.wrapping_sub(d))
+    } else {
+        (q1, r)
+    }
+}
+
+/// v = ⌊(2^64 − 1)/d⌋ − 2^32 for a normalised d (2^31 ≤ d < 2^32; the top
+/// bit is set here whatever the argument), exactly, without division.
+///
+/// Newton's iteration for 1/x, x = d/2^32 in [1/2, 1), from below:
+/// - a linear seed in a = ⌊d/2^16⌋ + 1 (a ≥ d/2^16, so every estimate
+///   from a is below 1/x too): y0 ≈ 2^31/a from 1/x ≈ 48/17 − 32/17·x,
+///   relative error ≤ 1/17;
+/// - two steps y ← y + y·(2^31 − a·y)/2^31 in 32-bit words (2^-8.2, then
+///   2^-14.1: the 16 bits of a bound it);
+/// - one third-order step on the whole d, V ← V·(1 + ε + ε²) with V =
+///   y·2^17 ≈ 2^64/d and ε = 1 − V·d/2^64 (from below to within 2 units
+///   of the floor);
+/// - the remainder (2^64 − 1) − V·d, exact, raises V by one while it is
+///   at least d (at most twice).
+///
+/// About 100 instructions on a Cortex-M0: nine products of 16-bit-sized
+/// factors and one 32 × 32 → 64-bit product. The result, and every bound
+/// stated in [`reciprocal_word_steps`], hold for every normalised d
+/// (`reciprocal_word_exhaustive`, an ignored test of a few minutes in
+/// release; `reciprocal_word_sweep` checks every 61st d on every test run).
+#[inline]
+fn reciprocal_word(d: u32) -> u32 {
+    reciprocal_word_steps(d).0
+}
+
+/// The intermediate values of [`reciprocal_word`] whose bounds its
+/// comments state, for the tests (the compiler drops them elsewhere).
+#[derive(Clone, Copy, Debug, Default)]
+struct ReciprocalSteps {
+    e1: i32,
+    e2: u32,
+    y2: u32,
+    big: u64,
+    c: u32,
+    c2: u32,
+    raises: u32,
+}
+
+/// [`reciprocal_word`] and its intermediate values.
+#[inline(always)]
+fn reciprocal_word_steps(d: u32) -> (u32, ReciprocalSteps) {
+    let d = d | (1 << 31);
+    // a in 2^15 + 1..=2^16.
+    let a = (d >> 16).wrapping_add(1);
+    // y0 = (98 304 − a) · 61 680 / 2^16 ≈ 2^15·(48 − 32·a/2^16)/17
+    // (61 680/2^16 ≈ 16/17, just below): below 2^16; the product is below
+    // 65 535 · 61 680 < 2^32.
+    let y0 = 98_304u32.wrapping_sub(a).wrapping_mul(61_680) >> 16;
+    // e1 = 2^31 − a·y0, signed, |e1| < 2^27 (a·y0 < 2^32): e1/2^13 · y0
+    // is below 2^30 in magnitude.
+    let e1 = (1u32 << 31).wrapping_sub(a.wrapping_mul(y0)) as i32;
+    let y1 = (y0 as i32).wrapping_add((e1 >> 13).wrapping_mul(y0 as i32) >> 18) as u32;
+    // Now from below: 0 ≤ e2 < 2^23, so e2/2^8 · y1 < 2^31.
+    let e2 = (1u32 << 31).wrapping_sub(a.wrapping_mul(y1));
+    let y2 = y1.wrapping_add((e2 >> 8).wrapping_mul(y1) >> 23);
+    // y2 < 2^16 and y2·d < 2^47: from 16 × 16-bit products.
+    let p = (u64::from(y2.wrapping_mul(d >> 16)) << 16)
+        .wrapping_add(u64::from(y2.wrapping_mul(d & 0xFFFF)));
+    // 2^64 − V·d = big · 2^17 with V = y2 · 2^17 and big = 2^47 − y2·d,
+    // 0 < big < 2^33.
+    let big = (1u64 << 47).wrapping_sub(p);
+    // c ≈ V·ε = y2 · big / 2^30 < 2^19 and c2 ≈ c·ε = c · big / 2^47 <
+    // 2^5, each from products below 2^32 (truncated: still from below).
+    let half = (big >> 1) as u32; // < 2^32
+    let c = ((u64::from((half >> 16).wrapping_mul(y2)) << 16)
+        .wrapping_add(u64::from((half & 0xFFFF).wrapping_mul(y2)))
+        >> 29) as u32;
+    let c2 = (c >> 3).wrapping_mul((big >> 18) as u32) >> 26;
+    let step = c.wrapping_add(c2);
+    // V + step ≤ ⌊(2^64 − 1)/d⌋, and the remainder (2^64 − 1) − (V +
+    // step)·d = big·2^17 − 1 − step·d lies in 0..3d: at most two raises.
+    let mut v = (y2 << 17).wrapping_add(step); // V + step − 2^32, mod 2^32
+    let mut rem = (big << 17)
+        .wrapping_sub(1)
+        .wrapping_sub(mul_u32_wide(step, d));
+    let mut raises = 0u32;
+    while rem >= u64::from(d) {
+        v = v.wrapping_add(1);
+        rem = rem.wrapping_sub(u64::from(d));
+        raises = raises.wrapping_add(1);
+    }
+    (
+        v,
+        ReciprocalSteps {
+            e1,
+            e2,
+            y2,
+            big,
+            c,
+            c2,
+            raises,
+        },
+    )
 }
 
 /// Whether this is ARMv6-M (Cortex-M0/M0+): no divide, no count of leading
@@ -232,14 +470,13 @@ fn leading_zeros_steps(x: u32) -> u32 {
     if x == 0 {
         return 32;
     }
-    let (mut v, mut z) = (x, 0);
-    for step in [16u32, 8] {
-        if v >> (32 - step) == 0 {
-            v <<= step;
-            z += step;
-        }
-    }
-    z + u32::from(LEADING_ZEROS_OF_BYTE[(v >> 24) as usize])
+    // Each step's shift chosen, then applied (as a loop over the step
+    // sizes, the compiler keeps the sizes in memory in some callers).
+    let z16 = if x >> 16 == 0 { 16 } else { 0 };
+    let v = x << z16;
+    let z8 = if v >> 24 == 0 { 8 } else { 0 };
+    let v = v << z8;
+    z16 + z8 + u32::from(LEADING_ZEROS_OF_BYTE[(v >> 24) as usize])
 }
 
 /// Leading zeros of each byte value (8 for 0): the last three steps of
@@ -336,6 +573,39 @@ fn normalise_parts_inline(v: u64) -> Option<(u32, u32, u32)> {
     } else {
         None
     }
+}
+
+/// `x` shifted left by its leading zeros z (top bit set) and z; (0, 64)
+/// for x = 0. On ARMv6-M in 32-bit words ([`shl_to_top_words`]): no
+/// library call. Exact.
+#[inline]
+pub(crate) fn shl_to_top(x: u64) -> (u64, u32) {
+    if ARMV6M {
+        shl_to_top_words(x)
+    } else {
+        let z = x.leading_zeros();
+        (x.checked_shl(z).unwrap_or(0), z)
+    }
+}
+
+/// [`shl_to_top`] in words: a zero high word takes the low one (32 more
+/// zeros), then one count and one two-word shift (compiled everywhere so
+/// host tests hold it equal to the native operations).
+#[inline]
+fn shl_to_top_words(x: u64) -> (u64, u32) {
+    let (mut hi, mut lo, mut z) = ((x >> 32) as u32, x as u32, 0u32); // exact halves
+    if hi == 0 {
+        (hi, lo, z) = (lo, 0, 32);
+    }
+    // k ≤ 31 for hi ≠ 0; k = 32 only for x = 0, where every word is 0.
+    let k = leading_zeros_u32(hi);
+    if k != 0 {
+        // 1 ≤ k ≤ 32: the shift counts are in range or shift a zero word.
+        hi = hi.wrapping_shl(k) | lo.wrapping_shr(32u32.wrapping_sub(k));
+        lo = lo.wrapping_shl(k);
+    }
+    // z ≤ 32 and k ≤ 32: the sum cannot wrap.
+    ((u64::from(hi) << 32) | u64::from(lo), z.wrapping_add(k))
 }
 
 /// `x << sh` for `sh` in 0..=63, in 32-bit words on ARMv6-M (no library
@@ -522,6 +792,8 @@ mod tests {
             prop_assert_eq!(leading_zeros_steps((x >> sh) as u32), ((x >> sh) as u32).leading_zeros());
             prop_assert_eq!(shl_u64(x, sh), x << sh);
             prop_assert_eq!(shr_u64_words(x, sh), x >> sh);
+            let y = (x >> sh).max(1);
+            prop_assert_eq!(shl_to_top_words(y), (y << y.leading_zeros(), y.leading_zeros()));
         }
 
         /// The reciprocal within its stated 2^-28 for any normalised m,
@@ -584,6 +856,129 @@ mod tests {
         assert_eq!(at, 0x8018_1079);
     }
 
+    /// The exact reciprocal of a normalised divisor, from the definition in
+    /// 128-bit integers.
+    fn exact_reciprocal(d: u32) -> u32 {
+        (u128::from(u64::MAX) / u128::from(d) - (1u128 << 32)) as u32
+    }
+
+    /// [`reciprocal_word`] exact at `d`, and its intermediate values within
+    /// the bounds its comments state.
+    fn check_reciprocal_word(d: u32) {
+        let (v, st) = reciprocal_word_steps(d);
+        assert_eq!(v, exact_reciprocal(d), "d {d:#x}");
+        assert!(st.e1.unsigned_abs() < 1 << 27, "d {d:#x} e1 {}", st.e1);
+        assert!(st.e2 < 1 << 23, "d {d:#x} e2 {}", st.e2);
+        assert!(st.y2 < 1 << 16, "d {d:#x} y2 {}", st.y2);
+        assert!(st.big > 0 && st.big < 1 << 33, "d {d:#x} big {}", st.big);
+        assert!(
+            st.c < 1 << 19 && st.c2 < 1 << 5,
+            "d {d:#x} c {} c2 {}",
+            st.c,
+            st.c2
+        );
+        assert!(st.raises <= 2, "d {d:#x} raises {}", st.raises);
+    }
+
+    /// The reciprocal at both ends of the normalised range, around every
+    /// 2^16 boundary of its seed's a (every 97th), and at every 61st d.
+    #[test]
+    fn reciprocal_word_sweep() {
+        for d in [
+            1u32 << 31,
+            (1 << 31) + 1,
+            3 << 30,
+            (3 << 30) - 1,
+            u32::MAX - 1,
+            u32::MAX,
+        ] {
+            check_reciprocal_word(d);
+        }
+        for k in (0u32..1 << 15).step_by(97) {
+            let base = (1u32 << 31) + (k << 16);
+            for d in [base, base + 1, base + 0xFFFF] {
+                check_reciprocal_word(d);
+            }
+        }
+        for d in ((1u64 << 31)..(1u64 << 32)).step_by(61) {
+            check_reciprocal_word(d as u32);
+        }
+    }
+
+    /// Every normalised divisor: the reciprocal exact, the intermediate
+    /// bounds held, at most two raises. A few minutes in release:
+    /// `cargo test --release -p lc-core reciprocal_word_exhaustive -- --ignored`.
+    #[test]
+    #[ignore]
+    fn reciprocal_word_exhaustive() {
+        for d in (1u32 << 31)..=u32::MAX {
+            check_reciprocal_word(d);
+        }
+    }
+
+    /// The division by a reciprocal (the ARMv6-M form) and the native one.
+    fn check_division(n: u64, d: u32) {
+        let expected = (n / u64::from(d), (n % u64::from(d)) as u32);
+        let div = Divisor::new(d).unwrap();
+        assert_eq!(div.div_rem_steps(n), expected, "{n} / {d}");
+        assert_eq!(div.div_rem(n), expected, "{n} / {d}");
+        assert_eq!(div_rem_u64_u32(n, d), Some(expected), "{n} / {d}");
+    }
+
+    #[test]
+    fn division_corners() {
+        assert!(Divisor::new(0).is_none());
+        assert_eq!(div_rem_u64_u32(5, 0), None);
+        let ds = [
+            1u32,
+            2,
+            3,
+            7,
+            0xFFFF,
+            0x1_0000,
+            0x1_0001,
+            1 << 31,
+            (1 << 31) + 1,
+            (1 << 31) - 1,
+            u32::MAX - 1,
+            u32::MAX,
+        ];
+        for d in ds {
+            let wide = u64::from(d);
+            for n in [
+                0u64,
+                1,
+                wide - 1,
+                wide,
+                wide + 1,
+                (wide << 32) - 1,
+                wide << 32,
+                1 << 63,
+                u64::MAX - 1,
+                u64::MAX,
+                u64::MAX / wide * wide,
+                (u64::MAX / wide * wide).wrapping_sub(1),
+            ] {
+                check_division(n, d);
+            }
+        }
+    }
+
+    proptest! {
+        /// Exact for dividends and divisors of every size (shifted right
+        /// by random amounts so small ones are drawn as often as large).
+        #[test]
+        fn division_by_a_reciprocal_is_exact(n: u64, d in 1u32.., ns in 0u32..64, ds in 0u32..32) {
+            let d = (d >> ds).max(1);
+            check_division(n, d);
+            check_division(n >> ns, d);
+            // Quotients just below and at a multiple of d.
+            let m = (n >> ns) / u64::from(d) * u64::from(d);
+            check_division(m, d);
+            check_division(m.wrapping_sub(1), d);
+        }
+    }
+
     #[test]
     fn normalised_mantissas() {
         assert_eq!(normalise(0), (0, 32));
@@ -592,6 +987,18 @@ mod tests {
         assert_eq!(normalise(3 << 40), (3 << 30, 22));
         assert_eq!(normalise(0xFFFF_FFFF_7FFF_FFFF), (u32::MAX, 0));
         assert_eq!(normalise(0x1_FFFF_FFFF), (1 << 31, 30));
+    }
+
+    #[test]
+    fn shifted_to_the_top() {
+        for f in [shl_to_top, shl_to_top_words] {
+            assert_eq!(f(0), (0, 64));
+            assert_eq!(f(1), (1 << 63, 63));
+            assert_eq!(f(u64::MAX), (u64::MAX, 0));
+            assert_eq!(f(3 << 31), (3 << 62, 31));
+            assert_eq!(f(1 << 32), (1 << 63, 31));
+            assert_eq!(f(u64::from(u32::MAX)), (u64::from(u32::MAX) << 32, 32));
+        }
     }
 
     #[test]

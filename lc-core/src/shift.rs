@@ -57,7 +57,8 @@
 
 use crate::counting::{CountPair, Gate, Gating};
 use crate::fixed::{
-    leading_zeros_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64,
+    div_rem_u64_u32, leading_zeros_u32, mul_u32_wide, normalise_parts, round_div_u128,
+    round_shr_u64, shl_to_top,
 };
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
@@ -516,14 +517,23 @@ impl ShiftConverter {
             }
             return square_to_shift(x, self.gate_exp);
         }
+        self.shift_by_division(ticks, cycles)
+    }
+
+    /// The division path of [`ShiftConverter::shift`], for non-zero ticks
+    /// and cycles. Out of line on ARMv6-M: inlined, its registers cost
+    /// the configured-gate path spills on a Cortex-M0.
+    #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+    fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
         // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
-        let x = mul_u32_wide(ticks, self.inv_mant);
-        let z = x.leading_zeros();
-        // (x << z) ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
-        // z ≤ 32 and |inv_exp| < 2^8 (a rest point's scale): neither the
-        // shift nor the sum can wrap.
+        let (x, z) = shl_to_top(mul_u32_wide(ticks, self.inv_mant));
+        // x ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
+        // z ≤ 32 and |inv_exp| < 2^8 (a rest point's scale): the sum
+        // cannot wrap.
         let exp = self.inv_exp.wrapping_add(z as i32);
-        square_to_shift(x.wrapping_shl(z) / u64::from(cycles), exp)
+        // cycles ≥ 1: the division is always there.
+        let q = div_rem_u64_u32(x, cycles).map_or(0, |(q, _)| q);
+        square_to_shift(q, exp)
     }
 
     /// [`ShiftConverter::shift`] with its common case inlined into the

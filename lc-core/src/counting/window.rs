@@ -1,7 +1,7 @@
 //! The fault window: which count pairs are plausible readings at all.
 
 use super::CountPair;
-use crate::fixed::mul_u32_wide;
+use crate::fixed::{div_rem_u64_u32, mul_u32_wide};
 use core::fmt;
 
 /// Why a count pair is not a plausible reading.
@@ -175,10 +175,12 @@ impl FaultWindow {
         }
         let scaled = mul_u32_wide(self.reference_hz, gate_cycles);
         // f ≤ max ⇔ ticks ≥ f_ref·cycles/max; f ≥ min ⇔ ticks ≤ f_ref·cycles/min.
-        let lo = scaled.div_ceil(u64::from(self.max_hz)).max(1);
-        let hi = scaled
-            .checked_div(u64::from(self.min_hz))
-            .unwrap_or(u64::MAX);
+        // (max_hz ≥ 1 above; a quotient rounded up is below 2^64, since
+        // there is a remainder only for max_hz ≥ 2.)
+        let lo = div_rem_u64_u32(scaled, self.max_hz)
+            .map_or(u64::MAX, |(q, r)| q.wrapping_add(u64::from(r != 0)))
+            .max(1);
+        let hi = div_rem_u64_u32(scaled, self.min_hz).map_or(u64::MAX, |(q, _)| q);
         let lo = u32::try_from(lo).ok()?;
         let hi = u32::try_from(hi).unwrap_or(u32::MAX);
         (lo <= hi).then_some(AcceptedTicks {

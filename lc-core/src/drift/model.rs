@@ -1,6 +1,6 @@
 //! The per-unit temperature model.
 
-use crate::fixed::{mul_i32_u32_wide, reciprocal_q63};
+use crate::fixed::{div_rem_u64_u32, mul_i32_u32_wide, reciprocal_q63};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -134,18 +134,16 @@ impl TemperatureModel {
             // Vertex in centi-kelvin from the reference: ΔT* = −b1·2^16/(2·b2)
             // (|b1·2^16| < 2^47 and 0 < |2·b2| ≤ 2^32: the quotient fits, and
             // |t| ≤ 2^47 + 30 000).
-            // (The division neither divides by zero nor overflows: the
-            // divisor is even and non-zero; `checked_div` only says so.)
-            // The truncating quotient from the magnitudes (a signed 64-bit
-            // division is one more library routine on a Cortex-M0): |n| <
-            // 2^47, 0 < |d| ≤ 2^32, so |q| < 2^47 and its negation cannot
-            // wrap.
+            // The truncating quotient from the magnitudes: |n| < 2^47,
+            // 0 < |d| ≤ 2^32, so |q| < 2^47 and its negation cannot wrap.
+            // ⌊|n|/|d|⌋ = ⌊|b1|·2^15/|b2|⌋ (|n| is even), a 64 ÷ 32-bit
+            // division by |b2| ≠ 0 (`fixed::div_rem_u64_u32`: no library
+            // division on a Cortex-M0; its `None` for a zero divisor does
+            // not occur).
             let n = (i64::from(b1) << 16).wrapping_neg();
             let d = i64::from(b2).wrapping_mul(2);
-            let q = n
-                .unsigned_abs()
-                .checked_div(d.unsigned_abs())
-                .map_or(i64::MAX, |q| q as i64); // q < 2^47: exact
+            let q = div_rem_u64_u32(u64::from(b1.unsigned_abs()) << 15, b2.unsigned_abs())
+                .map_or(i64::MAX, |(q, _)| q as i64); // q < 2^47: exact
             let v = if (n < 0) != (d < 0) {
                 q.wrapping_neg()
             } else {

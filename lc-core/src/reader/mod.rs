@@ -430,8 +430,10 @@ pub(crate) fn ppb_to_q40(ppb: u32) -> u64 {
     // on a 32-bit core): ppb · 2^31 + (5^9 − 1)/2 < 2^63. 5^9 is odd, so
     // the quotient is never a tie: adding (5^9 − 1)/2 and truncating
     // rounds to nearest, as rounding half up the exact quotient does.
-    const D: u64 = 1_953_125; // 5^9
-    (u64::from(ppb) << 31).wrapping_add(D / 2) / D
+    const D: u32 = 1_953_125; // 5^9
+                              // A 64 ÷ 32-bit division (no library division on a Cortex-M0); D ≠ 0.
+    crate::fixed::div_rem_u64_u32((u64::from(ppb) << 31).wrapping_add(u64::from(D / 2)), D)
+        .map_or(0, |(q, _)| q)
 }
 
 /// The metal reader's detector configuration from its parameters.
