@@ -74,6 +74,7 @@
 //! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
 //! ```
 
+use crate::derived::is_rounded_ratio;
 #[cfg(any(test, feature = "design"))]
 use crate::fixed::{leading_zeros_u32, round_shr_u64};
 use crate::fixed::{mul_u32_wide, shr_u64};
@@ -215,19 +216,6 @@ fn record<const N: usize>(r: &[[u32; N]], i: usize) -> [u32; N] {
     r.get(i).copied().unwrap_or([0; N]).map(u32::from_le)
 }
 
-/// `x · 2^sh` for `sh` ≤ 62 and a result below 2^64, in 32-bit halves
-/// (on a Cortex-M0 a 64-bit shift is a library call).
-#[inline]
-fn shl_u64(x: u64, sh: u32) -> u64 {
-    let (hi, lo) = ((x >> 32) as u32, x as u32);
-    match sh {
-        0 => x,
-        1..=31 => (u64::from((hi << sh) | (lo >> (32 - sh))) << 32) | u64::from(lo << sh),
-        32..=63 => u64::from(lo << (sh - 32)) << 32,
-        _ => 0,
-    }
-}
-
 /// Bit length of a `u64` (0 for 0), from 32-bit counts: on a Cortex-M0
 /// `u64::leading_zeros` is a library call.
 #[cfg(any(test, feature = "design"))]
@@ -290,23 +278,6 @@ fn width_shift(w: u64) -> u8 {
     bits_u64(w).saturating_sub(31) as u8
 }
 
-/// Whether `m` (below 2^31) is round(n · 2^e / d), rounding half up, with
-/// n < 2^31 and 0 < d ≤ 2^31: m·d ≤ n·2^e + ⌊d/2⌋ < (m + 1)·d. Multiplies
-/// and compares only (the firmware's start-up divides nothing): m·d is
-/// below 2^62, so a valid pair has n·2^e below 2^63 and all of it fits
-/// `u64`.
-fn is_rounded_ratio(m: u32, e: u8, n: u32, d: u32) -> bool {
-    // n·2^e must stay below 2^63: n < 2^(63 − e), for e ≤ 62.
-    let e = u32::from(e);
-    if d == 0 || e > 62 || (e > 31 && n >> (63 - e) != 0) {
-        return false;
-    }
-    // n·2^e < 2^63 (checked above) and d/2 < 2^31: the sum cannot wrap.
-    let x = shl_u64(u64::from(n), e).wrapping_add(u64::from(d / 2));
-    let md = mul_u32_wide(m, d);
-    md <= x && x - md < u64::from(d)
-}
-
 /// The firmware's check of one segment's stored constants against its
 /// end nodes (x0, y0), (x1, y1), x1 > x0: the width shift is the one
 /// that brings the width into [2^30, 2^31); k and its exponent are the
@@ -352,6 +323,7 @@ fn check_segment(
     let dy = i64::from(y1) - i64::from(y0);
     let m = k.unsigned_abs();
     let normal = (1 << 30..1 << 31).contains(&m);
+    let e = u32::from(k_exp);
     if !cubic {
         if dy.unsigned_abs() >= 1 << 30 {
             return Err(CurveError::SegmentTooSteep);
@@ -360,7 +332,7 @@ fn check_segment(
         let ok = if dy == 0 {
             k == 0 && k_exp == 0
         } else {
-            normal && (k < 0) == (dy < 0) && is_rounded_ratio(m, k_exp, n, d)
+            normal && (k < 0) == (dy < 0) && is_rounded_ratio(m, n, e, [d, 0, 0])
         };
         return if ok {
             Ok(())
@@ -368,41 +340,37 @@ fn check_segment(
             Err(CurveError::BadSegment)
         };
     }
-    if !(normal && k > 0 && is_rounded_ratio(m, k_exp, 1 << 30, d)) {
+    if !(normal && k > 0 && is_rounded_ratio(m, 1 << 30, e, [d, 0, 0])) {
         return Err(CurveError::BadSegment);
     }
-    // In i32 from here, every step checked: |Δy|, |D0|, |D1| < 2^29 in
-    // Q8 units, so 3·|Δy| and the sums below fit unless the stored terms
-    // are wrong (then refused). No 64-bit multiply at start-up.
     if dy.unsigned_abs() >= 1 << 21 {
         return Err(CurveError::SegmentTooSteep);
     }
-    let dy = (dy as i32) << 8; // |Δy| < 2^21: exact, below 2^29
-                               // |Δy| < 2^29: 2Δy and 3Δy (below 1.5·2^30 in size) cannot wrap.
-    let (dy2, dy3) = (dy.wrapping_mul(2), dy.wrapping_mul(3));
-    let (c1, c2, c3) = (c1 as i32, c2 as i32, c3 as i32);
-    let d0 = c1;
-    let d1 = c3
-        .checked_sub(c1)
-        .and_then(|v| v.checked_add(dy2))
-        .ok_or(CurveError::SegmentTooSteep)?;
+    // In i64, where nothing below can wrap: Δy in Q8 below 2^29, the
+    // stored terms below 2^31. The tangent terms D0 = c1 and
+    // D1 = c3 − c1 + 2Δy, taken in the table's direction, lie in
+    // 0 ..= min(3|Δy| + 2, 2^29 − 1), and c2 = 3Δy − 2D0 − D1, that is
+    // c1 + c2 + c3 = Δy.
+    // (The wrapping forms only state that: every value below is under
+    // 2^34 in size.)
+    let dy = dy << 8;
+    let (c1, c2, c3) = (
+        i64::from(c1 as i32),
+        i64::from(c2 as i32),
+        i64::from(c3 as i32),
+    );
+    let (d0, d1) = (c1, c3.wrapping_sub(c1).wrapping_add(dy.wrapping_mul(2)));
     if d0.unsigned_abs() >= 1 << 29 || d1.unsigned_abs() >= 1 << 29 {
         return Err(CurveError::SegmentTooSteep);
     }
-    // 3·|Δy| + 2 < 1.5·2^30 + 2: far from wrapping.
-    let limit = dy3.unsigned_abs().wrapping_add(2);
-    let sign_ok = |d: i32| if rising { d >= 0 } else { d <= 0 };
-    // 3Δy − 2D0 − D1: each term below 1.5·2^30 in size, the sum checked.
-    // |D0| < 2^29 (checked above): 2·D0 cannot wrap.
-    let want_c2 = dy3
-        .checked_sub(d0.wrapping_mul(2))
-        .and_then(|v| v.checked_sub(d1));
-    if want_c2 != Some(c2)
-        || d0.unsigned_abs() > limit
-        || d1.unsigned_abs() > limit
-        || !sign_ok(d0)
-        || !sign_ok(d1)
-    {
+    let (d0, d1) = if rising {
+        (d0, d1)
+    } else {
+        (d0.wrapping_neg(), d1.wrapping_neg())
+    };
+    // A term against the direction (negative) reads as above the limit.
+    let limit = dy.unsigned_abs().wrapping_mul(3).wrapping_add(2);
+    if c1.wrapping_add(c2).wrapping_add(c3) != dy || d0 as u64 > limit || d1 as u64 > limit {
         return Err(CurveError::BadDerivatives);
     }
     Ok(())
