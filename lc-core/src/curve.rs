@@ -278,36 +278,55 @@ fn width_shift(w: u64) -> u8 {
     bits_u64(w).saturating_sub(31) as u8
 }
 
-/// The firmware's check of one segment's stored constants against its
-/// end nodes (x0, y0), (x1, y1), x1 > x0: the width shift is the one
-/// that brings the width into [2^30, 2^31); k and its exponent are the
-/// correctly rounded slope (linear) or 1/w' (cubic) with |k| in
-/// [2^30, 2^31) (0 for a flat linear segment); the cubic's Horner
-/// coefficients are consistent (c2 = 3Δy − 2D0 − D1 with D0 = c1 and
+/// The firmware's check of one segment against its end nodes `ends`
+/// (x's low and high words and y, each): x increasing, y of the table's
+/// direction; the width shift is the one that brings the width into
+/// [2^30, 2^31); k and its exponent are the correctly rounded slope
+/// (linear) or 1/w' (cubic) with |k| in [2^30, 2^31) (0 for a flat linear
+/// segment); the cubic's Horner coefficients are consistent
+/// (c1 + c2 + c3 = Δy, that is c2 = 3Δy − 2D0 − D1 with D0 = c1 and
 /// D1 = c3 − c1 + 2Δy), its tangent terms below 2^29 Q8 units, of the
 /// table's direction and within Fritsch and Carlson's three steps; the
 /// reserved byte pair is zero. What the evaluation's bound and its
 /// overflow argument assume, checked with shifts, multiplies and
-/// compares.
+/// compares. Returns whether the segment ends on a whole level with a
+/// width shift in 1..=32 ([`CurveRef::on_whole_levels`]).
+///
+/// Not inlined: one call per segment keeps the loop's few values and this
+/// function's in registers (inlined, both spill to the stack).
+#[inline(never)]
 fn check_segment(
-    w: [u32; CUBIC_SEGMENT_WORDS],
-    (x0, y0): (i64, i32),
-    (x1, y1): (i64, i32),
+    [lo0, hi0, y0]: [u32; NODE_WORDS],
+    [lo1, hi1, y1]: [u32; NODE_WORDS],
+    seg: &[u32],
     cubic: bool,
     rising: bool,
-) -> Result<(), CurveError> {
-    let [head, k, c1, c2, c3] = w;
-    let (sh, k_exp) = (head & 0xFF, ((head >> 8) & 0xFF) as u8);
+) -> Result<bool, CurveError> {
+    // A linear segment's words are its first two.
+    let word = |i: usize| u32::from_le(seg.get(i).copied().unwrap_or(0));
+    let (head, k, c1, c2, c3) = (word(0), word(1), word(2), word(3), word(4));
+    let x = |lo: u32, hi: u32| {
+        ((u64::from(u32::from_le(hi)) << 32) | u64::from(u32::from_le(lo))) as i64
+    };
+    let (x0, x1) = (x(lo0, hi0), x(lo1, hi1));
+    if x1 <= x0 {
+        return Err(CurveError::ShiftsNotIncreasing);
+    }
+    let (y0, y1) = (u32::from_le(y0) as i32, u32::from_le(y1) as i32);
+    if (rising && y1 < y0) || (!rising && y1 > y0) {
+        return Err(CurveError::NotMonotone);
+    }
+    let (sh, k_exp) = (head & 0xFF, (head >> 8) & 0xFF);
     if head >> 16 != 0 || sh > 33 {
         return Err(CurveError::BadSegment);
     }
     // The width shift is the one that brings w into [2^30, 2^31) (w below
     // 2^31 for sh = 0), and w' = round(w · 2^-sh) ≥ 1, at most 2^31: from
     // t = w · 2^-(sh−1), the halved value with its half bit.
-    let width = x1.abs_diff(x0);
+    let width = x1.wrapping_sub(x0) as u64; // x1 > x0: exact
     let d = if sh == 0 {
         match u32::try_from(width) {
-            Ok(w) if w < 1 << 31 => w.max(1),
+            Ok(w) if w < 1 << 31 => w,
             _ => return Err(CurveError::BadSegment),
         }
     } else {
@@ -319,61 +338,76 @@ fn check_segment(
                           // t >> 1 < 2^31: adding the half bit cannot wrap.
         (t >> 1).wrapping_add(t & 1)
     };
+    // |Δy|, exact in u32; its sign is the table's direction (checked).
+    let a = y1.abs_diff(y0);
     let k = k as i32;
-    let dy = i64::from(y1) - i64::from(y0);
     let m = k.unsigned_abs();
     let normal = (1 << 30..1 << 31).contains(&m);
-    let e = u32::from(k_exp);
+    let whole = lo1 == 0 && (1..=32).contains(&sh);
     if !cubic {
-        if dy.unsigned_abs() >= 1 << 30 {
+        if a >= 1 << 30 {
             return Err(CurveError::SegmentTooSteep);
         }
-        let n = dy.unsigned_abs() as u32; // < 2^30
-        let ok = if dy == 0 {
+        let ok = if a == 0 {
             k == 0 && k_exp == 0
         } else {
-            normal && (k < 0) == (dy < 0) && is_rounded_ratio(m, n, e, [d, 0, 0])
+            normal && (k > 0) == rising && is_rounded_ratio(m, a, k_exp, [d, 0, 0])
         };
         return if ok {
-            Ok(())
+            Ok(whole)
         } else {
             Err(CurveError::BadSegment)
         };
     }
-    if !(normal && k > 0 && is_rounded_ratio(m, 1 << 30, e, [d, 0, 0])) {
+    if !(normal && k > 0 && is_rounded_ratio(m, 1 << 30, k_exp, [d, 0, 0])) {
         return Err(CurveError::BadSegment);
     }
-    if dy.unsigned_abs() >= 1 << 21 {
+    if a >= 1 << 21 {
         return Err(CurveError::SegmentTooSteep);
     }
-    // In i64, where nothing below can wrap: Δy in Q8 below 2^29, the
-    // stored terms below 2^31. The tangent terms D0 = c1 and
-    // D1 = c3 − c1 + 2Δy, taken in the table's direction, lie in
-    // 0 ..= min(3|Δy| + 2, 2^29 − 1), and c2 = 3Δy − 2D0 − D1, that is
-    // c1 + c2 + c3 = Δy.
-    // (The wrapping forms only state that: every value below is under
-    // 2^34 in size.)
-    let dy = dy << 8;
-    let (c1, c2, c3) = (
-        i64::from(c1 as i32),
-        i64::from(c2 as i32),
-        i64::from(c3 as i32),
-    );
-    let (d0, d1) = (c1, c3.wrapping_sub(c1).wrapping_add(dy.wrapping_mul(2)));
-    if d0.unsigned_abs() >= 1 << 29 || d1.unsigned_abs() >= 1 << 29 {
-        return Err(CurveError::SegmentTooSteep);
-    }
-    let (d0, d1) = if rising {
-        (d0, d1)
-    } else {
-        (d0.wrapping_neg(), d1.wrapping_neg())
+    // In the table's direction (falling: every term negated), in i32:
+    // Δy = a in Q8 below 2^29, the tangent terms D0 = c1 and
+    // D1 = c3 − c1 + 2Δy in 0 ..= L = min(3|Δy| + 2, 2^29 − 1), and
+    // c1 + c2 + c3 = Δy. The wrapping forms are exact for these tests:
+    // a term's negation wraps only for −2^31, which reads as 2^31 > L; D1
+    // is tested after D0 lies in 0..=L, when its true value lies in
+    // (−2^32, 2^32) and wraps into 0..=L only if it is there; and with
+    // both in range the true sum lies within 2^32 of Δy, so its wrapped
+    // value equals Δy only if it does.
+    let dir = |c: u32| {
+        if rising {
+            c as i32
+        } else {
+            (c as i32).wrapping_neg()
+        }
     };
-    // A term against the direction (negative) reads as above the limit.
-    let limit = dy.unsigned_abs().wrapping_mul(3).wrapping_add(2);
-    if c1.wrapping_add(c2).wrapping_add(c3) != dy || d0 as u64 > limit || d1 as u64 > limit {
+    let (c1, c2, c3) = (dir(c1), dir(c2), dir(c3));
+    let a8 = (a << 8) as i32; // < 2^29
+    let limit = (a8.wrapping_mul(3).wrapping_add(2)).min((1 << 29) - 1) as u32;
+    let d0 = c1;
+    if d0 as u32 > limit {
+        return Err(too_steep_or_bad(d0));
+    }
+    let d1 = c3.wrapping_sub(c1).wrapping_add(a8).wrapping_add(a8);
+    if d1 as u32 > limit {
+        return Err(too_steep_or_bad(d1));
+    }
+    if c1.wrapping_add(c2).wrapping_add(c3) != a8 {
         return Err(CurveError::BadDerivatives);
     }
-    Ok(())
+    Ok(whole)
+}
+
+/// The error of a tangent term outside 0 ..= min(3|Δy| + 2, 2^29 − 1):
+/// too steep for the fixed-point path from 2^29 (Q8) in size, else
+/// against the direction or beyond Fritsch and Carlson's limit.
+#[cold]
+fn too_steep_or_bad(d: i32) -> CurveError {
+    if d.unsigned_abs() >= 1 << 29 {
+        CurveError::SegmentTooSteep
+    } else {
+        CurveError::BadDerivatives
+    }
 }
 
 impl<'a> CurveRef<'a> {
@@ -394,29 +428,24 @@ impl<'a> CurveRef<'a> {
         cubic: bool,
     ) -> Result<Self, CurveError> {
         let mut c = Self::view_of(nodes, segs, len, cubic)?;
-        // One pass, node after node: shifts increasing, each step of the
-        // table's direction (the direction of the first and last nodes: a
-        // step against it means the values rise and fall), each segment's
-        // constants. Each node's words are read once.
-        let mut whole = true;
-        let [lo, hi, y] = record(c.nodes, 0);
-        let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
-        whole &= lo == 0;
-        for i in 0..len - 1 {
-            // i < len − 1 ≤ 63: i + 1 cannot wrap.
-            let [lo, hi, y] = record(c.nodes, i.wrapping_add(1));
-            let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
-            whole &= lo == 0;
-            if x1 <= x0 {
-                return Err(CurveError::ShiftsNotIncreasing);
+        // One pass, segment after segment, each with its two end nodes:
+        // shifts increasing, each step of the table's direction (the
+        // direction of the first and last nodes: a step against it means
+        // the values rise and fall), each segment's constants.
+        let mut whole = record(c.nodes, 0)[0] == 0;
+        let ends = c.nodes.windows(2).map(|e| (e.first(), e.get(1)));
+        if cubic {
+            for ((n0, n1), seg) in ends.zip(c.cubic) {
+                if let (Some(n0), Some(n1)) = (n0, n1) {
+                    whole &= check_segment(*n0, *n1, seg, true, c.rising)?;
+                }
             }
-            if (c.rising && y1 < y0) || (!c.rising && y1 > y0) {
-                return Err(CurveError::NotMonotone);
+        } else {
+            for ((n0, n1), seg) in ends.zip(c.linear) {
+                if let (Some(n0), Some(n1)) = (n0, n1) {
+                    whole &= check_segment(*n0, *n1, seg, false, c.rising)?;
+                }
             }
-            let seg = c.segment_words(i);
-            check_segment(seg, (x0, y0), (x1, y1), cubic, c.rising)?;
-            whole &= (1..=32).contains(&(seg[0] & 0xFF));
-            (x0, y0) = (x1, y1);
         }
         c.whole = whole;
         Ok(c)

@@ -13,9 +13,11 @@ use crate::fixed::mul_u32_wide;
 /// 0 ≤ n·2^e + ⌊d/2⌋ − m·d < d. Exact for every `n` and e ≤ 127; false
 /// for d = 0 and for e > 127.
 ///
-/// Word by word from the least significant: the running product m·d
-/// (its carry word), n·2^e's word, ⌊d/2⌋'s word, the running difference
-/// r = n·2^e + ⌊d/2⌋ − m·d (its signed carry) and the borrow of r − d,
+/// A divisor of one word (a curve segment's) takes a 64-bit path; a
+/// longer one goes word by word from the least significant, in 32-bit
+/// operations only:
+/// the running product m·d (its carry word), the sum n·2^e + ⌊d/2⌋ (its
+/// carry), their difference r (its borrow) and the borrow of r − d,
 /// which says at the end whether r < d. The loop stops after the last
 /// word any of them reaches.
 #[inline(never)]
@@ -23,7 +25,31 @@ pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
     if e > 127 {
         return false;
     }
-    // n·2^e reaches word e / 32 + 1 ≤ 4; m·d one word past d's top word.
+    // n·2^e: n << b in word q, its top bits in word q + 1 (q ≤ 3).
+    let (q, b) = (e >> 5, e & 31);
+    let (x_lo, x_hi) = (n << b, (n >> 1) >> (31 - b));
+    if d[1] == 0 && d[2] == 0 {
+        // One word (a curve segment's w'): m·d < 2^64, so n·2^e must be
+        // below 2^64 too, and all of it is u64.
+        let x = match q {
+            0 => (u64::from(x_hi) << 32) | u64::from(x_lo),
+            1 if x_hi == 0 => u64::from(x_lo) << 32,
+            _ if n == 0 => 0,
+            _ => return false,
+        };
+        let p = mul_u32_wide(m, d[0]);
+        // x + ⌊d/2⌋ − p in 0..d, without forming the sum (it may reach
+        // 2^64): p − x ≤ ⌊d/2⌋ when p ≥ x, x − p < d − ⌊d/2⌋ otherwise.
+        let h = d[0] >> 1;
+        return if d[0] == 0 {
+            false
+        } else if p >= x {
+            p - x <= u64::from(h)
+        } else {
+            x - p < u64::from(d[0] - h)
+        };
+    }
+    // m·d reaches one word past d's top word, n·2^e word q + 1.
     let top = if d[2] != 0 {
         3
     } else if d[1] != 0 {
@@ -31,39 +57,46 @@ pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
     } else {
         1
     };
-    let words = ((e >> 5) + 2).max(top + 1);
-    let mut carry = 0u32; // the product's carry word
-    let mut acc = 0i64; // r's carry: −1, 0, 1 or 2
-    let mut below = false; // r < d over the words so far
+    let words = (q + 2).max(top + 1);
+    let mut product_carry = 0u32;
+    let mut sum_carry = 0u32; // 0 or 1
+    let mut borrow = false; // of r = sum − product
+    let mut below = false; // r < d on the words so far
     let mut i = 0u32;
     while i < words {
         let di = d.get(i as usize).copied().unwrap_or(0);
         let next = d.get(i as usize + 1).copied().unwrap_or(0);
-        // m·d_i + carry < 2^64: cannot wrap.
-        let p = mul_u32_wide(m, di).wrapping_add(u64::from(carry));
-        carry = (p >> 32) as u32;
-        // Word i of n·2^e: n shifted into it from below or above (i ≤ 4,
-        // e ≤ 127: s in −128..=127; the arms bound the shift counts).
-        let s = e.wrapping_sub(32 * i) as i32;
-        let x = match s {
-            0..=31 => n << s,
-            -31..=-1 => n >> s.unsigned_abs(),
-            _ => 0,
+        // Word i of m·d: m·d_i + carry < 2^64 cannot wrap (a zero word
+        // of d skips the multiply).
+        let p = if di == 0 {
+            core::mem::take(&mut product_carry)
+        } else {
+            let p = mul_u32_wide(m, di).wrapping_add(u64::from(product_carry));
+            product_carry = (p >> 32) as u32;
+            p as u32
+        };
+        let x = if i == q {
+            x_lo
+        } else if i == q + 1 {
+            x_hi
+        } else {
+            0
         };
         let h = (di >> 1) | (next << 31); // word i of ⌊d/2⌋
-                                          // Each term below 2^32 and |acc| ≤ 2: far inside i64.
-        acc = acc
-            .wrapping_add(i64::from(x))
-            .wrapping_add(i64::from(h))
-            .wrapping_sub(i64::from(p as u32));
-        let r = acc as u32; // word i of r
-        acc >>= 32;
-        // r < d on words 0..=i: by this word, or equal here and below.
-        below = r < di || (r == di && below);
+        let (s, c1) = x.overflowing_add(h);
+        let (s, c2) = s.overflowing_add(sum_carry);
+        sum_carry = u32::from(c1) + u32::from(c2);
+        let (r, b1) = s.overflowing_sub(p);
+        let (r, b2) = r.overflowing_sub(u32::from(borrow));
+        borrow = b1 | b2;
+        let (t, l1) = r.overflowing_sub(di);
+        let (_, l2) = t.overflowing_sub(u32::from(below));
+        below = l1 | l2;
         i += 1;
     }
-    // r ≥ 0 (no borrow left, nothing above), the product used up, r < d.
-    acc == 0 && carry == 0 && below
+    // r ≥ 0 and nothing above the words (the sum's carry out is the
+    // difference's borrow out), the product used up, and r < d.
+    sum_carry == u32::from(borrow) && product_carry == 0 && below
 }
 
 #[cfg(test)]
