@@ -684,8 +684,8 @@ impl<'a> Image<'a> {
     /// detector).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
-    /// image byte with the byte table), a few hundred per curve segment,
-    /// and a few thousand for the header and the converters' checks
+    /// image byte with the byte table), about 280 per cubic curve segment,
+    /// and one to two thousand for the header and the converters' checks
     /// (docs/performance.md, "Loading"). Stack: a few hundred bytes
     /// besides the returned 12-byte `Image`.
     ///
@@ -1132,7 +1132,7 @@ impl ImageBuf {
 pub use host::{Calibration, Table};
 
 /// The host's side of the image: owned calibrations, the encoder (format
-/// 2) and the reader of both formats. Design feature.
+/// 3) and the reader of formats 1 to 3. Design feature.
 #[cfg(feature = "design")]
 mod host {
     use super::*;
@@ -1207,7 +1207,7 @@ mod host {
     }
 
     /// A calibration as the host builds and edits it: what an image holds,
-    /// owned (about 3 KB). [`Calibration::encode`] writes it in format 2;
+    /// owned (about 3 KB). [`Calibration::encode`] writes it in format 3;
     /// [`Calibration::parse`] reads either format.
     #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
     #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -1265,7 +1265,7 @@ mod host {
             (self.gate_cycles > 0).then_some(self.gate_cycles)
         }
 
-        /// Length of this calibration's image in bytes (format 2).
+        /// Length of this calibration's image in bytes (format 3).
         pub fn encoded_len(&self) -> usize {
             HEADER_LEN
                 + self
@@ -1277,15 +1277,16 @@ mod host {
                 + CRC_LEN
         }
 
-        /// The image's format version (1 or 2) from its framing, without
+        /// The image's format version (1, 2 or 3) from its framing, without
         /// validating anything else.
         pub fn format_version(bytes: &[u8]) -> Result<u16, ImageError> {
             framing(bytes).map(|(v, _)| v)
         }
 
-        /// Parses and validates an image of either format (format 1 by the
-        /// rules it was written with, its cubic tables' segment constants
-        /// derived here from the stored node derivatives). `bytes` may be
+        /// Parses and validates an image of any of the three formats
+        /// (format 1 by the rules it was written with, its cubic tables'
+        /// segment constants derived here from the stored node derivatives;
+        /// format 2 with the reciprocals' exponents filled in). `bytes` may be
         /// longer than the image and need not be aligned.
         pub fn parse(bytes: &[u8]) -> Result<Self, ImageError> {
             match framing(bytes)?.0 {
@@ -1493,7 +1494,7 @@ mod host {
             })
         }
 
-        /// Writes the image (format 2) into `out`; returns its length. The
+        /// Writes the image (format 3) into `out`; returns its length. The
         /// result always validates ([`Image::new`]) and parses back to an
         /// equal calibration when `self` is consistent: the encoder checks
         /// its output with the firmware's own validation.

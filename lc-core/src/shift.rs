@@ -200,27 +200,28 @@ fn gate_of(gating: Gating, gate_cycles: Option<u32>) -> u32 {
     }
 }
 
-/// Whether (m, e) is [`reciprocal_mantissa`]`(d)`: m = round(2^e / d)
-/// with its top bit set ([`is_rounded_ratio`], multiplies and compares
-/// only), and for m = 2^31 not the pair that function passes over, the
-/// one where 2^32 − 1 is round(2^(e+1) / d) (both are correctly rounded
-/// there; the function takes the larger exponent). `d` below 2^96.
-fn reciprocal_checked((m, e): (u32, u32), d: u128) -> bool {
-    let d = [d as u32, (d >> 32) as u32, (d >> 64) as u32]; // d < 2^96: its words
+/// Whether (m, e) is [`reciprocal_mantissa`]`(d)` for d of the words `d`
+/// (least significant first): m = round(2^e / d) with its top bit set
+/// ([`is_rounded_ratio`], multiplies and compares only), and for
+/// m = 2^31 not the pair that function passes over, the one where
+/// 2^32 − 1 is round(2^(e+1) / d) (both are correctly rounded there; the
+/// function takes the larger exponent).
+#[inline(never)]
+fn reciprocal_checked((m, e): (u32, u32), d: [u32; 3]) -> bool {
     m >> 31 != 0
         && is_rounded_ratio(m, 1, e, d)
         // e ≤ 127 here (checked): e + 1 cannot wrap.
         && (m != 1 << 31 || !is_rounded_ratio(u32::MAX, 1, e.wrapping_add(1), d))
 }
 
-/// p·N for p < 2^64 from 32 × 32-bit products: no 128-bit multiply (a
-/// library call on a Cortex-M0).
-#[inline]
-fn times_gate(p: u128, n: u32) -> u128 {
-    // p < 2^64, n < 2^32: the two partial products sum below 2^96, the
-    // shift and the sum cannot wrap.
-    u128::from(mul_u32_wide(p as u32, n))
-        .wrapping_add(u128::from(mul_u32_wide((p >> 32) as u32, n)) << 32)
+/// The words of p and of p·N for p < 2^64, N < 2^32, from two 32 × 32-bit
+/// products (a 128-bit multiply is several library calls on a Cortex-M0).
+fn rest_words(p: u64, n: u32) -> ([u32; 3], [u32; 3]) {
+    let (p0, p1) = (p as u32, (p >> 32) as u32); // exact halves
+    let lo = mul_u32_wide(p0, n);
+    // p1·N + the carry word < 2^64: cannot wrap.
+    let hi = mul_u32_wide(p1, n).wrapping_add(lo >> 32);
+    ([p0, p1, 0], [lo as u32, hi as u32, (hi >> 32) as u32])
 }
 
 /// Converts count pairs into shifts against one rest point.
@@ -294,9 +295,9 @@ impl ShiftConverter {
         rest_reciprocal: (u32, u32),
         gate_reciprocal: (u32, u32),
     ) -> Result<(), ShiftError> {
-        let p = u128::from(rest.0.raw_q44());
+        let (p, pn) = rest_words(rest.0.raw_q44(), gate_cycles);
         let gate_ok = if gate_cycles > 0 {
-            reciprocal_checked(gate_reciprocal, times_gate(p, gate_cycles))
+            reciprocal_checked(gate_reciprocal, pn)
         } else {
             gate_reciprocal == (0, 0)
         };
@@ -652,6 +653,21 @@ mod tests {
         );
     }
 
+    /// The words of p and p·N equal the 128-bit values, at the ends of the
+    /// ranges and between.
+    #[test]
+    fn rest_words_are_the_products() {
+        let value =
+            |w: [u32; 3]| u128::from(w[0]) | u128::from(w[1]) << 32 | u128::from(w[2]) << 64;
+        for p in [0, 1, 1 << 36, 139_542u64 << 30, u64::MAX - 1, u64::MAX] {
+            for n in [0, 1, 16_384, u32::MAX - 1, u32::MAX] {
+                let (a, b) = rest_words(p, n);
+                assert_eq!(value(a), u128::from(p));
+                assert_eq!(value(b), u128::from(p) * u128::from(n), "{p} {n}");
+            }
+        }
+    }
+
     /// A converter rebuilt from what validation found (`check_reciprocals`,
     /// `from_checked`) is the one `new` builds.
     #[test]
@@ -712,14 +728,15 @@ mod tests {
         }
         for d in ds {
             let (m, e) = reciprocal_mantissa(d).unwrap();
-            assert!(reciprocal_checked((m, e), d), "d {d}");
+            let d_words = [d as u32, (d >> 32) as u32, (d >> 64) as u32];
+            assert!(reciprocal_checked((m, e), d_words), "d {d}");
             for wrong in [
                 (m.wrapping_add(1), e),
                 (m.wrapping_sub(1), e),
                 (m, e + 1),
                 (m, e - 1),
             ] {
-                assert!(!reciprocal_checked(wrong, d), "d {d} {wrong:?}");
+                assert!(!reciprocal_checked(wrong, d_words), "d {d} {wrong:?}");
             }
             // The neighbouring scale's normal mantissa, which is also
             // correctly rounded in the one case of two such pairs: refused.
@@ -730,7 +747,7 @@ mod tests {
             } else {
                 continue;
             };
-            assert!(!reciprocal_checked(other, d), "d {d} {other:?}");
+            assert!(!reciprocal_checked(other, d_words), "d {d} {other:?}");
         }
     }
 
