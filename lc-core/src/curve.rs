@@ -302,9 +302,10 @@ fn check_segment(
     cubic: bool,
     rising: bool,
 ) -> Result<bool, CurveError> {
-    // A linear segment's words are its first two.
+    // A linear segment's words are its first two; a cubic one's Horner
+    // coefficients are read where they are checked.
     let word = |i: usize| u32::from_le(seg.get(i).copied().unwrap_or(0));
-    let (head, k, c1, c2, c3) = (word(0), word(1), word(2), word(3), word(4));
+    let (head, k) = (word(0), word(1));
     let x = |lo: u32, hi: u32| {
         ((u64::from(u32::from_le(hi)) << 32) | u64::from(u32::from_le(lo))) as i64
     };
@@ -381,7 +382,7 @@ fn check_segment(
             (c as i32).wrapping_neg()
         }
     };
-    let (c1, c2, c3) = (dir(c1), dir(c2), dir(c3));
+    let (c1, c2, c3) = (dir(word(2)), dir(word(3)), dir(word(4)));
     let a8 = (a << 8) as i32; // < 2^29
     let limit = (a8.wrapping_mul(3).wrapping_add(2)).min((1 << 29) - 1) as u32;
     let d0 = c1;
