@@ -15,11 +15,10 @@ use crate::fixed::mul_u32_wide;
 ///
 /// A divisor of one word (a curve segment's) takes a 64-bit path; a
 /// longer one goes word by word from the least significant, in 32-bit
-/// operations only:
-/// the running product m·d (its carry word), the sum n·2^e + ⌊d/2⌋ (its
-/// carry), their difference r (its borrow) and the borrow of r − d,
-/// which says at the end whether r < d. The loop stops after the last
-/// word any of them reaches.
+/// operations only: the running product m·d (its carry word), the sum
+/// n·2^e + ⌊d/2⌋ (its carry), their difference r (its borrow) and the
+/// borrow of r − d, which says at the end whether r < d. The loop stops
+/// after the last word any of them reaches.
 #[inline(never)]
 pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
     if e > 127 {
