@@ -28,8 +28,10 @@
 //! - `demo-proximity-32`: a unit of lot DEMO-01 as `lc-host calibrate`
 //!   wrote it (32-node monotone cubic curve, fitted drift model): the
 //!   format-1 image `tests/data/demo-01-0007.format1.lcim` rewritten in
-//!   format 2 ([`format_one_rewrites_to_the_committed_image`]), with the
-//!   demo plan's identity and a fixed calibration time.
+//!   format 3 ([`format_one_rewrites_to_the_committed_image`]), with the
+//!   demo plan's identity and a fixed calibration time (its format-2
+//!   rewrite, `tests/data/demo-01-0007.format2.lcim`, reads as the same
+//!   calibration).
 //!
 //! The readout's count pairs are computed from the same scenario; the tests
 //! below check that the host run of the readout lands where the scenario
@@ -95,7 +97,7 @@ fn demo_proximity() -> Option<Calibration> {
 }
 
 /// A unit of lot DEMO-01 as `lc-host calibrate` wrote it in format 1 (the
-/// committed fixture), rewritten in format 2 with the demo plan's identity
+/// committed fixture), rewritten in format 3 with the demo plan's identity
 /// and [`CALIBRATED_AT`].
 fn demo_proximity_32() -> Calibration {
     let v1 = std::fs::read(
@@ -337,7 +339,7 @@ fn rest_points_follow_the_scenario() {
 }
 
 /// The committed format-1 image of a DEMO-01 unit: the host reads it, the
-/// firmware refuses it, and its rewrite is the committed format-2 image.
+/// firmware refuses it, and its rewrite is the committed format-3 image.
 #[test]
 fn format_one_rewrites_to_the_committed_image() {
     let v1 = std::fs::read(
@@ -347,7 +349,7 @@ fn format_one_rewrites_to_the_committed_image() {
     assert_eq!(Calibration::format_version(&v1), Ok(1));
     assert_eq!(
         ImageBuf::from_bytes(&v1).unwrap().image().map(|_| ()),
-        Err(lc_core::image::ImageError::FormatOne)
+        Err(lc_core::image::ImageError::OldFormat)
     );
     let cal = Calibration::parse(&v1).expect("the host reads format 1");
     assert_eq!((cal.calibrated_at, cal.plan_id), (0, PlanId::UNKNOWN));
@@ -508,4 +510,27 @@ fn metal_rows_detect_and_classify() {
         .all(|(_, x)| x.status == Status::NoTarget));
     assert_eq!(find(&r, "steel-stays-12").status, Status::Ok);
     assert_eq!(find(&r, "steel-stays-14").status, Status::NoTarget);
+}
+
+/// The same unit's image in format 2 (the committed fixture, written
+/// before the reciprocals' exponents): the host reads it as the same
+/// calibration, time and plan included, the firmware refuses it, and its
+/// rewrite is the committed format-3 image.
+#[test]
+fn format_two_rewrites_to_the_committed_image() {
+    let v2 = std::fs::read(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/demo-01-0007.format2.lcim"),
+    )
+    .expect("format-2 fixture");
+    assert_eq!(Calibration::format_version(&v2), Ok(2));
+    assert_eq!(
+        ImageBuf::from_bytes(&v2).unwrap().image().map(|_| ()),
+        Err(lc_core::image::ImageError::OldFormat)
+    );
+    let cal = Calibration::parse(&v2).expect("the host reads format 2");
+    assert_eq!(cal, demo_proximity_32());
+    assert_eq!(
+        readout::IMAGES[readout::PROXIMITY_32].bytes,
+        &encode(&cal)[..]
+    );
 }

@@ -74,6 +74,7 @@
 //! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
 //! ```
 
+use crate::derived::is_rounded_ratio;
 #[cfg(any(test, feature = "design"))]
 use crate::fixed::{leading_zeros_u32, round_shr_u64};
 use crate::fixed::{mul_u32_wide, shr_u64};
@@ -233,19 +234,6 @@ fn node_y(n: &[u32; NODE_WORDS]) -> i32 {
     u32::from_le(n[2]) as i32
 }
 
-/// `x · 2^sh` for `sh` ≤ 62 and a result below 2^64, in 32-bit halves
-/// (on a Cortex-M0 a 64-bit shift is a library call).
-#[inline]
-fn shl_u64(x: u64, sh: u32) -> u64 {
-    let (hi, lo) = ((x >> 32) as u32, x as u32);
-    match sh {
-        0 => x,
-        1..=31 => (u64::from((hi << sh) | (lo >> (32 - sh))) << 32) | u64::from(lo << sh),
-        32..=63 => u64::from(lo << (sh - 32)) << 32,
-        _ => 0,
-    }
-}
-
 /// Bit length of a `u64` (0 for 0), from 32-bit counts: on a Cortex-M0
 /// `u64::leading_zeros` is a library call.
 #[cfg(any(test, feature = "design"))]
@@ -308,53 +296,56 @@ fn width_shift(w: u64) -> u8 {
     bits_u64(w).saturating_sub(31) as u8
 }
 
-/// Whether `m` (below 2^31) is round(n · 2^e / d), rounding half up, with
-/// n < 2^31 and 0 < d ≤ 2^31: m·d ≤ n·2^e + ⌊d/2⌋ < (m + 1)·d. Multiplies
-/// and compares only (the firmware's start-up divides nothing): m·d is
-/// below 2^62, so a valid pair has n·2^e below 2^63 and all of it fits
-/// `u64`.
-fn is_rounded_ratio(m: u32, e: u8, n: u32, d: u32) -> bool {
-    // n·2^e must stay below 2^63: n < 2^(63 − e), for e ≤ 62.
-    let e = u32::from(e);
-    if d == 0 || e > 62 || (e > 31 && n >> (63 - e) != 0) {
-        return false;
-    }
-    // n·2^e < 2^63 (checked above) and d/2 < 2^31: the sum cannot wrap.
-    let x = shl_u64(u64::from(n), e).wrapping_add(u64::from(d / 2));
-    let md = mul_u32_wide(m, d);
-    md <= x && x - md < u64::from(d)
-}
-
-/// The firmware's check of one segment's stored constants against its
-/// end nodes (x0, y0), (x1, y1), x1 > x0: the width shift is the one
-/// that brings the width into [2^30, 2^31); k and its exponent are the
-/// correctly rounded slope (linear) or 1/w' (cubic) with |k| in
-/// [2^30, 2^31) (0 for a flat linear segment); the cubic's Horner
-/// coefficients are consistent (c2 = 3Δy − 2D0 − D1 with D0 = c1 and
+/// The firmware's check of one segment against its end nodes `ends`
+/// (x's low and high words and y, each): x increasing, y of the table's
+/// direction; the width shift is the one that brings the width into
+/// [2^30, 2^31); k and its exponent are the correctly rounded slope
+/// (linear) or 1/w' (cubic) with |k| in [2^30, 2^31) (0 for a flat linear
+/// segment); the cubic's Horner coefficients are consistent
+/// (c1 + c2 + c3 = Δy, that is c2 = 3Δy − 2D0 − D1 with D0 = c1 and
 /// D1 = c3 − c1 + 2Δy), its tangent terms below 2^29 Q8 units, of the
 /// table's direction and within Fritsch and Carlson's three steps; the
 /// reserved byte pair is zero. What the evaluation's bound and its
 /// overflow argument assume, checked with shifts, multiplies and
-/// compares.
+/// compares. Returns whether the segment ends on a whole level with a
+/// width shift in 1..=32 ([`CurveRef::on_whole_levels`]).
+///
+/// Not inlined: one call per segment keeps the loop's few values and this
+/// function's in registers (inlined, both spill to the stack).
+#[inline(never)]
 fn check_segment(
-    w: [u32; CUBIC_SEGMENT_WORDS],
-    (x0, y0): (i64, i32),
-    (x1, y1): (i64, i32),
+    [lo0, hi0, y0]: [u32; NODE_WORDS],
+    [lo1, hi1, y1]: [u32; NODE_WORDS],
+    seg: &[u32],
     cubic: bool,
     rising: bool,
-) -> Result<(), CurveError> {
-    let [head, k, c1, c2, c3] = w;
-    let (sh, k_exp) = (head & 0xFF, ((head >> 8) & 0xFF) as u8);
+) -> Result<bool, CurveError> {
+    // A linear segment's words are its first two; a cubic one's Horner
+    // coefficients are read where they are checked.
+    let word = |i: usize| u32::from_le(seg.get(i).copied().unwrap_or(0));
+    let (head, k) = (word(0), word(1));
+    let x = |lo: u32, hi: u32| {
+        ((u64::from(u32::from_le(hi)) << 32) | u64::from(u32::from_le(lo))) as i64
+    };
+    let (x0, x1) = (x(lo0, hi0), x(lo1, hi1));
+    if x1 <= x0 {
+        return Err(CurveError::ShiftsNotIncreasing);
+    }
+    let (y0, y1) = (u32::from_le(y0) as i32, u32::from_le(y1) as i32);
+    if (rising && y1 < y0) || (!rising && y1 > y0) {
+        return Err(CurveError::NotMonotone);
+    }
+    let (sh, k_exp) = (head & 0xFF, (head >> 8) & 0xFF);
     if head >> 16 != 0 || sh > 33 {
         return Err(CurveError::BadSegment);
     }
     // The width shift is the one that brings w into [2^30, 2^31) (w below
     // 2^31 for sh = 0), and w' = round(w · 2^-sh) ≥ 1, at most 2^31: from
     // t = w · 2^-(sh−1), the halved value with its half bit.
-    let width = x1.abs_diff(x0);
+    let width = x1.wrapping_sub(x0) as u64; // x1 > x0: exact
     let d = if sh == 0 {
         match u32::try_from(width) {
-            Ok(w) if w < 1 << 31 => w.max(1),
+            Ok(w) if w < 1 << 31 => w,
             _ => return Err(CurveError::BadSegment),
         }
     } else {
@@ -366,64 +357,76 @@ fn check_segment(
                           // t >> 1 < 2^31: adding the half bit cannot wrap.
         (t >> 1).wrapping_add(t & 1)
     };
+    // |Δy|, exact in u32; its sign is the table's direction (checked).
+    let a = y1.abs_diff(y0);
     let k = k as i32;
-    let dy = i64::from(y1) - i64::from(y0);
     let m = k.unsigned_abs();
     let normal = (1 << 30..1 << 31).contains(&m);
+    let whole = lo1 == 0 && (1..=32).contains(&sh);
     if !cubic {
-        if dy.unsigned_abs() >= 1 << 30 {
+        if a >= 1 << 30 {
             return Err(CurveError::SegmentTooSteep);
         }
-        let n = dy.unsigned_abs() as u32; // < 2^30
-        let ok = if dy == 0 {
+        let ok = if a == 0 {
             k == 0 && k_exp == 0
         } else {
-            normal && (k < 0) == (dy < 0) && is_rounded_ratio(m, k_exp, n, d)
+            normal && (k > 0) == rising && is_rounded_ratio(m, a, k_exp, [d, 0, 0])
         };
         return if ok {
-            Ok(())
+            Ok(whole)
         } else {
             Err(CurveError::BadSegment)
         };
     }
-    if !(normal && k > 0 && is_rounded_ratio(m, k_exp, 1 << 30, d)) {
+    if !(normal && k > 0 && is_rounded_ratio(m, 1 << 30, k_exp, [d, 0, 0])) {
         return Err(CurveError::BadSegment);
     }
-    // In i32 from here, every step checked: |Δy|, |D0|, |D1| < 2^29 in
-    // Q8 units, so 3·|Δy| and the sums below fit unless the stored terms
-    // are wrong (then refused). No 64-bit multiply at start-up.
-    if dy.unsigned_abs() >= 1 << 21 {
+    if a >= 1 << 21 {
         return Err(CurveError::SegmentTooSteep);
     }
-    let dy = (dy as i32) << 8; // |Δy| < 2^21: exact, below 2^29
-                               // |Δy| < 2^29: 2Δy and 3Δy (below 1.5·2^30 in size) cannot wrap.
-    let (dy2, dy3) = (dy.wrapping_mul(2), dy.wrapping_mul(3));
-    let (c1, c2, c3) = (c1 as i32, c2 as i32, c3 as i32);
+    // In the table's direction (falling: every term negated), in i32:
+    // Δy = a in Q8 below 2^29, the tangent terms D0 = c1 and
+    // D1 = c3 − c1 + 2Δy in 0 ..= L = min(3|Δy| + 2, 2^29 − 1), and
+    // c1 + c2 + c3 = Δy. The wrapping forms are exact for these tests:
+    // a term's negation wraps only for −2^31, which reads as 2^31 > L; D1
+    // is tested after D0 lies in 0..=L, when its true value lies in
+    // (−2^32, 2^32) and wraps into 0..=L only if it is there; and with
+    // both in range the true sum lies within 2^32 of Δy, so its wrapped
+    // value equals Δy only if it does.
+    let dir = |c: u32| {
+        if rising {
+            c as i32
+        } else {
+            (c as i32).wrapping_neg()
+        }
+    };
+    let (c1, c2, c3) = (dir(word(2)), dir(word(3)), dir(word(4)));
+    let a8 = (a << 8) as i32; // < 2^29
+    let limit = (a8.wrapping_mul(3).wrapping_add(2)).min((1 << 29) - 1) as u32;
     let d0 = c1;
-    let d1 = c3
-        .checked_sub(c1)
-        .and_then(|v| v.checked_add(dy2))
-        .ok_or(CurveError::SegmentTooSteep)?;
-    if d0.unsigned_abs() >= 1 << 29 || d1.unsigned_abs() >= 1 << 29 {
-        return Err(CurveError::SegmentTooSteep);
+    if d0 as u32 > limit {
+        return Err(too_steep_or_bad(d0));
     }
-    // 3·|Δy| + 2 < 1.5·2^30 + 2: far from wrapping.
-    let limit = dy3.unsigned_abs().wrapping_add(2);
-    let sign_ok = |d: i32| if rising { d >= 0 } else { d <= 0 };
-    // 3Δy − 2D0 − D1: each term below 1.5·2^30 in size, the sum checked.
-    // |D0| < 2^29 (checked above): 2·D0 cannot wrap.
-    let want_c2 = dy3
-        .checked_sub(d0.wrapping_mul(2))
-        .and_then(|v| v.checked_sub(d1));
-    if want_c2 != Some(c2)
-        || d0.unsigned_abs() > limit
-        || d1.unsigned_abs() > limit
-        || !sign_ok(d0)
-        || !sign_ok(d1)
-    {
+    let d1 = c3.wrapping_sub(c1).wrapping_add(a8).wrapping_add(a8);
+    if d1 as u32 > limit {
+        return Err(too_steep_or_bad(d1));
+    }
+    if c1.wrapping_add(c2).wrapping_add(c3) != a8 {
         return Err(CurveError::BadDerivatives);
     }
-    Ok(())
+    Ok(whole)
+}
+
+/// The error of a tangent term outside 0 ..= min(3|Δy| + 2, 2^29 − 1):
+/// too steep for the fixed-point path from 2^29 (Q8) in size, else
+/// against the direction or beyond Fritsch and Carlson's limit.
+#[cold]
+fn too_steep_or_bad(d: i32) -> CurveError {
+    if d.unsigned_abs() >= 1 << 29 {
+        CurveError::SegmentTooSteep
+    } else {
+        CurveError::BadDerivatives
+    }
 }
 
 /// The first `count` records of `N` words of `words` (`None` when there
@@ -456,8 +459,9 @@ impl<'a> CurveRef<'a> {
     /// constants correct for its end nodes ([`CurveError::BadSegment`]
     /// otherwise). Words are little endian (the image's byte order).
     ///
-    /// Cost: no division; on a Cortex-M0 about 150 instructions per
-    /// segment. Stack: under 100 bytes.
+    /// Cost: no division; on a Cortex-M0 about 280 instructions per cubic
+    /// segment (one call of `check_segment` and one of the shared ratio
+    /// check each). Stack: under 200 bytes.
     pub fn from_words(
         nodes: &'a [u32],
         segs: &'a [u32],
@@ -465,29 +469,24 @@ impl<'a> CurveRef<'a> {
         cubic: bool,
     ) -> Result<Self, CurveError> {
         let mut c = Self::view_of(nodes, segs, len, cubic)?;
-        // One pass, node after node: shifts increasing, each step of the
-        // table's direction (the direction of the first and last nodes: a
-        // step against it means the values rise and fall), each segment's
-        // constants. Each node's words are read once.
-        let mut whole = true;
-        let [lo, hi, y] = record(c.nodes, 0);
-        let (mut x0, mut y0) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
-        whole &= lo == 0;
-        for i in 0..len - 1 {
-            // i < len − 1 ≤ 63: i + 1 cannot wrap.
-            let [lo, hi, y] = record(c.nodes, i.wrapping_add(1));
-            let (x1, y1) = (((u64::from(hi) << 32) | u64::from(lo)) as i64, y as i32);
-            whole &= lo == 0;
-            if x1 <= x0 {
-                return Err(CurveError::ShiftsNotIncreasing);
+        // One pass, segment after segment, each with its two end nodes:
+        // shifts increasing, each step of the table's direction (the
+        // direction of the first and last nodes: a step against it means
+        // the values rise and fall), each segment's constants.
+        let mut whole = record(c.nodes, 0)[0] == 0;
+        let ends = c.nodes.windows(2).map(|e| (e.first(), e.get(1)));
+        if cubic {
+            for ((n0, n1), seg) in ends.zip(c.cubic) {
+                if let (Some(n0), Some(n1)) = (n0, n1) {
+                    whole &= check_segment(*n0, *n1, seg, true, c.rising)?;
+                }
             }
-            if (c.rising && y1 < y0) || (!c.rising && y1 > y0) {
-                return Err(CurveError::NotMonotone);
+        } else {
+            for ((n0, n1), seg) in ends.zip(c.linear) {
+                if let (Some(n0), Some(n1)) = (n0, n1) {
+                    whole &= check_segment(*n0, *n1, seg, false, c.rising)?;
+                }
             }
-            let seg = c.segment_words(i);
-            check_segment(seg, (x0, y0), (x1, y1), cubic, c.rising)?;
-            whole &= (1..=32).contains(&(seg[0] & 0xFF));
-            (x0, y0) = (x1, y1);
         }
         c.whole = whole;
         Ok(c)

@@ -3,9 +3,11 @@
 //!
 //! The layout is the project's own, little endian, documented byte by byte
 //! in `docs/image-format.md` and written once in code in [`layout`]. Format
-//! 2 stores, besides the nodes of each table, every per-segment constant
-//! the firmware's evaluation needs, computed on the host, so that start-up
-//! is validation, not derivation.
+//! 3 stores, besides the nodes of each table, every per-segment constant
+//! the firmware's evaluation needs and the shift converters' reciprocals
+//! with their exponents, computed on the host, so that start-up is
+//! validation, not derivation: each derived constant is checked against
+//! what it derives from by one shared routine of multiplies and compares.
 //!
 //! ## The firmware's flow
 //!
@@ -46,13 +48,14 @@
 //!
 //! The CRC is CRC-32/ISO-HDLC ([`crc32`]).
 //!
-//! ## Format 1
+//! ## Formats 1 and 2
 //!
 //! Format 1 (nodes and node derivatives, no per-segment constants, no
-//! calibration time or plan identity) is refused by the firmware with
-//! [`ImageError::FormatOne`]. The host reads it
-//! ([`Calibration::parse`], `design` feature) and rewrites it in format 2
-//! (`lc-host inspect --rewrite OUT`).
+//! calibration time or plan identity) and format 2 (no reciprocal
+//! exponents: bytes 100 to 103 reserved) are refused by the firmware with
+//! [`ImageError::OldFormat`]. The host reads both
+//! ([`Calibration::parse`], `design` feature) and rewrites them in format
+//! 3 (`lc-host inspect IMAGE --rewrite OUT`).
 
 pub mod layout;
 
@@ -75,8 +78,11 @@ use layout::*;
 /// The first four bytes of every image: "LCIM".
 pub const MAGIC: [u8; 4] = *b"LCIM";
 /// The format version this crate writes and the firmware reads.
-pub const VERSION: u16 = 2;
-/// The earlier format version, read by the host only.
+pub const VERSION: u16 = 3;
+/// Format 2 (no reciprocal exponents), read by the host only.
+pub const VERSION_2: u16 = 2;
+/// Format 1 (node derivatives, no segment constants), read by the host
+/// only.
 pub const VERSION_1: u16 = 1;
 /// The largest image: two full cubic tables.
 pub const MAX_IMAGE_LEN: usize = HEADER_LEN + 2 * table_len(MAX_NODES, true) + CRC_LEN;
@@ -141,9 +147,9 @@ pub enum ImageError {
     BadMagic,
     /// A format version this firmware does not read.
     UnknownVersion,
-    /// A format-1 image: the host reads it and rewrites it in format 2
-    /// (`lc-host inspect --rewrite OUT`).
-    FormatOne,
+    /// A format-1 or format-2 image: the host reads it and rewrites it in
+    /// format 3 (`lc-host inspect IMAGE --rewrite OUT`).
+    OldFormat,
     /// The stated length disagrees with the table sizes, or a byte after
     /// the stated length is not erased flash (0xFF).
     LengthMismatch,
@@ -175,8 +181,8 @@ impl fmt::Display for ImageError {
             ImageError::Truncated => f.write_str("image truncated"),
             ImageError::BadMagic => f.write_str("not a calibration image (bad magic)"),
             ImageError::UnknownVersion => f.write_str("unknown image format version"),
-            ImageError::FormatOne => f.write_str(
-                "format-1 image: rewrite it in format 2 with `lc-host inspect IMAGE --rewrite OUT`",
+            ImageError::OldFormat => f.write_str(
+                "older image format: rewrite it in format 3 with `lc-host inspect IMAGE --rewrite OUT`",
             ),
             ImageError::LengthMismatch => f.write_str(
                 "stated length disagrees with the tables, or bytes after it are not erased (0xFF)",
@@ -594,7 +600,7 @@ fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
             ring_drop: r.u16(METAL_RING_DROP).ok_or(Truncated)?,
             relearn_readings: r.u32(METAL_RELEARN).ok_or(Truncated)?,
         };
-        let reserved_ok = r.u8(RESERVED_93) == Some(0) && r.u32(RESERVED_100) == Some(0);
+        let reserved_ok = r.u8(RESERVED_93) == Some(0);
         let valid = p.enter_ppb > 0
             && p.leave_ppb < p.enter_ppb
             && p.enter_samples > 0
@@ -610,7 +616,7 @@ fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
     } else {
         let raw = r
             .raw()
-            .get(METAL_ENTER_PPB.at..METAL_ENTER_PPB.at + 24)
+            .get(METAL_ENTER_PPB.at..METAL_RELEARN.end())
             .ok_or(Truncated)?;
         if raw.iter().any(|&b| b != 0) {
             return Err(OutOfRange(Field::Metal));
@@ -635,7 +641,7 @@ fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
 
 /// A validated calibration image, read in place: a borrowed view of the
 /// image's bytes (normally in flash), its kind and one byte of what
-/// validation found (the scale of each stored reciprocal).
+/// validation found (which tables lie on whole levels).
 ///
 /// Built only by [`Image::new`] (or the one-kind [`Image::new_proximity`],
 /// [`Image::new_level`], [`Image::new_metal`]), which check everything; readers
@@ -651,10 +657,6 @@ pub struct Image<'a> {
     /// The image's words (little endian), exactly its stated length.
     words: &'a [u32],
     kind: ReaderKind,
-    /// Bit i set: the i-th stored reciprocal (rest, gate, companion,
-    /// companion gate) is at the halved scale
-    /// (`ShiftConverter::halved`).
-    halved: u8,
     /// Bit 0: the curve is on whole levels, bit 1: the volume table
     /// (`CurveRef::on_whole_levels`, found by the tables' checks).
     whole: u8,
@@ -682,8 +684,8 @@ impl<'a> Image<'a> {
     /// detector).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
-    /// image byte with the byte table), a few hundred per curve segment,
-    /// and a few thousand for the header and the converters' checks
+    /// image byte with the byte table), about 280 per cubic curve segment,
+    /// and one to two thousand for the header and the converters' checks
     /// (docs/performance.md, "Loading"). Stack: a few hundred bytes
     /// besides the returned 12-byte `Image`.
     ///
@@ -722,7 +724,7 @@ impl<'a> Image<'a> {
         let (version, len) = framing(bytes)?;
         match version {
             VERSION => {}
-            VERSION_1 => return Err(FormatOne),
+            VERSION_1 | VERSION_2 => return Err(OldFormat),
             _ => return Err(UnknownVersion),
         }
         if bytes.len() < HEADER_LEN + CRC_LEN || len > bytes.len() {
@@ -778,42 +780,41 @@ impl<'a> Image<'a> {
             }
             whole |= u8::from(v.on_whole_levels()) << 1;
         }
-        let halved = Self::derived(words, &h)?;
+        Self::derived(words, &h)?;
         Ok(Image {
             words,
             kind: h.kind,
-            halved,
             whole,
         })
     }
 
-    /// What the readers derive, checked here so that every reader builds;
-    /// returns the scales of the stored reciprocals ([`Image::halved`]).
+    /// What the readers derive, checked here so that every reader builds:
+    /// the converters' stored reciprocals (by multiplies, no 128-bit
+    /// division at start-up), the companion coil, the metal detector.
     #[inline(always)]
-    fn derived(words: &'a [u32], h: &Header) -> Result<u8, ImageError> {
+    fn derived(words: &'a [u32], h: &Header) -> Result<(), ImageError> {
         use ImageError::*;
         let r = Words(words);
-        let pair = |a: Span, b: Span| (r.u32(a).unwrap_or(0), r.u32(b).unwrap_or(0));
-        // The converters' stored reciprocals, checked by multiplies: no
-        // 128-bit division at start-up.
-        let mut halved = ShiftConverter::check_reciprocals(
+        let reciprocal =
+            |m: Span, e: Span| (r.u32(m).unwrap_or(0), u32::from(r.u8(e).unwrap_or(0)));
+        ShiftConverter::check_reciprocals(
             h.rest,
             h.gate_cycles,
-            pair(REST_RECIPROCAL, GATE_RECIPROCAL),
+            reciprocal(REST_RECIPROCAL, REST_EXPONENT),
+            reciprocal(GATE_RECIPROCAL, GATE_EXPONENT),
         )
         .map_err(BadGate)?;
-        let companion_reciprocals = pair(COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL);
+        let companion = reciprocal(COMPANION_RECIPROCAL, COMPANION_EXPONENT);
+        let companion_gate = reciprocal(COMPANION_GATE_RECIPROCAL, COMPANION_GATE_EXPONENT);
         // Proximity and metal: a companion coil (ratiometric shift, its
         // ratio derived by the reader: one division). Level: a reference
         // electrode with its own converter.
         match (h.kind, h.companion_rest) {
             (ReaderKind::Level, Some(c)) => {
-                let reference =
-                    ShiftConverter::check_reciprocals(c, h.gate_cycles, companion_reciprocals)
-                        .map_err(|_| OutOfRange(Field::CompanionRest))?;
-                halved |= reference << 2;
+                ShiftConverter::check_reciprocals(c, h.gate_cycles, companion, companion_gate)
+                    .map_err(|_| OutOfRange(Field::CompanionRest))?;
             }
-            _ if companion_reciprocals != (0, 0) => {
+            _ if companion != (0, 0) || companion_gate != (0, 0) => {
                 return Err(OutOfRange(Field::CompanionRest));
             }
             (_, None) => {}
@@ -830,7 +831,7 @@ impl<'a> Image<'a> {
         {
             return Err(OutOfRange(Field::Metal));
         }
-        Ok(halved)
+        Ok(())
     }
 
     /// The image's bytes (exactly its stated length).
@@ -995,15 +996,20 @@ impl<'a> Image<'a> {
         self.words.last().map_or(0, |w| u32::from_le(*w))
     }
 
-    /// The converter of the stored rest point (`reciprocals` its two
-    /// reciprocal fields, `shift` the place of their scales in
-    /// [`Image::halved`]), as validation checked it.
-    fn converter(&self, rest: RestPoint, reciprocals: (Span, Span), shift: u32) -> ShiftConverter {
+    /// A stored reciprocal: its mantissa and exponent fields.
+    fn reciprocal(&self, mantissa: Span, exponent: Span) -> (u32, u32) {
+        (self.u32(mantissa), u32::from(self.u8(exponent)))
+    }
+
+    /// The converter of the stored rest point and reciprocals, as
+    /// validation checked it.
+    fn converter(&self, rest: RestPoint, reciprocals: [(Span, Span); 2]) -> ShiftConverter {
+        let [(m, e), (gm, ge)] = reciprocals;
         ShiftConverter::from_checked(
             rest,
             self.gate().unwrap_or(0),
-            (self.u32(reciprocals.0), self.u32(reciprocals.1)),
-            (self.halved >> shift) & 3,
+            self.reciprocal(m, e),
+            self.reciprocal(gm, ge),
         )
     }
 
@@ -1014,7 +1020,13 @@ impl<'a> Image<'a> {
     #[inline(always)]
     pub(crate) fn front(&self) -> Front {
         let rest = self.rest();
-        let converter = self.converter(rest, (REST_RECIPROCAL, GATE_RECIPROCAL), 0);
+        let converter = self.converter(
+            rest,
+            [
+                (REST_RECIPROCAL, REST_EXPONENT),
+                (GATE_RECIPROCAL, GATE_EXPONENT),
+            ],
+        );
         #[cfg(feature = "companion")]
         let companion = match (self.kind, self.companion_rest()) {
             (ReaderKind::Level, _) | (_, None) => None,
@@ -1037,8 +1049,10 @@ impl<'a> Image<'a> {
         match self.kind {
             ReaderKind::Level => Some(self.converter(
                 self.companion_rest()?,
-                (COMPANION_RECIPROCAL, COMPANION_GATE_RECIPROCAL),
-                2,
+                [
+                    (COMPANION_RECIPROCAL, COMPANION_EXPONENT),
+                    (COMPANION_GATE_RECIPROCAL, COMPANION_GATE_EXPONENT),
+                ],
             )),
             _ => None,
         }
@@ -1118,7 +1132,7 @@ impl ImageBuf {
 pub use host::{Calibration, Table};
 
 /// The host's side of the image: owned calibrations, the encoder (format
-/// 2) and the reader of both formats. Design feature.
+/// 3) and the reader of formats 1 to 3. Design feature.
 #[cfg(feature = "design")]
 mod host {
     use super::*;
@@ -1193,7 +1207,7 @@ mod host {
     }
 
     /// A calibration as the host builds and edits it: what an image holds,
-    /// owned (about 3 KB). [`Calibration::encode`] writes it in format 2;
+    /// owned (about 3 KB). [`Calibration::encode`] writes it in format 3;
     /// [`Calibration::parse`] reads either format.
     #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
     #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -1251,7 +1265,7 @@ mod host {
             (self.gate_cycles > 0).then_some(self.gate_cycles)
         }
 
-        /// Length of this calibration's image in bytes (format 2).
+        /// Length of this calibration's image in bytes (format 3).
         pub fn encoded_len(&self) -> usize {
             HEADER_LEN
                 + self
@@ -1263,15 +1277,16 @@ mod host {
                 + CRC_LEN
         }
 
-        /// The image's format version (1 or 2) from its framing, without
+        /// The image's format version (1, 2 or 3) from its framing, without
         /// validating anything else.
         pub fn format_version(bytes: &[u8]) -> Result<u16, ImageError> {
             framing(bytes).map(|(v, _)| v)
         }
 
-        /// Parses and validates an image of either format (format 1 by the
-        /// rules it was written with, its cubic tables' segment constants
-        /// derived here from the stored node derivatives). `bytes` may be
+        /// Parses and validates an image of any of the three formats
+        /// (format 1 by the rules it was written with, its cubic tables'
+        /// segment constants derived here from the stored node derivatives;
+        /// format 2 with the reciprocals' exponents filled in). `bytes` may be
         /// longer than the image and need not be aligned.
         pub fn parse(bytes: &[u8]) -> Result<Self, ImageError> {
             match framing(bytes)?.0 {
@@ -1280,9 +1295,66 @@ mod host {
                     let image = buf.image()?;
                     Ok(Self::from_image(&image))
                 }
+                VERSION_2 => Self::parse_v2(bytes),
                 VERSION_1 => Self::parse_v1(bytes),
                 _ => Err(ImageError::UnknownVersion),
             }
+        }
+
+        /// Format 2: format 3 without the reciprocals' exponents (bytes
+        /// 100 to 103 reserved, zero). Its CRC checked, the exponents of
+        /// its rest points and gate filled in, then validated as format 3:
+        /// the same rules, the stored mantissas checked against them.
+        fn parse_v2(bytes: &[u8]) -> Result<Self, ImageError> {
+            use ImageError::*;
+            let (_, len) = framing(bytes)?;
+            let image = bytes.get(..len).ok_or(Truncated)?;
+            let body = image.get(..len.saturating_sub(CRC_LEN)).ok_or(Truncated)?;
+            let r = Bytes(image);
+            if len < HEADER_LEN + CRC_LEN {
+                return Err(Truncated);
+            }
+            if r.u32(Span {
+                at: len - CRC_LEN,
+                len: CRC_LEN,
+            }) != Some(crc32(body))
+            {
+                return Err(BadCrc);
+            }
+            if r.get::<4>(REST_EXPONENT.at) != Some([0; 4]) {
+                return Err(OutOfRange(Field::Reserved));
+            }
+            let mut buf = ImageBuf::from_bytes(image)?;
+            let gate = r.u32(GATE_CYCLES).filter(|&g| g > 0);
+            let exponents = |at: Span| {
+                let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(r.u64(at)?)).ok()?;
+                let (inv, gate) =
+                    ShiftConverter::new(rest, crate::counting::Gating::Reciprocal, gate)
+                        .ok()?
+                        .reciprocals();
+                Some([u8::try_from(inv.1).ok()?, u8::try_from(gate.1).ok()?])
+            };
+            let put = |b: &mut ImageBuf, at: usize, v: &[u8]| {
+                if let Some(d) = b.as_bytes_mut().get_mut(at..at + v.len()) {
+                    d.copy_from_slice(v);
+                }
+            };
+            put(&mut buf, layout::VERSION.at, &VERSION.to_le_bytes());
+            // Where the rest points are not valid, the exponents stay 0 and
+            // the validation below names the field.
+            if let Some(e) = exponents(REST) {
+                put(&mut buf, REST_EXPONENT.at, &e);
+            }
+            let level_reference = r.u8(KIND) == Some(ReaderKind::Level as u8)
+                && r.u8(FLAGS).is_some_and(|f| f & FLAG_COMPANION != 0);
+            if level_reference {
+                if let Some(e) = exponents(COMPANION_REST) {
+                    put(&mut buf, COMPANION_EXPONENT.at, &e);
+                }
+            }
+            let crc = crc32(buf.as_bytes().get(..len - CRC_LEN).unwrap_or(&[]));
+            put(&mut buf, len - CRC_LEN, &crc.to_le_bytes());
+            Ok(Self::from_image(&buf.image()?))
         }
 
         /// The calibration a validated image holds.
@@ -1352,6 +1424,14 @@ mod host {
                 return Err(BadCrc);
             }
             let h = header(Bytes(bytes), ACCEPT_ANY)?;
+            // Bytes 100 to 103: reserved, zero, in format 1.
+            if r.get::<4>(REST_EXPONENT.at) != Some([0; 4]) {
+                return Err(OutOfRange(if h.kind == ReaderKind::Metal {
+                    Field::Reserved
+                } else {
+                    Field::Metal
+                }));
+            }
             let read = |at: usize, n: usize, cubic: bool| -> Result<Table, CurveError> {
                 let mut nodes = [Node::default(); MAX_NODES];
                 let mut ders = [0i64; MAX_NODES];
@@ -1414,7 +1494,7 @@ mod host {
             })
         }
 
-        /// Writes the image (format 2) into `out`; returns its length. The
+        /// Writes the image (format 3) into `out`; returns its length. The
         /// result always validates ([`Image::new`]) and parses back to an
         /// equal calibration when `self` is consistent: the encoder checks
         /// its output with the firmware's own validation.
@@ -1491,13 +1571,20 @@ mod host {
                     .map(|c| c.reciprocals())
                     .map_err(ImageError::BadGate)
             };
+            let mut put = |(m, e): (u32, u32), mantissa: Span, exponent: Span| {
+                // e ≤ 127 (`ShiftConverter::new`).
+                let e =
+                    u8::try_from(e).map_err(|_| ImageError::BadGate(ShiftError::BadRestPoint))?;
+                w.put(mantissa.at, &m.to_le_bytes())?;
+                w.put(exponent.at, &[e])
+            };
             let (inv, gate_inv) = reciprocals(self.rest)?;
-            w.put(REST_RECIPROCAL.at, &inv.to_le_bytes())?;
-            w.put(GATE_RECIPROCAL.at, &gate_inv.to_le_bytes())?;
+            put(inv, REST_RECIPROCAL, REST_EXPONENT)?;
+            put(gate_inv, GATE_RECIPROCAL, GATE_EXPONENT)?;
             if let (ReaderKind::Level, Some(c)) = (self.kind, self.companion_rest) {
                 let (inv, gate_inv) = reciprocals(c)?;
-                w.put(COMPANION_RECIPROCAL.at, &inv.to_le_bytes())?;
-                w.put(COMPANION_GATE_RECIPROCAL.at, &gate_inv.to_le_bytes())?;
+                put(inv, COMPANION_RECIPROCAL, COMPANION_EXPONENT)?;
+                put(gate_inv, COMPANION_GATE_RECIPROCAL, COMPANION_GATE_EXPONENT)?;
             }
             let mut at = HEADER_LEN;
             for table in [self.curve, self.volume.map(|(t, _)| t)]
@@ -1742,8 +1829,9 @@ mod tests {
             validate(&bad)
         };
         assert_eq!(case(&|i| i[0] = b'X'), Err(ImageError::BadMagic));
-        assert_eq!(case(&|i| i[4] = 3), Err(ImageError::UnknownVersion));
-        assert_eq!(case(&|i| i[4] = 1), Err(ImageError::FormatOne));
+        assert_eq!(case(&|i| i[4] = 4), Err(ImageError::UnknownVersion));
+        assert_eq!(case(&|i| i[4] = 1), Err(ImageError::OldFormat));
+        assert_eq!(case(&|i| i[4] = 2), Err(ImageError::OldFormat));
         assert_eq!(case(&|i| i[10] = 4), Err(ImageError::LengthMismatch));
         assert_eq!(
             case(&|i| i[10] = 65),
@@ -1921,7 +2009,7 @@ mod tests {
     fn layout_matches_the_documentation() {
         let img = encode(&demo_proximity().unwrap());
         assert_eq!(&img[0..4], b"LCIM");
-        assert_eq!(&img[4..6], &[2, 0]);
+        assert_eq!(&img[4..6], &[3, 0]);
         assert_eq!(u16::from_le_bytes([img[6], img[7]]), 232);
         assert_eq!(&img[8..12], &[1, 0, 5, 0]);
         assert_eq!(&img[12..24], b"DEMO-01-0007");
@@ -1941,6 +2029,9 @@ mod tests {
         // 2^35/p_rest ≈ 4.034e9 with its top bit set.
         let inv = u32::from_le_bytes(img[120..124].try_into().unwrap());
         assert!((f64::from(inv) - 2f64.powi(35) * 16_384.0 / 139_542.0).abs() < 1.0);
+        // Its exponent: p_rest in Q20.44 has 48 bits, 2^(48+31)/p_rest is
+        // in [2^31, 2^32); p_rest·N (N = 2^14) has 62.
+        assert_eq!(&img[100..104], &[79, 93, 0, 0]);
         assert_eq!(&img[128..136], &[0; 8]);
         assert_eq!(
             i64::from_le_bytes(img[136..144].try_into().unwrap()),
@@ -1965,7 +2056,7 @@ mod tests {
         for cal in [demo_proximity().unwrap(), level_with_volume(), metal()] {
             let v1 = encode_v1(&cal);
             assert_eq!(Calibration::format_version(&v1), Ok(1));
-            assert_eq!(validate(&v1), Err(ImageError::FormatOne));
+            assert_eq!(validate(&v1), Err(ImageError::OldFormat));
             let back = Calibration::parse(&v1).unwrap();
             let want = Calibration {
                 calibrated_at: 0,
@@ -1973,8 +2064,41 @@ mod tests {
                 ..cal
             };
             assert_eq!(back, want);
-            let v2 = encode(&back);
-            assert_eq!(Calibration::parse(&v2), Ok(want));
+            let v3 = encode(&back);
+            assert_eq!(Calibration::parse(&v3), Ok(want));
+        }
+    }
+
+    /// Format 2 (bytes 100 to 103 reserved) is read on the host, the
+    /// same calibration, and refused by the firmware; a reserved byte set
+    /// or a wrong stored mantissa is still refused.
+    #[test]
+    fn format_two_reads_and_rewrites() {
+        for cal in [demo_proximity().unwrap(), level_with_volume(), metal()] {
+            let mut v2 = encode(&cal);
+            v2[4] = 2;
+            v2[100..104].fill(0);
+            fix_crc(&mut v2);
+            assert_eq!(Calibration::format_version(&v2), Ok(2));
+            assert_eq!(validate(&v2), Err(ImageError::OldFormat));
+            assert_eq!(Calibration::parse(&v2), Ok(cal));
+            let mut bad = v2.clone();
+            bad[103] = 1;
+            fix_crc(&mut bad);
+            assert_eq!(
+                Calibration::parse(&bad),
+                Err(ImageError::OutOfRange(Field::Reserved))
+            );
+            let mut bad = v2.clone();
+            bad[REST_RECIPROCAL.at] ^= 1;
+            fix_crc(&mut bad);
+            assert_eq!(
+                Calibration::parse(&bad),
+                Err(ImageError::BadGate(ShiftError::BadRestPoint))
+            );
+            let mut bad = v2.clone();
+            bad[10] ^= 0x40;
+            assert!(Calibration::parse(&bad).is_err());
         }
     }
 
@@ -1984,6 +2108,7 @@ mod tests {
         let v2 = encode(cal);
         let mut img = v2[..HEADER_LEN_V1].to_vec();
         img[4] = 1;
+        img[100..104].fill(0); // reserved in format 1
         for t in [cal.curve, cal.volume.map(|(t, _)| t)]
             .into_iter()
             .flatten()

@@ -170,6 +170,8 @@
 
 pub mod counting;
 pub mod curve;
+// The start-up check of the image's derived constants.
+mod derived;
 pub mod detector;
 pub mod drift;
 pub mod filter;

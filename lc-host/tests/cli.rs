@@ -141,7 +141,7 @@ fn usage_errors_teach() {
 
 /// A format-1 image: `inspect` reads it, says how to rewrite it, and
 /// `--rewrite` with the plan and the time writes exactly the committed
-/// format-2 image of that unit (the firmware example's
+/// format-3 image of that unit (the firmware example's
 /// `demo-proximity-32.lcim`).
 #[test]
 fn inspect_reads_format_one_and_rewrites_it() {
@@ -175,12 +175,50 @@ fn inspect_reads_format_one_and_rewrites_it() {
     let committed =
         std::fs::read(root.join("examples/firmware/data/demo-proximity-32.lcim")).expect("read");
     assert_eq!(std::fs::read(&new).expect("rewritten image"), committed);
-    // The rewritten image inspects as format 2 with its time and plan.
+    // The rewritten image inspects as format 3 with its time and plan.
     let out = lc_host().arg("inspect").arg(&new).output().expect("run");
     let text = String::from_utf8_lossy(&out.stdout);
     assert!(
-        text.contains("format 2") && text.contains("1764547200"),
+        text.contains("format 3") && text.contains("1764547200"),
         "{text}"
     );
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+/// A format-2 image: `inspect` reads it with its time and plan, says how
+/// to rewrite it, and `--rewrite` alone writes exactly the committed
+/// format-3 image of that unit.
+#[test]
+fn inspect_reads_format_two_and_rewrites_it() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+    let v2 = root.join("tests/data/demo-01-0007.format2.lcim");
+    let out = lc_host().arg("inspect").arg(&v2).output().expect("run");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("format 2"), "{text}");
+    assert!(text.contains("1764547200"), "{text}");
+    assert!(text.contains("--rewrite OUT"), "{text}");
+    let dir = scratch("rewrite-2");
+    let new = dir.join("unit.lcim");
+    let out = lc_host()
+        .arg("inspect")
+        .arg(&v2)
+        .arg("--rewrite")
+        .arg(&new)
+        .env_remove("SOURCE_DATE_EPOCH")
+        .output()
+        .expect("run");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let committed =
+        std::fs::read(root.join("examples/firmware/data/demo-proximity-32.lcim")).expect("read");
+    assert_eq!(std::fs::read(&new).expect("rewritten image"), committed);
     let _ = std::fs::remove_dir_all(dir);
 }

@@ -519,7 +519,11 @@ pub const MALFORMED: [Malformed; 18] = [
     Malformed {
         name: "unknown-version",
         base: PROXIMITY,
-        edits: &[Edit::Set(layout::VERSION.at, 3)],
+        // The version after the current one.
+        edits: &[Edit::Set(
+            layout::VERSION.at,
+            lc_core::image::VERSION as u8 + 1,
+        )],
     },
     Malformed {
         name: "format-one",

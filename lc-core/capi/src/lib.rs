@@ -267,7 +267,7 @@ const fn image_error_named(e: ImageError) -> lc_error_t {
         ImageError::Truncated => LC_ERR_IMAGE_TRUNCATED,
         ImageError::BadMagic => LC_ERR_IMAGE_BAD_MAGIC,
         ImageError::UnknownVersion => LC_ERR_IMAGE_UNKNOWN_VERSION,
-        ImageError::FormatOne => LC_ERR_IMAGE_FORMAT_ONE,
+        ImageError::OldFormat => LC_ERR_IMAGE_FORMAT_ONE,
         ImageError::LengthMismatch => LC_ERR_IMAGE_LENGTH_MISMATCH,
         ImageError::Misaligned => LC_ERR_IMAGE_MISALIGNED,
         ImageError::BadCrc => LC_ERR_IMAGE_BAD_CRC,

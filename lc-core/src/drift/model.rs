@@ -1,6 +1,6 @@
 //! The per-unit temperature model.
 
-use crate::fixed::{div_rem_u64_u32, mul_i32_u32_wide, reciprocal_q63};
+use crate::fixed::{mul_i32_u32_wide, mul_u32_wide, reciprocal_q63};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -95,71 +95,29 @@ impl TemperatureModel {
 
     /// A model with reference temperature `reference`, b1 in 2^-40 per
     /// centi-kelvin and b2 in 2^-56 per centi-kelvin². Checked: the
-    /// reference lies in [`TEMPERATURE_DOMAIN`] and |g| < 1/2 across it.
+    /// reference lies in [`TEMPERATURE_DOMAIN`], and with E the largest
+    /// |ΔT| the domain allows from it, |b1|·E + |b2|·E² < 1/2, so that
+    /// |g| < 1/2 across the domain (a bound on each term: no vertex to
+    /// find, no division; two multiplies and a compare).
     pub fn new(reference: CentiCelsius, b1: i32, b2: i32) -> Result<Self, DriftError> {
         let (lo, hi) = TEMPERATURE_DOMAIN;
         if reference.0 < lo.0 || reference.0 > hi.0 {
             return Err(DriftError::ReferenceOutOfRange);
         }
-        let model = Self { reference, b1, b2 };
-        // g is a parabola in ΔT: its extremes over the domain lie at the
-        // ends or at the vertex −b1/(2·b2·2^-16).
-        //
-        // In i64 (no 128-bit arithmetic on a 32-bit core): with the
-        // reference and t in the domain, |ΔT| ≤ 40 000 < 2^15.3, so
-        // |b1·ΔT·2^16| ≤ 2^31·40 000·2^16 < 5.63·10^18 and |b2·ΔT²| ≤
-        // 2^31·1.6·10^9 < 3.44·10^18: the sum and its magnitude stay below
-        // 9.07·10^18 < 2^63. None of the wrapping operations below wraps.
-        //
-        // The products from 32 × 32-bit ones (a 64-bit multiply is a
-        // library call on a Cortex-M0): e = |ΔT| < 2^16 and e² < 2^31 fit
-        // `u32`, and `mul_i32_u32_wide` is exact: the same values as the
-        // 64-bit products.
-        let g_at = |d: i64| -> u64 {
-            let e = d.unsigned_abs() as u32; // ≤ 40 000: exact
-                                             // |b1·e| < 2^47: the negation cannot wrap.
-            let first = if d < 0 {
-                mul_i32_u32_wide(b1, e).wrapping_neg()
-            } else {
-                mul_i32_u32_wide(b1, e)
-            };
-            first
-                .wrapping_mul(1 << 16)
-                .wrapping_add(mul_i32_u32_wide(b2, e.wrapping_mul(e)))
-                .unsigned_abs()
-        };
-        let delta = |t: i32| i64::from(t).wrapping_sub(i64::from(reference.0));
-        let mut worst = g_at(delta(lo.0)).max(g_at(delta(hi.0)));
-        if b2 != 0 {
-            // Vertex in centi-kelvin from the reference: ΔT* = −b1·2^16/(2·b2)
-            // (|b1·2^16| < 2^47 and 0 < |2·b2| ≤ 2^32: the quotient fits, and
-            // |t| ≤ 2^47 + 30 000).
-            // The truncating quotient from the magnitudes: |n| < 2^47,
-            // 0 < |d| ≤ 2^32, so |q| < 2^47 and its negation cannot wrap.
-            // ⌊|n|/|d|⌋ = ⌊|b1|·2^15/|b2|⌋ (|n| is even), a 64 ÷ 32-bit
-            // division by |b2| ≠ 0 (`fixed::div_rem_u64_u32`: no library
-            // division on a Cortex-M0; its `None` for a zero divisor does
-            // not occur).
-            let n = (i64::from(b1) << 16).wrapping_neg();
-            let d = i64::from(b2).wrapping_mul(2);
-            let q = div_rem_u64_u32(u64::from(b1.unsigned_abs()) << 15, b2.unsigned_abs())
-                .map_or(i64::MAX, |(q, _)| q as i64); // q < 2^47: exact
-            let v = if (n < 0) != (d < 0) {
-                q.wrapping_neg()
-            } else {
-                q
-            };
-            let t = i64::from(reference.0).wrapping_add(v);
-            if (i64::from(lo.0)..=i64::from(hi.0)).contains(&t) {
-                // t in the domain: |v| ≤ 40 000, the bound above holds.
-                worst = worst.max(g_at(v));
-            }
-        }
-        // g in units of 2^-56: |g| < 1/2 ⇔ < 2^55.
-        if worst >= 1 << 55 {
+        // E ≤ 40 000 < 2^16 (the reference in the domain: both
+        // differences in 0..=40 000, no wrap), E² < 2^31.
+        let e =
+            hi.0.wrapping_sub(reference.0)
+                .max(reference.0.wrapping_sub(lo.0)) as u32;
+        // In units of 2^-56: |b1|·E·2^16 < 2^31·2^16·2^16 = 2^63 and
+        // |b2|·E² < 2^62; the sum fits u64.
+        let first = mul_u32_wide(b1.unsigned_abs(), e) << 16;
+        let second = mul_u32_wide(b2.unsigned_abs(), e.wrapping_mul(e));
+        // |g| < 1/2 ⇔ below 2^55.
+        if first.wrapping_add(second) >= 1 << 55 {
             return Err(DriftError::CorrectionTooLarge);
         }
-        Ok(model)
+        Ok(Self { reference, b1, b2 })
     }
 
     /// From real coefficients: b1 per kelvin, b2 per kelvin² (host side;
@@ -533,15 +491,22 @@ mod tests {
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(20_000))]
 
-        /// The i64 check of `new` accepts exactly what the 128-bit
-        /// computation of the worst |g| over the domain accepts.
+        /// `new` accepts exactly the models whose terms' bound
+        /// |b1|·E + |b2|·E² (E the largest |ΔT| from the reference) lies
+        /// below 1/2, computed in i128; and every accepted model has
+        /// |g| < 1/2 across the domain (its worst over the domain, at the
+        /// ends or at the parabola's vertex, in i128).
         #[test]
-        fn new_matches_wide_check(
+        fn new_bounds_g_across_the_domain(
             r in -10_000i32..=30_000,
             b1 in prop_oneof![any::<i32>(), -20_000_000i32..=20_000_000],
             b2 in prop_oneof![any::<i32>(), -100_000i32..=100_000, -100i32..=100],
         ) {
             let (lo, hi) = TEMPERATURE_DOMAIN;
+            let e = i128::from((hi.0 - r).max(r - lo.0));
+            let bound = i128::from(b1).abs() * e * (1 << 16) + i128::from(b2).abs() * e * e;
+            let ok = TemperatureModel::new(CentiCelsius(r), b1, b2).is_ok();
+            prop_assert_eq!(ok, bound < 1 << 55);
             let g_at = |d: i128| i128::from(b1) * d * (1 << 16) + i128::from(b2) * d * d;
             let d = |t: i32| i128::from(t) - i128::from(r);
             let mut worst = g_at(d(lo.0)).abs().max(g_at(d(hi.0)).abs());
@@ -551,8 +516,7 @@ mod tests {
                     worst = worst.max(g_at(v).abs());
                 }
             }
-            let ok = TemperatureModel::new(CentiCelsius(r), b1, b2).is_ok();
-            prop_assert_eq!(ok, worst < 1 << 55);
+            prop_assert!(!ok || worst < 1 << 55);
         }
 
         /// The offset form within its stated bound of 1/(1 + g) − 1 for

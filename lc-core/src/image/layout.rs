@@ -101,16 +101,25 @@ pub const RESERVED_93: Span = Span::new(93, 1);
 pub const METAL_RING_DROP: Span = Span::new(94, 2);
 /// Metal: readings present before the baseline is re-learned, `u32`.
 pub const METAL_RELEARN: Span = Span::new(96, 4);
-/// Reserved, zero.
-pub const RESERVED_100: Span = Span::new(100, 4);
-/// Calibration time, UTC, Unix seconds, `i64` (format 2).
+/// The exponent e of [`REST_RECIPROCAL`]: 1/p_rest ≈ m · 2^-e (format 3).
+pub const REST_EXPONENT: Span = Span::new(100, 1);
+/// The exponent of [`GATE_RECIPROCAL`] (0 without a gate).
+pub const GATE_EXPONENT: Span = Span::new(101, 1);
+/// The exponent of [`COMPANION_RECIPROCAL`] (0 unless level with a
+/// reference electrode).
+pub const COMPANION_EXPONENT: Span = Span::new(102, 1);
+/// The exponent of [`COMPANION_GATE_RECIPROCAL`] (0 unless level with a
+/// reference electrode and a gate).
+pub const COMPANION_GATE_EXPONENT: Span = Span::new(103, 1);
+/// Calibration time, UTC, Unix seconds, `i64` (since format 2).
 pub const CALIBRATED_AT: Span = Span::new(104, 8);
 /// Plan identity: the first 8 bytes of the SHA-256 of the calibration
-/// plan's text (format 2).
+/// plan's text (since format 2).
 pub const PLAN_ID: Span = Span::new(112, 8);
 
 /// The shift converter's reciprocal of the rest point, 32-bit mantissa
-/// (format 2; computed on the host, checked at start-up).
+/// with its top bit set (computed on the host, checked at start-up; its
+/// exponent is [`REST_EXPONENT`]).
 pub const REST_RECIPROCAL: Span = Span::new(120, 4);
 /// The shift converter's reciprocal of rest point times gate, 32-bit
 /// mantissa (0 without a gate).
@@ -122,13 +131,14 @@ pub const COMPANION_RECIPROCAL: Span = Span::new(128, 4);
 /// gate (0 otherwise).
 pub const COMPANION_GATE_RECIPROCAL: Span = Span::new(132, 4);
 
-/// Bytes before the tables (format 2).
+/// Bytes before the tables (formats 2 and 3: format 2 has bytes 100 to
+/// 103 reserved, zero, where format 3 stores the reciprocals' exponents).
 pub const HEADER_LEN: usize = 136;
 /// Bytes before the tables in format 1 (no time, no plan identity).
 pub const HEADER_LEN_V1: usize = 104;
 
 /// The header, in byte order.
-pub const HEADER: [Row; 35] = [
+pub const HEADER: [Row; 38] = [
     row("magic", Field::Magic, MAGIC, "[u8; 4]"),
     row("version", Field::Version, VERSION, "u16"),
     row("length", Field::Length, LENGTH, "u16"),
@@ -177,7 +187,20 @@ pub const HEADER: [Row; 35] = [
     row("reserved", Field::Reserved, RESERVED_93, "u8"),
     row("metal_ring_drop", Field::Metal, METAL_RING_DROP, "u16"),
     row("metal_relearn", Field::Metal, METAL_RELEARN, "u32"),
-    row("reserved", Field::Reserved, RESERVED_100, "u32"),
+    row("rest_exponent", Field::GateCycles, REST_EXPONENT, "u8"),
+    row("gate_exponent", Field::GateCycles, GATE_EXPONENT, "u8"),
+    row(
+        "companion_exponent",
+        Field::CompanionRest,
+        COMPANION_EXPONENT,
+        "u8",
+    ),
+    row(
+        "companion_gate_exponent",
+        Field::CompanionRest,
+        COMPANION_GATE_EXPONENT,
+        "u8",
+    ),
     row("calibrated_at", Field::CalibratedAt, CALIBRATED_AT, "i64"),
     row("plan_id", Field::PlanId, PLAN_ID, "[u8; 8]"),
     row("rest_reciprocal", Field::GateCycles, REST_RECIPROCAL, "u32"),
@@ -258,7 +281,7 @@ pub const FLAG_VOLUME_CUBIC: u8 = 1 << 3;
 pub const KNOWN_FLAGS: u8 = FLAG_CUBIC | FLAG_COMPANION | FLAG_VOLUME | FLAG_VOLUME_CUBIC;
 
 /// Bytes of a table of `nodes` nodes: the nodes, then one segment per gap
-/// between neighbours (format 2).
+/// between neighbours (formats 2 and 3).
 pub const fn table_len(nodes: usize, cubic: bool) -> usize {
     let seg = if cubic {
         SEGMENT_LEN_CUBIC

@@ -17,10 +17,11 @@ use std::path::PathBuf;
 /// ignored; anything else (two images concatenated) is an error, since the file is then
 /// not one image.
 ///
-/// Format-1 images (written before the per-segment constants) are read too; the firmware
-/// refuses them. `--rewrite OUT` writes the same calibration in format 2, with the
-/// calibration time from `--time` (else SOURCE_DATE_EPOCH, else 0: unknown) and the plan
-/// identity from `--plan` (else unknown).
+/// Images of the older formats are read too: format 1 (written before the per-segment
+/// constants) and format 2 (without the reciprocals' exponents); the firmware refuses
+/// them. `--rewrite OUT` writes the same calibration in the current format (3), with the
+/// calibration time from `--time` (else SOURCE_DATE_EPOCH, else the image's own: 0,
+/// unknown, for format 1) and the plan identity from `--plan` (else the image's own).
 ///
 /// Examples:
 ///
@@ -34,7 +35,7 @@ pub struct Args {
     /// Print JSON instead of text
     #[arg(long)]
     json: bool,
-    /// Write the calibration in the current format (2) to this file
+    /// Write the calibration in the current format (3) to this file
     #[arg(long, value_name = "OUT")]
     rewrite: Option<PathBuf>,
     /// With --rewrite: the calibration time to record, UTC Unix seconds
@@ -102,12 +103,15 @@ pub fn to_text(cal: &Calibration, format: u16, crc: u32, len: usize) -> String {
     let mut s = String::new();
     let unit = |exp: i8, u: &str| format!("1e{exp} {u}");
     s += &format!("calibration image, format {format}, {len} bytes, CRC-32 {crc:08X}: valid\n");
-    if format == lc_core::image::VERSION_1 {
-        s += "  (format 1: the firmware refuses it; rewrite it in format 2 with\n   `lc-host inspect IMAGE --rewrite OUT [--plan PLAN] [--time SECONDS]`)\n";
+    if format < lc_core::image::VERSION {
+        s += &format!(
+            "  (format {format}: the firmware refuses it; rewrite it in format {} with\n   `lc-host inspect IMAGE --rewrite OUT [--plan PLAN] [--time SECONDS]`)\n",
+            lc_core::image::VERSION
+        );
     }
     s += &format!("  reader        {}\n", kind_name(cal.kind));
     s += &format!("  serial        {}\n", cal.serial.as_str());
-    if format >= lc_core::image::VERSION {
+    if format >= lc_core::image::VERSION_2 {
         s += &format!(
             "  calibrated    {} (Unix seconds, UTC), plan {}\n",
             cal.calibrated_at,
