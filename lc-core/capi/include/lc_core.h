@@ -145,10 +145,10 @@ enum lc_error_t
    */
   LC_ERR_IMAGE_UNKNOWN_VERSION = 34,
   /*
-   A format-1 image: rewrite it in format 2 with `lc-host inspect
-   IMAGE --rewrite OUT`.
+   An image in an older format (1 or 2): rewrite it in the current
+   format with `lc-host inspect IMAGE --rewrite OUT`.
    */
-  LC_ERR_IMAGE_FORMAT_ONE = 35,
+  LC_ERR_IMAGE_OLD_FORMAT = 35,
   /*
    The stated length disagrees with the table sizes.
    */
@@ -930,7 +930,7 @@ extern const struct lc_layout_t lc_core_capi_layout;
  than the image (a flash page): the header's length field decides.
  Checks, the first failing one reported: framing and magic
  (`LC_ERR_IMAGE_TRUNCATED`, `LC_ERR_IMAGE_BAD_MAGIC`), version
- (`LC_ERR_IMAGE_UNKNOWN_VERSION`, `LC_ERR_IMAGE_FORMAT_ONE`), length
+ (`LC_ERR_IMAGE_UNKNOWN_VERSION`, `LC_ERR_IMAGE_OLD_FORMAT`), length
  (`LC_ERR_IMAGE_LENGTH_MISMATCH`), alignment
  (`LC_ERR_IMAGE_MISALIGNED`), CRC-32 (`LC_ERR_IMAGE_BAD_CRC`), then
  every field (`LC_ERR_IMAGE_FIELD_*`), the curve and volume table

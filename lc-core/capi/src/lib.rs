@@ -114,9 +114,9 @@ pub enum lc_error_t {
     LC_ERR_IMAGE_BAD_MAGIC = 33,
     /// A format version this library does not read.
     LC_ERR_IMAGE_UNKNOWN_VERSION = 34,
-    /// A format-1 image: rewrite it in format 2 with `lc-host inspect
-    /// IMAGE --rewrite OUT`.
-    LC_ERR_IMAGE_FORMAT_ONE = 35,
+    /// An image in an older format (1 or 2): rewrite it in the current
+    /// format with `lc-host inspect IMAGE --rewrite OUT`.
+    LC_ERR_IMAGE_OLD_FORMAT = 35,
     /// The stated length disagrees with the table sizes.
     LC_ERR_IMAGE_LENGTH_MISMATCH = 36,
     /// The image does not start at a 4-byte aligned address.
@@ -267,7 +267,7 @@ const fn image_error_named(e: ImageError) -> lc_error_t {
         ImageError::Truncated => LC_ERR_IMAGE_TRUNCATED,
         ImageError::BadMagic => LC_ERR_IMAGE_BAD_MAGIC,
         ImageError::UnknownVersion => LC_ERR_IMAGE_UNKNOWN_VERSION,
-        ImageError::OldFormat => LC_ERR_IMAGE_FORMAT_ONE,
+        ImageError::OldFormat => LC_ERR_IMAGE_OLD_FORMAT,
         ImageError::LengthMismatch => LC_ERR_IMAGE_LENGTH_MISMATCH,
         ImageError::Misaligned => LC_ERR_IMAGE_MISALIGNED,
         ImageError::BadCrc => LC_ERR_IMAGE_BAD_CRC,
@@ -391,7 +391,7 @@ const fn image_error_rank(e: ImageError) -> u32 {
         ImageError::Truncated => 0,
         ImageError::BadMagic => 1,
         ImageError::UnknownVersion => 2,
-        ImageError::FormatOne => 3,
+        ImageError::OldFormat => 3,
         ImageError::LengthMismatch => 4,
         ImageError::Misaligned => 5,
         _ => 6,
@@ -439,7 +439,7 @@ const ERROR_CODES_CHECKED: () = {
         E::Truncated,
         E::BadMagic,
         E::UnknownVersion,
-        E::FormatOne,
+        E::OldFormat,
         E::LengthMismatch,
         E::Misaligned,
         E::BadCrc,
@@ -1169,7 +1169,7 @@ fn code(f: impl FnOnce() -> Result<(), lc_error_t>) -> lc_error_t {
 /// than the image (a flash page): the header's length field decides.
 /// Checks, the first failing one reported: framing and magic
 /// (`LC_ERR_IMAGE_TRUNCATED`, `LC_ERR_IMAGE_BAD_MAGIC`), version
-/// (`LC_ERR_IMAGE_UNKNOWN_VERSION`, `LC_ERR_IMAGE_FORMAT_ONE`), length
+/// (`LC_ERR_IMAGE_UNKNOWN_VERSION`, `LC_ERR_IMAGE_OLD_FORMAT`), length
 /// (`LC_ERR_IMAGE_LENGTH_MISMATCH`), alignment
 /// (`LC_ERR_IMAGE_MISALIGNED`), CRC-32 (`LC_ERR_IMAGE_BAD_CRC`), then
 /// every field (`LC_ERR_IMAGE_FIELD_*`), the curve and volume table

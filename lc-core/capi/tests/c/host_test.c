@@ -170,7 +170,7 @@ static void bad_images(const uint8_t *good, size_t file_len) {
   memcpy(img, good, len);
   img[4] = 1;
   img[5] = 0;
-  EXPECT(lc_image_validate(&image, img, len), LC_ERR_IMAGE_FORMAT_ONE);
+  EXPECT(lc_image_validate(&image, img, len), LC_ERR_IMAGE_OLD_FORMAT);
   img[4] = 7;
   EXPECT(lc_image_validate(&image, img, len), LC_ERR_IMAGE_UNKNOWN_VERSION);
 
