@@ -526,34 +526,16 @@ impl ShiftConverter {
         square_to_shift(x.wrapping_shl(z) / u64::from(cycles), exp)
     }
 
-    /// [`ShiftConverter::shift`] with its common case inlined into the
-    /// caller: a pair over the configured gate whose shift lies in the
-    /// declared domain. The readers call this; on a Cortex-M0 the call of
-    /// `shift` and its result passed through memory cost about a tenth of a
-    /// proximity reading. Every other pair goes through `shift`. Same
-    /// results.
+    /// The shift of `ticks` over the configured gate when it lies in the
+    /// declared domain (`None` otherwise, and for 0 ticks): what
+    /// [`ShiftConverter::shift`] gives there, by the shortcut, inlined into
+    /// the caller (`Front::checked_shift`, one copy per reader). On a
+    /// Cortex-M0 the call of `shift` and its result passed through memory
+    /// cost about a tenth of a proximity reading.
     #[inline(always)]
-    pub(crate) fn shift_inline(&self, pair: CountPair) -> Result<Shift, ShiftError> {
-        if pair.cycles == self.gate_cycles && pair.ticks != 0 {
-            if let Some(s) = self.square_in_domain(mul_u32_wide(pair.ticks, self.gate_mant)) {
-                return Ok(s);
-            }
-        }
-        self.shift(pair)
-    }
-
-    /// [`ShiftConverter::shift_inline`] of `ticks` over the configured gate,
-    /// equal to `shift(CountPair::new(gate, ticks))`. Precondition: the
-    /// converter has a configured gate and the caller has compared the
-    /// pair's cycles with it (`Front::checked_shift`, through the gate's
-    /// tick band); without a gate it returns `ZeroCount`.
-    #[inline(always)]
-    pub(crate) fn shift_at_gate(&self, ticks: u32) -> Result<Shift, ShiftError> {
+    pub(crate) fn gate_shortcut(&self, ticks: u32) -> Option<Shift> {
         // ticks = 0 gives x = 0, which `square_in_domain` refuses.
-        if let Some(s) = self.square_in_domain(mul_u32_wide(ticks, self.gate_mant)) {
-            return Ok(s);
-        }
-        self.shift(CountPair::new(self.gate_cycles, ticks))
+        self.square_in_domain(mul_u32_wide(ticks, self.gate_mant))
     }
 
     /// The configured-gate path's shortcut for 1/4 ≤ r < 4 (the declared
@@ -1071,7 +1053,9 @@ mod tests {
             if let Some(s) = fast {
                 prop_assert_eq!(Ok(s), square_to_shift(x, conv.gate_exp));
             }
-            prop_assert_eq!(conv.shift_inline(case.pair), conv.shift(case.pair));
+            if let Some(s) = conv.gate_shortcut(case.pair.ticks) {
+                prop_assert_eq!(Ok(s), conv.shift(case.pair));
+            }
         }
 
         #[test]
@@ -1095,7 +1079,12 @@ mod tests {
                 _ => cycles,
             };
             let pair = CountPair::new(cycles, ticks);
-            prop_assert_eq!(conv.shift_inline(pair), conv.shift(pair));
+            // As `Front::checked_shift` takes it: on the gate's cycles.
+            if gate == Some(cycles) {
+                if let Some(s) = conv.gate_shortcut(ticks) {
+                    prop_assert_eq!(Ok(s), conv.shift(pair));
+                }
+            }
         }
 
         /// Any pair and rest point: never a panic; any success is within the
