@@ -215,6 +215,28 @@ fn record<const N: usize>(r: &[[u32; N]], i: usize) -> [u32; N] {
     r.get(i).copied().unwrap_or([0; N]).map(u32::from_le)
 }
 
+/// A node record's shift, raw Q23.40.
+#[inline(always)]
+fn node_x(r: &[u32; NODE_WORDS]) -> i64 {
+    ((u64::from(u32::from_le(r[1])) << 32) | u64::from(u32::from_le(r[0]))) as i64
+}
+
+/// A node record's shift's high word: the level of a volume table's node.
+#[inline(always)]
+fn node_x_high(r: &[u32; NODE_WORDS]) -> i32 {
+    u32::from_le(r[1]) as i32
+}
+
+/// A node record's value.
+#[inline(always)]
+fn node_y(r: &[u32; NODE_WORDS]) -> i32 {
+    u32::from_le(r[2]) as i32
+}
+
+/// A record of zeros: the nodes' stand-in past the end (never read for a
+/// validated curve, which has at least two nodes).
+const NO_NODE: [u32; NODE_WORDS] = [0; NODE_WORDS];
+
 /// `x · 2^sh` for `sh` ≤ 62 and a result below 2^64, in 32-bit halves
 /// (on a Cortex-M0 a 64-bit shift is a library call).
 #[inline]
@@ -559,12 +581,6 @@ impl<'a> CurveRef<'a> {
         ((u64::from(hi) << 32) | u64::from(lo)) as i64
     }
 
-    /// Node `i`'s shift's high word: the level of a volume table's node.
-    #[inline(always)]
-    fn x_high(&self, i: usize) -> i32 {
-        record(self.nodes, i)[1] as i32
-    }
-
     /// Node `i`'s value.
     #[inline(always)]
     fn y(&self, i: usize) -> i32 {
@@ -632,42 +648,72 @@ impl<'a> CurveRef<'a> {
         Some((seg.c1_q8, i32::try_from(d1).ok()?))
     }
 
-    /// Index of the segment holding `v` (key(i) ≤ v < key(i+1)) for
-    /// key(0) ≤ v < key(last) (clamped into the table otherwise): halving
-    /// search with a fixed trip count per table size (3 steps for 5 nodes,
-    /// 5 for 32).
+    /// The segment holding `v` (key(i) ≤ v < key(i+1)) for key(0) ≤ v <
+    /// key(last) (clamped into the table otherwise): its index and its two
+    /// nodes' records. Halving search with a fixed trip count per table
+    /// size (3 steps for 5 nodes, 5 for 32) on a shrinking window of the
+    /// nodes: the segment's nodes are read without a bounds check of their
+    /// own.
     #[inline(always)]
-    fn segment_by<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> usize {
-        let (mut i, mut len) = (0usize, self.len().saturating_sub(1));
-        while len > 1 {
-            let half = len / 2;
-            // i + half < i + len ≤ the segment count ≤ 63 (the
-            // invariant of the loop): the sums cannot wrap.
-            if key(i.wrapping_add(half)) <= v {
-                i = i.wrapping_add(half);
+    fn segment_by<K: PartialOrd>(
+        &self,
+        v: K,
+        key: impl Fn(&[u32; NODE_WORDS]) -> K,
+    ) -> (usize, &'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS]) {
+        // The window holds the nodes i..=i + len (len segments); while len
+        // > 1 it halves: the upper half from node i + half on, or the
+        // lower one up to node i + len − half (len − half + 1 nodes).
+        let (mut i, mut w) = (0usize, self.nodes);
+        while let [_, _, _, ..] = w {
+            // len ≥ 2: half in 1..len, so both windows are inside w; i +
+            // half ≤ the segment count ≤ 63: the sum cannot wrap.
+            let half = w.len().wrapping_sub(1) / 2;
+            match w.get(half..) {
+                Some(high @ [mid, ..]) if key(mid) <= v => {
+                    i = i.wrapping_add(half);
+                    w = high;
+                }
+                _ => w = w.get(..w.len().wrapping_sub(half)).unwrap_or(w),
             }
-            len -= half;
         }
-        i
+        match w {
+            [a, b, ..] => (i, a, b),
+            [a] => (i, a, a),
+            [] => (i, &NO_NODE, &NO_NODE),
+        }
     }
 
-    /// The value of `v` outside the table on the nodes' keys `key(i)`, or
-    /// at its last node: the first node's below it, the last node's at or
-    /// above it, with the status; `None` inside.
+    /// The first and the last node's records (one length check).
     #[inline(always)]
-    fn outside<K: PartialOrd>(&self, v: K, key: impl Fn(usize) -> K) -> Option<CurveValue> {
-        let last_i = self.len().saturating_sub(1);
-        if v < key(0) {
+    fn ends(&self) -> (&'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS]) {
+        match self.nodes {
+            [first, .., last] => (first, last),
+            [only] => (only, only),
+            [] => (&NO_NODE, &NO_NODE),
+        }
+    }
+
+    /// The value of `v` outside the table on the nodes' keys, or at its
+    /// last node: the first node's below it, the last node's at or above
+    /// it, with the status; `None` inside.
+    #[inline(always)]
+    fn outside<K: PartialOrd>(
+        &self,
+        v: K,
+        key: impl Fn(&[u32; NODE_WORDS]) -> K,
+    ) -> Option<CurveValue> {
+        let (first, last) = self.ends();
+        if v < key(first) {
             return Some(CurveValue {
-                value: self.y(0),
+                value: node_y(first),
                 status: CurveStatus::BelowRange,
             });
         }
-        let last = key(last_i);
-        if v >= last {
+        let x_last = key(last);
+        if v >= x_last {
             return Some(CurveValue {
-                value: self.y(last_i),
-                status: if v == last {
+                value: node_y(last),
+                status: if v == x_last {
                     CurveStatus::InRange
                 } else {
                     CurveStatus::AboveRange
@@ -686,18 +732,17 @@ impl<'a> CurveRef<'a> {
     #[inline(always)]
     pub fn eval(&self, s: Shift) -> CurveValue {
         let s = s.raw_q40();
-        if let Some(end) = self.outside(s, |i| self.x(i)) {
+        if let Some(end) = self.outside(s, node_x) {
             return end;
         }
         // x[0] ≤ s < x[last].
-        let i = self.segment_by(s, |i| self.x(i));
+        let (i, a, b) = self.segment_by(s, node_x);
         let seg = self.segment_constants(i);
-        // i is a segment (< 63): i + 1 is its last node, no wrap.
-        let (y0, y1) = (self.y(i), self.y(i.wrapping_add(1)));
+        let (y0, y1) = (node_y(a), node_y(b));
         // 0 ≤ s − x0 < w < 2^(31 + sh), so (s − x0)·2^-(sh−1) < 2^32: d is
         // (s − x0)·2^-sh rounded, below 2^31 (d = 2^31 only when s rounds up
         // to x1: held at 2^31 − 1, still exact below).
-        let u = s.wrapping_sub(self.x(i)) as u64; // < w: exact
+        let u = s.wrapping_sub(node_x(a)) as u64; // < w: exact
         let d = round_shr_to_u32(u, seg.sh).min((1 << 31) - 1);
         self.in_segment(&seg, y0, y1, d)
     }
@@ -716,19 +761,14 @@ impl<'a> CurveRef<'a> {
     /// (then every q is within), and no 64-bit saturation on the way.
     #[inline(always)]
     pub(crate) fn within_reach(&self, q: i64, status: CurveStatus) -> bool {
-        let last_i = self.len().saturating_sub(1);
-        let width = |x0: i64, xn: i64| xn.wrapping_sub(x0) as u64;
-        match status {
-            CurveStatus::InRange => true,
-            CurveStatus::BelowRange => {
-                let (x0, xn) = (self.x(0), self.x(last_i));
-                x0.wrapping_sub(q) as u64 <= width(x0, xn)
-            }
-            CurveStatus::AboveRange => {
-                let (x0, xn) = (self.x(0), self.x(last_i));
-                q.wrapping_sub(xn) as u64 <= width(x0, xn)
-            }
-        }
+        let (first, last) = self.ends();
+        // The distance past the end `q` passed (positive there).
+        let past = match status {
+            CurveStatus::InRange => return true,
+            CurveStatus::BelowRange => node_x(first).wrapping_sub(q),
+            CurveStatus::AboveRange => q.wrapping_sub(node_x(last)),
+        };
+        past as u64 <= node_x(last).wrapping_sub(node_x(first)) as u64
     }
 
     /// [`CurveRef::eval`] at the whole level `v`, that is at
@@ -743,16 +783,14 @@ impl<'a> CurveRef<'a> {
         if !self.whole {
             return self.eval(Shift::from_raw_q40(i64::from(v) << 32));
         }
-        let level = |i: usize| self.x_high(i);
-        if let Some(end) = self.outside(v, level) {
+        if let Some(end) = self.outside(v, node_x_high) {
             return end;
         }
-        let i = self.segment_by(v, level);
+        let (i, a, b) = self.segment_by(v, node_x_high);
         let seg = self.segment_constants(i);
-        // i is a segment (< 63): i + 1 is its last node, no wrap.
-        let (y0, y1) = (self.y(i), self.y(i.wrapping_add(1)));
+        let (y0, y1) = (node_y(a), node_y(b));
         // 0 ≤ r < the segment's width in levels < 2^(sh − 1), sh ≤ 32.
-        let r = v.wrapping_sub(level(i)) as u32;
+        let r = v.wrapping_sub(node_x_high(a)) as u32;
         // On whole levels every segment's sh is in 1..=32 (validated), so
         // the shift amount is below 32; the wrapping shift only states it.
         let d = r.wrapping_shl(32 - u32::from(seg.sh).min(32));
@@ -815,7 +853,7 @@ impl<'a> CurveRef<'a> {
         if raw <= self.x(0) || raw >= self.x(last) {
             return 0.5;
         }
-        let i = self.segment_by(raw, |i| self.x(i));
+        let (i, _, _) = self.segment_by(raw, node_x);
         let dy = (f64::from(self.y(i + 1)) - f64::from(self.y(i))).abs();
         let (d0, d1) = self.tangent_terms_q8(i).unwrap_or((0, 0));
         let (d0, d1) = (f64::from(d0) / 256.0, f64::from(d1) / 256.0);
