@@ -804,16 +804,23 @@ impl<'a> CurveRef<'a> {
         let rising = self.rising;
         // |y1 − y0| < 2^30 (validated): exact in u32.
         let span = y1.abs_diff(y0);
-        let step: u32 = if !self.is_cubic() {
-            // |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30: fits after the shift.
-            round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
+        let cubic = self.is_cubic();
+        // One product and one rounding shift for both kinds. Linear: the
+        // step |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30 (fits after the shift).
+        // Cubic: t = d/w' in Q16 (from Q30: 14 bits more).
+        let q = round_shr_to_u32(
+            mul_u32_wide(seg.k.unsigned_abs(), d),
+            if cubic {
+                seg.k_exp.saturating_add(14)
+            } else {
+                seg.k_exp
+            },
+        );
+        let step: u32 = if !cubic {
+            q
         } else {
-            // t = d/w' in Q16, 0 ≤ t ≤ 2^16.
-            let t = round_shr_to_u32(
-                mul_u32_wide(seg.k.unsigned_abs(), d),
-                seg.k_exp.saturating_add(14),
-            )
-            .min(1 << 16);
+            // 0 ≤ t ≤ 2^16.
+            let t = q.min(1 << 16);
             // Horner in Q8 output units, each product rounded to Q8;
             // every accumulator fits i32 (Segment docs).
             let acc = seg.c2_q8.wrapping_add(mul_q16(seg.c3_q8, t));
