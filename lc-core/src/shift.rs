@@ -504,6 +504,23 @@ impl ShiftConverter {
     /// The shift of one count pair, without the reading around it.
     #[inline]
     pub fn shift(&self, pair: CountPair) -> Result<Shift, ShiftError> {
+        self.shift_with(pair, true)
+    }
+
+    /// [`ShiftConverter::shift`] without the configured gate's shortcut
+    /// (the same results, the gate's pairs by the general normalisation):
+    /// for callers that took the shortcut already or never meet the gate
+    /// (`Front::checked_shift`, a companion ratio). A firmware whose code
+    /// calls only this links one copy of the shortcut, not two (about 200
+    /// bytes on a Cortex-M0).
+    #[inline]
+    pub(crate) fn shift_general(&self, pair: CountPair) -> Result<Shift, ShiftError> {
+        self.shift_with(pair, false)
+    }
+
+    /// The shift, the gate's pairs through the shortcut when `shortcut`.
+    #[inline(always)]
+    fn shift_with(&self, pair: CountPair, shortcut: bool) -> Result<Shift, ShiftError> {
         let CountPair { cycles, ticks } = pair;
         if cycles == 0 || ticks == 0 {
             return Err(ShiftError::ZeroCount);
@@ -511,8 +528,10 @@ impl ShiftConverter {
         // r = p / p_rest = x · 2^-exp.
         if cycles == self.gate_cycles {
             let x = mul_u32_wide(ticks, self.gate_mant);
-            if let Some(s) = self.square_in_domain(x) {
-                return Ok(s);
+            if shortcut {
+                if let Some(s) = self.square_in_domain(x) {
+                    return Ok(s);
+                }
             }
             return square_to_shift(x, self.gate_exp);
         }

@@ -362,18 +362,19 @@ impl Front {
         // A pair inside the accepted ticks has the gate's cycles (the
         // band's gate and the converter's are the image's one gate): the
         // shortcut, inlined (its one copy per call). Any other pair: the
-        // full check and `shift`, which takes the same shortcut where it
-        // applies.
+        // full check and the general path (off the accepted ticks no pair
+        // of the gate's cycles passes the window, and the shortcut gives
+        // what the general path gives).
         if let Some(a) = &self.accepted {
             if a.contains(pair) {
                 if let Some(s) = conv.gate_shortcut(pair.ticks) {
                     return Ok(s);
                 }
-                return conv.shift(pair).map_err(SensorFault::Shift);
+                return conv.shift_general(pair).map_err(SensorFault::Shift);
             }
         }
         self.window.check(pair).map_err(window)?;
-        conv.shift(pair).map_err(SensorFault::Shift)
+        conv.shift_general(pair).map_err(SensorFault::Shift)
     }
 
     /// The sensor channel's shift, through the fault window, without the
