@@ -512,8 +512,8 @@ impl ShiftConverter {
     /// for callers that took the shortcut already or never meet the gate
     /// (`Front::checked_shift`, a companion ratio). A firmware whose code
     /// calls only this links one copy of the shortcut, not two (about 200
-    /// bytes on a Cortex-M0).
-    #[inline]
+    /// bytes on a Cortex-M0). Out of line: the readers' rare path.
+    #[inline(never)]
     pub(crate) fn shift_general(&self, pair: CountPair) -> Result<Shift, ShiftError> {
         self.shift_with(pair, false)
     }
