@@ -223,9 +223,9 @@ impl FaultWindow {
         if pair.cycles < self.min_cycles {
             return Err(FaultError::TooFewCycles);
         }
-        // The products through one out-of-line copy: the readers take
-        // this check only off their gate's accepted ticks, and three
-        // inlined products cost about 100 bytes of flash on a Cortex-M0.
+        // On ARMv6-M the products through one out-of-line copy: the
+        // readers take this check only off their gate's accepted ticks,
+        // and three inlined products cost about 100 bytes of flash there.
         let scaled = wide(self.reference_hz, pair.cycles);
         if scaled < wide(self.min_hz, pair.ticks) {
             return Err(FaultError::FrequencyTooLow);
@@ -237,9 +237,21 @@ impl FaultWindow {
     }
 }
 
-/// `a · b`, exact, out of line: one copy for the check's three products.
-#[inline(never)]
+/// `a · b`, exact: on ARMv6-M through one out-of-line copy for the
+/// check's three products (each about 36 bytes inlined there), elsewhere
+/// the single multiply instruction inline.
+#[inline(always)]
 fn wide(a: u32, b: u32) -> u64 {
+    if crate::fixed::ARMV6M {
+        wide_out_of_line(a, b)
+    } else {
+        mul_u32_wide(a, b)
+    }
+}
+
+/// [`wide`]'s out-of-line copy (ARMv6-M).
+#[inline(never)]
+fn wide_out_of_line(a: u32, b: u32) -> u64 {
     mul_u32_wide(a, b)
 }
 
