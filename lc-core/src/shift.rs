@@ -504,23 +504,6 @@ impl ShiftConverter {
     /// The shift of one count pair, without the reading around it.
     #[inline]
     pub fn shift(&self, pair: CountPair) -> Result<Shift, ShiftError> {
-        self.shift_with(pair, true)
-    }
-
-    /// [`ShiftConverter::shift`] without the configured gate's shortcut
-    /// (the same results, the gate's pairs by the general normalisation):
-    /// for callers that took the shortcut already or never meet the gate
-    /// (`Front::checked_shift`, a companion ratio). A firmware whose code
-    /// calls only this links one copy of the shortcut, not two (about 200
-    /// bytes on a Cortex-M0). Out of line: the readers' rare path.
-    #[inline(never)]
-    pub(crate) fn shift_general(&self, pair: CountPair) -> Result<Shift, ShiftError> {
-        self.shift_with(pair, false)
-    }
-
-    /// The shift, the gate's pairs through the shortcut when `shortcut`.
-    #[inline(always)]
-    fn shift_with(&self, pair: CountPair, shortcut: bool) -> Result<Shift, ShiftError> {
         let CountPair { cycles, ticks } = pair;
         if cycles == 0 || ticks == 0 {
             return Err(ShiftError::ZeroCount);
@@ -528,10 +511,8 @@ impl ShiftConverter {
         // r = p / p_rest = x · 2^-exp.
         if cycles == self.gate_cycles {
             let x = mul_u32_wide(ticks, self.gate_mant);
-            if shortcut {
-                if let Some(s) = self.square_in_domain(x) {
-                    return Ok(s);
-                }
+            if let Some(s) = self.square_in_domain(x) {
+                return Ok(s);
             }
             return square_to_shift(x, self.gate_exp);
         }
@@ -543,6 +524,26 @@ impl ShiftConverter {
         // shift nor the sum can wrap.
         let exp = self.inv_exp.wrapping_add(z as i32);
         square_to_shift(x.wrapping_shl(z) / u64::from(cycles), exp)
+    }
+
+    /// [`ShiftConverter::shift`] without the configured gate's shortcut
+    /// (the same results, the gate's pairs by the general normalisation):
+    /// for callers that took the shortcut already or never meet the gate
+    /// (`Front::checked_shift`, a companion ratio). A firmware whose code
+    /// calls only this links one copy of the shortcut, not two (about 200
+    /// bytes on a Cortex-M0). Out of line: the readers' rare path.
+    #[inline(never)]
+    pub(crate) fn shift_general(&self, pair: CountPair) -> Result<Shift, ShiftError> {
+        let CountPair { cycles, ticks } = pair;
+        if cycles == 0 || ticks == 0 {
+            return Err(ShiftError::ZeroCount);
+        }
+        if cycles == self.gate_cycles {
+            return square_to_shift(mul_u32_wide(ticks, self.gate_mant), self.gate_exp);
+        }
+        // Off the gate: `shift`'s own tests, repeated, fold away, and its
+        // division path remains.
+        self.shift(pair)
     }
 
     /// The shift of `ticks` over the configured gate when it lies in the
@@ -1087,8 +1088,9 @@ mod tests {
             }
         }
 
-        /// The readers' inlined entry gives what `shift` gives, for any
-        /// pair and gate (the configured one, another, none, zero counts).
+        /// The readers' entries (the inlined shortcut, the general path)
+        /// give what `shift` gives, for any pair and gate (the configured
+        /// one, another, none, zero counts).
         #[test]
         fn inlined_entry_equals_shift(rest_raw in (1u64 << 36).., gate: Option<u32>, cycles: u32, ticks: u32, on_gate: bool) {
             let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(rest_raw)).unwrap();
@@ -1098,6 +1100,7 @@ mod tests {
                 _ => cycles,
             };
             let pair = CountPair::new(cycles, ticks);
+            prop_assert_eq!(conv.shift_general(pair), conv.shift(pair));
             // As `Front::checked_shift` takes it: on the gate's cycles.
             if gate == Some(cycles) {
                 if let Some(s) = conv.gate_shortcut(ticks) {
