@@ -727,6 +727,19 @@ impl<'a> CurveRef<'a> {
         }
     }
 
+    /// The first and the last node's records (one length check; a
+    /// validated curve has at least two nodes, the other arms only keep
+    /// the function total).
+    #[inline(always)]
+    fn ends(&self) -> (&'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS]) {
+        const NO_NODE: [u32; NODE_WORDS] = [0; NODE_WORDS];
+        match self.nodes {
+            [first, .., last] => (first, last),
+            [only] => (only, only),
+            [] => (&NO_NODE, &NO_NODE),
+        }
+    }
+
     /// The value at shift `s`, rounded to nearest; clamped with a status
     /// outside the table. No division, and on a 32-bit core no 64-bit
     /// library call: the segment's offset, the products and the rounding
@@ -795,19 +808,14 @@ impl<'a> CurveRef<'a> {
     /// (then every q is within), and no 64-bit saturation on the way.
     #[inline(always)]
     pub(crate) fn within_reach(&self, q: i64, status: CurveStatus) -> bool {
-        let last_i = self.len().saturating_sub(1);
-        let width = |x0: i64, xn: i64| xn.wrapping_sub(x0) as u64;
-        match status {
-            CurveStatus::InRange => true,
-            CurveStatus::BelowRange => {
-                let (x0, xn) = (self.x(0), self.x(last_i));
-                x0.wrapping_sub(q) as u64 <= width(x0, xn)
-            }
-            CurveStatus::AboveRange => {
-                let (x0, xn) = (self.x(0), self.x(last_i));
-                q.wrapping_sub(xn) as u64 <= width(x0, xn)
-            }
-        }
+        let (first, last) = self.ends();
+        // The distance past the end `q` passed (positive there).
+        let past = match status {
+            CurveStatus::InRange => return true,
+            CurveStatus::BelowRange => node_x(first).wrapping_sub(q),
+            CurveStatus::AboveRange => q.wrapping_sub(node_x(last)),
+        };
+        past as u64 <= node_x(last).wrapping_sub(node_x(first)) as u64
     }
 
     /// [`CurveRef::eval`] at the whole level `v`, that is at
@@ -842,16 +850,23 @@ impl<'a> CurveRef<'a> {
         let rising = self.rising;
         // |y1 − y0| < 2^30 (validated): exact in u32.
         let span = y1.abs_diff(y0);
-        let step: u32 = if !self.is_cubic() {
-            // |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30: fits after the shift.
-            round_shr_to_u32(mul_u32_wide(seg.k.unsigned_abs(), d), seg.k_exp)
+        let cubic = self.is_cubic();
+        // One product and one rounding shift for both kinds. Linear: the
+        // step |k|·d·2^-k_exp ≈ |Δy|·d/w' < 2^30 (fits after the shift).
+        // Cubic: t = d/w' in Q16 (from Q30: 14 bits more).
+        let q = round_shr_to_u32(
+            mul_u32_wide(seg.k.unsigned_abs(), d),
+            if cubic {
+                seg.k_exp.saturating_add(14)
+            } else {
+                seg.k_exp
+            },
+        );
+        let step: u32 = if !cubic {
+            q
         } else {
-            // t = d/w' in Q16, 0 ≤ t ≤ 2^16.
-            let t = round_shr_to_u32(
-                mul_u32_wide(seg.k.unsigned_abs(), d),
-                seg.k_exp.saturating_add(14),
-            )
-            .min(1 << 16);
+            // 0 ≤ t ≤ 2^16.
+            let t = q.min(1 << 16);
             // Horner in Q8 output units, each product rounded to Q8;
             // every accumulator fits i32 (Segment docs).
             let acc = seg.c2_q8.wrapping_add(mul_q16(seg.c3_q8, t));

@@ -448,34 +448,36 @@ impl ShiftConverter {
         square_to_shift(q, exp)
     }
 
-    /// [`ShiftConverter::shift`] with its common case inlined into the
-    /// caller: a pair over the configured gate whose shift lies in the
-    /// declared domain. The readers call this; on a Cortex-M0 the call of
-    /// `shift` and its result passed through memory cost about a tenth of a
-    /// proximity reading. Every other pair goes through `shift`. Same
-    /// results.
-    #[inline(always)]
-    pub(crate) fn shift_inline(&self, pair: CountPair) -> Result<Shift, ShiftError> {
-        if pair.cycles == self.gate_cycles && pair.ticks != 0 {
-            if let Some(s) = self.square_in_domain(mul_u32_wide(pair.ticks, self.gate_mant)) {
-                return Ok(s);
-            }
+    /// [`ShiftConverter::shift`] without the configured gate's shortcut
+    /// (the same results, the gate's pairs by the general normalisation):
+    /// for callers that took the shortcut already or never meet the gate
+    /// (`Front::checked_shift`, a companion ratio). A firmware whose code
+    /// calls only this links one copy of the shortcut, not two (about 200
+    /// bytes on a Cortex-M0). Out of line: the readers' rare path.
+    #[inline(never)]
+    pub(crate) fn shift_general(&self, pair: CountPair) -> Result<Shift, ShiftError> {
+        let CountPair { cycles, ticks } = pair;
+        if cycles == 0 || ticks == 0 {
+            return Err(ShiftError::ZeroCount);
         }
+        if cycles == self.gate_cycles {
+            return square_to_shift(mul_u32_wide(ticks, self.gate_mant), self.gate_exp);
+        }
+        // Off the gate: `shift`'s own tests, repeated, fold away, and its
+        // division path remains.
         self.shift(pair)
     }
 
-    /// [`ShiftConverter::shift_inline`] of `ticks` over the configured gate,
-    /// equal to `shift(CountPair::new(gate, ticks))`. Precondition: the
-    /// converter has a configured gate and the caller has compared the
-    /// pair's cycles with it (`Front::checked_shift`, through the gate's
-    /// tick band); without a gate it returns `ZeroCount`.
+    /// The shift of `ticks` over the configured gate when it lies in the
+    /// declared domain (`None` otherwise, and for 0 ticks): what
+    /// [`ShiftConverter::shift`] gives there, by the shortcut, inlined into
+    /// the caller (`Front::checked_shift`, one copy per reader). On a
+    /// Cortex-M0 the call of `shift` and its result passed through memory
+    /// cost about a tenth of a proximity reading.
     #[inline(always)]
-    pub(crate) fn shift_at_gate(&self, ticks: u32) -> Result<Shift, ShiftError> {
+    pub(crate) fn gate_shortcut(&self, ticks: u32) -> Option<Shift> {
         // ticks = 0 gives x = 0, which `square_in_domain` refuses.
-        if let Some(s) = self.square_in_domain(mul_u32_wide(ticks, self.gate_mant)) {
-            return Ok(s);
-        }
-        self.shift(CountPair::new(self.gate_cycles, ticks))
+        self.square_in_domain(mul_u32_wide(ticks, self.gate_mant))
     }
 
     /// The configured-gate path's shortcut for 1/4 ≤ r < 4 (the declared
@@ -997,7 +999,9 @@ mod tests {
             if let Some(s) = fast {
                 prop_assert_eq!(Ok(s), square_to_shift(x, conv.gate_exp));
             }
-            prop_assert_eq!(conv.shift_inline(case.pair), conv.shift(case.pair));
+            if let Some(s) = conv.gate_shortcut(case.pair.ticks) {
+                prop_assert_eq!(Ok(s), conv.shift(case.pair));
+            }
         }
 
         #[test]
@@ -1010,8 +1014,9 @@ mod tests {
             }
         }
 
-        /// The readers' inlined entry gives what `shift` gives, for any
-        /// pair and gate (the configured one, another, none, zero counts).
+        /// The readers' entries (the inlined shortcut, the general path)
+        /// give what `shift` gives, for any pair and gate (the configured
+        /// one, another, none, zero counts).
         #[test]
         fn inlined_entry_equals_shift(rest_raw in (1u64 << 36).., gate: Option<u32>, cycles: u32, ticks: u32, on_gate: bool) {
             let rest = RestPoint::from_ratio(PeriodRatio::from_raw_q44(rest_raw)).unwrap();
@@ -1021,7 +1026,13 @@ mod tests {
                 _ => cycles,
             };
             let pair = CountPair::new(cycles, ticks);
-            prop_assert_eq!(conv.shift_inline(pair), conv.shift(pair));
+            prop_assert_eq!(conv.shift_general(pair), conv.shift(pair));
+            // As `Front::checked_shift` takes it: on the gate's cycles.
+            if gate == Some(cycles) {
+                if let Some(s) = conv.gate_shortcut(ticks) {
+                    prop_assert_eq!(Ok(s), conv.shift(pair));
+                }
+            }
         }
 
         /// Any pair and rest point: never a panic; any success is within the

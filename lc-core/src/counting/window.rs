@@ -211,6 +211,10 @@ impl FaultWindow {
 
     /// The pair itself when it is plausible; the first failed check
     /// otherwise, in the order of the [`FaultError`] variants.
+    ///
+    /// Out of line: the readers take it only off their gate's accepted
+    /// ticks, and inlined it costs their fast paths registers.
+    #[inline(never)]
     pub fn check(&self, pair: CountPair) -> Result<CountPair, FaultError> {
         if pair.cycles == 0 {
             return Err(FaultError::NoOscillation);
@@ -221,15 +225,36 @@ impl FaultWindow {
         if pair.cycles < self.min_cycles {
             return Err(FaultError::TooFewCycles);
         }
-        let scaled = mul_u32_wide(self.reference_hz, pair.cycles);
-        if scaled < mul_u32_wide(self.min_hz, pair.ticks) {
+        // On ARMv6-M the products through one out-of-line copy: the
+        // readers take this check only off their gate's accepted ticks,
+        // and three inlined products cost about 100 bytes of flash there.
+        let scaled = wide(self.reference_hz, pair.cycles);
+        if scaled < wide(self.min_hz, pair.ticks) {
             return Err(FaultError::FrequencyTooLow);
         }
-        if scaled > mul_u32_wide(self.max_hz, pair.ticks) {
+        if scaled > wide(self.max_hz, pair.ticks) {
             return Err(FaultError::FrequencyTooHigh);
         }
         Ok(pair)
     }
+}
+
+/// `a · b`, exact: on ARMv6-M through one out-of-line copy for the
+/// check's three products (each about 36 bytes inlined there), elsewhere
+/// the single multiply instruction inline.
+#[inline(always)]
+fn wide(a: u32, b: u32) -> u64 {
+    if crate::fixed::ARMV6M {
+        wide_out_of_line(a, b)
+    } else {
+        mul_u32_wide(a, b)
+    }
+}
+
+/// [`wide`]'s out-of-line copy (ARMv6-M).
+#[inline(never)]
+fn wide_out_of_line(a: u32, b: u32) -> u64 {
+    mul_u32_wide(a, b)
 }
 
 #[cfg(test)]

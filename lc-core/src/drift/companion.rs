@@ -91,8 +91,9 @@ impl Companion {
         if main.cycles != companion.cycles {
             return Err(CompanionError::GateMismatch);
         }
+        // The ratio's converter has no gate: its general path.
         self.ratio
-            .shift(CountPair::new(companion.ticks, main.ticks))
+            .shift_general(CountPair::new(companion.ticks, main.ticks))
             .map_err(CompanionError::Shift)
     }
 

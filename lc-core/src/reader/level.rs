@@ -292,11 +292,10 @@ impl<'a> LevelReader<'a> {
 /// One channel's shift through the front's fault window (a window fault
 /// is [`SensorFault::Counts`]): the probe's with the front's converter, the
 /// reference electrode's with its own. Out of line: one copy of the
-/// window check and the shift for both channels. `Front::checked_shift`
-/// with the general [`ShiftConverter::shift`] behind the full check
-/// instead of its inlined gate case: the same results (`shift` has the
-/// gate case too), one copy of the gate case less, and a pair of the
-/// common path (in the gate's tick band) never gets there.
+/// window check and the shift for both channels: `Front::checked_shift`
+/// with the full check and the general path (`shift_general`) in a cold
+/// routine of their own, which a pair of the common path (in the gate's
+/// tick band) never reaches. The same results.
 #[inline(never)]
 fn channel_shift(
     front: &Front,
@@ -305,7 +304,10 @@ fn channel_shift(
 ) -> Result<Shift, SensorFault> {
     if let Some(a) = &front.accepted {
         if a.contains(pair) {
-            return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
+            if let Some(s) = conv.gate_shortcut(pair.ticks) {
+                return Ok(s);
+            }
+            return conv.shift_general(pair).map_err(SensorFault::Shift);
         }
     }
     checked_shift_slow(front, conv, pair)
@@ -321,5 +323,5 @@ fn checked_shift_slow(
     pair: CountPair,
 ) -> Result<Shift, SensorFault> {
     front.window.check(pair).map_err(SensorFault::Counts)?;
-    conv.shift(pair).map_err(SensorFault::Shift)
+    conv.shift_general(pair).map_err(SensorFault::Shift)
 }

@@ -359,13 +359,22 @@ impl Front {
         pair: CountPair,
         window: impl FnOnce(FaultError) -> SensorFault,
     ) -> Result<Shift, SensorFault> {
+        // A pair inside the accepted ticks has the gate's cycles (the
+        // band's gate and the converter's are the image's one gate): the
+        // shortcut, inlined (its one copy per call). Any other pair: the
+        // full check and the general path (off the accepted ticks no pair
+        // of the gate's cycles passes the window, and the shortcut gives
+        // what the general path gives).
         if let Some(a) = &self.accepted {
             if a.contains(pair) {
-                return conv.shift_at_gate(pair.ticks).map_err(SensorFault::Shift);
+                if let Some(s) = conv.gate_shortcut(pair.ticks) {
+                    return Ok(s);
+                }
+                return conv.shift_general(pair).map_err(SensorFault::Shift);
             }
         }
         self.window.check(pair).map_err(window)?;
-        conv.shift_inline(pair).map_err(SensorFault::Shift)
+        conv.shift_general(pair).map_err(SensorFault::Shift)
     }
 
     /// The sensor channel's shift, through the fault window, without the
