@@ -451,7 +451,7 @@ fn reciprocal_word_steps(d: u32) -> (u32, ReciprocalSteps) {
 pub(crate) const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
 /// Leading zeros of a `u32`. ARMv6-M has no count-leading-zeros
-/// instruction; there two halving steps and a 256-byte table inline
+/// instruction; there three halving steps and a 16-entry table inline
 /// ([`leading_zeros_steps`]) replace the library's count, a call of about
 /// 30 instructions.
 #[inline]
@@ -476,20 +476,14 @@ fn leading_zeros_steps(x: u32) -> u32 {
     let v = x << z16;
     let z8 = if v >> 24 == 0 { 8 } else { 0 };
     let v = v << z8;
-    z16 + z8 + u32::from(LEADING_ZEROS_OF_BYTE[(v >> 24) as usize])
+    let z4 = if v >> 28 == 0 { 4 } else { 0 };
+    let v = v << z4;
+    z16 + z8 + z4 + u32::from(LEADING_ZEROS_OF_NIBBLE[(v >> 28) as usize])
 }
 
-/// Leading zeros of each byte value (8 for 0): the last three steps of
-/// [`leading_zeros_steps`] as one load. 256 bytes of flash.
-const LEADING_ZEROS_OF_BYTE: [u8; 256] = {
-    let mut table = [0u8; 256];
-    let mut b = 0;
-    while b < 256 {
-        table[b] = (b as u8).leading_zeros() as u8;
-        b += 1;
-    }
-    table
-};
+/// Leading zeros of each 4-bit value (4 for 0): the last two steps of
+/// [`leading_zeros_steps`] as one load. 16 bytes of flash.
+const LEADING_ZEROS_OF_NIBBLE: [u8; 16] = [4, 3, 2, 2, 1, 1, 1, 1, 0, 0, 0, 0, 0, 0, 0, 0];
 
 /// Leading zeros of a `u64`. On ARMv6-M a binary search on the words
 /// ([`leading_zeros_words`]) replaces the library's count, a call of about
