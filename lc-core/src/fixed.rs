@@ -451,7 +451,7 @@ fn reciprocal_word_steps(d: u32) -> (u32, ReciprocalSteps) {
 pub(crate) const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
 
 /// Leading zeros of a `u32`. ARMv6-M has no count-leading-zeros
-/// instruction; there three halving steps and a 16-entry table inline
+/// instruction; there two halving steps and a 128-byte table inline
 /// ([`leading_zeros_steps`]) replace the library's count, a call of about
 /// 30 instructions.
 #[inline]
@@ -476,14 +476,24 @@ fn leading_zeros_steps(x: u32) -> u32 {
     let v = x << z16;
     let z8 = if v >> 24 == 0 { 8 } else { 0 };
     let v = v << z8;
-    let z4 = if v >> 28 == 0 { 4 } else { 0 };
-    let v = v << z4;
-    z16 + z8 + z4 + u32::from(LEADING_ZEROS_OF_NIBBLE[(v >> 28) as usize])
+    // The top byte is 1..=255 here; its top seven bits index the table.
+    z16 + z8 + u32::from(LEADING_ZEROS_OF_HALF_BYTE[(v >> 25) as usize])
 }
 
-/// Leading zeros of each 4-bit value (4 for 0): the last two steps of
-/// [`leading_zeros_steps`] as one load. 16 bytes of flash.
-const LEADING_ZEROS_OF_NIBBLE: [u8; 16] = [4, 3, 2, 2, 1, 1, 1, 1, 0, 0, 0, 0, 0, 0, 0, 0];
+/// The leading zeros of a byte value 1..=255 from its top seven bits i
+/// (b = 2i or 2i + 1): those of 2i for i ≥ 1, 7 (b = 1) for i = 0. The
+/// last three steps of [`leading_zeros_steps`] as one load, with the
+/// lowest bit, which never changes the count of a nonzero byte but 1,
+/// dropped: 128 bytes of flash instead of 256, and the same instructions.
+const LEADING_ZEROS_OF_HALF_BYTE: [u8; 128] = {
+    let mut table = [7u8; 128];
+    let mut i = 1;
+    while i < 128 {
+        table[i] = ((2 * i) as u8).leading_zeros() as u8;
+        i += 1;
+    }
+    table
+};
 
 /// Leading zeros of a `u64`. On ARMv6-M a binary search on the words
 /// ([`leading_zeros_words`]) replaces the library's count, a call of about
