@@ -1013,6 +1013,15 @@ mod tests {
             assert_eq!(shr_u64_words(x, 63), x >> 63);
             assert_eq!(leading_zeros_steps(x as u32), (x as u32).leading_zeros());
         }
+        // Every byte value at every place: each table entry, both values
+        // that share it, and each step's choice.
+        for b in 0u32..256 {
+            for sh in 0..=24 {
+                for x in [b << sh, (b << sh) | ((1 << sh) - 1)] {
+                    assert_eq!(leading_zeros_steps(x), x.leading_zeros(), "{x:#x}");
+                }
+            }
+        }
     }
 
     proptest! {
