@@ -1059,11 +1059,16 @@ impl<'a> Image<'a> {
     }
 }
 
-/// Whether every byte is erased flash (0xFF): by words where the bytes
-/// are aligned (after a validated image they are).
+/// Whether every byte is erased flash (0xFF): the whole words by words
+/// where they are aligned (after a validated image they are), the rest
+/// by bytes.
 fn erased(bytes: &[u8]) -> bool {
-    let (head, words, tail) = bytemuck::pod_align_to::<u8, u32>(bytes);
-    head.iter().chain(tail).all(|&b| b == 0xFF) && words.iter().all(|&w| w == u32::MAX)
+    let (head, tail) = bytes.split_at(bytes.len() & !3);
+    let (words, tail): (&[u32], &[u8]) = match bytemuck::try_cast_slice(head) {
+        Ok(words) => (words, tail),
+        Err(_) => (&[], bytes),
+    };
+    words.iter().all(|&w| w == u32::MAX) && tail.iter().all(|&b| b == 0xFF)
 }
 
 /// Embeds a calibration image file at a 4-byte aligned address, as
@@ -1668,6 +1673,27 @@ mod tests {
     use crate::curve::{pchip_derivatives, Node};
     use crate::shift::Shift;
     use proptest::prelude::*;
+
+    /// Erased flash is all 0xFF, at any start and length: whole words
+    /// by words, the rest (or all of a misaligned start) by bytes.
+    #[test]
+    fn erased_bytes_anywhere() {
+        let page = ImageBuf::from_bytes(&[0xFF; 64]).unwrap();
+        let all = page.as_bytes();
+        for start in 0..5 {
+            for end in start..all.len() {
+                assert!(erased(&all[start..end]));
+                for at in start..end {
+                    let mut dirty = page.clone();
+                    dirty.as_bytes_mut()[at] = 0x7F;
+                    assert!(
+                        !erased(&dirty.as_bytes()[start..end]),
+                        "{start}..{end}, byte {at}"
+                    );
+                }
+            }
+        }
+    }
 
     /// Catalogue check value and zlib vectors for CRC-32/ISO-HDLC (Cook,
     /// "Catalogue of parametrised CRC algorithms"; docs/references.md, CRC check values:

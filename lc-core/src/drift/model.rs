@@ -110,11 +110,15 @@ impl TemperatureModel {
             hi.0.wrapping_sub(reference.0)
                 .max(reference.0.wrapping_sub(lo.0)) as u32;
         // In units of 2^-56: |b1|·E·2^16 < 2^31·2^16·2^16 = 2^63 and
-        // |b2|·E² < 2^62; the sum fits u64.
-        let first = mul_u32_wide(b1.unsigned_abs(), e) << 16;
-        let second = mul_u32_wide(b2.unsigned_abs(), e.wrapping_mul(e));
+        // |b2|·E² < 2^62; the sum fits u64. E·2^16 < 2^32: both terms are
+        // products of two words, taken in one loop (one copy of the
+        // widening multiply).
+        let mut sum = 0u64;
+        for (b, f) in [(b1, e << 16), (b2, e.wrapping_mul(e))] {
+            sum = sum.wrapping_add(mul_u32_wide(b.unsigned_abs(), f));
+        }
         // |g| < 1/2 ⇔ below 2^55.
-        if first.wrapping_add(second) >= 1 << 55 {
+        if sum >= 1 << 55 {
             return Err(DriftError::CorrectionTooLarge);
         }
         Ok(Self { reference, b1, b2 })

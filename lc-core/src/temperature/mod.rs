@@ -87,7 +87,7 @@
 //! The constants (ln(R_s/R25) or ln R_s, 1/B, the coefficients in fixed
 //! point) are computed once, at construction. Tables: 64 × 2 `u32` and
 //! 32 `u64` for the logarithm, 259 `u32` for the reciprocal (1 804 bytes),
-//! and the 256-byte table of leading zeros shared with the other
+//! and the 128-byte table of leading zeros shared with the other
 //! normalisations. On a Cortex-M0 a Beta conversion costs 559.5
 //! instructions (docs/performance.md).
 //!
