@@ -407,7 +407,9 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
                 match built {
                     Ok(t) => {
                         {
-                            let curve = t.curve();
+                            // One view for the 1 001 points (a view checks its segments
+                            // once; the owned curve makes one per call).
+                            let curve = t.curve().view();
                             let err = (0..=1000)
                                 .map(|i| {
                                     let x = lo + (hi - lo) * f64::from(i) / 1000.0;
