@@ -5,10 +5,11 @@
 //! Order of effects per group of units: the group is fitted and judged
 //! (on every core), its attempts are committed in one transaction (the
 //! records hold the image bytes), then each passing unit's image file is
-//! written atomically and each failing unit's image file is removed, under
-//! the database's write lock. The image files of one group are written,
-//! and the next group's units read from the rig log, while the next group
-//! is fitted; no unit is judged before the group ahead of it is committed.
+//! written whole or not at all and each failing unit's image file is
+//! removed, under the database's write lock. The image files of one group
+//! are written while the next group is fitted, and a reader thread reads
+//! the rig log at most one group ahead; no unit is judged before the group
+//! ahead of it is committed.
 //! So a run killed at any moment loses at most the units of the one group
 //! not yet committed (at most [`LotRun::group_units`]), never part of one,
 //! and leaves no image file that disagrees with a committed record except
@@ -924,10 +925,10 @@ impl<R: Read> Intake<'_, R> {
 ///
 /// One group at a time is judged and not yet committed: while a group is
 /// fitted (on every core), this thread brings the images folder to the
-/// group committed before and reads the next group's units from the rig
-/// log, neither of which judges anything. A kill therefore loses at most
-/// the units of one group (the one being fitted or committed), never part
-/// of one.
+/// group committed before, and a reader thread reads the rig log's units
+/// into groups at most one group ahead; neither judges anything. A kill
+/// therefore loses at most the units of one group (the one being fitted or
+/// committed), never part of one.
 ///
 /// # Errors
 /// [`LotError`] for the database, the rig log's file and the images
