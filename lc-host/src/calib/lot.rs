@@ -615,6 +615,14 @@ fn judge_unit(
     let image = match (&fit, reasons.is_empty()) {
         (
             Some(UnitFit {
+                calibration: Some(_),
+                image: Some(bytes),
+                ..
+            }),
+            true,
+        ) => Some(bytes.clone()),
+        (
+            Some(UnitFit {
                 calibration: Some(cal),
                 ..
             }),
