@@ -11,22 +11,35 @@
 # LC_STATION_ONE_UNIT=0 skips the run with one unit per transaction (for
 # interleaving short runs of two builds).
 #
-# Each run writes a fresh images folder; the folders are removed at the
-# end, not between runs: on ext4 without a journal, creating a file within
-# about 10 s of deleting many costs the kernel a scan past every recently
-# deleted inode (ext4's recently_deleted), which would charge one run for
-# the clean-up of the one before.
+# Each run writes a fresh images folder under $TMPDIR/lc-station-bench-images
+# and the benchmark deletes none of them: on ext4 without a journal, the
+# kernel does not reuse an inode number freed in the last 60 s (360 s while
+# its inode table block is not yet written back), and every new file's
+# allocation steps past all of them (ext4's recently_deleted), so a run
+# started within minutes of deleting the 10 000 files of an earlier run pays
+# for that deletion (docs/performance.md, "Station throughput"). A station
+# keeps its images folder; it does not delete tens of thousands of files
+# minutes before each lot. `throughput.sh clean` deletes the folders (then
+# wait 6 minutes before measuring again on such a file system); the space
+# they take is printed at the end.
 #
 # Needs GNU time (/usr/bin/time, Debian package "time") and bc.
 # PostgreSQL: set LC_TEST_POSTGRES_URL (as .ci/run exports it) to also
 # measure against that server; each run uses a fresh database schema.
 set -euo pipefail
 cd "$(dirname "$0")/../.."
+work=${TMPDIR:-/tmp}/lc-station-bench
+images=$work-images
+if [ "${1:-}" = clean ]; then
+    rm -rf "$images"
+    echo "removed $images; on ext4 without a journal, wait 6 minutes before measuring"
+    exit 0
+fi
 units=${1:-10000}
 runs=${2:-3}
-work=${TMPDIR:-/tmp}/lc-station-bench
 rm -rf "$work"
-mkdir -p "$work"
+mkdir -p "$work" "$images"
+stamp=$(date +%s)
 if [ -n "${LC_HOST_BIN:-}" ]; then
     bin=$LC_HOST_BIN
 else
@@ -45,7 +58,7 @@ echo "cores: $(nproc); load before: $(cut -d' ' -f1-3 /proc/loadavg)"
 one() { # label, db, extra args...
     local label=$1 db=$2; shift 2
     run_no=$((${run_no:-0} + 1))
-    local img="$work/img-$run_no"
+    local img="$images/img-$stamp-$run_no"
     local code=0
     /usr/bin/time -f "%e %U %S" -o "$work/time.txt" \
         "$bin" calibrate "$work/rig.csv" --plan "$plan" --lot BENCH --db "$db" \
@@ -82,4 +95,4 @@ if [ -n "${LC_TEST_POSTGRES_URL:-}" ]; then
 else
     echo "postgresql: skipped (set LC_TEST_POSTGRES_URL)"
 fi
-rm -rf "$work"/img-*
+echo "images folders kept: $(du -sh "$images" | cut -f1) in $images (bash $0 clean removes them)"

@@ -13,11 +13,10 @@
 
 use crate::csvin::{CsvInput, InputError, Row};
 use lc_core::counting::CountPair;
-use std::cell::RefCell;
 use std::collections::HashSet;
 use std::io::Read;
 use std::path::Path;
-use std::rc::Rc;
+use std::sync::{Arc, Mutex, MutexGuard};
 
 /// One rig step.
 #[derive(Clone, Debug, PartialEq)]
@@ -73,7 +72,7 @@ pub struct RigLogReader<R: Read> {
     pending: Option<(String, Result<RigRow, InputError>)>,
     done: HashSet<String>,
     file_error: Option<InputError>,
-    lines: Rc<RefCell<LineMap>>,
+    lines: Arc<Mutex<LineMap>>,
 }
 
 /// Normalises line endings and takes out comment and empty lines before
@@ -95,7 +94,7 @@ pub struct LineEndings<R> {
     state: LineState,
     /// Lines handed on so far (complete ones).
     emitted: u64,
-    map: Rc<RefCell<LineMap>>,
+    map: Arc<Mutex<LineMap>>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -124,6 +123,13 @@ impl LineMap {
     }
 }
 
+/// The line map, even after a thread panicked holding it (the map is only
+/// ever appended to, whole entries at a time).
+fn lock(map: &Mutex<LineMap>) -> MutexGuard<'_, LineMap> {
+    map.lock()
+        .unwrap_or_else(std::sync::PoisonError::into_inner)
+}
+
 impl<R: Read> LineEndings<R> {
     /// Wraps `inner`.
     pub fn new(inner: R) -> Self {
@@ -135,18 +141,19 @@ impl<R: Read> LineEndings<R> {
             pending_cr: false,
             state: LineState::Start,
             emitted: 0,
-            map: Rc::default(),
+            map: Arc::default(),
         }
     }
 
-    /// The line map, filled as the text is read.
-    pub fn map(&self) -> Rc<RefCell<LineMap>> {
-        Rc::clone(&self.map)
+    /// The line map, filled as the text is read (shared, so that a reader
+    /// may move to another thread).
+    pub fn map(&self) -> Arc<Mutex<LineMap>> {
+        Arc::clone(&self.map)
     }
 
     fn skip_line(&mut self) {
         let next = self.emitted + 1;
-        let mut map = self.map.borrow_mut();
+        let mut map = lock(&self.map);
         match map.jumps.last_mut() {
             Some((from, skipped)) if *from == next => *skipped += 1,
             last => {
@@ -277,7 +284,7 @@ impl<R: Read> RigLogReader<R> {
                 let serial = row.text(c.serial).to_string();
                 let parsed = parse(&row, c)
                     .map(|mut r| {
-                        r.line = lines.borrow().file_line(r.line);
+                        r.line = lock(lines).file_line(r.line);
                         r
                     })
                     .map_err(|e| file_line(lines, e));
@@ -294,9 +301,9 @@ impl<R: Read> RigLogReader<R> {
 }
 
 /// An input error with the file's own line number.
-fn file_line(lines: &Rc<RefCell<LineMap>>, mut e: InputError) -> InputError {
+fn file_line(lines: &Mutex<LineMap>, mut e: InputError) -> InputError {
     if let InputError::BadField { line, .. } | InputError::Csv { line, .. } = &mut e {
-        *line = lines.borrow().file_line(*line);
+        *line = lock(lines).file_line(*line);
     }
     e
 }

@@ -86,6 +86,38 @@ impl LeastSquares {
 /// columns or is rank deficient (a column's norm after elimination below
 /// 1e-12 of the largest column norm).
 pub fn least_squares(a: &Matrix, b: &[f64]) -> Option<LeastSquares> {
+    let Qr { x, r, y } = qr_solve(a, b)?;
+    let n = a.cols;
+    let rss: f64 = y[n..].iter().map(|v| v * v).sum();
+    // (AᵀA)⁻¹ = R⁻¹R⁻ᵀ.
+    let mut rinv = vec![0.0; n * n];
+    for j in 0..n {
+        rinv[j * n + j] = 1.0 / r[j * n + j];
+        for i in (0..j).rev() {
+            let s: f64 = (i + 1..=j).map(|k| r[i * n + k] * rinv[k * n + j]).sum();
+            rinv[i * n + j] = -s / r[i * n + i];
+        }
+    }
+    let mut inv_normal = vec![0.0; n * n];
+    for i in 0..n {
+        for j in 0..n {
+            inv_normal[i * n + j] = (0..n).map(|k| rinv[i * n + k] * rinv[j * n + k]).sum();
+        }
+    }
+    Some(LeastSquares { x, rss, inv_normal })
+}
+
+/// The QR solution of [`least_squares`] without what its uncertainty
+/// needs: x, R (row-major, `a`'s shape) and Qᵀb.
+struct Qr {
+    x: Vec<f64>,
+    r: Vec<f64>,
+    y: Vec<f64>,
+}
+
+/// Householder QR and back substitution (see [`least_squares`]); the
+/// active-set steps of [`nnls`] need only x.
+fn qr_solve(a: &Matrix, b: &[f64]) -> Option<Qr> {
     let (m, n) = (a.rows, a.cols);
     if m < n || b.len() != m || n == 0 {
         return None;
@@ -125,23 +157,7 @@ pub fn least_squares(a: &Matrix, b: &[f64]) -> Option<LeastSquares> {
         let s: f64 = (k + 1..n).map(|c| r[k * n + c] * x[c]).sum();
         x[k] = (y[k] - s) / r[k * n + k];
     }
-    let rss: f64 = y[n..].iter().map(|v| v * v).sum();
-    // (AᵀA)⁻¹ = R⁻¹R⁻ᵀ.
-    let mut rinv = vec![0.0; n * n];
-    for j in 0..n {
-        rinv[j * n + j] = 1.0 / r[j * n + j];
-        for i in (0..j).rev() {
-            let s: f64 = (i + 1..=j).map(|k| r[i * n + k] * rinv[k * n + j]).sum();
-            rinv[i * n + j] = -s / r[i * n + i];
-        }
-    }
-    let mut inv_normal = vec![0.0; n * n];
-    for i in 0..n {
-        for j in 0..n {
-            inv_normal[i * n + j] = (0..n).map(|k| rinv[i * n + k] * rinv[j * n + k]).sum();
-        }
-    }
-    Some(LeastSquares { x, rss, inv_normal })
+    Some(Qr { x, r, y })
 }
 
 /// Non-negative least squares: x ≥ 0 minimising |A·x − b| (Lawson &
@@ -179,7 +195,7 @@ pub fn nnls(a: &Matrix, b: &[f64]) -> Option<Vec<f64>> {
         // Inner loop: keep the passive set feasible.
         for _ in 0..3 * n.max(1) {
             let cols: Vec<usize> = (0..n).filter(|&i| passive[i]).collect();
-            let z_p = least_squares(&a.select(&cols), b)?.x;
+            let z_p = qr_solve(&a.select(&cols), b)?.x;
             let mut z = vec![0.0; n];
             for (&c, &v) in cols.iter().zip(&z_p) {
                 z[c] = v;

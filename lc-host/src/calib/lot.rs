@@ -5,10 +5,11 @@
 //! Order of effects per group of units: the group is fitted and judged
 //! (on every core), its attempts are committed in one transaction (the
 //! records hold the image bytes), then each passing unit's image file is
-//! written atomically and each failing unit's image file is removed, under
-//! the database's write lock. The image files of one group are written,
-//! and the next group's units read from the rig log, while the next group
-//! is fitted; no unit is judged before the group ahead of it is committed.
+//! written whole or not at all and each failing unit's image file is
+//! removed, under the database's write lock. The image files of one group
+//! are written while the next group is fitted, and a reader thread reads
+//! the rig log at most one group ahead; no unit is judged before the group
+//! ahead of it is committed.
 //! So a run killed at any moment loses at most the units of the one group
 //! not yet committed (at most [`LotRun::group_units`]), never part of one,
 //! and leaves no image file that disagrees with a committed record except
@@ -614,6 +615,14 @@ fn judge_unit(
     let image = match (&fit, reasons.is_empty()) {
         (
             Some(UnitFit {
+                calibration: Some(_),
+                image: Some(bytes),
+                ..
+            }),
+            true,
+        ) => Some(bytes.clone()),
+        (
+            Some(UnitFit {
                 calibration: Some(cal),
                 ..
             }),
@@ -681,17 +690,83 @@ fn write_image(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     written
 }
 
+/// How [`create_image`] ended.
+#[derive(Debug, PartialEq, Eq)]
+enum Created {
+    /// The file is in place, whole.
+    Linked,
+    /// A file of that name appeared meanwhile, or the system cannot
+    /// create files unnamed: nothing was written.
+    NotDone,
+}
+
+/// Creates a new image file whole, where no file of that name exists: on
+/// Linux the file is created unnamed in the folder (`O_TMPFILE`), written,
+/// and only then linked under its name, so a killed process leaves nothing
+/// (the kernel frees the unnamed file) and the folder never shows part of
+/// an image. It saves the temporary name that [`write_image`] adds and
+/// removes (two directory updates per unit). [`Created::NotDone`] where the
+/// file system cannot do it or the name is taken.
+#[cfg(target_os = "linux")]
+fn create_image(path: &Path, bytes: &[u8]) -> std::io::Result<Created> {
+    use rustix::fs::{linkat, openat, AtFlags, Mode, OFlags, CWD};
+    use rustix::io::Errno;
+    use std::io::Write;
+    use std::os::fd::AsRawFd;
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d,
+        _ => Path::new("."),
+    };
+    let fd = match openat(
+        CWD,
+        dir,
+        OFlags::WRONLY | OFlags::TMPFILE | OFlags::CLOEXEC,
+        Mode::from_bits_truncate(0o666),
+    ) {
+        Ok(fd) => fd,
+        // No O_TMPFILE on this file system (or kernel).
+        Err(Errno::OPNOTSUPP | Errno::ISDIR | Errno::INVAL | Errno::NOENT) => {
+            return Ok(Created::NotDone)
+        }
+        Err(e) => return Err(e.into()),
+    };
+    let mut file = std::fs::File::from(fd);
+    file.write_all(bytes)?;
+    let me = format!("/proc/self/fd/{}", file.as_raw_fd());
+    match linkat(CWD, me.as_str(), CWD, path, AtFlags::SYMLINK_FOLLOW) {
+        Ok(()) => Ok(Created::Linked),
+        // The name is taken (another writer), or no /proc to link from.
+        Err(Errno::EXIST | Errno::NOENT) => Ok(Created::NotDone),
+        Err(e) => Err(e.into()),
+    }
+}
+
+/// Elsewhere: always [`write_image`].
+#[cfg(not(target_os = "linux"))]
+fn create_image(_path: &Path, _bytes: &[u8]) -> std::io::Result<Created> {
+    Ok(Created::NotDone)
+}
+
 /// Brings one unit's image file to its verdict: writes `image`, or
 /// removes a stale file when there is none. Skips the write when the file
-/// already holds exactly these bytes.
+/// already holds exactly these bytes; a file that is not there yet is
+/// created whole ([`create_image`]), one that differs is replaced
+/// ([`write_image`]).
 fn sync_image(dir: &Path, serial: &str, image: Option<&[u8]>) -> Result<Option<PathBuf>, String> {
     let path = dir.join(image_file_name(serial));
     match image {
         Some(bytes) => {
-            if std::fs::read(&path).is_ok_and(|old| old == bytes) {
-                return Ok(Some(path));
-            }
-            write_image(&path, bytes)
+            let written = match std::fs::read(&path) {
+                Ok(old) if old == bytes => return Ok(Some(path)),
+                Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                    create_image(&path, bytes).and_then(|c| match c {
+                        Created::Linked => Ok(()),
+                        Created::NotDone => write_image(&path, bytes),
+                    })
+                }
+                _ => write_image(&path, bytes),
+            };
+            written
                 .map(|()| Some(path.clone()))
                 .map_err(|e| format!("image file {} not written: {e}; the passing record is in the database (lc-host units export {serial})", path.display()))
         }
@@ -711,7 +786,7 @@ fn sync_image(dir: &Path, serial: &str, image: Option<&[u8]>) -> Result<Option<P
 ///
 /// # Errors
 /// As [`run_lot`].
-pub fn calibrate_lot<R: Read>(
+pub fn calibrate_lot<R: Read + Send>(
     reader: RigLogReader<R>,
     lot: &str,
     plan: &Plan,
@@ -724,15 +799,14 @@ pub fn calibrate_lot<R: Read>(
 
 /// Fits and judges a group of units on `workers` threads (units are
 /// independent; each thread takes the next unit not yet taken), in the
-/// group's order. Runs `meanwhile` on the calling thread during the fits,
-/// with a test of whether every unit has been taken.
+/// group's order. Runs `meanwhile` on the calling thread during the fits.
 fn judge_group<T>(
     group: &Group,
     workers: usize,
     lot: &str,
     plan: &Plan,
     trace: Option<&Traceability>,
-    meanwhile: impl FnOnce(&dyn Fn() -> bool) -> T,
+    meanwhile: impl FnOnce() -> T,
 ) -> (Vec<Judged>, T) {
     let n = group.units.len();
     let next = std::sync::atomic::AtomicUsize::new(0);
@@ -755,7 +829,7 @@ fn judge_group<T>(
                 })
             })
             .collect();
-        let other = meanwhile(&|| next.load(std::sync::atomic::Ordering::Relaxed) >= n);
+        let other = meanwhile();
         let mut slots: Vec<Option<Judged>> = (0..n).map(|_| None).collect();
         for h in handles {
             match h.join() {
@@ -812,9 +886,10 @@ struct Intake<'a, R: Read> {
 }
 
 impl<R: Read> Intake<'_, R> {
-    /// Reads units into `g` until it is complete or `stop()` says so.
-    fn fill(&mut self, g: &mut Group, stop: &dyn Fn() -> bool) {
-        while !g.complete(self.group_units) && !stop() {
+    /// Reads the next group's units until it is complete.
+    fn fill(&mut self) -> Group {
+        let mut g = Group::default();
+        while !g.complete(self.group_units) {
             let Some(unit) = self.reader.next() else {
                 g.end = true;
                 break;
@@ -845,6 +920,7 @@ impl<R: Read> Intake<'_, R> {
             g.units.push(unit);
             g.clashes.push(clash);
         }
+        g
     }
 }
 
@@ -857,15 +933,15 @@ impl<R: Read> Intake<'_, R> {
 ///
 /// One group at a time is judged and not yet committed: while a group is
 /// fitted (on every core), this thread brings the images folder to the
-/// group committed before and reads the next group's units from the rig
-/// log, neither of which judges anything. A kill therefore loses at most
-/// the units of one group (the one being fitted or committed), never part
-/// of one.
+/// group committed before, and a reader thread reads the rig log's units
+/// into groups at most one group ahead; neither judges anything. A kill
+/// therefore loses at most the units of one group (the one being fitted or
+/// committed), never part of one.
 ///
 /// # Errors
 /// [`LotError`] for the database, the rig log's file and the images
 /// folder; a unit's own problems are its reasons, never an error.
-pub fn run_lot<R: Read>(
+pub fn run_lot<R: Read + Send>(
     mut reader: RigLogReader<R>,
     run: &LotRun<'_>,
     plan: &Plan,
@@ -931,7 +1007,12 @@ pub fn run_lot<R: Read>(
 const CHECKPOINT_UNITS: usize = 600;
 
 /// The groups of [`run_lot`]: returns the selected serials seen.
-fn groups<R: Read>(
+///
+/// A reader thread reads the rig log into groups, at most one complete
+/// group ahead of the one being fitted (rig rows only: nothing is judged
+/// before it is the group in turn), so that parsing runs while this thread
+/// commits, when the fitters are idle.
+fn groups<R: Read + Send>(
     reader: &mut RigLogReader<R>,
     run: &LotRun<'_>,
     plan: &Plan,
@@ -941,7 +1022,6 @@ fn groups<R: Read>(
     on_unit: &mut impl FnMut(&UnitOutcome),
 ) -> Result<HashSet<String>, LotError> {
     let workers = std::thread::available_parallelism().map_or(1, usize::from);
-    let mut since_checkpoint = 0;
     let mut intake = Intake {
         reader,
         run,
@@ -951,40 +1031,68 @@ fn groups<R: Read>(
         not_selected: 0,
         group_units: run.group_units.max(1),
     };
+    std::thread::scope(|s| {
+        let (tx, rx) = std::sync::mpsc::sync_channel::<Group>(1);
+        let reading = s.spawn(move || {
+            loop {
+                let g = intake.fill();
+                let end = g.end;
+                // A closed channel: the lot stopped on an error.
+                if tx.send(g).is_err() || end {
+                    break;
+                }
+            }
+            (intake.seen_selected, intake.not_selected)
+        });
+        let out = judge_groups(&rx, workers, run, plan, store, report, on_unit);
+        drop(rx);
+        let (seen_selected, not_selected) = match reading.join() {
+            Ok(v) => v,
+            Err(p) => std::panic::resume_unwind(p),
+        };
+        report.not_selected = not_selected;
+        out.map(|()| seen_selected)
+    })
+}
+
+/// Fits, commits and files the groups that arrive on `groups` (see
+/// [`run_lot`] for the order of effects).
+fn judge_groups(
+    groups: &std::sync::mpsc::Receiver<Group>,
+    workers: usize,
+    run: &LotRun<'_>,
+    plan: &Plan,
+    store: &mut Store,
+    report: &mut LotReport,
+    on_unit: &mut impl FnMut(&UnitOutcome),
+) -> Result<(), LotError> {
+    let mut since_checkpoint = 0;
     // The group committed last, its image files not yet brought to its
     // records (nor its outcomes reported).
     let mut committed: Option<Committed> = None;
-    let mut next = Group::default();
-    intake.fill(&mut next, &|| false);
-    loop {
-        let mut group = std::mem::take(&mut next);
+    // A reader that stopped early (it panicked) ends the lot like the end
+    // of the rig log; the panic is raised when it is joined.
+    while let Ok(mut group) = groups.recv() {
         if group.units.is_empty() && group.after.is_none() {
             break;
         }
         let ended = group.end;
-        // While the group is fitted: the previous group's image files,
-        // then the next group's units (until every unit of this group has
-        // been taken by a fitter).
-        let (judged, filed) = judge_group(&group, workers, run.lot, plan, run.trace, |taken| {
+        // While the group is fitted: the previous group's image files and a
+        // checkpoint of the write-ahead log (the reader thread reads on).
+        let (judged, filed) = judge_group(&group, workers, run.lot, plan, run.trace, || {
             let filed = committed
                 .take()
                 .map_or(Ok(()), |c| file_group(c, run, store, report, on_unit));
-            // Checkpoints while the cores fit.
-            let filed = filed.and_then(|()| {
+            filed.and_then(|()| {
                 if since_checkpoint >= CHECKPOINT_UNITS {
                     since_checkpoint = 0;
                     store.checkpoint()?;
                 }
                 Ok(())
-            });
-            if filed.is_ok() && !ended {
-                intake.fill(&mut next, taken);
-            }
-            filed
+            })
         });
         filed?;
-        let done = !judged.is_empty();
-        if done {
+        if !judged.is_empty() {
             since_checkpoint += judged.len();
             committed = Some(record_group(judged, store)?);
         }
@@ -997,15 +1105,14 @@ fn groups<R: Read>(
             on_unit(&out);
             summarise(report, out);
         }
-        if !ended {
-            intake.fill(&mut next, &|| false);
+        if ended {
+            break;
         }
     }
     if let Some(c) = committed.take() {
         file_group(c, run, store, report, on_unit)?;
     }
-    report.not_selected = intake.not_selected;
-    Ok(intake.seen_selected)
+    Ok(())
 }
 
 /// A committed group: its attempts (with their images) and where each

@@ -19,6 +19,9 @@ use super::linalg::{nnls, Matrix};
 #[derive(Clone, Debug, PartialEq)]
 pub struct MonotoneFit {
     knots: Vec<f64>,
+    /// [`support`] of each basis function, once (evaluation runs over all
+    /// of them per point).
+    supports: Vec<(f64, f64, f64)>,
     weights: Vec<f64>,
     intercept: f64,
     direction: f64,
@@ -95,12 +98,13 @@ impl MonotoneFit {
             -1.0
         };
         let nb = knots.len();
+        let supports: Vec<(f64, f64, f64)> = (0..nb).map(|j| support(&knots, j)).collect();
         let mut data = Vec::with_capacity(x.len() * (nb + 2));
         for &xi in x {
             data.push(1.0);
             data.push(-1.0);
-            for j in 0..nb {
-                data.push(direction * ispline(xi, support(&knots, j)));
+            for &sp in &supports {
+                data.push(direction * ispline(xi, sp));
             }
         }
         let a = Matrix::new(x.len(), nb + 2, data)?;
@@ -109,6 +113,7 @@ impl MonotoneFit {
             intercept: w[0] - w[1],
             weights: w[2..].to_vec(),
             knots,
+            supports,
             direction,
         })
     }
@@ -120,8 +125,8 @@ impl MonotoneFit {
                 * self
                     .weights
                     .iter()
-                    .enumerate()
-                    .map(|(j, w)| w * ispline(x, support(&self.knots, j)))
+                    .zip(&self.supports)
+                    .map(|(w, &sp)| w * ispline(x, sp))
                     .sum::<f64>()
     }
 
@@ -131,8 +136,8 @@ impl MonotoneFit {
             * self
                 .weights
                 .iter()
-                .enumerate()
-                .map(|(j, w)| w * ispline_slope(x, support(&self.knots, j)))
+                .zip(&self.supports)
+                .map(|(w, &sp)| w * ispline_slope(x, sp))
                 .sum::<f64>()
     }
 

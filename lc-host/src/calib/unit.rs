@@ -91,6 +91,10 @@ pub struct UnitFit {
     /// The calibration, when one could be built.
     #[serde(skip)]
     pub calibration: Option<Calibration>,
+    /// The calibration's image as [`Calibration::encode`] writes it (the
+    /// check that it encodes made it), when there is a calibration.
+    #[serde(skip)]
+    pub image: Option<Vec<u8>>,
 }
 
 impl UnitFit {
@@ -407,7 +411,9 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
                 match built {
                     Ok(t) => {
                         {
-                            let curve = t.curve();
+                            // One view for the 1 001 points (a view checks its segments
+                            // once; the owned curve makes one per call).
+                            let curve = t.curve().view();
                             let err = (0..=1000)
                                 .map(|i| {
                                     let x = lo + (hi - lo) * f64::from(i) / 1000.0;
@@ -437,6 +443,7 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
         table,
         &mut reasons,
     );
+    let (calibration, image) = calibration.map_or((None, None), |(c, b)| (Some(c), Some(b)));
     let residuals = calibration
         .as_ref()
         .map_or_else(Vec::new, |cal| residuals(cal, &rows, step));
@@ -455,6 +462,7 @@ pub fn fit_unit(unit: &UnitLog, plan: &Plan) -> Result<(UnitFit, Vec<String>), V
         steps: rows.len(),
         output_step_m: step,
         calibration,
+        image,
     };
     Ok((fit, reasons))
 }
@@ -496,7 +504,7 @@ fn build_calibration(
     drift: &DriftFit,
     table: Option<Table>,
     reasons: &mut Vec<String>,
-) -> Option<Calibration> {
+) -> Option<(Calibration, Vec<u8>)> {
     let p = &plan.product;
     let serial = Serial::new(&unit.serial).or_else(|| {
         reasons.push(format!(
@@ -595,7 +603,7 @@ fn build_calibration(
     // The image must encode and parse back: the firmware will see exactly it.
     let mut buf = [0u8; lc_core::image::MAX_IMAGE_LEN];
     match cal.encode(&mut buf) {
-        Ok(_) => Some(cal),
+        Ok(n) => Some((cal, buf[..n].to_vec())),
         Err(e) => {
             reasons.push(format!("calibration image rejected: {e}"));
             None

@@ -1,6 +1,5 @@
 //! `lc-host calibrate`: a lot's rig log to images, unit records and a report.
 
-use super::open_input;
 use anyhow::{Context, Result};
 use lc_host::calib::lot::{
     run_lot, LotError, LotReport, LotRun, Traceability, DEFAULT_GROUP_UNITS,
@@ -345,9 +344,16 @@ fn run_inner(a: Args) -> Result<Exit, (Exit, anyhow::Error)> {
         operator: env_or(&a.operator, "LC_OPERATOR"),
     };
     let stdin_len = stdin_bytes.as_ref().map(|b| b.len() as u64);
-    let input: Box<dyn std::io::Read> = match stdin_bytes {
+    // Standard input was read whole for its hash; a file is read by the
+    // lot's reader thread.
+    let input: Box<dyn std::io::Read + Send> = match stdin_bytes {
         Some(bytes) => Box::new(std::io::Cursor::new(bytes)),
-        None => open_input(&a.rig_log, "rig log").map_err(config)?,
+        None => Box::new(std::io::BufReader::with_capacity(
+            1 << 16,
+            std::fs::File::open(&a.rig_log)
+                .with_context(|| format!("cannot open rig log {}", a.rig_log.display()))
+                .map_err(config)?,
+        )),
     };
     let reader = RigLogReader::new(input, &a.rig_log).map_err(|e| config(e.into()))?;
     let mut store = Store::open(&a.db).map_err(|e| classify(e.into()))?;
