@@ -231,19 +231,25 @@ impl<T: Copy + Ord> Detector<T> {
         self.presence = presence;
         Some(event)
     }
+}
 
+impl Detector<u32> {
     /// [`Detector::update`] of a detector built [`Polarity::Rising`] (the
-    /// metal reader's): the same result, with the polarity's test left
-    /// out.
+    /// metal reader's), for a `u64` sample against the 32-bit thresholds
+    /// (|shift − baseline| in Q23.40 against thresholds below 2^32),
+    /// compared as `u64`: the same result as a `Detector<u64>` holding the
+    /// same thresholds, in 8 bytes less, with the polarity's test left out.
     #[inline]
-    pub(crate) fn update_rising(&mut self, x: T) -> Option<Event> {
+    pub(crate) fn update_rising_wide(&mut self, x: u64) -> Option<Event> {
         let beyond = match self.presence {
-            Presence::Absent => x >= self.enter_threshold,
-            Presence::Present => x <= self.leave_threshold,
+            Presence::Absent => x >= u64::from(self.enter_threshold),
+            Presence::Present => x <= u64::from(self.leave_threshold),
         };
         self.advance(beyond)
     }
+}
 
+impl<T: Copy + Ord> Detector<T> {
     /// The debounce after the comparison: `beyond` counts towards the
     /// switch out of the current state.
     #[inline(always)]
@@ -526,15 +532,23 @@ mod tests {
             prop_assert_eq!(got, reference(&config, &xs));
         }
 
-        /// `update_rising` equals `update` on a rising detector.
+        /// `update_rising_wide` equals `update` of a rising `Detector<u64>`
+        /// with the same thresholds, samples on both sides of 2^32 included.
         #[test]
-        fn update_rising_equals_update(config in config(), xs in prop::collection::vec(-40i32..40, 0..300)) {
+        fn update_rising_wide_equals_update(config in config(), xs in prop::collection::vec(-40i32..40, 0..300), high: bool) {
             let config = DetectorConfig { polarity: Polarity::Rising, enter_threshold: config.enter_threshold.max(config.leave_threshold), leave_threshold: config.enter_threshold.min(config.leave_threshold) - 1, ..config };
-            let mut a = Detector::new(config).unwrap();
-            let mut b = a;
+            // Thresholds near 2^32 (or near 0), samples around them.
+            let base: u32 = if high { u32::MAX - 64 } else { 64 };
+            let at = |x: i32| base.wrapping_add_signed(x);
+            let narrow = DetectorConfig { polarity: Polarity::Rising, enter_threshold: at(config.enter_threshold), leave_threshold: at(config.leave_threshold), enter_samples: config.enter_samples, leave_samples: config.leave_samples };
+            let wide = DetectorConfig { polarity: Polarity::Rising, enter_threshold: u64::from(narrow.enter_threshold), leave_threshold: u64::from(narrow.leave_threshold), enter_samples: config.enter_samples, leave_samples: config.leave_samples };
+            let mut a = Detector::new(narrow).unwrap();
+            let mut b = Detector::new(wide).unwrap();
             for &x in &xs {
-                prop_assert_eq!(a.update_rising(x), b.update(x));
-                prop_assert_eq!(a, b);
+                let x = (u64::from(base) + 64).wrapping_add_signed(i64::from(x) * 3);
+                prop_assert_eq!(a.update_rising_wide(x), b.update(x));
+                prop_assert_eq!(a.presence(), b.presence());
+                prop_assert_eq!(a.pending_samples(), b.pending_samples());
             }
         }
 

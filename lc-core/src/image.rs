@@ -281,6 +281,13 @@ pub struct MetalParams {
     pub relearn_readings: u32,
 }
 
+impl MetalParams {
+    /// `enter_ppb` must be below this (validation): 3 906 250 ppb
+    /// (0.390 625 % of shift, 2^32 · 10^9 / 2^40), so that the detector's
+    /// thresholds in Q23.40 fit 32 bits.
+    pub const PPB_LIMIT: u32 = 3_906_250;
+}
+
 /// A unit serial: 1 to 16 printable ASCII characters.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -602,6 +609,7 @@ fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
         };
         let reserved_ok = r.u8(RESERVED_93) == Some(0);
         let valid = p.enter_ppb > 0
+            && p.enter_ppb < MetalParams::PPB_LIMIT
             && p.leave_ppb < p.enter_ppb
             && p.enter_samples > 0
             && p.leave_samples > 0
@@ -2019,6 +2027,13 @@ mod tests {
             mcase(&|i| i[METAL_ENTER_SAMPLES.at] = 0),
             Err(OutOfRange(Field::Metal))
         ); // zero debounce
+           // The enter threshold below the limit (its Q23.40 below 2^32).
+        let limit = MetalParams::PPB_LIMIT;
+        assert_eq!(
+            mcase(&|i| put(i, METAL_ENTER_PPB, &limit.to_le_bytes())),
+            Err(OutOfRange(Field::Metal))
+        );
+        assert!(mcase(&|i| put(i, METAL_ENTER_PPB, &(limit - 1).to_le_bytes())).is_ok());
         assert_eq!(
             mcase(&|i| i[RESERVED_93.at] = 1),
             Err(OutOfRange(Field::Reserved))

@@ -108,7 +108,7 @@
 //! |---|---:|---|---|---:|
 //! | `ProximityReader` | 168 | | `Image` | 12 |
 //! | `LevelReader` | 248 | | `ImageBuf` (image copied to RAM) | 4 200 |
-//! | `MetalReader` | 184 | | `CurveRef` | 28 |
+//! | `MetalReader` | 176 | | `CurveRef` | 28 |
 //! | `Reader` (all three kinds) | 256 | | `Input` | 32 |
 //! | `ProximityReading` | 16 | | `Reading` | 32 |
 //! | `LevelReading` | 32 | | `MetalReading` | 24 |

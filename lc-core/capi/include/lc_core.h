@@ -32,14 +32,14 @@
 #define LC_IMAGE_WORDS 2
 #define LC_PROXIMITY_READER_WORDS 18
 #define LC_LEVEL_READER_WORDS 28
-#define LC_METAL_READER_WORDS 20
+#define LC_METAL_READER_WORDS 19
 #define LC_READER_WORDS 29
 #elif UINTPTR_MAX == 0xFFFFFFFFFFFFFFFFu
 /* 64-bit hosts. */
 #define LC_IMAGE_WORDS 4
 #define LC_PROXIMITY_READER_WORDS 21
 #define LC_LEVEL_READER_WORDS 35
-#define LC_METAL_READER_WORDS 20
+#define LC_METAL_READER_WORDS 19
 #define LC_READER_WORDS 36
 #else
 #error "lc_core.h: storage sizes are known for 32-bit and 64-bit targets only"

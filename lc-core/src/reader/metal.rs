@@ -61,19 +61,23 @@ impl MetalReading {
 ///
 /// RAM: the front (fault window, shift converter, drift model and its
 /// cache, plausibility state), the two averages' states, the detector
-/// (thresholds in Q23.40, debounce counts and state), and the three
+/// (thresholds in Q23.40, 32 bits each, debounce counts and state), and the three
 /// parameters read per reading (k, `ring_drop`, `relearn_readings`):
-/// 152 bytes on a 32-bit target without the `companion` feature, 184 with
+/// 144 bytes on a 32-bit target without the `companion` feature, 176 with
 /// it (the crate docs, "Memory").
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+// In declaration order, the front last: the state `track` updates lies in
+// the first 128 bytes, where Thumb-1's word loads and stores reach it
+// with an immediate offset.
+#[repr(C)]
 pub struct MetalReader {
-    pub(super) front: Front,
     /// The shift baseline's state plus 2^16 (`filter::biased_shift_ema`:
     /// the output is `baseline >> 17`); [`UNLEARNED`] before the first
     /// sample and after a relearn (a state is at least −2^62 + 2^16).
     baseline: i64,
-    detector: Detector<u64>,
+    /// Thresholds in Q23.40, below 2^32 (`MetalParams::PPB_LIMIT`).
+    detector: Detector<u32>,
     /// The ring count's average, its `Ema<u16>` state (ring count ·
     /// 2^16); [`RING_UNLEARNED`] before the first ring count learned (a
     /// state is at most 2^32 − 2^16).
@@ -88,6 +92,7 @@ pub struct MetalReader {
     /// compiler sees k in 1..=16 and its shifts need no masks).
     k_minus_1: u8,
     class: MetalClass,
+    pub(super) front: Front,
 }
 
 /// [`MetalReader::baseline`] before the first sample.
@@ -104,8 +109,8 @@ const RING_UNLEARNED: u32 = u32::MAX;
 
 impl MetalReader {
     /// The reader of a metal image ([`ReaderError::WrongKind`] for another
-    /// kind). Cost: two small divisions (the thresholds to Q23.40), no
-    /// validation. RAM: 152 bytes on a 32-bit target, 184 with the
+    /// kind). Cost: the thresholds to Q23.40 (a few multiplies, no
+    /// division), no validation. RAM: 144 bytes on a 32-bit target, 176 with the
     /// `companion` feature (the crate docs, "Memory"); stack: the same,
     /// once.
     pub fn new(image: &Image<'_>) -> Result<Self, ReaderError> {
@@ -134,8 +139,8 @@ impl MetalReader {
     /// then the reader is written straight into `slot`, so no `Result<Self, _>`
     /// and no second copy of the reader is made. Returns the reader in
     /// `slot`; on an error `slot` is left as it was (uninitialised). Cost:
-    /// as [`MetalReader::new`]. RAM: `slot` (152 bytes on a 32-bit target,
-    /// 184 with the `companion` feature; the crate docs, "Memory"); stack:
+    /// as [`MetalReader::new`]. RAM: `slot` (144 bytes on a 32-bit target,
+    /// 176 with the `companion` feature; the crate docs, "Memory"); stack:
     /// no reader-sized temporary.
     pub fn init<'s>(
         slot: &'s mut MaybeUninit<Self>,
@@ -205,7 +210,7 @@ impl MetalReader {
         };
         let signal = if lossy { delta.unsigned_abs() } else { 0 };
         // The detector is rising (`metal_detector`).
-        let event = self.detector.update_rising(signal);
+        let event = self.detector.update_rising_wide(signal);
         if self.detector.is_present() {
             if event.is_some() {
                 self.class = if delta > 0 {
@@ -291,8 +296,8 @@ mod tests {
                 learned: false,
                 detector: Detector::new(DetectorConfig {
                     polarity: Polarity::Rising,
-                    enter_threshold: ppb_to_q40(params.enter_ppb),
-                    leave_threshold: ppb_to_q40(params.leave_ppb),
+                    enter_threshold: u64::from(ppb_to_q40(params.enter_ppb)),
+                    leave_threshold: u64::from(ppb_to_q40(params.leave_ppb)),
                     enter_samples: params.enter_samples,
                     leave_samples: params.leave_samples,
                 })

@@ -70,6 +70,7 @@ pub use proximity::{ProximityReader, ProximityReading};
 use crate::counting::{AcceptedTicks, CountPair, FaultError, FaultWindow};
 use crate::detector::{DetectorConfig, Polarity};
 use crate::drift::{Companion, CompanionError, DriftFactor, TemperatureModel};
+use crate::fixed::mul_u32_wide;
 #[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
 use crate::image::Image;
 use crate::image::{MetalParams, ReaderKind};
@@ -433,20 +434,25 @@ impl Front {
     }
 }
 
-/// Parts per billion of shift to Q23.40, rounded (start-up only).
-pub(crate) fn ppb_to_q40(ppb: u32) -> u64 {
-    // ppb · 2^40 / 10^9 = ppb · 2^31 / 5^9, in u64 (no 128-bit division
-    // on a 32-bit core): ppb · 2^31 + (5^9 − 1)/2 < 2^63. 5^9 is odd, so
-    // the quotient is never a tie: adding (5^9 − 1)/2 and truncating
-    // rounds to nearest, as rounding half up the exact quotient does.
-    const D: u32 = 1_953_125; // 5^9
-                              // A 64 ÷ 32-bit division (no library division on a Cortex-M0); D ≠ 0.
-    crate::fixed::div_rem_u64_u32((u64::from(ppb) << 31).wrapping_add(u64::from(D / 2)), D)
-        .map_or(0, |(q, _)| q)
+/// Parts per billion of shift to Q23.40 (start-up only), for `ppb` below
+/// [`MetalParams::PPB_LIMIT`] (validation): ppb · 2^40 / 10^9 = ppb ·
+/// 2^52 / 5^9 · 2^-21, by one 32 × 32-bit multiply with M = ⌊2^52 / 5^9⌋
+/// = 2 305 843 009, rounded half up. M is short of 2^52 / 5^9 by less than
+/// 0.214, so the result is the correctly rounded quotient or one below it
+/// (one unit of Q23.40 is 0.91 ppb), strictly increasing in `ppb` (each
+/// ppb adds about 1 099.5), and below 2^32 − 1 000 under the limit. Host
+/// and firmware share this conversion, so their detectors agree bit for
+/// bit.
+pub(crate) fn ppb_to_q40(ppb: u32) -> u32 {
+    const M: u32 = 2_305_843_009;
+    // ppb · M < 2^22 · 2^32: the sum cannot wrap, and the quotient by
+    // 2^21 is below 2^32 under the limit (wrapping outside it, where
+    // validation has refused the image).
+    (mul_u32_wide(ppb, M).wrapping_add(1 << 20) >> 21) as u32
 }
 
 /// The metal reader's detector configuration from its parameters.
-pub(crate) fn metal_detector(p: &MetalParams) -> DetectorConfig<u64> {
+pub(crate) fn metal_detector(p: &MetalParams) -> DetectorConfig<u32> {
     DetectorConfig {
         polarity: Polarity::Rising,
         enter_threshold: ppb_to_q40(p.enter_ppb),
@@ -458,12 +464,15 @@ pub(crate) fn metal_detector(p: &MetalParams) -> DetectorConfig<u64> {
 
 /// Whether the metal reader accepts these parameters (image validation:
 /// an image that validates builds its reader): its detector's
-/// configuration validates and k is in 1..=16. Without the divisions:
-/// [`ppb_to_q40`] is strictly increasing (it scales by 2^40/10^9 > 1
-/// before rounding), so the thresholds in Q23.40 are ordered exactly when
-/// the ppb values are (`MetalReader::new` relies on this check).
+/// configuration validates and k is in 1..=16, and the enter threshold is
+/// below [`MetalParams::PPB_LIMIT`] (both thresholds then fit the
+/// detector's `u32`). Without the conversion: [`ppb_to_q40`] is strictly
+/// increasing (it scales by 2^40/10^9 > 1 before rounding), so the
+/// thresholds in Q23.40 are ordered exactly when the ppb values are
+/// (`MetalReader::new` relies on this check).
 pub(crate) fn metal_builds(p: &MetalParams) -> bool {
     p.leave_ppb < p.enter_ppb
+        && p.enter_ppb < MetalParams::PPB_LIMIT
         && p.enter_samples > 0
         && p.leave_samples > 0
         && (1..=16).contains(&p.baseline_k)
@@ -568,21 +577,13 @@ pub(crate) mod tests {
     use proptest::prelude::*;
 
     proptest! {
-        /// `ppb_to_q40` in u64 is the correctly rounded ppb · 2^40 / 10^9
-        /// (the 128-bit division, half up).
-        #[test]
-        fn ppb_to_q40_is_the_rounded_quotient(ppb in any::<u32>()) {
-            let wide = crate::fixed::round_div_u128(u128::from(ppb) << 40, 1_000_000_000);
-            prop_assert_eq!(Some(u128::from(ppb_to_q40(ppb))), wide);
-        }
-
         /// `metal_builds` (comparisons of the ppb values) accepts exactly
         /// the parameters whose detector and baseline build (the
         /// thresholds converted to Q23.40 first); near-equal thresholds
         /// too.
         #[test]
         fn metal_builds_equals_building(
-            enter_ppb: u32,
+            enter_ppb in prop_oneof![0..MetalParams::PPB_LIMIT + 4, any::<u32>()],
             near in -2i64..=2,
             far: u32,
             enter_samples in 0u16..3,
@@ -604,18 +605,31 @@ pub(crate) mod tests {
                 ring_drop: 0,
                 relearn_readings: 0,
             };
-            let builds = crate::detector::Detector::new(metal_detector(&p)).is_ok()
+            // At or above the limit a threshold would not fit the
+            // detector's u32 (the conversion is defined below it only).
+            let builds = enter_ppb < MetalParams::PPB_LIMIT
+                && leave_ppb < MetalParams::PPB_LIMIT
+                && crate::detector::Detector::new(metal_detector(&p)).is_ok()
                 && crate::filter::Ema::<Shift>::new(u32::from(p.baseline_k)).is_ok();
             prop_assert_eq!(metal_builds(&p), builds);
         }
     }
 
+    /// `ppb_to_q40` is the correctly rounded ppb · 2^40 / 10^9 (the
+    /// 128-bit division, half up) or one below it for every ppb below the
+    /// limit, strictly increasing, and the largest is below 2^32.
     #[test]
-    fn ppb_to_q40_at_the_ends() {
-        for ppb in [0, 1, 2, 999_999_999, 1_000_000_000, u32::MAX - 1, u32::MAX] {
-            let wide = crate::fixed::round_div_u128(u128::from(ppb) << 40, 1_000_000_000);
-            assert_eq!(Some(u128::from(ppb_to_q40(ppb))), wide, "{ppb}");
+    fn ppb_to_q40_is_within_one_of_the_rounded_quotient_below_the_limit() {
+        let mut last = None;
+        for ppb in 0..MetalParams::PPB_LIMIT {
+            let wide = crate::fixed::round_div_u128(u128::from(ppb) << 40, 1_000_000_000).unwrap();
+            let q = u128::from(ppb_to_q40(ppb));
+            assert!(q == wide || q + 1 == wide, "{ppb}: {q} against {wide}");
+            assert!(last < Some(q), "{ppb}");
+            last = Some(q);
         }
+        // The limit is where the quotient would reach 2^32: 2^32 · 10^9 / 2^40.
+        assert_eq!(u64::from(MetalParams::PPB_LIMIT) << 40, 1_000_000_000 << 32);
     }
 
     /// The validated image of a calibration (its buffer leaked: tests

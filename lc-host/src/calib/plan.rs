@@ -508,6 +508,20 @@ impl Plan {
                     "enter must exceed leave, and leave be 0 or more".into(),
                 )
             }
+            (Kind::Metal, Some(m))
+                if (m.enter_ppm * 1e3).round()
+                    >= f64::from(lc_core::image::MetalParams::PPB_LIMIT) =>
+            {
+                return bad(
+                    "metal.enter_ppm",
+                    format!(
+                        "{} ppm is too large: a metal image holds thresholds below {} ppm \
+                         (0.390625 % of shift); lower enter_ppm",
+                        m.enter_ppm,
+                        f64::from(lc_core::image::MetalParams::PPB_LIMIT) / 1e3
+                    ),
+                )
+            }
             (Kind::Metal, Some(m)) if !(1..=16).contains(&m.baseline_k) => {
                 return bad(
                     "metal.baseline_k",
@@ -690,6 +704,17 @@ monotonic = true
         )
         .unwrap_err();
         assert!(e.to_string().contains("[metal]"), "{e}");
+        // An enter threshold the image cannot hold (3906.25 ppm and up).
+        let metal = |enter: &str| {
+            GOOD.replace("\"proximity\"", "\"metal\"")
+                + &format!(
+                    "[metal]\nenter_ppm = {enter}\nleave_ppm = 120.0\nenter_samples = 3\n\
+                     leave_samples = 5\nbaseline_k = 8\nring_drop = 2\nrelearn_readings = 0\n"
+                )
+        };
+        Plan::parse(&metal("3906.249"), Path::new("p.toml")).unwrap();
+        let e = Plan::parse(&metal("3906.25"), Path::new("p.toml")).unwrap_err();
+        assert!(e.to_string().contains("`metal.enter_ppm`"), "{e}");
     }
 
     /// Issue 14, defect 4: NaN limits passed every unit, min > max was
