@@ -11,20 +11,13 @@ use core::mem::MaybeUninit;
 
 #[path = "../../examples/unit-firmware/src/script.rs"]
 mod script;
+mod support;
 
-use lc_core::image::{ImageBuf, ReaderKind};
+use core::fmt::Debug;
+
+use lc_core::image::{Image, ImageBuf, ReaderKind};
 use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader, ReaderError};
-
-const IMAGES: [&[u8]; 8] = [
-    include_bytes!("../../examples/unit-firmware/data/proximity.lcim"),
-    include_bytes!("../../examples/unit-firmware/data/level.lcim"),
-    include_bytes!("../../examples/unit-firmware/data/metal.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-proximity.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-proximity-32.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-proximity-tc.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-level.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-metal.lcim"),
-];
+use support::IMAGES;
 
 /// Every script's inputs, whatever the image's kind (the others' are
 /// readings with faults or clamped values: the same from both readers).
@@ -35,72 +28,75 @@ fn inputs() -> impl Iterator<Item = &'static Input> {
         .chain(&script::METAL)
 }
 
+/// `new` and `init` of one reader on the image at `path`: the same reader
+/// (and the same readings of every input) where the image is of `kind`,
+/// the same `WrongKind` error where it is not. True where it built.
+fn init_matches_new<'a, R: PartialEq + Debug, O: PartialEq + Debug>(
+    path: &str,
+    image: &Image<'a>,
+    kind: ReaderKind,
+    new: fn(&Image<'a>) -> Result<R, ReaderError>,
+    init: for<'s> fn(&'s mut MaybeUninit<R>, &Image<'a>) -> Result<&'s mut R, ReaderError>,
+    read: fn(&mut R, &Input) -> O,
+) -> bool {
+    let reader = core::any::type_name::<R>()
+        .rsplit("::")
+        .next()
+        .unwrap_or("");
+    let case = format!("{reader}, image {path}");
+    let mut slot = MaybeUninit::uninit();
+    match (new(image), init(&mut slot, image)) {
+        (Ok(mut a), Ok(b)) => {
+            assert_eq!(image.kind(), kind, "{case}: built from another kind");
+            assert_eq!(&a, b, "{case}: init's reader");
+            for input in inputs() {
+                assert_eq!(read(&mut a, input), read(b, input), "{case}: {input:?}");
+            }
+            true
+        }
+        (Err(a), Err(b)) => {
+            assert_eq!(a, b, "{case}: init's error");
+            assert_eq!(b, ReaderError::WrongKind(image.kind()), "{case}: error");
+            false
+        }
+        (a, b) => panic!("{case}: new {a:?} and init {b:?} disagree"),
+    }
+}
+
 #[test]
 fn init_builds_what_new_returns() {
     let mut kinds = [0usize; 3];
-    for bytes in IMAGES {
+    for (path, bytes) in IMAGES {
         let buf = ImageBuf::from_bytes(bytes).expect("the committed image fits");
         let image = buf.image().expect("the committed image is valid");
-        let kind = image.kind();
-
-        let mut slot = MaybeUninit::uninit();
-        match (
-            ProximityReader::new(&image),
-            ProximityReader::init(&mut slot, &image),
-        ) {
-            (Ok(mut a), Ok(b)) => {
-                assert_eq!(kind, ReaderKind::Proximity);
-                assert_eq!(&a, b);
-                for input in inputs() {
-                    assert_eq!(a.read(input), b.read(input));
-                }
-                kinds[0] += 1;
-            }
-            (Err(a), Err(b)) => {
-                assert_eq!(a, b);
-                assert_eq!(b, ReaderError::WrongKind(kind));
-            }
-            (a, b) => panic!("new {a:?} and init {b:?} disagree on a {kind:?} image"),
-        }
-
-        let mut slot = MaybeUninit::uninit();
-        match (
-            LevelReader::new(&image),
-            LevelReader::init(&mut slot, &image),
-        ) {
-            (Ok(mut a), Ok(b)) => {
-                assert_eq!(kind, ReaderKind::Level);
-                assert_eq!(&a, b);
-                for input in inputs() {
-                    assert_eq!(a.read(input), b.read(input));
-                }
-                kinds[1] += 1;
-            }
-            (Err(a), Err(b)) => {
-                assert_eq!(a, b);
-                assert_eq!(b, ReaderError::WrongKind(kind));
-            }
-            (a, b) => panic!("new {a:?} and init {b:?} disagree on a {kind:?} image"),
-        }
-
-        let mut slot = MaybeUninit::uninit();
-        match (
-            MetalReader::new(&image),
-            MetalReader::init(&mut slot, &image),
-        ) {
-            (Ok(mut a), Ok(b)) => {
-                assert_eq!(kind, ReaderKind::Metal);
-                assert_eq!(&a, b);
-                for input in inputs() {
-                    assert_eq!(a.read(input), b.read(input));
-                }
-                kinds[2] += 1;
-            }
-            (Err(a), Err(b)) => {
-                assert_eq!(a, b);
-                assert_eq!(b, ReaderError::WrongKind(kind));
-            }
-            (a, b) => panic!("new {a:?} and init {b:?} disagree on a {kind:?} image"),
+        let built = [
+            init_matches_new(
+                path,
+                &image,
+                ReaderKind::Proximity,
+                ProximityReader::new,
+                ProximityReader::init,
+                ProximityReader::read,
+            ),
+            init_matches_new(
+                path,
+                &image,
+                ReaderKind::Level,
+                LevelReader::new,
+                LevelReader::init,
+                LevelReader::read,
+            ),
+            init_matches_new(
+                path,
+                &image,
+                ReaderKind::Metal,
+                MetalReader::new,
+                MetalReader::init,
+                MetalReader::read,
+            ),
+        ];
+        for (n, built) in kinds.iter_mut().zip(built) {
+            *n += usize::from(built);
         }
     }
     // Each kind built from at least two images (and refused by the others).

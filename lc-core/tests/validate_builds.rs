@@ -11,17 +11,9 @@ use lc_core::image::{Image, ImageBuf, ImageError, CRC32};
 use lc_core::reader::{Input, Reader};
 use lc_core::temperature::CentiCelsius;
 use proptest::prelude::*;
+use support::IMAGES;
 
-const IMAGES: [&[u8]; 8] = [
-    include_bytes!("../../examples/unit-firmware/data/proximity.lcim"),
-    include_bytes!("../../examples/unit-firmware/data/level.lcim"),
-    include_bytes!("../../examples/unit-firmware/data/metal.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-proximity.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-proximity-32.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-proximity-tc.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-level.lcim"),
-    include_bytes!("../../examples/firmware/data/demo-metal.lcim"),
-];
+mod support;
 
 /// The stated length (bytes 6 and 7, little-endian; docs/image-format.md).
 fn stated_len(bytes: &[u8]) -> usize {
@@ -85,13 +77,13 @@ fn check(bytes: &[u8]) -> Result<bool, TestCaseError> {
 
 #[test]
 fn the_committed_images_validate_and_their_crc_is_where_the_tests_put_it() {
-    for bytes in IMAGES {
+    for (path, bytes) in IMAGES {
         let mut copy = bytes.to_vec();
         fix_crc(&mut copy);
-        assert_eq!(copy, bytes, "CRC position");
+        assert_eq!(copy, bytes, "CRC position in {path}");
         let buf = ImageBuf::from_bytes(bytes).unwrap();
         let image = buf.image().unwrap();
-        assert!(Reader::new(&image).is_ok());
+        assert!(Reader::new(&image).is_ok(), "{path} builds its reader");
     }
 }
 
@@ -116,7 +108,7 @@ proptest! {
         edits in prop::collection::vec((any::<prop::sample::Index>(), any::<u8>()), 1..4),
         cut in prop::option::of(any::<prop::sample::Index>()),
     ) {
-        let mut bytes = IMAGES[which].to_vec();
+        let mut bytes = IMAGES[which].1.to_vec();
         let body = stated_len(&bytes).saturating_sub(4).max(8);
         for (at, value) in &edits {
             // Never the framing's first eight bytes (magic, version,
@@ -134,7 +126,7 @@ proptest! {
     /// The same with one field-sized edit: a 32-bit word anywhere.
     #[test]
     fn mutated_words_that_validate_build_their_reader(which in 0usize..IMAGES.len(), at: prop::sample::Index, word: u32) {
-        let mut bytes = IMAGES[which].to_vec();
+        let mut bytes = IMAGES[which].1.to_vec();
         let body = stated_len(&bytes).saturating_sub(4);
         let i = 8 + at.index(body.saturating_sub(12).max(1));
         bytes[i..i + 4].copy_from_slice(&word.to_le_bytes());
