@@ -1,5 +1,6 @@
 //! The `lc-host` binary end to end: demo log, bad input, atomic output.
 
+use std::ffi::OsStr;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
@@ -139,86 +140,85 @@ fn usage_errors_teach() {
     assert!(String::from_utf8_lossy(&run.stdout).contains("Not a safety-rated component"));
 }
 
-/// A format-1 image: `inspect` reads it, says how to rewrite it, and
-/// `--rewrite` with the plan and the time writes exactly the committed
-/// format-3 image of that unit (the firmware example's
-/// `demo-proximity-32.lcim`).
-#[test]
-fn inspect_reads_format_one_and_rewrites_it() {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
-    let v1 = root.join("tests/data/demo-01-0007.format1.lcim");
-    let out = lc_host().arg("inspect").arg(&v1).output().expect("run");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let text = String::from_utf8_lossy(&out.stdout);
-    assert!(text.contains("format 1"), "{text}");
-    assert!(text.contains("--rewrite OUT"), "{text}");
-    let dir = scratch("rewrite");
-    let new = dir.join("unit.lcim");
-    let out = lc_host()
-        .arg("inspect")
-        .arg(&v1)
-        .arg("--rewrite")
-        .arg(&new)
-        .args(["--time", "1764547200", "--plan"])
-        .arg(root.join("examples/data/demo-plan.toml"))
-        .output()
-        .expect("run");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let committed =
-        std::fs::read(root.join("examples/firmware/data/demo-proximity-32.lcim")).expect("read");
-    assert_eq!(std::fs::read(&new).expect("rewritten image"), committed);
-    // The rewritten image inspects as format 3 with its time and plan.
-    let out = lc_host().arg("inspect").arg(&new).output().expect("run");
-    let text = String::from_utf8_lossy(&out.stdout);
-    assert!(
-        text.contains("format 3") && text.contains("1764547200"),
-        "{text}"
-    );
-    let _ = std::fs::remove_dir_all(dir);
+/// An image of an older format, what `inspect` must say of it, and what
+/// else `--rewrite` needs to write exactly the committed format-3 image
+/// of that unit (the firmware example's `demo-proximity-32.lcim`).
+struct OldImage {
+    format: u8,
+    path: &'static str,
+    says: &'static [&'static str],
+    rewrite_args: &'static [&'static str],
 }
 
-/// A format-2 image: `inspect` reads it with its time and plan, says how
-/// to rewrite it, and `--rewrite` alone writes exactly the committed
-/// format-3 image of that unit.
-#[test]
-fn inspect_reads_format_two_and_rewrites_it() {
+/// Format 1 holds neither time nor plan: the rewrite is given both.
+/// Format 2 holds both: `inspect` shows its time, `--rewrite` alone does.
+const OLD_IMAGES: [OldImage; 2] = [
+    OldImage {
+        format: 1,
+        path: "tests/data/demo-01-0007.format1.lcim",
+        says: &["format 1", "--rewrite OUT"],
+        rewrite_args: &[
+            "--time",
+            "1764547200",
+            "--plan",
+            "examples/data/demo-plan.toml",
+        ],
+    },
+    OldImage {
+        format: 2,
+        path: "tests/data/demo-01-0007.format2.lcim",
+        says: &["format 2", "1764547200", "--rewrite OUT"],
+        rewrite_args: &[],
+    },
+];
+
+/// Runs `lc-host inspect` with `args` in the repository's root (no
+/// SOURCE_DATE_EPOCH: times come from the image or `--time`); its
+/// standard output, after checking that it succeeded.
+fn inspect(case: &str, args: &[&OsStr]) -> String {
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
-    let v2 = root.join("tests/data/demo-01-0007.format2.lcim");
-    let out = lc_host().arg("inspect").arg(&v2).output().expect("run");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let text = String::from_utf8_lossy(&out.stdout);
-    assert!(text.contains("format 2"), "{text}");
-    assert!(text.contains("1764547200"), "{text}");
-    assert!(text.contains("--rewrite OUT"), "{text}");
-    let dir = scratch("rewrite-2");
-    let new = dir.join("unit.lcim");
     let out = lc_host()
         .arg("inspect")
-        .arg(&v2)
-        .arg("--rewrite")
-        .arg(&new)
+        .args(args)
+        .current_dir(root)
         .env_remove("SOURCE_DATE_EPOCH")
         .output()
         .expect("run");
     assert!(
         out.status.success(),
-        "{}",
+        "{case}: {}",
         String::from_utf8_lossy(&out.stderr)
     );
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+/// An image of format 1 or 2: `inspect` reads it and says how to rewrite
+/// it, and `--rewrite` (with what that format lacks) writes exactly the
+/// committed format-3 image, which inspects as format 3 with its time.
+#[test]
+fn inspect_reads_old_formats_and_rewrites_them() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
     let committed =
         std::fs::read(root.join("examples/firmware/data/demo-proximity-32.lcim")).expect("read");
-    assert_eq!(std::fs::read(&new).expect("rewritten image"), committed);
-    let _ = std::fs::remove_dir_all(dir);
+    for old in OLD_IMAGES {
+        let case = format!("format {} ({})", old.format, old.path);
+        let image = root.join(old.path);
+        let text = inspect(&case, &[image.as_os_str()]);
+        for said in old.says {
+            assert!(text.contains(said), "{case}: no {said:?} in\n{text}");
+        }
+        let dir = scratch(&format!("rewrite-{}", old.format));
+        let new = dir.join("unit.lcim");
+        let mut args = vec![image.as_os_str(), OsStr::new("--rewrite"), new.as_os_str()];
+        args.extend(old.rewrite_args.iter().map(OsStr::new));
+        inspect(&case, &args);
+        let rewritten = std::fs::read(&new).expect("rewritten image");
+        assert!(rewritten == committed, "{case}: not the committed image");
+        let text = inspect(&case, &[new.as_os_str()]);
+        assert!(
+            text.contains("format 3") && text.contains("1764547200"),
+            "{case}: the rewritten image inspects as\n{text}"
+        );
+        let _ = std::fs::remove_dir_all(dir);
+    }
 }
