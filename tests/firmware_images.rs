@@ -28,7 +28,7 @@
 //! - `demo-proximity-32`: a unit of lot DEMO-01 as `lc-host calibrate`
 //!   wrote it (32-node monotone cubic curve, fitted drift model): the
 //!   format-1 image `tests/data/demo-01-0007.format1.lcim` rewritten in
-//!   format 3 ([`format_one_rewrites_to_the_committed_image`]), with the
+//!   format 3 ([`old_formats_rewrite_to_the_committed_image`]), with the
 //!   demo plan's identity and a fixed calibration time (its format-2
 //!   rewrite, `tests/data/demo-01-0007.format2.lcim`, reads as the same
 //!   calibration).
@@ -100,16 +100,28 @@ fn demo_proximity() -> Option<Calibration> {
 /// committed fixture), rewritten in format 3 with the demo plan's identity
 /// and [`CALIBRATED_AT`].
 fn demo_proximity_32() -> Calibration {
-    let v1 = std::fs::read(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/demo-01-0007.format1.lcim"),
-    )
-    .expect("format-1 fixture");
+    let v1 = fixture(OLD_IMAGES[0].1);
     let cal = Calibration::parse(&v1).expect("the host reads format 1");
     Calibration {
         calibrated_at: CALIBRATED_AT,
         plan_id: demo_plan_id(),
         ..cal
     }
+}
+
+/// The committed fixtures of that unit in the formats before 3: (format,
+/// file below the repository's root, whether it holds its calibration time
+/// and plan). Format 1 holds neither, format 2 (written before the
+/// reciprocals' exponents) both.
+const OLD_IMAGES: [(u16, &str, bool); 2] = [
+    (1, "tests/data/demo-01-0007.format1.lcim", false),
+    (2, "tests/data/demo-01-0007.format2.lcim", true),
+];
+
+/// The bytes of a committed fixture, `path` below the repository's root.
+fn fixture(path: &str) -> Vec<u8> {
+    std::fs::read(Path::new(env!("CARGO_MANIFEST_DIR")).join(path))
+        .unwrap_or_else(|e| panic!("fixture {path}: {e}"))
 }
 
 /// Reference clock and reciprocal gate of every demo unit.
@@ -338,29 +350,6 @@ fn rest_points_follow_the_scenario() {
     );
 }
 
-/// The committed format-1 image of a DEMO-01 unit: the host reads it, the
-/// firmware refuses it, and its rewrite is the committed format-3 image.
-#[test]
-fn format_one_rewrites_to_the_committed_image() {
-    let v1 = std::fs::read(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/demo-01-0007.format1.lcim"),
-    )
-    .expect("format-1 fixture");
-    assert_eq!(Calibration::format_version(&v1), Ok(1));
-    assert_eq!(
-        ImageBuf::from_bytes(&v1).unwrap().image().map(|_| ()),
-        Err(lc_core::image::ImageError::OldFormat)
-    );
-    let cal = Calibration::parse(&v1).expect("the host reads format 1");
-    assert_eq!((cal.calibrated_at, cal.plan_id), (0, PlanId::UNKNOWN));
-    let curve = cal.curve.expect("curve");
-    assert_eq!((curve.nodes().len(), curve.is_cubic()), (32, true));
-    assert_eq!(
-        readout::IMAGES[readout::PROXIMITY_32].bytes,
-        &encode(&demo_proximity_32())[..]
-    );
-}
-
 /// Runs the readout's rows of one unit on the host; (tag, reading).
 fn host_readings(unit: usize) -> Vec<(&'static str, HostReading)> {
     let buf = ImageBuf::from_bytes(readout::IMAGES[unit].bytes).expect("image");
@@ -512,25 +501,47 @@ fn metal_rows_detect_and_classify() {
     assert_eq!(find(&r, "steel-stays-14").status, Status::NoTarget);
 }
 
-/// The same unit's image in format 2 (the committed fixture, written
-/// before the reciprocals' exponents): the host reads it as the same
-/// calibration, time and plan included, the firmware refuses it, and its
-/// rewrite is the committed format-3 image.
+/// The committed format-1 and format-2 images of the DEMO-01 unit: the
+/// host reads each (format 2 as the same calibration, time and plan
+/// included; format 1 without them), the firmware refuses each, and each
+/// rewritten in format 3 (format 1 given the time and plan) is the
+/// committed `demo-proximity-32` image.
 #[test]
-fn format_two_rewrites_to_the_committed_image() {
-    let v2 = std::fs::read(
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/demo-01-0007.format2.lcim"),
-    )
-    .expect("format-2 fixture");
-    assert_eq!(Calibration::format_version(&v2), Ok(2));
-    assert_eq!(
-        ImageBuf::from_bytes(&v2).unwrap().image().map(|_| ()),
-        Err(lc_core::image::ImageError::OldFormat)
-    );
-    let cal = Calibration::parse(&v2).expect("the host reads format 2");
-    assert_eq!(cal, demo_proximity_32());
-    assert_eq!(
-        readout::IMAGES[readout::PROXIMITY_32].bytes,
-        &encode(&cal)[..]
-    );
+fn old_formats_rewrite_to_the_committed_image() {
+    for (format, path, holds_time_and_plan) in OLD_IMAGES {
+        let bytes = fixture(path);
+        assert_eq!(Calibration::format_version(&bytes), Ok(format), "{path}");
+        assert_eq!(
+            ImageBuf::from_bytes(&bytes).unwrap().image().map(|_| ()),
+            Err(lc_core::image::ImageError::OldFormat),
+            "{path}: the firmware refuses it"
+        );
+        let cal = Calibration::parse(&bytes)
+            .unwrap_or_else(|e| panic!("{path}: the host reads format {format}: {e:?}"));
+        let curve = cal.curve.as_ref().expect("curve");
+        assert_eq!(
+            (curve.nodes().len(), curve.is_cubic()),
+            (32, true),
+            "{path}: curve"
+        );
+        let rewrite = if holds_time_and_plan {
+            cal
+        } else {
+            assert_eq!(
+                (cal.calibrated_at, cal.plan_id),
+                (0, PlanId::UNKNOWN),
+                "{path}: time and plan"
+            );
+            Calibration {
+                calibrated_at: CALIBRATED_AT,
+                plan_id: demo_plan_id(),
+                ..cal
+            }
+        };
+        assert_eq!(rewrite, demo_proximity_32(), "{path}: the calibration");
+        assert!(
+            readout::IMAGES[readout::PROXIMITY_32].bytes == &encode(&rewrite)[..],
+            "{path}: its rewrite is not the committed image"
+        );
+    }
 }
