@@ -24,10 +24,13 @@
 #![no_std]
 #![no_main]
 
+mod common;
+
+use common::{exit, Line};
 use core::fmt::Write as _;
 use core::hint::black_box;
 use cortex_m_rt::entry;
-use cortex_m_semihosting::{debug, hio};
+use cortex_m_semihosting::hio;
 use lc_core::counting::CountPair;
 use lc_core::image::Image;
 use lc_core::link::{Counts, Encoder, Hello, ReadingRecord, Record};
@@ -119,49 +122,6 @@ impl embedded_io::Write for Uart {
     }
 }
 
-/// A line for semihosting.
-struct Line {
-    buf: [u8; 96],
-    len: usize,
-}
-
-impl Line {
-    fn new() -> Self {
-        Self {
-            buf: [0; 96],
-            len: 0,
-        }
-    }
-}
-
-impl core::fmt::Write for Line {
-    fn write_str(&mut self, s: &str) -> core::fmt::Result {
-        let end = self.len + s.len();
-        self.buf
-            .get_mut(self.len..end)
-            .ok_or(core::fmt::Error)?
-            .copy_from_slice(s.as_bytes());
-        self.len = end;
-        Ok(())
-    }
-}
-
-fn exit(ok: bool) -> ! {
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    loop {
-        cortex_m::asm::wfi();
-    }
-}
-
-#[panic_handler]
-fn panic(_: &core::panic::PanicInfo) -> ! {
-    exit(false)
-}
-
 /// The scripted measurement of gate `i`.
 fn input_of(i: u32) -> Input {
     let ticks = if i % 40 == 39 {
@@ -207,7 +167,7 @@ fn main() -> ! {
         exit(false)
     };
     let mut say = |line: &Line| {
-        let _ = host.write_all(line.buf.get(..line.len).unwrap_or(&[]));
+        let _ = host.write_all(line.as_bytes());
     };
     let Ok(image) = Image::new(black_box(IMAGE)) else {
         exit(false)

@@ -12,11 +12,15 @@
 #![no_std]
 #![no_main]
 
+#[path = "../common.rs"]
+mod common;
+
+use common::{exit, Line};
 use core::fmt::Write as _;
 use core::hint::black_box;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
 use cortex_m_rt::entry;
-use cortex_m_semihosting::{debug, hio};
+use cortex_m_semihosting::hio;
 use lc_core::counting::CountPair;
 use lc_core::image::ReaderKind;
 use lc_core::link::{Counts, Encoder, Hello, ReadingRecord, Record, Thermal};
@@ -84,39 +88,6 @@ fn stack_peak_bytes() -> u32 {
     }
 }
 
-struct Line {
-    buf: [u8; 128],
-    len: usize,
-}
-
-impl core::fmt::Write for Line {
-    fn write_str(&mut self, s: &str) -> core::fmt::Result {
-        let end = self.len + s.len();
-        self.buf
-            .get_mut(self.len..end)
-            .ok_or(core::fmt::Error)?
-            .copy_from_slice(s.as_bytes());
-        self.len = end;
-        Ok(())
-    }
-}
-
-fn exit(ok: bool) -> ! {
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    loop {
-        cortex_m::asm::wfi();
-    }
-}
-
-#[panic_handler]
-fn panic(_: &core::panic::PanicInfo) -> ! {
-    exit(false)
-}
-
 #[entry]
 fn main() -> ! {
     let Some(mut core) = cortex_m::Peripherals::take() else {
@@ -173,22 +144,16 @@ fn main() -> ! {
         // Tenths of an instruction per record, rounded.
         let tenths =
             (net * per_tick_num * 10 * 2 / per_tick_den / u64::from(ITERATIONS)).div_ceil(2);
-        let mut l = Line {
-            buf: [0; 128],
-            len: 0,
-        };
+        let mut l = Line::new();
         let _ = writeln!(
             l,
             "link encoder, {name} record: {}.{} instructions",
             tenths / 10,
             tenths % 10
         );
-        let _ = out.write_all(&l.buf[..l.len]);
+        let _ = out.write_all(l.as_bytes());
     }
-    let mut l = Line {
-        buf: [0; 128],
-        len: 0,
-    };
+    let mut l = Line::new();
     let _ = writeln!(
         l,
         "Encoder {} bytes; peak stack of this program {} bytes; {} bytes sent",
@@ -196,6 +161,6 @@ fn main() -> ! {
         stack_peak_bytes(),
         black_box(sink.0)
     );
-    let _ = out.write_all(&l.buf[..l.len]);
+    let _ = out.write_all(l.as_bytes());
     exit(true)
 }
