@@ -20,6 +20,8 @@
 //! is skipped (a failure with `CI` set). Sizes and stack are deterministic
 //! for pinned toolchains: budget checks, not timings.
 
+#[path = "../lc-core/capi/tests/support/readings.rs"]
+mod readings;
 #[path = "../examples/unit-firmware/src/report.rs"]
 #[allow(dead_code)]
 mod report;
@@ -40,7 +42,7 @@ use std::thread;
 use std::time::{Duration, Instant};
 
 use lc_core::image::ImageBuf;
-use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader};
+use lc_core::reader::Input;
 
 const ARM_CC: &str = "arm-none-eabi-gcc";
 const QEMU: &str = "qemu-system-arm";
@@ -181,44 +183,7 @@ fn host_output(unit: &Unit) -> String {
     let bytes = image_bytes(unit);
     let buf = ImageBuf::from_bytes(&bytes).expect("the committed image fits");
     let image = buf.image().expect("the committed image is valid");
-    let mut out = String::from("boot\n");
-    let mut push = |pieces: Text| out.push_str(&pieces.0);
-    match unit.name {
-        "proximity" => {
-            let mut r = ProximityReader::new(&image).expect("proximity reader");
-            for (i, input) in (0u32..).zip(unit.inputs) {
-                let x = r.read(input);
-                push(Text::reading(i, x.gap, None, x.shift.raw_q40(), x.status));
-            }
-        }
-        "level" => {
-            let mut r = LevelReader::new(&image).expect("level reader");
-            for (i, input) in (0u32..).zip(unit.inputs) {
-                let x = r.read(input);
-                push(Text::reading(
-                    i,
-                    x.level,
-                    x.volume,
-                    x.axis.raw_q40(),
-                    x.status,
-                ));
-            }
-        }
-        _ => {
-            let mut r = MetalReader::new(&image).expect("metal reader");
-            for (i, input) in (0u32..).zip(unit.inputs) {
-                let x = r.read(input);
-                push(Text::reading(
-                    i,
-                    x.class as i32,
-                    x.ring_drop,
-                    x.delta.raw_q40(),
-                    x.status,
-                ));
-            }
-        }
-    }
-    out
+    format!("boot\n{}", readings::reading_lines(&image, unit.inputs))
 }
 
 // ---------------------------------------------------------------------
@@ -490,29 +455,4 @@ fn c_path_within_10_percent_of_rust() {
         c.ram(),
         rust.ram()
     );
-}
-
-/// One reading's line as the firmwares write it (`report::reading`), as
-/// text.
-struct Text(String);
-
-impl Text {
-    fn reading(
-        i: u32,
-        value: i32,
-        secondary: Option<i32>,
-        q40: i64,
-        status: lc_core::reader::Status,
-    ) -> Self {
-        let mut t = Text(String::new());
-        report::reading(&mut t, i, value, secondary, q40, status);
-        t
-    }
-}
-
-impl report::Sink for Text {
-    fn put(&mut self, bytes: &[u8]) {
-        self.0
-            .push_str(std::str::from_utf8(bytes).expect("ASCII pieces"));
-    }
 }

@@ -9,6 +9,8 @@
 
 mod support;
 
+#[path = "support/readings.rs"]
+mod readings;
 #[path = "../../../examples/unit-firmware/src/report.rs"]
 #[allow(dead_code)]
 mod report;
@@ -21,8 +23,8 @@ use std::fs;
 use std::path::PathBuf;
 use std::process::Command;
 
-use lc_core::image::{Image, ImageBuf};
-use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader};
+use lc_core::image::ImageBuf;
+use lc_core::reader::Input;
 
 fn images() -> [(&'static str, PathBuf); 3] {
     let data = support::workspace().join("examples/unit-firmware/data");
@@ -31,48 +33,6 @@ fn images() -> [(&'static str, PathBuf); 3] {
         ("level", data.join("level.lcim")),
         ("metal", data.join("metal.lcim")),
     ]
-}
-
-/// lc-core's readings of the script, in the firmwares' line format.
-fn rust_lines(kind: &str, image: &Image<'_>, inputs: &[Input]) -> String {
-    let mut out = String::new();
-    let mut push = |pieces: Text| out.push_str(&pieces.0);
-    match kind {
-        "proximity" => {
-            let mut r = ProximityReader::new(image).expect("proximity image");
-            for (i, input) in (0u32..).zip(inputs) {
-                let x = r.read(input);
-                push(Text::reading(i, x.gap, None, x.shift.raw_q40(), x.status));
-            }
-        }
-        "level" => {
-            let mut r = LevelReader::new(image).expect("level image");
-            for (i, input) in (0u32..).zip(inputs) {
-                let x = r.read(input);
-                push(Text::reading(
-                    i,
-                    x.level,
-                    x.volume,
-                    x.axis.raw_q40(),
-                    x.status,
-                ));
-            }
-        }
-        _ => {
-            let mut r = MetalReader::new(image).expect("metal image");
-            for (i, input) in (0u32..).zip(inputs) {
-                let x = r.read(input);
-                push(Text::reading(
-                    i,
-                    x.class as i32,
-                    x.ring_drop,
-                    x.delta.raw_q40(),
-                    x.status,
-                ));
-            }
-        }
-    }
-    out
 }
 
 #[test]
@@ -147,35 +107,10 @@ fn host_c_test_under_sanitizers() {
         let buf = ImageBuf::from_bytes(&bytes).expect("the image fits");
         let image = buf.image().expect("a valid image");
         expected.push_str(&format!("== {kind}\n"));
-        expected.push_str(&rust_lines(kind, &image, inputs));
+        expected.push_str(&readings::reading_lines(&image, inputs));
     }
     assert_eq!(
         stdout, expected,
         "the C API's readings differ from lc-core's"
     );
-}
-
-/// One reading's line as the firmwares write it (`report::reading`), as
-/// text.
-struct Text(String);
-
-impl Text {
-    fn reading(
-        i: u32,
-        value: i32,
-        secondary: Option<i32>,
-        q40: i64,
-        status: lc_core::reader::Status,
-    ) -> Self {
-        let mut t = Text(String::new());
-        report::reading(&mut t, i, value, secondary, q40, status);
-        t
-    }
-}
-
-impl report::Sink for Text {
-    fn put(&mut self, bytes: &[u8]) {
-        self.0
-            .push_str(std::str::from_utf8(bytes).expect("ASCII pieces"));
-    }
 }
