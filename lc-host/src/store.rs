@@ -109,7 +109,10 @@ impl std::fmt::Display for AttemptResult {
     }
 }
 
-/// One calibration attempt to record, as the calibration step produced it.
+/// One calibration attempt to record, as the calibration step produced it,
+/// with its JSON columns (`params`, `residuals`, `rig_points`) as `J`:
+/// JSON values ([`NewAttempt`], [`Store::record`]) or JSON texts
+/// ([`AttemptText`], [`Store::record_texts`]).
 ///
 /// Rules, checked by [`Store::record`] before anything is written:
 /// - `serial` and `lot` are not empty, hold no control characters and no
@@ -121,7 +124,7 @@ impl std::fmt::Display for AttemptResult {
 ///   [`lc_core::image::CRC32`] computes it;
 /// - `params` is a JSON object, `residuals` and `rig_points` JSON arrays.
 #[derive(Clone, Debug, PartialEq)]
-pub struct NewAttempt {
+pub struct Attempt<J> {
     /// The unit's serial number.
     pub serial: String,
     /// The lot the unit is calibrated in.
@@ -131,11 +134,11 @@ pub struct NewAttempt {
     /// Why the unit failed (or remarks on a pass), one sentence each.
     pub reasons: Vec<String>,
     /// Fitted parameters, a JSON object (keys and units are the fit's).
-    pub params: Value,
+    pub params: J,
     /// Fit residuals, a JSON array.
-    pub residuals: Value,
+    pub residuals: J,
     /// The raw rig rows of this unit, a JSON array.
-    pub rig_points: Value,
+    pub rig_points: J,
     /// The calibration image bytes; `None` for a failed unit.
     pub image: Option<Vec<u8>>,
     /// CRC-32/ISO-HDLC of the whole `image`; `None` exactly when `image` is.
@@ -146,33 +149,15 @@ pub struct NewAttempt {
     pub trace: Option<Trace>,
 }
 
+/// One calibration attempt to record with JSON values: [`Store::record`],
+/// [`Store::record_batch`]. The rules of [`Attempt`] hold.
+pub type NewAttempt = Attempt<Value>;
+
 /// One calibration attempt to record whose JSON columns are JSON text
-/// already: [`Store::record_texts`]. The rules of [`NewAttempt`] hold;
+/// already: [`Store::record_texts`]. The rules of [`Attempt`] hold;
 /// `params` is the text of a JSON object, `residuals` and `rig_points`
 /// the texts of JSON arrays, stored as given.
-#[derive(Clone, Debug, PartialEq)]
-pub struct AttemptText {
-    /// The unit's serial number.
-    pub serial: String,
-    /// The lot the unit is calibrated in.
-    pub lot: String,
-    /// Pass or fail.
-    pub result: AttemptResult,
-    /// Why the unit failed (or remarks on a pass), one sentence each.
-    pub reasons: Vec<String>,
-    /// Fitted parameters: the text of a JSON object.
-    pub params: String,
-    /// Fit residuals: the text of a JSON array.
-    pub residuals: String,
-    /// The raw rig rows of this unit: the text of a JSON array.
-    pub rig_points: String,
-    /// The calibration image bytes; `None` for a failed unit.
-    pub image: Option<Vec<u8>>,
-    /// CRC-32/ISO-HDLC of the whole `image`; `None` exactly when `image` is.
-    pub image_crc: Option<u32>,
-    /// Where the attempt came from.
-    pub trace: Option<Trace>,
-}
+pub type AttemptText = Attempt<String>;
 
 /// The columns of an attempt other than its JSON, borrowed.
 #[derive(Clone, Copy)]
@@ -187,7 +172,7 @@ struct Head<'a> {
 }
 
 impl<'a> Head<'a> {
-    fn of(a: &'a NewAttempt) -> Self {
+    fn of<J>(a: &'a Attempt<J>) -> Self {
         Head {
             serial: &a.serial,
             lot: &a.lot,
@@ -777,7 +762,7 @@ impl Store {
         }
     }
 
-    /// Checks the rules of [`NewAttempt`] on the columns other than the
+    /// Checks the rules of [`Attempt`] on the columns other than the
     /// JSON ones.
     fn check_head(&self, a: Head<'_>) -> Result<(), StoreError> {
         let invalid = |p: String| self.invalid(a.serial, p);
@@ -884,15 +869,7 @@ impl Store {
     /// the JSON texts checked by their first character only (the
     /// database's own constraints check the rest).
     fn check_text<'a>(&self, a: &'a AttemptText) -> Result<Checked<'a>, StoreError> {
-        let head = Head {
-            serial: &a.serial,
-            lot: &a.lot,
-            result: a.result,
-            reasons: &a.reasons,
-            image: a.image.as_deref(),
-            image_crc: a.image_crc,
-            trace: a.trace.as_ref(),
-        };
+        let head = Head::of(a);
         self.check_head(head)?;
         let starts = |t: &str, c: u8| t.trim_start().as_bytes().first() == Some(&c);
         if !starts(&a.params, b'{') {
