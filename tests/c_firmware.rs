@@ -56,13 +56,20 @@ fn root() -> &'static Path {
 // ---------------------------------------------------------------------
 // The scripted inputs as C.
 
+/// A row's field as C: `none` (the script's marker for no value) as its
+/// name `marker`, any other value as a literal (`suffix`: `u` for the
+/// unsigned fields).
+fn c_field<T: PartialEq + std::fmt::Display>(v: T, none: T, marker: &str, suffix: &str) -> String {
+    if v == none {
+        marker.to_owned()
+    } else {
+        format!("{v}{suffix}")
+    }
+}
+
 /// A row's temperature as C: the value, or `NO_TEMPERATURE`.
 fn c_centi_c(centi_c: i16) -> String {
-    if centi_c == script::NO_TEMPERATURE {
-        "NO_TEMPERATURE".to_owned()
-    } else {
-        centi_c.to_string()
-    }
+    c_field(centi_c, script::NO_TEMPERATURE, "NO_TEMPERATURE", "")
 }
 
 /// `rows` (one C initialiser each) as the array `script_<name>` of `ty`.
@@ -96,11 +103,7 @@ fn c_script() -> String {
         "level",
         "level_gate_t",
         script::LEVEL_GATES.iter().map(|g| {
-            let reference = if g.reference_ticks == script::NO_CAPTURE {
-                "NO_CAPTURE".to_owned()
-            } else {
-                format!("{}u", g.reference_ticks)
-            };
+            let reference = c_field(g.reference_ticks, script::NO_CAPTURE, "NO_CAPTURE", "u");
             format!(
                 "{}u, {reference}, {}u, {}",
                 g.ticks,
@@ -113,11 +116,7 @@ fn c_script() -> String {
         "metal",
         "metal_gate_t",
         script::METAL_GATES.iter().map(|g| {
-            let ring = if g.ring_count == script::NO_RING_COUNT {
-                "NO_RING_COUNT".to_owned()
-            } else {
-                format!("{}u", g.ring_count)
-            };
+            let ring = c_field(g.ring_count, script::NO_RING_COUNT, "NO_RING_COUNT", "u");
             format!(
                 "{}u, {}u, {}, {ring}",
                 g.ticks,
