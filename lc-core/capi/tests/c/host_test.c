@@ -331,6 +331,22 @@ static void bad_arguments(const lc_image_t *prox_image, const lc_image_t *level_
   }
 }
 
+/* In open_readers: the KIND reader OPENED in one call from image k and
+   the one INITIALISED in two, reading script k; SAME(a, b) of every two
+   readings (a check that fails names the expression, so the kind). */
+#define OPENED_READS_AS_INITIALISED(KIND, OPENED, INITIALISED, k, SAME)        \
+  do {                                                                         \
+    EXPECT(lc_##KIND##_reader_open(&OPENED, bytes[k], lens[k]), LC_OK);        \
+    EXPECT(lc_image_validate_##KIND(&image, bytes[k], lens[k]), LC_OK);        \
+    EXPECT(lc_##KIND##_reader_init(&INITIALISED, &image), LC_OK);              \
+    for (size_t i = 0; i < counts[k]; i++) {                                   \
+      lc_##KIND##_reading_t a, b;                                              \
+      EXPECT(lc_##KIND##_read(&OPENED, &inputs[k][i], &a), LC_OK);             \
+      EXPECT(lc_##KIND##_read(&INITIALISED, &inputs[k][i], &b), LC_OK);        \
+      CHECK(SAME);                                                             \
+    }                                                                          \
+  } while (0)
+
 /* The one-call lc_*_reader_open: each builds its own kind's reader, whose
    readings equal those of the reader built in two steps; it refuses the
    other kinds, bad images and bad arguments as the two calls do, and a
@@ -345,37 +361,17 @@ static void open_readers(uint8_t *const bytes[3], const size_t lens[3],
   lc_image_t image;
   lc_input_t in = {{16384u, 139506u}, {0u, 0u}, 0, 0u, 0u};
 
-  EXPECT(lc_proximity_reader_open(&prox, bytes[0], lens[0]), LC_OK);
-  EXPECT(lc_image_validate_proximity(&image, bytes[0], lens[0]), LC_OK);
-  EXPECT(lc_proximity_reader_init(&prox2, &image), LC_OK);
-  for (size_t i = 0; i < counts[0]; i++) {
-    lc_proximity_reading_t a, b;
-    EXPECT(lc_proximity_read(&prox, &inputs[0][i], &a), LC_OK);
-    EXPECT(lc_proximity_read(&prox2, &inputs[0][i], &b), LC_OK);
-    CHECK(memcmp(&a, &b, sizeof a) == 0);
-  }
-  EXPECT(lc_level_reader_open(&level, bytes[1], lens[1]), LC_OK);
-  EXPECT(lc_image_validate_level(&image, bytes[1], lens[1]), LC_OK);
-  EXPECT(lc_level_reader_init(&level2, &image), LC_OK);
-  for (size_t i = 0; i < counts[1]; i++) {
-    lc_level_reading_t a, b;
-    EXPECT(lc_level_read(&level, &inputs[1][i], &a), LC_OK);
-    EXPECT(lc_level_read(&level2, &inputs[1][i], &b), LC_OK);
-    CHECK(a.level == b.level && a.axis_q40 == b.axis_q40 && a.volume == b.volume &&
-          a.has_volume == b.has_volume && a.axis_is_ratio == b.axis_is_ratio &&
-          a.status == b.status && a.fault == b.fault);
-  }
-  EXPECT(lc_metal_reader_open(&metal, bytes[2], lens[2]), LC_OK);
-  EXPECT(lc_image_validate_metal(&image, bytes[2], lens[2]), LC_OK);
-  EXPECT(lc_metal_reader_init(&metal2, &image), LC_OK);
-  for (size_t i = 0; i < counts[2]; i++) {
-    lc_metal_reading_t a, b;
-    EXPECT(lc_metal_read(&metal, &inputs[2][i], &a), LC_OK);
-    EXPECT(lc_metal_read(&metal2, &inputs[2][i], &b), LC_OK);
-    CHECK(a.delta_q40 == b.delta_q40 && a.ring_drop == b.ring_drop &&
-          a.has_ring_drop == b.has_ring_drop && a.metal_class == b.metal_class &&
-          a.status == b.status && a.fault == b.fault);
-  }
+  OPENED_READS_AS_INITIALISED(proximity, prox, prox2, 0, (memcmp(&a, &b, sizeof a) == 0));
+  OPENED_READS_AS_INITIALISED(level, level, level2, 1,
+                              a.level == b.level && a.axis_q40 == b.axis_q40 &&
+                                  a.volume == b.volume && a.has_volume == b.has_volume &&
+                                  a.axis_is_ratio == b.axis_is_ratio &&
+                                  a.status == b.status && a.fault == b.fault);
+  OPENED_READS_AS_INITIALISED(metal, metal, metal2, 2,
+                              a.delta_q40 == b.delta_q40 && a.ring_drop == b.ring_drop &&
+                                  a.has_ring_drop == b.has_ring_drop &&
+                                  a.metal_class == b.metal_class && a.status == b.status &&
+                                  a.fault == b.fault);
 
   /* Other kinds: refused, and the reader left not initialised. */
   lc_proximity_reading_t pr;
