@@ -16,11 +16,6 @@ pub trait Sink {
     fn put(&mut self, bytes: &[u8]);
 }
 
-/// Appends one byte.
-fn byte(out: &mut impl Sink, b: u8) {
-    out.put(core::slice::from_ref(&b));
-}
-
 /// Powers of ten, largest first: the decimal digits come from repeated
 /// subtraction. Cortex-M0 has no divide instruction, and `v / 10` would
 /// link the runtime's division routine (about 400 bytes) for a few
@@ -38,55 +33,64 @@ const POWERS_OF_TEN: [u32; 10] = [
     1,
 ];
 
-/// Appends `-` when `negative`, then `magnitude` in decimal.
-fn decimal(out: &mut impl Sink, negative: bool, mut magnitude: u32) {
-    if negative {
-        out.put(b"-");
-    }
-    let mut started = false;
-    for p in POWERS_OF_TEN {
-        let mut digit = b'0';
-        // At most 9 rounds (4 for 10^9): magnitude < 10 * p here, except
-        // for p = 10^9, where magnitude <= u32::MAX < 5 * 10^9.
-        while magnitude >= p {
-            magnitude -= p;
+/// Powers of sixteen, largest first: the hex digits of a 32-bit word by
+/// the same subtraction.
+const POWERS_OF_16: [u32; 8] = [
+    1 << 28,
+    1 << 24,
+    1 << 20,
+    1 << 16,
+    1 << 12,
+    1 << 8,
+    1 << 4,
+    1,
+];
+
+/// Appends the digits of `v` in the base of `powers` (its powers, largest
+/// first, down to 1): every digit when `all`, otherwise without leading
+/// zeros (0 is "0"). One routine for every number of a line.
+#[inline(never)]
+fn digits(out: &mut impl Sink, mut v: u32, powers: &[u32], all: bool) {
+    let mut started = all;
+    for &p in powers {
+        let mut digit = 0u8;
+        // At most 15 rounds: v < 16 * p here (v < 10 * p for decimal),
+        // except for the largest power of ten, where v <= u32::MAX <
+        // 5 * 10^9.
+        while v >= p {
+            v -= p;
             digit += 1;
         }
-        // No leading zeros; the last digit always (0 is "0").
-        started |= digit != b'0' || p == 1;
+        started |= digit != 0 || p == 1;
         if started {
-            byte(out, digit);
+            let c = if digit < 10 {
+                b'0' + digit
+            } else {
+                b'a' - 10 + digit
+            };
+            out.put(&[c]);
         }
     }
 }
 
 /// Appends `v` in decimal.
 pub fn uint(out: &mut impl Sink, v: u32) {
-    decimal(out, false, v);
+    digits(out, v, &POWERS_OF_TEN, false);
 }
 
 /// Appends `v` in decimal.
 pub fn int(out: &mut impl Sink, v: i32) {
-    decimal(out, v < 0, v.unsigned_abs());
+    if v < 0 {
+        out.put(b"-");
+    }
+    uint(out, v.unsigned_abs());
 }
 
 /// Appends the 64 bits of `v` as 16 hex digits (two's complement).
 pub fn hex64(out: &mut impl Sink, v: i64) {
     // Two 32-bit halves: M0 has no 64-bit shift instruction.
-    for word in [(v >> 32) as u32, v as u32] {
-        for i in (0..8).rev() {
-            // A nibble (< 16): the cast is exact.
-            let nibble = ((word >> (4 * i)) & 0xF) as u8;
-            byte(
-                out,
-                if nibble < 10 {
-                    b'0' + nibble
-                } else {
-                    b'a' - 10 + nibble
-                },
-            );
-        }
-    }
+    digits(out, (v >> 32) as u32, &POWERS_OF_16, true);
+    digits(out, v as u32, &POWERS_OF_16, true);
 }
 
 /// The line of reading number `index`: its value (gap, level, metal
@@ -122,11 +126,12 @@ pub fn reading(
 }
 
 /// The status names after their `fault-` prefix, in the order of
-/// [`status_name`]'s numbers, each with the line's end: one string, no
-/// table of pointers.
+/// [`status_name`]'s numbers (the order `Status` and `SensorFault`
+/// declare them, which keeps the numbering to arithmetic), each with the
+/// line's end: one string, no table of pointers.
 const NAMES: &[u8] = b"ok\nbelow-range\nabove-range\nno-target\n\
-    counts\ncompanion\nshift\nratio\nreference\nreference-low\nfrozen\n\
-    temperature-domain\ntemperature-missing\nout-of-reach\n";
+    counts\ncompanion\nshift\nratio\nreference\nfrozen\n\
+    temperature-domain\ntemperature-missing\nreference-low\nout-of-reach\n";
 
 /// Appends the status's short name (`ok`, `no-target`, `fault-counts`, …)
 /// and the line's end.
@@ -144,10 +149,10 @@ pub fn status_name(out: &mut impl Sink, s: Status) {
                 SensorFault::Shift(_) => 6,
                 SensorFault::Ratio(_) => 7,
                 SensorFault::Reference => 8,
-                SensorFault::ReferenceLow => 9,
-                SensorFault::Frozen => 10,
-                SensorFault::TemperatureOutOfDomain => 11,
-                SensorFault::TemperatureMissing => 12,
+                SensorFault::Frozen => 9,
+                SensorFault::TemperatureOutOfDomain => 10,
+                SensorFault::TemperatureMissing => 11,
+                SensorFault::ReferenceLow => 12,
                 SensorFault::OutOfReach => 13,
             }
         }

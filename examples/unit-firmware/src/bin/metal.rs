@@ -52,7 +52,7 @@ const IMAGE_LEN: usize = include_bytes!("../../data/metal.lcim").len();
 
 #[entry]
 fn main() -> ! {
-    let mut host = Host::open();
+    let host = Host::open();
     host.write(b"boot\n");
     let Ok(image) = validate(black_box(&IMAGE.0)) else {
         host.fail(b"calibration image refused\n")
