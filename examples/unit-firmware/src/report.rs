@@ -7,7 +7,7 @@
 //! The host test (`tests/firmware_budget.rs`) compiles this file too and
 //! compares the firmware's lines with the host's, byte for byte.
 
-use lc_core::reader::{SensorFault, Status};
+use lc_core::reader::{LevelReading, MetalReading, ProximityReading, SensorFault, Status};
 
 /// Where the pieces of a line go (the firmware: the host's standard
 /// output).
@@ -96,12 +96,9 @@ pub fn hex64(out: &mut impl Sink, v: i64) {
 /// The line of reading number `index`: its value (gap, level, metal
 /// class), its secondary value (volume, ring-count drop) if any, the raw
 /// Q23.40 value it came from (shift, probe/reference ratio, shift minus
-/// baseline) and its status.
-///
-/// Kept out of line: its working memory (the values kept across the
-/// writes) is then on the stack only while a line is written, not in the
-/// frame that holds the reader.
-#[inline(never)]
+/// baseline) and its status. The firmwares call it through [`proximity`],
+/// [`level`] and [`metal`].
+#[inline]
 pub fn reading(
     out: &mut impl Sink,
     index: u32,
@@ -123,6 +120,38 @@ pub fn reading(
     hex64(out, raw_q40);
     out.put(b" status ");
     status_name(out, status);
+}
+
+// The line of each product's reading. Each takes the reading by
+// reference, where `read` returned it, and is kept out of line: the
+// line's working memory is then on the stack only while a line is
+// written, not in the frame that holds the reader.
+
+/// A proximity unit's line: the gap (µm) and the shift.
+#[inline(never)]
+pub fn proximity(out: &mut impl Sink, index: u32, r: &ProximityReading) {
+    reading(out, index, r.gap, None, r.shift.raw_q40(), r.status);
+}
+
+/// A level unit's line: the level (0.1 mm), the volume (mL) and the
+/// probe/reference ratio.
+#[inline(never)]
+pub fn level(out: &mut impl Sink, index: u32, r: &LevelReading) {
+    reading(out, index, r.level, r.volume, r.axis.raw_q40(), r.status);
+}
+
+/// A metal detector's line: the class code, the ring-count drop and the
+/// shift minus the baseline.
+#[inline(never)]
+pub fn metal(out: &mut impl Sink, index: u32, r: &MetalReading) {
+    reading(
+        out,
+        index,
+        r.class as i32,
+        r.ring_drop,
+        r.delta.raw_q40(),
+        r.status,
+    );
 }
 
 /// The status names after their `fault-` prefix, in the order of

@@ -51,7 +51,7 @@ fn main() -> ! {
 
     for (i, gate) in (0u32..).zip(black_box(&script::LEVEL_GATES)) {
         let r = reader.read(&gate.input());
-        report::reading(&mut host, i, r.level, r.volume, r.axis.raw_q40(), r.status);
+        report::level(&mut host, i, &r);
     }
     host.finish()
 }

@@ -75,7 +75,7 @@ fn main() -> ! {
 
     for (i, gate) in (0u32..).zip(black_box(&script::PROXIMITY_GATES)) {
         let r = reader.read(&gate.input());
-        report::reading(&mut host, i, r.gap, None, r.shift.raw_q40(), r.status);
+        report::proximity(&mut host, i, &r);
     }
     host.finish()
 }
