@@ -55,8 +55,7 @@ impl Host {
     /// Writes the peak stack (`stack <bytes>`, see [`stack_peak_bytes`])
     /// and ends the program with a success status.
     pub fn finish(mut self) -> ! {
-        self.write(b"stack ");
-        report::uint(&mut self, stack_peak_bytes());
+        report::decimal(&mut self, b"stack ", false, stack_peak_bytes());
         self.write(b"\n");
         exit(true)
     }

@@ -73,31 +73,28 @@ fn digits(out: &mut impl Sink, mut v: u32, powers: &[u32], all: bool) {
     }
 }
 
-/// Appends `v` in decimal.
-pub fn uint(out: &mut impl Sink, v: u32) {
-    digits(out, v, &POWERS_OF_TEN, false);
-}
-
-/// Appends `v` in decimal.
-pub fn int(out: &mut impl Sink, v: i32) {
-    if v < 0 {
+/// Appends `label`, then `-` when `negative`, then `magnitude` in
+/// decimal: one call for a line's label and its number.
+#[inline(never)]
+pub fn decimal(out: &mut impl Sink, label: &[u8], negative: bool, magnitude: u32) {
+    out.put(label);
+    if negative {
         out.put(b"-");
     }
-    uint(out, v.unsigned_abs());
+    digits(out, magnitude, &POWERS_OF_TEN, false);
 }
 
-/// Appends the 64 bits of `v` as 16 hex digits (two's complement).
-pub fn hex64(out: &mut impl Sink, v: i64) {
-    // Two 32-bit halves: M0 has no 64-bit shift instruction.
-    digits(out, (v >> 32) as u32, &POWERS_OF_16, true);
-    digits(out, v as u32, &POWERS_OF_16, true);
+/// Appends `label`, then `v` in decimal.
+fn int(out: &mut impl Sink, label: &[u8], v: i32) {
+    decimal(out, label, v < 0, v.unsigned_abs());
 }
 
 /// The line of reading number `index`: its value (gap, level, metal
 /// class), its secondary value (volume, ring-count drop) if any, the raw
 /// Q23.40 value it came from (shift, probe/reference ratio, shift minus
-/// baseline) and its status. The firmwares call it through [`proximity`],
-/// [`level`] and [`metal`].
+/// baseline, as the 16 hex digits of its two's complement) and its
+/// status. The firmwares call it through [`proximity`], [`level`] and
+/// [`metal`].
 #[inline]
 pub fn reading(
     out: &mut impl Sink,
@@ -107,17 +104,16 @@ pub fn reading(
     raw_q40: i64,
     status: Status,
 ) {
-    out.put(b"reading ");
-    uint(out, index);
-    out.put(b" value ");
-    int(out, value);
-    out.put(b" secondary ");
+    decimal(out, b"reading ", false, index);
+    int(out, b" value ", value);
     match secondary {
-        Some(v) => int(out, v),
-        None => out.put(b"-"),
+        Some(v) => int(out, b" secondary ", v),
+        None => out.put(b" secondary -"),
     }
     out.put(b" shift ");
-    hex64(out, raw_q40);
+    // Two 32-bit halves: M0 has no 64-bit shift instruction.
+    digits(out, (raw_q40 >> 32) as u32, &POWERS_OF_16, true);
+    digits(out, raw_q40 as u32, &POWERS_OF_16, true);
     out.put(b" status ");
     status_name(out, status);
 }

@@ -69,7 +69,7 @@ fn main() -> ! {
     };
     let reader = match &mut built {
         Ok(reader) => reader,
-        Err(_) => host.fail(b"not a metal image\n"),
+        Err(_) => host.fail(b"calibration image refused\n"),
     };
     // Step 4. In a product, the gate's count pair comes from the timer
     // captures and the ring count from the comparator's counter.

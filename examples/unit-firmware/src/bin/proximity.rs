@@ -70,7 +70,7 @@ fn main() -> ! {
     let mut built = ProximityReader::new(&image);
     let reader = match &mut built {
         Ok(reader) => reader,
-        Err(_) => host.fail(b"not a proximity image\n"),
+        Err(_) => host.fail(b"calibration image refused\n"),
     };
 
     for (i, gate) in (0u32..).zip(black_box(&script::PROXIMITY_GATES)) {
