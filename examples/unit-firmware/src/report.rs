@@ -46,12 +46,13 @@ const POWERS_OF_16: [u32; 8] = [
     1,
 ];
 
-/// Appends the digits of `v` in the base of `powers` (its powers, largest
-/// first, down to 1): every digit when `all`, otherwise without leading
-/// zeros (0 is "0"). One routine for every number of a line.
+/// Appends the digits of `v`: in hex, every digit (8); in decimal,
+/// without leading zeros (0 is "0"). One routine for every number of a
+/// line.
 #[inline(never)]
-fn digits(out: &mut impl Sink, mut v: u32, powers: &[u32], all: bool) {
-    let mut started = all;
+fn digits(out: &mut impl Sink, mut v: u32, hex: bool) {
+    let powers: &[u32] = if hex { &POWERS_OF_16 } else { &POWERS_OF_TEN };
+    let mut started = hex;
     for &p in powers {
         let mut digit = 0u8;
         // At most 15 rounds: v < 16 * p here (v < 10 * p for decimal),
@@ -81,7 +82,7 @@ pub fn decimal(out: &mut impl Sink, label: &[u8], negative: bool, magnitude: u32
     if negative {
         out.put(b"-");
     }
-    digits(out, magnitude, &POWERS_OF_TEN, false);
+    digits(out, magnitude, false);
 }
 
 /// Appends `label`, then `v` in decimal.
@@ -112,8 +113,8 @@ pub fn reading(
     }
     out.put(b" shift ");
     // Two 32-bit halves: M0 has no 64-bit shift instruction.
-    digits(out, (raw_q40 >> 32) as u32, &POWERS_OF_16, true);
-    digits(out, raw_q40 as u32, &POWERS_OF_16, true);
+    digits(out, (raw_q40 >> 32) as u32, true);
+    digits(out, raw_q40 as u32, true);
     out.put(b" status ");
     status_name(out, status);
 }
@@ -184,16 +185,15 @@ pub fn status_name(out: &mut impl Sink, s: Status) {
     };
     // The name is the part of NAMES after `number` line ends, up to and
     // including the next.
+    let mut rest = NAMES;
     let mut skip = number;
-    let mut start = 0;
-    for (at, &b) in NAMES.iter().enumerate() {
-        if b == b'\n' {
-            if skip == 0 {
-                out.put(NAMES.get(start..=at).unwrap_or(&[]));
-                return;
-            }
-            skip -= 1;
-            start = at + 1;
+    while let Some(end) = rest.iter().position(|&b| b == b'\n') {
+        let (name, tail) = rest.split_at(end + 1);
+        if skip == 0 {
+            out.put(name);
+            return;
         }
+        skip -= 1;
+        rest = tail;
     }
 }
