@@ -32,10 +32,12 @@ impl Host {
         Self(unsafe { syscall!(OPEN, NAME.as_ptr(), 4, NAME.len() - 1) })
     }
 
-    /// Writes `bytes`. A write the host refuses (no host, or a failed
-    /// open) ends the program with a failure status. Kept out of line: a
-    /// line of output is a dozen writes, each a call of a few bytes
-    /// instead of this body inlined.
+    /// Writes `bytes`. A write the host refuses (or one to a handle whose
+    /// open failed) ends the program with a failure status. Semihosting
+    /// needs a debugger or the emulator: without one, its `bkpt` faults
+    /// (a product replaces `Host`). Kept out of line: a line of output is
+    /// a dozen writes, each a call of a few bytes instead of this body
+    /// inlined.
     #[inline(never)]
     #[allow(unsafe_code)]
     pub fn write(self, bytes: &[u8]) {
