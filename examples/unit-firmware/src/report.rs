@@ -153,8 +153,9 @@ pub fn metal(out: &mut impl Sink, index: u32, r: &MetalReading) {
 
 /// The status names after their `fault-` prefix, in the order of
 /// [`status_name`]'s numbers (the order `Status` and `SensorFault`
-/// declare them, which keeps the numbering to arithmetic), each with the
-/// line's end: one string, no table of pointers.
+/// declare them, so that the compiler numbers the faults by an addition
+/// instead of a table), each with the line's end: one string, no table of
+/// pointers.
 const NAMES: &[u8] = b"ok\nbelow-range\nabove-range\nno-target\n\
     counts\ncompanion\nshift\nratio\nreference\nfrozen\n\
     temperature-domain\ntemperature-missing\nreference-low\nout-of-reach\n";
