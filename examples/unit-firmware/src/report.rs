@@ -7,18 +7,13 @@
 //! The host test (`tests/firmware_budget.rs`) compiles this file too and
 //! compares the firmware's lines with the host's, byte for byte.
 
-use lc_core::reader::{SensorFault, Status};
+use lc_core::reader::{LevelReading, MetalReading, ProximityReading, SensorFault, Status};
 
 /// Where the pieces of a line go (the firmware: the host's standard
 /// output).
 pub trait Sink {
     /// Appends `bytes`.
     fn put(&mut self, bytes: &[u8]);
-}
-
-/// Appends one byte.
-fn byte(out: &mut impl Sink, b: u8) {
-    out.put(core::slice::from_ref(&b));
 }
 
 /// Powers of ten, largest first: the decimal digits come from repeated
@@ -38,66 +33,70 @@ const POWERS_OF_TEN: [u32; 10] = [
     1,
 ];
 
-/// Appends `-` when `negative`, then `magnitude` in decimal.
-fn decimal(out: &mut impl Sink, negative: bool, mut magnitude: u32) {
+/// Powers of sixteen, largest first: the hex digits of a 32-bit word by
+/// the same subtraction.
+const POWERS_OF_16: [u32; 8] = [
+    1 << 28,
+    1 << 24,
+    1 << 20,
+    1 << 16,
+    1 << 12,
+    1 << 8,
+    1 << 4,
+    1,
+];
+
+/// Appends the digits of `v`: in hex, every digit (8); in decimal,
+/// without leading zeros (0 is "0"). One routine for every number of a
+/// line.
+#[inline(never)]
+fn digits(out: &mut impl Sink, mut v: u32, hex: bool) {
+    let powers: &[u32] = if hex { &POWERS_OF_16 } else { &POWERS_OF_TEN };
+    let mut started = hex;
+    for &p in powers {
+        let mut digit = 0u8;
+        // At most 15 rounds: v < 16 * p here (v < 10 * p for decimal),
+        // except for the largest power of ten, where v <= u32::MAX <
+        // 5 * 10^9.
+        while v >= p {
+            v -= p;
+            digit += 1;
+        }
+        started |= digit != 0 || p == 1;
+        if started {
+            let c = if digit < 10 {
+                b'0' + digit
+            } else {
+                b'a' - 10 + digit
+            };
+            out.put(&[c]);
+        }
+    }
+}
+
+/// Appends `label`, then `-` when `negative`, then `magnitude` in
+/// decimal: one call for a line's label and its number.
+#[inline(never)]
+pub fn decimal(out: &mut impl Sink, label: &[u8], negative: bool, magnitude: u32) {
+    out.put(label);
     if negative {
         out.put(b"-");
     }
-    let mut started = false;
-    for p in POWERS_OF_TEN {
-        let mut digit = b'0';
-        // At most 9 rounds (4 for 10^9): magnitude < 10 * p here, except
-        // for p = 10^9, where magnitude <= u32::MAX < 5 * 10^9.
-        while magnitude >= p {
-            magnitude -= p;
-            digit += 1;
-        }
-        // No leading zeros; the last digit always (0 is "0").
-        started |= digit != b'0' || p == 1;
-        if started {
-            byte(out, digit);
-        }
-    }
+    digits(out, magnitude, false);
 }
 
-/// Appends `v` in decimal.
-pub fn uint(out: &mut impl Sink, v: u32) {
-    decimal(out, false, v);
-}
-
-/// Appends `v` in decimal.
-pub fn int(out: &mut impl Sink, v: i32) {
-    decimal(out, v < 0, v.unsigned_abs());
-}
-
-/// Appends the 64 bits of `v` as 16 hex digits (two's complement).
-pub fn hex64(out: &mut impl Sink, v: i64) {
-    // Two 32-bit halves: M0 has no 64-bit shift instruction.
-    for word in [(v >> 32) as u32, v as u32] {
-        for i in (0..8).rev() {
-            // A nibble (< 16): the cast is exact.
-            let nibble = ((word >> (4 * i)) & 0xF) as u8;
-            byte(
-                out,
-                if nibble < 10 {
-                    b'0' + nibble
-                } else {
-                    b'a' - 10 + nibble
-                },
-            );
-        }
-    }
+/// Appends `label`, then `v` in decimal.
+fn int(out: &mut impl Sink, label: &[u8], v: i32) {
+    decimal(out, label, v < 0, v.unsigned_abs());
 }
 
 /// The line of reading number `index`: its value (gap, level, metal
 /// class), its secondary value (volume, ring-count drop) if any, the raw
 /// Q23.40 value it came from (shift, probe/reference ratio, shift minus
-/// baseline) and its status.
-///
-/// Kept out of line: its working memory (the values kept across the
-/// writes) is then on the stack only while a line is written, not in the
-/// frame that holds the reader.
-#[inline(never)]
+/// baseline, as the 16 hex digits of its two's complement) and its
+/// status. The firmwares call it through [`proximity`], [`level`] and
+/// [`metal`].
+#[inline]
 pub fn reading(
     out: &mut impl Sink,
     index: u32,
@@ -106,27 +105,60 @@ pub fn reading(
     raw_q40: i64,
     status: Status,
 ) {
-    out.put(b"reading ");
-    uint(out, index);
-    out.put(b" value ");
-    int(out, value);
-    out.put(b" secondary ");
+    decimal(out, b"reading ", false, index);
+    int(out, b" value ", value);
     match secondary {
-        Some(v) => int(out, v),
-        None => out.put(b"-"),
+        Some(v) => int(out, b" secondary ", v),
+        None => out.put(b" secondary -"),
     }
     out.put(b" shift ");
-    hex64(out, raw_q40);
+    // Two 32-bit halves: M0 has no 64-bit shift instruction.
+    digits(out, (raw_q40 >> 32) as u32, true);
+    digits(out, raw_q40 as u32, true);
     out.put(b" status ");
     status_name(out, status);
 }
 
+// The line of each product's reading. Each takes the reading by
+// reference, where `read` returned it, and is kept out of line: the
+// line's working memory is then on the stack only while a line is
+// written, not in the frame that holds the reader.
+
+/// A proximity unit's line: the gap (µm) and the shift.
+#[inline(never)]
+pub fn proximity(out: &mut impl Sink, index: u32, r: &ProximityReading) {
+    reading(out, index, r.gap, None, r.shift.raw_q40(), r.status);
+}
+
+/// A level unit's line: the level (0.1 mm), the volume (mL) and the
+/// probe/reference ratio.
+#[inline(never)]
+pub fn level(out: &mut impl Sink, index: u32, r: &LevelReading) {
+    reading(out, index, r.level, r.volume, r.axis.raw_q40(), r.status);
+}
+
+/// A metal detector's line: the class code, the ring-count drop and the
+/// shift minus the baseline.
+#[inline(never)]
+pub fn metal(out: &mut impl Sink, index: u32, r: &MetalReading) {
+    reading(
+        out,
+        index,
+        r.class as i32,
+        r.ring_drop,
+        r.delta.raw_q40(),
+        r.status,
+    );
+}
+
 /// The status names after their `fault-` prefix, in the order of
-/// [`status_name`]'s numbers, each with the line's end: one string, no
-/// table of pointers.
+/// [`status_name`]'s numbers (the order `Status` and `SensorFault`
+/// declare them, so that the compiler numbers the faults by an addition
+/// instead of a table), each with the line's end: one string, no table of
+/// pointers.
 const NAMES: &[u8] = b"ok\nbelow-range\nabove-range\nno-target\n\
-    counts\ncompanion\nshift\nratio\nreference\nreference-low\nfrozen\n\
-    temperature-domain\ntemperature-missing\nout-of-reach\n";
+    counts\ncompanion\nshift\nratio\nreference\nfrozen\n\
+    temperature-domain\ntemperature-missing\nreference-low\nout-of-reach\n";
 
 /// Appends the status's short name (`ok`, `no-target`, `fault-counts`, …)
 /// and the line's end.
@@ -144,26 +176,25 @@ pub fn status_name(out: &mut impl Sink, s: Status) {
                 SensorFault::Shift(_) => 6,
                 SensorFault::Ratio(_) => 7,
                 SensorFault::Reference => 8,
-                SensorFault::ReferenceLow => 9,
-                SensorFault::Frozen => 10,
-                SensorFault::TemperatureOutOfDomain => 11,
-                SensorFault::TemperatureMissing => 12,
+                SensorFault::Frozen => 9,
+                SensorFault::TemperatureOutOfDomain => 10,
+                SensorFault::TemperatureMissing => 11,
+                SensorFault::ReferenceLow => 12,
                 SensorFault::OutOfReach => 13,
             }
         }
     };
     // The name is the part of NAMES after `number` line ends, up to and
     // including the next.
+    let mut rest = NAMES;
     let mut skip = number;
-    let mut start = 0;
-    for (at, &b) in NAMES.iter().enumerate() {
-        if b == b'\n' {
-            if skip == 0 {
-                out.put(NAMES.get(start..=at).unwrap_or(&[]));
-                return;
-            }
-            skip -= 1;
-            start = at + 1;
+    while let Some(end) = rest.iter().position(|&b| b == b'\n') {
+        let (name, tail) = rest.split_at(end + 1);
+        if skip == 0 {
+            out.put(name);
+            return;
         }
+        skip -= 1;
+        rest = tail;
     }
 }

@@ -180,7 +180,10 @@ pub struct MetalGate {
 }
 
 impl MetalGate {
-    /// The reader's input for this gate.
+    /// The reader's input for this gate. Kept out of line: the metal
+    /// firmware's read loop then keeps fewer values in its frame (see
+    /// `metal.rs`).
+    #[inline(never)]
     pub const fn input(&self) -> Input {
         let ring_count = if self.ring_count == NO_RING_COUNT {
             None

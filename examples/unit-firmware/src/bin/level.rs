@@ -46,12 +46,12 @@ fn main() -> ! {
     let mut built = LevelReader::new(&image);
     let reader = match &mut built {
         Ok(reader) => reader,
-        Err(_) => host.fail(b"not a level image\n"),
+        Err(_) => host.fail(b"calibration image refused\n"),
     };
 
     for (i, gate) in (0u32..).zip(black_box(&script::LEVEL_GATES)) {
         let r = reader.read(&gate.input());
-        report::reading(&mut host, i, r.level, r.volume, r.axis.raw_q40(), r.status);
+        report::level(&mut host, i, &r);
     }
     host.finish()
 }

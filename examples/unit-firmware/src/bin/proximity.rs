@@ -70,12 +70,12 @@ fn main() -> ! {
     let mut built = ProximityReader::new(&image);
     let reader = match &mut built {
         Ok(reader) => reader,
-        Err(_) => host.fail(b"not a proximity image\n"),
+        Err(_) => host.fail(b"calibration image refused\n"),
     };
 
     for (i, gate) in (0u32..).zip(black_box(&script::PROXIMITY_GATES)) {
         let r = reader.read(&gate.input());
-        report::reading(&mut host, i, r.gap, None, r.shift.raw_q40(), r.status);
+        report::proximity(&mut host, i, &r);
     }
     host.finish()
 }
