@@ -22,34 +22,30 @@ static int32_t semihost(int32_t op, const void *arg) {
 #define ADP_STOPPED_APPLICATION_EXIT 0x20026
 #define ADP_STOPPED_RUN_TIME_ERROR 0x20023
 
-static int32_t out_handle = -1;
-static int out_ok;
-
-void host_open(void) {
-  /* ":tt" opened for writing (mode 4) is the host's standard output. */
-  const uint32_t args[3] = {(uint32_t)(uintptr_t) ":tt", 4u, 3u};
-  out_handle = semihost(SYS_OPEN, args);
-  out_ok = out_handle >= 0;
-}
-
-void host_write(const char *bytes, size_t len) {
-  if (out_handle < 0) {
-    out_ok = 0;
-    return;
-  }
-  const uint32_t args[3] = {(uint32_t)out_handle, (uint32_t)(uintptr_t)bytes, (uint32_t)len};
-  /* Returns the number of bytes not written. */
-  if (semihost(SYS_WRITE, args) != 0) {
-    out_ok = 0;
-  }
-}
-
 static void __attribute__((noreturn)) exit_with(int success) {
   semihost(SYS_EXIT,
            (const void *)(uintptr_t)(success ? ADP_STOPPED_APPLICATION_EXIT
                                              : ADP_STOPPED_RUN_TIME_ERROR));
   for (;;) {
     __asm__ volatile("wfi");
+  }
+}
+
+/* The handle the host gave for its standard output (host_open). */
+static int32_t out_handle;
+
+void host_open(void) {
+  /* ":tt" opened for writing (mode 4) is the host's standard output. */
+  const uint32_t args[3] = {(uint32_t)(uintptr_t) ":tt", 4u, 3u};
+  out_handle = semihost(SYS_OPEN, args);
+}
+
+void host_write(const char *bytes, size_t len) {
+  const uint32_t args[3] = {(uint32_t)out_handle, (uint32_t)(uintptr_t)bytes, (uint32_t)len};
+  /* Returns the number of bytes not written (a failed open's handle, -1,
+     is refused). */
+  if (semihost(SYS_WRITE, args) != 0) {
+    exit_with(0);
   }
 }
 
@@ -68,10 +64,9 @@ uint32_t stack_peak_bytes(void) {
 }
 
 void host_finish(void) {
-  PUT("stack ");
-  put_uint(stack_peak_bytes());
+  PUT_DECIMAL("stack ", 0, stack_peak_bytes());
   PUT("\n");
-  exit_with(out_ok);
+  exit_with(1);
 }
 
 /* After the paint: initialised data, zeroed data, main. */

@@ -8,17 +8,20 @@
 #include <stddef.h>
 #include <stdint.h>
 
-/* Opens the host's standard output; writes are dropped without a host. */
+/* Opens the host's standard output. */
 void host_open(void);
-/* Writes `len` bytes; a failed write is remembered for host_finish. */
+/* Writes `len` bytes. A write the host refuses (or one to a handle whose
+   open failed) ends the program with a failure status. Semihosting needs
+   a debugger or the emulator: without one, its `bkpt` faults (a product
+   replaces host_write). */
 void host_write(const char *bytes, size_t len);
 /* Writes the `len` bytes of `why` and ends the program with a failure
    status. */
 void host_fail(const char *why, size_t len) __attribute__((noreturn));
 /* host_fail with a string literal (its length known at compile time). */
 #define FAIL(literal) host_fail((literal), sizeof(literal) - 1u)
-/* Writes `stack <bytes>` (the peak stack) and ends the program: success
-   when every write succeeded. */
+/* Writes `stack <bytes>` (the peak stack) and ends the program with a
+   success status. */
 void host_finish(void) __attribute__((noreturn));
 /* The deepest the stack has been since reset, bytes, start-up included:
    the reset handler paints the stack with 0xCCCCCCCC before main. */

@@ -19,8 +19,11 @@
       read. (lc_image_validate_proximity then lc_proximity_reader_init do
       the same in two steps, with an lc_image_t between them for
       lc_image_info; lc_image_validate and lc_reader_init take any kind.)
-   3. Start-up and the read loop are functions of their own, so that
-      their locals are never on the stack together.
+   3. Memory. main's frame holds the reader, one lc_input_t and one
+      reading (start and read_all below are inlined into it); each
+      reading's line is written from a frame of its own (report, kept
+      out of line), so the line's working memory is on the stack only
+      while a line is written, not while lc-core validates or reads.
    4. Read. Per gate, the timer capture gives a count pair and the NTC a
       temperature; lc_*_read turns them into a reading with a status. A
       sensor fault is a status, never an error code. Here the inputs come
@@ -55,13 +58,21 @@ typedef lc_proximity_reader_t reader_t;
 
 /* Validates this unit's image and builds its reader; the unit stops when
    the image is refused. */
-static void __attribute__((noinline)) start(reader_t *reader) {
+static void start(reader_t *reader) {
   if (lc_proximity_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
     FAIL("calibration image refused\n");
   }
 }
 
-static void __attribute__((noinline)) read_all(reader_t *reader) {
+/* The line of reading number `i` (report.h), from a frame of its own
+   (step 3). */
+static void __attribute__((noinline)) report(uint32_t i, const lc_proximity_reading_t *r) {
+  put_reading(i, r->gap, 0, 0, r->shift_q40, r->status, r->fault);
+}
+
+/* One reading per scripted gate (step 4); the unit stops on an error
+   (a reading's sensor fault is its status, not an error). */
+static void read_all(reader_t *reader) {
   for (size_t i = 0; i < script_proximity_len; i++) {
     lc_input_t in;
     proximity_input(&script_proximity[i], &in);
@@ -69,19 +80,23 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
     if (lc_proximity_read(reader, &in, &r) != LC_OK) {
       FAIL("bad input\n");
     }
-    put_reading((uint32_t)i, r.gap, 0, 0, r.shift_q40, r.status, r.fault);
+    report((uint32_t)i, &r);
   }
 }
 #elif defined(UNIT_LEVEL)
 typedef lc_level_reader_t reader_t;
 
-static void __attribute__((noinline)) start(reader_t *reader) {
+static void start(reader_t *reader) {
   if (lc_level_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
     FAIL("calibration image refused\n");
   }
 }
 
-static void __attribute__((noinline)) read_all(reader_t *reader) {
+static void __attribute__((noinline)) report(uint32_t i, const lc_level_reading_t *r) {
+  put_reading(i, r->level, r->has_volume, r->volume, r->axis_q40, r->status, r->fault);
+}
+
+static void read_all(reader_t *reader) {
   for (size_t i = 0; i < script_level_len; i++) {
     lc_input_t in;
     level_input(&script_level[i], &in);
@@ -89,19 +104,24 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
     if (lc_level_read(reader, &in, &r) != LC_OK) {
       FAIL("bad input\n");
     }
-    put_reading((uint32_t)i, r.level, r.has_volume, r.volume, r.axis_q40, r.status, r.fault);
+    report((uint32_t)i, &r);
   }
 }
 #elif defined(UNIT_METAL)
 typedef lc_metal_reader_t reader_t;
 
-static void __attribute__((noinline)) start(reader_t *reader) {
+static void start(reader_t *reader) {
   if (lc_metal_reader_open(reader, lc_unit_image, IMAGE_LEN) != LC_OK) {
     FAIL("calibration image refused\n");
   }
 }
 
-static void __attribute__((noinline)) read_all(reader_t *reader) {
+static void __attribute__((noinline)) report(uint32_t i, const lc_metal_reading_t *r) {
+  put_reading(i, (int32_t)r->metal_class, r->has_ring_drop, r->ring_drop, r->delta_q40, r->status,
+              r->fault);
+}
+
+static void read_all(reader_t *reader) {
   for (size_t i = 0; i < script_metal_len; i++) {
     lc_input_t in;
     metal_input(&script_metal[i], &in);
@@ -109,8 +129,7 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
     if (lc_metal_read(reader, &in, &r) != LC_OK) {
       FAIL("bad input\n");
     }
-    put_reading((uint32_t)i, (int32_t)r.metal_class, r.has_ring_drop, r.ring_drop, r.delta_q40,
-                r.status, r.fault);
+    report((uint32_t)i, &r);
   }
 }
 #else
@@ -119,7 +138,7 @@ static void __attribute__((noinline)) read_all(reader_t *reader) {
 
 int main(void) {
   host_open();
-  host_write("boot\n", 5);
+  PUT("boot\n");
   reader_t reader;
   start(&reader);
   read_all(&reader);

@@ -1,67 +1,76 @@
 #include "report.h"
 
-/* Powers of ten, largest first: the decimal digits come from repeated
-   subtraction. Cortex-M0 has no divide instruction, and v / 10 would
-   link the C library's division routines for a few numbers a line. */
-static const uint32_t powers_of_ten[10] = {
+/* The powers of ten, then the powers of sixteen, each largest first down
+   to 1: the digits come from repeated subtraction. Cortex-M0 has no
+   divide instruction, and v / 10 would link the C library's division
+   routines for a few numbers a line. */
+static const uint32_t powers[18] = {
     1000000000u, 100000000u, 10000000u, 1000000u, 100000u, 10000u, 1000u, 100u, 10u, 1u,
+    1u << 28, 1u << 24, 1u << 20, 1u << 16, 1u << 12, 1u << 8, 1u << 4, 1u,
 };
+/* Where the powers of sixteen start. */
+#define HEX 10u
 
-/* Writes one byte. */
-static void put_byte(char c) { host_write(&c, 1u); }
+/* Writes the digits of `v`: in hex, every digit (8); in decimal, without
+   leading zeros (0 is "0"). One routine for every number of a line. */
+static void __attribute__((noinline)) put_digits(uint32_t v, int hex) {
+  const uint32_t *p = hex ? &powers[HEX] : powers;
+  int started = hex;
+  for (;; p++) {
+    unsigned digit = 0u;
+    /* At most 15 rounds: v < 16 * p here (v < 10 * p for decimal),
+       except for 10^9, where v <= UINT32_MAX < 5 * 10^9. */
+    while (v >= *p) {
+      v -= *p;
+      digit++;
+    }
+    started |= digit != 0u || *p == 1u;
+    if (started) {
+      char c = (char)(digit < 10u ? '0' + digit : 'a' - 10u + digit);
+      host_write(&c, 1u);
+    }
+    /* Both runs of powers end in 1. */
+    if (*p == 1u) {
+      return;
+    }
+  }
+}
 
-/* Writes '-' when `negative`, then `magnitude` in decimal. */
-static void put_decimal(int negative, uint32_t magnitude) {
+void put_decimal(const char *label, size_t len, int negative, uint32_t magnitude) {
+  host_write(label, len);
   if (negative) {
     PUT("-");
   }
-  int started = 0;
-  for (unsigned i = 0; i < 10u; i++) {
-    uint32_t p = powers_of_ten[i];
-    char digit = '0';
-    /* At most 9 rounds (4 for 10^9): magnitude < 10 * p here, except
-       for p = 10^9, where magnitude <= UINT32_MAX < 5 * 10^9. */
-    while (magnitude >= p) {
-      magnitude -= p;
-      digit++;
-    }
-    /* No leading zeros; the last digit always (0 is "0"). */
-    started |= digit != '0' || p == 1u;
-    if (started) {
-      put_byte(digit);
-    }
-  }
+  put_digits(magnitude, 0);
 }
 
-void put_uint(uint32_t v) { put_decimal(0, v); }
-
-void put_int(int32_t v) {
-  /* The magnitude in uint32_t: exact for INT32_MIN too. */
-  put_decimal(v < 0, v < 0 ? 0u - (uint32_t)v : (uint32_t)v);
-}
-
-void put_hex64(int64_t v) {
-  /* Two 32-bit halves: the M0 has no 64-bit shift instruction. */
-  uint32_t word = (uint32_t)((uint64_t)v >> 32);
-  for (unsigned i = 0; i < 16u; i++) {
-    if (i == 8u) {
-      word = (uint32_t)v;
-    }
-    /* The top nibble (< 16), then the next one up. */
-    unsigned nibble = word >> 28;
-    word <<= 4;
-    put_byte((char)(nibble < 10u ? '0' + nibble : 'a' - 10u + nibble));
-  }
-}
+/* Writes `label` (a string literal), then `v` in decimal (its magnitude
+   in uint32_t: exact for INT32_MIN too). */
+#define PUT_INT(label, v) PUT_DECIMAL(label, (v) < 0, (v) < 0 ? 0u - (uint32_t)(v) : (uint32_t)(v))
 
 /* The status names after their "fault-" prefix, in the order of
-   put_status's numbers, each with the line's end: one string, no table
+   put_reading's numbers, each with the line's end: one string, no table
    of pointers. */
 static const char names[] = "ok\nbelow-range\nabove-range\nno-target\n"
                             "counts\ncompanion\nshift\nratio\nreference\nreference-low\nfrozen\n"
                             "temperature-domain\ntemperature-missing\nout-of-reach\n";
 
-void put_status(lc_status_t status, lc_fault_t fault) {
+void put_reading(uint32_t index, int32_t value, int has_secondary, int32_t secondary,
+                 int64_t q40, lc_status_t status, lc_fault_t fault) {
+  PUT_DECIMAL("reading ", 0, index);
+  PUT_INT(" value ", value);
+  /* Either branch ends with the next label (one write less without a
+     secondary value). */
+  if (has_secondary) {
+    PUT_INT(" secondary ", secondary);
+    PUT(" shift ");
+  } else {
+    PUT(" secondary - shift ");
+  }
+  /* Two 32-bit halves: the M0 has no 64-bit shift instruction. */
+  put_digits((uint32_t)((uint64_t)q40 >> 32), 1);
+  put_digits((uint32_t)q40, 1);
+  PUT(" status ");
   unsigned number = (unsigned)status;
   if (status == LC_STATUS_SENSOR_FAULT) {
     PUT("fault-");
@@ -87,22 +96,4 @@ void put_status(lc_status_t status, lc_fault_t fault) {
   while (*at++ != '\n') {
   }
   host_write(start, (size_t)(at - start));
-}
-
-void __attribute__((noinline)) put_reading(uint32_t index, int32_t value, int has_secondary, int32_t secondary,
-                 int64_t q40, lc_status_t status, lc_fault_t fault) {
-  PUT("reading ");
-  put_uint(index);
-  PUT(" value ");
-  put_int(value);
-  PUT(" secondary ");
-  if (has_secondary) {
-    put_int(secondary);
-  } else {
-    PUT("-");
-  }
-  PUT(" shift ");
-  put_hex64(q40);
-  PUT(" status ");
-  put_status(status, fault);
 }

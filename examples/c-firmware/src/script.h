@@ -64,7 +64,9 @@ static inline void gate_input(uint32_t cycles, uint32_t ticks, int16_t centi_c, 
   in->pair.ticks = ticks;
   in->companion.cycles = 0u;
   in->companion.ticks = 0u;
-  in->temperature_centi_c = centi_c == NO_TEMPERATURE ? 0 : centi_c;
+  /* Read only with LC_INPUT_TEMPERATURE (without it, NO_TEMPERATURE
+     stays here unread). */
+  in->temperature_centi_c = centi_c;
   in->ring_count = 0u;
   in->flags = centi_c == NO_TEMPERATURE ? 0u : LC_INPUT_TEMPERATURE;
 }
