@@ -35,8 +35,9 @@ static void __attribute__((noreturn)) exit_with(int success) {
 static int32_t out_handle;
 
 void host_open(void) {
-  /* ":tt" opened for writing (mode 4) is the host's standard output. */
-  const uint32_t args[3] = {(uint32_t)(uintptr_t) ":tt", 4u, 3u};
+  /* ":tt" opened for writing (mode 4) is the host's standard output: the
+     name, the mode and the name's length, in flash. */
+  static const uintptr_t args[3] = {(uintptr_t)":tt", 4u, 3u};
   out_handle = semihost(SYS_OPEN, args);
 }
 
