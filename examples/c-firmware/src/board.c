@@ -22,14 +22,18 @@ static int32_t semihost(int32_t op, const void *arg) {
 #define ADP_STOPPED_APPLICATION_EXIT 0x20026
 #define ADP_STOPPED_RUN_TIME_ERROR 0x20023
 
-static void __attribute__((noreturn)) exit_with(int success) {
-  semihost(SYS_EXIT,
-           (const void *)(uintptr_t)(success ? ADP_STOPPED_APPLICATION_EXIT
-                                             : ADP_STOPPED_RUN_TIME_ERROR));
+/* Ends the program with `reason`: the emulator exits with status 0 for
+   ADP_STOPPED_APPLICATION_EXIT, 1 otherwise. */
+static void __attribute__((noreturn)) exit_with(uintptr_t reason) {
+  semihost(SYS_EXIT, (const void *)reason);
   for (;;) {
     __asm__ volatile("wfi");
   }
 }
+
+/* Ends the program with a failure status. Also the handler of every
+   fault and unexpected interrupt (vector_table). */
+static void __attribute__((noreturn)) exit_failure(void) { exit_with(ADP_STOPPED_RUN_TIME_ERROR); }
 
 /* The handle the host gave for its standard output (host_open). */
 static int32_t out_handle;
@@ -46,13 +50,13 @@ void host_write(const char *bytes, size_t len) {
   /* Returns the number of bytes not written (a failed open's handle, -1,
      is refused). */
   if (semihost(SYS_WRITE, args) != 0) {
-    exit_with(0);
+    exit_failure();
   }
 }
 
 void host_fail(const char *why, size_t len) {
   host_write(why, len);
-  exit_with(0);
+  exit_failure();
 }
 
 uint32_t stack_peak_bytes(void) {
@@ -67,7 +71,7 @@ uint32_t stack_peak_bytes(void) {
 void host_finish(void) {
   PUT_DECIMAL("stack ", 0, stack_peak_bytes());
   PUT("\n");
-  exit_with(1);
+  exit_with(ADP_STOPPED_APPLICATION_EXIT);
 }
 
 /* After the paint: initialised data, zeroed data, main. */
@@ -80,7 +84,7 @@ void __attribute__((noreturn, used)) start(void) {
     *dst++ = 0u;
   }
   main();
-  exit_with(0);
+  exit_failure();
 }
 
 /* Reset: paints the whole stack with 0xCCCCCCCC (before anything is
@@ -101,12 +105,10 @@ void __attribute__((naked, noreturn)) Reset_Handler(void) {
                    ".ltorg\n");
 }
 
-/* Any fault or unexpected interrupt ends the program with a failure. */
-void Default_Handler(void) { exit_with(0); }
 
 /* Initial stack pointer, reset, 14 system exceptions and the M0's 32
    interrupts (the size of cortex-m-rt's table without a device crate). */
 __attribute__((section(".vector_table"), used)) static const uintptr_t vector_table[48] = {
     (uintptr_t)&_stack_start, (uintptr_t)Reset_Handler,
-    [2 ... 47] = (uintptr_t)Default_Handler,
+    [2 ... 47] = (uintptr_t)exit_failure,
 };
