@@ -105,7 +105,6 @@ void __attribute__((naked, noreturn)) Reset_Handler(void) {
                    ".ltorg\n");
 }
 
-
 /* Initial stack pointer, reset, 14 system exceptions and the M0's 32
    interrupts (the size of cortex-m-rt's table without a device crate). */
 __attribute__((section(".vector_table"), used)) static const uintptr_t vector_table[48] = {

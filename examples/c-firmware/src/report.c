@@ -18,8 +18,8 @@ static void __attribute__((noinline)) put_digits(uint32_t v, int hex) {
   int started = hex;
   for (;; p++) {
     unsigned digit = 0u;
-    /* At most 15 rounds: v < 16 * p here (v < 10 * p for decimal),
-       except for 10^9, where v <= UINT32_MAX < 5 * 10^9. */
+    /* At most 15 rounds: v is below 16 times the power here (10 times
+       in decimal), except for 10^9, where v <= UINT32_MAX < 5 * 10^9. */
     while (v >= *p) {
       v -= *p;
       digit++;
