@@ -607,17 +607,12 @@ fn header(r: impl Fields, accept: u8) -> Result<Header, ImageError> {
             ring_drop: r.u16(METAL_RING_DROP).ok_or(Truncated)?,
             relearn_readings: r.u32(METAL_RELEARN).ok_or(Truncated)?,
         };
-        let reserved_ok = r.u8(RESERVED_93) == Some(0);
-        let valid = p.enter_ppb > 0
-            && p.enter_ppb < MetalParams::PPB_LIMIT
-            && p.leave_ppb < p.enter_ppb
-            && p.enter_samples > 0
-            && p.leave_samples > 0
-            && (1..=16).contains(&p.baseline_k);
-        if !valid {
+        // The one check of the parameters: what the reader needs to build
+        // (`leave < enter` makes `enter` positive).
+        if !crate::reader::metal_builds(&p) {
             return Err(OutOfRange(Field::Metal));
         }
-        if !reserved_ok {
+        if r.u8(RESERVED_93) != Some(0) {
             return Err(OutOfRange(Field::Reserved));
         }
         Some(p)
@@ -686,10 +681,10 @@ impl<'a> Image<'a> {
     /// Order of the checks (the first failing one is reported): length of
     /// the framing, magic, version, stated length against the node
     /// counts and the bytes given, alignment, the bytes after the image,
-    /// CRC-32, then each header field, the consistency between fields
-    /// and kind, the tables (nodes and every segment's constants), and
-    /// what the readers derive (shift converter, companion ratio, metal
-    /// detector).
+    /// CRC-32, then each header field (the metal detector's parameters
+    /// as its reader needs them), the consistency between fields and kind,
+    /// the tables (nodes and every segment's constants), and what the
+    /// readers derive (shift converter, companion ratio).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
     /// image byte with the byte table), about 280 per cubic curve segment,
@@ -798,7 +793,8 @@ impl<'a> Image<'a> {
 
     /// What the readers derive, checked here so that every reader builds:
     /// the converters' stored reciprocals (by multiplies, no 128-bit
-    /// division at start-up), the companion coil, the metal detector.
+    /// division at start-up) and the companion coil (the metal detector's
+    /// parameters are checked with the header's fields).
     #[inline(always)]
     fn derived(words: &'a [u32], h: &Header) -> Result<(), ImageError> {
         use ImageError::*;
@@ -835,10 +831,7 @@ impl<'a> Image<'a> {
             #[cfg(not(feature = "companion"))]
             (_, Some(_)) => return Err(OutOfRange(Field::CompanionRest)),
         }
-        if h.kind == ReaderKind::Metal && h.metal.is_some_and(|p| !crate::reader::metal_builds(&p))
-        {
-            return Err(OutOfRange(Field::Metal));
-        }
+        // Metal: `header` checked the parameters (`metal_builds`).
         Ok(())
     }
 
