@@ -472,29 +472,28 @@ impl<'a> CurveRef<'a> {
         // One pass, segment after segment, each with its two end nodes:
         // shifts increasing, each step of the table's direction (the
         // direction of the first and last nodes: a step against it means
-        // the values rise and fall), each segment's constants.
-        let mut whole = record(c.nodes, 0)[0] == 0;
-        let ends = c.nodes.windows(2).map(|e| (e.first(), e.get(1)));
-        if cubic {
-            for ((n0, n1), seg) in ends.zip(c.cubic) {
-                if let (Some(n0), Some(n1)) = (n0, n1) {
-                    whole &= check_segment(*n0, *n1, seg, true, c.rising)?;
-                }
-            }
+        // the values rise and fall), each segment's constants. One loop
+        // for both kinds: a segment's words from `stride` words on.
+        let (mut seg, stride): (&[u32], usize) = if cubic {
+            (bytemuck::cast_slice(c.cubic), CUBIC_SEGMENT_WORDS)
         } else {
-            for ((n0, n1), seg) in ends.zip(c.linear) {
-                if let (Some(n0), Some(n1)) = (n0, n1) {
-                    whole &= check_segment(*n0, *n1, seg, false, c.rising)?;
-                }
+            (bytemuck::cast_slice(c.linear), LINEAR_SEGMENT_WORDS)
+        };
+        let mut whole = record(c.nodes, 0)[0] == 0;
+        for e in c.nodes.windows(2) {
+            if let [n0, n1] = e {
+                whole &= check_segment(*n0, *n1, seg, cubic, c.rising)?;
             }
+            seg = seg.get(stride..).unwrap_or(&[]);
         }
         c.whole = whole;
         Ok(c)
     }
 
     /// The view of `len` nodes and their segments, unchecked but for the
-    /// node count and the words' presence; its direction set.
-    #[inline(always)]
+    /// node count and the words' presence; its direction set. Out of
+    /// line: validation and each reader's constructor share one copy.
+    #[inline(never)]
     fn view_of(
         nodes: &'a [u32],
         segs: &'a [u32],
