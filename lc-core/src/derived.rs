@@ -6,7 +6,27 @@
 //! segment's slope or reciprocal width, and a shift converter's
 //! reciprocals of the rest point and of rest point times gate.
 
-use crate::fixed::mul_u32_wide;
+use crate::fixed::{mul_u32_wide, ARMV6M};
+
+/// `a · b`, exact ([`mul_u32_wide`]), for the start-up checks and the
+/// fault window's full check: on ARMv6-M through one out-of-line copy
+/// (inlined, the 16-bit partial products cost 40 to 80 bytes of flash at
+/// each of about six places), elsewhere the single multiply instruction
+/// inline.
+#[inline(always)]
+pub(crate) fn mul_wide(a: u32, b: u32) -> u64 {
+    if ARMV6M {
+        mul_wide_out_of_line(a, b)
+    } else {
+        mul_u32_wide(a, b)
+    }
+}
+
+/// [`mul_wide`]'s out-of-line copy (ARMv6-M).
+#[inline(never)]
+fn mul_wide_out_of_line(a: u32, b: u32) -> u64 {
+    mul_u32_wide(a, b)
+}
 
 /// Whether `m` = round(n · 2^e / d), rounding half up, for a divisor `d`
 /// of up to three 32-bit words (least significant first, d > 0):
@@ -36,7 +56,7 @@ pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
             _ if n == 0 => 0,
             _ => return false,
         };
-        let p = mul_u32_wide(m, d[0]);
+        let p = mul_wide(m, d[0]);
         // x + ⌊d/2⌋ − p in 0..d, without forming the sum (it may reach
         // 2^64): p − x ≤ ⌊d/2⌋ when p ≥ x, x − p < d − ⌊d/2⌋ otherwise.
         let h = d[0] >> 1;
@@ -70,7 +90,7 @@ pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
         let p = if di == 0 {
             core::mem::take(&mut product_carry)
         } else {
-            let p = mul_u32_wide(m, di).wrapping_add(u64::from(product_carry));
+            let p = mul_wide(m, di).wrapping_add(u64::from(product_carry));
             product_carry = (p >> 32) as u32;
             p as u32
         };

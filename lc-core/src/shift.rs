@@ -56,7 +56,7 @@
 //! ```
 
 use crate::counting::{CountPair, Gate, Gating};
-use crate::derived::is_rounded_ratio;
+use crate::derived::{is_rounded_ratio, mul_wide};
 use crate::fixed::{
     div_rem_u64_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64, shl_to_top,
 };
@@ -220,9 +220,9 @@ fn reciprocal_checked((m, e): (u32, u32), d: [u32; 3]) -> bool {
 /// products (a 128-bit multiply is several library calls on a Cortex-M0).
 fn rest_words(p: u64, n: u32) -> ([u32; 3], [u32; 3]) {
     let (p0, p1) = (p as u32, (p >> 32) as u32); // exact halves
-    let lo = mul_u32_wide(p0, n);
+    let lo = mul_wide(p0, n);
     // p1·N + the carry word < 2^64: cannot wrap.
-    let hi = mul_u32_wide(p1, n).wrapping_add(lo >> 32);
+    let hi = mul_wide(p1, n).wrapping_add(lo >> 32);
     ([p0, p1, 0], [lo as u32, hi as u32, (hi >> 32) as u32])
 }
 

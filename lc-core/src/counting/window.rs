@@ -1,7 +1,8 @@
 //! The fault window: which count pairs are plausible readings at all.
 
 use super::CountPair;
-use crate::fixed::{div_rem_u64_u32, mul_u32_wide};
+use crate::derived::mul_wide as wide;
+use crate::fixed::div_rem_u64_u32;
 use core::fmt;
 
 /// Why a count pair is not a plausible reading.
@@ -237,18 +238,6 @@ impl FaultWindow {
     }
 }
 
-/// `a · b`, exact: on ARMv6-M through one out-of-line copy for the
-/// check's three products (each about 36 bytes inlined there), elsewhere
-/// the single multiply instruction inline.
-#[inline(always)]
-fn wide(a: u32, b: u32) -> u64 {
-    if crate::fixed::ARMV6M {
-        wide_out_of_line(a, b)
-    } else {
-        mul_u32_wide(a, b)
-    }
-}
-
 /// `n / d` rounded up (`up`) or down, `u64::MAX` for `d` = 0; for
 /// `up`, `n / d` rounded up must be below 2^64 (it is for d ≥ 2 or a
 /// remainder of 0). Out of line: one copy of the division for both of
@@ -258,12 +247,6 @@ fn quotient(n: u64, d: u32, up: bool) -> u64 {
     div_rem_u64_u32(n, d).map_or(u64::MAX, |(q, r)| {
         q.wrapping_add(u64::from(up && r != 0))
     })
-}
-
-/// [`wide`]'s out-of-line copy (ARMv6-M).
-#[inline(never)]
-fn wide_out_of_line(a: u32, b: u32) -> u64 {
-    mul_u32_wide(a, b)
 }
 
 #[cfg(test)]

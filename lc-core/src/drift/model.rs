@@ -1,6 +1,7 @@
 //! The per-unit temperature model.
 
-use crate::fixed::{mul_i32_u32_wide, mul_u32_wide, reciprocal_q63};
+use crate::derived::mul_wide;
+use crate::fixed::{mul_i32_u32_wide, reciprocal_q63};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -115,7 +116,7 @@ impl TemperatureModel {
         // widening multiply).
         let mut sum = 0u64;
         for (b, f) in [(b1, e << 16), (b2, e.wrapping_mul(e))] {
-            sum = sum.wrapping_add(mul_u32_wide(b.unsigned_abs(), f));
+            sum = sum.wrapping_add(mul_wide(b.unsigned_abs(), f));
         }
         // |g| < 1/2 ⇔ below 2^55.
         if sum >= 1 << 55 {
