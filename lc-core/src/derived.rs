@@ -33,12 +33,13 @@ fn mul_wide_out_of_line(a: u32, b: u32) -> u64 {
 /// 0 ≤ n·2^e + ⌊d/2⌋ − m·d < d. Exact for every `n` and e ≤ 127; false
 /// for d = 0 and for e > 127.
 ///
-/// A divisor of one word (a curve segment's) takes a 64-bit path; a
-/// longer one goes word by word from the least significant, in 32-bit
-/// operations only: the running product m·d (its carry word), the sum
-/// n·2^e + ⌊d/2⌋ (its carry), their difference r (its borrow) and the
-/// borrow of r − d, which says at the end whether r < d. The loop stops
-/// after the last word any of them reaches.
+/// The test in exact arithmetic: with s = x + ⌊d/2⌋ and r = s − m·d
+/// taken modulo 2^k, the true value lies in 0..d exactly when the carry
+/// out of s equals the borrow out of r and r < d. A divisor of one word
+/// (a curve segment's) takes it in 64 bits (k = 64: m·d < 2^64, so
+/// n·2^e must be below 2^64 too); a longer one in 128 bits (m·d < 2^128
+/// and m·d + d < 2^128, so n·2^e must be below 2^128), m·d from three
+/// 32 × 32-bit products.
 #[inline(never)]
 pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
     if e > 127 {
@@ -48,74 +49,39 @@ pub(crate) fn is_rounded_ratio(m: u32, n: u32, e: u32, d: [u32; 3]) -> bool {
     let (q, b) = (e >> 5, e & 31);
     let (x_lo, x_hi) = (n << b, (n >> 1) >> (31 - b));
     if d[1] == 0 && d[2] == 0 {
-        // One word (a curve segment's w'): m·d < 2^64, so n·2^e must be
-        // below 2^64 too, and all of it is u64.
+        // One word (a curve segment's w').
         let x = match q {
             0 => (u64::from(x_hi) << 32) | u64::from(x_lo),
             1 if x_hi == 0 => u64::from(x_lo) << 32,
             _ if n == 0 => 0,
             _ => return false,
         };
-        let p = mul_wide(m, d[0]);
-        // x + ⌊d/2⌋ − p in 0..d, without forming the sum (it may reach
-        // 2^64): p − x ≤ ⌊d/2⌋ when p ≥ x, x − p < d − ⌊d/2⌋ otherwise.
-        let h = d[0] >> 1;
-        return if d[0] == 0 {
-            false
-        } else if p >= x {
-            p - x <= u64::from(h)
-        } else {
-            x - p < u64::from(d[0] - h)
-        };
+        let (s, carry) = x.overflowing_add(u64::from(d[0] >> 1));
+        let (r, borrow) = s.overflowing_sub(mul_wide(m, d[0]));
+        return carry == borrow && r < u64::from(d[0]);
     }
-    // m·d reaches one word past d's top word, n·2^e word q + 1.
-    let top = if d[2] != 0 {
-        3
-    } else if d[1] != 0 {
-        2
-    } else {
-        1
+    // Two or three words (a converter's p or p·N): n·2^e in the words
+    // q and q + 1 of four, or at least 2^128.
+    let mut x = [0u32; 4];
+    let q = q as usize & 3; // q ≤ 3: the mask changes nothing
+    x[q] = x_lo;
+    match x.get_mut(q + 1) {
+        Some(w) => *w = x_hi,
+        None if x_hi != 0 => return false,
+        None => {}
+    }
+    let wide = |w: [u32; 4]| {
+        u128::from(w[0]) | u128::from(w[1]) << 32 | u128::from(w[2]) << 64 | u128::from(w[3]) << 96
     };
-    let words = (q + 2).max(top + 1);
-    let mut product_carry = 0u32;
-    let mut sum_carry = 0u32; // 0 or 1
-    let mut borrow = false; // of r = sum − product
-    let mut below = false; // r < d on the words so far
-    let mut i = 0u32;
-    while i < words {
-        let di = d.get(i as usize).copied().unwrap_or(0);
-        let next = d.get(i as usize + 1).copied().unwrap_or(0);
-        // Word i of m·d: m·d_i + carry < 2^64 cannot wrap (a zero word
-        // of d skips the multiply).
-        let p = if di == 0 {
-            core::mem::take(&mut product_carry)
-        } else {
-            let p = mul_wide(m, di).wrapping_add(u64::from(product_carry));
-            product_carry = (p >> 32) as u32;
-            p as u32
-        };
-        let x = if i == q {
-            x_lo
-        } else if i == q + 1 {
-            x_hi
-        } else {
-            0
-        };
-        let h = (di >> 1) | (next << 31); // word i of ⌊d/2⌋
-        let (s, c1) = x.overflowing_add(h);
-        let (s, c2) = s.overflowing_add(sum_carry);
-        sum_carry = u32::from(c1) + u32::from(c2);
-        let (r, b1) = s.overflowing_sub(p);
-        let (r, b2) = r.overflowing_sub(u32::from(borrow));
-        borrow = b1 | b2;
-        let (t, l1) = r.overflowing_sub(di);
-        let (_, l2) = t.overflowing_sub(u32::from(below));
-        below = l1 | l2;
-        i += 1;
-    }
-    // r ≥ 0 and nothing above the words (the sum's carry out is the
-    // difference's borrow out), the product used up, and r < d.
-    sum_carry == u32::from(borrow) && product_carry == 0 && below
+    // m·d word by word: each product plus the carry word < 2^64.
+    let p0 = mul_wide(m, d[0]);
+    let p1 = mul_wide(m, d[1]).wrapping_add(p0 >> 32);
+    let p2 = mul_wide(m, d[2]).wrapping_add(p1 >> 32);
+    let p = wide([p0 as u32, p1 as u32, p2 as u32, (p2 >> 32) as u32]);
+    let d = wide([d[0], d[1], d[2], 0]);
+    let (s, carry) = wide(x).overflowing_add(d >> 1);
+    let (r, borrow) = s.overflowing_sub(p);
+    carry == borrow && r < d
 }
 
 #[cfg(test)]
