@@ -74,7 +74,7 @@
 //! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
 //! ```
 
-use crate::derived::is_rounded_ratio;
+use crate::derived::is_rounded_ratio_word;
 #[cfg(any(test, feature = "design"))]
 use crate::fixed::{leading_zeros_u32, round_shr_u64};
 use crate::fixed::{mul_u32_wide, shr_u64};
@@ -370,7 +370,7 @@ fn check_segment(
         let ok = if a == 0 {
             k == 0 && k_exp == 0
         } else {
-            normal && (k > 0) == rising && is_rounded_ratio(m, a, k_exp, [d, 0, 0])
+            normal && (k > 0) == rising && is_rounded_ratio_word(m, a, k_exp, d)
         };
         return if ok {
             Ok(whole)
@@ -378,7 +378,7 @@ fn check_segment(
             Err(CurveError::BadSegment)
         };
     }
-    if !(normal && k > 0 && is_rounded_ratio(m, 1 << 30, k_exp, [d, 0, 0])) {
+    if !(normal && k > 0 && is_rounded_ratio_word(m, 1 << 30, k_exp, d)) {
         return Err(CurveError::BadSegment);
     }
     if a >= 1 << 21 {
@@ -459,8 +459,8 @@ impl<'a> CurveRef<'a> {
     /// constants correct for its end nodes ([`CurveError::BadSegment`]
     /// otherwise). Words are little endian (the image's byte order).
     ///
-    /// Cost: no division; on a Cortex-M0 about 280 instructions per cubic
-    /// segment (one call of `check_segment` and one of the shared ratio
+    /// Cost: no division; on a Cortex-M0 about 300 instructions per cubic
+    /// segment (one call of `check_segment` and one of the rounded-ratio
     /// check each). Stack: under 200 bytes.
     pub fn from_words(
         nodes: &'a [u32],

@@ -692,7 +692,7 @@ impl<'a> Image<'a> {
     /// detector).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
-    /// image byte with the byte table), about 280 per cubic curve segment,
+    /// image byte with the byte table), about 300 per cubic curve segment,
     /// and one to two thousand for the header and the converters' checks
     /// (docs/performance.md, "Loading"). Stack: a few hundred bytes
     /// besides the returned 12-byte `Image`.
