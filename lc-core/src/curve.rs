@@ -363,23 +363,22 @@ fn check_segment(
     let m = k.unsigned_abs();
     let normal = (1 << 30..1 << 31).contains(&m);
     let whole = lo1 == 0 && (1..=32).contains(&sh);
-    if !cubic {
-        if a >= 1 << 30 {
-            return Err(CurveError::SegmentTooSteep);
-        }
-        let ok = if a == 0 {
-            k == 0 && k_exp == 0
-        } else {
-            normal && (k > 0) == rising && is_rounded_ratio_word(m, a, k_exp, d)
-        };
-        return if ok {
-            Ok(whole)
-        } else {
-            Err(CurveError::BadSegment)
-        };
+    // Linear: k = round(Δy · 2^e / w') with the table's sign (0 for a flat
+    // segment); cubic: k = round(2^30 · 2^e / w'), positive.
+    if !cubic && a >= 1 << 30 {
+        return Err(CurveError::SegmentTooSteep);
     }
-    if !(normal && k > 0 && is_rounded_ratio_word(m, 1 << 30, k_exp, d)) {
+    let ok = if !cubic && a == 0 {
+        k == 0 && k_exp == 0
+    } else {
+        let n = if cubic { 1 << 30 } else { a };
+        normal && (k > 0) == (cubic || rising) && is_rounded_ratio_word(m, n, k_exp, d)
+    };
+    if !ok {
         return Err(CurveError::BadSegment);
+    }
+    if !cubic {
+        return Ok(whole);
     }
     if a >= 1 << 21 {
         return Err(CurveError::SegmentTooSteep);

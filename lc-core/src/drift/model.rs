@@ -112,12 +112,10 @@ impl TemperatureModel {
                 .max(reference.0.wrapping_sub(lo.0)) as u32;
         // In units of 2^-56: |b1|·E·2^16 < 2^31·2^16·2^16 = 2^63 and
         // |b2|·E² < 2^62; the sum fits u64. E·2^16 < 2^32: both terms are
-        // products of two words, taken in one loop (one copy of the
-        // widening multiply).
-        let mut sum = 0u64;
-        for (b, f) in [(b1, e << 16), (b2, e.wrapping_mul(e))] {
-            sum = sum.wrapping_add(mul_wide(b.unsigned_abs(), f));
-        }
+        // products of two words (on ARMv6-M through the one out-of-line
+        // copy of the widening multiply).
+        let sum = mul_wide(b1.unsigned_abs(), e << 16)
+            .wrapping_add(mul_wide(b2.unsigned_abs(), e.wrapping_mul(e)));
         // |g| < 1/2 ⇔ below 2^55.
         if sum >= 1 << 55 {
             return Err(DriftError::CorrectionTooLarge);
