@@ -468,25 +468,45 @@ impl<'a> CurveRef<'a> {
         cubic: bool,
     ) -> Result<Self, CurveError> {
         let mut c = Self::view_of(nodes, segs, len, cubic)?;
-        // One pass, segment after segment, each with its two end nodes:
-        // shifts increasing, each step of the table's direction (the
-        // direction of the first and last nodes: a step against it means
-        // the values rise and fall), each segment's constants. One loop
-        // for both kinds: a segment's words from `stride` words on.
+        c.whole = c.check_segments(cubic)?;
+        Ok(c)
+    }
+
+    /// [`CurveRef::from_words`]' checks without the view: the table's
+    /// direction (rising) and [`CurveRef::on_whole_levels`], or the same
+    /// error. What image validation needs (it keeps no view).
+    #[inline(always)]
+    pub(crate) fn check_words(
+        nodes: &[u32],
+        segs: &[u32],
+        len: usize,
+        cubic: bool,
+    ) -> Result<(bool, bool), CurveError> {
+        let c = CurveRef::view_of(nodes, segs, len, cubic)?;
+        Ok((c.rising, c.check_segments(cubic)?))
+    }
+
+    /// One pass, segment after segment, each with its two end nodes:
+    /// shifts increasing, each step of the table's direction (the
+    /// direction of the first and last nodes: a step against it means the
+    /// values rise and fall), each segment's constants. One loop for both
+    /// kinds: a segment's words from `stride` words on. Returns whether
+    /// the curve lies on whole levels.
+    #[inline(always)]
+    fn check_segments(&self, cubic: bool) -> Result<bool, CurveError> {
         let (mut seg, stride): (&[u32], usize) = if cubic {
-            (bytemuck::cast_slice(c.cubic), CUBIC_SEGMENT_WORDS)
+            (bytemuck::cast_slice(self.cubic), CUBIC_SEGMENT_WORDS)
         } else {
-            (bytemuck::cast_slice(c.linear), LINEAR_SEGMENT_WORDS)
+            (bytemuck::cast_slice(self.linear), LINEAR_SEGMENT_WORDS)
         };
-        let mut whole = record(c.nodes, 0)[0] == 0;
-        for e in c.nodes.windows(2) {
+        let mut whole = record(self.nodes, 0)[0] == 0;
+        for e in self.nodes.windows(2) {
             if let [n0, n1] = e {
-                whole &= check_segment(*n0, *n1, seg, cubic, c.rising)?;
+                whole &= check_segment(*n0, *n1, seg, cubic, self.rising)?;
             }
             seg = seg.get(stride..).unwrap_or(&[]);
         }
-        c.whole = whole;
-        Ok(c)
+        Ok(whole)
     }
 
     /// The view of `len` nodes and their segments, unchecked but for the

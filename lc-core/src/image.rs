@@ -766,27 +766,28 @@ impl<'a> Image<'a> {
         }
         let h = header(Words(words), accept)?;
         // Tables: nodes, then segments, each table after the last.
+        // Each table's (rising, on whole levels), or its error.
         let table = |at: usize, n: usize, cubic: bool| {
             let w = words.get(at / 4..).unwrap_or(&[]);
             let segs = w.get(n * 3..).unwrap_or(&[]);
-            CurveRef::from_words(w, segs, n, cubic)
+            CurveRef::check_words(w, segs, n, cubic)
         };
         let mut whole = 0;
         if h.kind != ReaderKind::Metal {
-            let c = table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
-            whole |= u8::from(c.on_whole_levels());
+            let (_, w) = table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
+            whole |= u8::from(w);
         }
         if h.kind == ReaderKind::Level && h.volume_output.is_some() {
-            let v = table(
+            let (rising, w) = table(
                 HEADER_LEN + curve_len,
                 volume_n,
                 flags & FLAG_VOLUME_CUBIC != 0,
             )
             .map_err(BadVolume)?;
-            if !v.is_rising() {
+            if !rising {
                 return Err(BadVolume(CurveError::NotMonotone));
             }
-            whole |= u8::from(v.on_whole_levels()) << 1;
+            whole |= u8::from(w) << 1;
         }
         Self::derived(words, &h)?;
         Ok(Image {

@@ -244,9 +244,7 @@ impl FaultWindow {
 /// [`FaultWindow::accepted_ticks`]' bounds.
 #[inline(never)]
 fn quotient(n: u64, d: u32, up: bool) -> u64 {
-    div_rem_u64_u32(n, d).map_or(u64::MAX, |(q, r)| {
-        q.wrapping_add(u64::from(up && r != 0))
-    })
+    div_rem_u64_u32(n, d).map_or(u64::MAX, |(q, r)| q.wrapping_add(u64::from(up && r != 0)))
 }
 
 #[cfg(test)]
