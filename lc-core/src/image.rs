@@ -1012,6 +1012,7 @@ impl<'a> Image<'a> {
 
     /// The converter of the stored rest point and reciprocals, as
     /// validation checked it.
+    #[inline(always)]
     fn converter(&self, rest: RestPoint, reciprocals: [(Span, Span); 2]) -> ShiftConverter {
         let [(m, e), (gm, ge)] = reciprocals;
         ShiftConverter::from_checked(
