@@ -100,6 +100,7 @@ impl TemperatureModel {
     /// |ΔT| the domain allows from it, |b1|·E + |b2|·E² < 1/2, so that
     /// |g| < 1/2 across the domain (a bound on each term: no vertex to
     /// find, no division; two multiplies and a compare).
+    #[inline(always)]
     pub fn new(reference: CentiCelsius, b1: i32, b2: i32) -> Result<Self, DriftError> {
         let (lo, hi) = TEMPERATURE_DOMAIN;
         if reference.0 < lo.0 || reference.0 > hi.0 {
