@@ -1072,6 +1072,7 @@ impl<'a> Image<'a> {
 /// Whether every byte is erased flash (0xFF): the whole words by words
 /// where they are aligned (after a validated image they are), the rest
 /// by bytes.
+#[inline(always)]
 fn erased(bytes: &[u8]) -> bool {
     let (head, tail) = bytes.split_at(bytes.len() & !3);
     let (words, tail): (&[u32], &[u8]) = match bytemuck::try_cast_slice(head) {
