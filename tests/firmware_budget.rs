@@ -544,8 +544,8 @@ fn proximity_and_level_within_ram_budget() {
 /// Flash ≤ budget, static RAM + peak stack ≤ budget, and a clean run with
 /// the host's readings in the budget layout.
 #[test]
-#[ignore = "the firmwares still exceed the issue 13 flash budgets (proximity 8 308 B, \
-            level 11 916 B, metal 7 612 B) and metal its RAM (592 B): docs/performance.md, \
+#[ignore = "the level and metal firmwares still exceed the issue 13 flash budgets \
+            (level 11 188 B, metal 7 000 B) and metal its RAM (592 B): docs/performance.md, \
             Footprint of the unit firmwares"]
 fn within_budget() {
     if !prerequisites() {
