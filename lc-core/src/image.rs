@@ -1011,7 +1011,8 @@ impl<'a> Image<'a> {
     }
 
     /// The converter of the stored rest point and reciprocals, as
-    /// validation checked it.
+    /// validation checked it. Inlined at each use, where the fields'
+    /// places are constants: plain word loads, no bounds checks.
     #[inline(always)]
     fn converter(&self, rest: RestPoint, reciprocals: [(Span, Span); 2]) -> ShiftConverter {
         let [(m, e), (gm, ge)] = reciprocals;
@@ -1071,7 +1072,8 @@ impl<'a> Image<'a> {
 
 /// Whether every byte is erased flash (0xFF): the whole words by words
 /// where they are aligned (after a validated image they are), the rest
-/// by bytes.
+/// by bytes. Inlined into validation, where that alignment is known and
+/// the byte-wise fallback folds away.
 #[inline(always)]
 fn erased(bytes: &[u8]) -> bool {
     let (head, tail) = bytes.split_at(bytes.len() & !3);
