@@ -74,7 +74,7 @@
 //! assert_eq!(curve.eval(Shift::from_f64(-0.5).unwrap()).status, CurveStatus::BelowRange);
 //! ```
 
-use crate::derived::is_rounded_ratio;
+use crate::derived::is_rounded_ratio_word;
 #[cfg(any(test, feature = "design"))]
 use crate::fixed::{leading_zeros_u32, round_shr_u64};
 use crate::fixed::{mul_u32_wide, shr_u64};
@@ -363,23 +363,22 @@ fn check_segment(
     let m = k.unsigned_abs();
     let normal = (1 << 30..1 << 31).contains(&m);
     let whole = lo1 == 0 && (1..=32).contains(&sh);
-    if !cubic {
-        if a >= 1 << 30 {
-            return Err(CurveError::SegmentTooSteep);
-        }
-        let ok = if a == 0 {
-            k == 0 && k_exp == 0
-        } else {
-            normal && (k > 0) == rising && is_rounded_ratio(m, a, k_exp, [d, 0, 0])
-        };
-        return if ok {
-            Ok(whole)
-        } else {
-            Err(CurveError::BadSegment)
-        };
+    // Linear: k = round(Δy · 2^e / w') with the table's sign (0 for a flat
+    // segment); cubic: k = round(2^30 · 2^e / w'), positive.
+    if !cubic && a >= 1 << 30 {
+        return Err(CurveError::SegmentTooSteep);
     }
-    if !(normal && k > 0 && is_rounded_ratio(m, 1 << 30, k_exp, [d, 0, 0])) {
+    let ok = if !cubic && a == 0 {
+        k == 0 && k_exp == 0
+    } else {
+        let n = if cubic { 1 << 30 } else { a };
+        normal && (k > 0) == (cubic || rising) && is_rounded_ratio_word(m, n, k_exp, d)
+    };
+    if !ok {
         return Err(CurveError::BadSegment);
+    }
+    if !cubic {
+        return Ok(whole);
     }
     if a >= 1 << 21 {
         return Err(CurveError::SegmentTooSteep);
@@ -459,8 +458,8 @@ impl<'a> CurveRef<'a> {
     /// constants correct for its end nodes ([`CurveError::BadSegment`]
     /// otherwise). Words are little endian (the image's byte order).
     ///
-    /// Cost: no division; on a Cortex-M0 about 280 instructions per cubic
-    /// segment (one call of `check_segment` and one of the shared ratio
+    /// Cost: no division; on a Cortex-M0 about 300 instructions per cubic
+    /// segment (one call of `check_segment` and one of the rounded-ratio
     /// check each). Stack: under 200 bytes.
     pub fn from_words(
         nodes: &'a [u32],
@@ -469,32 +468,51 @@ impl<'a> CurveRef<'a> {
         cubic: bool,
     ) -> Result<Self, CurveError> {
         let mut c = Self::view_of(nodes, segs, len, cubic)?;
-        // One pass, segment after segment, each with its two end nodes:
-        // shifts increasing, each step of the table's direction (the
-        // direction of the first and last nodes: a step against it means
-        // the values rise and fall), each segment's constants.
-        let mut whole = record(c.nodes, 0)[0] == 0;
-        let ends = c.nodes.windows(2).map(|e| (e.first(), e.get(1)));
-        if cubic {
-            for ((n0, n1), seg) in ends.zip(c.cubic) {
-                if let (Some(n0), Some(n1)) = (n0, n1) {
-                    whole &= check_segment(*n0, *n1, seg, true, c.rising)?;
-                }
-            }
-        } else {
-            for ((n0, n1), seg) in ends.zip(c.linear) {
-                if let (Some(n0), Some(n1)) = (n0, n1) {
-                    whole &= check_segment(*n0, *n1, seg, false, c.rising)?;
-                }
-            }
-        }
-        c.whole = whole;
+        c.whole = c.check_segments(cubic)?;
         Ok(c)
     }
 
-    /// The view of `len` nodes and their segments, unchecked but for the
-    /// node count and the words' presence; its direction set.
+    /// [`CurveRef::from_words`]' checks without the view: the table's
+    /// direction (rising) and [`CurveRef::on_whole_levels`], or the same
+    /// error. What image validation needs (it keeps no view).
     #[inline(always)]
+    pub(crate) fn check_words(
+        nodes: &[u32],
+        segs: &[u32],
+        len: usize,
+        cubic: bool,
+    ) -> Result<(bool, bool), CurveError> {
+        let c = CurveRef::view_of(nodes, segs, len, cubic)?;
+        Ok((c.rising, c.check_segments(cubic)?))
+    }
+
+    /// One pass, segment after segment, each with its two end nodes:
+    /// shifts increasing, each step of the table's direction (the
+    /// direction of the first and last nodes: a step against it means the
+    /// values rise and fall), each segment's constants. One loop for both
+    /// kinds: a segment's words from `stride` words on. Returns whether
+    /// the curve lies on whole levels.
+    #[inline(always)]
+    fn check_segments(&self, cubic: bool) -> Result<bool, CurveError> {
+        let (mut seg, stride): (&[u32], usize) = if cubic {
+            (bytemuck::cast_slice(self.cubic), CUBIC_SEGMENT_WORDS)
+        } else {
+            (bytemuck::cast_slice(self.linear), LINEAR_SEGMENT_WORDS)
+        };
+        let mut whole = record(self.nodes, 0)[0] == 0;
+        for e in self.nodes.windows(2) {
+            if let [n0, n1] = e {
+                whole &= check_segment(*n0, *n1, seg, cubic, self.rising)?;
+            }
+            seg = seg.get(stride..).unwrap_or(&[]);
+        }
+        Ok(whole)
+    }
+
+    /// The view of `len` nodes and their segments, unchecked but for the
+    /// node count and the words' presence; its direction set. Out of
+    /// line: validation and each reader's constructor share one copy.
+    #[inline(never)]
     fn view_of(
         nodes: &'a [u32],
         segs: &'a [u32],

@@ -687,7 +687,7 @@ impl<'a> Image<'a> {
     /// readers derive (shift converter, companion ratio).
     ///
     /// Cost on a Cortex-M0: the CRC by words (about 6 instructions per
-    /// image byte with the byte table), about 280 per cubic curve segment,
+    /// image byte with the byte table), about 300 per cubic curve segment,
     /// and one to two thousand for the header and the converters' checks
     /// (docs/performance.md, "Loading"). Stack: a few hundred bytes
     /// besides the returned 12-byte `Image`.
@@ -761,27 +761,28 @@ impl<'a> Image<'a> {
         }
         let h = header(Words(words), accept)?;
         // Tables: nodes, then segments, each table after the last.
+        // Each table's (rising, on whole levels), or its error.
         let table = |at: usize, n: usize, cubic: bool| {
             let w = words.get(at / 4..).unwrap_or(&[]);
             let segs = w.get(n * 3..).unwrap_or(&[]);
-            CurveRef::from_words(w, segs, n, cubic)
+            CurveRef::check_words(w, segs, n, cubic)
         };
         let mut whole = 0;
         if h.kind != ReaderKind::Metal {
-            let c = table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
-            whole |= u8::from(c.on_whole_levels());
+            let (_, w) = table(HEADER_LEN, curve_n, flags & FLAG_CUBIC != 0).map_err(BadCurve)?;
+            whole |= u8::from(w);
         }
         if h.kind == ReaderKind::Level && h.volume_output.is_some() {
-            let v = table(
+            let (rising, w) = table(
                 HEADER_LEN + curve_len,
                 volume_n,
                 flags & FLAG_VOLUME_CUBIC != 0,
             )
             .map_err(BadVolume)?;
-            if !v.is_rising() {
+            if !rising {
                 return Err(BadVolume(CurveError::NotMonotone));
             }
-            whole |= u8::from(v.on_whole_levels()) << 1;
+            whole |= u8::from(w) << 1;
         }
         Self::derived(words, &h)?;
         Ok(Image {
@@ -1003,7 +1004,9 @@ impl<'a> Image<'a> {
     }
 
     /// The converter of the stored rest point and reciprocals, as
-    /// validation checked it.
+    /// validation checked it. Inlined at each use, where the fields'
+    /// places are constants: plain word loads, no bounds checks.
+    #[inline(always)]
     fn converter(&self, rest: RestPoint, reciprocals: [(Span, Span); 2]) -> ShiftConverter {
         let [(m, e), (gm, ge)] = reciprocals;
         ShiftConverter::from_checked(
@@ -1062,7 +1065,9 @@ impl<'a> Image<'a> {
 
 /// Whether every byte is erased flash (0xFF): the whole words by words
 /// where they are aligned (after a validated image they are), the rest
-/// by bytes.
+/// by bytes. Inlined into validation, where that alignment is known and
+/// the byte-wise fallback folds away.
+#[inline(always)]
 fn erased(bytes: &[u8]) -> bool {
     let (head, tail) = bytes.split_at(bytes.len() & !3);
     let (words, tail): (&[u32], &[u8]) = match bytemuck::try_cast_slice(head) {

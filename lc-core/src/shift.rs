@@ -56,7 +56,7 @@
 //! ```
 
 use crate::counting::{CountPair, Gate, Gating};
-use crate::derived::is_rounded_ratio;
+use crate::derived::{is_rounded_ratio, mul_wide};
 use crate::fixed::{
     div_rem_u64_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64, shl_to_top,
 };
@@ -220,9 +220,9 @@ fn reciprocal_checked((m, e): (u32, u32), d: [u32; 3]) -> bool {
 /// products (a 128-bit multiply is several library calls on a Cortex-M0).
 fn rest_words(p: u64, n: u32) -> ([u32; 3], [u32; 3]) {
     let (p0, p1) = (p as u32, (p >> 32) as u32); // exact halves
-    let lo = mul_u32_wide(p0, n);
+    let lo = mul_wide(p0, n);
     // p1·N + the carry word < 2^64: cannot wrap.
-    let hi = mul_u32_wide(p1, n).wrapping_add(lo >> 32);
+    let hi = mul_wide(p1, n).wrapping_add(lo >> 32);
     ([p0, p1, 0], [lo as u32, hi as u32, (hi >> 32) as u32])
 }
 
@@ -438,7 +438,7 @@ impl ShiftConverter {
     #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
     fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
         // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
-        let (x, z) = shl_to_top(mul_u32_wide(ticks, self.inv_mant));
+        let (x, z) = shl_to_top(mul_wide(ticks, self.inv_mant));
         // x ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
         // z ≤ 32 and |inv_exp| < 2^8 (a rest point's scale): the sum
         // cannot wrap.
@@ -461,7 +461,7 @@ impl ShiftConverter {
             return Err(ShiftError::ZeroCount);
         }
         if cycles == self.gate_cycles {
-            return square_to_shift(mul_u32_wide(ticks, self.gate_mant), self.gate_exp);
+            return square_to_shift(mul_wide(ticks, self.gate_mant), self.gate_exp);
         }
         // Off the gate: `shift`'s own tests, repeated, fold away, and its
         // division path remains.
@@ -566,7 +566,7 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
         // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
         return Err(ShiftError::OutOfRange);
     }
-    let u = round_shr_u64(mul_u32_wide(y, y), k.unsigned_abs());
+    let u = round_shr_u64(mul_wide(y, y), k.unsigned_abs());
     let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
     Ok(Shift(u - Shift::ONE_RAW))
 }

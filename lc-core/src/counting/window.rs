@@ -1,7 +1,8 @@
 //! The fault window: which count pairs are plausible readings at all.
 
 use super::CountPair;
-use crate::fixed::{div_rem_u64_u32, mul_u32_wide};
+use crate::derived::mul_wide as wide;
+use crate::fixed::div_rem_u64_u32;
 use core::fmt;
 
 /// Why a count pair is not a plausible reading.
@@ -173,14 +174,12 @@ impl FaultWindow {
         if gate_cycles == 0 || gate_cycles < self.min_cycles || self.max_hz == 0 {
             return None;
         }
-        let scaled = mul_u32_wide(self.reference_hz, gate_cycles);
+        let scaled = wide(self.reference_hz, gate_cycles);
         // f ≤ max ⇔ ticks ≥ f_ref·cycles/max; f ≥ min ⇔ ticks ≤ f_ref·cycles/min.
         // (max_hz ≥ 1 above; a quotient rounded up is below 2^64, since
         // there is a remainder only for max_hz ≥ 2.)
-        let lo = div_rem_u64_u32(scaled, self.max_hz)
-            .map_or(u64::MAX, |(q, r)| q.wrapping_add(u64::from(r != 0)))
-            .max(1);
-        let hi = div_rem_u64_u32(scaled, self.min_hz).map_or(u64::MAX, |(q, _)| q);
+        let lo = quotient(scaled, self.max_hz, true).max(1);
+        let hi = quotient(scaled, self.min_hz, false);
         let lo = u32::try_from(lo).ok()?;
         let hi = u32::try_from(hi).unwrap_or(u32::MAX);
         (lo <= hi).then_some(AcceptedTicks {
@@ -239,22 +238,13 @@ impl FaultWindow {
     }
 }
 
-/// `a · b`, exact: on ARMv6-M through one out-of-line copy for the
-/// check's three products (each about 36 bytes inlined there), elsewhere
-/// the single multiply instruction inline.
-#[inline(always)]
-fn wide(a: u32, b: u32) -> u64 {
-    if crate::fixed::ARMV6M {
-        wide_out_of_line(a, b)
-    } else {
-        mul_u32_wide(a, b)
-    }
-}
-
-/// [`wide`]'s out-of-line copy (ARMv6-M).
+/// `n / d` rounded up (`up`) or down, `u64::MAX` for `d` = 0; for
+/// `up`, `n / d` rounded up must be below 2^64 (it is for d ≥ 2 or a
+/// remainder of 0). Out of line: one copy of the division for both of
+/// [`FaultWindow::accepted_ticks`]' bounds.
 #[inline(never)]
-fn wide_out_of_line(a: u32, b: u32) -> u64 {
-    mul_u32_wide(a, b)
+fn quotient(n: u64, d: u32, up: bool) -> u64 {
+    div_rem_u64_u32(n, d).map_or(u64::MAX, |(q, r)| q.wrapping_add(u64::from(up && r != 0)))
 }
 
 #[cfg(test)]

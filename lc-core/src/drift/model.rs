@@ -1,6 +1,7 @@
 //! The per-unit temperature model.
 
-use crate::fixed::{mul_i32_u32_wide, mul_u32_wide, reciprocal_q63};
+use crate::derived::mul_wide;
+use crate::fixed::{mul_i32_u32_wide, reciprocal_q63};
 use crate::shift::Shift;
 use crate::temperature::CentiCelsius;
 use core::fmt;
@@ -99,6 +100,7 @@ impl TemperatureModel {
     /// |ΔT| the domain allows from it, |b1|·E + |b2|·E² < 1/2, so that
     /// |g| < 1/2 across the domain (a bound on each term: no vertex to
     /// find, no division; two multiplies and a compare).
+    #[inline(always)]
     pub fn new(reference: CentiCelsius, b1: i32, b2: i32) -> Result<Self, DriftError> {
         let (lo, hi) = TEMPERATURE_DOMAIN;
         if reference.0 < lo.0 || reference.0 > hi.0 {
@@ -111,12 +113,10 @@ impl TemperatureModel {
                 .max(reference.0.wrapping_sub(lo.0)) as u32;
         // In units of 2^-56: |b1|·E·2^16 < 2^31·2^16·2^16 = 2^63 and
         // |b2|·E² < 2^62; the sum fits u64. E·2^16 < 2^32: both terms are
-        // products of two words, taken in one loop (one copy of the
-        // widening multiply).
-        let mut sum = 0u64;
-        for (b, f) in [(b1, e << 16), (b2, e.wrapping_mul(e))] {
-            sum = sum.wrapping_add(mul_u32_wide(b.unsigned_abs(), f));
-        }
+        // products of two words (on ARMv6-M through the one out-of-line
+        // copy of the widening multiply).
+        let sum = mul_wide(b1.unsigned_abs(), e << 16)
+            .wrapping_add(mul_wide(b2.unsigned_abs(), e.wrapping_mul(e)));
         // |g| < 1/2 ⇔ below 2^55.
         if sum >= 1 << 55 {
             return Err(DriftError::CorrectionTooLarge);

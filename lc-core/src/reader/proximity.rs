@@ -55,13 +55,7 @@ impl<'a> ProximityReader<'a> {
     /// 168 bytes on a 32-bit target, whatever the curve's node count (the
     /// crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
-        match (image.kind(), image.curve()) {
-            (ReaderKind::Proximity, Some(curve)) => Ok(Self {
-                front: image.front(),
-                curve,
-            }),
-            (kind, _) => Err(ReaderError::WrongKind(kind)),
-        }
+        Self::build(image, |reader| reader)
     }
 
     /// [`ProximityReader::new`] built in place, in storage the caller
@@ -76,8 +70,18 @@ impl<'a> ProximityReader<'a> {
         slot: &'s mut MaybeUninit<Self>,
         image: &Image<'a>,
     ) -> Result<&'s mut Self, ReaderError> {
+        Self::build(image, |reader| slot.write(reader))
+    }
+
+    /// The one field list of [`ProximityReader::new`] and
+    /// [`ProximityReader::init`]: the kind checked, then the reader built
+    /// and handed to `put` (returned as it is, or written into a slot).
+    /// Inlined into both, so each writes the fields straight to where the
+    /// reader lives.
+    #[inline(always)]
+    fn build<R>(image: &Image<'a>, put: impl FnOnce(Self) -> R) -> Result<R, ReaderError> {
         match (image.kind(), image.curve()) {
-            (ReaderKind::Proximity, Some(curve)) => Ok(slot.write(Self {
+            (ReaderKind::Proximity, Some(curve)) => Ok(put(Self {
                 front: image.front(),
                 curve,
             })),
