@@ -291,37 +291,15 @@ impl<'a> LevelReader<'a> {
 
 /// One channel's shift through the front's fault window (a window fault
 /// is [`SensorFault::Counts`]): the probe's with the front's converter, the
-/// reference electrode's with its own. Out of line: one copy of the
-/// window check and the shift for both channels: `Front::checked_shift`
-/// with the full check and the general path (`shift_general`) in a cold
-/// routine of their own, which a pair of the common path (in the gate's
-/// tick band) never reaches. The same results.
+/// reference electrode's with its own. Out of line: one copy of
+/// [`Front::checked_shift_split`] for both channels, with its cold split
+/// (the full check and the general path of a pair off the gate's tick
+/// band in a routine of their own).
 #[inline(never)]
 fn channel_shift(
     front: &Front,
     conv: &ShiftConverter,
     pair: CountPair,
 ) -> Result<Shift, SensorFault> {
-    if let Some(a) = &front.accepted {
-        if a.contains(pair) {
-            if let Some(s) = conv.gate_shortcut(pair.ticks) {
-                return Ok(s);
-            }
-            return conv.shift_general(pair).map_err(SensorFault::Shift);
-        }
-    }
-    checked_shift_slow(front, conv, pair)
-}
-
-/// [`channel_shift`] of a pair outside the gate's tick band: the full
-/// window check, then the general shift.
-#[cold]
-#[inline(never)]
-fn checked_shift_slow(
-    front: &Front,
-    conv: &ShiftConverter,
-    pair: CountPair,
-) -> Result<Shift, SensorFault> {
-    front.window.check(pair).map_err(SensorFault::Counts)?;
-    conv.shift_general(pair).map_err(SensorFault::Shift)
+    front.checked_shift_split::<true>(conv, pair, SensorFault::Counts)
 }

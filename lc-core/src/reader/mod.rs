@@ -360,6 +360,22 @@ impl Front {
         pair: CountPair,
         window: impl FnOnce(FaultError) -> SensorFault,
     ) -> Result<Shift, SensorFault> {
+        self.checked_shift_split::<false>(conv, pair, window)
+    }
+
+    /// [`Front::checked_shift`], with the full check and the general path
+    /// for a pair off the accepted ticks inline (`COLD` false) or in a
+    /// cold routine of their own that the common path never reaches
+    /// (`COLD` true: the level reader's choice, where both channels share
+    /// one out-of-line copy of the common path). The same results either
+    /// way.
+    #[inline(always)]
+    pub(crate) fn checked_shift_split<const COLD: bool>(
+        &self,
+        conv: &ShiftConverter,
+        pair: CountPair,
+        window: impl FnOnce(FaultError) -> SensorFault,
+    ) -> Result<Shift, SensorFault> {
         // A pair inside the accepted ticks has the gate's cycles (the
         // band's gate and the converter's are the image's one gate): the
         // shortcut, inlined (its one copy per call). Any other pair: the
@@ -374,7 +390,28 @@ impl Front {
                 return conv.shift_general(pair).map_err(SensorFault::Shift);
             }
         }
+        if COLD {
+            // The cold routine names a window fault `Counts`; `window`
+            // renames it (the identity for the level reader's channels).
+            return self.checked_shift_cold(conv, pair).map_err(|f| match f {
+                SensorFault::Counts(e) => window(e),
+                f => f,
+            });
+        }
         self.window.check(pair).map_err(window)?;
+        conv.shift_general(pair).map_err(SensorFault::Shift)
+    }
+
+    /// [`Front::checked_shift_split`]'s cold routine: the full window
+    /// check, then the general shift.
+    #[cold]
+    #[inline(never)]
+    fn checked_shift_cold(
+        &self,
+        conv: &ShiftConverter,
+        pair: CountPair,
+    ) -> Result<Shift, SensorFault> {
+        self.window.check(pair).map_err(SensorFault::Counts)?;
         conv.shift_general(pair).map_err(SensorFault::Shift)
     }
 
@@ -989,6 +1026,8 @@ pub(crate) mod tests {
             ];
             for pair in pairs {
                 let fast = front.checked_shift(&front.converter, pair, SensorFault::Counts);
+                let split = front.checked_shift_split::<true>(&front.converter, pair, SensorFault::Counts);
+                prop_assert_eq!(split, fast, "{:?}", pair);
                 let slow = front
                     .window
                     .check(pair)
