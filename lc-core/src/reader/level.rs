@@ -292,7 +292,7 @@ impl<'a> LevelReader<'a> {
 /// One channel's shift through the front's fault window (a window fault
 /// is [`SensorFault::Counts`]): the probe's with the front's converter, the
 /// reference electrode's with its own. Out of line: one copy of
-/// [`Front::checked_shift_split`] for both channels, with its cold split
+/// [`Front::checked_shift`] for both channels, with its cold split
 /// (the full check and the general path of a pair off the gate's tick
 /// band in a routine of their own).
 #[inline(never)]
@@ -301,5 +301,5 @@ fn channel_shift(
     conv: &ShiftConverter,
     pair: CountPair,
 ) -> Result<Shift, SensorFault> {
-    front.checked_shift_split::<true>(conv, pair, SensorFault::Counts)
+    front.checked_shift::<true>(conv, pair, SensorFault::Counts)
 }

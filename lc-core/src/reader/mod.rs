@@ -351,26 +351,13 @@ impl Front {
     /// through the fault window, `window` naming a window fault: a pair of
     /// the gate's cycles inside its accepted ticks takes two comparisons
     /// and the converter's gate path with nothing checked twice; any other
-    /// pair the full check and the general path. Same results as the
-    /// check and [`ShiftConverter::shift`].
-    #[inline(always)]
-    pub(crate) fn checked_shift(
-        &self,
-        conv: &ShiftConverter,
-        pair: CountPair,
-        window: impl FnOnce(FaultError) -> SensorFault,
-    ) -> Result<Shift, SensorFault> {
-        self.checked_shift_split::<false>(conv, pair, window)
-    }
-
-    /// [`Front::checked_shift`], with the full check and the general path
-    /// for a pair off the accepted ticks inline (`COLD` false) or in a
-    /// cold routine of their own that the common path never reaches
+    /// pair the full check and the general path, inline (`COLD` false) or
+    /// in a cold routine of their own that the common path never reaches
     /// (`COLD` true: the level reader's choice, where both channels share
-    /// one out-of-line copy of the common path). The same results either
-    /// way.
+    /// one out-of-line copy of the common path). Same results either way,
+    /// and as the check and [`ShiftConverter::shift`].
     #[inline(always)]
-    pub(crate) fn checked_shift_split<const COLD: bool>(
+    pub(crate) fn checked_shift<const COLD: bool>(
         &self,
         conv: &ShiftConverter,
         pair: CountPair,
@@ -391,18 +378,13 @@ impl Front {
             }
         }
         if COLD {
-            // The cold routine names a window fault `Counts`; `window`
-            // renames it (the identity for the level reader's channels).
-            return self.checked_shift_cold(conv, pair).map_err(|f| match f {
-                SensorFault::Counts(e) => window(e),
-                f => f,
-            });
+            return self.checked_shift_cold(conv, pair, window);
         }
         self.window.check(pair).map_err(window)?;
         conv.shift_general(pair).map_err(SensorFault::Shift)
     }
 
-    /// [`Front::checked_shift_split`]'s cold routine: the full window
+    /// [`Front::checked_shift`]'s cold routine: the full window
     /// check, then the general shift.
     #[cold]
     #[inline(never)]
@@ -410,8 +392,9 @@ impl Front {
         &self,
         conv: &ShiftConverter,
         pair: CountPair,
+        window: impl FnOnce(FaultError) -> SensorFault,
     ) -> Result<Shift, SensorFault> {
-        self.window.check(pair).map_err(SensorFault::Counts)?;
+        self.window.check(pair).map_err(window)?;
         conv.shift_general(pair).map_err(SensorFault::Shift)
     }
 
@@ -419,7 +402,7 @@ impl Front {
     /// drift model (for a reader without a companion coil).
     #[inline(always)]
     pub(crate) fn raw_shift(&self, pair: CountPair) -> Result<Shift, SensorFault> {
-        self.checked_shift(&self.converter, pair, SensorFault::Counts)
+        self.checked_shift::<false>(&self.converter, pair, SensorFault::Counts)
     }
 
     /// The drift correction at `t`, from the cache when `t` is unchanged;
@@ -1025,8 +1008,8 @@ pub(crate) mod tests {
                 CountPair::new(cycles, ticks),
             ];
             for pair in pairs {
-                let fast = front.checked_shift(&front.converter, pair, SensorFault::Counts);
-                let split = front.checked_shift_split::<true>(&front.converter, pair, SensorFault::Counts);
+                let fast = front.checked_shift::<false>(&front.converter, pair, SensorFault::Counts);
+                let split = front.checked_shift::<true>(&front.converter, pair, SensorFault::Counts);
                 prop_assert_eq!(split, fast, "{:?}", pair);
                 let slow = front
                     .window
