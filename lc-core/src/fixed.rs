@@ -662,7 +662,8 @@ const RECIPROCAL_NODES: [u32; 259] = {
 /// below 2^32, about 40 instructions on a Cortex-M0. The level ratio
 /// ([`div_q40`]), the drift model's offset form and the NTC's temperature
 /// from 1/T use it.
-#[inline]
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+#[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
     reciprocal_q63_inline(m)
 }
@@ -741,7 +742,7 @@ fn quotient_q40(a: u64, b: u64) -> Option<i64> {
     let (ma, za) = normalise_inline(a);
     let (mb, zb) = normalise_inline(b);
     // ma·Y ≈ ma·2^63/mb lies in [2^62, 2^64).
-    let p = mul_u32_wide(ma, reciprocal_q63_inline(mb));
+    let p = mul_u32_wide(ma, reciprocal_q63(mb));
     // a/b ≈ p · 2^(zb − za − 63); in Q.40: p · 2^(zb − za − 23). z ≤ 63.
     // z ≤ 63 each (normalise's contract): the difference cannot wrap.
     let sh = (zb as i32).wrapping_sub(za as i32).wrapping_sub(23);

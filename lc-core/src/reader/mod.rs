@@ -353,9 +353,12 @@ impl Front {
     /// and the converter's gate path with nothing checked twice; any other
     /// pair the full check and the general path, inline (`COLD` false) or
     /// in a cold routine of their own that the common path never reaches
-    /// (`COLD` true: the level reader's choice, where both channels share
-    /// one out-of-line copy of the common path). Same results either way,
-    /// and as the check and [`ShiftConverter::shift`].
+    /// (`COLD` true: the level reader's choice, where only the band and
+    /// the gate's shortcut are inlined into the reading, for each
+    /// channel; a pair in the band that the shortcut does not take goes
+    /// through the cold routine too, whose window check passes it). Same
+    /// results either way, and as the check and
+    /// [`ShiftConverter::shift`].
     #[inline(always)]
     pub(crate) fn checked_shift<const COLD: bool>(
         &self,
@@ -374,10 +377,14 @@ impl Front {
                 if let Some(s) = conv.gate_shortcut(pair.ticks) {
                     return Ok(s);
                 }
-                return conv.shift_general(pair).map_err(SensorFault::Shift);
+                if !COLD {
+                    return conv.shift_general(pair).map_err(SensorFault::Shift);
+                }
             }
         }
         if COLD {
+            // A pair in the band passes the window: the cold routine's
+            // check changes nothing for it.
             return self.checked_shift_cold(conv, pair, window);
         }
         self.window.check(pair).map_err(window)?;
