@@ -661,16 +661,13 @@ const RECIPROCAL_NODES: [u32; 259] = {
 /// of at most 16 × 16 bits' worth (24 × 7 and 14 × 18 among them), each
 /// below 2^32, about 40 instructions on a Cortex-M0. The level ratio
 /// ([`div_q40`]), the drift model's offset form and the NTC's temperature
-/// from 1/T use it.
+/// from 1/T use it: on ARMv6-M through one out-of-line copy (inlined into
+/// the level reading and again into the drift offset it cost a level
+/// firmware about 120 bytes more and its reading 1.5 instructions more,
+/// the spills around it included).
 #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 #[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
-    reciprocal_q63_inline(m)
-}
-
-/// [`reciprocal_q63`], always inlined (the level reader's ratio).
-#[inline(always)]
-fn reciprocal_q63_inline(m: u32) -> u32 {
     // Normalised by contract. Bits 23..30 pick the interval j, bits 0..22
     // the place u = f/2^23.
     let m = m | (1 << 31);
