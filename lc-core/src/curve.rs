@@ -695,9 +695,7 @@ impl<'a> CurveRef<'a> {
         key: impl Fn(&[u32; NODE_WORDS]) -> K,
     ) -> Result<(usize, &'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS]), CurveValue> {
         let nodes = self.nodes;
-        // A curve has at least two nodes (`view_of`); the other arm only
-        // keeps the function total.
-        let [first, .., last] = nodes else {
+        let Some((first, last)) = self.ends() else {
             return Err(CurveValue {
                 value: 0,
                 status: CurveStatus::InRange,
@@ -745,16 +743,14 @@ impl<'a> CurveRef<'a> {
         }
     }
 
-    /// The first and the last node's records (one length check; a
-    /// validated curve has at least two nodes, the other arms only keep
-    /// the function total).
+    /// The first and the last node's records, by one length check (a
+    /// validated curve has at least two nodes; `None` only keeps the
+    /// function total).
     #[inline(always)]
-    fn ends(&self) -> (&'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS]) {
-        const NO_NODE: [u32; NODE_WORDS] = [0; NODE_WORDS];
+    fn ends(&self) -> Option<(&'a [u32; NODE_WORDS], &'a [u32; NODE_WORDS])> {
         match self.nodes {
-            [first, .., last] => (first, last),
-            [only] => (only, only),
-            [] => (&NO_NODE, &NO_NODE),
+            [first, .., last] => Some((first, last)),
+            _ => None,
         }
     }
 
@@ -826,7 +822,9 @@ impl<'a> CurveRef<'a> {
     /// (then every q is within), and no 64-bit saturation on the way.
     #[inline(always)]
     pub(crate) fn within_reach(&self, q: i64, status: CurveStatus) -> bool {
-        let (first, last) = self.ends();
+        let Some((first, last)) = self.ends() else {
+            return true;
+        };
         // The distance past the end `q` passed (positive there).
         let past = match status {
             CurveStatus::InRange => return true,

@@ -222,13 +222,14 @@ pub(crate) fn div_rem_u64_u32(n: u64, d: u32) -> Option<(u64, u32)> {
 /// about 400) and 300 to 700 instructions a call. Here instead: the divisor
 /// is normalised (shifted left by its leading zeros s, top bit set) and
 /// its reciprocal v = ⌊(2^64 − 1)/d_n⌋ − 2^32 is formed once
-/// ([`reciprocal_word`], about 100 instructions, no division); each
-/// division is then the dividend shifted left by s as three words and two
-/// 2-by-1-word steps ([`div_step`], about 45 instructions each: one
-/// 32 × 32 → 64-bit product, one 32-bit product and two conditional
-/// corrections; one step when the quotient is below 2^32), the remainder
-/// shifted back. About 300 instructions for a 64-bit quotient, including
-/// the reciprocal; about 580 bytes of code. Each step is the 2-by-1
+/// ([`reciprocal_word`], a bit-serial long division, about 320
+/// instructions, no division instruction); each division is then the
+/// dividend shifted left by s as three words and two 2-by-1-word steps
+/// ([`div_step`], about 45 instructions each: one 32 × 32 → 64-bit
+/// product, one 32-bit product and two conditional corrections; one step
+/// when the quotient is below 2^32), the remainder shifted back. About 500
+/// instructions for a 64-bit quotient, including the reciprocal; about
+/// 390 bytes of code. Each step is the 2-by-1
 /// division with a precomputed reciprocal of N. Möller and T. Granlund,
 /// "Improved division by invariant integers", IEEE Transactions on
 /// Computers 60(2), 2011; the reciprocal is computed here (below).
@@ -354,96 +355,49 @@ fn div_step(u1: u32, u0: u32, d: u32, v: u32) -> (u32, u32) {
 /// v = ⌊(2^64 − 1)/d⌋ − 2^32 for a normalised d (2^31 ≤ d < 2^32; the top
 /// bit is set here whatever the argument), exactly, without division.
 ///
-/// Newton's iteration for 1/x, x = d/2^32 in [1/2, 1), from below:
-/// - a linear seed in a = ⌊d/2^16⌋ + 1 (a ≥ d/2^16, so every estimate
-///   from a is below 1/x too): y0 ≈ 2^31/a from 1/x ≈ 48/17 − 32/17·x,
-///   relative error ≤ 1/17;
-/// - two steps y ← y + y·(2^31 − a·y)/2^31 in 32-bit words (2^-8.2, then
-///   2^-14.1: the 16 bits of a bound it);
-/// - one third-order step on the whole d, V ← V·(1 + ε + ε²) with V =
-///   y·2^17 ≈ 2^64/d and ε = 1 − V·d/2^64 (from below to within 2 units
-///   of the floor);
-/// - the remainder (2^64 − 1) − V·d, exact, raises V by one while it is
-///   at least d (at most twice).
+/// Long division of 2^64 − 1 by d, one quotient bit per step (restoring,
+/// in 32-bit words): the quotient lies in (2^32, 2^33), its top bit is 1
+/// with the remainder r = (2^32 − 1) − d < d, and each of the 32 low
+/// bits of the dividend (all ones) brings r to 2r + 1, which d goes into
+/// at most once. Compared without forming 2r + 1 (which needs 33 bits):
+/// 2r + 1 ≥ d exactly when r ≥ t = (d − 1) − r, and then 2r + 1 − d =
+/// r − t. v collects the 32 low quotient bits behind the top one, which
+/// marks the end of the loop and is shifted out by the last bit.
 ///
-/// About 100 instructions on a Cortex-M0: nine products of 16-bit-sized
-/// factors and one 32 × 32 → 64-bit product. The result, and every bound
-/// stated in [`reciprocal_word_steps`], hold for every normalised d
-/// (`reciprocal_word_exhaustive`, an ignored test of a few minutes in
-/// release; `reciprocal_word_sweep` checks every 61st d on every test run).
+/// About 320 instructions on a Cortex-M0 (ten a bit) in a few dozen
+/// bytes of code: memory before speed. A Newton iteration from a linear
+/// seed (with a third-order step and a remainder check) takes about 120
+/// instructions but costs every firmware linking [`Divisor`] about 190
+/// bytes more. The reciprocal is formed at start-up (the converters' and
+/// the fault window's checks) and by each division of the division path
+/// (a pair off the configured gate) and of the frequency and period
+/// ratios, never on the configured-gate path. Exact for every
+/// normalised d (`reciprocal_word_exhaustive`, an ignored test of a few
+/// minutes in release; `reciprocal_word_sweep` checks every 61st d and the
+/// ends on every test run).
 #[inline]
 fn reciprocal_word(d: u32) -> u32 {
-    reciprocal_word_steps(d).0
-}
-
-/// The intermediate values of [`reciprocal_word`] whose bounds its
-/// comments state, for the tests (the compiler drops them elsewhere).
-#[derive(Clone, Copy, Debug, Default)]
-struct ReciprocalSteps {
-    e1: i32,
-    e2: u32,
-    y2: u32,
-    big: u64,
-    c: u32,
-    c2: u32,
-    raises: u32,
-}
-
-/// [`reciprocal_word`] and its intermediate values.
-#[inline(always)]
-fn reciprocal_word_steps(d: u32) -> (u32, ReciprocalSteps) {
     let d = d | (1 << 31);
-    // a in 2^15 + 1..=2^16.
-    let a = (d >> 16).wrapping_add(1);
-    // y0 = (98 304 − a) · 61 680 / 2^16 ≈ 2^15·(48 − 32·a/2^16)/17
-    // (61 680/2^16 ≈ 16/17, just below): below 2^16; the product is below
-    // 65 535 · 61 680 < 2^32.
-    let y0 = 98_304u32.wrapping_sub(a).wrapping_mul(61_680) >> 16;
-    // e1 = 2^31 − a·y0, signed, |e1| < 2^27 (a·y0 < 2^32): e1/2^13 · y0
-    // is below 2^30 in magnitude.
-    let e1 = (1u32 << 31).wrapping_sub(a.wrapping_mul(y0)) as i32;
-    let y1 = (y0 as i32).wrapping_add((e1 >> 13).wrapping_mul(y0 as i32) >> 18) as u32;
-    // Now from below: 0 ≤ e2 < 2^23, so e2/2^8 · y1 < 2^31.
-    let e2 = (1u32 << 31).wrapping_sub(a.wrapping_mul(y1));
-    let y2 = y1.wrapping_add((e2 >> 8).wrapping_mul(y1) >> 23);
-    // y2 < 2^16 and y2·d < 2^47: from 16 × 16-bit products.
-    let p = (u64::from(y2.wrapping_mul(d >> 16)) << 16)
-        .wrapping_add(u64::from(y2.wrapping_mul(d & 0xFFFF)));
-    // 2^64 − V·d = big · 2^17 with V = y2 · 2^17 and big = 2^47 − y2·d,
-    // 0 < big < 2^33.
-    let big = (1u64 << 47).wrapping_sub(p);
-    // c ≈ V·ε = y2 · big / 2^30 < 2^19 and c2 ≈ c·ε = c · big / 2^47 <
-    // 2^5, each from products below 2^32 (truncated: still from below).
-    let half = (big >> 1) as u32; // < 2^32
-    let c = ((u64::from((half >> 16).wrapping_mul(y2)) << 16)
-        .wrapping_add(u64::from((half & 0xFFFF).wrapping_mul(y2)))
-        >> 29) as u32;
-    let c2 = (c >> 3).wrapping_mul((big >> 18) as u32) >> 26;
-    let step = c.wrapping_add(c2);
-    // V + step ≤ ⌊(2^64 − 1)/d⌋, and the remainder (2^64 − 1) − (V +
-    // step)·d = big·2^17 − 1 − step·d lies in 0..3d: at most two raises.
-    let mut v = (y2 << 17).wrapping_add(step); // V + step − 2^32, mod 2^32
-    let mut rem = (big << 17)
-        .wrapping_sub(1)
-        .wrapping_sub(mul_u32_wide(step, d));
-    let mut raises = 0u32;
-    while rem >= u64::from(d) {
-        v = v.wrapping_add(1);
-        rem = rem.wrapping_sub(u64::from(d));
-        raises = raises.wrapping_add(1);
+    let dm1 = d.wrapping_sub(1);
+    // The top quotient bit: 1, with r = (2^32 − 1) − d < 2^31 ≤ d.
+    let mut r = !d;
+    let mut v = 1u32;
+    // 31 steps: the top bit's 1 reaches bit 31.
+    while v < 1 << 31 {
+        // r < d, so t = (d − 1) − r ≥ 0 and r − t = 2r + 1 − d < d when
+        // r ≥ t; otherwise 2r + 1 < d: no step wraps.
+        let t = dm1.wrapping_sub(r);
+        let bit = r >= t;
+        r = if bit {
+            r.wrapping_sub(t)
+        } else {
+            r.wrapping_add(r).wrapping_add(1)
+        };
+        v = (v << 1) | u32::from(bit);
     }
-    (
-        v,
-        ReciprocalSteps {
-            e1,
-            e2,
-            y2,
-            big,
-            c,
-            c2,
-            raises,
-        },
-    )
+    // The 32nd bit; the top bit's 1 leaves v.
+    let t = dm1.wrapping_sub(r);
+    (v << 1) | u32::from(r >= t)
 }
 
 /// Whether this is ARMv6-M (Cortex-M0/M0+): no divide, no count of leading
@@ -661,15 +615,13 @@ const RECIPROCAL_NODES: [u32; 259] = {
 /// of at most 16 × 16 bits' worth (24 × 7 and 14 × 18 among them), each
 /// below 2^32, about 40 instructions on a Cortex-M0. The level ratio
 /// ([`div_q40`]), the drift model's offset form and the NTC's temperature
-/// from 1/T use it.
-#[inline]
+/// from 1/T use it: on ARMv6-M through one out-of-line copy (inlined into
+/// the level reading and again into the drift offset it cost a level
+/// firmware about 120 bytes more and its reading 1.5 instructions more,
+/// the spills around it included).
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+#[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
-    reciprocal_q63_inline(m)
-}
-
-/// [`reciprocal_q63`], always inlined (the level reader's ratio).
-#[inline(always)]
-fn reciprocal_q63_inline(m: u32) -> u32 {
     // Normalised by contract. Bits 23..30 pick the interval j, bits 0..22
     // the place u = f/2^23.
     let m = m | (1 << 31);
@@ -741,7 +693,7 @@ fn quotient_q40(a: u64, b: u64) -> Option<i64> {
     let (ma, za) = normalise_inline(a);
     let (mb, zb) = normalise_inline(b);
     // ma·Y ≈ ma·2^63/mb lies in [2^62, 2^64).
-    let p = mul_u32_wide(ma, reciprocal_q63_inline(mb));
+    let p = mul_u32_wide(ma, reciprocal_q63(mb));
     // a/b ≈ p · 2^(zb − za − 63); in Q.40: p · 2^(zb − za − 23). z ≤ 63.
     // z ≤ 63 each (normalise's contract): the difference cannot wrap.
     let sh = (zb as i32).wrapping_sub(za as i32).wrapping_sub(23);
@@ -866,26 +818,13 @@ mod tests {
         (u128::from(u64::MAX) / u128::from(d) - (1u128 << 32)) as u32
     }
 
-    /// [`reciprocal_word`] exact at `d`, and its intermediate values within
-    /// the bounds its comments state.
+    /// [`reciprocal_word`] exact at `d`.
     fn check_reciprocal_word(d: u32) {
-        let (v, st) = reciprocal_word_steps(d);
-        assert_eq!(v, exact_reciprocal(d), "d {d:#x}");
-        assert!(st.e1.unsigned_abs() < 1 << 27, "d {d:#x} e1 {}", st.e1);
-        assert!(st.e2 < 1 << 23, "d {d:#x} e2 {}", st.e2);
-        assert!(st.y2 < 1 << 16, "d {d:#x} y2 {}", st.y2);
-        assert!(st.big > 0 && st.big < 1 << 33, "d {d:#x} big {}", st.big);
-        assert!(
-            st.c < 1 << 19 && st.c2 < 1 << 5,
-            "d {d:#x} c {} c2 {}",
-            st.c,
-            st.c2
-        );
-        assert!(st.raises <= 2, "d {d:#x} raises {}", st.raises);
+        assert_eq!(reciprocal_word(d), exact_reciprocal(d), "d {d:#x}");
     }
 
     /// The reciprocal at both ends of the normalised range, around every
-    /// 2^16 boundary of its seed's a (every 97th), and at every 61st d.
+    /// 2^16 boundary (every 97th), and at every 61st d.
     #[test]
     fn reciprocal_word_sweep() {
         for d in [
@@ -909,8 +848,8 @@ mod tests {
         }
     }
 
-    /// Every normalised divisor: the reciprocal exact, the intermediate
-    /// bounds held, at most two raises. A few minutes in release:
+    /// Every normalised divisor: the reciprocal exact. A few minutes in
+    /// release:
     /// `cargo test --release -p lc-core reciprocal_word_exhaustive -- --ignored`.
     #[test]
     #[ignore]

@@ -351,10 +351,16 @@ impl Front {
     /// through the fault window, `window` naming a window fault: a pair of
     /// the gate's cycles inside its accepted ticks takes two comparisons
     /// and the converter's gate path with nothing checked twice; any other
-    /// pair the full check and the general path. Same results as the
-    /// check and [`ShiftConverter::shift`].
+    /// pair the full check and the general path, inline (`COLD` false) or
+    /// in a cold routine of their own that the common path never reaches
+    /// (`COLD` true: the level reader's choice, where only the band and
+    /// the gate's shortcut are inlined into the reading, for each
+    /// channel; a pair in the band that the shortcut does not take goes
+    /// through the cold routine too, whose window check passes it). Same
+    /// results either way, and as the check and
+    /// [`ShiftConverter::shift`].
     #[inline(always)]
-    pub(crate) fn checked_shift(
+    pub(crate) fn checked_shift<const COLD: bool>(
         &self,
         conv: &ShiftConverter,
         pair: CountPair,
@@ -371,9 +377,30 @@ impl Front {
                 if let Some(s) = conv.gate_shortcut(pair.ticks) {
                     return Ok(s);
                 }
-                return conv.shift_general(pair).map_err(SensorFault::Shift);
+                if !COLD {
+                    return conv.shift_general(pair).map_err(SensorFault::Shift);
+                }
             }
         }
+        if COLD {
+            // A pair in the band passes the window: the cold routine's
+            // check changes nothing for it.
+            return self.checked_shift_cold(conv, pair, window);
+        }
+        self.window.check(pair).map_err(window)?;
+        conv.shift_general(pair).map_err(SensorFault::Shift)
+    }
+
+    /// [`Front::checked_shift`]'s cold routine: the full window
+    /// check, then the general shift.
+    #[cold]
+    #[inline(never)]
+    fn checked_shift_cold(
+        &self,
+        conv: &ShiftConverter,
+        pair: CountPair,
+        window: impl FnOnce(FaultError) -> SensorFault,
+    ) -> Result<Shift, SensorFault> {
         self.window.check(pair).map_err(window)?;
         conv.shift_general(pair).map_err(SensorFault::Shift)
     }
@@ -382,7 +409,7 @@ impl Front {
     /// drift model (for a reader without a companion coil).
     #[inline(always)]
     pub(crate) fn raw_shift(&self, pair: CountPair) -> Result<Shift, SensorFault> {
-        self.checked_shift(&self.converter, pair, SensorFault::Counts)
+        self.checked_shift::<false>(&self.converter, pair, SensorFault::Counts)
     }
 
     /// The drift correction at `t`, from the cache when `t` is unchanged;
@@ -988,7 +1015,9 @@ pub(crate) mod tests {
                 CountPair::new(cycles, ticks),
             ];
             for pair in pairs {
-                let fast = front.checked_shift(&front.converter, pair, SensorFault::Counts);
+                let fast = front.checked_shift::<false>(&front.converter, pair, SensorFault::Counts);
+                let split = front.checked_shift::<true>(&front.converter, pair, SensorFault::Counts);
+                prop_assert_eq!(split, fast, "{:?}", pair);
                 let slow = front
                     .window
                     .check(pair)
