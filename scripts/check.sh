@@ -43,6 +43,10 @@ cargo clippy --workspace --all-targets -- -D warnings
 
 step "rustdoc"
 RUSTDOCFLAGS="-D warnings" cargo doc --workspace --no-deps --quiet
+# lc-core on its own, with its default features (no `design`), as a
+# firmware developer or a documentation host builds it: no links into
+# host-only items.
+RUSTDOCFLAGS="-D warnings" cargo doc -p lc-core --no-deps --quiet
 
 if [ "$have_targets" = yes ]; then
     for t in "${targets[@]}"; do

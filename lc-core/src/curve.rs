@@ -18,14 +18,14 @@
 //!   `PchipInterpolator` and MATLAB's `pchip` use (Moler, *Numerical
 //!   Computing with MATLAB*, 2004, §3.4). Not the original Fritsch–Carlson
 //!   (1980) step-5 variant; their values differ (docs/references.md, Monotone interpolation cases). The
-//!   derivatives are computed on the host by [`pchip_derivatives`], and the
+//!   derivatives are computed on the host by `pchip_derivatives` (`design` feature), and the
 //!   image stores each segment's Horner coefficients derived from them, so
 //!   the firmware does no floating-point work and no derivation.
 //!
 //! ## Fixed-point evaluation, rounding and bound
 //!
 //! Per segment of width w (in Q23.40 shift units) the host computes (the
-//! owned [`Curve`], `design` feature) and the calibration image stores
+//! owned `Curve`, `design` feature) and the calibration image stores
 //! a shift `sh` with 2^30 ≤ w·2^-sh < 2^31 and the slope's 31-bit mantissa
 //! (linear) or 1/w's mantissa (cubic). Per reading: one binary search
 //! (at most 6 comparisons for 64 nodes), then
@@ -39,7 +39,7 @@
 //!   and three Horner steps of two 32-bit multiplies each.
 //!
 //! No division per reading. The result is rounded to nearest. Bound against
-//! the `f64` twin of the same curve ([`Curve::eval_f64`]):
+//! the `f64` twin of the same curve (`Curve::eval_f64`, `design` feature):
 //! |y_fixed − y| ≤ 0.5 + 2^-28·|Δy| (linear) or
 //! 0.5 + 3·2^-9 + 2^-16·(|Δy| + |D0| + |D1|) (cubic) output units, where the
 //! terms are the segment's. In the cubic, each of the three Horner
@@ -263,7 +263,8 @@ impl Segment {
 }
 
 /// A validated curve read in place: its nodes and per-segment constants
-/// borrowed from a calibration image (or from an owned [`Curve`]), in
+/// borrowed from a calibration image (or from an owned `Curve`, `design`
+/// feature), in
 /// 32-bit words. 20 bytes on a 32-bit target, whatever the node count.
 ///
 /// A curve is obtained from a validated image

@@ -54,7 +54,7 @@
 //! calibration time or plan identity) and format 2 (no reciprocal
 //! exponents: bytes 100 to 103 reserved) are refused by the firmware with
 //! [`ImageError::OldFormat`]. The host reads both
-//! ([`Calibration::parse`], `design` feature) and rewrites them in format
+//! (`Calibration::parse`, `design` feature) and rewrites them in format
 //! 3 (`lc-host inspect IMAGE --rewrite OUT`).
 
 pub mod layout;

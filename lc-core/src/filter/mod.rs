@@ -3,7 +3,7 @@
 //!
 //! The readings these filters see are shifts ([`Shift`], `i64` Q23.40) or
 //! output values in integer units (an `i32` in micrometres from a
-//! [`crate::curve::Curve`], say). Both filters keep a fixed-size state: no
+//! `Curve`, say). Both filters keep a fixed-size state: no
 //! heap, no division, no panic.
 //!
 //! - [`Median<T, N>`]: the median of the last `N` samples (`N` odd, checked
