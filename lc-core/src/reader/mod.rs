@@ -60,7 +60,10 @@ mod plausible;
 mod proximity;
 
 #[cfg(feature = "level")]
-pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
+pub use level::{
+    AnyElectrodes, Electrodes, LevelAxis, LevelReader, LevelReading, ProbeOnly, ProbeRatio,
+    WithReference,
+};
 #[cfg(feature = "metal")]
 pub use metal::{MetalReader, MetalReading};
 pub use plausible::{in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40};
@@ -263,6 +266,14 @@ pub enum ReaderError {
     /// This build leaves out the reader of the image's kind (its cargo
     /// feature is off).
     NotBuilt(ReaderKind),
+    /// A level reader built for one arrangement of electrodes
+    /// (`LevelReader::with_electrodes`) and a level image of the other:
+    /// the image's unit has a reference electrode (`true`) or has none
+    /// (`false`).
+    WrongElectrodes {
+        /// Whether the image's unit has a reference electrode.
+        image_has_reference: bool,
+    },
 }
 
 impl fmt::Display for ReaderError {
@@ -271,6 +282,18 @@ impl fmt::Display for ReaderError {
             ReaderError::WrongKind(k) => write!(f, "the image is for a {k:?} reader"),
             ReaderError::NotBuilt(k) => {
                 write!(f, "this build leaves out the {k:?} reader (cargo feature)")
+            }
+            ReaderError::WrongElectrodes {
+                image_has_reference,
+            } => {
+                let (image, reader) = match image_has_reference {
+                    true => ("has a reference electrode", "a probe only"),
+                    false => ("has no reference electrode", "a reference electrode"),
+                };
+                write!(
+                    f,
+                    "the image's level unit {image}; this reader is built for {reader}"
+                )
             }
         }
     }
