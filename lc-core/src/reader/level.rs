@@ -83,7 +83,7 @@ pub struct LevelReading {
 ///
 /// A reader for one arrangement refuses an image of the other with
 /// [`ReaderError::WrongElectrodes`]. Implemented by these three types only.
-pub trait Electrodes: sealed::Sealed {
+pub trait Electrodes: Copy + sealed::Sealed {
     /// `Some(true)`: with a reference electrode; `Some(false)`: the probe
     /// only; `None`: either, as the image says.
     #[doc(hidden)]
