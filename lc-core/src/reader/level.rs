@@ -155,7 +155,7 @@ impl Electrodes for ProbeOnly {
 /// [`LevelReader::new`] builds the default, for either arrangement;
 /// [`LevelReader::with_electrodes`] a reader for one, which links that
 /// arrangement's reading path only (a level firmware for a unit with a
-/// reference electrode: 552 bytes of flash less).
+/// reference electrode: about 570 bytes of flash less).
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LevelReader<'a, E: Electrodes = AnyElectrodes> {

@@ -8,7 +8,10 @@
 //!
 //! - [`ProximityReader`]: shift → gap ([`ProximityReading`]);
 //! - [`LevelReader`]: shift, or the ratio of probe and reference-electrode
-//!   shifts, → level, and optionally → volume ([`LevelReading`]);
+//!   shifts, → level, and optionally → volume ([`LevelReading`]); its
+//!   type parameter ([`Electrodes`]) fixes the arrangement of electrodes
+//!   at build time when the firmware is for one ([`WithReference`],
+//!   [`ProbeOnly`]), so the other's reading path is not linked;
 //! - [`MetalReader`]: baseline tracking, detection with hysteresis and
 //!   debounce, and classification ferrous / non-ferrous, confirmed by the
 //!   ring-down ([`MetalReading`]).

@@ -15,7 +15,7 @@
 //!   is a sensor fault.
 //! - the reader is built for a unit with a reference electrode
 //!   (`LevelReader::with_electrodes(&image, WithReference)`), so the
-//!   probe-only reading path is not linked (about 550 bytes of flash less
+//!   probe-only reading path is not linked (about 570 bytes of flash less
 //!   than `LevelReader::new`, which reads either arrangement) and an image
 //!   without a reference electrode is refused at start-up. For a unit
 //!   with a probe only, pass `ProbeOnly` instead.
