@@ -294,11 +294,11 @@ impl<'a, E: Electrodes> LevelReader<'a, E> {
         let s = channel_shift(&self.front, &self.front.converter, input.pair)?;
         // `E` decides at compile time: a reader for one arrangement links
         // that path only (a `WithReference` reader always has the
-        // converter: `parts` refused an image without one).
-        let reference = match E::REFERENCE {
-            Some(false) => None,
-            Some(true) => Some(self.reference.as_ref().ok_or(SensorFault::Reference)?),
-            None => self.reference.as_ref(),
+        // converter: `with_electrodes` refused an image without one).
+        let reference = match (E::REFERENCE, &self.reference) {
+            (Some(false), _) => None,
+            (Some(true), None) => return Err(SensorFault::Reference),
+            (_, reference) => reference.as_ref(),
         };
         let Some(conv) = reference else {
             // `Front::shift` without a companion coil (a level image has
