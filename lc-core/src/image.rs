@@ -952,6 +952,14 @@ impl<'a> Image<'a> {
     /// the level in the curve's output units, times 2^32, in the Q23.40
     /// field.
     pub fn volume(&self) -> Option<(CurveRef<'a>, OutputScale)> {
+        let [unit, exp] = self.field(VOLUME_OUTPUT);
+        Some((self.volume_table()?, scale_from(unit, exp)?))
+    }
+
+    /// The level → volume table without its scale (what the level reader
+    /// holds: validation checked the scale, which the reading does not
+    /// use).
+    pub(crate) fn volume_table(&self) -> Option<CurveRef<'a>> {
         let flags = self.flags();
         if flags & FLAG_VOLUME == 0 {
             return None;
@@ -959,11 +967,7 @@ impl<'a> Image<'a> {
         let curve_n = usize::from(self.u8(CURVE_NODES));
         let n = usize::from(self.u8(VOLUME_NODES));
         let at = HEADER_LEN + table_len(curve_n, flags & FLAG_CUBIC != 0);
-        let [unit, exp] = self.field(VOLUME_OUTPUT);
-        Some((
-            self.table(at, n, flags & FLAG_VOLUME_CUBIC != 0, self.whole & 2 != 0)?,
-            scale_from(unit, exp)?,
-        ))
+        self.table(at, n, flags & FLAG_VOLUME_CUBIC != 0, self.whole & 2 != 0)
     }
 
     /// Metal parameters (metal only).

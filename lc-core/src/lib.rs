@@ -68,7 +68,11 @@
 //! kind) and return [`reader::ProximityReading`] (gap),
 //! [`reader::LevelReading`] (level, volume, shift or probe ratio) and
 //! [`reader::MetalReading`] (class, ring-count drop); [`reader::Reader`]
-//! is any of them, its [`reader::Reading`] the matching reading.
+//! is any of them, its [`reader::Reading`] the matching reading. A level
+//! firmware for one arrangement of electrodes builds
+//! [`reader::LevelReader::with_electrodes`]`(&image, WithReference)` (or
+//! `ProbeOnly`): the other arrangement's reading path is left out of its
+//! flash, and an image of the other arrangement is refused.
 //! [`image::ImageBuf`] copies an image from elsewhere into an aligned
 //! buffer; [`include_image!`] embeds one.
 //!
@@ -102,7 +106,8 @@
 //! 32-bit target (Cortex-M0 and Cortex-M4F, the same), checked at compile
 //! time by the firmware example (`examples/firmware/src/sizes.rs`; a host
 //! build has 64-bit pointers and larger borrowing types; the readers with
-//! the default features, 32 bytes less each without `companion`):
+//! the default features, 32 bytes less each without `companion`;
+//! `LevelReader` the same for every [`reader::Electrodes`]):
 //!
 //! | type | bytes | | type | bytes |
 //! |---|---:|---|---|---:|

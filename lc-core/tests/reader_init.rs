@@ -16,7 +16,10 @@ mod support;
 use core::fmt::Debug;
 
 use lc_core::image::{Image, ImageBuf, ReaderKind};
-use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader, ReaderError};
+use lc_core::reader::{
+    Electrodes, Input, LevelReader, MetalReader, ProbeOnly, ProximityReader, ReaderError,
+    WithReference,
+};
 use support::IMAGES;
 
 /// Every script's inputs, whatever the image's kind (the others' are
@@ -101,4 +104,52 @@ fn init_builds_what_new_returns() {
     }
     // Each kind built from at least two images (and refused by the others).
     assert!(kinds.iter().all(|&n| n >= 2), "images per kind: {kinds:?}");
+}
+
+/// The level reader for one arrangement of electrodes
+/// (`LevelReader::with_electrodes`) on each committed level image: the
+/// arrangement the image has builds a reader that reads every input as
+/// `LevelReader::new`'s, in place too; the other is refused with
+/// `ReaderError::WrongElectrodes`.
+#[test]
+fn level_readers_for_one_arrangement() {
+    fn reads_as_new<E: Electrodes>(path: &str, image: &Image<'_>, electrodes: E) {
+        let mut any = LevelReader::new(image).expect("a level image");
+        let mut fixed = LevelReader::with_electrodes(image, electrodes).expect(path);
+        let mut slot = MaybeUninit::uninit();
+        let placed = LevelReader::init_with_electrodes(&mut slot, image, electrodes).expect(path);
+        for input in inputs() {
+            let want = any.read(input);
+            assert_eq!(fixed.read(input), want, "{path}: {input:?}");
+            assert_eq!(placed.read(input), want, "{path}, in place: {input:?}");
+        }
+    }
+    fn refused<E: Electrodes>(path: &str, image: &Image<'_>, electrodes: E, has: bool) {
+        let want = Err(ReaderError::WrongElectrodes {
+            image_has_reference: has,
+        });
+        let built = LevelReader::with_electrodes(image, electrodes).map(|_| ());
+        assert_eq!(built, want, "{path}");
+        let mut slot = MaybeUninit::uninit();
+        let placed = LevelReader::init_with_electrodes(&mut slot, image, electrodes).map(|_| ());
+        assert_eq!(placed, want, "{path}, in place");
+    }
+    let mut with_reference = 0;
+    for (path, bytes) in IMAGES {
+        let buf = ImageBuf::from_bytes(bytes).expect("the committed image fits");
+        let image = buf.image().expect("the committed image is valid");
+        if image.kind() != ReaderKind::Level {
+            continue;
+        }
+        if image.companion_rest().is_some() {
+            with_reference += 1;
+            reads_as_new(path, &image, WithReference);
+            refused(path, &image, ProbeOnly, true);
+        } else {
+            reads_as_new(path, &image, ProbeOnly);
+            refused(path, &image, WithReference, false);
+        }
+    }
+    // The unit firmware's level image has a reference electrode.
+    assert!(with_reference >= 1);
 }

@@ -479,6 +479,9 @@ fn reader_error(e: ReaderError) -> lc_error_t {
     match e {
         ReaderError::WrongKind(_) => LC_ERR_WRONG_KIND,
         ReaderError::NotBuilt(_) => LC_ERR_NOT_BUILT,
+        // The C API builds the level reader for either arrangement
+        // (`LevelReader::new`), which never refuses an image this way.
+        ReaderError::WrongElectrodes { .. } => LC_ERR_WRONG_KIND,
     }
 }
 

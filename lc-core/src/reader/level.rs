@@ -1,5 +1,6 @@
 //! Capacitive level: shift (or the probe / reference ratio) → level → volume.
 
+use core::marker::PhantomData;
 use core::mem::MaybeUninit;
 
 use super::{Front, Input, ReaderError, SensorFault, Status};
@@ -69,6 +70,65 @@ pub struct LevelReading {
     pub status: Status,
 }
 
+/// The electrodes of the level units a reader is built for: a type
+/// parameter of [`LevelReader`], so a firmware for one kind of hardware
+/// links the reading path of that kind only.
+///
+/// - [`AnyElectrodes`] (the default): whichever the image says; both
+///   paths are linked.
+/// - [`WithReference`]: a probe and a reference electrode (the level from
+///   the ratio of their shifts); the probe-only path is left out.
+/// - [`ProbeOnly`]: a probe without a reference electrode (the level from
+///   the probe's drift-compensated shift); the ratio path is left out.
+///
+/// A reader for one arrangement refuses an image of the other with
+/// [`ReaderError::WrongElectrodes`]. Implemented by these three types only.
+pub trait Electrodes: Copy + sealed::Sealed {
+    /// `Some(true)`: with a reference electrode; `Some(false)`: the probe
+    /// only; `None`: either, as the image says.
+    #[doc(hidden)]
+    const REFERENCE: Option<bool>;
+}
+
+mod sealed {
+    pub trait Sealed {}
+    impl Sealed for super::AnyElectrodes {}
+    impl Sealed for super::WithReference {}
+    impl Sealed for super::ProbeOnly {}
+}
+
+/// [`Electrodes`]: a level unit with or without a reference electrode, as
+/// its image says (the default of [`LevelReader`]; links both reading
+/// paths).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct AnyElectrodes;
+
+/// [`Electrodes`]: a level unit with a probe and a reference electrode
+/// (the image has the reference electrode's rest point); links the ratio
+/// path only.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct WithReference;
+
+/// [`Electrodes`]: a level unit with a probe and no reference electrode;
+/// links the probe's drift-compensated shift path only.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ProbeOnly;
+
+impl Electrodes for AnyElectrodes {
+    const REFERENCE: Option<bool> = None;
+}
+
+impl Electrodes for WithReference {
+    const REFERENCE: Option<bool> = Some(true);
+}
+
+impl Electrodes for ProbeOnly {
+    const REFERENCE: Option<bool> = Some(false);
+}
+
 /// Level from a capacitive probe in parallel with the tank capacitor.
 ///
 /// - Without a reference electrode the curve maps the probe's shift to the
@@ -90,9 +150,15 @@ pub struct LevelReading {
 ///
 /// Below the empty end and above the full end the level is clamped and the
 /// status says which.
+///
+/// `E` fixes the electrodes when the firmware is built ([`Electrodes`]):
+/// [`LevelReader::new`] builds the default, for either arrangement;
+/// [`LevelReader::with_electrodes`] a reader for one, which links that
+/// arrangement's reading path only (a level firmware for a unit with a
+/// reference electrode: about 570 bytes of flash less).
 #[derive(Clone, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct LevelReader<'a> {
+pub struct LevelReader<'a, E: Electrodes = AnyElectrodes> {
     pub(super) front: Front,
     /// The reference electrode's converter (its fault window and
     /// temperature model are the probe's).
@@ -102,25 +168,17 @@ pub struct LevelReader<'a> {
     /// The drift model's offset form at the last temperature seen (ratio
     /// path): h = 1/(1 + g) − 1.
     offset_cache: Option<(CentiCelsius, i64)>,
+    electrodes: PhantomData<E>,
 }
 
 impl<'a> LevelReader<'a> {
-    /// The reader of a level image ([`ReaderError::WrongKind`] for another
-    /// kind). Cost: its front and converters built from the image's
-    /// fields, no
-    /// validation. RAM: 248 bytes on a 32-bit target, whatever the tables'
-    /// node counts (the crate docs, "Memory"); stack: the same, once.
+    /// The reader of a level image, with or without a reference electrode
+    /// ([`ReaderError::WrongKind`] for another kind). Cost: its front and
+    /// converters built from the image's fields, no validation. RAM: 248
+    /// bytes on a 32-bit target, whatever the tables' node counts (the
+    /// crate docs, "Memory"); stack: the same, once.
     pub fn new(image: &Image<'a>) -> Result<Self, ReaderError> {
-        match (image.kind(), image.curve()) {
-            (ReaderKind::Level, Some(curve)) => Ok(Self {
-                front: image.front(),
-                reference: image.reference(),
-                curve,
-                volume: image.volume().map(|(v, _)| v),
-                offset_cache: None,
-            }),
-            (kind, _) => Err(ReaderError::WrongKind(kind)),
-        }
+        Self::with_electrodes(image, AnyElectrodes)
     }
 
     /// [`LevelReader::new`] built in place, in storage the caller provides
@@ -135,15 +193,77 @@ impl<'a> LevelReader<'a> {
         slot: &'s mut MaybeUninit<Self>,
         image: &Image<'a>,
     ) -> Result<&'s mut Self, ReaderError> {
+        Self::init_with_electrodes(slot, image, AnyElectrodes)
+    }
+}
+
+impl<'a, E: Electrodes> LevelReader<'a, E> {
+    /// The reader of a level image for the units with `electrodes`
+    /// ([`WithReference`], [`ProbeOnly`]; [`AnyElectrodes`] is
+    /// [`LevelReader::new`]): [`ReaderError::WrongKind`] for another kind,
+    /// [`ReaderError::WrongElectrodes`] for a level image of the other
+    /// arrangement. It reads as [`LevelReader::new`]'s reader of the same
+    /// image, bit for bit. Cost, RAM and stack: as [`LevelReader::new`].
+    pub fn with_electrodes(image: &Image<'a>, electrodes: E) -> Result<Self, ReaderError> {
+        Self::check(image, electrodes)?;
+        match (image.kind(), image.curve()) {
+            (ReaderKind::Level, Some(curve)) => Ok(Self {
+                front: image.front(),
+                reference: Self::reference(image),
+                curve,
+                volume: image.volume_table(),
+                offset_cache: None,
+                electrodes: PhantomData,
+            }),
+            (kind, _) => Err(ReaderError::WrongKind(kind)),
+        }
+    }
+
+    /// [`LevelReader::with_electrodes`] built in place (as
+    /// [`LevelReader::init`]): on an error `slot` is left as it was.
+    pub fn init_with_electrodes<'s>(
+        slot: &'s mut MaybeUninit<Self>,
+        image: &Image<'a>,
+        electrodes: E,
+    ) -> Result<&'s mut Self, ReaderError> {
+        Self::check(image, electrodes)?;
         match (image.kind(), image.curve()) {
             (ReaderKind::Level, Some(curve)) => Ok(slot.write(Self {
                 front: image.front(),
-                reference: image.reference(),
+                reference: Self::reference(image),
                 curve,
-                volume: image.volume().map(|(v, _)| v),
+                volume: image.volume_table(),
                 offset_cache: None,
+                electrodes: PhantomData,
             })),
             (kind, _) => Err(ReaderError::WrongKind(kind)),
+        }
+    }
+
+    /// The arrangement check of a level image (for `E` other than
+    /// [`AnyElectrodes`]; an image of another kind is left to the kind
+    /// check).
+    #[inline(always)]
+    fn check(image: &Image<'a>, _: E) -> Result<(), ReaderError> {
+        let Some(want) = E::REFERENCE else {
+            return Ok(());
+        };
+        let has_reference = image.companion_rest().is_some();
+        if image.kind() == ReaderKind::Level && want != has_reference {
+            return Err(ReaderError::WrongElectrodes {
+                image_has_reference: has_reference,
+            });
+        }
+        Ok(())
+    }
+
+    /// The reference electrode's converter (never built for
+    /// [`ProbeOnly`]).
+    #[inline(always)]
+    fn reference(image: &Image<'a>) -> Option<ShiftConverter> {
+        match E::REFERENCE {
+            Some(false) => None,
+            _ => image.reference(),
         }
     }
 
@@ -172,7 +292,15 @@ impl<'a> LevelReader<'a> {
     #[inline(always)]
     fn curve_input(&mut self, input: &Input) -> Result<LevelAxis, SensorFault> {
         let s = channel_shift(&self.front, &self.front.converter, input.pair)?;
-        let Some(conv) = &self.reference else {
+        // `E` decides at compile time: a reader for one arrangement links
+        // that path only (a `WithReference` reader always has the
+        // converter: `with_electrodes` refused an image without one).
+        let reference = match (E::REFERENCE, &self.reference) {
+            (Some(false), _) => None,
+            (Some(true), None) => return Err(SensorFault::Reference),
+            (_, reference) => reference.as_ref(),
+        };
+        let Some(conv) = reference else {
             // `Front::shift` without a companion coil (a level image has
             // none): the plausibility checks, then the drift correction.
             return Ok(LevelAxis::Shift(

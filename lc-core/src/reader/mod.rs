@@ -8,7 +8,10 @@
 //!
 //! - [`ProximityReader`]: shift → gap ([`ProximityReading`]);
 //! - [`LevelReader`]: shift, or the ratio of probe and reference-electrode
-//!   shifts, → level, and optionally → volume ([`LevelReading`]);
+//!   shifts, → level, and optionally → volume ([`LevelReading`]); its
+//!   type parameter ([`Electrodes`]) fixes the arrangement of electrodes
+//!   at build time when the firmware is for one ([`WithReference`],
+//!   [`ProbeOnly`]), so the other's reading path is not linked;
 //! - [`MetalReader`]: baseline tracking, detection with hysteresis and
 //!   debounce, and classification ferrous / non-ferrous, confirmed by the
 //!   ring-down ([`MetalReading`]).
@@ -60,7 +63,10 @@ mod plausible;
 mod proximity;
 
 #[cfg(feature = "level")]
-pub use level::{LevelAxis, LevelReader, LevelReading, ProbeRatio};
+pub use level::{
+    AnyElectrodes, Electrodes, LevelAxis, LevelReader, LevelReading, ProbeOnly, ProbeRatio,
+    WithReference,
+};
 #[cfg(feature = "metal")]
 pub use metal::{MetalReader, MetalReading};
 pub use plausible::{in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE_SHIFT_Q40};
@@ -263,6 +269,14 @@ pub enum ReaderError {
     /// This build leaves out the reader of the image's kind (its cargo
     /// feature is off).
     NotBuilt(ReaderKind),
+    /// A level reader built for one arrangement of electrodes
+    /// (`LevelReader::with_electrodes`) and a level image of the other:
+    /// the image's unit has a reference electrode (`true`) or has none
+    /// (`false`).
+    WrongElectrodes {
+        /// Whether the image's unit has a reference electrode.
+        image_has_reference: bool,
+    },
 }
 
 impl fmt::Display for ReaderError {
@@ -271,6 +285,18 @@ impl fmt::Display for ReaderError {
             ReaderError::WrongKind(k) => write!(f, "the image is for a {k:?} reader"),
             ReaderError::NotBuilt(k) => {
                 write!(f, "this build leaves out the {k:?} reader (cargo feature)")
+            }
+            ReaderError::WrongElectrodes {
+                image_has_reference,
+            } => {
+                let (image, reader) = match image_has_reference {
+                    true => ("has a reference electrode", "a probe only"),
+                    false => ("has no reference electrode", "a reference electrode"),
+                };
+                write!(
+                    f,
+                    "the image's level unit {image}; this reader is built for {reader}"
+                )
             }
         }
     }
@@ -601,6 +627,7 @@ pub(crate) mod tests {
     use crate::image::tests_support::demo_proximity;
     use crate::image::{Calibration, Image, OutputScale, OutputUnit, Serial, Table};
     use crate::shift::RestPoint;
+    use core::mem::MaybeUninit;
     use proptest::prelude::*;
 
     proptest! {
@@ -894,6 +921,102 @@ pub(crate) mod tests {
             });
             assert_eq!(read.status(), want, "wet {wet}: {read:?}");
         }
+    }
+
+    /// The level readers for one arrangement of electrodes: each refuses
+    /// a level image of the other arrangement (typed, from `new` and
+    /// `init` alike, the slot left as it was), refuses another kind as the
+    /// default reader does, and on an image of its own arrangement reads
+    /// what the default reader reads, field for field, through readings,
+    /// clamps, faults and changes of temperature (a drift model fitted so
+    /// that both the probe-only factor and the reference electrode's
+    /// offset form are used).
+    #[test]
+    fn level_readers_for_one_arrangement_read_as_the_default() {
+        fn same<E: Electrodes>(img: &Image<'static>, electrodes: E, inputs: &[Input]) -> usize {
+            let mut any = LevelReader::new(img).unwrap();
+            let mut fixed = LevelReader::with_electrodes(img, electrodes).unwrap();
+            let mut slot = MaybeUninit::uninit();
+            let placed = LevelReader::init_with_electrodes(&mut slot, img, electrodes).unwrap();
+            let mut ok = 0;
+            for input in inputs {
+                let want = any.read(input);
+                assert_eq!(fixed.read(input), want, "{input:?}");
+                assert_eq!(placed.read(input), want, "in place: {input:?}");
+                ok += usize::from(want.status == Status::Ok);
+            }
+            ok
+        }
+        fn refused<E: Electrodes>(img: &Image<'static>, electrodes: E, want: ReaderError) {
+            assert_eq!(
+                LevelReader::with_electrodes(img, electrodes).map(|_| ()),
+                Err(want)
+            );
+            let mut slot = MaybeUninit::uninit();
+            assert_eq!(
+                LevelReader::init_with_electrodes(&mut slot, img, electrodes).map(|_| ()),
+                Err(want)
+            );
+        }
+        let drift = TemperatureModel::new(CentiCelsius(2_500), 1_099_512, 0).unwrap();
+        for reference in [false, true] {
+            for volume in [false, true] {
+                let mut cal = level_cal(reference, volume);
+                cal.drift = drift;
+                let img = image(&cal);
+                let mut inputs = Vec::new();
+                for t in [None, Some(2_500), Some(2_500), Some(4_000), Some(-500)] {
+                    for fraction in [-0.1, 0.0, 0.2, 0.4, 0.7, 1.0, 1.2] {
+                        // The reference electrode wet (shift 0.3), nearly
+                        // dry, or not read.
+                        for (wet, read) in [(1.0, true), (0.005, true), (1.0, false)] {
+                            let s_ref = 0.3 * wet;
+                            let s_probe = if reference {
+                                0.3 * 2.5 * fraction
+                            } else {
+                                0.8 * fraction
+                            };
+                            let ticks = (150_000.0 * libm::sqrt(1.0 + s_ref)).round() as u32;
+                            inputs.push(Input {
+                                companion: read.then(|| CountPair::new(16_384, ticks)),
+                                temperature: t.map(CentiCelsius),
+                                ..Input::counts(pair_for(s_probe))
+                            });
+                        }
+                    }
+                }
+                inputs.push(Input::counts(CountPair::new(0, 1)));
+                let ok = if reference {
+                    refused(
+                        &img,
+                        ProbeOnly,
+                        ReaderError::WrongElectrodes {
+                            image_has_reference: true,
+                        },
+                    );
+                    same(&img, WithReference, &inputs)
+                } else {
+                    refused(
+                        &img,
+                        WithReference,
+                        ReaderError::WrongElectrodes {
+                            image_has_reference: false,
+                        },
+                    );
+                    same(&img, ProbeOnly, &inputs)
+                };
+                assert!(
+                    ok >= 10,
+                    "reference {reference}, volume {volume}: {ok} readings ok"
+                );
+            }
+        }
+        // Another kind: the kind's error, as from the default reader.
+        let img = image(&demo_proximity().unwrap());
+        let kind = ReaderError::WrongKind(ReaderKind::Proximity);
+        refused(&img, WithReference, kind);
+        refused(&img, ProbeOnly, kind);
+        refused(&img, AnyElectrodes, kind);
     }
 
     fn metal_cal(ring_drop: u16, relearn: u32) -> Calibration {

@@ -242,10 +242,10 @@ pub fn in_reach(q: i64, curve: &CurveRef<'_>) -> bool {
 /// The frozen-counter limit of each typed reader (as
 /// [`Reader::set_frozen_limit`](super::Reader::set_frozen_limit)).
 macro_rules! frozen_limit {
-    ($($feature:literal $reader:ty),*) => {
+    ($($feature:literal [$($g:tt)*] $reader:ty),*) => {
         $(
             #[cfg(feature = $feature)]
-            impl $reader {
+            impl<$($g)*> $reader {
                 /// Sets the frozen-counter limit: the `limit`-th identical
                 /// count pair in a row is [`SensorFault::Frozen`]; 0 turns
                 /// the check off; a new reader has [`DEFAULT_FROZEN_LIMIT`].
@@ -257,9 +257,9 @@ macro_rules! frozen_limit {
     };
 }
 frozen_limit!(
-    "proximity" super::ProximityReader<'_>,
-    "level" super::LevelReader<'_>,
-    "metal" super::MetalReader
+    "proximity" [] super::ProximityReader<'_>,
+    "level" [E: super::Electrodes] super::LevelReader<'_, E>,
+    "metal" [] super::MetalReader
 );
 
 #[cfg(test)]

@@ -13,6 +13,12 @@
 //!   (mL): `volume` in the reading (`LevelReading`);
 //! - a reference electrode out of the liquid, or a missing reference pair,
 //!   is a sensor fault.
+//! - the reader is built for a unit with a reference electrode
+//!   (`LevelReader::with_electrodes(&image, WithReference)`), so the
+//!   probe-only reading path is not linked (about 570 bytes of flash less
+//!   than `LevelReader::new`, which reads either arrangement) and an image
+//!   without a reference electrode is refused at start-up. For a unit
+//!   with a probe only, pass `ProbeOnly` instead.
 //!
 //! Memory: measured by `tests/firmware_budget.rs` (docs/performance.md).
 //!
@@ -24,7 +30,7 @@
 use core::hint::black_box;
 use cortex_m_rt::entry;
 use lc_core::image::Image;
-use lc_core::reader::LevelReader;
+use lc_core::reader::{LevelReader, WithReference};
 use lc_unit::{report, script, Aligned, Host};
 
 /// The calibration image, in flash pages of its own (see `proximity.rs`).
@@ -42,8 +48,9 @@ fn main() -> ! {
     let Ok(image) = Image::new_level(image) else {
         host.fail(b"calibration image refused\n")
     };
-    // Used in place (see `proximity.rs`, step 3).
-    let mut built = LevelReader::new(&image);
+    // Used in place (see `proximity.rs`, step 3); built for this unit's
+    // electrodes, a probe and a reference electrode.
+    let mut built = LevelReader::with_electrodes(&image, WithReference);
     let reader = match &mut built {
         Ok(reader) => reader,
         Err(_) => host.fail(b"calibration image refused\n"),
