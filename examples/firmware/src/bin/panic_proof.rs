@@ -27,7 +27,12 @@
 //! - the live link's encoder (`link_proof`): `Encoder::send` of hello,
 //!   count-pair and reading records into a byte sink that fills up,
 //!   `Counts::of_input`, `ReadingRecord::of_reading`; its result goes to
-//!   `black_box` only, so the printed digests stay as they were.
+//!   `black_box` only, so the printed digests stay as they were;
+//! - the level readers built for one arrangement of electrodes
+//!   (`level_variants_proof`): `LevelReader::with_electrodes` with
+//!   `WithReference` and `ProbeOnly` on every committed image, and their
+//!   `read` (the readout's digest builds the default reader); also to
+//!   `black_box` only.
 //!
 //! It links with overflow checks on as well (`--profile release-checked`,
 //! `run.sh panic-check`): no addition, subtraction, multiplication or
@@ -70,6 +75,10 @@ fn main() -> ! {
     );
     black_box(link_proof(
         black_box(readout::ROWS),
+        black_box(readout::ROWS),
+    ));
+    black_box(level_variants_proof(
+        black_box(&IMAGES[..]),
         black_box(readout::ROWS),
     ));
     let ok = match stdout() {
@@ -157,4 +166,41 @@ fn link_proof(rows: &[readout::Row], more: &[readout::Row]) -> u32 {
     }
     wire.iter()
         .fold(failed, |acc, &b| acc.wrapping_add(u32::from(b)))
+}
+
+/// The level readers for one arrangement of electrodes: `with_electrodes`
+/// with `WithReference` and with `ProbeOnly` on every image (each refuses
+/// the other arrangement's image and every other kind), then `read` of
+/// every row with a temperature, so the drift paths are reached. Returns
+/// the readings' sum.
+#[inline(never)]
+fn level_variants_proof(images: &[readout::Image], rows: &[readout::Row]) -> u32 {
+    use lc_core::image::Image;
+    use lc_core::reader::{Electrodes, Input, LevelReader, ProbeOnly, WithReference};
+    use lc_core::temperature::CentiCelsius;
+    fn sum<E: Electrodes>(image: &Image<'_>, electrodes: E, rows: &[readout::Row]) -> u32 {
+        let Ok(mut reader) = LevelReader::with_electrodes(image, electrodes) else {
+            return 1;
+        };
+        let mut t = 0i32;
+        rows.iter().fold(0u32, |acc, row| {
+            t = t.wrapping_add(7) & 0xFFF;
+            let r = reader.read(&Input {
+                pair: row.pair,
+                companion: row.companion,
+                temperature: Some(CentiCelsius(t)),
+                ring_count: row.ring,
+            });
+            acc.wrapping_add(r.level as u32)
+                .wrapping_add(r.volume.unwrap_or(0) as u32)
+        })
+    }
+    images
+        .iter()
+        .fold(0u32, |acc, image| match Image::new(image.bytes) {
+            Ok(image) => acc
+                .wrapping_add(sum(&image, WithReference, rows))
+                .wrapping_add(sum(&image, ProbeOnly, rows)),
+            Err(_) => acc.wrapping_add(2),
+        })
 }
