@@ -59,6 +59,7 @@ use crate::counting::{CountPair, Gate, Gating};
 use crate::derived::{is_rounded_ratio, mul_wide};
 use crate::fixed::{
     div_rem_u64_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64, shl_to_top,
+    ARMV6M,
 };
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
@@ -461,11 +462,22 @@ impl ShiftConverter {
             return Err(ShiftError::ZeroCount);
         }
         if cycles == self.gate_cycles {
-            return square_to_shift(mul_wide(ticks, self.gate_mant), self.gate_exp);
+            return self.gate_general(ticks);
         }
         // Off the gate: `shift`'s own tests, repeated, fold away, and its
         // division path remains.
         self.shift(pair)
+    }
+
+    /// The shift of a pair of the configured gate's cycles with `ticks`
+    /// ticks (non-zero: 0 gives a [`ShiftError::ZeroCount`]), by the
+    /// general normalisation: what [`ShiftConverter::shift_general`] gives
+    /// for such a pair, without its tests of the counts (a caller that
+    /// knows the pair is on the gate: the metal reader, through the fault
+    /// window's accepted ticks).
+    #[inline(always)]
+    pub(crate) fn gate_general(&self, ticks: u32) -> Result<Shift, ShiftError> {
+        square_to_shift(mul_wide(ticks, self.gate_mant), self.gate_exp)
     }
 
     /// The shift of `ticks` over the configured gate when it lies in the
@@ -566,9 +578,37 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
         // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
         return Err(ShiftError::OutOfRange);
     }
-    let u = round_shr_u64(mul_wide(y, y), k.unsigned_abs());
+    let u = round_shr_u64(square_u32(y), k.unsigned_abs());
     let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
     Ok(Shift(u - Shift::ONE_RAW))
+}
+
+/// y², exact. On ARMv6-M (a 32 × 32 → 32-bit multiply only) from the
+/// halves y = a·2^16 + b: y² = a²·2^32 + ab·2^17 + b², three 16 × 16-bit
+/// products where a general product takes four, inline; elsewhere the
+/// one wide multiply.
+#[inline(always)]
+fn square_u32(y: u32) -> u64 {
+    if ARMV6M {
+        square_by_halves(y)
+    } else {
+        mul_u32_wide(y, y)
+    }
+}
+
+/// [`square_u32`]'s ARMv6-M form: y² from the 16-bit halves of y.
+#[inline(always)]
+fn square_by_halves(y: u32) -> u64 {
+    let (a, b) = (y >> 16, y & 0xFFFF);
+    // Each product of two halves is below 2^32: no multiply wraps.
+    let ab = a.wrapping_mul(b);
+    let (lo, carry) = b.wrapping_mul(b).overflowing_add(ab << 17);
+    // The high word of y² < 2^64: the sum is below 2^32 and cannot wrap.
+    let hi = a
+        .wrapping_mul(a)
+        .wrapping_add(ab >> 15)
+        .wrapping_add(u32::from(carry));
+    (u64::from(hi) << 32) | u64::from(lo)
 }
 
 fn exp_i32(e: u32) -> Result<i32, ShiftError> {
@@ -668,6 +708,25 @@ mod tests {
 
     /// The words of p and p·N equal the 128-bit values, at the ends of the
     /// ranges and between.
+    /// The square from the halves is the exact square, at the ends of
+    /// each half's range and where the middle product's carry goes up.
+    #[test]
+    fn square_by_halves_is_exact() {
+        for y in [
+            0,
+            1,
+            0xFFFF,
+            0x1_0000,
+            0x8000_0000,
+            0xFFFF_0000,
+            0x0001_FFFF,
+            0xFFFF_FFFF,
+            0xB504_F334,
+        ] {
+            assert_eq!(square_by_halves(y), u64::from(y) * u64::from(y), "{y:#x}");
+        }
+    }
+
     #[test]
     fn rest_words_are_the_products() {
         let value =
@@ -987,6 +1046,11 @@ mod tests {
         /// The configured-gate shortcut is bit-identical to the general
         /// normalisation wherever it applies, and it applies across the
         /// declared domain.
+        #[test]
+        fn square_by_halves_is_the_square(y: u32) {
+            prop_assert_eq!(square_by_halves(y), u64::from(y) * u64::from(y));
+        }
+
         #[test]
         fn shortcut_equals_general_path(case in domain()) {
             let rest = RestPoint::from_ratio(PeriodRatio::from_f64(case.rest_ratio).unwrap()).unwrap();

@@ -204,11 +204,17 @@ impl MetalReader {
             return companion_shift(f, input);
         }
         let pair = input.pair;
-        f.check(pair).map_err(SensorFault::Counts)?;
-        let s = f
-            .converter
-            .shift_general(pair)
-            .map_err(SensorFault::Shift)?;
+        // A pair inside the gate's accepted ticks passes the window and is
+        // on the gate: its shift straight from the gate's reciprocal. Any
+        // other pair: the window's full check and the general path.
+        let s = match &f.accepted {
+            Some(a) if a.contains(pair) => f.converter.gate_general(pair.ticks),
+            _ => {
+                f.window.check(pair).map_err(SensorFault::Counts)?;
+                f.converter.shift_general(pair)
+            }
+        }
+        .map_err(SensorFault::Shift)?;
         Ok(match f.plausible.check(pair, input.temperature)? {
             Some(t) => f.factor(t).apply(s),
             None => s,
