@@ -1023,6 +1023,12 @@ impl<'a> Image<'a> {
     /// is built in place in the reader, not copied into it.
     #[inline(always)]
     pub(crate) fn front(&self) -> Front {
+        // The accepted ticks first: their divisions' values are then
+        // stored before the other fields are read (fewer values held across
+        // the calls, a smaller frame and less code).
+        let window = self.window();
+        let accepted = self.gate().and_then(|g| window.accepted_ticks(g));
+        let drift = self.drift();
         let rest = self.rest();
         let converter = self.converter(
             rest,
@@ -1039,13 +1045,7 @@ impl<'a> Image<'a> {
         // Without the feature, validation refuses a companion coil.
         #[cfg(not(feature = "companion"))]
         let companion = None;
-        Front::new(
-            self.window(),
-            converter,
-            companion,
-            self.drift(),
-            self.gate(),
-        )
+        Front::new(window, converter, companion, drift, accepted)
     }
 
     /// Level: the reference electrode's converter.

@@ -308,7 +308,7 @@ impl Front {
         converter: ShiftConverter,
         companion: Option<Companion>,
         drift: TemperatureModel,
-        gate: Option<u32>,
+        accepted: Option<AcceptedTicks>,
     ) -> Self {
         #[cfg(not(feature = "companion"))]
         let _ = companion; // always None: validation refused a companion coil
@@ -318,7 +318,7 @@ impl Front {
             #[cfg(feature = "companion")]
             companion,
             drift,
-            accepted: gate.and_then(|g| window.accepted_ticks(g)),
+            accepted,
             drift_cache: None,
             plausible: plausible::Plausible::new(&drift),
         }
