@@ -229,7 +229,18 @@ impl MetalReader {
     #[inline(always)]
     fn track(&mut self, s: i64, ring_count: Option<u16>) -> MetalReading {
         if unlearned(self.baseline) {
-            return self.start(s, ring_count);
+            // The first reading (after start or a relearn) is the
+            // background: both averages start with it (the ring count's is
+            // unlearned too then). The reading below then has a zero delta
+            // and ring drop, and leaves everything as it found it: the
+            // detector absent with no run (a zero signal is below the enter
+            // threshold, which is at least `ppb_to_q40(1)`), the class none,
+            // the present count zero, and the averages where they start (a
+            // learning step from a first sample changes nothing).
+            self.baseline = biased_shift_ema::init(s);
+            if let Some(rc) = ring_count {
+                self.ring_baseline = u16_ema::init(rc);
+            }
         }
         // k − 1 ≤ 15 (validation): the mask changes nothing.
         let k = u32::from(self.k_minus_1 & 15) + 1;
@@ -288,27 +299,6 @@ impl MetalReader {
             ring_drop,
             delta: Shift::from_raw_q40(delta),
             status,
-        }
-    }
-
-    /// The first reading (after start or a relearn): the background. Both
-    /// averages start with it (the ring count's is unlearned too then), so
-    /// the delta and the ring drop are zero and nothing is present; the
-    /// detector, the class and the present count are as a relearn or the
-    /// start left them (absent, none, zero), as they would be after this
-    /// reading (a zero signal is below the enter threshold, and a learning
-    /// step from a first sample changes nothing).
-    #[inline(always)]
-    fn start(&mut self, s: i64, ring_count: Option<u16>) -> MetalReading {
-        self.baseline = biased_shift_ema::init(s);
-        if let Some(rc) = ring_count {
-            self.ring_baseline = u16_ema::init(rc);
-        }
-        MetalReading {
-            class: MetalClass::None,
-            ring_drop: ring_count.map(|_| 0),
-            delta: Shift::ZERO,
-            status: Status::NoTarget,
         }
     }
 }
