@@ -434,10 +434,13 @@ impl ShiftConverter {
     }
 
     /// The division path of [`ShiftConverter::shift`], for non-zero ticks
-    /// and cycles. Out of line on ARMv6-M: inlined, its registers cost
-    /// the configured-gate path spills on a Cortex-M0.
+    /// and cycles: what `shift` gives for a pair off the configured gate
+    /// (cycles other than the gate's), by which the metal reader converts
+    /// the pairs its fault window passes off the gate's accepted ticks.
+    /// Out of line on ARMv6-M: inlined, its registers cost the
+    /// configured-gate path spills on a Cortex-M0.
     #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
-    fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
+    pub(crate) fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
         // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
         let (x, z) = shl_to_top(mul_wide(ticks, self.inv_mant));
         // x ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.

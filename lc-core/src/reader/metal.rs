@@ -209,12 +209,16 @@ impl MetalReader {
         let pair = input.pair;
         // A pair inside the gate's accepted ticks passes the window and is
         // on the gate: its shift straight from the gate's reciprocal. Any
-        // other pair: the window's full check and the general path.
+        // other pair: the window's full check, and then the division path.
+        // A pair the window passes off the accepted ticks is off the gate
+        // (they are the window's ticks at the image's gate, which is the
+        // converter's; with no accepted ticks no pair of the gate's cycles
+        // passes), with non-zero counts: the path `shift` takes for it.
         let s = match &f.accepted {
             Some(a) if a.contains(pair) => f.converter.gate_general(pair.ticks),
             _ => {
                 f.window.check(pair).map_err(SensorFault::Counts)?;
-                f.converter.shift_general(pair)
+                f.converter.shift_by_division(pair.ticks, pair.cycles)
             }
         }
         .map_err(SensorFault::Shift)?;
@@ -450,12 +454,15 @@ mod tests {
     }
 
     /// One reading's input: ticks near the demo rest point (shifts within
-    /// about ±3e-3), now and then a stalled counter (a fault) or a wild
-    /// pair; a ring count or none.
+    /// about ±3e-3) on the gate or off it, now and then a stalled counter
+    /// (a fault) or a wild pair; a ring count or none.
     fn input() -> impl Strategy<Value = Input> {
         (
             prop_oneof![
                 8 => (-200i32..200).prop_map(|d| CountPair::new(16_384, 139_542u32.wrapping_add_signed(d))),
+                // Off the gate, inside the window: the division path.
+                2 => (-200i32..200, prop_oneof![Just(8_192u32), Just(16_383), Just(16_385), Just(20_000)])
+                    .prop_map(|(d, c)| CountPair::new(c, ((139_542u64 * u64::from(c) / 16_384) as u32).wrapping_add_signed(d))),
                 1 => (0u32..3, any::<u32>()).prop_map(|(c, t)| CountPair::new(c, t)),
             ],
             prop_oneof![
