@@ -195,8 +195,8 @@ impl MetalReader {
     /// full check and `ShiftConverter::shift_general`; the drift
     /// correction by the out-of-line `DriftFactor::apply_saturated`. The
     /// same results (the shortcut gives what the general path gives, and
-    /// the saturating form what the plain one gives), about 400 bytes less
-    /// flash on a Cortex-M0 for about 20 more instructions a reading (a
+    /// the saturating form what the plain one gives), about 450 bytes less
+    /// flash on a Cortex-M0 for about 35 more instructions a reading (a
     /// metal detector's part has the least flash of the three).
     #[inline(always)]
     fn front_shift(&mut self, input: &Input) -> Result<Shift, SensorFault> {
