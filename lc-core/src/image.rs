@@ -971,7 +971,9 @@ impl<'a> Image<'a> {
         if self.kind != ReaderKind::Metal {
             return None;
         }
-        let r = Words(self.words);
+        // One length check for all the fields (the words up to the last
+        // one's end): each field's own check then folds away.
+        let r = Words(self.words.get(..METAL_RELEARN.end() / 4)?);
         Some(MetalParams {
             enter_ppb: r.u32(METAL_ENTER_PPB)?,
             leave_ppb: r.u32(METAL_LEAVE_PPB)?,
