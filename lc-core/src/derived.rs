@@ -11,8 +11,9 @@
 
 use crate::fixed::{mul_u32_wide, ARMV6M};
 
-/// `a · b`, exact ([`mul_u32_wide`]), for the start-up checks and the
-/// fault window's full check: on ARMv6-M through one out-of-line copy
+/// `a · b`, exact ([`mul_u32_wide`]), for the start-up checks, the metal
+/// thresholds, the fault window's full check and the shift's general and
+/// division paths: on ARMv6-M through one out-of-line copy
 /// (inlined, the 16-bit partial products cost 40 to 80 bytes of flash at
 /// each of about six places), elsewhere the single multiply instruction
 /// inline.

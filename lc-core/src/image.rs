@@ -975,7 +975,9 @@ impl<'a> Image<'a> {
         if self.kind != ReaderKind::Metal {
             return None;
         }
-        let r = Words(self.words);
+        // One length check for all the fields (the words up to the last
+        // one's end): each field's own check then folds away.
+        let r = Words(self.words.get(..METAL_RELEARN.end() / 4)?);
         Some(MetalParams {
             enter_ppb: r.u32(METAL_ENTER_PPB)?,
             leave_ppb: r.u32(METAL_LEAVE_PPB)?,
@@ -1027,6 +1029,12 @@ impl<'a> Image<'a> {
     /// is built in place in the reader, not copied into it.
     #[inline(always)]
     pub(crate) fn front(&self) -> Front {
+        // The accepted ticks first: their divisions' values are then
+        // stored before the other fields are read (fewer values held across
+        // the calls, a smaller frame and less code).
+        let window = self.window();
+        let accepted = self.gate().and_then(|g| window.accepted_ticks(g));
+        let drift = self.drift();
         let rest = self.rest();
         let converter = self.converter(
             rest,
@@ -1043,13 +1051,7 @@ impl<'a> Image<'a> {
         // Without the feature, validation refuses a companion coil.
         #[cfg(not(feature = "companion"))]
         let companion = None;
-        Front::new(
-            self.window(),
-            converter,
-            companion,
-            self.drift(),
-            self.gate(),
-        )
+        Front::new(window, converter, companion, drift, accepted)
     }
 
     /// Level: the reference electrode's converter.

@@ -58,7 +58,8 @@
 use crate::counting::{CountPair, Gate, Gating};
 use crate::derived::{is_rounded_ratio, mul_wide};
 use crate::fixed::{
-    div_rem_u64_u32, mul_u32_wide, normalise_parts, round_div_u128, round_shr_u64, shl_to_top,
+    div_rem_u64_u32, leading_zeros_u32, mul_u32_wide, round_div_u128, round_shr_u64, shl_to_top,
+    ARMV6M,
 };
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
@@ -433,10 +434,13 @@ impl ShiftConverter {
     }
 
     /// The division path of [`ShiftConverter::shift`], for non-zero ticks
-    /// and cycles. Out of line on ARMv6-M: inlined, its registers cost
-    /// the configured-gate path spills on a Cortex-M0.
+    /// and cycles: what `shift` gives for a pair off the configured gate
+    /// (cycles other than the gate's), by which the metal reader converts
+    /// the pairs its fault window passes off the gate's accepted ticks.
+    /// Out of line on ARMv6-M: inlined, its registers cost the
+    /// configured-gate path spills on a Cortex-M0.
     #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
-    fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
+    pub(crate) fn shift_by_division(&self, ticks: u32, cycles: u32) -> Result<Shift, ShiftError> {
         // ticks ≥ 1 and inv_mant ≥ 2^31: x ≥ 2^31, so z ≤ 32.
         let (x, z) = shl_to_top(mul_wide(ticks, self.inv_mant));
         // x ≥ 2^63 and cycles < 2^32: the quotient has ≥ 32 bits.
@@ -461,11 +465,22 @@ impl ShiftConverter {
             return Err(ShiftError::ZeroCount);
         }
         if cycles == self.gate_cycles {
-            return square_to_shift(mul_wide(ticks, self.gate_mant), self.gate_exp);
+            return self.gate_general(ticks);
         }
         // Off the gate: `shift`'s own tests, repeated, fold away, and its
         // division path remains.
         self.shift(pair)
+    }
+
+    /// The shift of a pair of the configured gate's cycles with `ticks`
+    /// ticks (non-zero: 0 gives a [`ShiftError::ZeroCount`]), by the
+    /// general normalisation: what [`ShiftConverter::shift_general`] gives
+    /// for such a pair, without its tests of the counts (a caller that
+    /// knows the pair is on the gate: the metal reader, through the fault
+    /// window's accepted ticks).
+    #[inline(always)]
+    pub(crate) fn gate_general(&self, ticks: u32) -> Result<Shift, ShiftError> {
+        square_to_shift(mul_wide(ticks, self.gate_mant), self.gate_exp)
     }
 
     /// The shift of `ticks` over the configured gate when it lies in the
@@ -547,7 +562,7 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
     // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp): the steps of
     // `fixed::normalise`, with the rounding's carry taken here, since x
     // may reach 2^64 − 1 and the carry then gives z = −1.
-    let Some((z, top, round)) = normalise_parts(x) else {
+    let Some((z, top, round)) = normalise_words(x) else {
         return Err(ShiftError::ZeroCount);
     };
     let z = z as i32; // ≤ 63
@@ -566,9 +581,63 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
         // y² ≥ 2^62, so r² ≥ 2^22: beyond the format.
         return Err(ShiftError::OutOfRange);
     }
-    let u = round_shr_u64(mul_wide(y, y), k.unsigned_abs());
+    let u = round_shr_u64(square_u32(y), k.unsigned_abs());
     let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
     Ok(Shift(u - Shift::ONE_RAW))
+}
+
+/// `fixed::normalise_parts` of `x` (leading zeros z, the top 32 bits
+/// from the leading one, the next bit; `None` for 0) with one count of
+/// leading zeros: a zero high word takes the low one (32 zeros more)
+/// first. On ARMv6-M, where the count is inline steps and a table, one
+/// copy of them in `square_to_shift` instead of one per word.
+#[inline(always)]
+fn normalise_words(x: u64) -> Option<(u32, u32, u32)> {
+    let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
+    let (hi, lo, z_word) = if hi != 0 {
+        (hi, lo, 0)
+    } else if lo != 0 {
+        (lo, 0, 32)
+    } else {
+        return None;
+    };
+    // 0..=31 for hi ≠ 0: the shift counts below are in range (the
+    // wrapping forms are the plain shifts here).
+    let z = leading_zeros_u32(hi);
+    let top = if z == 0 {
+        hi
+    } else {
+        hi.wrapping_shl(z) | lo.wrapping_shr(32u32.wrapping_sub(z))
+    };
+    Some((z.wrapping_add(z_word), top, lo.wrapping_shl(z) >> 31))
+}
+
+/// y², exact. On ARMv6-M (a 32 × 32 → 32-bit multiply only) from the
+/// halves y = a·2^16 + b: y² = a²·2^32 + ab·2^17 + b², three 16 × 16-bit
+/// products where a general product takes four, inline; elsewhere the
+/// one wide multiply.
+#[inline(always)]
+fn square_u32(y: u32) -> u64 {
+    if ARMV6M {
+        square_by_halves(y)
+    } else {
+        mul_u32_wide(y, y)
+    }
+}
+
+/// [`square_u32`]'s ARMv6-M form: y² from the 16-bit halves of y.
+#[inline(always)]
+fn square_by_halves(y: u32) -> u64 {
+    let (a, b) = (y >> 16, y & 0xFFFF);
+    // Each product of two halves is below 2^32: no multiply wraps.
+    let ab = a.wrapping_mul(b);
+    let (lo, carry) = b.wrapping_mul(b).overflowing_add(ab << 17);
+    // The high word of y² < 2^64: the sum is below 2^32 and cannot wrap.
+    let hi = a
+        .wrapping_mul(a)
+        .wrapping_add(ab >> 15)
+        .wrapping_add(u32::from(carry));
+    (u64::from(hi) << 32) | u64::from(lo)
 }
 
 fn exp_i32(e: u32) -> Result<i32, ShiftError> {
@@ -668,6 +737,25 @@ mod tests {
 
     /// The words of p and p·N equal the 128-bit values, at the ends of the
     /// ranges and between.
+    /// The square from the halves is the exact square, at the ends of
+    /// each half's range and where the middle product's carry goes up.
+    #[test]
+    fn square_by_halves_is_exact() {
+        for y in [
+            0,
+            1,
+            0xFFFF,
+            0x1_0000,
+            0x8000_0000,
+            0xFFFF_0000,
+            0x0001_FFFF,
+            0xFFFF_FFFF,
+            0xB504_F334,
+        ] {
+            assert_eq!(square_by_halves(y), u64::from(y) * u64::from(y), "{y:#x}");
+        }
+    }
+
     #[test]
     fn rest_words_are_the_products() {
         let value =
@@ -987,6 +1075,17 @@ mod tests {
         /// The configured-gate shortcut is bit-identical to the general
         /// normalisation wherever it applies, and it applies across the
         /// declared domain.
+        #[test]
+        fn normalise_words_is_normalise_parts(hi in prop_oneof![Just(0u32), Just(1), any::<u32>()], lo in prop_oneof![Just(0u32), Just(1), any::<u32>()]) {
+            let x = (u64::from(hi) << 32) | u64::from(lo);
+            prop_assert_eq!(normalise_words(x), crate::fixed::normalise_parts(x));
+        }
+
+        #[test]
+        fn square_by_halves_is_the_square(y: u32) {
+            prop_assert_eq!(square_by_halves(y), u64::from(y) * u64::from(y));
+        }
+
         #[test]
         fn shortcut_equals_general_path(case in domain()) {
             let rest = RestPoint::from_ratio(PeriodRatio::from_f64(case.rest_ratio).unwrap()).unwrap();

@@ -353,10 +353,13 @@ impl DriftFactor {
 
     /// [`DriftFactor::apply`] for any shift, with the saturations spelled
     /// out: 1 + s clamped to 0..=i64::MAX before its rounding to Q29, Q29
-    /// saturated to `u32`, and the sum saturated in `i64`.
+    /// saturated to `u32`, and the sum saturated in `i64`. The same result
+    /// as `apply` for every shift (where `apply` takes its plain path no
+    /// saturation acts): the metal reader calls it for every compensated
+    /// reading, one copy of the product in its firmware instead of two.
     #[cold]
     #[inline(never)]
-    fn apply_saturated(self, s: Shift) -> Shift {
+    pub(crate) fn apply_saturated(self, s: Shift) -> Shift {
         let one_plus = s.raw_q40().saturating_add(Shift::ONE_RAW).max(0) as u64;
         let (hi, lo) = ((one_plus >> 32) as u32, one_plus as u32);
         let u29 = if hi >= 1 << 11 {
@@ -422,10 +425,17 @@ mod tests {
             i64::MAX - (1 << 42),
             i64::MAX,
         ];
-        for g31 in [1 << 30, -(1 << 30), 1, -1, 12_345] {
+        for g31 in [1 << 30, -(1 << 30), 1, -1, 12_345, 0] {
             for s in edges {
                 let got = DriftFactor { g31 }.apply(Shift::from_raw_q40(s)).raw_q40();
                 assert_eq!(i128::from(got), apply_i128(g31, s), "g31 {g31}, s {s}");
+                // The out-of-line form (the metal reader's) is the same.
+                let got = DriftFactor { g31 }.apply_saturated(Shift::from_raw_q40(s));
+                assert_eq!(
+                    i128::from(got.raw_q40()),
+                    apply_i128(g31, s),
+                    "g31 {g31}, s {s}"
+                );
             }
         }
     }
@@ -566,6 +576,7 @@ mod tests {
             let f = m.factor(CentiCelsius(t));
             prop_assert_eq!(i128::from(f.g31), if b1 == 0 && b2 == 0 { 0 } else { g31 });
             prop_assert_eq!(i128::from(f.apply(Shift::from_raw_q40(s)).raw_q40()), apply_i128(f.g31, s));
+            prop_assert_eq!(f.apply_saturated(Shift::from_raw_q40(s)), f.apply(Shift::from_raw_q40(s)));
         }
 
         /// g31 from 32-bit words equals g rounded from the exact `i64`

@@ -74,9 +74,9 @@ pub use plausible::{in_reach, FrozenCounter, DEFAULT_FROZEN_LIMIT, MIN_REFERENCE
 pub use proximity::{ProximityReader, ProximityReading};
 
 use crate::counting::{AcceptedTicks, CountPair, FaultError, FaultWindow};
+use crate::derived::mul_wide;
 use crate::detector::{DetectorConfig, Polarity};
 use crate::drift::{Companion, CompanionError, DriftFactor, TemperatureModel};
-use crate::fixed::mul_u32_wide;
 #[cfg(any(feature = "proximity", feature = "level", feature = "metal"))]
 use crate::image::Image;
 use crate::image::{MetalParams, ReaderKind};
@@ -334,7 +334,7 @@ impl Front {
         converter: ShiftConverter,
         companion: Option<Companion>,
         drift: TemperatureModel,
-        gate: Option<u32>,
+        accepted: Option<AcceptedTicks>,
     ) -> Self {
         #[cfg(not(feature = "companion"))]
         let _ = companion; // always None: validation refused a companion coil
@@ -344,7 +344,7 @@ impl Front {
             #[cfg(feature = "companion")]
             companion,
             drift,
-            accepted: gate.and_then(|g| window.accepted_ticks(g)),
+            accepted,
             drift_cache: None,
             plausible: plausible::Plausible::new(&drift),
         }
@@ -489,7 +489,8 @@ impl Front {
 
 /// Parts per billion of shift to Q23.40 (start-up only), for `ppb` below
 /// [`MetalParams::PPB_LIMIT`] (validation): ppb · 2^40 / 10^9 = ppb ·
-/// 2^52 / 5^9 · 2^-21, by one 32 × 32-bit multiply with M = ⌊2^52 / 5^9⌋
+/// 2^52 / 5^9 · 2^-21, by one 32 × 32 → 64-bit multiply (`derived::mul_wide`,
+/// on ARMv6-M the firmware's one out-of-line copy) with M = ⌊2^52 / 5^9⌋
 /// = 2 305 843 009, rounded half up. M is short of 2^52 / 5^9 by less than
 /// 0.214, so the result is the correctly rounded quotient or one below it
 /// (one unit of Q23.40 is 0.91 ppb), strictly increasing in `ppb` (each
@@ -501,7 +502,7 @@ pub(crate) fn ppb_to_q40(ppb: u32) -> u32 {
     // ppb · M < 2^22 · 2^32: the sum cannot wrap, and the quotient by
     // 2^21 is below 2^32 under the limit (wrapping outside it, where
     // validation has refused the image).
-    (mul_u32_wide(ppb, M).wrapping_add(1 << 20) >> 21) as u32
+    (mul_wide(ppb, M).wrapping_add(1 << 20) >> 21) as u32
 }
 
 /// The metal reader's detector configuration from its parameters.
