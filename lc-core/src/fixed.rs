@@ -583,21 +583,21 @@ fn shl_u64(x: u64, sh: u32) -> u64 {
     }
 }
 
-/// Seeds of Y ≈ 2^63/m at the nodes m = (128 + k)·2^24, k in 0..=128: the
-/// seed there is 2^31 + S_k·2^15 with S_k = ⌊2^24/d − 2^21/d³⌋ − 2^16,
-/// d = 128 + k (0 at k = 128, where the formula gives −1). The 2^21/d³
-/// (1/x³ units of 2^15 for x = d/128) sets the nodes below 2^39/d by about
-/// half of the chord's largest excess over the convex 2^39/d between two
-/// nodes (2/x³ units) and of the interpolation's truncation (under one),
-/// so a seed's error is centred on zero. 258 bytes of flash.
-const RECIPROCAL_SEEDS: [u16; 129] = {
-    let mut table = [0u16; 129];
+/// Seeds of Y ≈ 2^63/m at the nodes m = (64 + k)·2^25, k in 0..=64: the
+/// seed there is 2^31 + S_k·2^15 with S_k = ⌊2^23/d − 2^20/d³⌋ − 2^16,
+/// d = 64 + k (0 at k = 64, where the formula gives −1). The 2^20/d³
+/// (4/x³ units of 2^15 for x = d/64) sets the nodes below 2^38/d by about
+/// half of the chord's largest excess over the convex 2^38/d between two
+/// nodes (8/x³ units) and of the interpolation's truncation (under one),
+/// so a seed's error is centred on zero. 130 bytes of flash.
+const RECIPROCAL_SEEDS: [u16; 65] = {
+    let mut table = [0u16; 65];
     let mut k = 0;
-    while k < 129 {
-        // d in 128..=256: d² ≤ 2^16, 2^24·d² ≤ 2^40 and d³ ≤ 2^24 fit u64;
-        // the quotient lies in [2^16 − 1, 2^17), so less 2^16 it fits u16.
-        let d = 128 + k as u64;
-        let v = ((1u64 << 24) * d * d - (1 << 21)) / (d * d * d);
+    while k < 65 {
+        // d in 64..=128: 2^23·d² ≤ 2^37 and d³ ≤ 2^21 fit u64; the quotient
+        // lies in [2^16 − 1, 2^17), so less 2^16 it fits u16.
+        let d = 64 + k as u64;
+        let v = ((1u64 << 23) * d * d - (1 << 20)) / (d * d * d);
         table[k] = if v < 1 << 16 {
             0
         } else {
@@ -610,38 +610,38 @@ const RECIPROCAL_SEEDS: [u16; 129] = {
 
 /// Y ≈ 2^63/m for a normalised m (top bit set; then 2^31 ≤ Y < 2^32),
 /// within a relative 2^-28, the bound its users state theirs from: the
-/// worst over every normalised m is 0.3190·2^-28 (below the exact
-/// quotient, at m = 0xFD06_DE61; 0.0778·2^-28 above it, at m =
-/// 0xFFC9_86F7), measured by `reciprocal_exhaustive` (an ignored test of
+/// worst over every normalised m is 0.4815·2^-28 (below the exact
+/// quotient, at m = 0x80F9_0575; 0.0625·2^-28 above it, at m =
+/// 0xDC2D_23D2), measured by `reciprocal_exhaustive` (an ignored test of
 /// about 20 s in release; `reciprocal_sweep` runs a sixty-first of it on
 /// every test run).
 ///
 /// The method: a seed y0 = 2^31 + s·2^15 from the chord between the two
-/// [`RECIPROCAL_SEEDS`] around m (128 intervals, m's bits 8..23 the place
-/// t on the chord), relative error e ≤ 2^-15.9 (the chord's excess and
-/// the 16-bit nodes' rounding, centred on zero), then one Newton step
+/// [`RECIPROCAL_SEEDS`] around m (64 intervals, m's bits 9..24 the place
+/// t on the chord), relative error e below 2^-14.7 (the chord's excess
+/// and the 16-bit nodes' rounding, centred on zero), then one Newton step
 /// y = y0 + y0·e with e·2^32 = r = 2^32 − m − m·s/2^16 (modulo 2^32; the
-/// exact residual 2^63 − m·y0 over 2^31): its error is e², below 2^-31.8,
-/// and the truncations of the residual's and the correction's low bits
-/// add at most about 3 units (2^-29.4 relative at m near 2^32, the worst
-/// case). No division and no 32 × 32 → 64-bit product: four multiplies,
-/// each below 2^32 (|r| < 2^16.13 and |r|·⌊s/2⌋ < 2^30.95 over every m,
-/// the exhaustive test's bounds), about 30 instructions on a Cortex-M0.
-/// The level ratio ([`div_q40`]), the drift model's offset form and the
-/// NTC's temperature from 1/T use it: on ARMv6-M through one out-of-line
-/// copy (inlined into the level reading and again into the drift offset,
-/// an earlier form of it cost a level firmware about 120 bytes more and
-/// its reading 1.5 instructions more, the spills around it included).
+/// exact residual 2^63 − m·y0 over 2^31): its error is e², below
+/// 2^-29.4, and the truncations of the residual's and the correction's
+/// low bits add at most about 3 units (2^-29.4 relative at m near 2^32).
+/// No division and no 32 × 32 → 64-bit product: five multiplies, each
+/// below 2^32 (|r| < 2^17.22 over every m, the exhaustive test's bound),
+/// about 30 instructions on a Cortex-M0. The level ratio ([`div_q40`]),
+/// the drift model's offset form and the NTC's temperature from 1/T use
+/// it: on ARMv6-M through one out-of-line copy (inlined into the level
+/// reading and again into the drift offset, an earlier form of it cost a
+/// level firmware about 120 bytes more and its reading 1.5 instructions
+/// more, the spills around it included).
 #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 #[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
-    // Normalised by contract. Bits 24..30 pick the chord j, bits 8..23 the
+    // Normalised by contract. Bits 25..30 pick the chord j, bits 9..24 the
     // place t on it (Q16).
     let m = m | (1 << 31);
-    let j = ((m >> 24) & 127) as usize;
-    let t = (m >> 8) & 0xFFFF;
-    // Nodes j and j + 1 ≤ 128: in bounds. The seeds fall with k, so the
-    // difference is positive, below 2^10; times t it is below 2^26.
+    let j = ((m >> 25) & 63) as usize;
+    let t = (m >> 9) & 0xFFFF;
+    // Nodes j and j + 1 ≤ 64: in bounds. The seeds fall with k, so the
+    // difference is positive, below 2^11; times t it is below 2^27.
     let (a, b) = (
         u32::from(RECIPROCAL_SEEDS[j]),
         u32::from(RECIPROCAL_SEEDS[j + 1]),
@@ -651,18 +651,21 @@ pub(crate) fn reciprocal_q63(m: u32) -> u32 {
     // forms because the compiler cannot see the table's values.
     let s = a.wrapping_sub(a.wrapping_sub(b).wrapping_mul(t) >> 16);
     // m·s/2^16 = (m >> 16)·s + (m mod 2^16)·s/2^16, s < 2^16: each product
-    // below 2^32. r = 2^32 − m − m·s/2^16 is small (|r| < 2^16.13), so
+    // below 2^32. r = 2^32 − m − m·s/2^16 is small (|r| < 2^17.22), so
     // modulo 2^32 read as an i32 it is exact (the truncation raises it by
     // under 1).
     let r = 0u32
         .wrapping_sub(m)
         .wrapping_sub((m >> 16).wrapping_mul(s))
         .wrapping_sub((m & 0xFFFF).wrapping_mul(s) >> 16) as i32;
-    // y0·e = r·(2^31 + s·2^15)/2^32 = r/2 + r·s/2^17, with ⌊s/2⌋ for s
-    // (costs under r/2^17 < 0.6 unit) so the product stays below 2^31.
-    let correction = (r >> 1).wrapping_add(r.wrapping_mul((s >> 1) as i32) >> 16);
-    // y = 2^31 + s·2^15 + correction lies in [2^31, 2^32) (the sweep);
-    // s·2^15 < 2^31.
+    // y0·e = r·(2^31 + s·2^15)/2^32 = r/2 + r·s/2^17, r·s from r's top
+    // (|r >> 9| < 2^8.3) and its low 9 bits: both products below 2^26.
+    let (rh, rl) = (r >> 9, (r & 511) as u32);
+    let correction = (r >> 1)
+        .wrapping_add(rh.wrapping_mul(s as i32) >> 8)
+        .wrapping_add((rl.wrapping_mul(s) >> 17) as i32);
+    // y = 2^31 + s·2^15 + correction lies in [2^31, 2^32) (the exhaustive
+    // test); s·2^15 < 2^31.
     (s << 15)
         .wrapping_add(correction as u32)
         .wrapping_add(1 << 31)
@@ -781,40 +784,40 @@ mod tests {
     }
 
     /// The seeds as stated (recomputed in floating point: within half a
-    /// unit of 2^24/d − 2^16 − 1/x³ − 1/2, the last one 0), and the
+    /// unit of 2^23/d − 2^16 − 4/x³ − 1/2, the last one 0), and the
     /// reciprocal within its bound at both ends and the middle of every
     /// chord and on a sweep of every 61st mantissa (2^25.1 of them, the
-    /// worst relative error seen 0.3119·2^-28), checked in exact
+    /// worst relative error seen 0.4707·2^-28), checked in exact
     /// integers.
     #[test]
     fn reciprocal_sweep() {
         for (k, &v) in RECIPROCAL_SEEDS.iter().enumerate() {
-            let d = 128.0 + k as f64;
-            let x = d / 128.0;
-            let exact = 2f64.powi(24) / d - 2f64.powi(16) - 1.0 / (x * x * x) - 0.5;
-            let expected = if k == 128 { 0.0 } else { exact };
+            let d = 64.0 + k as f64;
+            let x = d / 64.0;
+            let exact = 2f64.powi(23) / d - 2f64.powi(16) - 4.0 / (x * x * x) - 0.5;
+            let expected = if k == 64 { 0.0 } else { exact };
             assert!((f64::from(v) - expected).abs() <= 0.5, "seed {k}");
         }
-        let mut ms: Vec<u32> = (0u32..128)
+        let mut ms: Vec<u32> = (0u32..64)
             .flat_map(|j| {
-                let lo = (1 << 31) + (j << 24);
-                [lo, lo + 1, lo + (1 << 23), lo + ((1 << 24) - 1)]
+                let lo = (1 << 31) + (j << 25);
+                [lo, lo + 1, lo + (1 << 24), lo + ((1 << 25) - 1)]
             })
             .collect();
         ms.extend(((1u64 << 31)..(1u64 << 32)).step_by(61).map(|m| m as u32));
         ms.push(u32::MAX);
         let worst = ms.iter().map(|&m| reciprocal_error(m)).max().unwrap_or(0);
-        // The contract, 2^-28 · 2^63; and the measured worst, 0.32·2^-28.
+        // The contract, 2^-28 · 2^63; and the measured worst, 0.48·2^-28.
         assert!(worst <= 1 << 35);
         assert!(
-            worst <= (1 << 35) / 100 * 32,
+            worst <= (1 << 35) / 100 * 48,
             "worst {}·2^-28",
             worst as f64 / 2f64.powi(35)
         );
     }
 
     /// Every normalised mantissa: the reciprocal within its stated 2^-28
-    /// and in [2^31, 2^32), the worst 0.3190·2^-28 at m = 0xFD06_DE61.
+    /// and in [2^31, 2^32), the worst 0.4815·2^-28 at m = 0x80F9_0575.
     /// About 20 s in release:
     /// `cargo test --release -p lc-core reciprocal_exhaustive -- --ignored`.
     #[test]
@@ -828,11 +831,11 @@ mod tests {
             }
         }
         assert!(
-            worst <= (1 << 35) / 10000 * 3191,
+            worst <= (1 << 35) / 10000 * 4816,
             "{}·2^-28 at {at:#x}",
             worst as f64 / 2f64.powi(35)
         );
-        assert_eq!(at, 0xFD06_DE61);
+        assert_eq!(at, 0x80F9_0575);
     }
 
     /// The exact reciprocal of a normalised divisor, from the definition in
