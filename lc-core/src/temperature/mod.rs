@@ -89,7 +89,7 @@
 //! point) are computed once, at construction. Tables: 64 × 2 `u32` and
 //! 32 `u64` for the logarithm, 65 `u16` for the reciprocal (898 bytes),
 //! and the 128-byte table of leading zeros shared with the other
-//! normalisations. On a Cortex-M0 a Beta conversion costs 562.5
+//! normalisations. On a Cortex-M0 a Beta conversion costs 567.5
 //! instructions (docs/performance.md).
 //!
 //! ## Example
