@@ -613,7 +613,7 @@ const RECIPROCAL_SEEDS: [u16; 65] = {
 /// worst over every normalised m is 0.4815·2^-28 (below the exact
 /// quotient, at m = 0x80F9_0575; 0.0625·2^-28 above it, at m =
 /// 0xDC2D_23D2), measured by `reciprocal_exhaustive` (an ignored test of
-/// about 12 s in release; `reciprocal_sweep` runs a sixty-first of it on
+/// about 25 s in release; `reciprocal_sweep` runs a sixty-first of it on
 /// every test run).
 ///
 /// The method: a seed y0 = 2^31 + s·2^15 from the chord between the two
@@ -625,13 +625,13 @@ const RECIPROCAL_SEEDS: [u16; 65] = {
 /// 2^-29.4, and the truncations of the residual's and the correction's
 /// low bits add at most about 3 units (2^-29.4 relative at m near 2^32).
 /// No division and no 32 × 32 → 64-bit product: five multiplies, each
-/// below 2^32 (|r| < 2^17.22, measured over every m), 40 instructions on
-/// a Cortex-M0, the call included (`run.sh profile`). The level ratio
-/// ([`div_q40`]), the drift model's offset form and the NTC's temperature
-/// from 1/T use it: on ARMv6-M through one out-of-line copy (inlined
-/// into the level reading and again into the drift offset, an earlier
-/// form of it cost a level firmware about 120 bytes more and its reading
-/// 1.5 instructions more, the spills around it included).
+/// below 2^32 (|r| < 2^17.22 over every m, `reciprocal_exhaustive`), 40
+/// instructions on a Cortex-M0, the call included (`run.sh profile`).
+/// The level ratio ([`div_q40`]), the drift model's offset form and the
+/// NTC's temperature from 1/T use it: on ARMv6-M through one out-of-line
+/// copy (inlined into the level reading and again into the drift offset,
+/// an earlier form of it cost a level firmware about 120 bytes more and
+/// its reading 1.5 instructions more, the spills around it included).
 #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 #[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
@@ -817,19 +817,33 @@ mod tests {
     }
 
     /// Every normalised mantissa: the reciprocal within its stated 2^-28
-    /// and in [2^31, 2^32), the worst 0.4815·2^-28 at m = 0x80F9_0575.
-    /// About 12 s in release:
+    /// and in [2^31, 2^32), the worst 0.4815·2^-28 at m = 0x80F9_0575;
+    /// the Newton step's residual within its stated 2^17.22.
+    /// About 25 s in release:
     /// `cargo test --release -p lc-core reciprocal_exhaustive -- --ignored`.
     #[test]
     #[ignore]
     fn reciprocal_exhaustive() {
-        let (mut worst, mut at) = (0u128, 0u32);
+        let (mut worst, mut at, mut residual) = (0u128, 0u32, 0i64);
         for m in (1u32 << 31)..=u32::MAX {
             let err = reciprocal_error(m);
             if err > worst {
                 (worst, at) = (err, m);
             }
+            // The seed and the residual r as `reciprocal_q63` forms them
+            // (r here in an i64, the same value): the bound its comments
+            // state.
+            let j = ((m >> 25) & 63) as usize;
+            let (a, b) = (
+                u32::from(RECIPROCAL_SEEDS[j]),
+                u32::from(RECIPROCAL_SEEDS[j + 1]),
+            );
+            let s = a - (((a - b) * ((m >> 9) & 0xFFFF)) >> 16);
+            let r = (1i64 << 32) - i64::from(m) - ((i64::from(m) * i64::from(s)) >> 16);
+            residual = residual.max(r.abs());
         }
+        // |r| < 2^17.22.
+        assert!((residual as f64) < 2f64.powf(17.22), "|r| {residual}");
         assert!(
             worst <= (1 << 35) / 10000 * 4816,
             "{}·2^-28 at {at:#x}",
