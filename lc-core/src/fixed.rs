@@ -583,85 +583,99 @@ fn shl_u64(x: u64, sh: u32) -> u64 {
     }
 }
 
-/// Nodes of Y ≈ 2^63/m for m = (256 + j)·2^23: N_j = round(2^40/(256 + j))
-/// for j in −1..=257, stored at index j + 1 less 2^30 (N_j lies between
-/// 2^40/513 and 2^40/255, so N_j − 2^30 fits `u32`). 1 036 bytes of flash.
-const RECIPROCAL_NODES: [u32; 259] = {
-    let mut table = [0u32; 259];
+/// Seeds of Y ≈ 2^63/m at the nodes m = (64 + k)·2^25, k in 0..=64: the
+/// seed there is 2^31 + S_k·2^15 with S_k = ⌊2^23/d − 2^20/d³⌋ − 2^16,
+/// d = 64 + k (0 at k = 64, where the formula gives −1). The 2^20/d³
+/// (4/x³ units of 2^15 for x = d/64) sets the nodes below 2^38/d by about
+/// half of the chord's largest excess over the convex 2^38/d between two
+/// nodes (8/x³ units) and of the interpolation's truncation (under one),
+/// so a seed's error is centred on zero. 130 bytes of flash.
+const RECIPROCAL_SEEDS: [u16; 65] = {
+    let mut table = [0u16; 65];
     let mut k = 0;
-    while k < 259 {
-        // d = 256 + j = 255 + k in 255..=513; the rounded quotient lies in
-        // (2^31, 2^32 + 2^24), so less 2^30 it fits u32.
-        let d = 255 + k as u64;
-        let v = ((1u64 << 40) + d / 2) / d;
-        table[k] = (v - (1 << 30)) as u32;
+    while k < 65 {
+        // d in 64..=128: 2^23·d² ≤ 2^37 and d³ ≤ 2^21 fit u64; the quotient
+        // lies in [2^16 − 1, 2^17), so less 2^16 it fits u16.
+        let d = 64 + k as u64;
+        let v = ((1u64 << 23) * d * d - (1 << 20)) / (d * d * d);
+        table[k] = if v < 1 << 16 {
+            0
+        } else {
+            (v - (1 << 16)) as u16
+        };
         k += 1;
     }
     table
 };
 
 /// Y ≈ 2^63/m for a normalised m (top bit set; then 2^31 ≤ Y < 2^32),
-/// within a relative 2^-28: the worst over every normalised m is
-/// 0.95875·2^-28, at m = 0x8018_1079 (`reciprocal_exhaustive`, an
-/// ignored test of about 12 s in release; `reciprocal_sweep` runs a
-/// sixty-first of it on every test run). The method: Bessel's
-/// central-difference interpolation formula to second differences between
-/// the two [`RECIPROCAL_NODES`] around m, 256 intervals, m's low 23 bits
-/// the place u in the interval. Its leading remainder term,
-/// u(u − 1)(u − 1/2)/6 times the third difference (from memory: the
-/// formula's textbook remainder), is at most about 2^-28.4 relative near
-/// m = 2^31; the nodes' rounding and the integer truncations add a few
-/// units. No division and no 32 × 32 → 64-bit product: five multiplies
-/// of at most 16 × 16 bits' worth (24 × 7 and 14 × 18 among them), each
-/// below 2^32, about 40 instructions on a Cortex-M0. The level ratio
-/// ([`div_q40`]), the drift model's offset form and the NTC's temperature
-/// from 1/T use it: on ARMv6-M through one out-of-line copy (inlined into
-/// the level reading and again into the drift offset it cost a level
-/// firmware about 120 bytes more and its reading 1.5 instructions more,
-/// the spills around it included).
+/// within a relative 2^-28, the bound its users state theirs from: the
+/// worst over every normalised m is 0.4815·2^-28 (below the exact
+/// quotient, at m = 0x80F9_0575; 0.0625·2^-28 above it, at m =
+/// 0xDC2D_23D2), measured by `reciprocal_exhaustive` (an ignored test of
+/// about 25 s in release; `reciprocal_sweep` runs a sixty-first of it on
+/// every test run).
+///
+/// The method: a seed y0 = 2^31 + s·2^15 from the chord between the two
+/// [`RECIPROCAL_SEEDS`] around m (64 intervals, m's bits 9..24 the place
+/// t on the chord), relative error e below 2^-14.7 (the chord's excess
+/// and the 16-bit nodes' rounding, centred on zero), then one Newton step
+/// y = y0 + y0·e with e·2^32 = r = 2^32 − m − m·s/2^16 (modulo 2^32; the
+/// exact residual 2^63 − m·y0 over 2^31): its error is e², below
+/// 2^-29.4, and the truncations of the residual's and the correction's
+/// low bits add at most about 3 units (2^-29.4 relative at m near 2^32).
+/// No division and no 32 × 32 → 64-bit product: five multiplies, each
+/// below 2^32 (|r| < 2^17.22 over every m, `reciprocal_exhaustive`), 40
+/// instructions on a Cortex-M0, the call included (`run.sh profile`).
+/// The level ratio ([`div_q40`]), the drift model's offset form and the
+/// NTC's temperature from 1/T use it: on ARMv6-M through one out-of-line
+/// copy (inlined into the level reading and again into the drift offset,
+/// an earlier form of it cost a level firmware about 120 bytes more and
+/// its reading 1.5 instructions more, the spills around it included).
 #[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 #[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
 pub(crate) fn reciprocal_q63(m: u32) -> u32 {
-    // Normalised by contract. Bits 23..30 pick the interval j, bits 0..22
-    // the place u = f/2^23.
+    // Normalised by contract. Bits 25..30 pick the chord j, bits 9..24 the
+    // place t on it (Q16).
     let m = m | (1 << 31);
-    let j = ((m >> 23) & 255) as usize;
-    let f = m & 0x7F_FFFF;
-    // Nodes j − 1, j, j + 1, j + 2 at indices j..=j + 3 ≤ 258: in bounds.
-    let (z, a, b, c) = (
-        RECIPROCAL_NODES[j],
-        RECIPROCAL_NODES[j + 1],
-        RECIPROCAL_NODES[j + 2],
-        RECIPROCAL_NODES[j + 3],
+    let j = ((m >> 25) & 63) as usize;
+    let t = (m >> 9) & 0xFFFF;
+    // Nodes j and j + 1 ≤ 64: in bounds. The seeds fall with k, so the
+    // difference is positive, below 2^11; times t it is below 2^27.
+    let (a, b) = (
+        u32::from(RECIPROCAL_SEEDS[j]),
+        u32::from(RECIPROCAL_SEEDS[j + 1]),
     );
-    // The first difference, below 2^24, and the sum of the two second
-    // differences around the interval, below 2^18 (1/x is convex, so both
-    // are positive).
-    // None of the operations below can wrap (the bounds in the comments,
-    // and the exhaustive sweep over every m); they are written in their
-    // wrapping forms because the compiler cannot see the table's values.
-    let d1 = a.wrapping_sub(b);
-    let d2 = z.wrapping_sub(a).wrapping_sub(b.wrapping_sub(c));
-    // u·d1 = d1·f/2^23 from 16 × 16-bit products (each below 2^32; the
-    // truncations cost under 2 units).
-    let (fh, fl) = (f >> 7, f & 127);
-    let low = (((d1 & 0xFFFF).wrapping_mul(fh)) >> 1).wrapping_add(d1.wrapping_mul(fl) >> 8);
-    let linear = (d1 >> 16).wrapping_mul(fh).wrapping_add(low >> 15);
-    // u(1 − u)/2 · d2/2: u(1 − u) in Q16 is at most 2^14, times d2 < 2^18.
-    let w = fh.wrapping_mul(0x1_0000 - fh) >> 16;
-    let quadratic = w.wrapping_mul(d2) >> 18;
-    // a − linear − quadratic ≥ 2^30 − 1 (the sweep); Y = 2^32 (m = 2^31)
-    // is held at 2^32 − 1.
-    a.wrapping_sub(linear)
-        .wrapping_sub(quadratic)
-        .saturating_add(1 << 30)
+    // None of the operations below can wrap, except where written modulo
+    // 2^32 on purpose (the residual); they are written in their wrapping
+    // forms because the compiler cannot see the table's values.
+    let s = a.wrapping_sub(a.wrapping_sub(b).wrapping_mul(t) >> 16);
+    // m·s/2^16 = (m >> 16)·s + (m mod 2^16)·s/2^16, s < 2^16: each product
+    // below 2^32. r = 2^32 − m − m·s/2^16 is small (|r| < 2^17.22), so
+    // modulo 2^32 read as an i32 it is exact (the truncation raises it by
+    // under 1).
+    let r = 0u32
+        .wrapping_sub(m)
+        .wrapping_sub((m >> 16).wrapping_mul(s))
+        .wrapping_sub((m & 0xFFFF).wrapping_mul(s) >> 16) as i32;
+    // y0·e = r·(2^31 + s·2^15)/2^32 = r/2 + r·s/2^17, r·s from r's top
+    // (|r >> 9| < 2^8.3) and its low 9 bits: both products below 2^26.
+    let (rh, rl) = (r >> 9, (r & 511) as u32);
+    let correction = (r >> 1)
+        .wrapping_add(rh.wrapping_mul(s as i32) >> 8)
+        .wrapping_add((rl.wrapping_mul(s) >> 17) as i32);
+    // y = 2^31 + s·2^15 + correction lies in [2^31, 2^32) (the exhaustive
+    // test); s·2^15 < 2^31.
+    (s << 15)
+        .wrapping_add(correction as u32)
+        .wrapping_add(1 << 31)
 }
 
 /// The quotient a/b in Q.40, a · 2^40 / b to within a relative 2^-27
 /// plus half a unit, or `None` when b is zero or the quotient does not fit
 /// an `i64`. No division: both operands are rounded to 32-bit mantissas
-/// (relative error ≤ 2^-32 each), the divisor's reciprocal comes from
-/// interpolation in a table (`reciprocal_q63`, ≤ 2^-28; the same
+/// (relative error ≤ 2^-32 each), the divisor's reciprocal comes from a
+/// table chord and one Newton step (`reciprocal_q63`, ≤ 2^-28; the same
 /// reciprocal as the NTC conversion's), their product is rounded to Q.40
 /// (≤ 2^-32 relative, or half a unit): 2^-28 + 3·2^-32 in all, stated as
 /// 2^-27. For the level reader's ratio of two shifts, finer than `f32`
@@ -761,55 +775,81 @@ mod tests {
         }
     }
 
-    /// The nodes as stated, and the reciprocal within its bound at both
-    /// ends and the middle of every interval and on a sweep of every 61st
-    /// mantissa (2^25.1 of them, 0.958·2^-28 the worst relative error
-    /// seen), checked in exact integers.
+    /// |Y·m − 2^63| for the reciprocal Y of a normalised m, exactly; and Y
+    /// in [2^31, 2^32), as its callers rely on.
+    fn reciprocal_error(m: u32) -> u128 {
+        let y = reciprocal_q63(m);
+        assert!(y >= 1 << 31, "m {m:#x} y {y:#x}");
+        (u128::from(y) * u128::from(m)).abs_diff(1 << 63)
+    }
+
+    /// The seeds as stated (recomputed in floating point: within half a
+    /// unit of 2^23/d − 2^16 − 4/x³ − 1/2, the last one 0), and the
+    /// reciprocal within its bound at both ends and the middle of every
+    /// chord and on a sweep of every 61st mantissa (2^25.1 of them, the
+    /// worst relative error seen 0.4707·2^-28), checked in exact
+    /// integers.
     #[test]
     fn reciprocal_sweep() {
-        for (k, &v) in RECIPROCAL_NODES.iter().enumerate() {
-            let exact = 2f64.powi(40) / (255.0 + k as f64) - 2f64.powi(30);
-            assert!((f64::from(v) - exact).abs() <= 0.5, "node {k}");
+        for (k, &v) in RECIPROCAL_SEEDS.iter().enumerate() {
+            let d = 64.0 + k as f64;
+            let x = d / 64.0;
+            let exact = 2f64.powi(23) / d - 2f64.powi(16) - 4.0 / (x * x * x) - 0.5;
+            let expected = if k == 64 { 0.0 } else { exact };
+            assert!((f64::from(v) - expected).abs() <= 0.5, "seed {k}");
         }
-        let mut ms: Vec<u32> = (0u32..256)
+        let mut ms: Vec<u32> = (0u32..64)
             .flat_map(|j| {
-                let lo = (1 << 31) + (j << 23);
-                [lo, lo + 1, lo + (1 << 22), lo + ((1 << 23) - 1)]
+                let lo = (1 << 31) + (j << 25);
+                [lo, lo + 1, lo + (1 << 24), lo + ((1 << 25) - 1)]
             })
             .collect();
         ms.extend(((1u64 << 31)..(1u64 << 32)).step_by(61).map(|m| m as u32));
-        let worst = ms
-            .iter()
-            .map(|&m| (u128::from(reciprocal_q63(m)) * u128::from(m)).abs_diff(1 << 63))
-            .max()
-            .unwrap_or(0);
-        // 0.96·2^-28 · 2^63.
+        ms.push(u32::MAX);
+        let worst = ms.iter().map(|&m| reciprocal_error(m)).max().unwrap_or(0);
+        // The contract, 2^-28 · 2^63; and the measured worst, 0.48·2^-28.
+        assert!(worst <= 1 << 35);
         assert!(
-            worst <= (1 << 35) / 100 * 96,
+            worst <= (1 << 35) / 100 * 48,
             "worst {}·2^-28",
             worst as f64 / 2f64.powi(35)
         );
     }
 
     /// Every normalised mantissa: the reciprocal within its stated 2^-28
-    /// (worst 0.95875·2^-28 at m = 0x8018_1079). About 12 s in release:
+    /// and in [2^31, 2^32), the worst 0.4815·2^-28 at m = 0x80F9_0575;
+    /// the Newton step's residual within its stated 2^17.22.
+    /// About 25 s in release:
     /// `cargo test --release -p lc-core reciprocal_exhaustive -- --ignored`.
     #[test]
     #[ignore]
     fn reciprocal_exhaustive() {
-        let (mut worst, mut at) = (0u128, 0u32);
+        let (mut worst, mut at, mut residual) = (0u128, 0u32, 0i64);
         for m in (1u32 << 31)..=u32::MAX {
-            let err = (u128::from(reciprocal_q63(m)) * u128::from(m)).abs_diff(1 << 63);
+            let err = reciprocal_error(m);
             if err > worst {
                 (worst, at) = (err, m);
             }
+            // The seed and the residual r as `reciprocal_q63` forms them
+            // (r here in an i64, the same value): the bound its comments
+            // state.
+            let j = ((m >> 25) & 63) as usize;
+            let (a, b) = (
+                u32::from(RECIPROCAL_SEEDS[j]),
+                u32::from(RECIPROCAL_SEEDS[j + 1]),
+            );
+            let s = a - (((a - b) * ((m >> 9) & 0xFFFF)) >> 16);
+            let r = (1i64 << 32) - i64::from(m) - ((i64::from(m) * i64::from(s)) >> 16);
+            residual = residual.max(r.abs());
         }
+        // |r| < 2^17.22.
+        assert!((residual as f64) < 2f64.powf(17.22), "|r| {residual}");
         assert!(
-            worst <= 1 << 35,
+            worst <= (1 << 35) / 10000 * 4816,
             "{}·2^-28 at {at:#x}",
             worst as f64 / 2f64.powi(35)
         );
-        assert_eq!(at, 0x8018_1079);
+        assert_eq!(at, 0x80F9_0575);
     }
 
     /// The exact reciprocal of a normalised divisor, from the definition in

@@ -15,9 +15,9 @@
 //!    - [`NtcSteinhartHart`]: 1/T = A + B·ln R + C·(ln R)³ (Steinhart &
 //!      Hart, *Deep-Sea Research* 15(4):497–503, 1968).
 //! 4. T = 1/(1/T), straight into centi-kelvin, without a division: a
-//!    reciprocal interpolated in a 259-entry table (Bessel's formula to
-//!    second differences), within a relative 2^-28 (the same reciprocal
-//!    as the level reader's ratio); then rounded to 0.01 °C.
+//!    reciprocal seeded from a 65-entry table and refined by one Newton
+//!    step, within a relative 2^-28 (the same reciprocal as the level
+//!    reader's ratio); then rounded to 0.01 °C.
 //!
 //! [`Beta`], [`SteinhartHart`] and [`steinhart_hart_fit`] are the same laws
 //! in `f64`, forward (R from T, for the host simulator) and inverse (the
@@ -82,13 +82,14 @@
 //! (six 32 × 32 → 64-bit products, two 16 × 16-bit ones, two leading-zero
 //! counts), the law (Beta: one product; Steinhart–Hart with C ≠ 0: three,
 //! and two normalisations), a normalisation of 1/T, the reciprocal (five
-//! 16 × 16-bit products) and the quotient (one product). The wide products
+//! 16 × 16-bit products, a 65-entry table's chord and one Newton step)
+//! and the quotient (one product). The wide products
 //! use the crate-private `fixed::mul_u32_wide`: 8 for Beta, 10 for Steinhart–Hart.
 //! The constants (ln(R_s/R25) or ln R_s, 1/B, the coefficients in fixed
 //! point) are computed once, at construction. Tables: 64 × 2 `u32` and
-//! 32 `u64` for the logarithm, 259 `u32` for the reciprocal (1 804 bytes),
+//! 32 `u64` for the logarithm, 65 `u16` for the reciprocal (898 bytes),
 //! and the 128-byte table of leading zeros shared with the other
-//! normalisations. On a Cortex-M0 a Beta conversion costs 559.5
+//! normalisations. On a Cortex-M0 a Beta conversion costs 567.5
 //! instructions (docs/performance.md).
 //!
 //! ## Example

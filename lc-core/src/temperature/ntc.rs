@@ -34,7 +34,7 @@ const FINE_BITS: u32 = 16;
 /// 100 · 2^sh / m rounded to nearest, within 2^-28 of it (relative) plus
 /// half a unit, for m ≥ 2^31 and 32 ≤ sh ≤ 57; `None` outside those.
 /// No division: (100 · Y) · 2^-(63 − sh) with Y ≈ 2^63/m from
-/// [`reciprocal_q63`] (second-order interpolation in a 259-entry table).
+/// [`reciprocal_q63`] (a 65-entry table's chord and one Newton step).
 /// Cost: one 32 × 32 → 64-bit product besides the reciprocal's five
 /// 16 × 16-bit ones.
 #[inline]
