@@ -522,10 +522,7 @@ fn within_budget() {
     let rows: Vec<_> = EXAMPLES.iter().map(|ex| (ex, measure(ex))).collect();
     let figures = table(&rows);
     println!("{figures}");
-    let over: Vec<String> = rows
-        .iter()
-        .flat_map(|(ex, f)| misses(ex, f))
-        .collect();
+    let over: Vec<String> = rows.iter().flat_map(|(ex, f)| misses(ex, f)).collect();
     assert!(
         over.is_empty(),
         "over budget:\n  {}\n{figures}",
