@@ -49,6 +49,8 @@
 //! the figures (scripts/check.sh does, after the test suite). Size and stack are deterministic for a pinned toolchain:
 //! these are budget checks, not timings.
 
+#[path = "../lc-core/capi/tests/support/readings.rs"]
+mod readings;
 #[path = "../examples/unit-firmware/src/report.rs"]
 #[allow(dead_code)]
 mod report;
@@ -67,7 +69,7 @@ use std::thread;
 use std::time::{Duration, Instant};
 
 use lc_core::image::{ImageBuf, ReaderKind};
-use lc_core::reader::{Input, LevelReader, MetalReader, ProximityReader};
+use lc_core::reader::Input;
 
 const TRIPLE: &str = "thumbv6m-none-eabi";
 const QEMU: &str = "qemu-system-arm";
@@ -130,41 +132,7 @@ fn host_output(ex: &Example) -> String {
     let buf = ImageBuf::from_bytes(&bytes).expect("the committed image fits");
     let image = buf.image().expect("the committed image is valid");
     assert_eq!(image.kind(), ex.kind, "{}: image kind", ex.image);
-    let mut out = Text(String::from("boot\n"));
-    match ex.kind {
-        ReaderKind::Proximity => {
-            let mut r = ProximityReader::new(&image).expect("proximity reader");
-            for (i, input) in (0u32..).zip(ex.inputs) {
-                let r = r.read(input);
-                report::proximity(&mut out, i, &r);
-            }
-        }
-        ReaderKind::Level => {
-            let mut r = LevelReader::new(&image).expect("level reader");
-            for (i, input) in (0u32..).zip(ex.inputs) {
-                let r = r.read(input);
-                report::level(&mut out, i, &r);
-            }
-        }
-        ReaderKind::Metal => {
-            let mut r = MetalReader::new(&image).expect("metal reader");
-            for (i, input) in (0u32..).zip(ex.inputs) {
-                let r = r.read(input);
-                report::metal(&mut out, i, &r);
-            }
-        }
-    }
-    out.0
-}
-
-/// The host's side of the firmware's output: the lines as text.
-struct Text(String);
-
-impl report::Sink for Text {
-    fn put(&mut self, bytes: &[u8]) {
-        self.0
-            .push_str(std::str::from_utf8(bytes).expect("ASCII pieces"));
-    }
+    format!("boot\n{}", readings::reading_lines(&image, ex.inputs))
 }
 
 // ---------------------------------------------------------------------

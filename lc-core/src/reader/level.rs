@@ -205,18 +205,7 @@ impl<'a, E: Electrodes> LevelReader<'a, E> {
     /// arrangement. It reads as [`LevelReader::new`]'s reader of the same
     /// image, bit for bit. Cost, RAM and stack: as [`LevelReader::new`].
     pub fn with_electrodes(image: &Image<'a>, electrodes: E) -> Result<Self, ReaderError> {
-        Self::check(image, electrodes)?;
-        match (image.kind(), image.curve()) {
-            (ReaderKind::Level, Some(curve)) => Ok(Self {
-                front: image.front(),
-                reference: Self::reference(image),
-                curve,
-                volume: image.volume_table(),
-                offset_cache: None,
-                electrodes: PhantomData,
-            }),
-            (kind, _) => Err(ReaderError::WrongKind(kind)),
-        }
+        Self::build(image, electrodes, |reader| reader)
     }
 
     /// [`LevelReader::with_electrodes`] built in place (as
@@ -226,9 +215,23 @@ impl<'a, E: Electrodes> LevelReader<'a, E> {
         image: &Image<'a>,
         electrodes: E,
     ) -> Result<&'s mut Self, ReaderError> {
+        Self::build(image, electrodes, |reader| slot.write(reader))
+    }
+
+    /// The one field list of [`LevelReader::with_electrodes`] and
+    /// [`LevelReader::init_with_electrodes`]: the arrangement and the kind
+    /// checked, then the reader built and handed to `put` (returned as it
+    /// is, or written into a slot). Inlined into both, so each writes the
+    /// fields straight to where the reader lives.
+    #[inline(always)]
+    fn build<R>(
+        image: &Image<'a>,
+        electrodes: E,
+        put: impl FnOnce(Self) -> R,
+    ) -> Result<R, ReaderError> {
         Self::check(image, electrodes)?;
         match (image.kind(), image.curve()) {
-            (ReaderKind::Level, Some(curve)) => Ok(slot.write(Self {
+            (ReaderKind::Level, Some(curve)) => Ok(put(Self {
                 front: image.front(),
                 reference: Self::reference(image),
                 curve,

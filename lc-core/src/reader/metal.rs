@@ -123,24 +123,7 @@ impl MetalReader {
     /// `companion` feature (the crate docs, "Memory"); stack: the same,
     /// once.
     pub fn new(image: &Image<'_>) -> Result<Self, ReaderError> {
-        let params = match (image.kind(), image.metal()) {
-            (ReaderKind::Metal, Some(p)) => p,
-            (kind, _) => return Err(ReaderError::WrongKind(kind)),
-        };
-        Ok(Self {
-            front: image.front(),
-            baseline: UNLEARNED,
-            // The image's validation checked the parameters
-            // (`metal_builds`): the thresholds ordered, the debounce counts
-            // and k in range.
-            detector: Detector::new_unchecked(metal_detector(&params)),
-            ring_baseline: RING_UNLEARNED,
-            present_for: 0,
-            relearn: params.relearn_readings,
-            ring_drop: params.ring_drop,
-            k_minus_1: params.baseline_k.wrapping_sub(1),
-            class: MetalClass::None,
-        })
+        Self::build(image, |reader| reader)
     }
 
     /// [`MetalReader::new`] built in place, in storage the caller provides
@@ -155,14 +138,26 @@ impl MetalReader {
         slot: &'s mut MaybeUninit<Self>,
         image: &Image<'_>,
     ) -> Result<&'s mut Self, ReaderError> {
+        Self::build(image, |reader| slot.write(reader))
+    }
+
+    /// The one field list of [`MetalReader::new`] and
+    /// [`MetalReader::init`]: the kind checked, then the reader built and
+    /// handed to `put` (returned as it is, or written into a slot). Inlined
+    /// into both, so each writes the fields straight to where the reader
+    /// lives.
+    #[inline(always)]
+    fn build<R>(image: &Image<'_>, put: impl FnOnce(Self) -> R) -> Result<R, ReaderError> {
         let params = match (image.kind(), image.metal()) {
             (ReaderKind::Metal, Some(p)) => p,
             (kind, _) => return Err(ReaderError::WrongKind(kind)),
         };
-        // As in `new`: validation checked the parameters (`metal_builds`).
-        Ok(slot.write(Self {
+        Ok(put(Self {
             front: image.front(),
             baseline: UNLEARNED,
+            // The image's validation checked the parameters
+            // (`metal_builds`): the thresholds ordered, the debounce counts
+            // and k in range.
             detector: Detector::new_unchecked(metal_detector(&params)),
             ring_baseline: RING_UNLEARNED,
             present_for: 0,
