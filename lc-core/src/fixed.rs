@@ -487,7 +487,7 @@ pub(crate) fn normalise(v: u64) -> (u32, u32) {
 /// call and its spills would be paid on every reading.
 #[inline(always)]
 fn normalise_inline(v: u64) -> (u32, u32) {
-    let Some((z, top, round)) = normalise_parts_inline(v) else {
+    let Some((z, top, round)) = normalise_parts(v) else {
         return (0, 32);
     };
     match top.checked_add(round) {
@@ -505,32 +505,31 @@ fn normalise_inline(v: u64) -> (u32, u32) {
 /// zeros z (0..=63), the top 32 bits from the leading one (`top`, its top
 /// bit set) and the next bit (`round`, 0 or 1); `None` for v = 0. The
 /// caller adds `round` to `top` and, on a carry out, takes 2^31 at z − 1.
-#[inline]
-pub(crate) fn normalise_parts(v: u64) -> Option<(u32, u32, u32)> {
-    normalise_parts_inline(v)
-}
-
-/// [`normalise_parts`], always inlined.
+/// One count of leading zeros: a zero high word takes the low one (32
+/// zeros more) first, so on ARMv6-M, where the count is inline steps and a
+/// table, each caller holds one copy of them instead of one per word.
+/// Always inlined: the level reader's ratio and the shift's squaring pay
+/// no call.
 #[inline(always)]
-fn normalise_parts_inline(v: u64) -> Option<(u32, u32, u32)> {
+pub(crate) fn normalise_parts(v: u64) -> Option<(u32, u32, u32)> {
     let (hi, lo) = ((v >> 32) as u32, v as u32); // exact halves
-    if hi != 0 {
-        // 0..=31 for hi ≠ 0: no shift count below is out of range (the
-        // compiler cannot see it through `leading_zeros_u32`, hence the
-        // wrapping forms, which are the plain shifts here).
-        let z = leading_zeros_u32(hi);
-        let top = if z == 0 {
-            hi
-        } else {
-            hi.wrapping_shl(z) | lo.wrapping_shr(32u32.wrapping_sub(z))
-        };
-        Some((z, top, lo.wrapping_shl(z) >> 31))
+    let (hi, lo, z_word) = if hi != 0 {
+        (hi, lo, 0)
     } else if lo != 0 {
-        let z = leading_zeros_u32(lo); // 0..=31 for lo ≠ 0
-        Some((z.wrapping_add(32), lo.wrapping_shl(z), 0))
+        (lo, 0, 32)
     } else {
-        None
-    }
+        return None;
+    };
+    // 0..=31 for hi ≠ 0: the shift counts below are in range (the
+    // compiler cannot see it through `leading_zeros_u32`, hence the
+    // wrapping forms, which are the plain shifts here).
+    let z = leading_zeros_u32(hi);
+    let top = if z == 0 {
+        hi
+    } else {
+        hi.wrapping_shl(z) | lo.wrapping_shr(32u32.wrapping_sub(z))
+    };
+    Some((z.wrapping_add(z_word), top, lo.wrapping_shl(z) >> 31))
 }
 
 /// `x` shifted left by its leading zeros z (top bit set) and z; (0, 64)
@@ -749,6 +748,21 @@ mod tests {
             let d = (d >> sh).max(1);
             prop_assert_eq!(div_rem_u128_serial(n, d), Some((n / d, n % d)));
             prop_assert_eq!(div_rem_u128_serial(n >> sh, d), Some(((n >> sh) / d, (n >> sh) % d)));
+        }
+    }
+
+    proptest! {
+        /// `normalise_parts` is the native normalisation: x shifted left
+        /// by its leading zeros, its top word and the bit below it.
+        #[test]
+        fn normalise_parts_is_the_native_shift(hi in prop_oneof![Just(0u32), Just(1), any::<u32>()], lo in prop_oneof![Just(0u32), Just(1), any::<u32>()]) {
+            let x = (u64::from(hi) << 32) | u64::from(lo);
+            let native = (x != 0).then(|| {
+                let z = x.leading_zeros();
+                let y = x << z;
+                (z, (y >> 32) as u32, ((y >> 31) & 1) as u32)
+            });
+            prop_assert_eq!(normalise_parts(x), native);
         }
     }
 

@@ -58,8 +58,7 @@
 use crate::counting::{CountPair, Gate, Gating};
 use crate::derived::{is_rounded_ratio, mul_wide};
 use crate::fixed::{
-    div_rem_u64_u32, leading_zeros_u32, mul_u32_wide, round_div_u128, round_shr_u64, shl_to_top,
-    ARMV6M,
+    div_rem_u64_u32, mul_u32_wide, round_div_u128, round_shr_u64, shl_to_top, ARMV6M,
 };
 use crate::ratio::{period_ratio, PeriodRatio};
 use core::fmt;
@@ -562,7 +561,7 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
     // x ≈ y · 2^(32 − z), so r ≈ y · 2^(32 − z − exp): the steps of
     // `fixed::normalise`, with the rounding's carry taken here, since x
     // may reach 2^64 − 1 and the carry then gives z = −1.
-    let Some((z, top, round)) = normalise_words(x) else {
+    let Some((z, top, round)) = crate::fixed::normalise_parts(x) else {
         return Err(ShiftError::ZeroCount);
     };
     let z = z as i32; // ≤ 63
@@ -584,32 +583,6 @@ fn square_to_shift(x: u64, exp: i32) -> Result<Shift, ShiftError> {
     let u = round_shr_u64(square_u32(y), k.unsigned_abs());
     let u = i64::try_from(u).map_err(|_| ShiftError::OutOfRange)?;
     Ok(Shift(u - Shift::ONE_RAW))
-}
-
-/// `fixed::normalise_parts` of `x` (leading zeros z, the top 32 bits
-/// from the leading one, the next bit; `None` for 0) with one count of
-/// leading zeros: a zero high word takes the low one (32 zeros more)
-/// first. On ARMv6-M, where the count is inline steps and a table, one
-/// copy of them in `square_to_shift` instead of one per word.
-#[inline(always)]
-fn normalise_words(x: u64) -> Option<(u32, u32, u32)> {
-    let (hi, lo) = ((x >> 32) as u32, x as u32); // exact halves
-    let (hi, lo, z_word) = if hi != 0 {
-        (hi, lo, 0)
-    } else if lo != 0 {
-        (lo, 0, 32)
-    } else {
-        return None;
-    };
-    // 0..=31 for hi ≠ 0: the shift counts below are in range (the
-    // wrapping forms are the plain shifts here).
-    let z = leading_zeros_u32(hi);
-    let top = if z == 0 {
-        hi
-    } else {
-        hi.wrapping_shl(z) | lo.wrapping_shr(32u32.wrapping_sub(z))
-    };
-    Some((z.wrapping_add(z_word), top, lo.wrapping_shl(z) >> 31))
 }
 
 /// y², exact. On ARMv6-M (a 32 × 32 → 32-bit multiply only) from the
@@ -1070,15 +1043,6 @@ mod tests {
             prop_assert!(err <= bound, "err {err:e} bound {bound:e}");
             let step = 2.0 * (1.0 + float) / f64::from(case.pair.max_count());
             prop_assert!(err <= 0.1 * step, "err {err:e} step {step:e}");
-        }
-
-        /// The configured-gate shortcut is bit-identical to the general
-        /// normalisation wherever it applies, and it applies across the
-        /// declared domain.
-        #[test]
-        fn normalise_words_is_normalise_parts(hi in prop_oneof![Just(0u32), Just(1), any::<u32>()], lo in prop_oneof![Just(0u32), Just(1), any::<u32>()]) {
-            let x = (u64::from(hi) << 32) | u64::from(lo);
-            prop_assert_eq!(normalise_words(x), crate::fixed::normalise_parts(x));
         }
 
         #[test]
