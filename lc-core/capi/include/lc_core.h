@@ -1116,8 +1116,9 @@ lc_error_t lc_level_read(struct lc_level_reader_t *reader,
 
 /*
  Builds a metal reader from a validated image into `reader`. Errors:
- as `lc_proximity_reader_init`. Cost: two small divisions (the thresholds); the reader needs nothing from
- the image afterwards.
+ as `lc_proximity_reader_init`. Cost: the thresholds to Q23.40 (a few
+ multiplies, no division); the reader needs nothing from the image
+ afterwards.
 
  Library features: `image` and `metal` (docs/c-api.md).
 

@@ -1617,8 +1617,9 @@ pub unsafe extern "C" fn lc_level_read(
 }
 
 /// Builds a metal reader from a validated image into `reader`. Errors:
-/// as `lc_proximity_reader_init`. Cost: two small divisions (the thresholds); the reader needs nothing from
-/// the image afterwards.
+/// as `lc_proximity_reader_init`. Cost: the thresholds to Q23.40 (a few
+/// multiplies, no division); the reader needs nothing from the image
+/// afterwards.
 ///
 /// Library features: `image` and `metal` (docs/c-api.md).
 ///
